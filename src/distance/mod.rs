@@ -1,0 +1,2 @@
+//! Is it clustered, and at what distances? (CSR tests; filled in by the
+//! clustering-tests work.)

@@ -1,0 +1,1 @@
+//! Detects column roles from header names.

@@ -1,0 +1,1 @@
+//! Delimited text: delimiter detection (`,` `;` tab), quoted fields, decimal comma.

@@ -1,0 +1,236 @@
+//! What did the user give us?
+//!
+//! Turns the bytes of an events / controls file (CSV or GeoJSON points) into a
+//! [`RawLayer`], and the bytes of a study-area file (GeoJSON polygons) into a
+//! [`RawArea`]. Coordinates are still in the file's own system here; the
+//! [`crate::study`] module projects them. Every data row ends up either in the
+//! layer or in its `rejections`, so `accepted + rejected == rows_read` always.
+//!
+//! Submodules:
+//! * [`text`]: byte-level checks (empty, binary, UTF-8, BOM) and format sniffing.
+//! * [`csv`]: delimiter detection, quoted fields, decimal comma.
+//! * [`columns`]: header-name detection of x/y, lon/lat, time, category, weight.
+//! * [`time`]: ISO 8601 and day/month/year parsing to days since 1970-01-01.
+//! * [`geojson`]: FeatureCollection of points, and polygon study areas.
+//! * [`layer`]: builds a [`RawLayer`] from a table, row by row.
+
+pub mod columns;
+pub mod csv;
+pub mod geojson;
+pub mod layer;
+pub mod text;
+pub mod time;
+
+use crate::error::InputError;
+use serde::{Deserialize, Serialize};
+
+/// Unit of projected (planar) coordinates.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LengthUnit {
+    /// Metres.
+    Metre,
+    /// International foot, 0.3048 m exactly.
+    Foot,
+    /// US survey foot, 1200/3937 m.
+    UsSurveyFoot,
+}
+
+impl LengthUnit {
+    /// Length of one unit in metres.
+    pub fn metres(self) -> f64 {
+        match self {
+            LengthUnit::Metre => 1.0,
+            LengthUnit::Foot => 0.3048,
+            LengthUnit::UsSurveyFoot => 1200.0 / 3937.0,
+        }
+    }
+}
+
+/// What the coordinates in a file are.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum CoordKind {
+    /// Longitude and latitude in decimal degrees (WGS 84).
+    LonLat,
+    /// Already projected, planar coordinates in the given unit.
+    Planar { unit: LengthUnit },
+}
+
+/// Field order for dates written with slashes, dots or dashes such as `03/04/2025`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum DateOrder {
+    /// 03/04/2025 is 3 April 2025.
+    #[default]
+    DayMonthYear,
+    /// 03/04/2025 is 4 March 2025.
+    MonthDayYear,
+    /// 2025/04/03 is 3 April 2025.
+    YearMonthDay,
+}
+
+/// Which column plays which part. `None` means "detect from the header names".
+/// For GeoJSON points the coordinates come from the geometry and `x`/`y` are
+/// ignored; the other fields name properties.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct ColumnMapping {
+    pub x: Option<String>,
+    pub y: Option<String>,
+    pub time: Option<String>,
+    pub category: Option<String>,
+    pub weight: Option<String>,
+}
+
+/// Options for reading an events or controls file. All fields have defaults,
+/// so JavaScript may pass `{}`.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct ReadOptions {
+    /// Column roles; unset roles are detected.
+    pub mapping: ColumnMapping,
+    /// Coordinate system; `None` = detect (lon/lat names or ranges → LonLat,
+    /// otherwise planar metres).
+    pub coords: Option<CoordKind>,
+    /// How to read slash dates.
+    pub date_order: DateOrder,
+    /// Set to `""` to turn off detection of the time column etc. is not needed:
+    /// use the mapping. `delimiter`: `None` = detect among `,` `;` tab.
+    pub delimiter: Option<char>,
+}
+
+/// Why one row was not accepted.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RejectReason {
+    /// A required cell is empty.
+    Empty,
+    /// A coordinate or weight that is not a number (including NaN and infinities).
+    NotANumber,
+    /// Latitude outside [-90, 90].
+    LatitudeOutOfRange,
+    /// Longitude outside [-180, 180].
+    LongitudeOutOfRange,
+    /// Outside the study area (or inside one of its holes).
+    OutsideStudyArea,
+    /// The time cell could not be read with the chosen date order.
+    BadTime,
+    /// A negative or non-finite weight.
+    BadWeight,
+    /// The record has fewer fields than the header.
+    TooFewFields,
+    /// A GeoJSON feature without a usable point geometry.
+    BadGeometry,
+}
+
+impl RejectReason {
+    /// Plain-words description shown in the rejection table.
+    pub fn describe(&self) -> &'static str {
+        match self {
+            RejectReason::Empty => "empty",
+            RejectReason::NotANumber => "not a number",
+            RejectReason::LatitudeOutOfRange => "latitude outside [-90, 90]",
+            RejectReason::LongitudeOutOfRange => "longitude outside [-180, 180]",
+            RejectReason::OutsideStudyArea => "outside the study area",
+            RejectReason::BadTime => "unreadable date/time",
+            RejectReason::BadWeight => "weight must be a number ≥ 0",
+            RejectReason::TooFewFields => "fewer fields than the header",
+            RejectReason::BadGeometry => "no usable point geometry",
+        }
+    }
+}
+
+/// One rejected row.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Rejection {
+    /// 1-based row (CSV, header = 1) or feature number (GeoJSON).
+    pub row: u64,
+    /// The column (or "geometry") at fault, if one.
+    pub column: Option<String>,
+    pub reason: RejectReason,
+    /// The offending text, cut to at most 60 characters.
+    pub value: String,
+}
+
+/// The format a file was read as.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+#[serde(tag = "format", rename_all = "snake_case")]
+pub enum SourceFormat {
+    Csv { delimiter: char, decimal_comma: bool },
+    GeoJson,
+}
+
+/// Column roles as actually used (after detection), by header name.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct ResolvedMapping {
+    pub x: Option<String>,
+    pub y: Option<String>,
+    pub time: Option<String>,
+    pub category: Option<String>,
+    pub weight: Option<String>,
+}
+
+/// An events or controls layer as read, in the file's own coordinates.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RawLayer {
+    pub format: SourceFormat,
+    /// All column / property names found, in file order.
+    pub columns: Vec<String>,
+    pub mapping: ResolvedMapping,
+    pub coords: CoordKind,
+    /// x (or longitude) of each accepted point, in the file's unit.
+    pub x: Vec<f64>,
+    /// y (or latitude) of each accepted point, in the file's unit.
+    pub y: Vec<f64>,
+    /// Days since 1970-01-01T00:00Z (fractional), if a time column is used.
+    pub time: Option<Vec<f64>>,
+    /// Index into `category_names`, if a category column is used.
+    pub category: Option<Vec<u32>>,
+    pub category_names: Vec<String>,
+    /// Weight / count, if a weight column is used.
+    pub weight: Option<Vec<f64>>,
+    /// Source row of each accepted point (same numbering as rejections).
+    pub row: Vec<u64>,
+    pub rejections: Vec<Rejection>,
+    /// Data rows (or features) read, not counting the header.
+    pub rows_read: u64,
+    /// Whether any time value carried a clock time (else dates only).
+    pub time_has_clock: bool,
+}
+
+impl RawLayer {
+    /// Number of accepted points.
+    pub fn len(&self) -> usize {
+        self.x.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.x.is_empty()
+    }
+}
+
+/// A study area as read: polygons with holes, in the file's coordinates.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RawArea {
+    /// Each polygon: exterior ring first, then holes; rings as (x, y) vertices,
+    /// not necessarily closed.
+    pub polygons: Vec<Vec<Vec<[f64; 2]>>>,
+    /// LonLat when every vertex is inside lon/lat ranges, else planar (unit to be declared).
+    pub coords: CoordKind,
+}
+
+/// Reads an events or controls file (CSV or GeoJSON, sniffed from content).
+pub fn read_points(bytes: &[u8], opts: &ReadOptions) -> Result<RawLayer, InputError> {
+    let text = text::decode(bytes)?;
+    match text::sniff(text) {
+        text::Format::Json => geojson::read_points(text, opts),
+        text::Format::Delimited => layer::from_csv(text, opts),
+    }
+}
+
+/// Reads a study-area file (GeoJSON Polygon / MultiPolygon, Feature or
+/// FeatureCollection of them). `coords` overrides detection.
+pub fn read_area(bytes: &[u8], coords: Option<CoordKind>) -> Result<RawArea, InputError> {
+    let text = text::decode(bytes)?;
+    geojson::read_area(text, coords)
+}

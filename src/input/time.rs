@@ -1,0 +1,1 @@
+//! Dates and date-times to days since 1970-01-01T00:00Z.

@@ -1,0 +1,2 @@
+//! How is it drawn? Charts as functions of results, generic over a plotters
+//! `DrawingBackend`, so they render to canvas in the page and to SVG in tests.

@@ -1,0 +1,1 @@
+//! What does it look like? Descriptive summary of a [`crate::Study`].
