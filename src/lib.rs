@@ -29,17 +29,26 @@
 //!   ellipse, nearest-neighbour distances, time span, categories).
 //! * Is it clustered, and at what distances? → [`distance`] (CSR simulation,
 //!   quadrats, Clark–Evans, G/F/J/K/L/g, Monte Carlo envelopes).
+//! * Where is it dense? → [`intensity`] (kernel intensity surfaces with edge
+//!   correction, bandwidth selection, percent-volume isopleths as polygons).
+//! * Which points belong together? → [`clusters`] (DBSCAN with scikit-learn's
+//!   labelling, k-distance plot, cluster hulls).
+//! * Is this excess more than chance? → [`scan`] (Kulldorff's circular spatial
+//!   scan with Monte Carlo p-values, run in batches).
 //! * How is it drawn? → [`plot`] (charts generic over a plotters backend).
 
 #![forbid(unsafe_code)]
 
+pub mod clusters;
 pub mod distance;
 pub mod error;
 pub mod index;
 pub mod input;
+pub mod intensity;
 pub mod plot;
 pub mod projection;
 pub mod rng;
+pub mod scan;
 pub mod study;
 pub mod summary;
 pub mod window;

@@ -1,0 +1,810 @@
+//! Kulldorff's circular spatial scan statistic.
+//!
+//! Kulldorff (1997), "A spatial scan statistic", Communications in Statistics
+//! — Theory and Methods 26(6):1481–1496, doi:10.1080/03610929708831995.
+//!
+//! # Data and models
+//! The engine works on **regions**: a location, a case count and a
+//! population. Point data are turned into regions first.
+//! * **Bernoulli** (cases and controls): population = cases + controls at the
+//!   region. Null: the `C` case labels are a random subset of the `N`
+//!   individuals (a permutation of labels).
+//! * **Poisson**: expected cases in a window `E = C·p_Z/P`. Null: `C` cases
+//!   multinomial over regions with probabilities `p_i/P` (conditional on C).
+//!   For events without controls the population is **area** ("Poisson model
+//!   against area"): `E = n·|Z ∩ W|/|W|`.
+//!
+//! # Windows
+//! A window is centred on a region and grows through the regions sorted by
+//! distance from it; regions at tied distances enter together (METHODS §9
+//! [CP]). A window includes a region when the region's location lies in the
+//! circle. Growth stops before the window's population exceeds `max_share`
+//! of the total (default 50 %). The window set is enumerated once and reused
+//! for every replicate.
+//!
+//! Where the regions come from ([`ScanCentres`]):
+//! * `Events` (Bernoulli only): one region per distinct location of a case or
+//!   control; windows centred on every such location, growing event by event.
+//!   Exact, but each replicate costs O(N²·max_share).
+//! * `Grid`: events are counted in square cells (`cells_long_side` along the
+//!   longer side of the study area's bounding box); each cell is a region at
+//!   its centre. For the Poisson-against-area model a cell's population is its
+//!   area inside the study area, estimated from a 4 × 4 sub-grid of points, so
+//!   `|Z ∩ W|` is the area in `W` of the cells whose centres lie in the circle
+//!   (an approximation at cell resolution of the circle–window intersection).
+//!   `Auto` picks `Events` for Bernoulli data with at most 2 000 distinct
+//!   locations and `Grid` otherwise.
+//!
+//! # Statistic
+//! Log-likelihood ratios for raised risk only (METHODS §9, 0·ln 0 = 0):
+//! * Poisson: `LLR = c·ln(c/E) + (C−c)·ln((C−c)/(C−E))` if `c > E`, else 0;
+//! * Bernoulli: the binomial LLR of METHODS §9 if `c/n > (C−c)/(N−n)`, else 0.
+//!
+//! The test statistic is the largest LLR over all windows; its window is the
+//! **most likely cluster**. Monte Carlo p-value (Kulldorff 1997; Abrams,
+//! Kleinman & Kulldorff 2010 for the rank form):
+//! `p = (1 + #{T_j ≥ T_obs}) / (m + 1)`, with `m = n_sim` replicates
+//! (default 999).
+//!
+//! **Secondary clusters**: for each centre its best window; these are taken
+//! in decreasing LLR order and kept when they share **no region** with a
+//! cluster already reported (METHODS §9 [M/CP]). Their p-values use the same
+//! null distribution of the maximum, so they are conservative.
+//!
+//! # Replicates in batches
+//! [`ScanJob::new`] (or a `from_…` constructor) enumerates the windows and
+//! scores the data; [`ScanJob::run_batch`] runs the next `k` replicates;
+//! [`ScanJob::finish`] returns the result. Replicate `j` uses its own
+//! generator seeded from `(seed, j)`, so the result is the same whatever the
+//! batch sizes.
+//!
+//! # Speed
+//! For a fixed count `c`, both LLRs fall as the window's expected count (or
+//! population) grows. So a replicate only needs, for each `c`, the smallest
+//! expected count of any window holding exactly `c` cases: one pass along
+//! every centre's sorted list with a running count, then `C` LLR evaluations.
+//! This gives exactly the maximum LLR over all windows.
+
+use crate::error::AnalysisError;
+use crate::intensity::region::Region;
+use crate::rng::{rng_from_seed, Rng};
+use crate::study::Pattern;
+use crate::window::Window;
+use rand::RngExt;
+use serde::{Deserialize, Serialize};
+
+/// The probability model.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ScanModel {
+    /// Bernoulli when controls are given, Poisson against area otherwise.
+    #[default]
+    Auto,
+    /// Cases versus controls.
+    Bernoulli,
+    /// Cases versus population (area for bare events).
+    Poisson,
+}
+
+/// Where windows are centred (see the module docs).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ScanCentres {
+    #[default]
+    Auto,
+    Events,
+    Grid,
+}
+
+/// Options for the scan.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct ScanOptions {
+    pub model: ScanModel,
+    pub centres: ScanCentres,
+    /// Cells along the longer side for grid regions (default 40).
+    pub cells_long_side: usize,
+    /// Largest window as a share of the total population (default 0.5).
+    pub max_share: f64,
+    /// Monte Carlo replicates (default 999).
+    pub n_sim: usize,
+    pub seed: u64,
+    /// Secondary clusters to report at most (default 10).
+    pub max_secondary: usize,
+}
+
+impl Default for ScanOptions {
+    fn default() -> Self {
+        ScanOptions {
+            model: ScanModel::Auto,
+            centres: ScanCentres::Auto,
+            cells_long_side: 40,
+            max_share: 0.5,
+            n_sim: 999,
+            seed: 20_240_601,
+            max_secondary: 10,
+        }
+    }
+}
+
+/// Aggregated data: one entry per region.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
+pub struct ScanRegions {
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+    pub cases: Vec<u32>,
+    /// Poisson: population (or area, m²); Bernoulli: cases + controls.
+    pub population: Vec<f64>,
+}
+
+/// One reported cluster.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScanCluster {
+    /// 0 for the most likely cluster, then secondary clusters.
+    pub rank: usize,
+    /// Index of the centre region.
+    pub centre_region: usize,
+    pub centre_x: f64,
+    pub centre_y: f64,
+    /// Distance from the centre to the farthest region included, metres.
+    pub radius_m: f64,
+    /// Regions in the window (indices into the scan's regions).
+    pub regions: Vec<usize>,
+    pub observed: u64,
+    pub expected: f64,
+    /// `(c/E) / ((C−c)/(C−E))`.
+    pub relative_risk: f64,
+    /// Population in the window (Bernoulli: individuals; area model: m²).
+    pub population: f64,
+    pub llr: f64,
+    pub p_value: f64,
+}
+
+/// The scan's result.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScanResult {
+    pub model: ScanModel,
+    pub centres: ScanCentres,
+    pub n_sim: usize,
+    pub seed: u64,
+    pub max_share: f64,
+    pub n_regions: usize,
+    pub n_windows: usize,
+    pub total_cases: u64,
+    pub total_population: f64,
+    /// Largest LLR in the data (0 when no window has an excess).
+    pub statistic: f64,
+    pub p_value: f64,
+    /// Most likely cluster first; empty when no window has an excess.
+    pub clusters: Vec<ScanCluster>,
+    /// Maxima of the replicates, in replicate order.
+    pub null_maxima: Vec<f64>,
+    /// 95th and 99th percentiles of the null maxima (critical values).
+    pub critical_95: Option<f64>,
+    pub critical_99: Option<f64>,
+    /// For grid regions: the cell side, metres.
+    pub cell_m: Option<f64>,
+}
+
+/// Progress after a batch.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct ScanProgress {
+    pub done: usize,
+    pub total: usize,
+}
+
+/// `a·ln(a/b)` with `0·ln 0 = 0`.
+fn xlogx(a: f64, b: f64) -> f64 {
+    if a <= 0.0 {
+        0.0
+    } else {
+        a * (a / b).ln()
+    }
+}
+
+/// Poisson LLR for raised risk (METHODS §9): `c` observed, `e` expected,
+/// `total` cases in all. 0 unless `c > e`.
+pub fn llr_poisson(c: f64, e: f64, total: f64) -> f64 {
+    if c <= e || e <= 0.0 {
+        return 0.0;
+    }
+    xlogx(c, e) + xlogx(total - c, total - e)
+}
+
+/// Bernoulli LLR for raised risk (METHODS §9): `c` cases among `n` in the
+/// window, `cases` among `total` in all. 0 unless `c/n > (C−c)/(N−n)`.
+pub fn llr_bernoulli(c: f64, n: f64, cases: f64, total: f64) -> f64 {
+    if n <= 0.0 || n >= total || c / n <= (cases - c) / (total - n) {
+        return 0.0;
+    }
+    let l1 = xlogx(c, n)
+        + xlogx(n - c, n)
+        + xlogx(cases - c, total - n)
+        + xlogx(total - n - cases + c, total - n);
+    let l0 = xlogx(cases, total) + xlogx(total - cases, total);
+    (l1 - l0).max(0.0)
+}
+
+/// A prepared scan whose replicates run in batches.
+#[derive(Debug, Clone)]
+pub struct ScanJob {
+    model: ScanModel,
+    centres_kind: ScanCentres,
+    o: ScanOptions,
+    regions: ScanRegions,
+    cell_m: Option<f64>,
+    total_cases: u64,
+    total_pop: f64,
+    /// Flat neighbour lists: `list[start[i]..start[i+1]]` for centre i.
+    start: Vec<usize>,
+    list: Vec<u32>,
+    /// Window population at a group end, or −1 inside a tie group.
+    pop_at: Vec<f64>,
+    /// Distance from the centre at each list position.
+    dist_at: Vec<f64>,
+    /// Observed: per centre, best (llr, list position).
+    best_per_centre: Vec<(f64, usize)>,
+    observed_max: f64,
+    /// Bernoulli null: region of each individual.
+    individuals: Vec<u32>,
+    /// Poisson null: cumulative population.
+    cum_pop: Vec<f64>,
+    null_max: Vec<f64>,
+}
+
+fn bad(name: &str, detail: impl Into<String>) -> AnalysisError {
+    AnalysisError::BadParameter {
+        name: name.into(),
+        detail: detail.into(),
+    }
+}
+
+/// SplitMix64 finaliser (Steele, Lea & Flood 2014, OOPSLA), used to derive
+/// the generator of replicate `j` from the seed.
+fn mix(mut z: u64) -> u64 {
+    z = z.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
+}
+
+fn replicate_rng(seed: u64, j: usize) -> Rng {
+    rng_from_seed(mix(seed ^ mix(j as u64 + 1)))
+}
+
+/// Limit on stored window list entries (memory in the page).
+const MAX_LIST_ENTRIES: usize = 60_000_000;
+
+impl ScanJob {
+    /// Scan of a study's events (cases), with controls if given, over the
+    /// window. Chooses the model and regions as the options say.
+    pub fn new(
+        events: &Pattern,
+        controls: Option<&Pattern>,
+        window: &Window,
+        o: &ScanOptions,
+    ) -> Result<ScanJob, AnalysisError> {
+        let region = Region::from_window(window)?;
+        ScanJob::from_points(
+            events.x(),
+            events.y(),
+            controls.map(|c| (c.x(), c.y())),
+            &region,
+            o,
+        )
+    }
+
+    /// Point data: cases `(x, y)`, optional controls, study area.
+    pub fn from_points(
+        x: &[f64],
+        y: &[f64],
+        controls: Option<(&[f64], &[f64])>,
+        region: &Region,
+        o: &ScanOptions,
+    ) -> Result<ScanJob, AnalysisError> {
+        let model = match (o.model, controls.is_some()) {
+            (ScanModel::Auto, true) | (ScanModel::Bernoulli, true) => ScanModel::Bernoulli,
+            (ScanModel::Bernoulli, false) => {
+                return Err(bad(
+                    "model",
+                    "the case–control (Bernoulli) model needs a controls file",
+                ))
+            }
+            _ => ScanModel::Poisson,
+        };
+        if x.is_empty() {
+            return Err(AnalysisError::TooFewPoints {
+                needed: 1,
+                found: 0,
+            });
+        }
+        let (regions, centres, cell) = match model {
+            ScanModel::Bernoulli => {
+                let (kx, ky) = controls.unwrap_or((&[], &[]));
+                let distinct = distinct_locations(x, y, kx, ky);
+                let use_events = match o.centres {
+                    ScanCentres::Events => true,
+                    ScanCentres::Grid => false,
+                    ScanCentres::Auto => distinct.x.len() <= 2000,
+                };
+                if use_events {
+                    (distinct, ScanCentres::Events, None)
+                } else {
+                    let (r, c) = grid_regions(x, y, Some((kx, ky)), region, o.cells_long_side)?;
+                    (r, ScanCentres::Grid, Some(c))
+                }
+            }
+            _ => {
+                if o.centres == ScanCentres::Events {
+                    return Err(bad(
+                        "centres",
+                        "the model against area needs grid regions (each region needs an area)",
+                    ));
+                }
+                let (r, c) = grid_regions(x, y, None, region, o.cells_long_side)?;
+                (r, ScanCentres::Grid, Some(c))
+            }
+        };
+        let mut job = ScanJob::from_regions(&regions, model, o)?;
+        job.centres_kind = centres;
+        job.cell_m = cell;
+        Ok(job)
+    }
+
+    /// Aggregated data. `model` must be `Bernoulli` or `Poisson`.
+    pub fn from_regions(
+        regions: &ScanRegions,
+        model: ScanModel,
+        o: &ScanOptions,
+    ) -> Result<ScanJob, AnalysisError> {
+        let r = regions;
+        let n = r.x.len();
+        if r.y.len() != n || r.cases.len() != n || r.population.len() != n {
+            return Err(bad("regions", "the region lists differ in length"));
+        }
+        if model == ScanModel::Auto {
+            return Err(bad("model", "choose Bernoulli or Poisson for region data"));
+        }
+        if !(o.max_share > 0.0 && o.max_share <= 0.5) {
+            return Err(bad(
+                "max_share",
+                "the largest window must be more than 0 and at most 50 % of the population",
+            ));
+        }
+        for i in 0..n {
+            let p = r.population[i];
+            if !(p.is_finite() && p >= 0.0) || !r.x[i].is_finite() || !r.y[i].is_finite() {
+                return Err(bad(
+                    "regions",
+                    format!("region {} has a bad location or population", i + 1),
+                ));
+            }
+            if model == ScanModel::Bernoulli && (r.cases[i] as f64) > p {
+                return Err(bad(
+                    "regions",
+                    format!("region {} has more cases than people", i + 1),
+                ));
+            }
+            if model == ScanModel::Poisson && p == 0.0 && r.cases[i] > 0 {
+                return Err(bad(
+                    "regions",
+                    format!("region {} has cases but no population (or area)", i + 1),
+                ));
+            }
+        }
+        let total_cases: u64 = r.cases.iter().map(|&c| c as u64).sum();
+        let total_pop: f64 = r.population.iter().sum();
+        if total_cases == 0 {
+            return Err(AnalysisError::TooFewPoints {
+                needed: 1,
+                found: 0,
+            });
+        }
+        if model == ScanModel::Bernoulli && total_cases as f64 >= total_pop {
+            return Err(bad("controls", "there are no controls"));
+        }
+        // Neighbour lists.
+        let limit = o.max_share * total_pop;
+        let mut start = vec![0usize];
+        let mut list: Vec<u32> = Vec::new();
+        let mut pop_at: Vec<f64> = Vec::new();
+        let mut dist_at: Vec<f64> = Vec::new();
+        let mut order: Vec<(f64, u32)> = Vec::with_capacity(n);
+        for i in 0..n {
+            order.clear();
+            order.extend((0..n).map(|j| {
+                (
+                    (r.x[j] - r.x[i]).powi(2) + (r.y[j] - r.y[i]).powi(2),
+                    j as u32,
+                )
+            }));
+            order.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+            let mut pop = 0.0;
+            let mut k = 0;
+            while k < n {
+                // A tie group [k, g).
+                let mut g = k;
+                let mut gp = 0.0;
+                while g < n && order[g].0 == order[k].0 {
+                    gp += r.population[order[g].1 as usize];
+                    g += 1;
+                }
+                if pop + gp > limit * (1.0 + 1e-12) {
+                    break;
+                }
+                pop += gp;
+                for (q, &(d2, j)) in order.iter().enumerate().take(g).skip(k) {
+                    list.push(j);
+                    dist_at.push(d2.sqrt());
+                    pop_at.push(if q == g - 1 { pop } else { -1.0 });
+                }
+                k = g;
+            }
+            start.push(list.len());
+            if list.len() > MAX_LIST_ENTRIES {
+                return Err(bad(
+                    "max_share",
+                    "too many windows for this many locations: lower the largest window share \
+                     or use grid regions",
+                ));
+            }
+        }
+        let individuals = if model == ScanModel::Bernoulli {
+            let mut v = Vec::with_capacity(total_pop as usize);
+            for (i, &p) in r.population.iter().enumerate() {
+                for _ in 0..(p.round() as usize) {
+                    v.push(i as u32);
+                }
+            }
+            v
+        } else {
+            Vec::new()
+        };
+        let mut cum_pop = Vec::with_capacity(n);
+        let mut acc = 0.0;
+        for &p in &r.population {
+            acc += p;
+            cum_pop.push(acc);
+        }
+        let mut job = ScanJob {
+            model,
+            centres_kind: ScanCentres::Events,
+            o: *o,
+            regions: r.clone(),
+            cell_m: None,
+            total_cases,
+            total_pop,
+            start,
+            list,
+            pop_at,
+            dist_at,
+            best_per_centre: Vec::new(),
+            observed_max: 0.0,
+            individuals,
+            cum_pop,
+            null_max: Vec::with_capacity(o.n_sim),
+        };
+        job.score_observed();
+        Ok(job)
+    }
+
+    fn llr(&self, c: f64, pop: f64) -> f64 {
+        let cc = self.total_cases as f64;
+        match self.model {
+            ScanModel::Bernoulli => llr_bernoulli(c, pop, cc, self.total_pop),
+            _ => llr_poisson(c, cc * pop / self.total_pop, cc),
+        }
+    }
+
+    fn score_observed(&mut self) {
+        let n = self.regions.x.len();
+        let mut best = Vec::with_capacity(n);
+        let mut top = 0.0f64;
+        for i in 0..n {
+            let mut c = 0u64;
+            let mut b = (0.0, usize::MAX);
+            for k in self.start[i]..self.start[i + 1] {
+                c += self.regions.cases[self.list[k] as usize] as u64;
+                let p = self.pop_at[k];
+                if p >= 0.0 {
+                    let l = self.llr(c as f64, p);
+                    if l > b.0 {
+                        b = (l, k);
+                    }
+                }
+            }
+            top = top.max(b.0);
+            best.push(b);
+        }
+        self.best_per_centre = best;
+        self.observed_max = top;
+    }
+
+    /// Number of windows (list positions that end a tie group).
+    pub fn n_windows(&self) -> usize {
+        self.pop_at.iter().filter(|&&p| p >= 0.0).count()
+    }
+
+    /// The largest LLR in the data.
+    pub fn observed_statistic(&self) -> f64 {
+        self.observed_max
+    }
+
+    /// Replicates done and asked for.
+    pub fn progress(&self) -> ScanProgress {
+        ScanProgress {
+            done: self.null_max.len(),
+            total: self.o.n_sim,
+        }
+    }
+
+    /// Runs up to `k` more replicates; returns the progress.
+    pub fn run_batch(&mut self, k: usize) -> ScanProgress {
+        let n = self.regions.x.len();
+        let cmax = self.total_cases as usize;
+        let mut cases = vec![0u32; n];
+        let mut min_pop = vec![f64::INFINITY; cmax + 1];
+        let end = (self.null_max.len() + k).min(self.o.n_sim);
+        while self.null_max.len() < end {
+            let j = self.null_max.len();
+            let mut rng = replicate_rng(self.o.seed, j);
+            self.simulate(&mut rng, &mut cases);
+            for v in &mut min_pop {
+                *v = f64::INFINITY;
+            }
+            for i in 0..n {
+                let (s, e) = (self.start[i], self.start[i + 1]);
+                let mut c = 0usize;
+                let mut last = 0usize;
+                for q in s..e {
+                    c += cases[self.list[q] as usize] as usize;
+                    if c != last {
+                        let p = self.pop_at[q];
+                        if p >= 0.0 {
+                            if p < min_pop[c] {
+                                min_pop[c] = p;
+                            }
+                            last = c;
+                        }
+                    }
+                }
+            }
+            let mut t = 0.0f64;
+            for (c, &p) in min_pop.iter().enumerate().skip(1) {
+                if p.is_finite() {
+                    t = t.max(self.llr(c as f64, p));
+                }
+            }
+            self.null_max.push(t);
+        }
+        self.progress()
+    }
+
+    /// Draws the null case counts per region.
+    fn simulate(&mut self, rng: &mut Rng, cases: &mut [u32]) {
+        cases.iter_mut().for_each(|c| *c = 0);
+        let total = self.total_cases as usize;
+        match self.model {
+            ScanModel::Bernoulli => {
+                // Partial Fisher–Yates: a uniform subset of C individuals.
+                let nind = self.individuals.len();
+                for a in 0..total {
+                    let b = a + rng.random_range(0..nind - a);
+                    self.individuals.swap(a, b);
+                    cases[self.individuals[a] as usize] += 1;
+                }
+            }
+            _ => {
+                let p = self.total_pop;
+                for _ in 0..total {
+                    let u = rng.random::<f64>() * p;
+                    let i = self.cum_pop.partition_point(|&v| v <= u);
+                    let i = i.min(cases.len() - 1);
+                    cases[i] += 1;
+                }
+            }
+        }
+    }
+
+    /// Runs any replicates left and returns the result.
+    pub fn finish(mut self) -> ScanResult {
+        let left = self.o.n_sim - self.null_max.len();
+        if left > 0 {
+            self.run_batch(left);
+        }
+        let m = self.null_max.len();
+        let pval = |t: f64| {
+            (1 + self.null_max.iter().filter(|&&v| v >= t).count()) as f64 / (m + 1) as f64
+        };
+        let mut sorted = self.null_max.clone();
+        sorted.sort_by(|a, b| a.total_cmp(b));
+        let quant = |q: f64| {
+            if sorted.is_empty() {
+                None
+            } else {
+                // Type-1 (inverse of the empirical distribution) quantile.
+                let k = ((q * m as f64).ceil() as usize).clamp(1, m) - 1;
+                Some(sorted[k])
+            }
+        };
+        // Candidates: best window per centre, by decreasing LLR.
+        let mut cand: Vec<(f64, usize, usize)> = self
+            .best_per_centre
+            .iter()
+            .enumerate()
+            .filter(|(_, b)| b.0 > 0.0)
+            .map(|(i, b)| (b.0, i, b.1))
+            .collect();
+        cand.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
+        let mut used = vec![false; self.regions.x.len()];
+        let mut clusters: Vec<ScanCluster> = Vec::new();
+        let cc = self.total_cases as f64;
+        for (l, i, k) in cand {
+            if clusters.len() > self.o.max_secondary {
+                break;
+            }
+            let members: Vec<usize> = self.list[self.start[i]..=k]
+                .iter()
+                .map(|&j| j as usize)
+                .collect();
+            if members.iter().any(|&j| used[j]) {
+                continue;
+            }
+            for &j in &members {
+                used[j] = true;
+            }
+            let c: u64 = members.iter().map(|&j| self.regions.cases[j] as u64).sum();
+            let pop = self.pop_at[k];
+            let e = match self.model {
+                ScanModel::Bernoulli => cc * pop / self.total_pop,
+                _ => cc * pop / self.total_pop,
+            };
+            let cf = c as f64;
+            let rr = if cc - e > 0.0 && cc - cf > 0.0 {
+                (cf / e) / ((cc - cf) / (cc - e))
+            } else {
+                f64::INFINITY
+            };
+            clusters.push(ScanCluster {
+                rank: clusters.len(),
+                centre_region: i,
+                centre_x: self.regions.x[i],
+                centre_y: self.regions.y[i],
+                radius_m: self.dist_at[k],
+                regions: members,
+                observed: c,
+                expected: e,
+                relative_risk: rr,
+                population: pop,
+                llr: l,
+                p_value: pval(l),
+            });
+        }
+        ScanResult {
+            model: self.model,
+            centres: self.centres_kind,
+            n_sim: m,
+            seed: self.o.seed,
+            max_share: self.o.max_share,
+            n_regions: self.regions.x.len(),
+            n_windows: self.n_windows(),
+            total_cases: self.total_cases,
+            total_population: self.total_pop,
+            statistic: self.observed_max,
+            p_value: pval(self.observed_max),
+            critical_95: quant(0.95),
+            critical_99: quant(0.99),
+            clusters,
+            null_maxima: self.null_max,
+            cell_m: self.cell_m,
+        }
+    }
+
+    /// The regions scanned (for drawing grid cells or mapping members).
+    pub fn regions(&self) -> &ScanRegions {
+        &self.regions
+    }
+}
+
+/// One region per distinct location; cases counted, population = cases +
+/// controls there.
+fn distinct_locations(x: &[f64], y: &[f64], kx: &[f64], ky: &[f64]) -> ScanRegions {
+    use std::collections::HashMap;
+    let mut at: HashMap<(u64, u64), usize> = HashMap::new();
+    let mut r = ScanRegions::default();
+    let mut add = |px: f64, py: f64, case: bool| {
+        let key = (px.to_bits(), py.to_bits());
+        let i = *at.entry(key).or_insert_with(|| {
+            r.x.push(px);
+            r.y.push(py);
+            r.cases.push(0);
+            r.population.push(0.0);
+            r.x.len() - 1
+        });
+        r.population[i] += 1.0;
+        if case {
+            r.cases[i] += 1;
+        }
+    };
+    for i in 0..x.len() {
+        add(x[i], y[i], true);
+    }
+    for i in 0..kx.len() {
+        add(kx[i], ky[i], false);
+    }
+    r
+}
+
+/// Square cells over the area's bounding box as regions. Poisson (no
+/// controls): population = cell area inside the area (4 × 4 sub-grid),
+/// cells with no area dropped. Bernoulli: population = cases + controls,
+/// empty cells dropped.
+fn grid_regions(
+    x: &[f64],
+    y: &[f64],
+    controls: Option<(&[f64], &[f64])>,
+    region: &Region,
+    cells_long_side: usize,
+) -> Result<(ScanRegions, f64), AnalysisError> {
+    if !(2..=512).contains(&cells_long_side) {
+        return Err(bad("cells_long_side", "must be between 2 and 512"));
+    }
+    let g = crate::intensity::GridOptions {
+        cells_long_side,
+        cell_m: None,
+    };
+    let (x0, y0, cell, nx, ny) = g.layout(region.bbox()).map_err(|d| bad("grid", d))?;
+    let idx = |px: f64, py: f64| -> usize {
+        let i = (((px - x0) / cell).floor().max(0.0) as usize).min(nx - 1);
+        let j = (((py - y0) / cell).floor().max(0.0) as usize).min(ny - 1);
+        j * nx + i
+    };
+    let mut cases = vec![0u32; nx * ny];
+    for k in 0..x.len() {
+        cases[idx(x[k], y[k])] += 1;
+    }
+    let pop: Vec<f64> = match controls {
+        Some((kx, ky)) => {
+            let mut p: Vec<f64> = cases.iter().map(|&c| c as f64).collect();
+            for k in 0..kx.len() {
+                p[idx(kx[k], ky[k])] += 1.0;
+            }
+            p
+        }
+        None => {
+            const SUB: usize = 4;
+            let sub = region.raster_mask(x0, y0, cell / SUB as f64, nx * SUB, ny * SUB);
+            let mut p = vec![0.0; nx * ny];
+            for j in 0..ny * SUB {
+                for i in 0..nx * SUB {
+                    if sub[j * nx * SUB + i] {
+                        p[(j / SUB) * nx + i / SUB] += 1.0;
+                    }
+                }
+            }
+            let a = cell * cell / (SUB * SUB) as f64;
+            // Events in a cell the sub-grid missed (a sliver of the area):
+            // give the cell the smallest positive area so it stays a region.
+            p.iter_mut()
+                .zip(&cases)
+                .for_each(|(v, &c)| *v = if *v == 0.0 && c > 0 { 0.5 } else { *v } * a);
+            p
+        }
+    };
+    let mut r = ScanRegions::default();
+    for j in 0..ny {
+        for i in 0..nx {
+            let k = j * nx + i;
+            if pop[k] > 0.0 {
+                r.x.push(x0 + (i as f64 + 0.5) * cell);
+                r.y.push(y0 + (j as f64 + 0.5) * cell);
+                r.cases.push(cases[k]);
+                r.population.push(pop[k]);
+            }
+        }
+    }
+    Ok((r, cell))
+}
+
+#[cfg(test)]
+mod tests;

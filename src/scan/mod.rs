@@ -1,0 +1,12 @@
+//! Is this excess more than chance?
+//!
+//! [`kulldorff`]: Kulldorff's (1997) circular spatial scan statistic for
+//! areas of raised risk, with Monte Carlo p-values computed in batches so the
+//! page can show progress and cancel.
+
+pub mod kulldorff;
+
+pub use kulldorff::{
+    llr_bernoulli, llr_poisson, ScanCentres, ScanCluster, ScanJob, ScanModel, ScanOptions,
+    ScanRegions, ScanResult,
+};
