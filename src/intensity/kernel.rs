@@ -64,9 +64,10 @@ impl Kernel {
         }
     }
 
-    /// The kernel sampled at grid offsets, times the cell area, so that a
-    /// convolution of counts gives intensity and of a 0/1 mask gives the
-    /// kernel mass inside the area. Gaussian: separable, cut at 4 SD.
+    /// The kernel sampled at grid offsets, times the cell area: a
+    /// convolution of a 0/1 mask then gives the kernel mass inside the area
+    /// (midpoint rule), and of binned counts, intensity × cell area.
+    /// Gaussian: separable, cut at 4 SD.
     pub(crate) fn stencil(self, h: f64, cell: f64) -> Stencil {
         match self {
             Kernel::Gaussian => {

@@ -235,8 +235,13 @@ pub(crate) fn surface_on_canvas(
     };
     let mut v = match evaluation {
         Evaluation::Binned => {
+            // The stencil carries the cell area (see Kernel::stencil); divide
+            // it out to get events per m².
             let counts = cv.bin(x, y, |i| ew[i]);
-            convolve(&counts, cv.nx, cv.ny, &stencil)
+            let inv_a = 1.0 / (cv.cell * cv.cell);
+            let mut v = convolve(&counts, cv.nx, cv.ny, &stencil);
+            v.iter_mut().for_each(|t| *t *= inv_a);
+            v
         }
         Evaluation::Exact => exact_sum(cv, x, y, &ew, kernel, h),
     };

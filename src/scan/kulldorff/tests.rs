@@ -257,7 +257,7 @@ fn calibration(runs: usize, n: usize, n_sim: usize, seed0: u64) -> (usize, f64) 
 fn calibration_under_csr() {
     // Under CSR the Monte Carlo test is exact (Kulldorff 1997): P(p < 0.05)
     // = 0.05 up to the discreteness of p (m = 99: exactly 5/100). With 60
-    // runs the count of p ≥ 0.05 is Binomial(60, 0.95): P(X ≤ 52) ≈ 0.012
+    // runs the count of p ≥ 0.05 is Binomial(60, 0.95): P(X ≤ 52) ≈ 0.0098
     // (scipy.stats.binom.cdf(52, 60, 0.95)), so we require X ≥ 53. The mean p
     // is 0.505 with SD 0.289/√60 = 0.037 for uniform p; we allow ±4 SD.
     let (ok, mean_p) = calibration(60, 80, 99, 77);
