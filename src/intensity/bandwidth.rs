@@ -12,7 +12,12 @@
 //! * **Likelihood cross-validation** (Loader 1999, *Local Regression and
 //!   Likelihood*, Springer [M]): maximise
 //!   `LCV(h) = Σ_i log λ̂_{−i}(x_i) − ∫_W λ̂` over a ladder of candidates. The
-//!   leave-one-out sums are exact pair sums (Gaussian cut at 6 SD); with the
+//!   leave-one-out sums are exact pair sums (Gaussian cut at 6 SD) for
+//!   bandwidths under two grid cells, and for wider ones the binned surface at
+//!   each event minus the event's own binned contribution (exact sums again
+//!   for events whose neighbours contribute less than twice their own binned
+//!   term). An event with no neighbour within 6 SD contributes
+//!   `ln k_h(d_nn)` (its nearest neighbour alone) rather than `ln 0`; with the
 //!   Jones–Diggle correction `∫_W λ̂ = n` (METHODS §7 [D]); with none it is
 //!   `Σ_j e_h(x_j)`; with the uniform correction it is the grid integral of
 //!   the corrected surface.
@@ -252,26 +257,88 @@ pub fn likelihood_cv(
             }
         }
     }
-    let cut: Vec<f64> = hs.iter().map(|&h| kernel.cutoff(h, 6.0)).collect();
-    let cut2: Vec<f64> = cut.iter().map(|c| c * c).collect();
-    let rmax = cut.iter().cloned().fold(0.0, f64::max);
+    // Leave-one-out sums. Bandwidths whose kernel SD is at least two cells
+    // use the binned surface (linear binning + convolution) interpolated at
+    // each event, minus that event's own binned contribution computed exactly
+    // from the same weights; smaller ones use exact pair sums (Gaussian cut
+    // at 6 SD). Binned sums cost O(cells·log cells) per candidate instead of
+    // O(pairs in reach).
+    let binned: Vec<bool> = hs.iter().map(|&h| kernel.sd(h) >= 2.0 * cv.cell).collect();
     let mut s = vec![0.0; k * n];
-    let b = Buckets::new(x, y, rmax);
-    for i in 0..n {
-        b.for_candidates(x[i], y[i], rmax, |j| {
-            if j <= i {
-                return;
-            }
-            let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
-            for c in (0..k).rev() {
-                if d2 > cut2[c] {
-                    break;
+    let mut exact_refine: Vec<(usize, usize)> = Vec::new();
+    let inv_a = 1.0 / (cv.cell * cv.cell);
+    for c in (0..k).filter(|&c| binned[c]) {
+        let stencil = kernel.stencil(hs[c], cv.cell);
+        let counts = cv.bin(x, y, |j| inv_e[c][j]);
+        let conv = super::fft::convolve(&counts, cv.nx, cv.ny, &stencil);
+        // Bilinear weights of the four cells around a point.
+        let quad = |tx: f64, ty: f64| {
+            [
+                (0isize, 0isize, (1.0 - tx) * (1.0 - ty)),
+                (1, 0, tx * (1.0 - ty)),
+                (0, 1, (1.0 - tx) * ty),
+                (1, 1, tx * ty),
+            ]
+        };
+        for i in 0..n {
+            let (_, _, tx, ty) = cv.cell_weights(x[i], y[i]);
+            let q = quad(tx, ty);
+            let mut own = 0.0;
+            for &(ax, ay, wa) in &q {
+                for &(bx, by, wb) in &q {
+                    own += wa * wb * stencil.at(ax - bx, ay - by);
                 }
-                let v = kernel.value(d2, hs[c]);
-                s[c * n + i] += v * inv_e[c][j];
-                s[c * n + j] += v * inv_e[c][i];
             }
-        });
+            let full = cv.interpolate(&conv, x[i], y[i]);
+            s[c * n + i] = (full - inv_e[c][i] * own) * inv_a;
+            // Where the others contribute little next to the event's own
+            // term, the difference is mostly binning error: sum exactly.
+            if full < 3.0 * inv_e[c][i] * own {
+                exact_refine.push((c, i));
+            }
+        }
+    }
+    // Exact sums for the events flagged above, candidate by candidate.
+    exact_refine.sort_unstable();
+    let mut q = 0;
+    while q < exact_refine.len() {
+        let c = exact_refine[q].0;
+        let cut = kernel.cutoff(hs[c], 6.0);
+        let b = Buckets::new(x, y, cut);
+        while q < exact_refine.len() && exact_refine[q].0 == c {
+            let i = exact_refine[q].1;
+            let mut t = 0.0;
+            b.for_candidates(x[i], y[i], cut, |j| {
+                let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
+                if j != i && d2 <= cut * cut {
+                    t += kernel.value(d2, hs[c]) * inv_e[c][j];
+                }
+            });
+            s[c * n + i] = t;
+            q += 1;
+        }
+    }
+    let exact: Vec<usize> = (0..k).filter(|&c| !binned[c]).collect();
+    if !exact.is_empty() {
+        let cut2: Vec<f64> = hs.iter().map(|&h| kernel.cutoff(h, 6.0).powi(2)).collect();
+        let rmax = exact.iter().map(|&c| cut2[c]).fold(0.0, f64::max).sqrt();
+        let b = Buckets::new(x, y, rmax);
+        for i in 0..n {
+            b.for_candidates(x[i], y[i], rmax, |j| {
+                if j <= i {
+                    return;
+                }
+                let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
+                for &c in exact.iter().rev() {
+                    if d2 > cut2[c] {
+                        break;
+                    }
+                    let v = kernel.value(d2, hs[c]);
+                    s[c * n + i] += v * inv_e[c][j];
+                    s[c * n + j] += v * inv_e[c][i];
+                }
+            });
+        }
     }
     // The uniform correction divides by e_h at the evaluation point x_i.
     if edge == EdgeCorrection::Uniform {
@@ -284,15 +351,32 @@ pub fn likelihood_cv(
             }
         }
     }
+    // An event with no other event within 6 SD: for the Gaussian the
+    // leave-one-out sum is then dominated by its nearest neighbour, and
+    // ln k_h(d_nn) (computed in logs, no underflow) stands in for ln 0.
+    let nn = if kernel == Kernel::Gaussian && s.iter().any(|&v| v <= 0.0) {
+        Some(nearest_others(x, y))
+    } else {
+        None
+    };
     let criterion: Vec<Option<f64>> = (0..k)
         .map(|c| {
             let mut t = 0.0;
             for i in 0..n {
                 let v = s[c * n + i];
-                if v <= 0.0 {
+                if v > 0.0 {
+                    t += v.ln();
+                } else if let Some(nn) = &nn {
+                    let (j, d2) = nn[i];
+                    let h = hs[c];
+                    let a = inv_e[c][j];
+                    if a <= 0.0 {
+                        return None;
+                    }
+                    t += -d2 / (2.0 * h * h) - (2.0 * PI * h * h).ln() + a.ln();
+                } else {
                     return None;
                 }
-                t += v.ln();
             }
             Some(t - integral[c])
         })
@@ -437,4 +521,41 @@ pub fn diggle_mse(
         criterion: criterion.into_iter().map(Some).collect(),
         note,
     })
+}
+
+/// Nearest other event of each event: (index, squared distance). Coincident
+/// events are each other's nearest at distance 0.
+fn nearest_others(x: &[f64], y: &[f64]) -> Vec<(usize, f64)> {
+    let n = x.len();
+    let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
+    for i in 0..n {
+        x0 = x0.min(x[i]);
+        y0 = y0.min(y[i]);
+        x1 = x1.max(x[i]);
+        y1 = y1.max(y[i]);
+    }
+    let span = ((x1 - x0).max(y1 - y0)).max(1e-9);
+    let b = Buckets::new(x, y, span / (n as f64).sqrt().max(1.0));
+    let cell = b.cell();
+    (0..n)
+        .map(|i| {
+            let mut best = (i, f64::INFINITY);
+            let mut ring = 0;
+            loop {
+                let inside = b.for_ring(x[i], y[i], ring, |j| {
+                    if j != i {
+                        let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
+                        if d2 < best.1 {
+                            best = (j, d2);
+                        }
+                    }
+                });
+                if best.1 <= (ring as f64 * cell).powi(2) || (!inside && ring > 0) {
+                    break;
+                }
+                ring += 1;
+            }
+            best
+        })
+        .collect()
 }

@@ -30,6 +30,18 @@ impl Stencil {
             Stencil::Full { w, .. } => w.iter().sum(),
         }
     }
+    /// Weight at offset `(dx, dy)` cells (0 outside the stencil).
+    pub(crate) fn at(&self, dx: isize, dy: isize) -> f64 {
+        let r = self.radius() as isize;
+        if dx.abs() > r || dy.abs() > r {
+            return 0.0;
+        }
+        let (a, b) = ((dx + r) as usize, (dy + r) as usize);
+        match self {
+            Stencil::Separable { w, .. } => w[a] * w[b],
+            Stencil::Full { r, w } => w[b * (2 * r + 1) + a],
+        }
+    }
     fn full_weights(&self) -> Vec<f64> {
         match self {
             Stencil::Full { w, .. } => w.clone(),
@@ -166,27 +178,36 @@ pub(crate) fn autocorrelation(mask: &[bool], nx: usize, ny: usize) -> (Vec<f64>,
     (re, px, py)
 }
 
-/// In-place 2-D FFT (unscaled; `inverse` flips the sign of the exponent).
+/// In-place 2-D FFT (unscaled; `inverse` flips the sign of the exponent):
+/// row transforms, a blocked transpose, row transforms again, transpose back
+/// (strided column access would thrash the cache at power-of-two strides).
 fn fft2(re: &mut [f64], im: &mut [f64], px: usize, py: usize, inverse: bool) {
     let tw = Twiddles::new(px.max(py), inverse);
-    for j in 0..py {
-        fft1(
-            &mut re[j * px..(j + 1) * px],
-            &mut im[j * px..(j + 1) * px],
-            &tw,
-        );
-    }
-    let mut cr = vec![0.0; py];
-    let mut ci = vec![0.0; py];
-    for i in 0..px {
-        for j in 0..py {
-            cr[j] = re[j * px + i];
-            ci[j] = im[j * px + i];
+    let rows = |re: &mut [f64], im: &mut [f64], len: usize| {
+        for (r, i) in re.chunks_exact_mut(len).zip(im.chunks_exact_mut(len)) {
+            fft1(r, i, &tw);
         }
-        fft1(&mut cr, &mut ci, &tw);
-        for j in 0..py {
-            re[j * px + i] = cr[j];
-            im[j * px + i] = ci[j];
+    };
+    rows(re, im, px);
+    let mut tre = vec![0.0; px * py];
+    let mut tim = vec![0.0; px * py];
+    transpose(re, &mut tre, px, py);
+    transpose(im, &mut tim, px, py);
+    rows(&mut tre, &mut tim, py);
+    transpose(&tre, re, py, px);
+    transpose(&tim, im, py, px);
+}
+
+/// `dst[i·rows + j] = src[j·cols + i]` for a `rows × cols` row-major `src`.
+fn transpose(src: &[f64], dst: &mut [f64], cols: usize, rows: usize) {
+    const B: usize = 32;
+    for j0 in (0..rows).step_by(B) {
+        for i0 in (0..cols).step_by(B) {
+            for j in j0..(j0 + B).min(rows) {
+                for i in i0..(i0 + B).min(cols) {
+                    dst[i * rows + j] = src[j * cols + i];
+                }
+            }
         }
     }
 }

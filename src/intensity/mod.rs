@@ -164,13 +164,7 @@ impl Canvas {
     pub(crate) fn bin(&self, x: &[f64], y: &[f64], w: impl Fn(usize) -> f64) -> Vec<f64> {
         let mut c = vec![0.0; self.nx * self.ny];
         for i in 0..x.len() {
-            let fx = ((x[i] - self.x0) / self.cell - 0.5).clamp(0.0, (self.nx - 1) as f64);
-            let fy = ((y[i] - self.y0) / self.cell - 0.5).clamp(0.0, (self.ny - 1) as f64);
-            let (a, b) = (
-                (fx as usize).min(self.nx - 2),
-                (fy as usize).min(self.ny - 2),
-            );
-            let (tx, ty) = (fx - a as f64, fy - b as f64);
+            let (a, b, tx, ty) = self.cell_weights(x[i], y[i]);
             let wi = w(i);
             let k = b * self.nx + a;
             c[k] += wi * (1.0 - tx) * (1.0 - ty);
@@ -179,6 +173,18 @@ impl Canvas {
             c[k + self.nx + 1] += wi * tx * ty;
         }
         c
+    }
+
+    /// Lower-left cell and bilinear fractions used by both [`Canvas::bin`]
+    /// and [`Canvas::interpolate`] for a point.
+    pub(crate) fn cell_weights(&self, x: f64, y: f64) -> (usize, usize, f64, f64) {
+        let fx = ((x - self.x0) / self.cell - 0.5).clamp(0.0, (self.nx - 1) as f64);
+        let fy = ((y - self.y0) / self.cell - 0.5).clamp(0.0, (self.ny - 1) as f64);
+        let (a, b) = (
+            (fx as usize).min(self.nx - 2),
+            (fy as usize).min(self.ny - 2),
+        );
+        (a, b, fx - a as f64, fy - b as f64)
     }
 
     pub(crate) fn interpolate(&self, v: &[f64], x: f64, y: f64) -> f64 {

@@ -517,3 +517,34 @@ fn print_diggle_curves() {
         println!("{run} {:?} {}", c.bandwidth_m, v.join(" "));
     }
 }
+
+#[test]
+#[ignore = "diagnostic printout"]
+fn print_lcv_curves() {
+    let region = Region::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let hs = bandwidth::ladder(0.003, 0.3, 20);
+    let mut rng = crate::rng::rng_from_seed(17);
+    let (cx, cy) = thomas(20.0, 10.0, 0.01, 1.0, &mut rng);
+    for cells in [100, 400, 1600] {
+        let grid = GridOptions {
+            cells_long_side: cells,
+            cell_m: None,
+        };
+        let c = bandwidth::likelihood_cv(
+            &cx,
+            &cy,
+            &region,
+            Kernel::Gaussian,
+            EdgeCorrection::JonesDiggle,
+            &hs,
+            &grid,
+        )
+        .unwrap();
+        let v: Vec<String> = c
+            .criterion
+            .iter()
+            .map(|v| format!("{:.1}", v.unwrap_or(f64::NAN)))
+            .collect();
+        println!("{cells} {:?} {}", c.bandwidth_m, v.join(" "));
+    }
+}

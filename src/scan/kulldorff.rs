@@ -238,7 +238,8 @@ pub struct ScanJob {
     /// Flat neighbour lists: `list[start[i]..start[i+1]]` for centre i.
     start: Vec<usize>,
     list: Vec<u32>,
-    /// Window population at a group end, or −1 inside a tie group.
+    /// Window population at a group end, or +∞ inside a tie group (so the
+    /// replicate loop can take a branch-free minimum).
     pop_at: Vec<f64>,
     /// Distance from the centre at each list position.
     dist_at: Vec<f64>,
@@ -436,7 +437,7 @@ impl ScanJob {
                 for (q, &(d2, j)) in order.iter().enumerate().take(g).skip(k) {
                     list.push(j);
                     dist_at.push(d2.sqrt());
-                    pop_at.push(if q == g - 1 { pop } else { -1.0 });
+                    pop_at.push(if q == g - 1 { pop } else { f64::INFINITY });
                 }
                 k = g;
             }
@@ -506,7 +507,7 @@ impl ScanJob {
             for k in self.start[i]..self.start[i + 1] {
                 c += self.regions.cases[self.list[k] as usize] as u64;
                 let p = self.pop_at[k];
-                if p >= 0.0 {
+                if p.is_finite() {
                     let l = self.llr(c as f64, p);
                     if l > b.0 {
                         b = (l, k);
@@ -522,7 +523,7 @@ impl ScanJob {
 
     /// Number of windows (list positions that end a tie group).
     pub fn n_windows(&self) -> usize {
-        self.pop_at.iter().filter(|&&p| p >= 0.0).count()
+        self.pop_at.iter().filter(|p| p.is_finite()).count()
     }
 
     /// The largest LLR in the data.
@@ -552,21 +553,16 @@ impl ScanJob {
             for v in &mut min_pop {
                 *v = f64::INFINITY;
             }
+            // For each count c, the smallest population of a window holding
+            // exactly c cases (entries inside tie groups carry +∞). Branch
+            // free: a running count and a minimum per list entry.
             for i in 0..n {
                 let (s, e) = (self.start[i], self.start[i + 1]);
                 let mut c = 0usize;
-                let mut last = 0usize;
-                for q in s..e {
-                    c += cases[self.list[q] as usize] as usize;
-                    if c != last {
-                        let p = self.pop_at[q];
-                        if p >= 0.0 {
-                            if p < min_pop[c] {
-                                min_pop[c] = p;
-                            }
-                            last = c;
-                        }
-                    }
+                for (&j, &p) in self.list[s..e].iter().zip(&self.pop_at[s..e]) {
+                    c += cases[j as usize] as usize;
+                    let slot = &mut min_pop[c];
+                    *slot = slot.min(p);
                 }
             }
             let mut t = 0.0f64;

@@ -119,7 +119,7 @@ fn explicit_max(job: &ScanJob, cases: &[u32]) -> f64 {
         let mut c = 0u64;
         for k in job.start[i]..job.start[i + 1] {
             c += cases[job.list[k] as usize] as u64;
-            if job.pop_at[k] >= 0.0 {
+            if job.pop_at[k].is_finite() {
                 t = t.max(job.llr(c as f64, job.pop_at[k]));
             }
         }
