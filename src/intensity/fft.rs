@@ -154,16 +154,18 @@ fn convolve_fft(data: &[f64], nx: usize, ny: usize, r: usize, kw: &[f64]) -> Vec
 /// (in cells), by FFT. Returned with lags wrapped: lag `(a, b)` is at
 /// `(a mod px) + (b mod py)·px`; `px ≥ 2nx`, `py ≥ 2ny` so nothing aliases.
 pub(crate) fn autocorrelation(mask: &[bool], nx: usize, ny: usize) -> (Vec<f64>, usize, usize) {
+    let v: Vec<f64> = mask.iter().map(|&b| if b { 1.0 } else { 0.0 }).collect();
+    autocorrelation_of(&v, nx, ny)
+}
+
+/// [`autocorrelation`] of a real raster.
+pub(crate) fn autocorrelation_of(v: &[f64], nx: usize, ny: usize) -> (Vec<f64>, usize, usize) {
     let px = (2 * nx).next_power_of_two();
     let py = (2 * ny).next_power_of_two();
     let mut re = vec![0.0; px * py];
     let mut im = vec![0.0; px * py];
     for j in 0..ny {
-        for i in 0..nx {
-            if mask[j * nx + i] {
-                re[j * px + i] = 1.0;
-            }
-        }
+        re[j * px..j * px + nx].copy_from_slice(&v[j * nx..(j + 1) * nx]);
     }
     fft2(&mut re, &mut im, px, py, false);
     for k in 0..px * py {
