@@ -4,12 +4,12 @@
 //! For each event, `kdist` is the distance to its `min_samples`-th nearest
 //! event **counting itself** (so the `(min_samples − 1)`-th nearest other
 //! event): exactly the smallest `eps` at which that event would be a core
-//! point under [`super::dbscan`]'s rule. The plot shows these distances sorted
+//! point under [`mod@super::dbscan`]'s rule. The plot shows these distances sorted
 //! from largest to smallest; a bend ("knee") separates noise (left) from
 //! clustered events (right).
 //!
 //! The suggested `eps` is the point of the sorted curve farthest from the
-//! straight line joining its ends (a common heuristic [CP], no single source);
+//! straight line joining its ends (a common heuristic \[CP\], no single source);
 //! treat it as a starting value, not an answer.
 
 use super::buckets::Buckets;

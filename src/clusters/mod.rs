@@ -1,6 +1,6 @@
 //! Which points belong together?
 //!
-//! * [`dbscan`]: DBSCAN (Ester et al. 1996) with scikit-learn's labelling,
+//! * [`mod@dbscan`]: DBSCAN (Ester et al. 1996) with scikit-learn's labelling,
 //!   a cluster table (members, centre, convex-hull area, density) and hulls.
 //! * [`kdist`]: the sorted k-distance curve for choosing `eps`.
 //! * [`hull`]: convex hulls (monotone chain).

@@ -7,10 +7,10 @@
 //!   Analysis*, Chapman & Hall — the two coincide in two dimensions):
 //!   `σ = σ̂·n^(−1/6)` with the single isotropic scale
 //!   `σ̂ = √((s_x² + s_y²)/2)` (sample variances, divisor n − 1; METHODS §7
-//!   [CP]). For the quartic kernel the radius with the same spread,
+//!   \[CP\]). For the quartic kernel the radius with the same spread,
 //!   `2√2·σ`, is returned.
 //! * **Likelihood cross-validation** (Loader 1999, *Local Regression and
-//!   Likelihood*, Springer [M]): maximise
+//!   Likelihood*, Springer \[M\]): maximise
 //!   `LCV(h) = Σ_i log λ̂_{−i}(x_i) − ∫_W λ̂` over a ladder of candidates. The
 //!   leave-one-out sums are exact pair sums (Gaussian cut at 6 SD) for
 //!   bandwidths under two grid cells, and for wider ones the binned surface at
@@ -18,11 +18,11 @@
 //!   for events whose neighbours contribute less than twice their own binned
 //!   term). An event with no neighbour within 6 SD contributes
 //!   `ln k_h(d_nn)` (its nearest neighbour alone) rather than `ln 0`; with the
-//!   Jones–Diggle correction `∫_W λ̂ = n` (METHODS §7 [D]); with none it is
+//!   Jones–Diggle correction `∫_W λ̂ = n` (METHODS §7 \[D\]); with none it is
 //!   `Σ_j e_h(x_j)`; with the uniform correction it is the grid integral of
 //!   the corrected surface.
 //! * **Diggle (1985) / Berman & Diggle (1989) MSE criterion** (JRSS-B
-//!   51:81–92 [M]), in the form of METHODS §7 for a Gaussian kernel of SD σ:
+//!   51:81–92 \[M\]), in the form of METHODS §7 for a Gaussian kernel of SD σ:
 //!   `M̂(σ) = |W|/(4πσ²n) + |W|/(n(n−1))·Σ_{i≠j} e_ij[φ_{√2σ}(d_ij) − 2φ_σ(d_ij)]`
 //!   with the translation edge weight `e_ij = |W|/|W ∩ (W + x_i − x_j)|`, the
 //!   denominator taken from the set covariance of the grid mask (by FFT).

@@ -1,13 +1,13 @@
 //! Contours of a surface as closed polygons, and percent-volume isopleths.
 //!
-//! * **Percent-volume level** (METHODS §7 [CP]): the level `c_p` with
+//! * **Percent-volume level** (METHODS §7 \[CP\]): the level `c_p` with
 //!   `∫_{λ̂ ≥ c_p} λ̂ = p·∫_W λ̂`. On the grid: sort the cells in the area by
 //!   value, highest first, accumulate value × cell area and stop at the
 //!   fraction `p`; `c_p` is the value of the cell where the sum reaches it.
 //!   The 50 % isopleth thus encloses the smallest area holding half the
 //!   estimated events.
 //! * **Contours** by marching squares (Lorensen & Cline 1987, Computer
-//!   Graphics 21(4):163–169 [M], in its two-dimensional form) over the cell
+//!   Graphics 21(4):163–169 \[M\], in its two-dimensional form) over the cell
 //!   centres, with linear interpolation along cell edges and saddles resolved
 //!   by the mean of the four corners. Cells outside the area count as 0, and
 //!   the grid is framed by zeros, so every ring closes. A region is

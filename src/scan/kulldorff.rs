@@ -17,7 +17,7 @@
 //! # Windows
 //! A window is centred on a region and grows through the regions sorted by
 //! distance from it; regions at tied distances enter together (METHODS §9
-//! [CP]). A window includes a region when the region's location lies in the
+//! \[CP\]). A window includes a region when the region's location lies in the
 //! circle. Growth stops before the window's population exceeds `max_share`
 //! of the total (default 50 %). The window set is enumerated once and reused
 //! for every replicate.
@@ -48,7 +48,7 @@
 //!
 //! **Secondary clusters**: for each centre its best window; these are taken
 //! in decreasing LLR order and kept when they share **no region** with a
-//! cluster already reported (METHODS §9 [M/CP]). Their p-values use the same
+//! cluster already reported (METHODS §9 \[M/CP\]). Their p-values use the same
 //! null distribution of the maximum, so they are conservative.
 //!
 //! # Replicates in batches
@@ -374,7 +374,7 @@ impl ScanJob {
         }
         for i in 0..n {
             let p = r.population[i];
-            if !(p.is_finite() && p >= 0.0) || !r.x[i].is_finite() || !r.y[i].is_finite() {
+            if !(p.is_finite() && p >= 0.0 && r.x[i].is_finite() && r.y[i].is_finite()) {
                 return Err(bad(
                     "regions",
                     format!("region {} has a bad location or population", i + 1),
@@ -550,9 +550,7 @@ impl ScanJob {
             let j = self.null_max.len();
             let mut rng = replicate_rng(self.o.seed, j);
             self.simulate(&mut rng, &mut cases);
-            for v in &mut min_pop {
-                *v = f64::INFINITY;
-            }
+            min_pop.fill(f64::INFINITY);
             // For each count c, the smallest population of a window holding
             // exactly c cases (entries inside tie groups carry +∞). Branch
             // free: a running count and a minimum per list entry.
