@@ -235,8 +235,14 @@ pub fn likelihood_cv(
     for (c, &h) in hs.iter().enumerate() {
         match edge {
             EdgeCorrection::JonesDiggle | EdgeCorrection::None => {
-                let stencil = kernel.stencil(h, cv.cell);
-                let e = super::edge::edge_mass(&cv.mask, cv.nx, cv.ny, &stencil);
+                let stencil = kernel.stencil(h, cv.cell, cv.max_r());
+                let e = super::edge::edge_mass(
+                    &cv.mask,
+                    cv.nx,
+                    cv.ny,
+                    &stencil,
+                    kernel.lattice_mass(h, cv.cell),
+                );
                 let ex: Vec<f64> = (0..n).map(|i| cv.interpolate(&e, x[i], y[i])).collect();
                 if edge == EdgeCorrection::JonesDiggle {
                     inv_e[c] = ex
@@ -272,7 +278,7 @@ pub fn likelihood_cv(
     let mut exact_refine: Vec<(usize, usize)> = Vec::new();
     let inv_a = 1.0 / (cv.cell * cv.cell);
     for c in (0..k).filter(|&c| binned[c]) {
-        let stencil = kernel.stencil(hs[c], cv.cell);
+        let stencil = kernel.stencil(hs[c], cv.cell, cv.max_r());
         let counts = cv.bin(x, y, |j| inv_e[c][j]);
         let conv = super::fft::convolve(&counts, cv.nx, cv.ny, &stencil);
         // Bilinear weights of the four cells around a point.
@@ -347,8 +353,14 @@ pub fn likelihood_cv(
     // The uniform correction divides by e_h at the evaluation point x_i.
     if edge == EdgeCorrection::Uniform {
         for (c, &h) in hs.iter().enumerate() {
-            let stencil = kernel.stencil(h, cv.cell);
-            let e = super::edge::edge_mass(&cv.mask, cv.nx, cv.ny, &stencil);
+            let stencil = kernel.stencil(h, cv.cell, cv.max_r());
+            let e = super::edge::edge_mass(
+                &cv.mask,
+                cv.nx,
+                cv.ny,
+                &stencil,
+                kernel.lattice_mass(h, cv.cell),
+            );
             for i in 0..n {
                 let ei = cv.interpolate(&e, x[i], y[i]);
                 s[c * n + i] = if ei > 0.0 { s[c * n + i] / ei } else { 0.0 };

@@ -10,7 +10,8 @@
 //!   Each event keeps exactly one unit of mass inside `W`, so `∫_W λ̂_JD = n`.
 //!
 //! `e_h` is computed on the grid by convolving the 0/1 mask of cells whose
-//! centre is in `W` with the sampled kernel, divided by the stencil's sum (so
+//! centre is in `W` with the sampled kernel, divided by the sampled kernel's
+//! sum over the whole lattice (so
 //! `e_h = 1` wherever the whole stencil is inside); `e_h(x_i)` at events is the
 //! bilinear interpolation of that grid (quadrature at cell resolution,
 //! METHODS §7 \[CP\]). The boundary is therefore resolved to one cell.
@@ -32,9 +33,17 @@ pub enum EdgeCorrection {
 }
 
 /// `e_h` at cell centres of a (padded) raster with the given mask.
-pub(crate) fn edge_mass(mask: &[bool], nx: usize, ny: usize, stencil: &Stencil) -> Vec<f64> {
+/// `total` is the kernel's lattice mass ([`super::kernel::Kernel`]'s
+/// normaliser), so that `e_h = 1` where the whole kernel is inside.
+pub(crate) fn edge_mass(
+    mask: &[bool],
+    nx: usize,
+    ny: usize,
+    stencil: &Stencil,
+    total: f64,
+) -> Vec<f64> {
     let m: Vec<f64> = mask.iter().map(|&b| if b { 1.0 } else { 0.0 }).collect();
-    let s = stencil.sum();
+    let s = total;
     let mut e = convolve(&m, nx, ny, stencil);
     for v in &mut e {
         *v = (*v / s).clamp(0.0, 1.0);

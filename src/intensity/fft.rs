@@ -21,15 +21,6 @@ impl Stencil {
             Stencil::Separable { r, .. } | Stencil::Full { r, .. } => *r,
         }
     }
-    pub(crate) fn sum(&self) -> f64 {
-        match self {
-            Stencil::Separable { w, .. } => {
-                let s: f64 = w.iter().sum();
-                s * s
-            }
-            Stencil::Full { w, .. } => w.iter().sum(),
-        }
-    }
     /// Weight at offset `(dx, dy)` cells (0 outside the stencil).
     pub(crate) fn at(&self, dx: isize, dy: isize) -> f64 {
         let r = self.radius() as isize;

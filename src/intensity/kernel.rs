@@ -68,10 +68,12 @@ impl Kernel {
     /// convolution of a 0/1 mask then gives the kernel mass inside the area
     /// (midpoint rule), and of binned counts, intensity × cell area.
     /// Gaussian: separable, cut at 4 SD.
-    pub(crate) fn stencil(self, h: f64, cell: f64) -> Stencil {
+    /// `max_r` caps the radius in cells (offsets beyond the raster's size
+    /// never matter), which keeps huge bandwidths from huge stencils.
+    pub(crate) fn stencil(self, h: f64, cell: f64, max_r: usize) -> Stencil {
         match self {
             Kernel::Gaussian => {
-                let r = ((GAUSS_TRUNCATE_SD * h / cell).ceil() as usize).max(1);
+                let r = ((GAUSS_TRUNCATE_SD * h / cell).ceil() as usize).clamp(1, max_r.max(1));
                 // 1-D factors: exp(−x²/2h²)/(√(2π)h) · cell.
                 let w = (0..=2 * r)
                     .map(|k| {
@@ -82,7 +84,7 @@ impl Kernel {
                 Stencil::Separable { r, w }
             }
             Kernel::Quartic => {
-                let r = ((h / cell).ceil() as usize).max(1);
+                let r = ((h / cell).ceil() as usize).clamp(1, max_r.max(1));
                 let m = 2 * r + 1;
                 let mut w = vec![0.0; m * m];
                 for b in 0..m {
@@ -93,6 +95,38 @@ impl Kernel {
                     }
                 }
                 Stencil::Full { r, w }
+            }
+        }
+    }
+
+    /// Σ over the whole lattice of the sampled kernel × cell area, without
+    /// the `max_r` cap (≈ 1 when the bandwidth spans several cells): the
+    /// normaliser that makes `e_h = 1` far from the boundary.
+    pub(crate) fn lattice_mass(self, h: f64, cell: f64) -> f64 {
+        match self {
+            Kernel::Gaussian => {
+                let r = ((GAUSS_TRUNCATE_SD * h / cell).ceil() as i64).max(1);
+                let s: f64 = (-r..=r)
+                    .map(|k| {
+                        let x = k as f64 * cell;
+                        (-x * x / (2.0 * h * h)).exp() / ((2.0 * PI).sqrt() * h) * cell
+                    })
+                    .sum();
+                s * s
+            }
+            Kernel::Quartic => {
+                let r = ((h / cell).ceil() as i64).max(1);
+                if r > 1500 {
+                    return 1.0; // midpoint rule error O((cell/h)²) < 1e-6
+                }
+                let mut s = 0.0;
+                for b in -r..=r {
+                    for a in -r..=r {
+                        let (dx, dy) = (a as f64 * cell, b as f64 * cell);
+                        s += self.value(dx * dx + dy * dy, h);
+                    }
+                }
+                s * cell * cell
             }
         }
     }

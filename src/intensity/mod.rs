@@ -133,6 +133,36 @@ pub fn kernel_surface(
     kernel_surface_in(pattern.x(), pattern.y(), w, &region, o)
 }
 
+/// The bandwidth alone, chosen as [`kernel_surface`] would choose it (for
+/// showing the criterion curve before drawing the surface).
+pub fn select_bandwidth(
+    pattern: &Pattern,
+    window: &Window,
+    o: &SurfaceOptions,
+) -> Result<BandwidthChoice, AnalysisError> {
+    let region = Region::from_window(window)?;
+    bandwidth::choose(
+        pattern.x(),
+        pattern.y(),
+        &region,
+        o.kernel,
+        o.edge,
+        &o.bandwidth,
+        &o.grid,
+    )
+}
+
+impl IntensitySurface {
+    /// Percent-volume isopleths, e.g. `&[0.5, 0.75, 0.95]`.
+    pub fn isopleths(&self, fractions: &[f64]) -> ContourSet {
+        isopleth::isopleths(&self.grid, fractions)
+    }
+    /// Contours at fixed levels in events per km².
+    pub fn contours(&self, levels_per_km2: &[f64]) -> ContourSet {
+        isopleth::contours(&self.grid, levels_per_km2)
+    }
+}
+
 /// Where the work happens: a raster padded by one cell on every side so
 /// linear binning never falls off it.
 pub(crate) struct Canvas {
@@ -176,6 +206,11 @@ impl Canvas {
             c[k + self.nx + 1] += wi * tx * ty;
         }
         c
+    }
+
+    /// Largest stencil radius that can matter on this raster.
+    pub(crate) fn max_r(&self) -> usize {
+        self.nx.max(self.ny)
     }
 
     /// Lower-left cell and bilinear fractions used by both [`Canvas::bin`]
@@ -223,10 +258,16 @@ pub(crate) fn surface_on_canvas(
     edge: EdgeCorrection,
     evaluation: Evaluation,
 ) -> (Vec<f64>, Option<Vec<f64>>) {
-    let stencil = kernel.stencil(h, cv.cell);
+    let stencil = kernel.stencil(h, cv.cell, cv.max_r());
     let e = match edge {
         EdgeCorrection::None => None,
-        _ => Some(edge::edge_mass(&cv.mask, cv.nx, cv.ny, &stencil)),
+        _ => Some(edge::edge_mass(
+            &cv.mask,
+            cv.nx,
+            cv.ny,
+            &stencil,
+            kernel.lattice_mass(h, cv.cell),
+        )),
     };
     let wt = |i: usize| weights.map_or(1.0, |w| w[i]);
     // Per-event weights after the Jones–Diggle factor.

@@ -481,6 +481,24 @@ fn edge_cases_give_values_or_errors() {
     let o = SurfaceOptions::default();
     assert!(kernel_surface_in(&[5.0], &[5.0], None, &region, &o).is_err());
     assert!(kernel_surface_in(&[5.0, 5.0], &[5.0, 5.0], None, &region, &o).is_err());
+    // A bandwidth far wider than the area: bounded stencil, mass kept.
+    for kernel in [Kernel::Gaussian, Kernel::Quartic] {
+        let o = SurfaceOptions {
+            kernel,
+            bandwidth: BandwidthOptions {
+                method: BandwidthMethod::Fixed,
+                fixed_m: Some(1.0e7),
+                ..Default::default()
+            },
+            ..Default::default()
+        };
+        let s = kernel_surface_in(&[5.0, 900.0], &[5.0, 300.0], None, &region, &o).unwrap();
+        assert!(
+            rel(s.integral_events, 2.0) < 1e-3,
+            "{kernel:?}: {}",
+            s.integral_events
+        );
+    }
     // Zero and negative bandwidths are refused.
     for h in [0.0, -3.0, f64::NAN] {
         let o = SurfaceOptions {

@@ -380,6 +380,12 @@ impl ScanJob {
                     format!("region {} has a bad location or population", i + 1),
                 ));
             }
+            if model == ScanModel::Bernoulli && (p.fract() != 0.0 || p > 1.0e8) {
+                return Err(bad(
+                    "regions",
+                    format!("region {} needs a whole number of people", i + 1),
+                ));
+            }
             if model == ScanModel::Bernoulli && (r.cases[i] as f64) > p {
                 return Err(bad(
                     "regions",
