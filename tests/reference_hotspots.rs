@@ -15,7 +15,8 @@ fn nums(v: &Value) -> Vec<f64> {
         .collect()
 }
 
-/// Kernel intensity against sklearn.neighbors.KernelDensity and
+/// Kernel intensity against sklearn.neighbors.KernelDensity,
+/// scipy.stats.gaussian_kde (isotropic bandwidth) and
 /// scipy.stats.multivariate_normal (`kde_reference.py`).
 mod kde {
     use super::nums;
@@ -76,6 +77,7 @@ mod kde {
         let s = surface(&r, EdgeCorrection::None, Evaluation::Exact);
         assert!(worst(&s, &nums(&r["sklearn_raw"])) < 1e-9);
         assert!(worst(&s, &nums(&r["scipy_raw"])) < 1e-9);
+        assert!(worst(&s, &nums(&r["scipy_gaussian_kde"])) < 1e-9);
     }
 
     #[test]

@@ -14,6 +14,10 @@ SD h = 60 m:
     bandwidth=h).score_samples -> exp(.) * n (sklearn's density is the mean of
     N(x_i, h^2 I) densities, so times n is the raw intensity sum_i k_h(u - x_i));
   * scipy_raw: the same sum with scipy.stats.multivariate_normal(x_i, h^2 I).pdf;
+  * scipy_gaussian_kde: scipy.stats.gaussian_kde(bw_method=h) * n with its data
+    covariance replaced by the identity, so its kernel covariance is
+    factor^2 * I = h^2 I (isotropic, as ours). This sets gaussian_kde's cached
+    _data_covariance/_data_cho_cov (private names in scipy 1.17.1, pinned);
   * uniform: sklearn_raw / e(u), Diggle (1985) edge correction, with the exact
     rectangle edge factor e(u) = prod over axes of
     [Phi((b - u)/h) - Phi((a - u)/h)] (scipy.stats.norm.cdf);
@@ -24,7 +28,7 @@ import json
 import os
 
 import numpy as np
-from scipy.stats import multivariate_normal, norm
+from scipy.stats import gaussian_kde, multivariate_normal, norm
 from sklearn.neighbors import KernelDensity
 
 rng = np.random.default_rng(20240611)
@@ -47,6 +51,20 @@ sk_raw = np.exp(kd.score_samples(U)) * n
 sp_raw = np.zeros(len(U))
 for p in X:
     sp_raw += multivariate_normal(mean=p, cov=h * h * np.eye(2)).pdf(U)
+
+
+class IsotropicKDE(gaussian_kde):
+    """gaussian_kde with kernel covariance bw_method^2 * I."""
+
+    def _compute_covariance(self):
+        self._data_covariance = np.eye(self.d)
+        self._data_cho_cov = np.eye(self.d)
+        super()._compute_covariance()
+
+
+gk = IsotropicKDE(X.T, bw_method=h)
+assert np.allclose(gk.covariance, h * h * np.eye(2))
+sp_kde = gk(U.T) * n
 
 
 def e_rect(P):
@@ -75,6 +93,7 @@ out = {
     "y": X[:, 1].tolist(),
     "sklearn_raw": sk_raw.tolist(),
     "scipy_raw": sp_raw.tolist(),
+    "scipy_gaussian_kde": sp_kde.tolist(),
     "uniform": uniform.tolist(),
     "jones_diggle": jd.tolist(),
     "integral_raw": float(sk_raw.sum() * A),
