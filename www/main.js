@@ -1,0 +1,751 @@
+/* Cloister page logic: user interface only. Every number shown is computed by
+ * the engine in the worker; this file reads files, sends requests, and shows
+ * answers. Nothing is sent anywhere and nothing is stored. */
+'use strict';
+
+(function () {
+  const $ = (id) => document.getElementById(id);
+  const PAGE_SIZE = 50;
+  const PROGRESS_DELAY_MS = 500;
+  const ROLES = ['x', 'y', 'time', 'category', 'weight'];
+
+  const state = {
+    module: null,
+    worker: null,
+    workerUrl: null,
+    nextId: 1,
+    pending: new Map(),
+    progressTimer: 0,
+    restarting: false,
+    // Kept file bytes, so options can change and a crashed engine can be refilled.
+    events: null, // {bytes, name, options}
+    area: null, // {bytes, name}
+    areaMode: 'convex_hull',
+    controls: null, // {bytes, name}
+    reports: { events: null, controls: null, area: null },
+    snap: null,
+    rej: { layer: 'events', offset: 0, total: 0 },
+  };
+
+  let map = null;
+
+  // ---------- small helpers ----------
+
+  function decodeBase64(text) {
+    const clean = text.replace(/\s+/g, '');
+    if (typeof Uint8Array.fromBase64 === 'function') return Uint8Array.fromBase64(clean);
+    const bin = atob(clean);
+    const out = new Uint8Array(bin.length);
+    for (let i = 0; i < bin.length; i++) out[i] = bin.charCodeAt(i);
+    return out;
+  }
+
+  function el(tag, attrs, ...children) {
+    const node = document.createElement(tag);
+    if (attrs) {
+      for (const [k, v] of Object.entries(attrs)) {
+        if (v === null || v === undefined || v === false) continue;
+        if (k === 'class') node.className = v;
+        else node.setAttribute(k, v === true ? '' : String(v));
+      }
+    }
+    for (const c of children) {
+      if (c === null || c === undefined) continue;
+      node.append(c instanceof Node ? c : String(c));
+    }
+    return node;
+  }
+
+  function num(v) {
+    if (typeof v === 'bigint') return Number(v);
+    return typeof v === 'number' ? v : v === null || v === undefined ? NaN : Number(v);
+  }
+
+  /** A number for people: grouped thousands, `digits` significant figures for non-integers. */
+  function fmt(v, digits = 4) {
+    const x = num(v);
+    if (!Number.isFinite(x)) return '—';
+    if (Number.isInteger(x) && Math.abs(x) < 1e15) return x.toLocaleString('en-GB');
+    const a = Math.abs(x);
+    if (a !== 0 && (a < 1e-3 || a >= 1e9)) return x.toExponential(digits - 1);
+    const decimals = Math.max(0, digits - 1 - Math.floor(Math.log10(a || 1)));
+    return x.toLocaleString('en-GB', { maximumFractionDigits: Math.min(decimals, 8), minimumFractionDigits: 0 });
+  }
+
+  function fmtMetres(v) {
+    const x = num(v);
+    if (!Number.isFinite(x)) return '—';
+    if (Math.abs(x) >= 10000) return `${fmt(x / 1000, 4)} km`;
+    return `${fmt(x, 4)} m`;
+  }
+
+  function fmtDays(days) {
+    const x = num(days);
+    if (!Number.isFinite(x)) return '—';
+    if (x < 2) return `${fmt(x * 24, 3)} hours`;
+    return `${fmt(x, 4)} days`;
+  }
+
+  /** Days since 1970-01-01 (UTC) to a date (and clock time if it has one). */
+  function fmtTime(days, withClock) {
+    const x = num(days);
+    if (!Number.isFinite(x)) return String(days);
+    const d = new Date(Math.round(x * 86400000));
+    const iso = d.toISOString();
+    return withClock ? `${iso.slice(0, 10)} ${iso.slice(11, 16)}` : iso.slice(0, 10);
+  }
+
+  function plural(n, one, many) {
+    return `${fmt(n)} ${num(n) === 1 ? one : many}`;
+  }
+
+  function errorText(err) {
+    if (!err) return 'Something went wrong.';
+    if (typeof err === 'string') return err;
+    let msg = String(err.message || err.code || 'Something went wrong.');
+    const row = err.row;
+    if (row !== null && row !== undefined && !new RegExp(`\\brow ${num(row)}\\b`).test(msg)) {
+      const col = err.column ? `, column "${err.column}"` : '';
+      msg = `row ${num(row)}${col}: ${msg}`;
+    }
+    return msg;
+  }
+
+  // ---------- status, progress, errors ----------
+
+  function setStatus(text) {
+    $('status').textContent = text;
+  }
+
+  function showError(context, err) {
+    const text = `${context}: ${errorText(err)}`;
+    $('error-text').textContent = text;
+    $('error-banner').hidden = false;
+  }
+
+  function clearError() {
+    $('error-banner').hidden = true;
+    $('error-text').textContent = '';
+  }
+
+  function updateProgress() {
+    const busy = state.pending.size > 0;
+    if (busy && !state.progressTimer && $('progress').hidden) {
+      state.progressTimer = setTimeout(() => {
+        state.progressTimer = 0;
+        if (state.pending.size > 0) $('progress').hidden = false;
+      }, PROGRESS_DELAY_MS);
+    } else if (!busy) {
+      clearTimeout(state.progressTimer);
+      state.progressTimer = 0;
+      $('progress').hidden = true;
+    }
+    document.body.dataset.busy = busy ? '1' : '0';
+  }
+
+  // ---------- the worker ----------
+
+  function startWorker() {
+    const glue = $('cloister-glue').textContent;
+    const body = $('cloister-worker-src').textContent;
+    if (state.workerUrl) URL.revokeObjectURL(state.workerUrl);
+    state.workerUrl = URL.createObjectURL(new Blob([glue, '\n;\n', body], { type: 'text/javascript' }));
+    const worker = new Worker(state.workerUrl);
+    worker.onmessage = (e) => onWorkerMessage(worker, e.data);
+    worker.onerror = (e) => {
+      e.preventDefault();
+      if (worker === state.worker) engineStopped(e.message || 'the worker failed');
+    };
+    worker.onmessageerror = () => {
+      if (worker === state.worker) engineStopped('a message could not be read');
+    };
+    state.worker = worker;
+    return call('init', state.module);
+  }
+
+  function call(method, ...args) {
+    return new Promise((resolve, reject) => {
+      const id = state.nextId++;
+      state.pending.set(id, { resolve, reject, method });
+      updateProgress();
+      try {
+        state.worker.postMessage({ id, method, args });
+      } catch (err) {
+        state.pending.delete(id);
+        updateProgress();
+        reject({ code: 'post_failed', message: String(err && err.message) });
+      }
+    });
+  }
+
+  function onWorkerMessage(worker, msg) {
+    if (worker !== state.worker || !msg) return;
+    const p = state.pending.get(msg.id);
+    if (!p) return;
+    state.pending.delete(msg.id);
+    updateProgress();
+    if (msg.ok) p.resolve(msg.result);
+    else {
+      p.reject(msg.error);
+      if (msg.fatal && p.method !== 'init') engineStopped(msg.error && msg.error.message);
+    }
+  }
+
+  /** The wasm instance trapped or the worker died: start a fresh one and reload the kept files. */
+  async function engineStopped(reason) {
+    if (state.restarting) return;
+    state.restarting = true;
+    const old = state.worker;
+    state.worker = null;
+    if (old) old.terminate();
+    for (const [, p] of state.pending) p.reject({ code: 'engine_stopped', message: 'The engine stopped.' });
+    state.pending.clear();
+    updateProgress();
+    const why = reason ? ` (${reason})` : '';
+    setStatus('The engine stopped unexpectedly; restarting it…');
+    try {
+      await startWorker();
+      await replayKeptFiles();
+      await refresh(true);
+      showError('The engine stopped unexpectedly and was restarted', {
+        message: `its state was rebuilt from your files, which never left this computer${why}.`,
+      });
+      setStatus('Engine restarted; your files were read again.');
+    } catch (err) {
+      showError('The engine stopped and could not be restarted; reload the page', err);
+      setStatus('Engine not available.');
+    } finally {
+      state.restarting = false;
+    }
+  }
+
+  async function replayKeptFiles() {
+    if (state.area && state.areaMode === 'file') {
+      try { state.reports.area = await call('loadArea', state.area.bytes, {}); } catch (_) { /* reported below */ }
+    }
+    if (state.events) {
+      state.reports.events = await call('loadEvents', state.events.bytes, state.events.options);
+      if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') await call('setAreaFallback', state.areaMode);
+    }
+    if (state.controls) {
+      try { state.reports.controls = await call('loadControls', state.controls.bytes, {}); } catch (_) { /* ignore */ }
+    }
+  }
+
+  // ---------- loading ----------
+
+  async function readFile(file) {
+    return new Uint8Array(await file.arrayBuffer());
+  }
+
+  async function loadEvents(bytes, name, options, { refreshAfter = true, fresh = true } = {}) {
+    setStatus(`Reading ${name}…`);
+    try {
+      const report = await call('loadEvents', bytes, options);
+      state.events = { bytes, name, options };
+      state.reports.events = report;
+      if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') {
+        await call('setAreaFallback', state.areaMode);
+      }
+      renderMapping(report);
+      renderFileLine('events-name', name, report);
+      if (report.study_error) showError('The events were read, but the study could not be set up', report.study_error);
+      if (refreshAfter) await refresh(!fresh);
+      setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used.`);
+      return true;
+    } catch (err) {
+      if (err && err.code === 'engine_stopped') return false;
+      showError(`Could not read ${name}`, err);
+      renderMapping(state.reports.events);
+      setStatus(state.events ? `Kept the previous events (${state.events.name}).` : 'No events loaded.');
+      return false;
+    }
+  }
+
+  async function loadArea(bytes, name, { refreshAfter = true } = {}) {
+    setStatus(`Reading ${name}…`);
+    try {
+      const report = await call('loadArea', bytes, {});
+      state.area = { bytes, name };
+      state.areaMode = 'file';
+      state.reports.area = report;
+      $('area-name').textContent = `${name}: ${describeAreaReport(report)}`;
+      if (report && report.study_error) showError('The boundary was read, but the study could not be set up', report.study_error);
+      renderAreaMode();
+      if (refreshAfter) await refresh(false);
+      setStatus(`Study area read from ${name}.`);
+      return true;
+    } catch (err) {
+      if (err && err.code === 'engine_stopped') return false;
+      showError(`Could not read ${name}`, err);
+      renderAreaMode();
+      setStatus('Kept the previous study area.');
+      return false;
+    }
+  }
+
+  function describeAreaReport(report) {
+    const study = report && report.study;
+    if (study && Number.isFinite(num(study.area_km2))) return `${fmt(study.area_km2)} km²`;
+    return 'loaded';
+  }
+
+  async function loadControls(bytes, name, { refreshAfter = true } = {}) {
+    setStatus(`Reading ${name}…`);
+    try {
+      const report = await call('loadControls', bytes, {});
+      state.controls = { bytes, name };
+      state.reports.controls = report;
+      renderFileLine('controls-name', name, report);
+      $('show-controls').disabled = false;
+      $('controls-clear').disabled = false;
+      if (report.study_error) showError('The controls were read, but the study could not be set up', report.study_error);
+      if (refreshAfter) await refresh(true);
+      setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used as controls.`);
+      return true;
+    } catch (err) {
+      if (err && err.code === 'engine_stopped') return false;
+      showError(`Could not read ${name}`, err);
+      setStatus(state.controls ? `Kept the previous controls (${state.controls.name}).` : 'No controls loaded.');
+      return false;
+    }
+  }
+
+  async function clearControls() {
+    clearError();
+    try {
+      await call('clearControls');
+      state.controls = null;
+      state.reports.controls = null;
+      $('controls-name').textContent = '';
+      $('controls-clear').disabled = true;
+      $('controls-file').value = '';
+      await refresh(true);
+      setStatus('Controls removed.');
+    } catch (err) {
+      showError('Could not remove the controls', err);
+    }
+  }
+
+  async function setAreaMode(mode) {
+    clearError();
+    if (mode === 'file') {
+      if (!state.area) {
+        setStatus('Choose a boundary file first.');
+        renderAreaMode();
+        $('area-file').focus();
+        return;
+      }
+      await loadArea(state.area.bytes, state.area.name);
+      return;
+    }
+    try {
+      if (state.areaMode === 'file') await call('clearArea');
+      state.areaMode = mode;
+      if (state.events) await call('setAreaFallback', mode);
+      renderAreaMode();
+      await refresh(false);
+      setStatus(mode === 'convex_hull' ? 'Study area: a hull drawn around the events.' : 'Study area: a rectangle around the events.');
+    } catch (err) {
+      showError('Could not change the study area', err);
+      renderAreaMode();
+    }
+  }
+
+  function demoBytes(id) {
+    const node = $(id);
+    if (!node) return null;
+    return decodeBase64(node.textContent);
+  }
+
+  async function loadDemo() {
+    clearError();
+    const cases = demoBytes('demo-cases');
+    const area = demoBytes('demo-area');
+    const pop = demoBytes('demo-population');
+    if (!cases) {
+      showError('The demo is missing', { message: 'this copy of the page was built without demo data.' });
+      return;
+    }
+    setStatus('Loading the demo…');
+    if (area) await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false });
+    const ok = await loadEvents(cases, 'cases.csv (demo)', {}, { refreshAfter: false });
+    if (pop) await loadControls(pop, 'population.csv (demo)', { refreshAfter: false });
+    await refresh(false);
+    if (ok) setStatus(`Demo loaded: ${statusCounts()}.`);
+  }
+
+  async function loadProblems() {
+    clearError();
+    const bytes = demoBytes('demo-problems');
+    const area = demoBytes('demo-area');
+    if (!bytes) return;
+    if (area && !(state.area && state.area.name === 'town-boundary.geojson (demo)' && state.areaMode === 'file')) {
+      await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false });
+    }
+    const ok = await loadEvents(bytes, 'cases-with-problems.csv (demo)', {}, { refreshAfter: false });
+    await refresh(false);
+    if (ok) {
+      setStatus(`Loaded a file with problems: ${statusCounts()}. See "Rows not used" under Data quality.`);
+    }
+  }
+
+  function statusCounts() {
+    const r = state.reports.events;
+    if (!r) return 'no events';
+    const study = state.snap && state.snap.study;
+    const used = study ? study.events : r.accepted;
+    return `${fmt(used)} events used of ${plural(r.rows_read, 'row', 'rows')}`;
+  }
+
+  // ---------- mapping editor ----------
+
+  function currentOptions() {
+    const mapping = {};
+    for (const role of ROLES) {
+      const sel = $(`map-${role}`);
+      if (!sel.disabled) mapping[role] = sel.value === '' ? '' : sel.value;
+    }
+    const kind = $('map-coords').value;
+    const coords = kind === 'lon_lat' ? { kind: 'lon_lat' } : { kind: 'planar', unit: kind };
+    return { mapping, coords, date_order: $('map-date').value };
+  }
+
+  function renderMapping(report) {
+    const fs = $('mapping');
+    if (!report) {
+      fs.disabled = true;
+      return;
+    }
+    fs.disabled = false;
+    const isGeo = report.format && report.format.format === 'geo_json';
+    const columns = Array.from(report.columns || []);
+    for (const role of ROLES) {
+      const sel = $(`map-${role}`);
+      sel.replaceChildren();
+      const chosen = report.mapping ? report.mapping[role] : null;
+      if ((role === 'x' || role === 'y') && isGeo) {
+        sel.append(el('option', { value: '' }, 'from the geometry'));
+        sel.disabled = true;
+        continue;
+      }
+      sel.disabled = false;
+      sel.append(el('option', { value: '' }, role === 'x' || role === 'y' ? '(choose a column)' : '(not used)'));
+      for (const c of columns) sel.append(el('option', { value: c }, c));
+      sel.value = chosen && columns.includes(chosen) ? chosen : '';
+    }
+    const coords = report.coords || {};
+    $('map-coords').value = coords.kind === 'planar' ? coords.unit || 'metre' : 'lon_lat';
+    const opts = state.events ? state.events.options : {};
+    if (opts && opts.date_order) $('map-date').value = opts.date_order;
+    const fmtInfo = report.format || {};
+    let how = 'GeoJSON points';
+    if (fmtInfo.format === 'csv') {
+      const d = fmtInfo.delimiter === '\t' ? 'tab' : fmtInfo.delimiter === ';' ? 'semicolon' : fmtInfo.delimiter === ',' ? 'comma' : `"${fmtInfo.delimiter}"`;
+      how = `Table separated by ${d}${fmtInfo.decimal_comma ? ', decimal comma' : ''}`;
+    }
+    $('mapping-hint').textContent = `${how}. Change a choice to read the file again.`;
+  }
+
+  async function mappingChanged() {
+    if (!state.events) return;
+    clearError();
+    const options = currentOptions();
+    await loadEvents(state.events.bytes, state.events.name, options, { fresh: false });
+  }
+
+  function renderFileLine(id, name, report) {
+    const rows = report ? ` — ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used` : '';
+    $(id).textContent = `${name}${rows}`;
+  }
+
+  function renderAreaMode() {
+    const mode = state.areaMode;
+    $('area-mode-file').checked = mode === 'file';
+    $('area-mode-hull').checked = mode === 'convex_hull';
+    $('area-mode-box').checked = mode === 'bounding_box';
+    $('area-mode-file').disabled = !state.area;
+    $('area-warning').hidden = mode === 'file';
+    if (!state.area) $('area-name').textContent = '';
+    else if (mode !== 'file') $('area-name').textContent = `${state.area.name} (not in use)`;
+  }
+
+  // ---------- results ----------
+
+  async function refresh(keepView) {
+    let snap;
+    try {
+      snap = await call('snapshot');
+    } catch (err) {
+      if (err && err.code === 'engine_stopped') return;
+      showError('Could not update the results', err);
+      return;
+    }
+    state.snap = snap;
+    const layers = snap.layers;
+    if (layers && layers.events && layers.events.length > 0) {
+      map.setLayers(layers, keepView);
+      $('map-empty').hidden = true;
+    } else {
+      map.clear();
+      $('map-empty').hidden = false;
+    }
+    renderLegend(layers);
+    renderSummary(snap);
+    renderQuality(snap);
+    state.rej.offset = 0;
+    if (state.rej.layer === 'controls' && !state.controls) state.rej.layer = 'events';
+    await loadRejections();
+  }
+
+  function renderLegend(layers) {
+    const ul = $('legend');
+    ul.replaceChildren();
+    if (!layers || !layers.events || layers.events.length === 0) return;
+    const names = Array.from(layers.category_names || []);
+    const counts = new Map();
+    const summaryCats = state.snap && state.snap.summary && state.snap.summary.categories;
+    if (Array.isArray(summaryCats)) for (const c of summaryCats) counts.set(c.name, c.count);
+    if (layers.event_category && names.length > 0) {
+      const pal = CLOISTER_PALETTE.categories;
+      names.forEach((name, i) => {
+        if (names.length > pal.length && i >= pal.length - 1) return;
+        const n = counts.has(name) ? ` (${fmt(counts.get(name))})` : '';
+        ul.append(el('li', null, swatch('dot', PointMap.categoryColour(i, names.length)), `${name}${n}`));
+      });
+      if (names.length > pal.length) {
+        ul.append(el('li', null, swatch('dot', CLOISTER_PALETTE.other), `${names.length - pal.length + 1} more categories`));
+      }
+    } else {
+      ul.append(el('li', null, swatch('dot', CLOISTER_PALETTE.single), 'Events'));
+    }
+    if (layers.controls && layers.controls.length > 0 && map.showControls) {
+      ul.append(el('li', null, swatch('control', CLOISTER_PALETTE.control), 'Controls (population at risk)'));
+    }
+    if (Array.isArray(layers.area) && layers.area.length > 0) {
+      const origin = state.snap && state.snap.study && state.snap.study.area_origin;
+      const label = origin === 'convex_hull' ? 'Study area (hull around the events)' : origin === 'bounding_box' ? 'Study area (rectangle around the events)' : 'Study area';
+      ul.append(el('li', null, swatch('area'), label));
+    }
+    if (layers.mean_centre) ul.append(el('li', null, swatch('centre'), 'Mean centre'));
+    if (Array.isArray(layers.ellipse) && layers.ellipse.length > 2) ul.append(el('li', null, swatch('ellipse'), 'Standard deviational ellipse'));
+  }
+
+  function swatch(kind, colour) {
+    const s = el('span', { class: `sw ${kind}`, 'aria-hidden': 'true' });
+    if (colour) s.style.background = colour;
+    return s;
+  }
+
+  function renderSummary(snap) {
+    const dl = $('summary');
+    dl.replaceChildren();
+    const s = snap && snap.summary;
+    const study = snap && snap.study;
+    const add = (term, value, key) => {
+      const dd = el('dd', key ? { 'data-key': key } : null, value);
+      dl.append(el('dt', null, term), dd);
+    };
+    const catTable = $('categories');
+    const catBody = catTable.querySelector('tbody');
+    catBody.replaceChildren();
+    catTable.hidden = true;
+    $('categories-title').hidden = true;
+    if (!s) {
+      add('Events', snap && snap.summary_error ? errorText(snap.summary_error) : 'none loaded');
+      return;
+    }
+    add('Events (n)', fmt(s.n_events), 'n_events');
+    if (num(s.n_controls) > 0) add('Controls', fmt(s.n_controls), 'n_controls');
+    add('Study area', `${fmt(s.area_km2)} km²`, 'area_km2');
+    add('Events per km²', fmt(s.intensity_per_km2), 'intensity_per_km2');
+    const mc = s.mean_centre || {};
+    if (Number.isFinite(num(mc.lon)) && Number.isFinite(num(mc.lat))) {
+      add('Mean centre', `${fmt(mc.lat, 7)}° lat, ${fmt(mc.lon, 7)}° lon`, 'mean_centre');
+    } else if (Number.isFinite(num(mc.x))) {
+      add('Mean centre', `x ${fmt(mc.x, 7)}, y ${fmt(mc.y, 7)} (file units)`, 'mean_centre');
+    }
+    add('Standard distance', fmtMetres(s.standard_distance_m), 'standard_distance_m');
+    const e = s.ellipse;
+    if (e) {
+      add('Ellipse', `${fmtMetres(e.semi_major_m)} × ${fmtMetres(e.semi_minor_m)} (half-axes), long axis at ${fmt(e.angle_deg, 3)}°`, 'ellipse');
+    }
+    if (s.nn) {
+      add('Nearest neighbour', `min ${fmtMetres(s.nn.min)}, median ${fmtMetres(s.nn.median)}, mean ${fmtMetres(s.nn.mean)}, max ${fmtMetres(s.nn.max)}`, 'nn');
+    }
+    if (s.time) {
+      const clock = state.reports.events && state.reports.events.time_has_clock;
+      add('Time span', `${fmtTime(s.time.first, clock)} to ${fmtTime(s.time.last, clock)} (${fmtDays(s.time.span_days)})`, 'time');
+    }
+    const co = s.coincident || (study && study.coincident);
+    if (co) {
+      add('Coincident points', num(co.locations) > 0 ? `${fmt(co.events)} events share ${plural(co.locations, 'location', 'locations')} (at most ${fmt(co.largest)} at one)` : 'none', 'coincident');
+    }
+    if (Array.isArray(s.categories) && s.categories.length > 0) {
+      for (const c of s.categories) catBody.append(el('tr', null, el('td', null, c.name), el('td', { class: 'n' }, fmt(c.count))));
+      catTable.hidden = false;
+      $('categories-title').hidden = false;
+    }
+  }
+
+  function renderQuality(snap) {
+    const study = snap && snap.study;
+    $('projection-text').textContent = study && study.projection_text ? `Projection: ${study.projection_text}` : '';
+    const box = $('quality-counts');
+    box.replaceChildren();
+    const layerLine = (label, key, report, used) => {
+      if (!report) return;
+      const rejected = snap.rejected ? snap.rejected[key] : null;
+      const usedN = used !== null && used !== undefined ? used : report.accepted;
+      const p = el('p', { class: 'counts', 'data-layer': key },
+        el('strong', null, `${label}: `),
+        el('span', { class: 'eq' },
+          'rows read ', el('span', { 'data-count': 'read' }, fmt(report.rows_read)),
+          ' = used ', el('span', { 'data-count': 'used' }, fmt(usedN)),
+          ' + not used ', el('span', { 'data-count': 'rejected' }, fmt(rejected === null ? report.rejected : rejected))));
+      box.append(p);
+      const reasons = Array.from(report.by_reason || []);
+      if (reasons.length > 0) {
+        const ul = el('ul', { class: 'reasons' });
+        for (const r of reasons) ul.append(el('li', null, `${r.reason_text || r.reason}: ${fmt(r.count)}`));
+        box.append(ul);
+      }
+    };
+    layerLine('Events', 'events', state.reports.events, study ? study.events : null);
+    layerLine('Controls', 'controls', state.reports.controls, study && state.controls ? study.controls : null);
+    const ul = $('warnings');
+    ul.replaceChildren();
+    const warnings = study && Array.isArray(study.warnings) ? study.warnings : [];
+    for (const w of warnings) ul.append(el('li', null, w));
+    $('rejections').hidden = !state.reports.events;
+    $('rej-layer').querySelector('option[value=controls]').disabled = !state.controls;
+  }
+
+  async function loadRejections() {
+    if (!state.reports.events) return;
+    const { layer, offset } = state.rej;
+    let res;
+    try {
+      res = await call('rejections', layer, offset, PAGE_SIZE);
+    } catch (err) {
+      if (err && err.code === 'engine_stopped') return;
+      showError('Could not list the rows not used', err);
+      return;
+    }
+    const total = num(res.total);
+    state.rej.total = total;
+    $('rej-layer').value = layer;
+    const body = $('rej-body');
+    body.replaceChildren();
+    const rows = Array.from(res.rows || []);
+    if (rows.length === 0) {
+      body.append(el('tr', null, el('td', { colspan: 4 }, total === 0 ? 'Every row was used.' : 'No rows on this page.')));
+    }
+    for (const r of rows) {
+      body.append(el('tr', null,
+        el('td', { class: 'n' }, fmt(r.row)),
+        el('td', null, r.column ?? '—'),
+        el('td', null, r.reason_text || r.reason),
+        el('td', null, r.value === '' || r.value === null || r.value === undefined ? '(empty)' : r.value)));
+    }
+    const from = total === 0 ? 0 : offset + 1;
+    const to = Math.min(offset + PAGE_SIZE, total);
+    $('rej-range').textContent = total === 0 ? 'none' : `${fmt(from)}–${fmt(to)} of ${fmt(total)}`;
+    $('rej-prev').disabled = offset <= 0;
+    $('rej-next').disabled = offset + PAGE_SIZE >= total;
+  }
+
+  // ---------- wiring ----------
+
+  function wireFileInput(inputId, dropId, handler) {
+    const input = $(inputId);
+    input.addEventListener('change', async () => {
+      const file = input.files && input.files[0];
+      if (!file) return;
+      clearError();
+      await handler(await readFile(file), file.name);
+    });
+    const zone = $(dropId);
+    zone.addEventListener('dragover', (e) => {
+      e.preventDefault();
+      zone.classList.add('over');
+    });
+    zone.addEventListener('dragleave', () => zone.classList.remove('over'));
+    zone.addEventListener('drop', async (e) => {
+      e.preventDefault();
+      zone.classList.remove('over');
+      if (input.disabled) return;
+      const file = e.dataTransfer && e.dataTransfer.files && e.dataTransfer.files[0];
+      if (!file) return;
+      clearError();
+      await handler(await readFile(file), file.name);
+    });
+  }
+
+  function wire() {
+    // A file dropped outside a drop box must not replace the page.
+    window.addEventListener('dragover', (e) => e.preventDefault());
+    window.addEventListener('drop', (e) => e.preventDefault());
+
+    wireFileInput('events-file', 'events-drop', (bytes, name) => loadEvents(bytes, name, {}));
+    wireFileInput('area-file', 'area-drop', (bytes, name) => loadArea(bytes, name));
+    wireFileInput('controls-file', 'controls-drop', (bytes, name) => loadControls(bytes, name));
+    $('demo-button').addEventListener('click', loadDemo);
+    $('problems-button').addEventListener('click', loadProblems);
+    for (const id of ['map-x', 'map-y', 'map-time', 'map-category', 'map-weight', 'map-coords', 'map-date']) {
+      $(id).addEventListener('change', mappingChanged);
+    }
+    for (const input of document.querySelectorAll('input[name=area-mode]')) {
+      input.addEventListener('change', () => { if (input.checked) setAreaMode(input.value); });
+    }
+    $('show-controls').addEventListener('change', () => {
+      map.showControls = $('show-controls').checked;
+      map.redraw();
+      renderLegend(state.snap && state.snap.layers);
+    });
+    $('controls-clear').addEventListener('click', clearControls);
+    $('error-close').addEventListener('click', clearError);
+    $('zoom-in').addEventListener('click', () => map.zoomBy(1.5));
+    $('zoom-out').addEventListener('click', () => map.zoomBy(1 / 1.5));
+    $('zoom-reset').addEventListener('click', () => map.resetView());
+    $('rej-prev').addEventListener('click', () => { state.rej.offset = Math.max(0, state.rej.offset - PAGE_SIZE); loadRejections(); });
+    $('rej-next').addEventListener('click', () => { state.rej.offset += PAGE_SIZE; loadRejections(); });
+    $('rej-layer').addEventListener('change', () => { state.rej.layer = $('rej-layer').value; state.rej.offset = 0; loadRejections(); });
+  }
+
+  function enableInputs() {
+    for (const id of ['events-file', 'area-file', 'controls-file', 'demo-button', 'problems-button']) $(id).disabled = false;
+    $('area-mode').disabled = false;
+    if (!$('demo-cases')) {
+      $('demo-button').hidden = true;
+      $('problems-button').hidden = true;
+    } else if (!$('demo-problems')) {
+      $('problems-button').hidden = true;
+    }
+    renderAreaMode();
+  }
+
+  async function boot() {
+    map = new PointMap($('map'));
+    wire();
+    try {
+      const bytes = decodeBase64($('cloister-wasm').textContent);
+      state.module = await WebAssembly.compile(bytes);
+      await wasm_bindgen({ module_or_path: state.module });
+      $('version').textContent = `version ${wasm_bindgen.version()}`;
+      await startWorker();
+    } catch (err) {
+      showError('The engine could not start', err);
+      setStatus('Engine not available.');
+      return;
+    }
+    enableInputs();
+    document.body.dataset.ready = '1';
+    setStatus('Ready. Load an events file, or the demo.');
+  }
+
+  window.addEventListener('error', (e) => showError('Unexpected problem in the page', { message: e.message }));
+  window.addEventListener('unhandledrejection', (e) => showError('Unexpected problem in the page', e.reason));
+
+  boot();
+})();
