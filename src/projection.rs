@@ -25,7 +25,10 @@ impl Projection {
     /// The projection used for data whose centre is (`lon`, `lat`) in `kind` coordinates.
     pub fn for_data(kind: CoordKind, lon: f64, lat: f64) -> Projection {
         match kind {
-            CoordKind::LonLat => Projection::TransverseMercator { lon0: lon, lat0: lat },
+            CoordKind::LonLat => Projection::TransverseMercator {
+                lon0: lon,
+                lat0: lat,
+            },
             CoordKind::Planar { unit } => Projection::Planar { unit },
         }
     }

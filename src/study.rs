@@ -41,7 +41,12 @@ impl Pattern {
             return None;
         }
         let row = (1..=x.len() as u64).collect();
-        Some(Pattern { x, y, row, ..Default::default() })
+        Some(Pattern {
+            x,
+            y,
+            row,
+            ..Default::default()
+        })
     }
     pub fn len(&self) -> usize {
         self.x.len()
