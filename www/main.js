@@ -17,8 +17,10 @@
     pending: new Map(),
     progressTimer: 0,
     restarting: false,
+    engineReady: null, // a promise while the engine restarts
     // Kept file bytes, so options can change and a crashed engine can be refilled.
     events: null, // {bytes, name, options}
+    pendingFile: null, // an events file whose coordinate columns the user must choose: {bytes, name, options}
     area: null, // {bytes, name}
     areaMode: 'convex_hull',
     controls: null, // {bytes, name}
@@ -118,7 +120,11 @@
   }
 
   function showError(context, err) {
-    const text = `${context}: ${errorText(err)}`;
+    let text = `${context}: ${errorText(err)}`;
+    if (err && Array.isArray(err.by_reason) && err.by_reason.length > 0) {
+      const parts = err.by_reason.map((r) => `${r.reason_text || r.reason} (${fmt(r.count)})`);
+      text += ` Reasons: ${parts.join('; ')}.`;
+    }
     $('error-text').textContent = text;
     $('error-banner').hidden = false;
   }
@@ -160,10 +166,11 @@
       if (worker === state.worker) engineStopped('a message could not be read');
     };
     state.worker = worker;
-    return call('init', state.module);
+    return post('init', [state.module]);
   }
 
-  function call(method, ...args) {
+  /** Sends one request to the worker now. */
+  function post(method, args) {
     return new Promise((resolve, reject) => {
       const id = state.nextId++;
       state.pending.set(id, { resolve, reject, method });
@@ -173,9 +180,15 @@
       } catch (err) {
         state.pending.delete(id);
         updateProgress();
-        reject({ code: 'post_failed', message: String(err && err.message) });
+        reject({ code: 'engine_stopped', message: String(err && err.message) });
       }
     });
+  }
+
+  /** Sends a request once the engine is up (waits while it is being restarted). */
+  async function call(method, ...args) {
+    if (state.engineReady) await state.engineReady;
+    return post(method, args);
   }
 
   function onWorkerMessage(worker, msg) {
@@ -186,49 +199,87 @@
     updateProgress();
     if (msg.ok) p.resolve(msg.result);
     else {
-      p.reject(msg.error);
-      if (msg.fatal && p.method !== 'init') engineStopped(msg.error && msg.error.message);
+      if (msg.fatal && p.method !== 'init' && !state.restarting) engineStopped(msg.error && msg.error.message);
+      p.reject(msg.fatal ? { ...msg.error, code: 'engine_stopped' } : msg.error);
     }
   }
 
-  /** The wasm instance trapped or the worker died: start a fresh one and reload the kept files. */
-  async function engineStopped(reason) {
-    if (state.restarting) return;
-    state.restarting = true;
+  function stopWorker() {
     const old = state.worker;
     state.worker = null;
     if (old) old.terminate();
     for (const [, p] of state.pending) p.reject({ code: 'engine_stopped', message: 'The engine stopped.' });
     state.pending.clear();
     updateProgress();
-    const why = reason ? ` (${reason})` : '';
+  }
+
+  /** The wasm instance trapped or the worker died: start a fresh one and
+   * read the kept files into it again. Requests made meanwhile wait. */
+  function engineStopped(reason) {
+    if (state.restarting) return;
+    state.restarting = true;
+    stopWorker();
+    const why = reason ? ` (Technical detail: ${reason}.)` : '';
     setStatus('The engine stopped unexpectedly; restarting it…');
-    try {
-      await startWorker();
-      await replayKeptFiles();
-      await refresh(true);
-      showError('The engine stopped unexpectedly and was restarted', {
-        message: `its state was rebuilt from your files, which never left this computer${why}.`,
+    let rebuilt = true;
+    state.engineReady = (async () => {
+      try {
+        await startWorker();
+        await replayKeptFiles();
+      } catch (_) {
+        // The kept files themselves stop the engine: start clean without them.
+        rebuilt = false;
+        stopWorker();
+        state.events = null;
+        state.area = null;
+        state.controls = null;
+        state.pendingFile = null;
+        state.reports = { events: null, controls: null, area: null };
+        if (state.areaMode === 'file') state.areaMode = 'convex_hull';
+        await startWorker();
+      }
+    })();
+    state.engineReady
+      .then(async () => {
+        state.restarting = false;
+        state.engineReady = null;
+        renderMapping(state.reports.events);
+        renderAreaMode();
+        for (const id of ['events-name', 'controls-name']) if (!state[id.split('-')[0]]) $(id).textContent = '';
+        await refresh(true);
+        const hadFiles = !!(state.events || state.area || state.controls);
+        if (rebuilt && !hadFiles) {
+          showError('The engine stopped unexpectedly and was restarted', { message: `the last request could not be completed.${why}` });
+          setStatus('Engine restarted.');
+        } else if (rebuilt) {
+          showError('The engine stopped unexpectedly and was restarted', {
+            message: `your files were read into it again (they never left this computer).${why}`,
+          });
+          setStatus('Engine restarted; your files were read again.');
+        } else {
+          showError('The engine stopped unexpectedly and was restarted empty', {
+            message: `reading your files again stopped it too, so they were set aside; load them again or try other files.${why}`,
+          });
+          setStatus('Engine restarted with nothing loaded.');
+        }
+      })
+      .catch((err) => {
+        state.restarting = false;
+        showError('The engine stopped and could not be restarted; reload the page', err);
+        setStatus('Engine not available.');
       });
-      setStatus('Engine restarted; your files were read again.');
-    } catch (err) {
-      showError('The engine stopped and could not be restarted; reload the page', err);
-      setStatus('Engine not available.');
-    } finally {
-      state.restarting = false;
-    }
   }
 
   async function replayKeptFiles() {
     if (state.area && state.areaMode === 'file') {
-      try { state.reports.area = await call('loadArea', state.area.bytes, {}); } catch (_) { /* reported below */ }
+      state.reports.area = await post('loadArea', [state.area.bytes, {}]);
     }
     if (state.events) {
-      state.reports.events = await call('loadEvents', state.events.bytes, state.events.options);
-      if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') await call('setAreaFallback', state.areaMode);
+      state.reports.events = await post('loadEvents', [state.events.bytes, state.events.options]);
+      if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') await post('setAreaFallback', [state.areaMode]);
     }
     if (state.controls) {
-      try { state.reports.controls = await call('loadControls', state.controls.bytes, {}); } catch (_) { /* ignore */ }
+      state.reports.controls = await post('loadControls', [state.controls.bytes, {}]);
     }
   }
 
@@ -243,6 +294,7 @@
     try {
       const report = await call('loadEvents', bytes, options);
       state.events = { bytes, name, options };
+      state.pendingFile = null;
       state.reports.events = report;
       if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') {
         await call('setAreaFallback', state.areaMode);
@@ -256,8 +308,18 @@
     } catch (err) {
       if (err && err.code === 'engine_stopped') return false;
       showError(`Could not read ${name}`, err);
-      renderMapping(state.reports.events);
-      setStatus(state.events ? `Kept the previous events (${state.events.name}).` : 'No events loaded.');
+      const wasPending = state.pendingFile && state.pendingFile.bytes === bytes;
+      const columns = err && (err.code === 'missing_columns' || wasPending) ? headerColumns(bytes) : [];
+      if (columns.length > 1) {
+        // Let the user name the coordinate columns, then read the same bytes again.
+        state.pendingFile = { bytes, name, options };
+        renderPendingMapping(columns, name, options);
+      } else {
+        state.pendingFile = null;
+        renderMapping(state.reports.events);
+      }
+      const kept = state.events ? `Kept the previous events (${state.events.name}).` : 'No events loaded.';
+      setStatus(state.pendingFile ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
       return false;
     }
   }
@@ -368,11 +430,12 @@
       return;
     }
     setStatus('Loading the demo…');
-    if (area) await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false });
-    const ok = await loadEvents(cases, 'cases.csv (demo)', {}, { refreshAfter: false });
-    if (pop) await loadControls(pop, 'population.csv (demo)', { refreshAfter: false });
+    // Stop at the first failure: its message stays on screen.
+    if (area && !(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
+    if (!(await loadEvents(cases, 'cases.csv (demo)', {}, { refreshAfter: false }))) return;
+    if (pop && !(await loadControls(pop, 'population.csv (demo)', { refreshAfter: false }))) return;
     await refresh(false);
-    if (ok) setStatus(`Demo loaded: ${statusCounts()}.`);
+    setStatus(`Demo loaded: ${statusCounts()}.`);
   }
 
   async function loadProblems() {
@@ -381,13 +444,11 @@
     const area = demoBytes('demo-area');
     if (!bytes) return;
     if (area && !(state.area && state.area.name === 'town-boundary.geojson (demo)' && state.areaMode === 'file')) {
-      await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false });
+      if (!(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
     }
-    const ok = await loadEvents(bytes, 'cases-with-problems.csv (demo)', {}, { refreshAfter: false });
+    if (!(await loadEvents(bytes, 'cases-with-problems.csv (demo)', {}, { refreshAfter: false }))) return;
     await refresh(false);
-    if (ok) {
-      setStatus(`Loaded a file with problems: ${statusCounts()}. See "Rows not used" under Data quality.`);
-    }
+    setStatus(`Loaded a file with problems: ${statusCounts()}. See "Rows not used" under Data quality.`);
   }
 
   function statusCounts() {
@@ -411,7 +472,7 @@
     return { mapping, coords, date_order: $('map-date').value };
   }
 
-  function renderMapping(report) {
+  function renderMapping(report, pending = false) {
     const fs = $('mapping');
     if (!report) {
       fs.disabled = true;
@@ -436,8 +497,9 @@
     }
     const coords = report.coords || {};
     $('map-coords').value = coords.kind === 'planar' ? coords.unit || 'metre' : 'lon_lat';
-    const opts = state.events ? state.events.options : {};
+    const opts = pending && state.pendingFile ? state.pendingFile.options : state.events ? state.events.options : {};
     if (opts && opts.date_order) $('map-date').value = opts.date_order;
+    if (pending) return;
     const fmtInfo = report.format || {};
     let how = 'GeoJSON points';
     if (fmtInfo.format === 'csv') {
@@ -448,10 +510,33 @@
   }
 
   async function mappingChanged() {
-    if (!state.events) return;
+    const target = state.pendingFile || state.events;
+    if (!target) return;
     clearError();
     const options = currentOptions();
-    await loadEvents(state.events.bytes, state.events.name, options, { fresh: false });
+    await loadEvents(target.bytes, target.name, options, { fresh: target !== state.events });
+  }
+
+  /** Column names from the first line of a delimited file, to offer in the
+   * mapping editor when the engine could not find the coordinate columns. */
+  function headerColumns(bytes) {
+    const head = new TextDecoder('utf-8', { fatal: false }).decode(bytes.subarray(0, 65536)).replace(/^\uFEFF/, '');
+    if (/^\s*[[{]/.test(head)) return [];
+    const line = head.split(/\r?\n/, 1)[0] || '';
+    let best = ',';
+    let most = -1;
+    for (const d of [',', ';', '\t']) {
+      const n = line.split(d).length - 1;
+      if (n > most) { most = n; best = d; }
+    }
+    if (most < 1) return [];
+    return line.split(best).map((c) => c.trim().replace(/^"(.*)"$/, '$1').trim()).filter((c) => c.length > 0);
+  }
+
+  function renderPendingMapping(columns, name, options) {
+    const mapping = (options && options.mapping) || {};
+    renderMapping({ columns, mapping, coords: options && options.coords, format: null }, true);
+    $('mapping-hint').textContent = `${name}: choose the x and y columns below to read it. Until then the map shows the previous events.`;
   }
 
   function renderFileLine(id, name, report) {
@@ -593,26 +678,33 @@
     $('projection-text').textContent = study && study.projection_text ? `Projection: ${study.projection_text}` : '';
     const box = $('quality-counts');
     box.replaceChildren();
-    const layerLine = (label, key, report, used) => {
+    // Counts come from the current study when there is one (it also counts
+    // events outside the study area), else from the load report.
+    const layerLine = (label, key, report, fromStudy) => {
       if (!report) return;
-      const rejected = snap.rejected ? snap.rejected[key] : null;
-      const usedN = used !== null && used !== undefined ? used : report.accepted;
+      const read = fromStudy ? fromStudy.read : report.rows_read;
+      const used = fromStudy ? fromStudy.used : report.accepted;
+      const rejected = fromStudy ? fromStudy.rejected : report.rejected;
       const p = el('p', { class: 'counts', 'data-layer': key },
         el('strong', null, `${label}: `),
         el('span', { class: 'eq' },
-          'rows read ', el('span', { 'data-count': 'read' }, fmt(report.rows_read)),
-          ' = used ', el('span', { 'data-count': 'used' }, fmt(usedN)),
-          ' + not used ', el('span', { 'data-count': 'rejected' }, fmt(rejected === null ? report.rejected : rejected))));
+          'rows read ', el('span', { 'data-count': 'read' }, fmt(read)),
+          ' = used ', el('span', { 'data-count': 'used' }, fmt(used)),
+          ' + not used ', el('span', { 'data-count': 'rejected' }, fmt(rejected))));
       box.append(p);
-      const reasons = Array.from(report.by_reason || []);
+      const tally = snap.reasons && fromStudy ? snap.reasons[key] : null;
+      const reasons = Array.from(tally || report.by_reason || []);
       if (reasons.length > 0) {
         const ul = el('ul', { class: 'reasons' });
         for (const r of reasons) ul.append(el('li', null, `${r.reason_text || r.reason}: ${fmt(r.count)}`));
         box.append(ul);
       }
     };
-    layerLine('Events', 'events', state.reports.events, study ? study.events : null);
-    layerLine('Controls', 'controls', state.reports.controls, study && state.controls ? study.controls : null);
+    layerLine('Events', 'events', state.reports.events,
+      study ? { read: study.events_rows_read, used: study.events, rejected: study.events_rejected } : null);
+    layerLine('Controls', 'controls', state.reports.controls,
+      study && state.controls && study.controls !== null && study.controls !== undefined
+        ? { read: study.controls_rows_read, used: study.controls, rejected: study.controls_rejected } : null);
     const ul = $('warnings');
     ul.replaceChildren();
     const warnings = study && Array.isArray(study.warnings) ? study.warnings : [];

@@ -57,9 +57,13 @@ class PointMap {
     return i < pal.length - 1 ? pal[i] : CLOISTER_PALETTE.other;
   }
 
+  /** New data. The view is kept only when asked and the extent is unchanged. */
   setLayers(layers, keepView) {
+    const before = this.bbox();
     this.layers = layers;
-    if (!keepView || !this.view) this.resetView();
+    const after = this.bbox();
+    const same = before && after && before.every((v, i) => Math.abs(v - after[i]) <= 1e-9 * (1 + Math.abs(v)));
+    if (!keepView || !this.view || !same) this.resetView();
     else this.redraw();
   }
 

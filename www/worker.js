@@ -24,12 +24,17 @@ function isFatal(err) {
 function plainError(err) {
   if (err instanceof Map) err = Object.fromEntries(err);
   if (err && typeof err === 'object' && !(err instanceof Error)) {
-    return {
+    const out = {
       code: String(err.code ?? 'error'),
       message: String(err.message ?? JSON.stringify(err)),
       row: err.row ?? (err.at && err.at.row) ?? null,
       column: err.column ?? (err.at && err.at.column) ?? null,
     };
+    // A file that parsed but could not be used carries its rejection summary.
+    if (err.rows_read !== undefined) out.rows_read = Number(err.rows_read);
+    if (Array.isArray(err.by_reason)) out.by_reason = err.by_reason;
+    if (Array.isArray(err.rejections)) out.rejections = err.rejections;
+    return out;
   }
   if (typeof err === 'string') return { code: 'error', message: err, row: null, column: null };
   return {
@@ -57,15 +62,34 @@ function snapshot() {
       out.summary_error = plainError(err);
     }
   }
+  out.reasons = { events: null, controls: null };
   for (const layer of ['events', 'controls']) {
     try {
       out.rejected[layer] = Number(session.rejections(layer, 0, 0).total);
+      out.reasons[layer] = reasonCounts(layer, out.rejected[layer]);
     } catch (err) {
       if (isFatal(err)) throw err;
       out.rejected[layer] = null;
     }
   }
   return out;
+}
+
+/** Rejected rows counted by reason, in order of first appearance (a tally for
+ * the data-quality panel, current after every change of study area). */
+function reasonCounts(layer, total) {
+  const LIMIT = 200000;
+  if (!(total > 0) || total > LIMIT) return total > LIMIT ? null : [];
+  const counts = new Map();
+  for (let offset = 0; offset < total; offset += 10000) {
+    const page = session.rejections(layer, offset, 10000);
+    for (const r of page.rows) {
+      const c = counts.get(r.reason);
+      if (c) c.count++;
+      else counts.set(r.reason, { reason: r.reason, reason_text: r.reason_text, count: 1 });
+    }
+  }
+  return Array.from(counts.values());
 }
 
 /** Buffers that can be handed over instead of copied (not views into wasm memory). */

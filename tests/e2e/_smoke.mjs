@@ -1,0 +1,11 @@
+import { launch, openPage } from './helpers.mjs';
+const b = await launch();
+const { page, log } = await openPage(b);
+console.log('status:', await page.textContent('#status'), '| version:', await page.textContent('#version'));
+await page.click('#demo-button');
+await page.waitForTimeout(4000);
+console.log('status:', await page.textContent('#status'));
+console.log('banner:', await page.isVisible('#error-banner'), await page.textContent('#error-text'));
+console.log(log);
+await page.screenshot({path: '/tmp/smoke.png'});
+await b.close();

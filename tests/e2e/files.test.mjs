@@ -1,0 +1,119 @@
+// (2) a user's CSV replaces the demo; (3) a file with problems shows its
+// rejected rows; (4) a binary or empty file gives one clear error and keeps the data.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { join } from 'node:path';
+import { launch, openPage, loadDemo, settle, summaryNumber, qualityCounts, rejectionRows, canvasCensus, palette, demoFacts, FIXTURES } from './helpers.mjs';
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+async function chooseEventsFile(page, file) {
+  const before = await page.textContent('#status');
+  await page.setInputFiles('#events-file', file);
+  await page.waitForFunction((b) => document.getElementById('status').textContent !== b, before);
+  await settle(page);
+}
+
+test('a user CSV replaces the demo, and changing a column choice re-reads it', async () => {
+  const facts = demoFacts();
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  assert.equal(await summaryNumber(page, 'n_events'), facts.cases.in_area);
+
+  // Back to a window drawn around the events, so all 9 user points count.
+  await page.check('#area-mode-hull');
+  await settle(page);
+  await page.click('#controls-clear');
+  await settle(page);
+
+  await chooseEventsFile(page, join(FIXTURES, 'user-points.csv'));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'n_events'), 9);
+  assert.match(await page.textContent('#events-name'), /user-points\.csv/);
+  const q = await qualityCounts(page, 'events');
+  assert.deepEqual(q, { read: 9, used: 9, rejected: 0 });
+
+  // The mapping editor shows the detected roles over the file's columns.
+  assert.equal(await page.inputValue('#map-x'), 'x');
+  assert.equal(await page.inputValue('#map-y'), 'y');
+  assert.equal(await page.inputValue('#map-category'), 'category');
+  assert.equal(await page.inputValue('#map-coords'), 'metre');
+  const cats = await page.$$eval('#categories tbody tr', (trs) => trs.map((tr) => [tr.cells[0].textContent, tr.cells[1].textContent]));
+  assert.deepEqual(cats.sort(), [['north yard', '3'], ['river path', '3'], ['south yard', '3']]);
+
+  // Category off: the file is read again without categories.
+  await page.selectOption('#map-category', '');
+  await settle(page);
+  assert.equal(await page.isHidden('#categories'), true, 'no category table');
+  assert.match(await page.textContent('#legend'), /Events/);
+  const pal = await palette(page);
+  const census = await canvasCensus(page, [pal.single, pal.categories[1]]);
+  assert.ok(census.counts[0] > 0, 'events in the single colour');
+  assert.equal(census.counts[1], 0, 'no second category colour');
+
+  // Feet instead of metres: the study area grows by 0.3048² per square unit.
+  const areaM = await summaryNumber(page, 'area_km2');
+  await page.selectOption('#map-coords', 'foot');
+  await settle(page);
+  const areaFt = await summaryNumber(page, 'area_km2');
+  assert.ok(Math.abs(areaFt / areaM - 0.3048 ** 2) < 0.01 * 0.3048 ** 2, `area ${areaM} → ${areaFt}`);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('the file with problems lists its rejected rows, and rows read = used + not used', async () => {
+  const facts = demoFacts();
+  const { page, log } = await openPage(browser);
+  await page.click('#problems-button');
+  await page.waitForFunction(() => /file with problems/.test(document.getElementById('status').textContent), null, { timeout: 60000 });
+  await settle(page);
+  const q = await qualityCounts(page, 'events');
+  assert.equal(q.read, q.used + q.rejected);
+  assert.equal(q.read, facts.problems.rows);
+  assert.equal(q.rejected, facts.problems.rejected.length);
+  assert.equal(await summaryNumber(page, 'n_events'), q.used);
+
+  // The table lists the documented rows (row, column, reason), first page of 50.
+  const rows = await rejectionRows(page);
+  const expected = facts.problems.rejected.slice(0, 50);
+  assert.equal(rows.length, expected.length);
+  for (let i = 0; i < expected.length; i++) {
+    assert.equal(Number(rows[i][0].replace(/,/g, '')), expected[i].row, `row of entry ${i}`);
+    assert.equal(rows[i][1], expected[i].column ?? '—', `column of row ${expected[i].row}`);
+    assert.equal(rows[i][2], expected[i].reason_text, `reason of row ${expected[i].row}`);
+  }
+  const range = await page.textContent('#rej-range');
+  assert.match(range, new RegExp(`of ${facts.problems.rejected.length}$`));
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('a binary file and an empty file each give one clear error and keep the loaded data', async () => {
+  const facts = demoFacts();
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  const pal = await palette(page);
+  const drawn = await canvasCensus(page, [pal.areaFill]);
+  const n = await summaryNumber(page, 'n_events');
+  assert.equal(n, facts.cases.in_area);
+
+  const binary = Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a, 0, 0, 0, 0x0d, 0x49, 0x48, 0x44, 0x52, 0, 1, 2, 3, 0xff, 0xfe]);
+  await chooseEventsFile(page, { name: 'photo.csv', mimeType: 'text/csv', buffer: binary });
+  assert.equal(await page.isVisible('#error-banner'), true);
+  assert.equal(await page.locator('[role=alert]:visible').count(), 1, 'exactly one error shown');
+  const msg = await page.textContent('#error-text');
+  assert.match(msg, /photo\.csv/);
+  assert.match(msg, /text file/i);
+  assert.equal(await summaryNumber(page, 'n_events'), n, 'previous events kept');
+  assert.match(await page.textContent('#events-name'), /cases\.csv/);
+  const still = await canvasCensus(page, [pal.areaFill]);
+  assert.equal(still.counts[0], drawn.counts[0], 'map unchanged');
+
+  await chooseEventsFile(page, { name: 'nothing.csv', mimeType: 'text/csv', buffer: Buffer.alloc(0) });
+  assert.equal(await page.locator('[role=alert]:visible').count(), 1, 'exactly one error shown');
+  const msg2 = await page.textContent('#error-text');
+  assert.match(msg2, /nothing\.csv/);
+  assert.match(msg2, /empty/i);
+  assert.equal(await summaryNumber(page, 'n_events'), n, 'previous events kept');
+  assert.deepEqual(log.pageErrors, []);
+});
