@@ -74,18 +74,23 @@
     return x.toLocaleString('en-GB', { maximumFractionDigits: Math.min(decimals, 8), minimumFractionDigits: 0 });
   }
 
+  function fmtFixed(v, decimals) {
+    const x = num(v);
+    return Number.isFinite(x) ? x.toFixed(decimals) : '—';
+  }
+
   function fmtMetres(v) {
     const x = num(v);
     if (!Number.isFinite(x)) return '—';
-    if (Math.abs(x) >= 10000) return `${fmt(x / 1000, 4)} km`;
-    return `${fmt(x, 4)} m`;
+    if (Math.abs(x) >= 10000) return `${fmt(x / 1000, 4)}\u00a0km`;
+    return `${fmt(x, 4)}\u00a0m`;
   }
 
   function fmtDays(days) {
     const x = num(days);
     if (!Number.isFinite(x)) return '—';
-    if (x < 2) return `${fmt(x * 24, 3)} hours`;
-    return `${fmt(x, 4)} days`;
+    if (x < 2) return `${fmt(x * 24, 3)}\u00a0hours`;
+    return `${fmt(x, 4)}\u00a0days`;
   }
 
   /** Days since 1970-01-01 (UTC) to a date (and clock time if it has one). */
@@ -289,7 +294,20 @@
     return new Uint8Array(await file.arrayBuffer());
   }
 
-  async function loadEvents(bytes, name, options, { refreshAfter = true, fresh = true } = {}) {
+  /** Counts finished load attempts (tests wait on it). */
+  function loadDone() {
+    document.body.dataset.loads = String(Number(document.body.dataset.loads || 0) + 1);
+  }
+
+  async function loadEvents(bytes, name, options, opts = {}) {
+    try {
+      return await loadEventsInner(bytes, name, options, opts);
+    } finally {
+      loadDone();
+    }
+  }
+
+  async function loadEventsInner(bytes, name, options, { refreshAfter = true, fresh = true } = {}) {
     setStatus(`Reading ${name}…`);
     try {
       const report = await call('loadEvents', bytes, options);
@@ -331,7 +349,7 @@
       state.area = { bytes, name };
       state.areaMode = 'file';
       state.reports.area = report;
-      $('area-name').textContent = `${name}: ${describeAreaReport(report)}`;
+      $('area-name').textContent = `${name}: loaded`;
       if (report && report.study_error) showError('The boundary was read, but the study could not be set up', report.study_error);
       renderAreaMode();
       if (refreshAfter) await refresh(false);
@@ -344,12 +362,6 @@
       setStatus('Kept the previous study area.');
       return false;
     }
-  }
-
-  function describeAreaReport(report) {
-    const study = report && report.study;
-    if (study && Number.isFinite(num(study.area_km2))) return `${fmt(study.area_km2)} km²`;
-    return 'loaded';
   }
 
   async function loadControls(bytes, name, { refreshAfter = true } = {}) {
@@ -476,9 +488,11 @@
     const fs = $('mapping');
     if (!report) {
       fs.disabled = true;
+      fs.hidden = true;
       return;
     }
     fs.disabled = false;
+    fs.hidden = false;
     const isGeo = report.format && report.format.format === 'geo_json';
     const columns = Array.from(report.columns || []);
     for (const role of ROLES) {
@@ -540,7 +554,7 @@
   }
 
   function renderFileLine(id, name, report) {
-    const rows = report ? ` — ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used` : '';
+    const rows = report ? `: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used` : '';
     $(id).textContent = `${name}${rows}`;
   }
 
@@ -575,12 +589,30 @@
       map.clear();
       $('map-empty').hidden = false;
     }
+    renderFileLines(snap.study);
     renderLegend(layers);
     renderSummary(snap);
     renderQuality(snap);
     state.rej.offset = 0;
     if (state.rej.layer === 'controls' && !state.controls) state.rej.layer = 'events';
     await loadRejections();
+  }
+
+  /** The line under each file input: file name and how many rows are in use now. */
+  function renderFileLines(study) {
+    const line = (id, kept, report, used, read) => {
+      if (!kept) return;
+      const u = study && used !== null && used !== undefined ? used : report && report.accepted;
+      const r = study && read !== null && read !== undefined ? read : report && report.rows_read;
+      $(id).textContent = Number.isFinite(num(u)) ? `${kept.name}: ${fmt(u)} of ${plural(r, 'row', 'rows')} used` : kept.name;
+    };
+    line('events-name', state.events, state.reports.events, study && study.events, study && study.events_rows_read);
+    line('controls-name', state.controls, state.reports.controls, study && study.controls, study && study.controls_rows_read);
+    if (state.area) {
+      if (state.areaMode !== 'file') $('area-name').textContent = `${state.area.name} (not in use)`;
+      else if (study && Number.isFinite(num(study.area_km2))) $('area-name').textContent = `${state.area.name}: ${fmt(study.area_km2)}\u00a0km²`;
+      else $('area-name').textContent = `${state.area.name}: loaded`;
+    }
   }
 
   function renderLegend(layers) {
@@ -641,26 +673,35 @@
       return;
     }
     add('Events (n)', fmt(s.n_events), 'n_events');
-    if (num(s.n_controls) > 0) add('Controls', fmt(s.n_controls), 'n_controls');
-    add('Study area', `${fmt(s.area_km2)} km²`, 'area_km2');
+    if (s.n_controls !== null && s.n_controls !== undefined) add('Controls', fmt(s.n_controls), 'n_controls');
+    const areaKm2 = s.window_area_km2 ?? s.area_km2 ?? (study && study.area_km2);
+    const origin = s.window_origin ?? (study && study.area_origin);
+    const originText = origin === 'convex_hull' ? ' (hull around the events)' : origin === 'bounding_box' ? ' (rectangle around the events)' : '';
+    add('Study area', `${fmt(areaKm2)}\u00a0km²${originText}`, 'area_km2');
     add('Events per km²', fmt(s.intensity_per_km2), 'intensity_per_km2');
     const mc = s.mean_centre || {};
     if (Number.isFinite(num(mc.lon)) && Number.isFinite(num(mc.lat))) {
-      add('Mean centre', `${fmt(mc.lat, 7)}° lat, ${fmt(mc.lon, 7)}° lon`, 'mean_centre');
-    } else if (Number.isFinite(num(mc.x))) {
-      add('Mean centre', `x ${fmt(mc.x, 7)}, y ${fmt(mc.y, 7)} (file units)`, 'mean_centre');
+      add('Mean centre', `longitude ${fmtFixed(mc.lon, 5)}°, latitude ${fmtFixed(mc.lat, 5)}°`, 'mean_centre');
+    } else {
+      const x = mc.x_m ?? mc.x;
+      const y = mc.y_m ?? mc.y;
+      if (Number.isFinite(num(x))) add('Mean centre', `x ${fmtFixed(x, 1)} m, y ${fmtFixed(y, 1)} m (grid of the file)`, 'mean_centre');
     }
     add('Standard distance', fmtMetres(s.standard_distance_m), 'standard_distance_m');
     const e = s.ellipse;
     if (e) {
-      add('Ellipse', `${fmtMetres(e.semi_major_m)} × ${fmtMetres(e.semi_minor_m)} (half-axes), long axis at ${fmt(e.angle_deg, 3)}°`, 'ellipse');
+      const angle = e.major_axis_angle_deg ?? e.angle_deg;
+      add('Deviational ellipse', `${fmtMetres(e.semi_major_m)} by ${fmtMetres(e.semi_minor_m)} (one standard deviation along each axis); long axis ${fmt(angle, 3)}° anticlockwise from east`, 'ellipse');
     }
-    if (s.nn) {
-      add('Nearest neighbour', `min ${fmtMetres(s.nn.min)}, median ${fmtMetres(s.nn.median)}, mean ${fmtMetres(s.nn.mean)}, max ${fmtMetres(s.nn.max)}`, 'nn');
+    const nn = s.nearest_neighbour_m ?? s.nn;
+    if (nn) {
+      add('Nearest-neighbour distance', `min ${fmtMetres(nn.min)}, median ${fmtMetres(nn.median)}, mean ${fmtMetres(nn.mean)}, max ${fmtMetres(nn.max)}`, 'nn');
     }
-    if (s.time) {
+    const t = s.time_span ?? s.time;
+    if (t) {
       const clock = state.reports.events && state.reports.events.time_has_clock;
-      add('Time span', `${fmtTime(s.time.first, clock)} to ${fmtTime(s.time.last, clock)} (${fmtDays(s.time.span_days)})`, 'time');
+      const show = (v) => (typeof v === 'string' ? v.replace('T', ' ').replace(/:00Z$|Z$/, '') : fmtTime(v, clock));
+      add('Time span', `${show(t.first)} to ${show(t.last)} (${fmtDays(t.span_days)})`, 'time');
     }
     const co = s.coincident || (study && study.coincident);
     if (co) {
@@ -731,7 +772,7 @@
     body.replaceChildren();
     const rows = Array.from(res.rows || []);
     if (rows.length === 0) {
-      body.append(el('tr', null, el('td', { colspan: 4 }, total === 0 ? 'Every row was used.' : 'No rows on this page.')));
+      body.append(el('tr', null, el('td', { colspan: 4, class: 'note' }, total === 0 ? 'Every row was used.' : 'No rows on this page.')));
     }
     for (const r of rows) {
       body.append(el('tr', null,
@@ -755,7 +796,16 @@
       const file = input.files && input.files[0];
       if (!file) return;
       clearError();
-      await handler(await readFile(file), file.name);
+      let bytes;
+      try {
+        bytes = await readFile(file);
+      } catch (err) {
+        showError(`Could not open ${file.name}`, { message: String(err && err.message) });
+        return;
+      } finally {
+        input.value = ''; // the line below the box names the file in use
+      }
+      await handler(bytes, file.name);
     });
     const zone = $(dropId);
     zone.addEventListener('dragover', (e) => {

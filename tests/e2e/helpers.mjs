@@ -116,9 +116,21 @@ export function outDir() {
   return OUT;
 }
 
-/** Facts about the demo files, documented by the demo's own generator. */
+/**
+ * Facts about the demo files, from the demo generator's own machine-readable
+ * record (demo-data/planted-truth.json; demo-data/README.md explains it):
+ * every event and population point lies inside the study area, so n equals
+ * the row counts; the problems file lists its spoiled rows.
+ */
 export function demoFacts() {
-  const path = join(DEMO_DIR, 'expected.json');
+  const path = join(DEMO_DIR, 'planted-truth.json');
   assert.ok(existsSync(path), `missing ${path}`);
-  return JSON.parse(readFileSync(path, 'utf8'));
+  const truth = JSON.parse(readFileSync(path, 'utf8'));
+  return {
+    cases: { rows: truth.cases.n, in_area: truth.cases.n, categories: ['respiratory', 'enteric'] },
+    population: { rows: truth.population.n, in_area: truth.population.n },
+    area_km2: truth.window.net_area_km2,
+    // cases-with-problems.csv: rows 2–41 are 40 records (README), the spoiled ones listed in truth.problems.
+    problems: { rows: 40, rejected: truth.problems },
+  };
 }

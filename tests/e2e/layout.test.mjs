@@ -47,7 +47,7 @@ test('screenshots at 1366×768 and layout checks', async () => {
   await page.waitForFunction(() => /file with problems/.test(document.getElementById('status').textContent), null, { timeout: 60000 });
   await settle(page);
   await checkLayout(page, 'problems');
-  await page.locator('#quality-title').scrollIntoViewIfNeeded();
+  await page.evaluate(() => document.getElementById('quality-title').scrollIntoView({ block: 'start' }));
   await page.screenshot({ path: join(dir, '04-problems-quality.png') });
 
   await page.setInputFiles('#events-file', { name: 'broken.csv', mimeType: 'text/csv', buffer: Buffer.from([0, 1, 2, 3, 0, 255]) });

@@ -1,0 +1,110 @@
+// Drag and drop, many points, a file whose coordinate columns must be chosen
+// by hand, and recovery after the engine (wasm instance) dies.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { launch, openPage, loadDemo, settle, summaryNumber, qualityCounts, canvasCensus, palette, demoFacts } from './helpers.mjs';
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+async function loadsSoFar(page) {
+  return page.evaluate(() => Number(document.body.dataset.loads || 0));
+}
+
+test('a file dropped on the events box is read', async () => {
+  const { page, log } = await openPage(browser);
+  const n0 = await loadsSoFar(page);
+  await page.evaluate(() => {
+    const text = 'x,y\n0,0\n100,0\n0,100\n100,100\n50,50\n';
+    const dt = new DataTransfer();
+    dt.items.add(new File([text], 'dropped.csv', { type: 'text/csv' }));
+    const zone = document.getElementById('events-drop');
+    zone.dispatchEvent(new DragEvent('dragover', { dataTransfer: dt, bubbles: true, cancelable: true }));
+    zone.dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
+  });
+  await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0);
+  await settle(page);
+  assert.equal(await summaryNumber(page, 'n_events'), 5);
+  assert.match(await page.textContent('#events-name'), /dropped\.csv/);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('200,000 events load and are drawn', async () => {
+  const { page, log } = await openPage(browser);
+  // A seeded linear congruential generator makes the same file every run.
+  let s = 12345;
+  const rnd = () => { s = (Math.imul(s, 1103515245) + 12345) >>> 0; return s / 2 ** 32; };
+  const lines = ['x,y'];
+  for (let i = 0; i < 200000; i++) lines.push(`${(rnd() * 20000).toFixed(1)},${(rnd() * 10000).toFixed(1)}`);
+  const n0 = await loadsSoFar(page);
+  await page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: Buffer.from(lines.join('\n')) });
+  await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0, { timeout: 120000 });
+  await settle(page);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'n_events'), 200000);
+  const pal = await palette(page);
+  const census = await canvasCensus(page, [pal.single]);
+  // 200,000 uniform points over the map: most of the drawn area is covered.
+  assert.ok(census.counts[0] > census.total * 0.2, `event pixels ${census.counts[0]} of ${census.total}`);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('when the coordinate columns are not found, choosing them reads the file', async () => {
+  const { page } = await openPage(browser);
+  // Column names no detector could guess.
+  const csv = 'site,first_ft,second_ft,kind\na,1000,2000,p\nb,1500,2100,q\nc,1200,2600,p\nd,1900,2300,q\n';
+  const n0 = await loadsSoFar(page);
+  await page.setInputFiles('#events-file', { name: 'odd-names.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) });
+  await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0);
+  await settle(page);
+  // The engine says which columns it lacks; the editor offers the header's names.
+  assert.equal(await page.isVisible('#error-banner'), true);
+  assert.match(await page.textContent('#error-text'), /odd-names\.csv/);
+  assert.match(await page.textContent('#mapping-hint'), /choose the x and y columns/);
+  const options = await page.$$eval('#map-x option', (os) => os.map((o) => o.value));
+  assert.deepEqual(options, ['', 'site', 'first_ft', 'second_ft', 'kind']);
+  await page.selectOption('#map-coords', 'foot');
+  await settle(page);
+  await page.selectOption('#map-x', 'first_ft');
+  await settle(page);
+  await page.selectOption('#map-y', 'second_ft');
+  await settle(page);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'n_events'), 4);
+  assert.equal(await page.inputValue('#map-x'), 'first_ft');
+  assert.equal(await page.inputValue('#map-y'), 'second_ft');
+  assert.equal(await page.inputValue('#map-coords'), 'foot');
+});
+
+test('after the engine dies, a new one is started and the kept files are read again', async () => {
+  const facts = demoFacts();
+  const { page } = await openPage(browser);
+  await loadDemo(page);
+  const before = await qualityCounts(page, 'events');
+  const workers = page.workers();
+  assert.equal(workers.length, 1);
+  // Make the engine trap the way a Rust panic does (WebAssembly.RuntimeError).
+  await workers[0].evaluate(() => {
+    wasm_bindgen.Session.prototype.study = () => { throw new WebAssembly.RuntimeError('unreachable'); };
+  });
+  await page.check('#area-mode-box');
+  await page.waitForFunction(() => /restarted/.test(document.getElementById('status').textContent), null, { timeout: 60000 });
+  await settle(page);
+  assert.match(await page.textContent('#error-text'), /stopped unexpectedly and was restarted/);
+  // The old worker is gone and a fresh one holds the demo again, with the
+  // rectangle study area the user had just chosen.
+  assert.equal(page.workers().length, 1);
+  assert.equal(await summaryNumber(page, 'n_events'), facts.cases.in_area);
+  assert.deepEqual(await qualityCounts(page, 'events'), before);
+  assert.equal(await page.isChecked('#area-mode-box'), true);
+  assert.match(await page.textContent('#summary dd[data-key="area_km2"]'), /rectangle/);
+  const pal = await palette(page);
+  const census = await canvasCensus(page, [pal.areaFill]);
+  assert.ok(census.counts[0] > 0, 'map drawn again');
+  // And the new engine works: the kept boundary file can be used again.
+  await page.check('#area-mode-file');
+  await settle(page);
+  const area = await summaryNumber(page, 'area_km2');
+  assert.ok(Math.abs(area - facts.area_km2) < 0.01 * facts.area_km2, `study area ${area} km²`);
+});
