@@ -277,14 +277,14 @@
 
   async function replayKeptFiles() {
     if (state.area && state.areaMode === 'file') {
-      state.reports.area = await post('loadArea', [state.area.bytes, {}]);
+      state.reports.area = await post('loadArea', [state.area.bytes, sharedCoords()]);
     }
     if (state.events) {
       state.reports.events = await post('loadEvents', [state.events.bytes, state.events.options]);
       if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') await post('setAreaFallback', [state.areaMode]);
     }
     if (state.controls) {
-      state.reports.controls = await post('loadControls', [state.controls.bytes, {}]);
+      state.reports.controls = await post('loadControls', [state.controls.bytes, sharedCoords()]);
     }
   }
 
@@ -345,7 +345,7 @@
   async function loadArea(bytes, name, { refreshAfter = true } = {}) {
     setStatus(`Reading ${name}…`);
     try {
-      const report = await call('loadArea', bytes, {});
+      const report = await call('loadArea', bytes, sharedCoords());
       state.area = { bytes, name };
       state.areaMode = 'file';
       state.reports.area = report;
@@ -367,7 +367,7 @@
   async function loadControls(bytes, name, { refreshAfter = true } = {}) {
     setStatus(`Reading ${name}…`);
     try {
-      const report = await call('loadControls', bytes, {});
+      const report = await call('loadControls', bytes, sharedCoords());
       state.controls = { bytes, name };
       state.reports.controls = report;
       renderFileLine('controls-name', name, report);
@@ -523,12 +523,58 @@
     $('mapping-hint').textContent = `${how}. Change a choice to read the file again.`;
   }
 
+  /** Options that make the study area and controls use the events' planar
+   * unit (all files must share one kind of coordinates; a planar unit cannot
+   * be told from the numbers). Lon/lat is detected, so nothing is forced. */
+  function sharedCoords() {
+    const r = state.reports.events;
+    const c = r && r.coords;
+    return c && c.kind === 'planar' ? { coords: { kind: 'planar', unit: c.unit } } : {};
+  }
+
+  function sameCoords(a, b) {
+    return !!a && !!b && a.kind === b.kind && (a.kind !== 'planar' || a.unit === b.unit);
+  }
+
   async function mappingChanged() {
     const target = state.pendingFile || state.events;
     if (!target) return;
     clearError();
     const options = currentOptions();
-    await loadEvents(target.bytes, target.name, options, { fresh: target !== state.events });
+    const before = state.reports.events && state.reports.events.coords;
+    const hadArea = state.area && state.areaMode === 'file' ? state.area : null;
+    const hadControls = state.controls;
+    if (target !== state.events || sameCoords(before, options.coords) || (!hadArea && !hadControls)) {
+      await loadEvents(target.bytes, target.name, options, { fresh: target !== state.events });
+      return;
+    }
+    // New coordinates for the events: the study area and controls follow them,
+    // so take them out, read the events, then read them again in the new unit.
+    try {
+      if (hadArea) await call('clearArea');
+      if (hadControls) await call('clearControls');
+    } catch (err) {
+      if (!(err && err.code === 'engine_stopped')) showError('Could not change the coordinates', err);
+      return;
+    }
+    const ok = await loadEvents(target.bytes, target.name, options, { refreshAfter: false, fresh: false });
+    const failures = [];
+    const keepError = () => { if (!$('error-banner').hidden) failures.push($('error-text').textContent); };
+    keepError();
+    if (hadArea && !(await loadArea(hadArea.bytes, hadArea.name, { refreshAfter: false }))) {
+      keepError();
+      state.areaMode = 'convex_hull';
+      renderAreaMode();
+    }
+    if (hadControls && !(await loadControls(hadControls.bytes, hadControls.name, { refreshAfter: false }))) {
+      keepError();
+      state.controls = null;
+      state.reports.controls = null;
+      $('controls-name').textContent = '';
+      $('controls-clear').disabled = true;
+    }
+    await refresh(ok);
+    if (failures.length > 0) showError('Changing the coordinates', { message: failures.join(' — ') });
   }
 
   /** Column names from the first line of a delimited file, to offer in the

@@ -108,3 +108,30 @@ test('after the engine dies, a new one is started and the kept files are read ag
   const area = await summaryNumber(page, 'area_km2');
   assert.ok(Math.abs(area - facts.area_km2) < 0.01 * facts.area_km2, `study area ${area} km²`);
 });
+
+test('changing the events to feet reads the boundary and controls in feet too', async () => {
+  const { page } = await openPage(browser);
+  const wait = async (fn) => {
+    const n0 = await loadsSoFar(page);
+    await fn();
+    await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0);
+    await settle(page);
+  };
+  // A 1000 × 1000 square boundary in grid units and points inside it.
+  const square = { type: 'Polygon', coordinates: [[[0, 0], [1000, 0], [1000, 1000], [0, 1000], [0, 0]]] };
+  await page.setInputFiles('#area-file', { name: 'square.geojson', mimeType: 'application/geo+json', buffer: Buffer.from(JSON.stringify(square)) });
+  await settle(page);
+  await wait(() => page.setInputFiles('#events-file', { name: 'grid.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n100,100\n200,500\n900,900\n500,300\n') }));
+  await page.setInputFiles('#controls-file', { name: 'grid-controls.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n150,150\n250,550\n850,850\n') });
+  await settle(page);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'area_km2'), 1);
+  await page.selectOption('#map-coords', 'foot');
+  await settle(page);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await page.isChecked('#area-mode-file'), true);
+  const area = await summaryNumber(page, 'area_km2');
+  assert.ok(Math.abs(area - 0.3048 ** 2) < 1e-3, `square of 1000 ft = ${0.3048 ** 2} km², shown ${area}`);
+  assert.equal(await summaryNumber(page, 'n_events'), 4);
+  assert.equal(await summaryNumber(page, 'n_controls'), 3);
+});
