@@ -157,10 +157,7 @@ pub struct Rejection {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 #[serde(tag = "format", rename_all = "snake_case")]
 pub enum SourceFormat {
-    Csv {
-        delimiter: char,
-        decimal_comma: bool,
-    },
+    Csv { delimiter: char, decimal_comma: bool },
     GeoJson,
 }
 
