@@ -1146,9 +1146,11 @@ the `case_id`s of every planted component.
 ## Where the town is
 
 The town is placed on purpose in the open South Atlantic, around **32.0° W, 41.5° S**, so
-that no coordinate can point at a real address. From memory (not checked against a map
-source here): the nearest land is the Tristan da Cunha / Gough Island group, roughly 1,800 km
-to the east, and the coast of South America is roughly 2,700 km to the west.
+that no coordinate can point at a real address. The nearest land is the Tristan da Cunha /
+Gough Island group, about 1,760–1,860 km to the east-north-east and east, and the coast of
+South America is about 2,740 km to the west. (The land positions are approximate and from
+memory; the distances to them were computed with pyproj in
+`tests/reference/demo_data_check.json`.)
 
 ## Files
 
