@@ -836,11 +836,24 @@
 
   // ---------- wiring ----------
 
+  /** Runs user actions one after another (the engine answers one request at
+   * a time anyway) and counts finished actions in body[data-done] for tests. */
+  let queue = Promise.resolve();
+  function act(fn) {
+    return (...args) => {
+      queue = queue
+        .then(() => fn(...args))
+        .catch((err) => showError('Unexpected problem in the page', err))
+        .finally(() => {
+          document.body.dataset.done = String(Number(document.body.dataset.done || 0) + 1);
+        });
+      return queue;
+    };
+  }
+
   function wireFileInput(inputId, dropId, handler) {
     const input = $(inputId);
-    input.addEventListener('change', async () => {
-      const file = input.files && input.files[0];
-      if (!file) return;
+    const readAndHandle = act(async (file) => {
       clearError();
       let bytes;
       try {
@@ -848,10 +861,13 @@
       } catch (err) {
         showError(`Could not open ${file.name}`, { message: String(err && err.message) });
         return;
-      } finally {
-        input.value = ''; // the line below the box names the file in use
       }
       await handler(bytes, file.name);
+    });
+    input.addEventListener('change', () => {
+      const file = input.files && input.files[0];
+      input.value = ''; // the line below the box names the file in use
+      if (file) readAndHandle(file);
     });
     const zone = $(dropId);
     zone.addEventListener('dragover', (e) => {
@@ -859,14 +875,12 @@
       zone.classList.add('over');
     });
     zone.addEventListener('dragleave', () => zone.classList.remove('over'));
-    zone.addEventListener('drop', async (e) => {
+    zone.addEventListener('drop', (e) => {
       e.preventDefault();
       zone.classList.remove('over');
       if (input.disabled) return;
       const file = e.dataTransfer && e.dataTransfer.files && e.dataTransfer.files[0];
-      if (!file) return;
-      clearError();
-      await handler(await readFile(file), file.name);
+      if (file) readAndHandle(file);
     });
   }
 
@@ -878,27 +892,28 @@
     wireFileInput('events-file', 'events-drop', (bytes, name) => loadEvents(bytes, name, {}));
     wireFileInput('area-file', 'area-drop', (bytes, name) => loadArea(bytes, name));
     wireFileInput('controls-file', 'controls-drop', (bytes, name) => loadControls(bytes, name));
-    $('demo-button').addEventListener('click', loadDemo);
-    $('problems-button').addEventListener('click', loadProblems);
+    $('demo-button').addEventListener('click', act(loadDemo));
+    $('problems-button').addEventListener('click', act(loadProblems));
     for (const id of ['map-x', 'map-y', 'map-time', 'map-category', 'map-weight', 'map-coords', 'map-date']) {
-      $(id).addEventListener('change', mappingChanged);
+      $(id).addEventListener('change', act(mappingChanged));
     }
     for (const input of document.querySelectorAll('input[name=area-mode]')) {
-      input.addEventListener('change', () => { if (input.checked) setAreaMode(input.value); });
+      const change = act(() => setAreaMode(input.value));
+      input.addEventListener('change', () => { if (input.checked) change(); });
     }
     $('show-controls').addEventListener('change', () => {
       map.showControls = $('show-controls').checked;
       map.redraw();
       renderLegend(state.snap && state.snap.layers);
     });
-    $('controls-clear').addEventListener('click', clearControls);
+    $('controls-clear').addEventListener('click', act(clearControls));
     $('error-close').addEventListener('click', clearError);
     $('zoom-in').addEventListener('click', () => map.zoomBy(1.5));
     $('zoom-out').addEventListener('click', () => map.zoomBy(1 / 1.5));
     $('zoom-reset').addEventListener('click', () => map.resetView());
-    $('rej-prev').addEventListener('click', () => { state.rej.offset = Math.max(0, state.rej.offset - PAGE_SIZE); loadRejections(); });
-    $('rej-next').addEventListener('click', () => { state.rej.offset += PAGE_SIZE; loadRejections(); });
-    $('rej-layer').addEventListener('change', () => { state.rej.layer = $('rej-layer').value; state.rej.offset = 0; loadRejections(); });
+    $('rej-prev').addEventListener('click', act(() => { state.rej.offset = Math.max(0, state.rej.offset - PAGE_SIZE); return loadRejections(); }));
+    $('rej-next').addEventListener('click', act(() => { state.rej.offset += PAGE_SIZE; return loadRejections(); }));
+    $('rej-layer').addEventListener('change', act(() => { state.rej.layer = $('rej-layer').value; state.rej.offset = 0; return loadRejections(); }));
   }
 
   function enableInputs() {

@@ -1,7 +1,7 @@
 // (1) The demo is one click away: map drawn, summary figures shown, counts add up.
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { launch, openPage, loadDemo, summaryNumber, qualityCounts, canvasCensus, palette, demoFacts } from './helpers.mjs';
+import { launch, openPage, loadDemo, act, frame, summaryNumber, qualityCounts, canvasCensus, palette, demoFacts } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
@@ -52,11 +52,11 @@ test('the demo loads: map drawn, n equals the documented count, counts add up', 
   }
   // Hiding controls removes their pixels; showing them brings them back.
   await page.uncheck('#show-controls');
-  await page.waitForTimeout(100);
+  await frame(page);
   const hidden = await canvasCensus(page, [pal.control]);
   assert.equal(hidden.counts[0], 0, 'controls hidden');
   await page.check('#show-controls');
-  await page.waitForTimeout(100);
+  await frame(page);
   const shown = await canvasCensus(page, [pal.control]);
   assert.ok(shown.counts[0] > 0, 'controls shown again');
 

@@ -3,17 +3,14 @@
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
-import { launch, openPage, loadDemo, settle, summaryNumber, qualityCounts, rejectionRows, canvasCensus, palette, demoFacts, FIXTURES } from './helpers.mjs';
+import { launch, openPage, loadDemo, act, frame, summaryNumber, qualityCounts, rejectionRows, canvasCensus, palette, demoFacts, FIXTURES } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
 after(async () => { await browser?.close(); });
 
 async function chooseEventsFile(page, file) {
-  const before = await page.evaluate(() => Number(document.body.dataset.loads || 0));
-  await page.setInputFiles('#events-file', file);
-  await page.waitForFunction((b) => Number(document.body.dataset.loads || 0) > b, before);
-  await settle(page);
+  await act(page, () => page.setInputFiles('#events-file', file));
 }
 
 test('a user CSV replaces the demo, and changing a column choice re-reads it', async () => {
@@ -23,10 +20,8 @@ test('a user CSV replaces the demo, and changing a column choice re-reads it', a
   assert.equal(await summaryNumber(page, 'n_events'), facts.cases.in_area);
 
   // Back to a window drawn around the events, so all 9 user points count.
-  await page.check('#area-mode-hull');
-  await settle(page);
-  await page.click('#controls-clear');
-  await settle(page);
+  await act(page, () => page.check('#area-mode-hull'));
+  await act(page, () => page.click('#controls-clear'));
 
   await chooseEventsFile(page, join(FIXTURES, 'user-points.csv'));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
@@ -44,8 +39,7 @@ test('a user CSV replaces the demo, and changing a column choice re-reads it', a
   assert.deepEqual(cats.sort(), [['north yard', '3'], ['river path', '3'], ['south yard', '3']]);
 
   // Category off: the file is read again without categories.
-  await page.selectOption('#map-category', '');
-  await settle(page);
+  await act(page, () => page.selectOption('#map-category', ''));
   assert.equal(await page.isHidden('#categories'), true, 'no category table');
   assert.match(await page.textContent('#legend'), /Events/);
   const pal = await palette(page);
@@ -55,8 +49,7 @@ test('a user CSV replaces the demo, and changing a column choice re-reads it', a
 
   // Feet instead of metres: the study area grows by 0.3048² per square unit.
   const areaM = await summaryNumber(page, 'area_km2');
-  await page.selectOption('#map-coords', 'foot');
-  await settle(page);
+  await act(page, () => page.selectOption('#map-coords', 'foot'));
   const areaFt = await summaryNumber(page, 'area_km2');
   assert.ok(Math.abs(areaFt / areaM - 0.3048 ** 2) < 0.01 * 0.3048 ** 2, `area ${areaM} → ${areaFt}`);
   assert.deepEqual(log.pageErrors, []);
@@ -65,9 +58,8 @@ test('a user CSV replaces the demo, and changing a column choice re-reads it', a
 test('the file with problems lists its rejected rows, and rows read = used + not used', async () => {
   const facts = demoFacts();
   const { page, log } = await openPage(browser);
-  await page.click('#problems-button');
-  await page.waitForFunction(() => /file with problems/.test(document.getElementById('status').textContent), null, { timeout: 60000 });
-  await settle(page);
+  await act(page, () => page.click('#problems-button'));
+  assert.match(await page.textContent('#status'), /file with problems/);
   const q = await qualityCounts(page, 'events');
   assert.equal(q.read, q.used + q.rejected);
   assert.equal(q.read, facts.problems.rows);

@@ -54,10 +54,26 @@ export async function settle(page) {
   }
 }
 
-export async function loadDemo(page) {
-  await page.click('#demo-button');
-  await page.waitForFunction(() => /Demo loaded/.test(document.getElementById('status').textContent), null, { timeout: 120000 });
+/**
+ * Does something in the page and waits until the page has finished the user
+ * action it started (the page counts finished actions in body[data-done]).
+ */
+export async function act(page, fn, timeout = 120000) {
+  const before = await page.evaluate(() => Number(document.body.dataset.done || 0));
+  await fn();
+  await page.waitForFunction((n) => Number(document.body.dataset.done || 0) > n, before, { timeout });
   await settle(page);
+}
+
+/** Waits for the map to draw what was asked of it (two animation frames). */
+export async function frame(page) {
+  await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+}
+
+export async function loadDemo(page) {
+  await act(page, () => page.click('#demo-button'));
+  const status = await page.textContent('#status');
+  assert.match(status, /Demo loaded/, `the demo did not load: ${status} ${await page.textContent('#error-text')}`);
 }
 
 /** The figure shown in the summary for a key, as a number (thousands separators removed). */

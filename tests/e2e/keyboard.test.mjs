@@ -2,7 +2,7 @@
 // visible focus ring, and the map answers its keys.
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { launch, openPage, settle } from './helpers.mjs';
+import { launch, openPage, act, frame } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
@@ -39,27 +39,26 @@ test('Tab reaches the file inputs and the demo button, in reading order, with a 
 test('the map pans and zooms with the keyboard, and 0 resets the view', async () => {
   const { page } = await openPage(browser);
   await page.focus('#demo-button');
-  await page.keyboard.press('Enter');
-  await page.waitForFunction(() => /Demo loaded/.test(document.getElementById('status').textContent), null, { timeout: 120000 });
-  await settle(page);
+  await act(page, () => page.keyboard.press('Enter'));
+  assert.match(await page.textContent('#status'), /Demo loaded/);
   const snap = () => page.evaluate(() => document.getElementById('map').toDataURL());
   const start = await snap();
   await page.focus('#map');
   await page.keyboard.press('+');
-  await page.waitForTimeout(100);
+  await frame(page);
   const zoomed = await snap();
   assert.notEqual(zoomed, start, '+ zooms');
   await page.keyboard.press('ArrowLeft');
-  await page.waitForTimeout(100);
+  await frame(page);
   assert.notEqual(await snap(), zoomed, 'arrow pans');
   await page.keyboard.press('0');
-  await page.waitForTimeout(100);
+  await frame(page);
   assert.equal(await snap(), start, '0 resets the view');
   // The buttons do the same.
   await page.click('#zoom-in');
-  await page.waitForTimeout(100);
+  await frame(page);
   assert.notEqual(await snap(), start);
   await page.click('#zoom-reset');
-  await page.waitForTimeout(100);
+  await frame(page);
   assert.equal(await snap(), start);
 });

@@ -4,7 +4,7 @@
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
-import { launch, openPage, loadDemo, settle, outDir } from './helpers.mjs';
+import { launch, openPage, loadDemo, act, outDir } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
@@ -43,21 +43,18 @@ test('screenshots at 1366×768 and layout checks', async () => {
   await page.screenshot({ path: join(dir, '02-demo.png') });
   await page.screenshot({ path: join(dir, '03-demo-full.png'), fullPage: true });
 
-  await page.click('#problems-button');
-  await page.waitForFunction(() => /file with problems/.test(document.getElementById('status').textContent), null, { timeout: 60000 });
-  await settle(page);
+  await act(page, () => page.click('#problems-button'));
   await checkLayout(page, 'problems');
   await page.evaluate(() => document.getElementById('quality-title').scrollIntoView({ block: 'start' }));
   await page.screenshot({ path: join(dir, '04-problems-quality.png') });
 
-  await page.setInputFiles('#events-file', { name: 'broken.csv', mimeType: 'text/csv', buffer: Buffer.from([0, 1, 2, 3, 0, 255]) });
-  await page.waitForSelector('#error-banner:not([hidden])');
+  await act(page, () => page.setInputFiles('#events-file', { name: 'broken.csv', mimeType: 'text/csv', buffer: Buffer.from([0, 1, 2, 3, 0, 255]) }));
+  assert.equal(await page.isVisible('#error-banner'), true);
   await page.evaluate(() => window.scrollTo(0, 0));
   await checkLayout(page, 'error');
   await page.screenshot({ path: join(dir, '05-error.png') });
 
-  await page.check('#area-mode-box');
-  await settle(page);
+  await act(page, () => page.check('#area-mode-box'));
   await page.screenshot({ path: join(dir, '06-rectangle-area.png') });
 
   // High-DPI: the canvas backing store follows devicePixelRatio.

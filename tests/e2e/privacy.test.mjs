@@ -7,7 +7,7 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import http from 'node:http';
 import { join } from 'node:path';
-import { launch, openPage, loadDemo, settle, FIXTURES } from './helpers.mjs';
+import { launch, openPage, loadDemo, act, FIXTURES } from './helpers.mjs';
 
 let browser;
 let server;
@@ -99,10 +99,8 @@ test('no request leaves the page, from the page or from its worker', async () =>
   hits = [];
   const { page, log } = await openPage(browser);
   await loadDemo(page);
-  await page.setInputFiles('#events-file', join(FIXTURES, 'user-points.csv'));
-  await settle(page);
-  await page.click('#problems-button');
-  await settle(page);
+  await act(page, () => page.setInputFiles('#events-file', join(FIXTURES, 'user-points.csv')));
+  await act(page, () => page.click('#problems-button'));
 
   const fromPage = await page.evaluate(attempts, base);
   const workers = page.workers();

@@ -2,29 +2,22 @@
 // by hand, and recovery after the engine (wasm instance) dies.
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { launch, openPage, loadDemo, settle, summaryNumber, qualityCounts, canvasCensus, palette, demoFacts } from './helpers.mjs';
+import { launch, openPage, loadDemo, act, settle, summaryNumber, qualityCounts, canvasCensus, palette, demoFacts } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
 after(async () => { await browser?.close(); });
 
-async function loadsSoFar(page) {
-  return page.evaluate(() => Number(document.body.dataset.loads || 0));
-}
-
 test('a file dropped on the events box is read', async () => {
   const { page, log } = await openPage(browser);
-  const n0 = await loadsSoFar(page);
-  await page.evaluate(() => {
+  await act(page, () => page.evaluate(() => {
     const text = 'x,y\n0,0\n100,0\n0,100\n100,100\n50,50\n';
     const dt = new DataTransfer();
     dt.items.add(new File([text], 'dropped.csv', { type: 'text/csv' }));
     const zone = document.getElementById('events-drop');
     zone.dispatchEvent(new DragEvent('dragover', { dataTransfer: dt, bubbles: true, cancelable: true }));
     zone.dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
-  });
-  await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0);
-  await settle(page);
+  }));
   assert.equal(await summaryNumber(page, 'n_events'), 5);
   assert.match(await page.textContent('#events-name'), /dropped\.csv/);
   assert.deepEqual(log.pageErrors, []);
@@ -37,10 +30,7 @@ test('200,000 events load and are drawn', async () => {
   const rnd = () => { s = (Math.imul(s, 1103515245) + 12345) >>> 0; return s / 2 ** 32; };
   const lines = ['x,y'];
   for (let i = 0; i < 200000; i++) lines.push(`${(rnd() * 20000).toFixed(1)},${(rnd() * 10000).toFixed(1)}`);
-  const n0 = await loadsSoFar(page);
-  await page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: Buffer.from(lines.join('\n')) });
-  await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0, { timeout: 120000 });
-  await settle(page);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: Buffer.from(lines.join('\n')) }));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
   assert.equal(await summaryNumber(page, 'n_events'), 200000);
   const pal = await palette(page);
@@ -54,22 +44,16 @@ test('when the coordinate columns are not found, choosing them reads the file', 
   const { page } = await openPage(browser);
   // Column names no detector could guess.
   const csv = 'site,first_ft,second_ft,kind\na,1000,2000,p\nb,1500,2100,q\nc,1200,2600,p\nd,1900,2300,q\n';
-  const n0 = await loadsSoFar(page);
-  await page.setInputFiles('#events-file', { name: 'odd-names.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) });
-  await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0);
-  await settle(page);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'odd-names.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) }));
   // The engine says which columns it lacks; the editor offers the header's names.
   assert.equal(await page.isVisible('#error-banner'), true);
   assert.match(await page.textContent('#error-text'), /odd-names\.csv/);
   assert.match(await page.textContent('#mapping-hint'), /choose the x and y columns/);
   const options = await page.$$eval('#map-x option', (os) => os.map((o) => o.value));
   assert.deepEqual(options, ['', 'site', 'first_ft', 'second_ft', 'kind']);
-  await page.selectOption('#map-coords', 'foot');
-  await settle(page);
-  await page.selectOption('#map-x', 'first_ft');
-  await settle(page);
-  await page.selectOption('#map-y', 'second_ft');
-  await settle(page);
+  await act(page, () => page.selectOption('#map-coords', 'foot'));
+  await act(page, () => page.selectOption('#map-x', 'first_ft'));
+  await act(page, () => page.selectOption('#map-y', 'second_ft'));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
   assert.equal(await summaryNumber(page, 'n_events'), 4);
   assert.equal(await page.inputValue('#map-x'), 'first_ft');
@@ -103,31 +87,21 @@ test('after the engine dies, a new one is started and the kept files are read ag
   const census = await canvasCensus(page, [pal.areaFill]);
   assert.ok(census.counts[0] > 0, 'map drawn again');
   // And the new engine works: the kept boundary file can be used again.
-  await page.check('#area-mode-file');
-  await settle(page);
+  await act(page, () => page.check('#area-mode-file'));
   const area = await summaryNumber(page, 'area_km2');
   assert.ok(Math.abs(area - facts.area_km2) < 0.01 * facts.area_km2, `study area ${area} km²`);
 });
 
 test('changing the events to feet reads the boundary and controls in feet too', async () => {
   const { page } = await openPage(browser);
-  const wait = async (fn) => {
-    const n0 = await loadsSoFar(page);
-    await fn();
-    await page.waitForFunction((n) => Number(document.body.dataset.loads || 0) > n, n0);
-    await settle(page);
-  };
   // A 1000 × 1000 square boundary in grid units and points inside it.
   const square = { type: 'Polygon', coordinates: [[[0, 0], [1000, 0], [1000, 1000], [0, 1000], [0, 0]]] };
-  await page.setInputFiles('#area-file', { name: 'square.geojson', mimeType: 'application/geo+json', buffer: Buffer.from(JSON.stringify(square)) });
-  await settle(page);
-  await wait(() => page.setInputFiles('#events-file', { name: 'grid.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n100,100\n200,500\n900,900\n500,300\n') }));
-  await page.setInputFiles('#controls-file', { name: 'grid-controls.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n150,150\n250,550\n850,850\n') });
-  await settle(page);
+  await act(page, () => page.setInputFiles('#area-file', { name: 'square.geojson', mimeType: 'application/geo+json', buffer: Buffer.from(JSON.stringify(square)) }));
+  await act(page, () => page.setInputFiles('#events-file', { name: 'grid.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n100,100\n200,500\n900,900\n500,300\n') }));
+  await act(page, () => page.setInputFiles('#controls-file', { name: 'grid-controls.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n150,150\n250,550\n850,850\n') }));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
   assert.equal(await summaryNumber(page, 'area_km2'), 1);
-  await page.selectOption('#map-coords', 'foot');
-  await settle(page);
+  await act(page, () => page.selectOption('#map-coords', 'foot'));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
   assert.equal(await page.isChecked('#area-mode-file'), true);
   const area = await summaryNumber(page, 'area_km2');
