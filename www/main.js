@@ -131,12 +131,25 @@
       text += ` Reasons: ${parts.join('; ')}.`;
     }
     $('error-text').textContent = text;
+    // A file that read but could not be used: show its first rejected rows.
+    const list = $('error-rows');
+    list.replaceChildren();
+    const rows = err && Array.isArray(err.rejections) ? err.rejections : [];
+    for (const r of rows.slice(0, 5)) {
+      const where = r.column ? `row ${fmt(r.row)}, column "${r.column}"` : `row ${fmt(r.row)}`;
+      const value = r.value === '' || r.value === null || r.value === undefined ? 'empty' : `"${r.value}"`;
+      list.append(el('li', null, `${where}: ${r.reason_text || r.reason} (${value})`));
+    }
+    if (rows.length > 5) list.append(el('li', null, `…and ${fmt(rows.length - 5)} more`));
+    list.hidden = rows.length === 0;
     $('error-banner').hidden = false;
   }
 
   function clearError() {
     $('error-banner').hidden = true;
     $('error-text').textContent = '';
+    $('error-rows').replaceChildren();
+    $('error-rows').hidden = true;
   }
 
   function updateProgress() {
@@ -357,7 +370,13 @@
       return true;
     } catch (err) {
       if (err && err.code === 'engine_stopped') return false;
-      showError(`Could not read ${name}`, err);
+      if (err && err.code === 'no_valid_rows') {
+        showError(`Could not use ${name} as the study area`, {
+          message: 'none of the events lies inside it. Check that the boundary and the events describe the same place in the same coordinates.',
+        });
+      } else {
+        showError(`Could not read ${name}`, err);
+      }
       renderAreaMode();
       setStatus('Kept the previous study area.');
       return false;

@@ -291,14 +291,16 @@ class PointMap {
     if (mc && Number.isFinite(mc[0]) && Number.isFinite(mc[1])) {
       const cx = ox + mc[0] * k;
       const cy = oy - mc[1] * k;
-      const r = 8 * dpr;
+      const r = 11 * dpr;
       ctx.lineCap = 'round';
-      for (const [col, lw] of [['#ffffff', 5 * dpr], [CLOISTER_PALETTE.centre, 2 * dpr]]) {
+      for (const [col, lw] of [['#ffffff', 6 * dpr], [CLOISTER_PALETTE.centre, 2.5 * dpr]]) {
         ctx.strokeStyle = col;
         ctx.lineWidth = lw;
         ctx.beginPath();
         ctx.moveTo(cx - r, cy); ctx.lineTo(cx + r, cy);
         ctx.moveTo(cx, cy - r); ctx.lineTo(cx, cy + r);
+        ctx.moveTo(cx + r * 0.55, cy);
+        ctx.arc(cx, cy, r * 0.55, 0, 2 * Math.PI);
         ctx.stroke();
       }
       ctx.lineCap = 'butt';

@@ -109,3 +109,17 @@ test('changing the events to feet reads the boundary and controls in feet too', 
   assert.equal(await summaryNumber(page, 'n_events'), 4);
   assert.equal(await summaryNumber(page, 'n_controls'), 3);
 });
+
+test('a file where no row can be used names its bad rows, with row and column, and keeps the data', async () => {
+  const { page } = await openPage(browser);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'good.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n1,1\n5,2\n3,7\n') }));
+  assert.equal(await summaryNumber(page, 'n_events'), 3);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'bad.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\nabc,1\n2,\n') }));
+  assert.match(await page.textContent('#error-text'), /bad\.csv/);
+  const items = await page.$$eval('#error-rows li', (lis) => lis.map((li) => li.textContent));
+  assert.deepEqual(items.length, 2);
+  assert.match(items[0], /^row 2, column "x": .*"abc"/);
+  assert.match(items[1], /^row 3, column "y": .*empty/);
+  assert.equal(await summaryNumber(page, 'n_events'), 3, 'the good file stays loaded');
+  assert.match(await page.textContent('#events-name'), /good\.csv/);
+});
