@@ -719,6 +719,16 @@
     return s;
   }
 
+  /** Text lines for one summary entry. */
+  function lines(...texts) {
+    const frag = document.createDocumentFragment();
+    texts.forEach((t, i) => {
+      if (i > 0) frag.append(el('br'));
+      frag.append(t);
+    });
+    return frag;
+  }
+
   function renderSummary(snap) {
     const dl = $('summary');
     dl.replaceChildren();
@@ -756,11 +766,11 @@
     const e = s.ellipse;
     if (e) {
       const angle = e.major_axis_angle_deg ?? e.angle_deg;
-      add('Deviational ellipse', `${fmtMetres(e.semi_major_m)} by ${fmtMetres(e.semi_minor_m)} (one standard deviation along each axis); long axis ${fmt(angle, 3)}° anticlockwise from east`, 'ellipse');
+      add('Deviational ellipse', lines(`${fmtMetres(e.semi_major_m)} by ${fmtMetres(e.semi_minor_m)} (one standard deviation along each axis)`, `long axis ${fmt(angle, 3)}° anticlockwise from east`), 'ellipse');
     }
     const nn = s.nearest_neighbour_m ?? s.nn;
     if (nn) {
-      add('Nearest-neighbour distance', `min ${fmtMetres(nn.min)}, median ${fmtMetres(nn.median)}, mean ${fmtMetres(nn.mean)}, max ${fmtMetres(nn.max)}`, 'nn');
+      add('Nearest-neighbour distance', lines(`min ${fmtMetres(nn.min)}, median ${fmtMetres(nn.median)}`, `mean ${fmtMetres(nn.mean)}, max ${fmtMetres(nn.max)}`), 'nn');
     }
     const t = s.time_span ?? s.time;
     if (t) {

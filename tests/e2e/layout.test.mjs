@@ -55,7 +55,10 @@ test('screenshots at 1366×768 and layout checks', async () => {
   await page.screenshot({ path: join(dir, '05-error.png') });
 
   await act(page, () => page.check('#area-mode-box'));
+  await page.evaluate(() => window.scrollTo(0, 0));
   await page.screenshot({ path: join(dir, '06-rectangle-area.png') });
+  await page.evaluate(() => document.getElementById('summary-title').scrollIntoView({ block: 'start' }));
+  await page.screenshot({ path: join(dir, '06b-rectangle-area-panels.png') });
 
   // High-DPI: the canvas backing store follows devicePixelRatio.
   const hi = await openPage(browser, { deviceScaleFactor: 2 });
