@@ -7,7 +7,8 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import http from 'node:http';
 import { join } from 'node:path';
-import { launch, openPage, loadDemo, act, FIXTURES } from './helpers.mjs';
+import { readFileSync } from 'node:fs';
+import { launch, openPage, loadDemo, act, FIXTURES, ROOT, PAGE } from './helpers.mjs';
 
 let browser;
 let server;
@@ -112,8 +113,14 @@ test('no request leaves the page, from the page or from its worker', async () =>
   const outside = log.requests.filter((u) => !/^(file|data|blob):/.test(u) && !u.startsWith(base));
   assert.deepEqual(outside, [], 'only file:, data: and blob: requests (canary attempts are listed separately)');
   // Nothing was stored either.
-  const stored = await page.evaluate(() => ({ local: localStorage.length, session: sessionStorage.length, cookie: document.cookie }));
-  assert.deepEqual(stored, { local: 0, session: 0, cookie: '' });
+  const stored = await page.evaluate(async () => ({
+    local: localStorage.length,
+    session: sessionStorage.length,
+    cookie: document.cookie,
+    databases: (await indexedDB.databases()).length,
+    caches: typeof caches === 'undefined' ? 0 : (await caches.keys()).length,
+  }));
+  assert.deepEqual(stored, { local: 0, session: 0, cookie: '', databases: 0, caches: 0 });
 
   // Control: the same attempts from a page without the policy do reach the canary.
   const control = await browser.newPage();
@@ -121,4 +128,21 @@ test('no request leaves the page, from the page or from its worker', async () =>
   await control.evaluate(attempts, base);
   await control.close();
   assert.ok(hits.length >= 3, `the canary works (${hits.length} hits from the control page)`);
+});
+
+test('the page\'s own code has no storage or network calls, and the built page loads nothing from outside', () => {
+  for (const f of ['main.js', 'map.js', 'worker.js']) {
+    const code = readFileSync(join(ROOT, 'www', f), 'utf8');
+    for (const api of ['localStorage', 'sessionStorage', 'indexedDB', 'document.cookie', 'fetch(', 'XMLHttpRequest', 'WebSocket', 'EventSource', 'sendBeacon', 'importScripts', 'import(']) {
+      assert.ok(!code.includes(api), `${f} uses ${api}`);
+    }
+  }
+  const html = readFileSync(PAGE, 'utf8');
+  assert.doesNotMatch(html, /\b(src|href|action)\s*=\s*["']?\s*(https?:)?\/\//i, 'no external src/href');
+  assert.doesNotMatch(html, /url\(\s*["']?(https?:)?\/\//i, 'no external CSS url()');
+  assert.doesNotMatch(html, /@import/i, 'no CSS @import');
+  const csp = /<meta http-equiv="Content-Security-Policy" content="([^"]+)">/.exec(html);
+  assert.ok(csp, 'CSP meta tag present');
+  assert.equal(csp[1], "default-src 'none'; script-src 'unsafe-inline' 'wasm-unsafe-eval' blob:; worker-src blob:; style-src 'unsafe-inline'; img-src data: blob:; connect-src 'none'");
+  assert.ok(csp.index < html.search(/<script[\s>]/i), 'CSP before the first script');
 });
