@@ -349,7 +349,7 @@
         state.pendingFile = null;
         renderMapping(state.reports.events);
       }
-      const kept = state.events ? `Kept the previous events (${state.events.name}).` : 'No events loaded.';
+      const kept = state.events ? `Kept the previous events: ${state.events.name}.` : 'No events loaded.';
       setStatus(state.pendingFile ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
       return false;
     }
@@ -399,7 +399,7 @@
     } catch (err) {
       if (err && err.code === 'engine_stopped') return false;
       showError(`Could not read ${name}`, err);
-      setStatus(state.controls ? `Kept the previous controls (${state.controls.name}).` : 'No controls loaded.');
+      setStatus(state.controls ? `Kept the previous controls: ${state.controls.name}.` : 'No controls loaded.');
       return false;
     }
   }

@@ -62,3 +62,26 @@ test('the map pans and zooms with the keyboard, and 0 resets the view', async ()
   await frame(page);
   assert.equal(await snap(), start);
 });
+
+test('the map pans with a mouse drag and zooms with the wheel', async () => {
+  const { page } = await openPage(browser);
+  await act(page, () => page.click('#demo-button'));
+  const snap = () => page.evaluate(() => document.getElementById('map').toDataURL());
+  const start = await snap();
+  const box = await page.locator('#map').boundingBox();
+  const cx = box.x + box.width / 2;
+  const cy = box.y + box.height / 2;
+  await page.mouse.move(cx, cy);
+  await page.mouse.down();
+  await page.mouse.move(cx + 120, cy + 40, { steps: 5 });
+  await page.mouse.up();
+  await frame(page);
+  const dragged = await snap();
+  assert.notEqual(dragged, start, 'drag moves the map');
+  await page.mouse.wheel(0, -300);
+  await frame(page);
+  assert.notEqual(await snap(), dragged, 'wheel zooms');
+  await page.click('#zoom-reset');
+  await frame(page);
+  assert.equal(await snap(), start, 'reset view restores the first view');
+});

@@ -123,3 +123,28 @@ test('a file where no row can be used names its bad rows, with row and column, a
   assert.equal(await summaryNumber(page, 'n_events'), 3, 'the good file stays loaded');
   assert.match(await page.textContent('#events-name'), /good\.csv/);
 });
+
+test('the table of rows not used pages through 50 at a time', async () => {
+  const { page } = await openPage(browser);
+  const lines = ['x,y'];
+  for (let i = 0; i < 130; i++) lines.push(i % 13 === 0 ? `${i},${i % 7}` : `bad${i},${i}`); // 10 good rows, 120 bad
+  await act(page, () => page.setInputFiles('#events-file', { name: 'mostly-bad.csv', mimeType: 'text/csv', buffer: Buffer.from(lines.join('\n')) }));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.deepEqual(await qualityCounts(page, 'events'), { read: 130, used: 10, rejected: 120 });
+  const firstRows = async () => page.$$eval('#rej-body tr', (trs) => trs.map((tr) => Number(tr.cells[0].textContent.replace(/,/g, ''))));
+  let rows = await firstRows();
+  assert.equal(rows.length, 50);
+  assert.equal(rows[0], 3); // data row i = 1 is spreadsheet row 3
+  assert.equal(await page.textContent('#rej-range'), '1–50 of 120');
+  assert.equal(await page.isDisabled('#rej-prev'), true);
+  await act(page, () => page.click('#rej-next'));
+  assert.equal(await page.textContent('#rej-range'), '51–100 of 120');
+  await act(page, () => page.click('#rej-next'));
+  assert.equal(await page.textContent('#rej-range'), '101–120 of 120');
+  rows = await firstRows();
+  assert.equal(rows.length, 20);
+  assert.equal(rows[rows.length - 1], 131);
+  assert.equal(await page.isDisabled('#rej-next'), true);
+  await act(page, () => page.click('#rej-prev'));
+  assert.equal(await page.textContent('#rej-range'), '51–100 of 120');
+});
