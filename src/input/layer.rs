@@ -27,8 +27,7 @@ use super::csv::{self, DecimalMark, Reader};
 use super::text::cut_value;
 use super::time::parse_time;
 use super::{
-    CoordKind, DateOrder, RawLayer, ReadOptions, RejectReason, Rejection, ResolvedMapping,
-    SourceFormat,
+    CoordKind, RawLayer, ReadOptions, RejectReason, Rejection, ResolvedMapping, SourceFormat,
 };
 use crate::error::{InputError, InputErrorKind};
 use std::borrow::Cow;
@@ -491,7 +490,7 @@ impl fmt::Display for Rejection {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::input::{ColumnMapping, LengthUnit};
+    use crate::input::{ColumnMapping, DateOrder, LengthUnit};
 
     fn read(text: &str) -> RawLayer {
         from_csv(text, &ReadOptions::default()).unwrap()
