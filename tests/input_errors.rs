@@ -392,8 +392,7 @@ fn rejection_messages_read_well() {
     assert_eq!(
         msgs,
         vec![
-            "row 2, column \"y\": could not read \"12,5\" as a number (decimal comma? use a point, \
-             or separate columns with ';')",
+            "row 2, column \"y\": could not read \"12,5\" as a number (decimal comma?)",
             "row 3, column \"weight\": weight \"-3\" must be a number ≥ 0",
             "row 4, column \"date\": could not read \"2025-02-30\" as a date (e.g. 2025-03-04, \
              04/03/2025 or 2025-03-04 14:30), or the date does not exist",

@@ -130,9 +130,10 @@ fn position(v: &Value) -> PointResult {
         return Err(bad());
     }
     let num = |c: &Value| {
-        c.as_f64()
-            .filter(|f| f.is_finite())
-            .ok_or_else(|| (RejectReason::NotANumber, cut_value(&c.to_string())))
+        c.as_f64().filter(|f| f.is_finite()).ok_or_else(|| {
+            let shown = c.as_str().map_or_else(|| c.to_string(), str::to_string);
+            (RejectReason::NotANumber, cut_value(&shown))
+        })
     };
     Ok((num(&arr[0])?, num(&arr[1])?))
 }
@@ -312,12 +313,9 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
                 b.reject(row, Some(GEOMETRY_COLUMN), reason, &v.to_string());
                 continue;
             }
-            let mut t = 0.0;
+            let mut t = (0.0, false);
             match &time {
-                Some(Ok(p)) => {
-                    t = p.days;
-                    b.time_has_clock |= p.has_clock;
-                }
+                Some(Ok(p)) => t = (p.days, p.has_clock),
                 Some(Err((col, reason, v))) => {
                     b.reject(row, Some(col), reason.clone(), v);
                     continue;
@@ -583,7 +581,7 @@ mod tests {
         assert_eq!(
             r,
             vec![
-                (1, Some("geometry"), &RejectReason::NotANumber, "\"1\""),
+                (1, Some("geometry"), &RejectReason::NotANumber, "1"),
                 (2, Some("geometry"), &RejectReason::BadGeometry, "[1]"),
                 (3, Some("date"), &RejectReason::BadTime, "2025-02-29"),
                 (4, Some("date"), &RejectReason::BadTime, "20250101"),
