@@ -1,8 +1,12 @@
 //! GeoJSON: point layers (FeatureCollection of Point / MultiPoint) and study areas.
 //!
-//! Format: RFC 7946 (Butler et al. 2016, "The GeoJSON Format"). Parsed with
-//! `serde_json::Value`; positions are `[x, y, ...]` with extra members (z)
-//! ignored. Member names are case-sensitive, as the RFC says.
+//! Format: RFC 7946 (Butler et al. 2016, "The GeoJSON Format"). Parsed by
+//! serde_json into a small JSON tree of our own ([`Json`]) that keeps object
+//! members in file order (serde_json's own `Value` sorts them unless its
+//! crate-wide `preserve_order` feature is on, which would change every other
+//! module's JSON output). Positions are `[x, y, ...]` with extra members (z)
+//! ignored. Member names are case-sensitive, as the RFC says; a repeated
+//! member name counts with its last value, as in serde_json.
 //!
 //! **Points.** The root may be a FeatureCollection, a single Feature, or a
 //! bare Point / MultiPoint geometry. Feature *n* of the `features` array is
@@ -37,9 +41,10 @@ use super::{
     SourceFormat,
 };
 use crate::error::{InputError, InputErrorKind};
-use serde_json::{Map, Value};
+use serde::de::{Deserialize, Deserializer, MapAccess, SeqAccess, Visitor};
 use std::borrow::Cow;
 use std::collections::HashSet;
+use std::fmt;
 
 /// Column name used in rejections about a feature's geometry.
 pub const GEOMETRY_COLUMN: &str = "geometry";
@@ -50,7 +55,7 @@ fn bad_geojson(detail: impl Into<String>) -> InputError {
     })
 }
 
-fn parse_json(text: &str) -> Result<Value, InputError> {
+fn parse_json(text: &str) -> Result<Json, InputError> {
     serde_json::from_str(text).map_err(|e| {
         InputError::new(InputErrorKind::BadJson {
             detail: e.to_string(),
@@ -58,19 +63,167 @@ fn parse_json(text: &str) -> Result<Value, InputError> {
     })
 }
 
-fn json_kind(v: &Value) -> &'static str {
+/// A JSON value with object members kept in file order.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Json {
+    Null,
+    Bool(bool),
+    Number(serde_json::Number),
+    String(String),
+    Array(Vec<Json>),
+    Object(Obj),
+}
+
+/// A JSON object: members in file order.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Obj(Vec<(String, Json)>);
+
+impl Obj {
+    /// The value of member `key` (the last one if repeated).
+    pub fn get(&self, key: &str) -> Option<&Json> {
+        self.0.iter().rev().find(|(k, _)| k == key).map(|(_, v)| v)
+    }
+    /// Member names in file order (repeats included).
+    pub fn keys(&self) -> impl Iterator<Item = &String> {
+        self.0.iter().map(|(k, _)| k)
+    }
+}
+
+impl Json {
+    pub fn get(&self, key: &str) -> Option<&Json> {
+        self.as_object()?.get(key)
+    }
+    pub fn as_object(&self) -> Option<&Obj> {
+        match self {
+            Json::Object(o) => Some(o),
+            _ => None,
+        }
+    }
+    pub fn as_array(&self) -> Option<&Vec<Json>> {
+        match self {
+            Json::Array(a) => Some(a),
+            _ => None,
+        }
+    }
+    pub fn as_str(&self) -> Option<&str> {
+        match self {
+            Json::String(s) => Some(s),
+            _ => None,
+        }
+    }
+    pub fn as_f64(&self) -> Option<f64> {
+        match self {
+            Json::Number(n) => n.as_f64(),
+            _ => None,
+        }
+    }
+    pub fn is_null(&self) -> bool {
+        matches!(self, Json::Null)
+    }
+}
+
+/// Compact JSON text, for showing a value in a message.
+impl fmt::Display for Json {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let quoted = |s: &str| serde_json::to_string(s).unwrap_or_default();
+        match self {
+            Json::Null => f.write_str("null"),
+            Json::Bool(b) => write!(f, "{b}"),
+            Json::Number(n) => write!(f, "{n}"),
+            Json::String(s) => f.write_str(&quoted(s)),
+            Json::Array(a) => {
+                f.write_str("[")?;
+                for (i, v) in a.iter().enumerate() {
+                    if i > 0 {
+                        f.write_str(",")?;
+                    }
+                    write!(f, "{v}")?;
+                }
+                f.write_str("]")
+            }
+            Json::Object(o) => {
+                f.write_str("{")?;
+                for (i, (k, v)) in o.0.iter().enumerate() {
+                    if i > 0 {
+                        f.write_str(",")?;
+                    }
+                    write!(f, "{}:{v}", quoted(k))?;
+                }
+                f.write_str("}")
+            }
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for Json {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Json, D::Error> {
+        d.deserialize_any(JsonVisitor)
+    }
+}
+
+struct JsonVisitor;
+
+impl<'de> Visitor<'de> for JsonVisitor {
+    type Value = Json;
+    fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+        f.write_str("any JSON value")
+    }
+    fn visit_bool<E>(self, v: bool) -> Result<Json, E> {
+        Ok(Json::Bool(v))
+    }
+    fn visit_i64<E>(self, v: i64) -> Result<Json, E> {
+        Ok(Json::Number(v.into()))
+    }
+    fn visit_u64<E>(self, v: u64) -> Result<Json, E> {
+        Ok(Json::Number(v.into()))
+    }
+    fn visit_f64<E>(self, v: f64) -> Result<Json, E> {
+        Ok(serde_json::Number::from_f64(v).map_or(Json::Null, Json::Number))
+    }
+    fn visit_str<E>(self, v: &str) -> Result<Json, E> {
+        Ok(Json::String(v.to_string()))
+    }
+    fn visit_string<E>(self, v: String) -> Result<Json, E> {
+        Ok(Json::String(v))
+    }
+    fn visit_unit<E>(self) -> Result<Json, E> {
+        Ok(Json::Null)
+    }
+    fn visit_none<E>(self) -> Result<Json, E> {
+        Ok(Json::Null)
+    }
+    fn visit_some<D: Deserializer<'de>>(self, d: D) -> Result<Json, D::Error> {
+        Json::deserialize(d)
+    }
+    fn visit_seq<A: SeqAccess<'de>>(self, mut seq: A) -> Result<Json, A::Error> {
+        let mut v = Vec::with_capacity(seq.size_hint().unwrap_or(0).min(4096));
+        while let Some(x) = seq.next_element()? {
+            v.push(x);
+        }
+        Ok(Json::Array(v))
+    }
+    fn visit_map<A: MapAccess<'de>>(self, mut map: A) -> Result<Json, A::Error> {
+        let mut v = Vec::new();
+        while let Some((k, x)) = map.next_entry::<String, Json>()? {
+            v.push((k, x));
+        }
+        Ok(Json::Object(Obj(v)))
+    }
+}
+
+fn json_kind(v: &Json) -> &'static str {
     match v {
-        Value::Null => "null",
-        Value::Bool(_) => "true/false",
-        Value::Number(_) => "a number",
-        Value::String(_) => "a string",
-        Value::Array(_) => "an array",
-        Value::Object(_) => "an object",
+        Json::Null => "null",
+        Json::Bool(_) => "true/false",
+        Json::Number(_) => "a number",
+        Json::String(_) => "a string",
+        Json::Array(_) => "an array",
+        Json::Object(_) => "an object",
     }
 }
 
 /// The root object and its `type`.
-fn root_type(root: &Value) -> Result<(&Map<String, Value>, &str), InputError> {
+fn root_type(root: &Json) -> Result<(&Obj, &str), InputError> {
     let obj = root.as_object().ok_or_else(|| {
         bad_geojson(format!(
             "expected a GeoJSON object (FeatureCollection, Feature or geometry), found {}",
@@ -79,14 +232,14 @@ fn root_type(root: &Value) -> Result<(&Map<String, Value>, &str), InputError> {
     })?;
     let t = obj
         .get("type")
-        .and_then(Value::as_str)
+        .and_then(Json::as_str)
         .ok_or_else(|| bad_geojson("the JSON has no \"type\" member, so it is not GeoJSON"))?;
     Ok((obj, t))
 }
 
-fn features_of(obj: &Map<String, Value>) -> Result<&Vec<Value>, InputError> {
+fn features_of(obj: &Obj) -> Result<&Vec<Json>, InputError> {
     obj.get("features")
-        .and_then(Value::as_array)
+        .and_then(Json::as_array)
         .ok_or_else(|| bad_geojson("a FeatureCollection needs a \"features\" array"))
 }
 
@@ -106,46 +259,47 @@ fn is_geometry_type(t: &str) -> bool {
 
 /// One feature as seen by the point reader.
 struct Feat<'a> {
-    geometry: Option<&'a Value>,
-    properties: Option<&'a Map<String, Value>>,
+    geometry: Option<&'a Json>,
+    properties: Option<&'a Obj>,
 }
 
-fn feat_of(v: &Value) -> Feat<'_> {
+fn feat_of(v: &Json) -> Feat<'_> {
     let obj = v.as_object();
     Feat {
         geometry: obj.and_then(|o| o.get("geometry")),
         properties: obj
             .and_then(|o| o.get("properties"))
-            .and_then(Value::as_object),
+            .and_then(Json::as_object),
     }
 }
 
 /// A point read from a geometry, or why it could not be read.
 type PointResult = Result<(f64, f64), (RejectReason, String)>;
 
-fn position(v: &Value) -> PointResult {
+fn position(v: &Json) -> PointResult {
     let bad = || (RejectReason::BadGeometry, cut_value(&v.to_string()));
     let arr = v.as_array().ok_or_else(bad)?;
     if arr.len() < 2 {
         return Err(bad());
     }
-    let num = |c: &Value| {
-        c.as_f64()
-            .filter(|f| f.is_finite())
-            .ok_or_else(|| (RejectReason::NotANumber, cut_value(&c.to_string())))
+    let num = |c: &Json| {
+        c.as_f64().filter(|f| f.is_finite()).ok_or_else(|| {
+            let shown = c.as_str().map_or_else(|| c.to_string(), str::to_string);
+            (RejectReason::NotANumber, cut_value(&shown))
+        })
     };
     Ok((num(&arr[0])?, num(&arr[1])?))
 }
 
 /// The points of a feature's geometry (at least one entry).
-fn points_of(geometry: Option<&Value>) -> Vec<PointResult> {
+fn points_of(geometry: Option<&Json>) -> Vec<PointResult> {
     let bad = |what: &str| vec![Err((RejectReason::BadGeometry, what.to_string()))];
     let g = match geometry {
         None => return bad("no geometry"),
-        Some(Value::Null) => return bad("null geometry"),
+        Some(Json::Null) => return bad("null geometry"),
         Some(g) => g,
     };
-    let Some(t) = g.get("type").and_then(Value::as_str) else {
+    let Some(t) = g.get("type").and_then(Json::as_str) else {
         return bad("not a geometry");
     };
     let coords = g.get("coordinates");
@@ -154,7 +308,7 @@ fn points_of(geometry: Option<&Value>) -> Vec<PointResult> {
             Some(c) => vec![position(c)],
             None => bad("Point without coordinates"),
         },
-        "MultiPoint" => match coords.and_then(Value::as_array) {
+        "MultiPoint" => match coords.and_then(Json::as_array) {
             Some(a) if !a.is_empty() => a.iter().map(position).collect(),
             _ => bad("MultiPoint without points"),
         },
@@ -163,11 +317,11 @@ fn points_of(geometry: Option<&Value>) -> Vec<PointResult> {
 }
 
 /// A property value as cell text; `None` for missing or null.
-fn prop_text<'a>(props: Option<&'a Map<String, Value>>, name: &str) -> Option<Cow<'a, str>> {
+fn prop_text<'a>(props: Option<&'a Obj>, name: &str) -> Option<Cow<'a, str>> {
     match props?.get(name)? {
-        Value::Null => None,
-        Value::String(s) => Some(Cow::Borrowed(s.as_str())),
-        Value::Bool(b) => Some(Cow::Borrowed(if *b { "true" } else { "false" })),
+        Json::Null => None,
+        Json::String(s) => Some(Cow::Borrowed(s.as_str())),
+        Json::Bool(b) => Some(Cow::Borrowed(if *b { "true" } else { "false" })),
         other => Some(Cow::Owned(other.to_string())),
     }
 }
@@ -267,11 +421,11 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
         let time = time_role.map(|r| {
             let col = columns[r.index].as_str();
             match f.properties.and_then(|p| p.get(col)) {
-                None | Some(Value::Null) => Err((col, RejectReason::Empty, String::new())),
-                Some(Value::String(s)) if s.trim().is_empty() => {
+                None | Some(Json::Null) => Err((col, RejectReason::Empty, String::new())),
+                Some(Json::String(s)) if s.trim().is_empty() => {
                     Err((col, RejectReason::Empty, s.clone()))
                 }
-                Some(Value::String(s)) => match parse_time(s, order) {
+                Some(Json::String(s)) => match parse_time(s, order) {
                     Some(p) => Ok(p),
                     None => Err((col, RejectReason::BadTime, s.clone())),
                 },
@@ -312,12 +466,9 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
                 b.reject(row, Some(GEOMETRY_COLUMN), reason, &v.to_string());
                 continue;
             }
-            let mut t = 0.0;
+            let mut t = (0.0, false);
             match &time {
-                Some(Ok(p)) => {
-                    t = p.days;
-                    b.time_has_clock |= p.has_clock;
-                }
+                Some(Ok(p)) => t = (p.days, p.has_clock),
                 Some(Err((col, reason, v))) => {
                     b.reject(row, Some(col), reason.clone(), v);
                     continue;
@@ -344,7 +495,7 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
 }
 
 /// A ring as a list of vertices.
-fn ring(v: &Value) -> Result<Vec<[f64; 2]>, InputError> {
+fn ring(v: &Json) -> Result<Vec<[f64; 2]>, InputError> {
     let arr = v
         .as_array()
         .ok_or_else(|| bad_geojson("a polygon ring is not an array of positions"))?;
@@ -359,7 +510,7 @@ fn ring(v: &Value) -> Result<Vec<[f64; 2]>, InputError> {
         .collect()
 }
 
-fn polygon(coords: &Value) -> Result<Vec<Vec<[f64; 2]>>, InputError> {
+fn polygon(coords: &Json) -> Result<Vec<Vec<[f64; 2]>>, InputError> {
     let rings = coords
         .as_array()
         .ok_or_else(|| bad_geojson("polygon coordinates are not an array"))?;
@@ -370,13 +521,13 @@ fn polygon(coords: &Value) -> Result<Vec<Vec<[f64; 2]>>, InputError> {
 }
 
 /// Adds the polygons of one geometry to `out`; null geometries add nothing.
-fn collect_polygons(g: &Value, out: &mut Vec<Vec<Vec<[f64; 2]>>>) -> Result<(), InputError> {
+fn collect_polygons(g: &Json, out: &mut Vec<Vec<Vec<[f64; 2]>>>) -> Result<(), InputError> {
     if g.is_null() {
         return Ok(());
     }
     let t = g
         .get("type")
-        .and_then(Value::as_str)
+        .and_then(Json::as_str)
         .ok_or_else(|| bad_geojson("a geometry has no \"type\""))?;
     let coords = || {
         g.get("coordinates")
@@ -395,7 +546,7 @@ fn collect_polygons(g: &Value, out: &mut Vec<Vec<Vec<[f64; 2]>>>) -> Result<(), 
         "GeometryCollection" => {
             let gs = g
                 .get("geometries")
-                .and_then(Value::as_array)
+                .and_then(Json::as_array)
                 .ok_or_else(|| bad_geojson("a GeometryCollection needs a \"geometries\" array"))?;
             for g in gs {
                 collect_polygons(g, out)?;
@@ -424,12 +575,12 @@ pub fn read_area(text: &str, coords: Option<CoordKind>) -> Result<RawArea, Input
     match t {
         "FeatureCollection" => {
             for (i, f) in features_of(obj)?.iter().enumerate() {
-                let g = f.get("geometry").unwrap_or(&Value::Null);
+                let g = f.get("geometry").unwrap_or(&Json::Null);
                 collect_polygons(g, &mut polygons)
                     .map_err(|e| e.at(i as u64 + 1, Some(GEOMETRY_COLUMN)))?;
             }
         }
-        "Feature" => collect_polygons(obj.get("geometry").unwrap_or(&Value::Null), &mut polygons)?,
+        "Feature" => collect_polygons(obj.get("geometry").unwrap_or(&Json::Null), &mut polygons)?,
         g if is_geometry_type(g) => collect_polygons(&root, &mut polygons)?,
         other => {
             return Err(bad_geojson(format!(
@@ -583,7 +734,7 @@ mod tests {
         assert_eq!(
             r,
             vec![
-                (1, Some("geometry"), &RejectReason::NotANumber, "\"1\""),
+                (1, Some("geometry"), &RejectReason::NotANumber, "1"),
                 (2, Some("geometry"), &RejectReason::BadGeometry, "[1]"),
                 (3, Some("date"), &RejectReason::BadTime, "2025-02-29"),
                 (4, Some("date"), &RejectReason::BadTime, "20250101"),
@@ -635,6 +786,19 @@ mod tests {
 
     fn pts_r(text: &str) -> Result<RawLayer, InputError> {
         read_points(text, &ReadOptions::default())
+    }
+
+    #[test]
+    fn json_tree_keeps_member_order() {
+        let v: Json =
+            serde_json::from_str(r#"{"b":1,"a":[true,null,"q\"x"],"c":2.5,"b":3}"#).unwrap();
+        let o = v.as_object().unwrap();
+        assert_eq!(o.keys().collect::<Vec<_>>(), vec!["b", "a", "c", "b"]);
+        assert_eq!(v.get("b").and_then(Json::as_f64), Some(3.0)); // last repeat wins
+        assert_eq!(
+            v.to_string(),
+            r#"{"b":1,"a":[true,null,"q\"x"],"c":2.5,"b":3}"#
+        );
     }
 
     const SQUARE: &str = "[[0,0],[10,0],[10,10],[0,10],[0,0]]";

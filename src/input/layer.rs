@@ -27,8 +27,7 @@ use super::csv::{self, DecimalMark, Reader};
 use super::text::cut_value;
 use super::time::parse_time;
 use super::{
-    CoordKind, DateOrder, RawLayer, ReadOptions, RejectReason, Rejection, ResolvedMapping,
-    SourceFormat,
+    CoordKind, RawLayer, ReadOptions, RejectReason, Rejection, ResolvedMapping, SourceFormat,
 };
 use crate::error::{InputError, InputErrorKind};
 use std::borrow::Cow;
@@ -115,14 +114,16 @@ impl Builder {
         id
     }
 
-    /// Adds an accepted point. Attribute values are ignored for attributes
-    /// the layer does not carry.
-    pub fn accept(&mut self, row: u64, x: f64, y: f64, t: f64, cat: u32, w: f64) {
+    /// Adds an accepted point; `t` is (days, has clock time). Attribute
+    /// values are ignored for attributes the layer does not carry.
+    pub fn accept(&mut self, row: u64, x: f64, y: f64, t: (f64, bool), cat: u32, w: f64) {
+        let (t, clock) = t;
         self.x.push(x);
         self.y.push(y);
         self.row.push(row);
         if let Some(v) = &mut self.time {
             v.push(t);
+            self.time_has_clock |= clock;
         }
         if let Some(v) = &mut self.category {
             v.push(cat);
@@ -239,11 +240,30 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
                 csv::delimiter_name(c)
             )))
         }
-        None => csv::detect_delimiter(text).ok_or_else(|| {
-            not_a_table(
-                "only one column found; expected columns separated by commas, semicolons or tabs",
-            )
-        })?,
+        None => match csv::detect_delimiter(text) {
+            Some(d) => d,
+            None => {
+                // A header whose quote never closes splits under no delimiter.
+                let mut r = Reader::new(text, b',');
+                let mut f = Vec::new();
+                while let Some(res) = r.read_into(&mut f) {
+                    match res {
+                        Err(u) => {
+                            return Err(not_a_table(
+                                "a quoted field starts here but its closing quote is missing",
+                            )
+                            .at(u.row, None))
+                        }
+                        Ok(info) if info.blank => {}
+                        Ok(_) => break,
+                    }
+                }
+                return Err(not_a_table(
+                    "only one column found; expected columns separated by commas, semicolons \
+                     or tabs",
+                ));
+            }
+        },
     };
 
     // 2. Header.
@@ -389,7 +409,7 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         let Some(y) = coord(yi, false, &mut b) else {
             continue;
         };
-        let mut t = 0.0;
+        let mut t = (0.0, false);
         if let Some(r) = attrs.time {
             let cell = fields[r.index].as_ref();
             let col = headers[r.index].as_str();
@@ -398,12 +418,7 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
                 continue;
             }
             match parse_time(cell, order) {
-                Some(p) => {
-                    t = p.days;
-                    if p.has_clock {
-                        b.time_has_clock = true;
-                    }
-                }
+                Some(p) => t = (p.days, p.has_clock),
                 None => {
                     b.reject(row, Some(col), RejectReason::BadTime, cell);
                     continue;
@@ -460,10 +475,7 @@ impl fmt::Display for Rejection {
             RejectReason::NotANumber => {
                 write!(f, "could not read \"{v}\" as a number")?;
                 if csv::decimal_mark(v) == DecimalMark::Comma {
-                    write!(
-                        f,
-                        " (decimal comma? use a point, or separate columns with ';')"
-                    )?;
+                    write!(f, " (decimal comma?)")?;
                 }
                 Ok(())
             }
@@ -491,7 +503,7 @@ impl fmt::Display for Rejection {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::input::{ColumnMapping, LengthUnit};
+    use crate::input::{ColumnMapping, DateOrder, LengthUnit};
 
     fn read(text: &str) -> RawLayer {
         from_csv(text, &ReadOptions::default()).unwrap()
@@ -600,6 +612,10 @@ mod tests {
         let l = read("x,y,datetime\n1,2,1970-01-02T12:00Z\n");
         assert_eq!(l.time, Some(vec![1.5]));
         assert!(l.time_has_clock);
+        // A clock time on a rejected row does not count.
+        let l = read("x,y,datetime,count\n1,2,1970-01-02T12:00Z,-1\n1,2,1970-01-02,1\n");
+        assert_eq!(l.time, Some(vec![1.0]));
+        assert!(!l.time_has_clock);
         let opts = ReadOptions {
             date_order: DateOrder::MonthDayYear,
             ..Default::default()
@@ -680,6 +696,13 @@ mod tests {
     }
 
     #[test]
+    fn unclosed_quote_in_header() {
+        let e = from_csv("\"x,y\n1,2\n", &ReadOptions::default()).unwrap_err();
+        assert_eq!(e.at.as_ref().map(|a| a.row), Some(1));
+        assert!(e.to_string().contains("closing quote"), "{e}");
+    }
+
+    #[test]
     fn display_reads_well() {
         let r = Rejection {
             row: 14,
@@ -689,8 +712,7 @@ mod tests {
         };
         assert_eq!(
             r.to_string(),
-            "row 14, column \"y\": could not read \"12,5\" as a number \
-             (decimal comma? use a point, or separate columns with ';')"
+            "row 14, column \"y\": could not read \"12,5\" as a number (decimal comma?)"
         );
     }
 }

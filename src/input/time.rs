@@ -153,6 +153,15 @@ impl Cur<'_> {
 
 /// Reads a date or date-time cell. Returns `None` for anything not in the
 /// forms listed in the module documentation or out of range.
+///
+/// ```
+/// use cloister::input::{time::parse_time, DateOrder};
+/// // 1970-01-02 is day 1; 18:00 at UTC+06:00 is noon UTC, half a day.
+/// let t = parse_time("1970-01-02T18:00+06:00", DateOrder::DayMonthYear).unwrap();
+/// assert_eq!((t.days, t.has_clock), (1.5, true));
+/// // 31 April does not exist.
+/// assert!(parse_time("31/04/2025", DateOrder::DayMonthYear).is_none());
+/// ```
 pub fn parse_time(text: &str, order: DateOrder) -> Option<ParsedTime> {
     let mut c = Cur {
         b: text.trim().as_bytes(),
