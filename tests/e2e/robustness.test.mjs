@@ -148,3 +148,23 @@ test('the table of rows not used pages through 50 at a time', async () => {
   await act(page, () => page.click('#rej-prev'));
   assert.equal(await page.textContent('#rej-range'), '51–100 of 120');
 });
+
+test('a slow engine step shows the progress bar, which goes away afterwards', async () => {
+  const { page } = await openPage(browser);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'small.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n1,1\n5,2\n3,7\n') }));
+  assert.equal(await page.isHidden('#progress'), true, 'no bar for quick steps');
+  // Make one step take 2 s inside the worker.
+  await page.workers()[0].evaluate(() => {
+    const original = wasm_bindgen.Session.prototype.summary;
+    wasm_bindgen.Session.prototype.summary = function (...args) {
+      const until = Date.now() + 2000;
+      while (Date.now() < until) { /* busy */ }
+      return original.apply(this, args);
+    };
+  });
+  const done = act(page, () => page.check('#area-mode-box'));
+  await page.waitForSelector('#progress:not([hidden])', { timeout: 10000 });
+  await done;
+  assert.equal(await page.isHidden('#progress'), true, 'bar hidden when the step is over');
+  assert.match(await page.textContent('#summary dd[data-key="area_km2"]'), /rectangle/);
+});
