@@ -20,7 +20,8 @@
     engineReady: null, // a promise while the engine restarts
     // Kept file bytes, so options can change and a crashed engine can be refilled.
     events: null, // {bytes, name, options}
-    pendingFile: null, // an events file whose coordinate columns the user must choose: {bytes, name, options}
+    pendingFile: null, // a file whose coordinate columns the user must choose: {layer, bytes, name, options}
+    mapLayer: 'events', // which file the column editor shows
     area: null, // {bytes, name}
     areaMode: 'convex_hull',
     controls: null, // {bytes, name}
@@ -261,7 +262,7 @@
       .then(async () => {
         state.restarting = false;
         state.engineReady = null;
-        renderMapping(state.reports.events);
+        showMapping();
         renderAreaMode();
         for (const id of ['events-name', 'controls-name']) if (!state[id.split('-')[0]]) $(id).textContent = '';
         await refresh(true);
@@ -297,7 +298,7 @@
       if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') await post('setAreaFallback', [state.areaMode]);
     }
     if (state.controls) {
-      state.reports.controls = await post('loadControls', [state.controls.bytes, sharedCoords()]);
+      state.reports.controls = await post('loadControls', [state.controls.bytes, controlsOptions(state.controls.options)]);
     }
   }
 
@@ -325,12 +326,13 @@
     try {
       const report = await call('loadEvents', bytes, options);
       state.events = { bytes, name, options };
-      state.pendingFile = null;
+      if (state.pendingFile && state.pendingFile.layer === 'events') state.pendingFile = null;
+      if (fresh) state.mapLayer = 'events';
       state.reports.events = report;
       if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') {
         await call('setAreaFallback', state.areaMode);
       }
-      renderMapping(report);
+      showMapping();
       renderFileLine('events-name', name, report);
       if (report.study_error) showError('The events were read, but the study could not be set up', report.study_error);
       if (refreshAfter) await refresh(!fresh);
@@ -339,16 +341,7 @@
     } catch (err) {
       if (err && err.code === 'engine_stopped') return false;
       showError(`Could not read ${name}`, err);
-      const wasPending = state.pendingFile && state.pendingFile.bytes === bytes;
-      const columns = err && (err.code === 'missing_columns' || wasPending) ? headerColumns(bytes) : [];
-      if (columns.length > 1) {
-        // Let the user name the coordinate columns, then read the same bytes again.
-        state.pendingFile = { bytes, name, options };
-        renderPendingMapping(columns, name, options);
-      } else {
-        state.pendingFile = null;
-        renderMapping(state.reports.events);
-      }
+      offerColumns('events', bytes, name, options, err);
       const kept = state.events ? `Kept the previous events: ${state.events.name}.` : 'No events loaded.';
       setStatus(state.pendingFile ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
       return false;
@@ -383,15 +376,25 @@
     }
   }
 
-  async function loadControls(bytes, name, { refreshAfter = true } = {}) {
+  /** Read options for the controls: their own column choices, the events' planar unit. */
+  function controlsOptions(base) {
+    const o = { ...(base || {}) };
+    delete o.coords;
+    return { ...o, ...sharedCoords() };
+  }
+
+  async function loadControls(bytes, name, { refreshAfter = true, options = null } = {}) {
     setStatus(`Reading ${name}…`);
+    const opts = controlsOptions(options);
     try {
-      const report = await call('loadControls', bytes, sharedCoords());
-      state.controls = { bytes, name };
+      const report = await call('loadControls', bytes, opts);
+      state.controls = { bytes, name, options: opts };
+      if (state.pendingFile && state.pendingFile.layer === 'controls') state.pendingFile = null;
       state.reports.controls = report;
       renderFileLine('controls-name', name, report);
       $('show-controls').disabled = false;
       $('controls-clear').disabled = false;
+      showMapping();
       if (report.study_error) showError('The controls were read, but the study could not be set up', report.study_error);
       if (refreshAfter) await refresh(true);
       setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used as controls.`);
@@ -399,7 +402,9 @@
     } catch (err) {
       if (err && err.code === 'engine_stopped') return false;
       showError(`Could not read ${name}`, err);
-      setStatus(state.controls ? `Kept the previous controls: ${state.controls.name}.` : 'No controls loaded.');
+      offerColumns('controls', bytes, name, opts, err);
+      const kept = state.controls ? `Kept the previous controls: ${state.controls.name}.` : 'No controls loaded.';
+      setStatus(state.pendingFile && state.pendingFile.layer === 'controls' ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
       return false;
     }
   }
@@ -410,6 +415,9 @@
       await call('clearControls');
       state.controls = null;
       state.reports.controls = null;
+      if (state.pendingFile && state.pendingFile.layer === 'controls') state.pendingFile = null;
+      state.mapLayer = 'events';
+      showMapping();
       $('controls-name').textContent = '';
       $('controls-clear').disabled = true;
       $('controls-file').value = '';
@@ -530,8 +538,11 @@
     }
     const coords = report.coords || {};
     $('map-coords').value = coords.kind === 'planar' ? coords.unit || 'metre' : 'lon_lat';
-    const opts = pending && state.pendingFile ? state.pendingFile.options : state.events ? state.events.options : {};
-    if (opts && opts.date_order) $('map-date').value = opts.date_order;
+    const kept = state.mapLayer === 'controls' ? state.controls : state.events;
+    const opts = pending && state.pendingFile ? state.pendingFile.options : kept ? kept.options : {};
+    $('map-date').value = (opts && opts.date_order) || 'day_month_year';
+    // The controls always use the events' kind of coordinates.
+    $('map-coords').disabled = state.mapLayer === 'controls';
     if (pending) return;
     const fmtInfo = report.format || {};
     let how = 'GeoJSON points';
@@ -556,9 +567,17 @@
   }
 
   async function mappingChanged() {
-    const target = state.pendingFile || state.events;
-    if (!target) return;
     clearError();
+    const layer = state.mapLayer;
+    const pending = state.pendingFile && state.pendingFile.layer === layer ? state.pendingFile : null;
+    if (layer === 'controls') {
+      const target = pending || state.controls;
+      if (!target) return;
+      await loadControls(target.bytes, target.name, { options: currentOptions() });
+      return;
+    }
+    const target = pending || state.events;
+    if (!target) return;
     const options = currentOptions();
     const before = state.reports.events && state.reports.events.coords;
     const hadArea = state.area && state.areaMode === 'file' ? state.area : null;
@@ -585,7 +604,7 @@
       state.areaMode = 'convex_hull';
       renderAreaMode();
     }
-    if (hadControls && !(await loadControls(hadControls.bytes, hadControls.name, { refreshAfter: false }))) {
+    if (hadControls && !(await loadControls(hadControls.bytes, hadControls.name, { refreshAfter: false, options: hadControls.options }))) {
       keepError();
       state.controls = null;
       state.reports.controls = null;
@@ -615,7 +634,38 @@
   function renderPendingMapping(columns, name, options) {
     const mapping = (options && options.mapping) || {};
     renderMapping({ columns, mapping, coords: options && options.coords, format: null }, true);
-    $('mapping-hint').textContent = `${name}: choose the x and y columns below to read it. Until then the map shows the previous events.`;
+    const what = state.pendingFile && state.pendingFile.layer === 'controls' ? 'controls' : 'events';
+    $('mapping-hint').textContent = `${name}: choose the x and y columns below to read it. Until then the map shows the previous ${what}.`;
+  }
+
+  /** After a failed read: if the coordinate columns were not found in a table,
+   * keep the bytes and let the user choose the columns in the editor. */
+  function offerColumns(layer, bytes, name, options, err) {
+    const wasPending = state.pendingFile && state.pendingFile.layer === layer && state.pendingFile.bytes === bytes;
+    const columns = err && (err.code === 'missing_columns' || wasPending) ? headerColumns(bytes) : [];
+    if (columns.length > 1) {
+      state.pendingFile = { layer, bytes, name, options };
+      state.mapLayer = layer;
+    } else if (wasPending) {
+      state.pendingFile = null;
+    }
+    showMapping();
+  }
+
+  /** Shows the column editor for the file chosen in it (events or controls). */
+  function showMapping() {
+    const hasControls = !!state.controls || (state.pendingFile && state.pendingFile.layer === 'controls');
+    const hasEvents = !!state.events || (state.pendingFile && state.pendingFile.layer === 'events');
+    if (state.mapLayer === 'controls' && !hasControls) state.mapLayer = 'events';
+    for (const node of document.querySelectorAll('.layer-choice')) node.hidden = !(hasControls && hasEvents);
+    $('map-layer').value = state.mapLayer;
+    const p = state.pendingFile;
+    if (p && p.layer === state.mapLayer) {
+      const columns = headerColumns(p.bytes);
+      renderPendingMapping(columns, p.name, p.options);
+    } else {
+      renderMapping(state.reports[state.mapLayer]);
+    }
   }
 
   function renderFileLine(id, name, report) {
@@ -923,6 +973,10 @@
     wireFileInput('controls-file', 'controls-drop', (bytes, name) => loadControls(bytes, name));
     $('demo-button').addEventListener('click', act(loadDemo));
     $('problems-button').addEventListener('click', act(loadProblems));
+    $('map-layer').addEventListener('change', () => {
+      state.mapLayer = $('map-layer').value;
+      showMapping();
+    });
     for (const id of ['map-x', 'map-y', 'map-time', 'map-category', 'map-weight', 'map-coords', 'map-date']) {
       $(id).addEventListener('change', act(mappingChanged));
     }

@@ -168,3 +168,30 @@ test('a slow engine step shows the progress bar, which goes away afterwards', as
   assert.equal(await page.isHidden('#progress'), true, 'bar hidden when the step is over');
   assert.match(await page.textContent('#summary dd[data-key="area_km2"]'), /rectangle/);
 });
+
+test('the column editor also serves the controls file', async () => {
+  const { page } = await openPage(browser);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'ev.csv', mimeType: 'text/csv', buffer: Buffer.from('x,y\n1,1\n5,2\n3,7\n8,8\n') }));
+  assert.equal(await page.isHidden('#map-layer'), true, 'no file choice with only events');
+  const ctl = 'place,p_east,p_north,when\nq,2,2,not-a-date\nr,5,4,2025-01-02\ns,4,6,2025-01-03\n';
+  await act(page, () => page.setInputFiles('#controls-file', { name: 'odd-controls.csv', mimeType: 'text/csv', buffer: Buffer.from(ctl) }));
+  assert.equal(await page.isVisible('#error-banner'), true, 'columns not found');
+  assert.equal(await page.inputValue('#map-layer'), 'controls');
+  assert.match(await page.textContent('#mapping-hint'), /odd-controls\.csv/);
+  assert.equal(await page.isDisabled('#map-coords'), true, 'controls follow the events\' coordinates');
+  await act(page, () => page.selectOption('#map-x', 'p_east'));
+  await act(page, () => page.selectOption('#map-y', 'p_north'));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'n_controls'), 3);
+  // Using the time column re-reads the controls: the bad date costs a row; off again, it is back.
+  await act(page, () => page.selectOption('#map-time', 'when'));
+  assert.equal(await summaryNumber(page, 'n_controls'), 2);
+  assert.deepEqual(await qualityCounts(page, 'controls'), { read: 3, used: 2, rejected: 1 });
+  await act(page, () => page.selectOption('#map-time', ''));
+  assert.equal(await summaryNumber(page, 'n_controls'), 3);
+  assert.deepEqual(await qualityCounts(page, 'controls'), { read: 3, used: 3, rejected: 0 });
+  // Switching the editor back shows the events' columns, untouched.
+  await page.selectOption('#map-layer', 'events');
+  assert.equal(await page.inputValue('#map-x'), 'x');
+  assert.equal(await summaryNumber(page, 'n_events'), 4);
+});
