@@ -4,13 +4,15 @@
  * Classic script: defines the globals PointMap and CLOISTER_PALETTE. */
 'use strict';
 
-/* Category colours, chosen for this tool: hues spread around the wheel with
- * alternating lightness so neighbours stay apart for the common red-green
- * colour-vision deficiencies; the last entry collects any further categories. */
+/* Category colours, chosen for this tool by a max-min search over sRGB: every
+ * pair stays apart (CIELAB ΔE ≥ 15) for normal vision and when protanopia,
+ * deuteranopia or tritanopia is simulated, and every colour stands out from
+ * the area fill, the controls' grey and white (tests/e2e/palette.test.mjs).
+ * `other` collects categories beyond the sixth. */
 const CLOISTER_PALETTE = {
-  categories: ['#1f63b5', '#e07b00', '#0f8a6c', '#c23b7a', '#6b4fbb', '#8a6d00', '#3ba7d9'],
-  other: '#6e6e6e',
-  single: '#1f63b5',
+  categories: ['#1e69b4', '#e1872d', '#960000', '#c39669', '#3ca5ff', '#781e78'],
+  other: '#555555',
+  single: '#1e69b4',
   control: '#a3a9b0',
   areaFill: '#e9efe4',
   areaLine: '#56624a',
