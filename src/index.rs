@@ -58,6 +58,9 @@ impl Best {
             items: Vec::with_capacity(k + 1),
         }
     }
+    fn clear(&mut self) {
+        self.items.clear();
+    }
     /// The current k-th smallest distance², or ∞ while fewer than k are known.
     fn worst(&self) -> f64 {
         if self.items.len() < self.k {
@@ -66,13 +69,19 @@ impl Best {
             self.items[self.k - 1].0
         }
     }
+    /// Keeps (d2, j) if it is among the k smallest (ties by lower index).
     fn offer(&mut self, d2: f64, j: u32) {
-        if !(d2 < self.worst()) {
-            return;
+        if self.items.len() == self.k {
+            let (wd, wj) = self.items[self.k - 1];
+            if !(d2 < wd || (d2 == wd && j < wj)) {
+                return;
+            }
+            self.items.pop();
         }
-        let pos = self.items.partition_point(|&(e, i)| (e, i) < (d2, j));
+        let pos = self
+            .items
+            .partition_point(|&(e, i)| e < d2 || (e == d2 && i < j));
         self.items.insert(pos, (d2, j));
-        self.items.truncate(self.k);
     }
 }
 
@@ -178,8 +187,8 @@ impl GridIndex {
 
     /// Ring search around (qx, qy) keeping the k nearest, skipping original
     /// index `skip` (use `u32::MAX` for none).
-    fn search(&self, qx: f64, qy: f64, k: usize, skip: u32) -> Best {
-        let mut best = Best::new(k);
+    fn search(&self, qx: f64, qy: f64, skip: u32, best: &mut Best) {
+        best.clear();
         let (cx, cy) = (self.col(qx) as isize, self.row(qy) as isize);
         let (nx, ny) = (self.nx as isize, self.ny as isize);
         let mut rho: isize = 0;
@@ -226,11 +235,11 @@ impl GridIndex {
                 bound = bound.min(self.y0 + (cy + rho + 1) as f64 * self.cell - qy);
             }
             if bound == f64::INFINITY {
-                return best; // the whole grid was visited
+                return; // the whole grid was visited
             }
             let bound = bound.max(0.0);
             if best.worst() <= bound * bound {
-                return best;
+                return;
             }
             rho += 1;
         }
@@ -251,8 +260,9 @@ impl GridIndex {
             return None;
         }
         let mut out = vec![0.0; n];
+        let mut b = Best::new(k);
         for s in 0..n {
-            let b = self.search(self.px[s], self.py[s], k, self.id[s]);
+            self.search(self.px[s], self.py[s], self.id[s], &mut b);
             out[self.id[s] as usize] = b.worst().sqrt();
         }
         Some(out)
@@ -266,8 +276,9 @@ impl GridIndex {
             return None;
         }
         let mut out = vec![(0, 0.0); n];
+        let mut b = Best::new(1);
         for s in 0..n {
-            let b = self.search(self.px[s], self.py[s], 1, self.id[s]);
+            self.search(self.px[s], self.py[s], self.id[s], &mut b);
             let (d2, j) = b.items[0];
             out[self.id[s] as usize] = (j as usize, d2.sqrt());
         }
@@ -280,7 +291,8 @@ impl GridIndex {
         if self.is_empty() {
             return None;
         }
-        let b = self.search(qx, qy, 1, u32::MAX);
+        let mut b = Best::new(1);
+        self.search(qx, qy, u32::MAX, &mut b);
         b.items.first().map(|&(d2, j)| (j as usize, d2.sqrt()))
     }
 
@@ -540,6 +552,17 @@ mod tests {
                 .collect();
             assert_eq!(got, want);
         }
+    }
+
+    #[test]
+    fn test_nearest_ties_go_to_lower_index() {
+        let x = [5.0, 0.0, 6.0, 4.0, 5.0, 5.0];
+        let y = [5.0, 0.0, 5.0, 5.0, 6.0, 4.0];
+        let g = GridIndex::new(&x, &y);
+        let nn = g.nearest_neighbours().unwrap();
+        assert_eq!(nn[0], (2, 1.0));
+        assert_eq!(g.nearest(5.0, 5.0), Some((0, 0.0)));
+        assert_eq!(g.nearest(5.5, 5.0), Some((0, 0.5)));
     }
 
     #[test]
