@@ -51,6 +51,42 @@ struct Best {
     items: Vec<(f64, u32)>,
 }
 
+/// Receives candidate neighbours during a ring search.
+trait Sink {
+    /// The distance² a candidate must beat (∞ until enough are known).
+    fn worst(&self) -> f64;
+    fn offer(&mut self, d2: f64, j: u32);
+}
+
+/// The single nearest (distance², index); ties by lower index.
+struct Best1 {
+    d2: f64,
+    j: u32,
+}
+
+impl Sink for Best1 {
+    #[inline]
+    fn worst(&self) -> f64 {
+        self.d2
+    }
+    #[inline]
+    fn offer(&mut self, d2: f64, j: u32) {
+        if d2 < self.d2 || (d2 == self.d2 && j < self.j) {
+            self.d2 = d2;
+            self.j = j;
+        }
+    }
+}
+
+impl Sink for Best {
+    fn worst(&self) -> f64 {
+        Best::worst(self)
+    }
+    fn offer(&mut self, d2: f64, j: u32) {
+        Best::offer(self, d2, j)
+    }
+}
+
 impl Best {
     fn new(k: usize) -> Best {
         Best {
@@ -187,8 +223,7 @@ impl GridIndex {
 
     /// Ring search around (qx, qy) keeping the k nearest, skipping original
     /// index `skip` (use `u32::MAX` for none).
-    fn search(&self, qx: f64, qy: f64, skip: u32, best: &mut Best) {
-        best.clear();
+    fn search<B: Sink>(&self, qx: f64, qy: f64, skip: u32, best: &mut B) {
         let (cx, cy) = (self.col(qx) as isize, self.row(qy) as isize);
         let (nx, ny) = (self.nx as isize, self.ny as isize);
         let mut rho: isize = 0;
@@ -260,8 +295,20 @@ impl GridIndex {
             return None;
         }
         let mut out = vec![0.0; n];
+        if k == 1 {
+            for s in 0..n {
+                let mut b = Best1 {
+                    d2: f64::INFINITY,
+                    j: u32::MAX,
+                };
+                self.search(self.px[s], self.py[s], self.id[s], &mut b);
+                out[self.id[s] as usize] = b.d2.sqrt();
+            }
+            return Some(out);
+        }
         let mut b = Best::new(k);
         for s in 0..n {
+            b.clear();
             self.search(self.px[s], self.py[s], self.id[s], &mut b);
             out[self.id[s] as usize] = b.worst().sqrt();
         }
@@ -269,18 +316,27 @@ impl GridIndex {
     }
 
     /// Index of each point's nearest other point and the distance, in input
-    /// order (ties go to the lower index). `None` with fewer than 2 points.
+    /// order (ties go to the lower index). `None` with fewer than 2 points. A
+    /// point with no finite neighbour (possible only with non-finite
+    /// coordinates) gets its own index and an infinite distance.
     pub fn nearest_neighbours(&self) -> Option<Vec<(usize, f64)>> {
         let n = self.len();
         if n < 2 {
             return None;
         }
         let mut out = vec![(0, 0.0); n];
-        let mut b = Best::new(1);
         for s in 0..n {
+            let mut b = Best1 {
+                d2: f64::INFINITY,
+                j: u32::MAX,
+            };
             self.search(self.px[s], self.py[s], self.id[s], &mut b);
-            let (d2, j) = b.items[0];
-            out[self.id[s] as usize] = (j as usize, d2.sqrt());
+            let i = self.id[s] as usize;
+            out[i] = if b.j == u32::MAX {
+                (i, f64::INFINITY)
+            } else {
+                (b.j as usize, b.d2.sqrt())
+            };
         }
         Some(out)
     }
@@ -291,9 +347,12 @@ impl GridIndex {
         if self.is_empty() {
             return None;
         }
-        let mut b = Best::new(1);
+        let mut b = Best1 {
+            d2: f64::INFINITY,
+            j: u32::MAX,
+        };
         self.search(qx, qy, u32::MAX, &mut b);
-        b.items.first().map(|&(d2, j)| (j as usize, d2.sqrt()))
+        (b.j != u32::MAX).then(|| (b.j as usize, b.d2.sqrt()))
     }
 
     /// Calls `f(j, d)` for every indexed point j with distance d ≤ r from

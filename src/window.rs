@@ -9,10 +9,12 @@
 //!   counter-clockwise and holes clockwise, whatever the input order was.
 //! * Containment uses the even-odd rule over all rings of a polygon (so a
 //!   point in a hole is outside), and a point is in the window if it is in
-//!   any of its polygons. A point within `1e-12 ×` (larger side of the
-//!   bounding box) of any edge counts as on the boundary, hence inside; this
-//!   makes rounded coordinates that lie on an edge behave the same way in data
-//!   and simulations (METHODS §1, "boundary counts as inside").
+//!   any of its polygons. A point within [`Window::boundary_tolerance`]
+//!   (`1e-12 ×` the larger of the bounding box's longer side and its largest
+//!   absolute coordinate) of any edge counts as on the boundary, hence
+//!   inside; this makes rounded coordinates that lie on an edge behave the
+//!   same way in data and simulations (METHODS §1, "boundary counts as
+//!   inside"), also for large planar coordinates such as UTM northings.
 //! * The perimeter includes the boundaries of holes (METHODS §0).
 //! * Not checked: self-intersecting rings, holes that are not inside their
 //!   exterior ring, or overlapping polygons (RFC 7946 GeoJSON forbids all
@@ -245,7 +247,8 @@ impl Window {
             }
         }
         let extent = (bbox[2] - bbox[0]).max(bbox[3] - bbox[1]);
-        let tol = 1e-12 * extent;
+        let magnitude = bbox.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+        let tol = 1e-12 * extent.max(magnitude);
         let nb = if edges.len() <= 64 {
             1
         } else {
@@ -394,6 +397,10 @@ impl Window {
     /// [min_x, min_y, max_x, max_y].
     pub fn bbox(&self) -> [f64; 4] {
         self.bbox
+    }
+    /// Distance (m) within which a point counts as on the boundary.
+    pub fn boundary_tolerance(&self) -> f64 {
+        self.tol
     }
     /// Inside or on the boundary. Non-finite points are outside.
     pub fn contains(&self, x: f64, y: f64) -> bool {
@@ -583,6 +590,29 @@ mod tests {
         assert_eq!(w.boundary_distance(3.0, 5.0), 1.0);
         assert_eq!(w.boundary_distance(5.0, 5.0), 1.0);
         assert_eq!(w.boundary_distance(12.0, 5.0), 2.0);
+    }
+
+    /// Points computed on a slanted edge far from the origin (UTM-like
+    /// coordinates) are inside; 1 mm outward they are outside.
+    #[test]
+    fn test_contains_edge_points_large_coordinates() {
+        let (a, b) = ([500_123.25, 5_000_017.5], [501_377.75, 5_000_911.125]);
+        let w = Window::from_polygons(
+            vec![vec![vec![a, b, [500_100.0, 5_001_500.0]]]],
+            WindowOrigin::File,
+        )
+        .unwrap();
+        let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+        let len = dx.hypot(dy);
+        // Outward normal of a counter-clockwise ring's edge a→b is (dy, −dx)/len.
+        let (ox, oy) = (dy / len * 1e-3, -dx / len * 1e-3);
+        for k in 0..=100 {
+            let t = k as f64 / 100.0;
+            let (x, y) = (a[0] + t * dx, a[1] + t * dy);
+            assert!(w.contains(x, y), "t = {t}");
+            assert!(!w.contains(x + ox, y + oy), "t = {t} outside");
+        }
+        assert!(w.boundary_tolerance() < 1e-5);
     }
 
     #[test]
