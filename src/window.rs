@@ -53,13 +53,14 @@ struct Edge {
 }
 
 /// Edges grouped by horizontal band (compressed rows: the edges of band `k`
-/// are `idx[start[k]..start[k + 1]]`, in increasing edge order).
+/// are `items[start[k]..start[k + 1]]`, copies in increasing edge order so
+/// that one band is contiguous in memory).
 #[derive(Debug, Clone, PartialEq)]
 struct Bands {
     y0: f64,
     h: f64,
     start: Vec<u32>,
-    idx: Vec<u32>,
+    items: Vec<Edge>,
 }
 
 impl Bands {
@@ -409,7 +410,7 @@ impl Window {
             y0: bbox[1],
             h,
             start: vec![0; nb + 1],
-            idx: Vec::new(),
+            items: Vec::new(),
         };
         let span = |bands: &Bands, e: &Edge| {
             let lo = bands.band_of(e.a[1].min(e.b[1]) - tol);
@@ -426,11 +427,11 @@ impl Window {
             bands.start[k + 1] += bands.start[k];
         }
         let mut fill: Vec<u32> = bands.start[..nb].to_vec();
-        bands.idx = vec![0; bands.start[nb] as usize];
-        for (i, e) in edges.iter().enumerate() {
+        bands.items = vec![edges[0]; bands.start[nb] as usize];
+        for e in &edges {
             let (lo, hi) = span(&bands, e);
             for f in &mut fill[lo..=hi] {
-                bands.idx[*f as usize] = i as u32;
+                bands.items[*f as usize] = *e;
                 *f += 1;
             }
         }
@@ -563,12 +564,12 @@ impl Window {
             return false;
         }
         let k = self.bands.band_of(y);
-        let list = &self.bands.idx[self.bands.start[k] as usize..self.bands.start[k + 1] as usize];
+        let list =
+            &self.bands.items[self.bands.start[k] as usize..self.bands.start[k + 1] as usize];
         let t2 = t * t;
         let mut poly = u32::MAX;
         let mut odd = false;
-        for &i in list {
-            let e = &self.edges[i as usize];
+        for e in list {
             if e.poly != poly {
                 if odd {
                     return true;
