@@ -359,7 +359,7 @@ impl GridIndex {
     /// (qx, qy), in no particular order. Nothing is called when r is negative
     /// or NaN.
     pub fn for_each_within<F: FnMut(usize, f64)>(&self, qx: f64, qy: f64, r: f64, mut f: F) {
-        if !(r >= 0.0) || self.is_empty() {
+        if r.is_nan() || r < 0.0 || self.is_empty() {
             return;
         }
         let (xlo, xhi) = (self.col(qx - r), self.col(qx + r));
@@ -382,7 +382,7 @@ impl GridIndex {
     /// distance d ≤ r, in no particular order. Nothing is called when r is
     /// negative or NaN; r = 0 gives the coincident pairs.
     pub fn for_each_pair_within<F: FnMut(usize, usize, f64)>(&self, r: f64, mut f: F) {
-        if !(r >= 0.0) || self.len() < 2 {
+        if r.is_nan() || r < 0.0 || self.len() < 2 {
             return;
         }
         let reach = (r / self.cell).ceil().min(self.nx.max(self.ny) as f64) as isize;
@@ -481,8 +481,8 @@ mod tests {
         let g = GridIndex::new(x, y);
         for k in 1..=3 {
             let got = g.kth_nn_distances(k).unwrap();
-            for i in 0..x.len() {
-                assert_eq!(got[i], brute_sorted(x, y, i)[k - 1], "k={k} i={i}");
+            for (i, &gi) in got.iter().enumerate() {
+                assert_eq!(gi, brute_sorted(x, y, i)[k - 1], "k={k} i={i}");
             }
         }
         let nn = g.nearest_neighbours().unwrap();
@@ -493,7 +493,7 @@ mod tests {
         for r in [0.0, 3.0, 17.5, 60.0, 5000.0] {
             let mut got = Vec::new();
             g.for_each_pair_within(r, |i, j, d| got.push((i, j, d)));
-            got.sort_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+            got.sort_by_key(|p| (p.0, p.1));
             assert_eq!(got, brute_pairs(x, y, r), "r = {r}");
         }
     }

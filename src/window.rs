@@ -314,7 +314,7 @@ fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), Inp
         y1 = y1.max(p[1]);
     }
     let diag2 = (x1 - x0).powi(2) + (y1 - y0).powi(2);
-    if !(a2.abs() > 1e-12 * diag2) {
+    if a2.is_nan() || a2.abs() <= 1e-12 * diag2 {
         return Err(bad(format!(
             "{what} has zero area (its corners lie on one line)"
         )));
@@ -366,7 +366,7 @@ impl Window {
                 r.push(r[0]);
                 rings.push(r);
             }
-            if !(parea > 0.0) {
+            if parea.is_nan() || parea <= 0.0 {
                 return Err(bad(format!("{pname}: its holes cover all of its area")));
             }
             area += parea;
@@ -481,7 +481,7 @@ impl Window {
     }
 
     /// The convex hull of the points as a window (Andrew's monotone chain,
-    /// Andrew 1979, Inf. Process. Lett. 9:216–219 [M]).
+    /// Andrew 1979, Inf. Process. Lett. 9:216–219 (from memory)).
     ///
     /// Non-finite points are ignored. Fails (with `BadPolygon`) when fewer
     /// than 3 distinct points remain or all lie on one line.
