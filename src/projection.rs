@@ -25,10 +25,14 @@
 //! # Accuracy of distances
 //! With k₀ = 1 on the central meridian, the point scale factor grows roughly
 //! as 1 + x²/(2R²): about 1.0000012 at 10 km, 1.00012 at 100 km and 1.0011 at
-//! 300 km east or west of the centre. Planar distances are therefore longer
-//! than geodesics by at most about 0.1 % at 300 km; the measured errors are in
-//! `tests/reference/projection_reference.json` ([`Projection::scale_factor`]
-//! gives k at any point).
+//! 300 km east or west of the centre (derived here from k ≈ 1 + x²/2R²).
+//! Planar distances are therefore longer than geodesics by at most about
+//! 0.1 % at 300 km. Measured against pyproj's geodesics for 40 seeded pairs
+//! per scale around four invented centres
+//! (`tests/reference/projection_reference.json`): largest error 0.010 m
+//! (0.0001 %) for 10 km pairs, 10.5 m (0.011 %) for 100 km pairs and 319 m
+//! (0.11 %) for 300 km pairs (pairs reach up to 1.5 × the scale from the
+//! centre). [`Projection::scale_factor`] gives k at any point.
 
 use crate::input::{CoordKind, LengthUnit};
 use serde::Serialize;
