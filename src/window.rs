@@ -16,10 +16,11 @@
 //!   same way in data and simulations (METHODS §1, "boundary counts as
 //!   inside"), also for large planar coordinates such as UTM northings.
 //! * The perimeter includes the boundaries of holes (METHODS §0).
-//! * Not checked: self-intersecting rings, holes that are not inside their
-//!   exterior ring, or overlapping polygons (RFC 7946 GeoJSON forbids all
-//!   three). Overlapping polygons would have their overlap counted twice in
-//!   [`Window::area`].
+//! * Checked: every corner of a hole lies inside or on its outer ring.
+//!   Not checked: self-intersecting rings, holes that cross their outer ring
+//!   between corners or overlap each other, and overlapping polygons (RFC 7946
+//!   GeoJSON forbids all of these). Overlapping polygons would have their
+//!   overlap counted twice in [`Window::area`].
 //!
 //! # Speed
 //! The edges are kept in horizontal bands (an edge is listed in every band
@@ -225,6 +226,9 @@ impl EdgeGrid {
     }
 }
 
+/// Side (in cells) of the grid used to sample thin windows.
+const COVER_GRID: usize = 64;
+
 /// A study area: polygons with holes, in metres.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Window {
@@ -234,6 +238,9 @@ pub struct Window {
     bands: Bands,
     /// Grid of edges for distance queries (`None` for ≤ 64 edges).
     grid: Option<EdgeGrid>,
+    /// Cells of a 64 × 64 grid over the bounding box that may hold part of
+    /// the window; empty when the window fills at least 25 % of its box.
+    cover: Vec<u32>,
     area: f64,
     perimeter: f64,
     bbox: [f64; 4],
@@ -369,6 +376,18 @@ impl Window {
             if parea.is_nan() || parea <= 0.0 {
                 return Err(bad(format!("{pname}: its holes cover all of its area")));
             }
+            if rings.len() > 1 {
+                // Every corner of every hole must be inside (or on) the outer ring.
+                let outer = Self::assemble(vec![vec![rings[0].clone()]], origin, 0.0);
+                for (hi, hole) in rings.iter().enumerate().skip(1) {
+                    if let Some(p) = hole.iter().find(|p| !outer.contains(p[0], p[1])) {
+                        return Err(bad(format!(
+                            "{pname}, hole {hi}: its corner ({}, {}) lies outside the outer ring",
+                            p[0], p[1]
+                        )));
+                    }
+                }
+            }
             area += parea;
             clean.push(rings);
         }
@@ -436,17 +455,22 @@ impl Window {
             }
         }
         let grid = EdgeGrid::build(&edges, bbox);
-        Window {
+        let mut w = Window {
             polygons,
             origin,
             edges,
             bands,
             grid,
+            cover: Vec::new(),
             area,
             perimeter,
             bbox,
             tol,
+        };
+        if w.area < 0.25 * (bbox[2] - bbox[0]) * (bbox[3] - bbox[1]) {
+            w.cover = w.covering_cells(COVER_GRID);
         }
+        w
     }
 
     /// The rectangle [x0, x1] × [y0, y1] as a window (origin `File`).
@@ -626,7 +650,7 @@ impl Window {
     /// are then uniform on the window. The proposal region is the bounding box
     /// when the window fills at least a quarter of it. For thin or ragged
     /// windows (acceptance below 25 %) it is the union of the cells of a
-    /// 64 × 64 grid over the bounding box that either meet an edge's bounding
+    /// 64 × 64 grid over the bounding box (found once, when the window is built) that either meet an edge's bounding
     /// box or have their centre inside; every other cell lies wholly outside
     /// the window, so the union still covers it, and all cells have equal
     /// area, so a cell drawn uniformly and a point drawn uniformly in it is a
@@ -640,7 +664,7 @@ impl Window {
         }
         let [x0, y0, x1, y1] = self.bbox;
         let (w, h) = (x1 - x0, y1 - y0);
-        if self.area >= 0.25 * w * h {
+        if self.cover.is_empty() {
             while xs.len() < n {
                 let x = x0 + w * rng.random::<f64>();
                 let y = y0 + h * rng.random::<f64>();
@@ -651,11 +675,11 @@ impl Window {
             }
             return (xs, ys);
         }
-        let cells = self.covering_cells(64);
-        let (cw, ch) = (w / 64.0, h / 64.0);
+        let g = COVER_GRID;
+        let (cw, ch) = (w / g as f64, h / g as f64);
         while xs.len() < n {
-            let c = cells[rng.random_range(0..cells.len())];
-            let (cx, cy) = ((c % 64) as f64, (c / 64) as f64);
+            let c = self.cover[rng.random_range(0..self.cover.len())] as usize;
+            let (cx, cy) = ((c % g) as f64, (c / g) as f64);
             let x = x0 + cw * (cx + rng.random::<f64>());
             let y = y0 + ch * (cy + rng.random::<f64>());
             if self.contains(x, y) {
@@ -668,7 +692,7 @@ impl Window {
 
     /// Cells (row-major index) of a g × g grid over the bounding box that may
     /// hold part of the window (see [`Window::sample_uniform`]).
-    fn covering_cells(&self, g: usize) -> Vec<usize> {
+    fn covering_cells(&self, g: usize) -> Vec<u32> {
         let [x0, y0, x1, y1] = self.bbox;
         let (cw, ch) = ((x1 - x0) / g as f64, (y1 - y0) / g as f64);
         let cell = |v: f64, o: f64, s: f64| (((v - o) / s).floor().max(0.0) as usize).min(g - 1);
@@ -697,6 +721,7 @@ impl Window {
                         y0 + ch * ((c / g) as f64 + 0.5),
                     )
             })
+            .map(|c| c as u32)
             .collect()
     }
 }
@@ -796,6 +821,25 @@ mod tests {
         );
         assert!(e.unwrap_err().to_string().contains("corner 2"));
         assert!(Window::from_polygons(vec![], WindowOrigin::File).is_err());
+        let e = Window::from_polygons(
+            vec![vec![
+                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+                vec![[8.0, 8.0], [12.0, 8.0], [12.0, 9.0]],
+            ]],
+            WindowOrigin::File,
+        );
+        assert!(e
+            .unwrap_err()
+            .to_string()
+            .contains("hole 1: its corner (12, 9) lies outside the outer ring"));
+        let e = Window::from_polygons(
+            vec![vec![
+                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+            ]],
+            WindowOrigin::File,
+        );
+        assert!(e.unwrap_err().to_string().contains("holes cover all"));
         assert!(Window::from_polygons(vec![vec![]], WindowOrigin::File).is_err());
     }
 
