@@ -29,6 +29,19 @@
 //! none); if present they never count as near anything.
 
 /// A grid index over a fixed set of points.
+///
+/// # Examples
+/// Three points on a line and a repeated one: coincident points are each
+/// other's nearest neighbours at distance 0.
+/// ```
+/// use cloister::index::GridIndex;
+/// let g = GridIndex::new(&[0.0, 3.0, 7.0, 7.0], &[0.0, 0.0, 0.0, 0.0]);
+/// assert_eq!(g.nn_distances(), Some(vec![3.0, 3.0, 0.0, 0.0]));
+/// let mut pairs = Vec::new();
+/// g.for_each_pair_within(4.0, |i, j, d| pairs.push((i, j, d)));
+/// pairs.sort_by_key(|p| (p.0, p.1));
+/// assert_eq!(pairs, vec![(0, 1, 3.0), (1, 2, 4.0), (1, 3, 4.0), (2, 3, 0.0)]);
+/// ```
 #[derive(Debug, Clone)]
 pub struct GridIndex {
     /// Coordinates in cell order.

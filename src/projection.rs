@@ -198,6 +198,20 @@ impl Krueger {
 }
 
 /// A map from input coordinates to planar metres.
+///
+/// # Examples
+/// The centre maps to (0, 0), and a point 0.1° north lies about 11.1 km
+/// up the central meridian.
+/// ```
+/// use cloister::projection::Projection;
+/// let p = Projection::TransverseMercator { lon0: 9.0, lat0: 45.0 };
+/// let (e, n) = p.forward(9.0, 45.0);
+/// assert!(e.abs() < 1e-9 && n.abs() < 1e-9);
+/// let (e, n) = p.forward(9.0, 45.1);
+/// assert!(e.abs() < 1e-9 && (n - 11_113.0).abs() < 5.0);
+/// let (lon, lat) = p.inverse(e, n);
+/// assert!((lon - 9.0).abs() < 1e-12 && (lat - 45.1).abs() < 1e-12);
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Projection {

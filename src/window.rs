@@ -230,6 +230,24 @@ impl EdgeGrid {
 const COVER_GRID: usize = 64;
 
 /// A study area: polygons with holes, in metres.
+///
+/// # Examples
+/// The square [0, 10]² with the hole [4, 6]² (METHODS §1): area 96, the
+/// hole is outside, its edge is inside.
+/// ```
+/// use cloister::window::{Window, WindowOrigin};
+/// let w = Window::from_polygons(
+///     vec![vec![
+///         vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+///         vec![[4.0, 4.0], [6.0, 4.0], [6.0, 6.0], [4.0, 6.0]],
+///     ]],
+///     WindowOrigin::File,
+/// )
+/// .unwrap();
+/// assert_eq!(w.area(), 96.0);
+/// assert!(!w.contains(5.0, 5.0) && w.contains(4.0, 5.0));
+/// assert_eq!(w.boundary_distance(2.0, 5.0), 2.0);
+/// ```
 #[derive(Debug, Clone, PartialEq)]
 pub struct Window {
     polygons: Vec<Vec<Vec<[f64; 2]>>>,
