@@ -25,10 +25,14 @@
 //! # Accuracy of distances
 //! With k₀ = 1 on the central meridian, the point scale factor grows roughly
 //! as 1 + x²/(2R²): about 1.0000012 at 10 km, 1.00012 at 100 km and 1.0011 at
-//! 300 km east or west of the centre. Planar distances are therefore longer
-//! than geodesics by at most about 0.1 % at 300 km; the measured errors are in
-//! `tests/reference/projection_reference.json` ([`Projection::scale_factor`]
-//! gives k at any point).
+//! 300 km east or west of the centre (derived here from k ≈ 1 + x²/2R²).
+//! Planar distances are therefore longer than geodesics by at most about
+//! 0.1 % at 300 km. Measured against pyproj's geodesics for 40 seeded pairs
+//! per scale around four invented centres
+//! (`tests/reference/projection_reference.json`): largest error 0.010 m
+//! (0.0001 %) for 10 km pairs, 10.5 m (0.011 %) for 100 km pairs and 319 m
+//! (0.11 %) for 300 km pairs (pairs reach up to 1.5 × the scale from the
+//! centre). [`Projection::scale_factor`] gives k at any point.
 
 use crate::input::{CoordKind, LengthUnit};
 use serde::Serialize;
@@ -214,6 +218,20 @@ impl Krueger {
 }
 
 /// A map from input coordinates to planar metres.
+///
+/// # Examples
+/// The centre maps to (0, 0), and a point 0.1° north lies about 11.1 km
+/// up the central meridian.
+/// ```
+/// use cloister::projection::Projection;
+/// let p = Projection::TransverseMercator { lon0: 9.0, lat0: 45.0 };
+/// let (e, n) = p.forward(9.0, 45.0);
+/// assert!(e.abs() < 1e-9 && n.abs() < 1e-9);
+/// let (e, n) = p.forward(9.0, 45.1);
+/// assert!(e.abs() < 1e-9 && (n - 11_113.0).abs() < 5.0);
+/// let (lon, lat) = p.inverse(e, n);
+/// assert!((lon - 9.0).abs() < 1e-12 && (lat - 45.1).abs() < 1e-12);
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Projection {

@@ -164,7 +164,7 @@ mod geometry {
                     // Exactly on the boundary: inside by our convention and shapely's covers.
                     assert!(want && w.contains(x, y), "{name}: ({x}, {y}) on boundary");
                     on_boundary += 1;
-                } else if bd > 1e-9 {
+                } else if bd > 1e-9_f64.max(w.boundary_tolerance()) {
                     assert_eq!(w.contains(x, y), want, "{name}: contains({x}, {y})");
                     checked += 1;
                 }
