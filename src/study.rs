@@ -607,7 +607,7 @@ mod tests {
         assert_eq!(s.window.origin(), WindowOrigin::ConvexHull);
         assert_eq!(s.window.area(), 6.0);
         assert_eq!(s.events.len(), 4);
-        assert!(s.warnings[0].contains("convex hull") && s.warnings[0].contains("toward"));
+        assert!(s.warnings[0].contains("convex hull") && s.warnings[0].contains("evenly spread"));
         let s = Study::build(&ev, None, None, AreaFallback::BoundingBox).unwrap();
         assert_eq!(s.window.area(), 12.0);
         // Too few distinct points for a hull: a clear BadPolygon error.
