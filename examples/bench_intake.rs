@@ -23,7 +23,11 @@ fn make_csv(n: usize, seed: u64) -> String {
         let lat = -41.54 + 0.08 * rng.random::<f64>();
         let day = 1 + (rng.random::<f64>() * 28.0) as u32;
         let month = 1 + (rng.random::<f64>() * 12.0) as u32;
-        let cat = if rng.random::<f64>() < 0.3 { "enteric" } else { "respiratory" };
+        let cat = if rng.random::<f64>() < 0.3 {
+            "enteric"
+        } else {
+            "respiratory"
+        };
         let _ = writeln!(s, "{i},{lon:.6},{lat:.6},2025-{month:02}-{day:02},{cat}");
     }
     s
@@ -37,8 +41,15 @@ fn peak_rss_mb() -> Option<f64> {
 }
 
 fn main() {
-    let sizes: Vec<usize> = std::env::args().skip(1).filter_map(|a| a.parse().ok()).collect();
-    let sizes = if sizes.is_empty() { vec![1_000, 10_000, 100_000, 1_000_000] } else { sizes };
+    let sizes: Vec<usize> = std::env::args()
+        .skip(1)
+        .filter_map(|a| a.parse().ok())
+        .collect();
+    let sizes = if sizes.is_empty() {
+        vec![1_000, 10_000, 100_000, 1_000_000]
+    } else {
+        sizes
+    };
     for n in sizes {
         let csv = make_csv(n, 20261202);
         let bytes = csv.as_bytes();

@@ -385,18 +385,19 @@ impl Session {
     /// `"convex_hull"` or `"bounding_box"`.
     #[wasm_bindgen(js_name = setAreaFallback)]
     pub fn set_area_fallback(&mut self, kind: &str) -> Result<JsValue, JsValue> {
-        let fallback =
-            match kind {
-                "convex_hull" => AreaFallback::ConvexHull,
-                "bounding_box" => AreaFallback::BoundingBox,
-                other => return Err(js_error(
+        let fallback = match kind {
+            "convex_hull" => AreaFallback::ConvexHull,
+            "bounding_box" => AreaFallback::BoundingBox,
+            other => {
+                return Err(js_error(
                     "bad_options",
                     &format!(
                         "unknown study-area fallback \"{other}\" (use convex_hull or bounding_box)"
                     ),
                     None,
-                )),
-            };
+                ))
+            }
+        };
         let previous = self.fallback;
         self.fallback = fallback;
         match self.build(
