@@ -401,31 +401,7 @@ pub fn audit_view(
     // Interval propagation.
     let mut lo = vec![lower as i64; m];
     let mut hi = vec![INF; m];
-    for _ in 0..10_000 {
-        let mut changed = false;
-        for (h, r) in &eqs {
-            let slo: i64 = h.iter().map(|&k| lo[k]).sum();
-            let shi: i64 = h
-                .iter()
-                .map(|&k| hi[k])
-                .fold(0i64, |a, b| a.saturating_add(b));
-            for &k in h {
-                let nh = r - (slo - lo[k]);
-                if nh < hi[k] {
-                    hi[k] = nh;
-                    changed = true;
-                }
-                let others_hi = shi.saturating_sub(hi[k]);
-                if shi < INF && r - others_hi > lo[k] {
-                    lo[k] = r - others_hi;
-                    changed = true;
-                }
-            }
-        }
-        if !changed {
-            break;
-        }
-    }
+    let consistent = propagate(&eqs, &mut lo, &mut hi);
     let pinned: Vec<usize> = (0..m)
         .filter(|&k| hi[k] < INF && lo[k] >= hi[k])
         .map(|k| hidden[k])
@@ -434,7 +410,12 @@ pub fn audit_view(
         .into_iter()
         .map(|k| hidden[k])
         .collect();
-    let (exact, exact_rec, skipped) = match exact_ranges(&eqs, &lo, &hi, budget) {
+    let ranges = if consistent {
+        exact_ranges(&eqs, &lo, &hi, budget)
+    } else {
+        Err("the published totals are inconsistent with the shown counts".into())
+    };
+    let (exact, exact_rec, skipped) = match ranges {
         Ok(r) => {
             let ranges: Vec<CellRange> = (0..m)
                 .map(|k| CellRange {
@@ -520,10 +501,50 @@ fn determined_cells(eqs: &[(Vec<usize>, i64)], m: usize) -> Vec<usize> {
         .collect()
 }
 
-/// Exact feasible [min, max] of each hidden position by depth-first
-/// enumeration of all whole-number assignments within the propagated bounds.
+/// Tightens `lo`/`hi` over the equations to a fixpoint (each hidden value
+/// lies within its line's residual minus the others' bounds). Returns false
+/// when the bounds become contradictory (no whole-number solution).
+fn propagate(eqs: &[(Vec<usize>, i64)], lo: &mut [i64], hi: &mut [i64]) -> bool {
+    for _ in 0..10_000 {
+        let mut changed = false;
+        for (h, r) in eqs {
+            let slo: i64 = h.iter().map(|&k| lo[k]).sum();
+            let shi: i64 = h
+                .iter()
+                .map(|&k| hi[k])
+                .fold(0i64, |a, b| a.saturating_add(b));
+            if slo > *r || (shi < INF && shi < *r) {
+                return false;
+            }
+            for &k in h {
+                let nh = r - (slo - lo[k]);
+                if nh < hi[k] {
+                    hi[k] = nh;
+                    changed = true;
+                }
+                if shi < INF {
+                    let nl = r - (shi - hi[k]);
+                    if nl > lo[k] {
+                        lo[k] = nl;
+                        changed = true;
+                    }
+                }
+                if lo[k] > hi[k] {
+                    return false;
+                }
+            }
+        }
+        if !changed {
+            break;
+        }
+    }
+    true
+}
+
+/// Exact feasible [min, max] of each hidden position: the smallest and the
+/// largest value for which a whole-number solution of all equations exists,
+/// found by depth-first search with bound propagation at every node.
 /// Positions in no equation keep (lo, INF).
-#[allow(clippy::type_complexity)]
 fn exact_ranges(
     eqs: &[(Vec<usize>, i64)],
     lo: &[i64],
@@ -531,116 +552,97 @@ fn exact_ranges(
     budget: u64,
 ) -> Result<Vec<(i64, i64)>, String> {
     let m = lo.len();
-    let mut in_eq = vec![Vec::new(); m];
-    for (e, (h, _)) in eqs.iter().enumerate() {
+    let mut in_eq = vec![false; m];
+    for (h, _) in eqs {
         for &k in h {
-            in_eq[k].push(e);
+            in_eq[k] = true;
         }
     }
-    let order: Vec<usize> = (0..m).filter(|&k| !in_eq[k].is_empty()).collect();
-    if order.iter().any(|&k| hi[k] >= INF || hi[k] < lo[k]) {
-        if order.iter().any(|&k| hi[k] < lo[k]) {
-            return Err("the published totals are inconsistent with the shown counts".into());
-        }
+    if (0..m).any(|k| in_eq[k] && hi[k] >= INF) {
         return Err("a hidden count has no finite upper bound".into());
     }
-    let mut st = Search {
-        eqs,
-        in_eq: &in_eq,
-        lo,
-        hi,
-        order: &order,
-        assigned: vec![0; eqs.len()],
-        rem_lo: eqs
-            .iter()
-            .map(|(h, _)| h.iter().map(|&k| lo[k]).sum())
-            .collect(),
-        rem_hi: eqs
-            .iter()
-            .map(|(h, _)| h.iter().map(|&k| hi[k]).sum())
-            .collect(),
-        val: vec![0; m],
-        best: (0..m)
-            .map(|k| {
-                if in_eq[k].is_empty() {
-                    (lo[k], INF)
-                } else {
-                    (INF, -1)
-                }
-            })
-            .collect(),
-        nodes: 0,
-        budget,
-        found: false,
-    };
-    st.go(0)?;
-    if !st.found && !order.is_empty() {
-        return Err("no whole-number assignment fits the published totals".into());
+    let mut nodes = 0u64;
+    let mut out = vec![(0, INF); m];
+    for k in 0..m {
+        if !in_eq[k] {
+            out[k] = (lo[k], INF);
+            continue;
+        }
+        let mut min = None;
+        for v in lo[k]..=hi[k] {
+            if feasible_with(eqs, lo, hi, k, v, &mut nodes, budget)? {
+                min = Some(v);
+                break;
+            }
+        }
+        let Some(min) = min else {
+            return Err("no whole-number assignment fits the published totals".into());
+        };
+        let mut max = min;
+        for v in (min + 1..=hi[k]).rev() {
+            if feasible_with(eqs, lo, hi, k, v, &mut nodes, budget)? {
+                max = v;
+                break;
+            }
+        }
+        out[k] = (min, max);
     }
-    Ok(st.best)
+    Ok(out)
 }
 
-struct Search<'a> {
-    eqs: &'a [(Vec<usize>, i64)],
-    in_eq: &'a [Vec<usize>],
-    lo: &'a [i64],
-    hi: &'a [i64],
-    order: &'a [usize],
-    assigned: Vec<i64>,
-    rem_lo: Vec<i64>,
-    rem_hi: Vec<i64>,
-    val: Vec<i64>,
-    best: Vec<(i64, i64)>,
-    nodes: u64,
+fn feasible_with(
+    eqs: &[(Vec<usize>, i64)],
+    lo: &[i64],
+    hi: &[i64],
+    k: usize,
+    v: i64,
+    nodes: &mut u64,
     budget: u64,
-    found: bool,
+) -> Result<bool, String> {
+    let mut l = lo.to_vec();
+    let mut h = hi.to_vec();
+    l[k] = v;
+    h[k] = v;
+    search(eqs, &mut l, &mut h, nodes, budget)
 }
 
-impl Search<'_> {
-    fn go(&mut self, depth: usize) -> Result<(), String> {
-        if depth == self.order.len() {
-            self.found = true;
-            for &k in self.order {
-                let b = &mut self.best[k];
-                b.0 = b.0.min(self.val[k]);
-                b.1 = b.1.max(self.val[k]);
-            }
-            return Ok(());
-        }
-        let k = self.order[depth];
-        for v in self.lo[k]..=self.hi[k] {
-            self.nodes += 1;
-            if self.nodes > self.budget {
-                return Err(format!(
-                    "more than {} candidate assignments; only the linear-algebra and bound \
-                     checks ran",
-                    self.budget
-                ));
-            }
-            let mut ok = true;
-            for &e in &self.in_eq[k] {
-                self.assigned[e] += v;
-                self.rem_lo[e] -= self.lo[k];
-                self.rem_hi[e] -= self.hi[k];
-            }
-            for &e in &self.in_eq[k] {
-                let r = self.eqs[e].1;
-                if self.assigned[e] + self.rem_lo[e] > r || self.assigned[e] + self.rem_hi[e] < r {
-                    ok = false;
-                }
-            }
-            if ok {
-                self.val[k] = v;
-                self.go(depth + 1)?;
-            }
-            for &e in &self.in_eq[k] {
-                self.assigned[e] -= v;
-                self.rem_lo[e] += self.lo[k];
-                self.rem_hi[e] += self.hi[k];
-            }
-        }
-        Ok(())
+fn search(
+    eqs: &[(Vec<usize>, i64)],
+    lo: &mut [i64],
+    hi: &mut [i64],
+    nodes: &mut u64,
+    budget: u64,
+) -> Result<bool, String> {
+    *nodes += 1;
+    if *nodes > budget {
+        return Err(format!(
+            "more than {budget} search steps; only the linear-algebra and bound checks ran"
+        ));
     }
+    if !propagate(eqs, lo, hi) {
+        return Ok(false);
+    }
+    // Branch on the open cell (in some equation) with the narrowest range.
+    let open = eqs
+        .iter()
+        .flat_map(|(h, _)| h.iter().copied())
+        .filter(|&k| lo[k] < hi[k])
+        .min_by_key(|&k| (hi[k] - lo[k], k));
+    let Some(k) = open else {
+        return Ok(eqs
+            .iter()
+            .all(|(h, r)| h.iter().map(|&j| lo[j]).sum::<i64>() == *r));
+    };
+    for v in lo[k]..=hi[k] {
+        let mut l = lo.to_vec();
+        let mut h = hi.to_vec();
+        l[k] = v;
+        h[k] = v;
+        if search(eqs, &mut l, &mut h, nodes, budget)? {
+            return Ok(true);
+        }
+    }
+    Ok(false)
 }
 
 #[cfg(test)]
