@@ -83,7 +83,7 @@ impl Default for SuppressionParams {
             rate_per: 1000.0,
             rate_min_population: 100.0,
             rate_unreliable_below: 20,
-            exact_audit_budget: 2_000_000,
+            exact_audit_budget: 200_000,
         }
     }
 }
@@ -167,6 +167,10 @@ pub struct AuditReport {
 
 const INF: i64 = i64::MAX / 8;
 
+/// The exact search runs only when at most this many hidden counts appear in
+/// published totals (it is exponential in the worst case).
+pub const EXACT_MAX_HIDDEN: usize = 60;
+
 /// Applies primary and complementary suppression and audits the result.
 pub fn suppress(agg: &Aggregation, p: &SuppressionParams) -> SuppressedTable {
     let min_count = p.min_count.max(1);
@@ -190,6 +194,7 @@ pub fn suppress(agg: &Aggregation, p: &SuppressionParams) -> SuppressedTable {
         .collect();
     let lower = u64::from(!p.suppress_zeros);
     let mut guard = 0usize;
+    let mut loop_budget = p.exact_audit_budget;
     loop {
         guard += 1;
         if guard > 4 * (values.len() + lines.len()) + 8 {
@@ -216,7 +221,12 @@ pub fn suppress(agg: &Aggregation, p: &SuppressionParams) -> SuppressedTable {
             continue;
         }
         let view = view_of(&values, &hidden, &lines, &published);
-        let rep = audit_view(&view.0, &view.1, lower, p.exact_audit_budget);
+        let rep = audit_view(&view.0, &view.1, lower, loop_budget);
+        if rep.exact_skipped.is_some() {
+            // Too big once: it only grows as cells are hidden; skip it from now on
+            // (the final audit below tries once more and reports).
+            loop_budget = 0;
+        }
         let bad = rep
             .determined_by_linear_algebra
             .iter()
@@ -560,6 +570,13 @@ fn exact_ranges(
     }
     if (0..m).any(|k| in_eq[k] && hi[k] >= INF) {
         return Err("a hidden count has no finite upper bound".into());
+    }
+    let n_eq = in_eq.iter().filter(|b| **b).count();
+    if n_eq > EXACT_MAX_HIDDEN {
+        return Err(format!(
+            "{n_eq} hidden counts are tied to published totals, more than the {EXACT_MAX_HIDDEN} \
+             the exact search handles; only the linear-algebra and bound checks ran"
+        ));
     }
     let mut nodes = 0u64;
     let mut out = vec![(0, INF); m];
