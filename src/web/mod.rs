@@ -456,11 +456,16 @@ impl Session {
         set(&obj, "area", &to_js(s.window.polygons())?)?;
         set(&obj, "bbox", &to_js(&s.window.bbox())?)?;
         let sm = summary::summarise(s);
-        set(&obj, "ellipse", &to_js(&sm.ellipse_ring())?)?;
+        let ring: Vec<[f64; 2]> = sm
+            .ellipse
+            .as_ref()
+            .map(|e| e.outline_m.clone())
+            .unwrap_or_default();
+        set(&obj, "ellipse", &to_js(&ring)?)?;
         set(
             &obj,
             "mean_centre",
-            &to_js(&[sm.mean_centre.x, sm.mean_centre.y])?,
+            &to_js(&[sm.mean_centre.x_m, sm.mean_centre.y_m])?,
         )?;
         Ok(obj.into())
     }
