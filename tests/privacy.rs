@@ -107,6 +107,31 @@ fn donut_every_point_in_ring_inside_area_and_out_of_hole() {
 }
 
 #[test]
+fn donut_with_the_study_window_type() {
+    // Same property with the crate's Window (polygon with a hole) as the area.
+    use cloister::window::{Window, WindowOrigin};
+    let (area, _, _) = holed_area(1, 1);
+    let w = Window::from_polygons(area.polygons.clone(), WindowOrigin::File).unwrap();
+    let mut rng = rng_from_seed(12);
+    let (x, y) = w.sample_uniform(3000, &mut rng);
+    let p = DonutParams {
+        r_min_m: 200.0,
+        r_max_m: 900.0,
+        seed: 4,
+        ..Default::default()
+    };
+    let m = donut_mask(&x, &y, &w, &p).unwrap();
+    assert!(m.unplaced.is_empty());
+    for k in 0..m.x.len() {
+        let i = m.source[k];
+        let d = (m.x[k] - x[i]).hypot(m.y[k] - y[i]);
+        assert!((200.0 - 1e-9..900.0 + 1e-9).contains(&d));
+        assert!(w.contains(m.x[k], m.y[k]));
+        assert!(!in_hole(m.x[k], m.y[k]));
+    }
+}
+
+#[test]
 fn donut_displacements_follow_the_design_ks_test() {
     // 2000 seeded displacements far from any edge (no redraws) against the exact
     // CDF of the design; critical value for n = 2000, alpha = 0.001 from
@@ -258,18 +283,19 @@ fn kanon_reference_set_reaches_target_or_says_exactly_why_not() {
     // 3. Every event is either placed or listed, never both.
     assert_eq!(rep.masked.x.len() + rep.masked.unplaced.len(), ex.len());
     // 4. Each placed point's k, recounted by brute force, reaches the target,
-    //    lies in ring [0, r_max), inside the area and out of the lake.
+    //    lies within r_max, inside the area and out of the lake.
     for (k, &i) in rep.masked.source.iter().enumerate() {
         let (mx, my) = (rep.masked.x[k], rep.masked.y[k]);
         let d = (mx - ex[i]).hypot(my - ey[i]);
-        let d2 = (mx - ex[i]).powi(2) + (my - ey[i]).powi(2);
+        // Same distance expression as crate::index: (dx² + dy²).sqrt() ≤ d.
+        let d_true = ((mx - ex[i]).powi(2) + (my - ey[i]).powi(2)).sqrt();
         // k-anonymity mode may use the full r_max when the target needs it
         // (ring [r_lo, r_max], module docs).
         assert!(d <= r_max + 1e-9);
         let count = px
             .iter()
             .zip(&py)
-            .filter(|(a, b)| (*a - mx).powi(2) + (*b - my).powi(2) <= d2)
+            .filter(|(a, b)| ((*a - mx).powi(2) + (*b - my).powi(2)).sqrt() <= d_true)
             .count();
         assert!(count + 1 >= target, "event {i}: k = {}", count + 1);
         assert_eq!(rep.k[k] as usize, count + 1);

@@ -24,9 +24,9 @@
 //! pair. (Masking by distances up to r_max attenuates clustering at scales up
 //! to about 2·r_max: METHODS §11.)
 
-use super::grid::PointGrid;
 use super::{bad, Region};
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
@@ -142,22 +142,10 @@ pub fn summarise(x: &[f64], y: &[f64], region: &dyn Region) -> PatternSummary {
     });
     let mut mean_nn_m = None;
     let mut clark_evans_r = None;
-    if n >= 2 {
-        let b = region.bbox();
-        let area = region.area();
-        let cell = ((area.max(1.0) / n as f64).sqrt()).max(1e-6);
-        let g = PointGrid::new(
-            x,
-            y,
-            if cell.is_finite() {
-                cell
-            } else {
-                (b[2] - b[0]).max(1.0)
-            },
-        );
-        let s: f64 = (0..n).filter_map(|i| g.nearest_other(i)).sum();
-        let mean = s / n as f64;
+    if let Some(nn) = GridIndex::new(x, y).nn_distances() {
+        let mean = nn.iter().sum::<f64>() / n as f64;
         mean_nn_m = Some(mean);
+        let area = region.area();
         if area > 0.0 && area.is_finite() {
             let lambda = n as f64 / area;
             clark_evans_r = Some(mean / (0.5 / lambda.sqrt()));
@@ -235,10 +223,10 @@ pub fn normal_reference_bandwidth(x: &[f64], y: &[f64]) -> Option<f64> {
 }
 
 /// Gaussian kernel intensity (events per m²) at `(u, v)`, truncated at 4h.
-pub fn gaussian_intensity(g: &PointGrid, u: f64, v: f64, h: f64) -> f64 {
+pub fn gaussian_intensity(g: &GridIndex, u: f64, v: f64, h: f64) -> f64 {
     let mut s = 0.0;
     let c = 1.0 / (2.0 * PI * h * h);
-    g.for_each_within(u, v, 4.0 * h, |_, d2| s += (-d2 / (2.0 * h * h)).exp());
+    g.for_each_within(u, v, 4.0 * h, |_, d| s += (-d * d / (2.0 * h * h)).exp());
     c * s
 }
 
@@ -259,8 +247,8 @@ fn surface_shift(
     let cell = w.max(t) / cells as f64;
     let nx = (w / cell).ceil().max(1.0) as usize;
     let ny = (t / cell).ceil().max(1.0) as usize;
-    let go = PointGrid::new(ox, oy, 2.0 * h);
-    let gm = PointGrid::new(mx, my, 2.0 * h);
+    let go = GridIndex::new(ox, oy);
+    let gm = GridIndex::new(mx, my);
     let mut peak: f64 = 0.0;
     let mut diffs = Vec::new();
     for j in 0..ny {
@@ -337,7 +325,7 @@ mod tests {
     #[test]
     fn one_point_kernel_peak() {
         // METHODS §7 [C]: a Gaussian kernel peaks at 1/(2πh²).
-        let g = PointGrid::new(&[0.0], &[0.0], 10.0);
+        let g = GridIndex::new(&[0.0], &[0.0]);
         assert!((gaussian_intensity(&g, 0.0, 0.0, 10.0) - 0.15915494 / 100.0).abs() < 1e-10);
     }
 

@@ -63,9 +63,9 @@
 //! Grid-indexed counts: O(n·tries·m) with m layer points per disc.
 
 use super::donut::{check_radii, draw_distance, DistanceLaw};
-use super::grid::PointGrid;
 use super::{bad, MaskMethod, MaskedPoints, Region, Spread, Unplaced, UnplacedReason};
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use crate::rng::rng_from_seed;
 use rand::RngExt;
 use serde::{Deserialize, Serialize};
@@ -165,9 +165,30 @@ pub fn r_min_for_k(k: f64, density_per_km2: f64) -> f64 {
 }
 
 /// k of masked point (mx, my) for the true point (x, y) against the layer.
-pub fn k_at(grid: &PointGrid, x: f64, y: f64, mx: f64, my: f64, self_count: usize) -> usize {
+/// Distances as in [`crate::index`]: `(dx² + dy²).sqrt()`, within when `≤ d`.
+pub fn k_at(grid: &GridIndex, x: f64, y: f64, mx: f64, my: f64, self_count: usize) -> usize {
     let d = ((x - mx).powi(2) + (y - my).powi(2)).sqrt();
-    grid.count_within(mx, my, d) + self_count
+    count_within(grid, mx, my, d) + self_count
+}
+
+fn count_within(grid: &GridIndex, x: f64, y: f64, r: f64) -> usize {
+    let mut n = 0;
+    grid.for_each_within(x, y, r, |_, _| n += 1);
+    n
+}
+
+/// Distance to the `k`-th nearest layer point if it lies within `r_max`.
+fn kth_distance_within(grid: &GridIndex, x: f64, y: f64, k: usize, r_max: f64) -> Option<f64> {
+    if k == 0 {
+        return Some(0.0);
+    }
+    let mut d = Vec::new();
+    grid.for_each_within(x, y, r_max, |_, v| d.push(v));
+    if d.len() < k {
+        return None;
+    }
+    d.sort_by(|a, b| a.total_cmp(b));
+    Some(d[k - 1])
 }
 
 /// Masks points so each reaches a spatial k-anonymity target. `population`
@@ -208,7 +229,7 @@ fn population_mode(
     region: &dyn Region,
     p: &KAnonParams,
 ) -> KAnonReport {
-    let grid = PointGrid::new(px, py, (p.r_max_m / 4.0).max(1.0));
+    let grid = GridIndex::new(px, py);
     let self_count = usize::from(!p.population_contains_events);
     let need_layer = p.target_k.saturating_sub(self_count);
     let mut rng = rng_from_seed(p.seed);
@@ -231,7 +252,7 @@ fn population_mode(
     let mut below = Vec::new();
     for i in 0..x.len() {
         let reach = 2.0 * p.r_max_m;
-        let found = grid.count_within(x[i], y[i], reach);
+        let found = count_within(&grid, x[i], y[i], reach);
         if found + self_count < p.target_k {
             m.unplaced.push(Unplaced {
                 index: i,
@@ -243,9 +264,8 @@ fn population_mode(
             });
             continue;
         }
-        let rho = grid
-            .kth_distance_within(x[i], y[i], need_layer, p.r_max_m)
-            .unwrap_or(p.r_max_m);
+        let rho =
+            kth_distance_within(&grid, x[i], y[i], need_layer, p.r_max_m).unwrap_or(p.r_max_m);
         let r_lo = p.r_min_m.max(rho).min(p.r_max_m);
         let mut best: Option<(usize, f64, f64, f64)> = None;
         let mut accepted = None;

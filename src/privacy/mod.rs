@@ -37,13 +37,13 @@
 //!   points lets an attacker average the copies back towards the true
 //!   locations (Cassa, Wieland & Mandl 2008, *Int J Health Geogr* 7:45).
 //!
-//! All coordinates are planar metres (see [`crate::projection`]).
+//! All coordinates are planar metres (see [`crate::projection`]). Distances
+//! follow [`crate::index`]: `(dx² + dy²).sqrt() ≤ r` counts as within r.
 
 pub mod aggregate;
 pub mod cost;
 pub mod donut;
 pub mod export;
-pub mod grid;
 pub mod kanon;
 pub mod suppress;
 
