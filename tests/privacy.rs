@@ -787,3 +787,88 @@ fn masking_weakens_tight_clusters() {
     let s = c.surface.unwrap();
     assert!(s.max_abs_diff_rel > 0.0 && s.mean_abs_diff_rel < s.max_abs_diff_rel);
 }
+
+#[test]
+fn zones_rates_and_group_totals() {
+    use cloister::privacy::aggregate::{aggregate_zones, Zone};
+    // Invented zones; counts (population): group a: 3 (50), 12 (500), 25 (2000);
+    // group b: 7 (800), 2 (1200), 40 (90); no group: 15 (1000).
+    let spec: [(u64, f64, Option<&str>); 7] = [
+        (3, 50.0, Some("a")),
+        (12, 500.0, Some("a")),
+        (25, 2000.0, Some("a")),
+        (7, 800.0, Some("b")),
+        (2, 1200.0, Some("b")),
+        (40, 90.0, Some("b")),
+        (15, 1000.0, None),
+    ];
+    let mut zones = vec![];
+    let (mut x, mut y) = (vec![], vec![]);
+    for (i, (n, pop, g)) in spec.iter().enumerate() {
+        let x0 = i as f64 * 100.0;
+        zones.push(Zone {
+            name: format!("zone {}", i + 1),
+            polygons: PolygonArea::rectangle(x0, 0.0, x0 + 100.0, 100.0).polygons,
+            population: Some(*pop),
+            group: g.map(str::to_string),
+        });
+        for _ in 0..*n {
+            x.push(x0 + 50.0);
+            y.push(50.0);
+        }
+    }
+    let agg = aggregate_zones(&x, &y, &zones, None).unwrap();
+    assert_eq!(agg.lines.len(), 3); // groups a, b and the grand total
+    let t = suppress(&agg, &SuppressionParams::default());
+    let counts: Vec<Option<u64>> = t.cells.iter().map(|c| c.count).collect();
+    // Primary: 3 and 2; complements: the smallest shown nonzero in each group.
+    assert_eq!(
+        counts,
+        [None, None, Some(25), None, None, Some(40), Some(15)],
+        "{:?}",
+        t.cells.iter().map(|c| c.hidden).collect::<Vec<_>>()
+    );
+    assert!(t.audit.safe);
+    assert!(t
+        .audit
+        .exact
+        .as_ref()
+        .unwrap()
+        .iter()
+        .all(|r| r.hi != Some(r.lo)));
+    // Rates per 1000 (common practice thresholds, METHODS §11 [CP]): shown only
+    // for shown counts with population ≥ 100; unreliable below 20 events.
+    let rates: Vec<Option<f64>> = t.cells.iter().map(|c| c.rate).collect();
+    assert_eq!(
+        rates,
+        [None, None, Some(12.5), None, None, None, Some(15.0)]
+    );
+    assert!(!t.cells[2].rate_unreliable && t.cells[6].rate_unreliable);
+    // Group and grand totals are published.
+    let totals: Vec<Option<u64>> = t.lines.iter().map(|l| l.total).collect();
+    assert_eq!(totals, [Some(40), Some(49), Some(104)]);
+}
+
+#[test]
+fn hexagon_counts_suppressed_safely() {
+    use cloister::privacy::aggregate::{CellShape, HexOrientation, LineKind};
+    let (area, x, y) = holed_area(400, 21);
+    for orientation in [HexOrientation::PointyTop, HexOrientation::FlatTop] {
+        let p = AggregateParams {
+            shape: CellShape::Hexagon,
+            cell_size_m: 1500.0,
+            orientation,
+            origin: None,
+        };
+        let agg = aggregate_grid(&x, &y, &area, &area.polygons[0][0], None, &p).unwrap();
+        assert_eq!(agg.cells.iter().map(|c| c.count).sum::<u64>(), 400);
+        assert_eq!(agg.outside, 0);
+        let t = suppress(&agg, &SuppressionParams::default());
+        assert!(t.audit.safe, "{orientation:?}: {:?}", t.audit);
+        for l in t.lines.iter().filter(|l| l.total.is_some()) {
+            let hidden = l.cells.iter().filter(|&&c| t.cells[c].suppressed).count();
+            assert_ne!(hidden, 1, "{}", l.name);
+        }
+        assert!(t.lines.iter().any(|l| l.kind == LineKind::Row));
+    }
+}

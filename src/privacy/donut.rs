@@ -187,6 +187,7 @@ pub fn donut_mask(
         displacement_m: Vec::with_capacity(x.len()),
         displacement: None,
         unplaced: Vec::new(),
+        notes: Vec::new(),
     };
     for i in 0..x.len() {
         let mut placed = false;

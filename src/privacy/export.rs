@@ -149,7 +149,8 @@ const TABLE_FIELDS: [&str; 8] = [
 fn cautions(content: &ExportContent) -> Vec<String> {
     let mut c = Vec::new();
     match content {
-        ExportContent::MaskedPoints(_) => {
+        ExportContent::MaskedPoints(m) => {
+            c.extend(m.notes.iter().cloned());
             c.push(
                 "Mask once: never publish a second, differently masked copy of these points; \
                  averaging copies moves them back towards the true locations."

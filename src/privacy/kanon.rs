@@ -314,6 +314,14 @@ fn population_mode(
         }
     }
     m.displacement = Spread::of(&m.displacement_m);
+    if !below.is_empty() {
+        m.notes.push(format!(
+            "{} of these points did not reach the k-anonymity target of {} and were kept \
+             at their best masked location",
+            below.len(),
+            p.target_k
+        ));
+    }
     let k_summary = summarise_k(&ks, p.target_k);
     KAnonReport {
         masked: m,
@@ -374,6 +382,12 @@ fn density_mode(
         keep_below_target: p.keep_below_target,
         r_min_used_m: Some(r_lo),
     });
+    m.notes.push(format!(
+        "k-anonymity of {} is expected under a uniform density of {dens} addresses per km², \
+         not counted against addresses; where housing is uneven this over-states protection \
+         (Allshouse et al. 2010)",
+        p.target_k
+    ));
     let ks: Vec<f64> = m
         .displacement_m
         .iter()
@@ -401,6 +415,7 @@ fn empty_masked(method: MaskMethod, seed: u64, n: usize) -> MaskedPoints {
         displacement_m: Vec::new(),
         displacement: None,
         unplaced: Vec::new(),
+        notes: Vec::new(),
     }
 }
 

@@ -386,6 +386,9 @@ pub struct MaskedPoints {
     pub displacement: Option<Spread>,
     /// Points left out, with reasons.
     pub unplaced: Vec<Unplaced>,
+    /// Plain-words notes that travel into export cautions (e.g. points kept
+    /// below the k target, k estimated from a uniform density).
+    pub notes: Vec<String>,
 }
 
 /// How the points were masked (echoed into export metadata).
