@@ -15,7 +15,7 @@
 //!   cells inside the area, divided by the original surface's peak.
 //!   Default h: σ̂·n^(−1/6) with σ̂ = √((s_x² + s_y²)/2) of the original
 //!   (Silverman/Scott normal reference in 2-D, single isotropic h: METHODS §7
-//!   [CP]).
+//!   \[CP\]).
 //!
 //! # Extension point: K/L curves
 //! [`MaskingCost::l_curves`] is empty here. When the distance module lands,

@@ -51,7 +51,7 @@ pub enum DistanceLaw {
     #[default]
     AreaUniform,
     /// Uniform in distance: d ~ U(r_min, r_max), the common description of
-    /// the method (METHODS §11 [M]). Mean for (100, 500) m: 300 m.
+    /// the method (METHODS §11 \[M\]). Mean for (100, 500) m: 300 m.
     DistanceUniform,
 }
 

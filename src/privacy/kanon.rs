@@ -1,7 +1,7 @@
 //! Masking to a spatial k-anonymity target.
 //!
 //! Spatial k-anonymity of a masked point x′ whose true location is x (METHODS
-//! §11 operational definition [M/CP], after Sweeney 2002 and its spatial use
+//! §11 operational definition \[M/CP\], after Sweeney 2002 and its spatial use
 //! in Hampton et al. 2010):
 //!
 //! k = #{candidate addresses h : ‖h − x′‖ ≤ ‖x − x′‖},
@@ -14,11 +14,11 @@
 //! from a uniform density over-states protection where housing is uneven, and
 //! suggested tripling the minimum displacement area. So k is computed against
 //! a population layer (addresses, controls) when one is loaded; otherwise
-//! against a user-given uniform residential density D, where E[k] ≈ D·π·d² and
+//! against a user-given uniform residential density D, where E\[k\] ≈ D·π·d² and
 //! the minimum displacement is r_min = √(k/(π·D)).
 //!
 //! # Parameters ([`KAnonParams`])
-//! * `target_k` (default 20 [CP example, no source]); `r_min_m` (a floor,
+//! * `target_k` (default 20 \[CP example, no source\]); `r_min_m` (a floor,
 //!   default 0) and `r_max_m` (default 1000 m); `law`, `seed`, `max_tries`.
 //! * `density_per_km2`: used only when no population layer is given.
 //! * `area_factor`: multiplies the displacement *area* in density mode

@@ -16,7 +16,7 @@
 //!   (spatial k-anonymity; Allshouse et al. 2010).
 //! * [`aggregate`]: counts per square or hexagonal cell, or per zone, with
 //!   population and rates.
-//! * [`suppress`]: small-count suppression, complementary suppression so no
+//! * [`suppress`](mod@suppress): small-count suppression, complementary suppression so no
 //!   hidden count can be recovered from the totals, and an audit that checks it.
 //! * [`cost`]: the same summaries on the original and the masked points, side by
 //!   side (nearest-neighbour distances, Clark–Evans R, centre, spread, how far
