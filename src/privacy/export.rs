@@ -314,7 +314,15 @@ fn metadata(
                     "counts_hidden_from": 1,
                     "counts_hidden_to": p.min_count.max(1) - 1,
                     "zeros_hidden": p.suppress_zeros,
-                    "complementary": "no published total has exactly one hidden cell; no hidden count follows from the totals (checked)",
+                    "complementary": "further counts hidden so that no published total has exactly one hidden count",
+                    "audit": {
+                        "no_recovery_found": t.audit.safe,
+                        "checks": if t.audit.exact.is_some() {
+                            "single totals, linear combinations of totals, bounds, exhaustive whole-number search"
+                        } else {
+                            "single totals, linear combinations of totals, bounds (table too large for the exhaustive search)"
+                        },
+                    },
                     "rate_per": p.rate_per,
                     "rate_min_population": p.rate_min_population,
                     "rate_unreliable_below_count": p.rate_unreliable_below,
