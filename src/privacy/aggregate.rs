@@ -173,9 +173,9 @@ pub fn hex_index(x: f64, y: f64, r: f64, o: HexOrientation) -> (i64, i64) {
     let (aq, ar) = (rq as i64, rs as i64);
     match o {
         // odd-r offset: rows are axial r
-        HexOrientation::PointyTop => (ar, aq + (ar - (ar & 1)) / 2),
+        HexOrientation::PointyTop => (ar, aq.saturating_add((ar - (ar & 1)) / 2)),
         // odd-q offset: columns are axial q
-        HexOrientation::FlatTop => (ar + (aq - (aq & 1)) / 2, aq),
+        HexOrientation::FlatTop => (ar.saturating_add((aq - (aq & 1)) / 2), aq),
     }
 }
 
@@ -306,13 +306,13 @@ pub fn aggregate_grid(
         extend(locate(a, c));
     }
     if p.shape == CellShape::Hexagon {
-        r0 -= 1;
-        r1 += 1;
-        c0 -= 1;
-        c1 += 1;
+        r0 = r0.saturating_sub(1);
+        r1 = r1.saturating_add(1);
+        c0 = c0.saturating_sub(1);
+        c1 = c1.saturating_add(1);
     }
-    let rows = (r1 - r0 + 1) as usize;
-    let cols = (c1 - c0 + 1) as usize;
+    let span = |a: i64, b: i64| (b as i128 - a as i128 + 1).clamp(0, usize::MAX as i128) as usize;
+    let (rows, cols) = (span(r0, r1), span(c0, c1));
     if rows.saturating_mul(cols) > MAX_CELLS {
         return Err(bad(
             "cell size",
@@ -564,6 +564,37 @@ mod tests {
         }
         let c11 = a.cells.iter().find(|c| c.id == "r0c1").unwrap();
         assert_eq!(c11.count, 2);
+    }
+
+    #[test]
+    fn grid_edge_cases_are_errors_not_panics() {
+        let huge = PolygonArea::rectangle(-1e300, -1e300, 1e300, 1e300);
+        for shape in [CellShape::Square, CellShape::Hexagon] {
+            let p = AggregateParams {
+                shape,
+                cell_size_m: 1.0,
+                ..Default::default()
+            };
+            assert!(aggregate_grid(&[], &[], &huge, &[], None, &p).is_err());
+            let zero = AggregateParams {
+                cell_size_m: 0.0,
+                ..p
+            };
+            let small = PolygonArea::rectangle(0.0, 0.0, 10.0, 10.0);
+            assert!(aggregate_grid(&[], &[], &small, &[], None, &zero).is_err());
+            let a = aggregate_grid(&[], &[], &small, &[], None, &p).unwrap();
+            assert_eq!(a.total, 0);
+            assert!(a.cells.iter().all(|c| c.count == 0));
+        }
+        assert!(aggregate_grid(
+            &[f64::NAN],
+            &[0.0],
+            &PolygonArea::rectangle(0.0, 0.0, 1.0, 1.0),
+            &[],
+            None,
+            &AggregateParams::default()
+        )
+        .is_err());
     }
 
     #[test]

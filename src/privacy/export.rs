@@ -422,20 +422,18 @@ pub fn export(
                 };
                 s.push_str(&format!("# {k}: {}\n", val.replace('\n', " ")));
             }
-            match pts {
-                Some(pts) => {
+            match (pts, content) {
+                (Some(pts), _) => {
                     s.push_str(&format!("{cx},{cy}\n"));
                     for (x, y) in pts {
                         let (a, b) = project(x, y)?;
                         s.push_str(&format!("{},{}\n", fmt(a, d), fmt(b, d)));
                     }
                 }
-                None => {
-                    let ExportContent::Table(t) = content else {
-                        unreachable!()
-                    };
+                (None, ExportContent::Table(t)) => {
                     table_csv(&mut s, t, &project, d, cx, cy)?;
                 }
+                (None, _) => {}
             }
             s
         }
@@ -447,8 +445,8 @@ pub fn export(
             }
             fc.insert("metadata".into(), Value::Object(meta));
             let mut feats = Vec::new();
-            match pts {
-                Some(pts) => {
+            match (pts, content) {
+                (Some(pts), _) => {
                     for (x, y) in pts {
                         let (a, b) = project(x, y)?;
                         feats.push(json!({
@@ -458,10 +456,7 @@ pub fn export(
                         }));
                     }
                 }
-                None => {
-                    let ExportContent::Table(t) = content else {
-                        unreachable!()
-                    };
+                (None, ExportContent::Table(t)) => {
                     for c in exported_cells(t) {
                         let mut polys = Vec::new();
                         for poly in &c.geometry {
@@ -509,6 +504,7 @@ pub fn export(
                     );
                     fc.insert("outside".into(), json!(t.outside));
                 }
+                (None, _) => {}
             }
             fc.insert("features".into(), Value::Array(feats));
             serde_json::to_string_pretty(&Value::Object(fc))

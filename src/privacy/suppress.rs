@@ -376,7 +376,8 @@ pub fn audit(table: &SuppressedTable) -> AuditReport {
 
 /// Audits the attacker's view: `shown[c]` is `None` for hidden cells; each
 /// line is (cells, published total or `None`); hidden counts are known to be
-/// whole numbers ≥ `lower`; the exact enumeration visits at most `budget` nodes.
+/// whole numbers ≥ `lower`; the exact search takes at most `budget` steps.
+/// Lines naming a cell index ≥ `shown.len()` are ignored.
 pub fn audit_view(
     shown: &[Option<u64>],
     lines: &[(Vec<usize>, Option<u64>)],
@@ -393,6 +394,10 @@ pub fn audit_view(
     let mut one_hidden = Vec::new();
     for (li, (cells, total)) in lines.iter().enumerate() {
         let Some(t) = total else { continue };
+        if cells.iter().any(|&c| c >= shown.len()) {
+            // A line naming a cell that does not exist cannot be checked.
+            continue;
+        }
         let h: Vec<usize> = cells
             .iter()
             .filter(|&&c| shown[c].is_none())
