@@ -729,6 +729,32 @@ fn what_leaves_matches_the_file() {
     for k in &f.preview.metadata_keys {
         assert!(f.text.contains(&format!("# {k}: ")), "{k}");
     }
+    assert!(!f.preview.contains_original_coordinates && f.preview.label.is_none());
+    assert_eq!(f.preview.points_left_out, m.unplaced.len());
+    let gj = ExportOptions {
+        format: ExportFormat::GeoJson,
+        ..opts.clone()
+    };
+    for content in [
+        ExportContent::MaskedPoints(&m),
+        ExportContent::UnmaskedInternal { x: &x, y: &y },
+    ] {
+        let g = export(&content, &gj, None).unwrap();
+        let v: Value = serde_json::from_str(&g.text).unwrap();
+        assert_eq!(v["type"], "FeatureCollection");
+        assert_eq!(v["features"].as_array().unwrap().len(), g.preview.rows);
+        let meta = v["metadata"].as_object().unwrap();
+        let mut keys: Vec<&String> = meta.keys().collect();
+        keys.sort();
+        let mut want: Vec<&String> = g.preview.metadata_keys.iter().collect();
+        want.sort();
+        assert_eq!(keys, want);
+        assert!(!meta.contains_key("seed"));
+        assert_eq!(
+            v["label"].as_str() == Some("unmasked, internal use only"),
+            g.preview.contains_original_coordinates
+        );
+    }
     let agg = aggregate_grid(&x, &y, &area, &[], None, &AggregateParams::default()).unwrap();
     let t = suppress(&agg, &SuppressionParams::default());
     let f = export(&ExportContent::Table(&t), &opts, None).unwrap();

@@ -160,6 +160,13 @@ pub struct KAnonReport {
 
 /// r_min = √(k/(π·D)) for a uniform density `density_per_km2` (METHODS §11;
 /// D = 1000/km², k = 50 → 126.16 m).
+///
+/// ```
+/// use cloister::privacy::kanon::r_min_for_k;
+/// assert!((r_min_for_k(50.0, 1000.0) - 126.16).abs() < 0.005);
+/// // Allshouse et al. (2010): triple the area, i.e. × √3.
+/// assert!((r_min_for_k(3.0 * 50.0, 1000.0) - 218.51).abs() < 0.005);
+/// ```
 pub fn r_min_for_k(k: f64, density_per_km2: f64) -> f64 {
     (k / (PI * density_per_km2 / 1e6)).sqrt()
 }

@@ -172,6 +172,32 @@ const INF: i64 = i64::MAX / 8;
 pub const EXACT_MAX_HIDDEN: usize = 60;
 
 /// Applies primary and complementary suppression and audits the result.
+///
+/// Four zones with counts 3, 9, 12, 30 and the grand total published: the 3
+/// is hidden, and so is the 9, or the total would give the 3 back.
+/// ```
+/// use cloister::privacy::aggregate::{aggregate_zones, Zone};
+/// use cloister::privacy::{suppress, PolygonArea, SuppressionParams};
+/// let zones: Vec<Zone> = (0..4)
+///     .map(|i| Zone {
+///         name: format!("z{i}"),
+///         polygons: PolygonArea::rectangle(i as f64, 0.0, i as f64 + 1.0, 1.0).polygons,
+///         population: None,
+///         group: None,
+///     })
+///     .collect();
+/// let (mut x, mut y) = (vec![], vec![]);
+/// for (i, n) in [3, 9, 12, 30].into_iter().enumerate() {
+///     x.extend(std::iter::repeat(i as f64 + 0.5).take(n));
+///     y.extend(std::iter::repeat(0.5).take(n));
+/// }
+/// let agg = aggregate_zones(&x, &y, &zones, None).unwrap();
+/// let t = suppress(&agg, &SuppressionParams::default());
+/// let shown: Vec<Option<u64>> = t.cells.iter().map(|c| c.count).collect();
+/// assert_eq!(shown, [None, None, Some(12), Some(30)]);
+/// assert_eq!(t.lines[0].total, Some(54));
+/// assert!(t.audit.safe);
+/// ```
 pub fn suppress(agg: &Aggregation, p: &SuppressionParams) -> SuppressedTable {
     let min_count = p.min_count.max(1);
     let values: Vec<u64> = agg.cells.iter().map(|c| c.count).collect();
