@@ -476,6 +476,20 @@ mod tests {
         };
         let e = kanon_mask(&[5000.0], &[5000.0], None, &area, &p2).unwrap_err();
         assert!(e.to_string().contains("126.2"));
+        // Allshouse et al. (2010): tripled area → r_min × √3 = 218.51 m.
+        let p4 = KAnonParams {
+            area_factor: 3.0,
+            ..p
+        };
+        let r4 = kanon_mask(&[5000.0; 20], &[5000.0; 20], None, &area, &p4).unwrap();
+        assert!(r4.masked.displacement_m.iter().all(|&d| d >= 218.50));
+        match r4.masked.method {
+            MaskMethod::KAnonymity(s) => {
+                assert!((s.r_min_used_m.unwrap() - 218.51).abs() < 0.005)
+            }
+            _ => panic!("wrong method"),
+        }
+        assert!(!r4.masked.notes.is_empty());
         let p3 = KAnonParams {
             density_per_km2: None,
             ..p
