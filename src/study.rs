@@ -362,9 +362,11 @@ impl Study {
                 };
                 warnings.push(format!(
                     "No study-area file was given, so the study area is {shape}. An area drawn \
-                     around the points understates the space where events could have happened, \
-                     which biases clustering tests toward finding clustering (or hides \
-                     regularity); give the true study area if you have it."
+                     around the points is not the space where events could have happened, so \
+                     every comparison with chance is biased: a tight hull overstates the \
+                     intensity and makes events look more evenly spread than they are, while a \
+                     rectangle can take in empty corners and make them look more clustered. \
+                     Give the true study area if you have it."
                 ));
                 w
             }

@@ -195,6 +195,8 @@ pub struct Session {
     area: Option<RawArea>,
     fallback: AreaFallback,
     study: Option<Study>,
+    /// The summary of `study`, computed on first request.
+    summary: Option<summary::Summary>,
 }
 
 impl Default for Session {
@@ -215,6 +217,25 @@ impl Session {
             Some(ev) => Study::build(ev, area, controls, self.fallback).map(Some),
             None => Ok(None),
         }
+    }
+
+    fn set_study(&mut self, study: Option<Study>) {
+        self.study = study;
+        self.summary = None;
+    }
+
+    /// The summary of the current study, computed once per study.
+    fn summary_ref(&mut self) -> Result<&summary::Summary, JsValue> {
+        if self.summary.is_none() {
+            let s = self
+                .study
+                .as_ref()
+                .ok_or_else(|| nothing_loaded("an events file"))?;
+            self.summary = Some(summary::summarise(s));
+        }
+        self.summary
+            .as_ref()
+            .ok_or_else(|| nothing_loaded("an events file"))
     }
 
     fn study_ref(&self) -> Result<&Study, JsValue> {
@@ -302,6 +323,7 @@ impl Session {
             area: None,
             fallback: AreaFallback::default(),
             study: None,
+            summary: None,
         }
     }
 
@@ -314,7 +336,7 @@ impl Session {
         let study = self
             .build(Some(&layer), self.area.as_ref(), self.controls.as_ref())
             .map_err(|e| Self::layer_failure(&e, &layer))?;
-        self.study = study;
+        self.set_study(study);
         self.events = Some(layer);
         match &self.events {
             Some(l) => self.report("events", l),
@@ -337,7 +359,7 @@ impl Session {
             .build(self.events.as_ref(), self.area.as_ref(), Some(&layer))
             .map_err(|e| Self::layer_failure(&e, &layer))?;
         if study.is_some() {
-            self.study = study;
+            self.set_study(study);
         }
         self.controls = Some(layer);
         match &self.controls {
@@ -352,7 +374,7 @@ impl Session {
         let study = self
             .build(self.events.as_ref(), self.area.as_ref(), None)
             .map_err(|e| input_error(&e))?;
-        self.study = study;
+        self.set_study(study);
         self.controls = None;
         self.study_js()
     }
@@ -365,7 +387,7 @@ impl Session {
         let study = self
             .build(self.events.as_ref(), Some(&area), self.controls.as_ref())
             .map_err(|e| input_error(&e))?;
-        self.study = study;
+        self.set_study(study);
         self.area = Some(area);
         self.study_js()
     }
@@ -376,7 +398,7 @@ impl Session {
         let study = self
             .build(self.events.as_ref(), None, self.controls.as_ref())
             .map_err(|e| input_error(&e))?;
-        self.study = study;
+        self.set_study(study);
         self.area = None;
         self.study_js()
     }
@@ -406,7 +428,7 @@ impl Session {
             self.controls.as_ref(),
         ) {
             Ok(study) => {
-                self.study = study;
+                self.set_study(study);
                 self.study_js()
             }
             Err(e) => {
@@ -429,14 +451,22 @@ impl Session {
     }
 
     /// Descriptive summary of the events.
-    pub fn summary(&self) -> Result<JsValue, JsValue> {
-        let s = self.study_ref()?;
-        to_js(&summary::summarise(s))
+    pub fn summary(&mut self) -> Result<JsValue, JsValue> {
+        to_js(self.summary_ref()?)
     }
 
     /// Geometry for the map, in planar metres.
     #[wasm_bindgen(js_name = mapLayers)]
-    pub fn map_layers(&self) -> Result<JsValue, JsValue> {
+    pub fn map_layers(&mut self) -> Result<JsValue, JsValue> {
+        let (ring, centre) = {
+            let sm = self.summary_ref()?;
+            let ring: Vec<[f64; 2]> = sm
+                .ellipse
+                .as_ref()
+                .map(|e| e.outline_m.clone())
+                .unwrap_or_default();
+            (ring, [sm.mean_centre.x_m, sm.mean_centre.y_m])
+        };
         let s = self.study_ref()?;
         let obj = Object::new();
         set(
@@ -455,18 +485,8 @@ impl Session {
         }
         set(&obj, "area", &to_js(s.window.polygons())?)?;
         set(&obj, "bbox", &to_js(&s.window.bbox())?)?;
-        let sm = summary::summarise(s);
-        let ring: Vec<[f64; 2]> = sm
-            .ellipse
-            .as_ref()
-            .map(|e| e.outline_m.clone())
-            .unwrap_or_default();
         set(&obj, "ellipse", &to_js(&ring)?)?;
-        set(
-            &obj,
-            "mean_centre",
-            &to_js(&[sm.mean_centre.x_m, sm.mean_centre.y_m])?,
-        )?;
+        set(&obj, "mean_centre", &to_js(&centre)?)?;
         Ok(obj.into())
     }
 
