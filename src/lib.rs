@@ -29,6 +29,9 @@
 //!   ellipse, nearest-neighbour distances, time span, categories).
 //! * Is it clustered, and at what distances? → [`distance`] (CSR simulation,
 //!   quadrats, Clark–Evans, G/F/J/K/L/g, Monte Carlo envelopes).
+//! * Can this be shared? → [`privacy`] (donut masking, k-anonymity masking,
+//!   cell and zone counts with small-count and complementary suppression,
+//!   the cost of masking, CSV/GeoJSON exports with a preview of what leaves).
 //! * How is it drawn? → [`plot`] (charts generic over a plotters backend).
 
 #![forbid(unsafe_code)]
@@ -38,6 +41,7 @@ pub mod error;
 pub mod index;
 pub mod input;
 pub mod plot;
+pub mod privacy;
 pub mod projection;
 pub mod rng;
 pub mod study;
