@@ -15,7 +15,7 @@
 // confuse the script block), if the glue does not define wasm_bindgen, or if the
 // Content-Security-Policy meta tag is missing or comes after a script.
 
-import { readFileSync, writeFileSync, mkdirSync, existsSync } from 'node:fs';
+import { readFileSync, writeFileSync, mkdirSync, existsSync, readdirSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
@@ -76,6 +76,19 @@ function build(opts) {
   if (wasm.subarray(0, 4).toString('binary') !== '\0asm') fail('cloister_bg.wasm is not a wasm module');
   if (css.toLowerCase().includes('</style')) fail('style.css contains "</style"');
 
+  // Analysis panels: www/analyses/*.js after main.js (they use window.Cloister),
+  // and www/analyses/*.css after style.css, each in name order.
+  const analysesDir = join(opts.www, 'analyses');
+  const analysisFiles = existsSync(analysesDir) ? readdirSync(analysesDir).sort() : [];
+  const analysisJs = analysisFiles.filter((f) => f.endsWith('.js'))
+    .map((f) => ({ f, text: read(join(analysesDir, f), `analysis script ${f}`).toString('utf8') }));
+  let allCss = css;
+  for (const f of analysisFiles.filter((f) => f.endsWith('.css'))) {
+    const text = read(join(analysesDir, f), `analysis style ${f}`).toString('utf8');
+    if (text.toLowerCase().includes('</style')) fail(`${f} contains "</style"`);
+    allCss += `\n/* ${f} */\n${text}`;
+  }
+
   const blocks = [];
   blocks.push(`<script type="application/octet-stream" id="cloister-wasm">${wasm.toString('base64')}</script>`);
   for (const d of DEMO_FILES) {
@@ -87,12 +100,13 @@ function build(opts) {
   blocks.push(`<script type="text/plain" id="cloister-worker-src">${checkInline(workerJs, 'worker.js')}</script>`);
   blocks.push(`<script>${checkInline(mapJs, 'map.js')}</script>`);
   blocks.push(`<script>${checkInline(mainJs, 'main.js')}</script>`);
+  for (const { f, text } of analysisJs) blocks.push(`<script>${checkInline(text, f)}</script>`);
 
   const styleMarker = '<!-- INLINE:style -->';
   const scriptMarker = '<!-- INLINE:scripts -->';
   if (!html.includes(styleMarker) || !html.includes(scriptMarker)) fail('index.html lacks the INLINE markers');
   if (/<script[\s>]/i.test(html)) fail('index.html must not contain scripts of its own');
-  let out = html.replace(styleMarker, () => `<style>\n${css}</style>`);
+  let out = html.replace(styleMarker, () => `<style>\n${allCss}</style>`);
   out = out.replace(scriptMarker, () => blocks.join('\n'));
 
   const cspAt = out.indexOf(`content="${CSP}"`);

@@ -31,6 +31,7 @@
   };
 
   let map = null;
+  const snapshotListeners = [];
 
   // ---------- small helpers ----------
 
@@ -189,10 +190,11 @@
   }
 
   /** Sends one request to the worker now. */
-  function post(method, args) {
+  function post(method, args, onProgress, onId) {
     return new Promise((resolve, reject) => {
       const id = state.nextId++;
-      state.pending.set(id, { resolve, reject, method });
+      if (onId) onId(id);
+      state.pending.set(id, { resolve, reject, method, onProgress });
       updateProgress();
       try {
         state.worker.postMessage({ id, method, args });
@@ -210,10 +212,31 @@
     return post(method, args);
   }
 
+  /** Runs a long job in the worker ({start, step, finish, params}: Session
+   * method names). Returns {promise, cancel}; onProgress({done, total}) is
+   * called after every batch. A cancelled job rejects with code 'cancelled'. */
+  function runJob(spec, onProgress) {
+    let jobId = null;
+    let cancelled = false;
+    const promise = (async () => {
+      if (state.engineReady) await state.engineReady;
+      return post('runJob', [spec], onProgress, (id) => { jobId = id; if (cancelled) state.worker.postMessage({ id: -1, method: 'cancel', args: [id] }); });
+    })();
+    const cancel = () => {
+      cancelled = true;
+      if (jobId !== null && state.worker) state.worker.postMessage({ id: -1, method: 'cancel', args: [jobId] });
+    };
+    return { promise, cancel };
+  }
+
   function onWorkerMessage(worker, msg) {
     if (worker !== state.worker || !msg) return;
     const p = state.pending.get(msg.id);
     if (!p) return;
+    if (msg.progress) {
+      if (p.onProgress) p.onProgress(msg.progress);
+      return;
+    }
     state.pending.delete(msg.id);
     updateProgress();
     if (msg.ok) p.resolve(msg.result);
@@ -705,6 +728,9 @@
       $('map-empty').hidden = false;
     }
     renderFileLines(snap.study);
+    for (const fn of snapshotListeners) {
+      try { fn(snap); } catch (err) { showError('Could not update an analysis panel', err); }
+    }
     renderLegend(layers);
     renderSummary(snap);
     renderQuality(snap);
@@ -761,6 +787,11 @@
     }
     if (layers.mean_centre) ul.append(el('li', null, swatch('centre'), 'Mean centre'));
     if (Array.isArray(layers.ellipse) && layers.ellipse.length > 2) ul.append(el('li', null, swatch('ellipse'), 'Standard deviational ellipse'));
+    for (const item of map.overlayLegend()) {
+      const sw = el('span', { class: `sw overlay-${item.kind || 'fill'}`, 'aria-hidden': 'true' });
+      sw.style.setProperty('--sw', item.colour || '#333');
+      ul.append(el('li', null, sw, item.label));
+    }
   }
 
   function swatch(kind, colour) {
@@ -1010,6 +1041,45 @@
     }
     renderAreaMode();
   }
+
+  // ---------- the API analysis panels use (www/analyses/*.js) ----------
+  // Each analysis adds a section to the results area, calls the engine through
+  // `call` / `runJob`, may draw on the map through an overlay, and hears about
+  // every change of the loaded data through `onSnapshot`.
+  window.Cloister = {
+    call,
+    runJob,
+    el,
+    fmt,
+    fmtFixed,
+    fmtMetres,
+    plural,
+    setStatus,
+    showError,
+    clearError,
+    act,
+    /** Registers fn(snap) to run after every change of loaded data. */
+    onSnapshot(fn) { snapshotListeners.push(fn); if (state.snap) fn(state.snap); },
+    /** The last snapshot (study, summary, layers), or null. */
+    snapshot() { return state.snap; },
+    /** Adds a titled section under the results; returns its body element. */
+    addSection(id, title, intro) {
+      const body = el('div', { class: 'analysis-body', id: `${id}-body` });
+      const section = el('section', { class: 'panel analysis', id, 'aria-labelledby': `${id}-title` },
+        el('h2', { id: `${id}-title` }, title), intro ? el('p', { class: 'hint' }, intro) : null, body);
+      $('analyses').append(section);
+      return body;
+    },
+    /** Sets (or with null removes) a named map overlay:
+     * draw(ctx, {toX, toY, k, dpr, W, H}) in device pixels, and legend
+     * entries [{label, colour, kind: 'line'|'fill'|'point'}]. */
+    setOverlay(name, draw, legend) {
+      map.setOverlay(name, draw, legend);
+      renderLegend(state.snap && state.snap.layers);
+    },
+    /** The engine running on the page's own thread (for drawing charts). */
+    engine() { return wasm_bindgen; },
+  };
 
   async function boot() {
     map = new PointMap($('map'));

@@ -27,6 +27,7 @@ class PointMap {
     this.canvas = canvas;
     this.ctx = canvas.getContext('2d');
     this.layers = null;
+    this.overlays = new Map();
     this.showControls = true;
     this.view = null; // {cx, cy, scale} scale = CSS pixels per metre
     this.fitScale = 1;
@@ -60,6 +61,21 @@ class PointMap {
   }
 
   /** New data. The view is kept only when asked and the extent is unchanged. */
+  /** Adds, replaces or (draw = null) removes a named overlay. */
+  setOverlay(name, draw, legend) {
+    if (!this.overlays) this.overlays = new Map();
+    if (draw) this.overlays.set(name, { draw, legend: legend || [] });
+    else this.overlays.delete(name);
+    this.redraw();
+  }
+
+  /** Legend entries of all overlays. */
+  overlayLegend() {
+    const out = [];
+    for (const [, o] of this.overlays || []) out.push(...o.legend);
+    return out;
+  }
+
   setLayers(layers, keepView) {
     const before = this.bbox();
     this.layers = layers;
@@ -306,6 +322,15 @@ class PointMap {
         ctx.stroke();
       }
       ctx.lineCap = 'butt';
+    }
+
+    // Analysis overlays (surfaces, clusters, circles, masked points), in the
+    // order they were added; each draws in device pixels.
+    const geo = { toX: (x) => ox + x * k, toY: (y) => oy - y * k, k, dpr, W, H };
+    for (const [name, o] of this.overlays) {
+      ctx.save();
+      try { o.draw(ctx, geo); } catch (err) { console.error(`overlay ${name}:`, err); }
+      ctx.restore();
     }
 
     ctx.setTransform(dpr, 0, 0, dpr, 0, 0);

@@ -11,10 +11,62 @@
 let session = null;
 let memory = null;
 
-const SESSION_METHODS = new Set([
-  'loadEvents', 'loadControls', 'clearControls', 'loadArea', 'clearArea',
-  'setAreaFallback', 'study', 'summary', 'mapLayers', 'rejections',
-]);
+/** Any public Session method may be called by name (analysis modules add
+ * their own in src/web/*.rs); the wasm-bindgen internals may not. */
+function isSessionMethod(name) {
+  return typeof name === 'string' && /^[a-z][A-Za-z0-9]*$/.test(name) && name !== 'free' &&
+    name !== 'constructor' && session && typeof session[name] === 'function';
+}
+
+// ---------- long jobs: batches, progress, cancel ----------
+// A job is three Session methods: start(params) -> {total}, step(k) -> done
+// (count so far), finish() -> result. The worker runs batches sized to take
+// about BATCH_MS each and yields between them, so a 'cancel' message is read
+// within a fraction of a second and progress is posted after every batch.
+const BATCH_MS = 120;
+const jobs = new Map(); // id -> {cancelled}
+
+function runJob(id, spec) {
+  const { start, step, finish, params } = spec || {};
+  for (const m of [start, step, finish]) {
+    if (!isSessionMethod(m)) throw { code: 'unknown_method', message: `Unknown job step "${m}".` };
+  }
+  const info = session[start](params ?? {});
+  const total = Number(info && info.total);
+  const job = { cancelled: false };
+  jobs.set(id, job);
+  let k = 1;
+  let done = 0;
+  const tick = () => {
+    try {
+      if (job.cancelled) {
+        jobs.delete(id);
+        self.postMessage({ id, ok: false, error: { code: 'cancelled', message: 'Cancelled.', row: null, column: null }, fatal: false });
+        return;
+      }
+      const t0 = performance.now();
+      done = Number(session[step](k));
+      const dt = performance.now() - t0;
+      // Aim for BATCH_MS per batch: grow or shrink k by at most 4x.
+      k = Math.max(1, Math.min(k * 4, Math.round(k * BATCH_MS / Math.max(dt, 1))));
+      if (done >= total) {
+        jobs.delete(id);
+        const result = session[finish]();
+        self.postMessage({ id, ok: true, result }, transferables(result));
+        return;
+      }
+      self.postMessage({ id, progress: { done, total } });
+      setTimeout(tick, 0);
+    } catch (err) {
+      jobs.delete(id);
+      const fatal = isFatal(err);
+      if (fatal) session = null;
+      self.postMessage({ id, ok: false, error: plainError(err), fatal });
+    }
+  };
+  self.postMessage({ id, progress: { done: 0, total } });
+  setTimeout(tick, 0);
+}
 
 function isFatal(err) {
   return err instanceof WebAssembly.RuntimeError;
@@ -120,7 +172,14 @@ self.onmessage = (event) => {
       throw { code: 'not_ready', message: 'The engine is not ready yet.' };
     } else if (method === 'snapshot') {
       result = snapshot();
-    } else if (SESSION_METHODS.has(method)) {
+    } else if (method === 'cancel') {
+      const job = jobs.get(args[0]);
+      if (job) job.cancelled = true;
+      result = Boolean(job);
+    } else if (method === 'runJob') {
+      runJob(id, args[0]);
+      return; // answers (progress, then result) are posted by the job itself
+    } else if (isSessionMethod(method)) {
       result = session[method](...args);
       if (result === undefined) result = null;
     } else {

@@ -9,6 +9,14 @@
 
 #![deny(clippy::unwrap_used, clippy::expect_used, clippy::indexing_slicing)]
 
+// One file per analysis, each adding a `#[wasm_bindgen] impl Session` block.
+// Long jobs follow the worker's protocol: `xStart(params) -> {total}`,
+// `xStep(k) -> done so far`, `xFinish() -> result`; job state lives in
+// `Session::extras` under the module's own key.
+mod clustering;
+mod hotspots;
+mod sharing;
+
 use crate::error::{AnalysisError, InputError, InputErrorKind};
 use crate::input::{self, CoordKind, RawArea, RawLayer, ReadOptions, Rejection};
 use crate::study::{AreaFallback, Study};
@@ -27,12 +35,12 @@ fn ser() -> serde_wasm_bindgen::Serializer {
     serde_wasm_bindgen::Serializer::json_compatible()
 }
 
-fn to_js<T: Serialize + ?Sized>(v: &T) -> Result<JsValue, JsValue> {
+pub(crate) fn to_js<T: Serialize + ?Sized>(v: &T) -> Result<JsValue, JsValue> {
     v.serialize(&ser())
         .map_err(|e| js_error("internal", &e.to_string(), None))
 }
 
-fn from_js<T: for<'de> Deserialize<'de> + Default>(v: JsValue) -> Result<T, JsValue> {
+pub(crate) fn from_js<T: for<'de> Deserialize<'de> + Default>(v: JsValue) -> Result<T, JsValue> {
     if v.is_undefined() || v.is_null() {
         return Ok(T::default());
     }
@@ -41,7 +49,7 @@ fn from_js<T: for<'de> Deserialize<'de> + Default>(v: JsValue) -> Result<T, JsVa
 }
 
 /// Builds the thrown error object.
-fn js_error(code: &str, message: &str, at: Option<(u64, Option<String>)>) -> JsValue {
+pub(crate) fn js_error(code: &str, message: &str, at: Option<(u64, Option<String>)>) -> JsValue {
     #[derive(Serialize)]
     struct ErrorObject<'a> {
         code: &'a str,
@@ -71,7 +79,7 @@ fn input_error(e: &InputError) -> JsValue {
     )
 }
 
-fn analysis_error(e: &AnalysisError) -> JsValue {
+pub(crate) fn analysis_error(e: &AnalysisError) -> JsValue {
     let code = match e {
         AnalysisError::TooFewPoints { .. } => "too_few_points",
         AnalysisError::BadParameter { .. } => "bad_parameter",
@@ -194,9 +202,12 @@ pub struct Session {
     controls: Option<RawLayer>,
     area: Option<RawArea>,
     fallback: AreaFallback,
-    study: Option<Study>,
+    pub(crate) study: Option<Study>,
     /// The summary of `study`, computed on first request.
     summary: Option<summary::Summary>,
+    /// State kept by analysis modules (running jobs, last results), by key.
+    /// Cleared whenever the study changes.
+    pub(crate) extras: std::collections::HashMap<&'static str, Box<dyn std::any::Any>>,
 }
 
 impl Default for Session {
@@ -222,6 +233,28 @@ impl Session {
     fn set_study(&mut self, study: Option<Study>) {
         self.study = study;
         self.summary = None;
+        self.extras.clear();
+    }
+
+    /// Module state stored under `key`, if it has type `T`.
+    #[allow(dead_code)]
+    pub(crate) fn extra_mut<T: 'static>(&mut self, key: &'static str) -> Option<&mut T> {
+        self.extras.get_mut(key).and_then(|b| b.downcast_mut::<T>())
+    }
+
+    /// Removes and returns module state stored under `key`, if it has type `T`.
+    #[allow(dead_code)]
+    pub(crate) fn take_extra<T: 'static>(&mut self, key: &'static str) -> Option<T> {
+        match self.extras.remove(key) {
+            Some(b) => match b.downcast::<T>() {
+                Ok(t) => Some(*t),
+                Err(b) => {
+                    self.extras.insert(key, b);
+                    None
+                }
+            },
+            None => None,
+        }
     }
 
     /// The summary of the current study, computed once per study.
@@ -238,7 +271,7 @@ impl Session {
             .ok_or_else(|| nothing_loaded("an events file"))
     }
 
-    fn study_ref(&self) -> Result<&Study, JsValue> {
+    pub(crate) fn study_ref(&self) -> Result<&Study, JsValue> {
         self.study
             .as_ref()
             .ok_or_else(|| nothing_loaded("an events file"))
@@ -324,6 +357,7 @@ impl Session {
             fallback: AreaFallback::default(),
             study: None,
             summary: None,
+            extras: std::collections::HashMap::new(),
         }
     }
 
