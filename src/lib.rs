@@ -35,6 +35,9 @@
 //!   labelling, k-distance plot, cluster hulls).
 //! * Is this excess more than chance? → [`scan`] (Kulldorff's circular spatial
 //!   scan with Monte Carlo p-values, run in batches).
+//! * Can this be shared? → [`privacy`] (donut masking, k-anonymity masking,
+//!   cell and zone counts with small-count and complementary suppression,
+//!   the cost of masking, CSV/GeoJSON exports with a preview of what leaves).
 //! * How is it drawn? → [`plot`] (charts generic over a plotters backend).
 
 #![forbid(unsafe_code)]
@@ -46,6 +49,7 @@ pub mod index;
 pub mod input;
 pub mod intensity;
 pub mod plot;
+pub mod privacy;
 pub mod projection;
 pub mod rng;
 pub mod scan;

@@ -9,6 +9,14 @@
 
 #![deny(clippy::unwrap_used, clippy::expect_used, clippy::indexing_slicing)]
 
+// One file per analysis, each adding a `#[wasm_bindgen] impl Session` block.
+// Long jobs follow the worker's protocol: `xStart(params) -> {total}`,
+// `xStep(k) -> done so far`, `xFinish() -> result`; job state lives in
+// `Session::extras` under the module's own key.
+mod clustering;
+mod hotspots;
+mod sharing;
+
 use crate::error::{AnalysisError, InputError, InputErrorKind};
 use crate::input::{self, CoordKind, RawArea, RawLayer, ReadOptions, Rejection};
 use crate::study::{AreaFallback, Study};
@@ -27,12 +35,12 @@ fn ser() -> serde_wasm_bindgen::Serializer {
     serde_wasm_bindgen::Serializer::json_compatible()
 }
 
-fn to_js<T: Serialize + ?Sized>(v: &T) -> Result<JsValue, JsValue> {
+pub(crate) fn to_js<T: Serialize + ?Sized>(v: &T) -> Result<JsValue, JsValue> {
     v.serialize(&ser())
         .map_err(|e| js_error("internal", &e.to_string(), None))
 }
 
-fn from_js<T: for<'de> Deserialize<'de> + Default>(v: JsValue) -> Result<T, JsValue> {
+pub(crate) fn from_js<T: for<'de> Deserialize<'de> + Default>(v: JsValue) -> Result<T, JsValue> {
     if v.is_undefined() || v.is_null() {
         return Ok(T::default());
     }
@@ -41,7 +49,7 @@ fn from_js<T: for<'de> Deserialize<'de> + Default>(v: JsValue) -> Result<T, JsVa
 }
 
 /// Builds the thrown error object.
-fn js_error(code: &str, message: &str, at: Option<(u64, Option<String>)>) -> JsValue {
+pub(crate) fn js_error(code: &str, message: &str, at: Option<(u64, Option<String>)>) -> JsValue {
     #[derive(Serialize)]
     struct ErrorObject<'a> {
         code: &'a str,
@@ -71,7 +79,7 @@ fn input_error(e: &InputError) -> JsValue {
     )
 }
 
-fn analysis_error(e: &AnalysisError) -> JsValue {
+pub(crate) fn analysis_error(e: &AnalysisError) -> JsValue {
     let code = match e {
         AnalysisError::TooFewPoints { .. } => "too_few_points",
         AnalysisError::BadParameter { .. } => "bad_parameter",
@@ -194,7 +202,12 @@ pub struct Session {
     controls: Option<RawLayer>,
     area: Option<RawArea>,
     fallback: AreaFallback,
-    study: Option<Study>,
+    pub(crate) study: Option<Study>,
+    /// The summary of `study`, computed on first request.
+    summary: Option<summary::Summary>,
+    /// State kept by analysis modules (running jobs, last results), by key.
+    /// Cleared whenever the study changes.
+    pub(crate) extras: std::collections::HashMap<&'static str, Box<dyn std::any::Any>>,
 }
 
 impl Default for Session {
@@ -217,7 +230,48 @@ impl Session {
         }
     }
 
-    fn study_ref(&self) -> Result<&Study, JsValue> {
+    fn set_study(&mut self, study: Option<Study>) {
+        self.study = study;
+        self.summary = None;
+        self.extras.clear();
+    }
+
+    /// Module state stored under `key`, if it has type `T`.
+    #[allow(dead_code)]
+    pub(crate) fn extra_mut<T: 'static>(&mut self, key: &'static str) -> Option<&mut T> {
+        self.extras.get_mut(key).and_then(|b| b.downcast_mut::<T>())
+    }
+
+    /// Removes and returns module state stored under `key`, if it has type `T`.
+    #[allow(dead_code)]
+    pub(crate) fn take_extra<T: 'static>(&mut self, key: &'static str) -> Option<T> {
+        match self.extras.remove(key) {
+            Some(b) => match b.downcast::<T>() {
+                Ok(t) => Some(*t),
+                Err(b) => {
+                    self.extras.insert(key, b);
+                    None
+                }
+            },
+            None => None,
+        }
+    }
+
+    /// The summary of the current study, computed once per study.
+    fn summary_ref(&mut self) -> Result<&summary::Summary, JsValue> {
+        if self.summary.is_none() {
+            let s = self
+                .study
+                .as_ref()
+                .ok_or_else(|| nothing_loaded("an events file"))?;
+            self.summary = Some(summary::summarise(s));
+        }
+        self.summary
+            .as_ref()
+            .ok_or_else(|| nothing_loaded("an events file"))
+    }
+
+    pub(crate) fn study_ref(&self) -> Result<&Study, JsValue> {
         self.study
             .as_ref()
             .ok_or_else(|| nothing_loaded("an events file"))
@@ -302,6 +356,8 @@ impl Session {
             area: None,
             fallback: AreaFallback::default(),
             study: None,
+            summary: None,
+            extras: std::collections::HashMap::new(),
         }
     }
 
@@ -314,7 +370,7 @@ impl Session {
         let study = self
             .build(Some(&layer), self.area.as_ref(), self.controls.as_ref())
             .map_err(|e| Self::layer_failure(&e, &layer))?;
-        self.study = study;
+        self.set_study(study);
         self.events = Some(layer);
         match &self.events {
             Some(l) => self.report("events", l),
@@ -337,7 +393,7 @@ impl Session {
             .build(self.events.as_ref(), self.area.as_ref(), Some(&layer))
             .map_err(|e| Self::layer_failure(&e, &layer))?;
         if study.is_some() {
-            self.study = study;
+            self.set_study(study);
         }
         self.controls = Some(layer);
         match &self.controls {
@@ -352,7 +408,7 @@ impl Session {
         let study = self
             .build(self.events.as_ref(), self.area.as_ref(), None)
             .map_err(|e| input_error(&e))?;
-        self.study = study;
+        self.set_study(study);
         self.controls = None;
         self.study_js()
     }
@@ -365,7 +421,7 @@ impl Session {
         let study = self
             .build(self.events.as_ref(), Some(&area), self.controls.as_ref())
             .map_err(|e| input_error(&e))?;
-        self.study = study;
+        self.set_study(study);
         self.area = Some(area);
         self.study_js()
     }
@@ -376,7 +432,7 @@ impl Session {
         let study = self
             .build(self.events.as_ref(), None, self.controls.as_ref())
             .map_err(|e| input_error(&e))?;
-        self.study = study;
+        self.set_study(study);
         self.area = None;
         self.study_js()
     }
@@ -406,7 +462,7 @@ impl Session {
             self.controls.as_ref(),
         ) {
             Ok(study) => {
-                self.study = study;
+                self.set_study(study);
                 self.study_js()
             }
             Err(e) => {
@@ -429,14 +485,22 @@ impl Session {
     }
 
     /// Descriptive summary of the events.
-    pub fn summary(&self) -> Result<JsValue, JsValue> {
-        let s = self.study_ref()?;
-        to_js(&summary::summarise(s))
+    pub fn summary(&mut self) -> Result<JsValue, JsValue> {
+        to_js(self.summary_ref()?)
     }
 
     /// Geometry for the map, in planar metres.
     #[wasm_bindgen(js_name = mapLayers)]
-    pub fn map_layers(&self) -> Result<JsValue, JsValue> {
+    pub fn map_layers(&mut self) -> Result<JsValue, JsValue> {
+        let (ring, centre) = {
+            let sm = self.summary_ref()?;
+            let ring: Vec<[f64; 2]> = sm
+                .ellipse
+                .as_ref()
+                .map(|e| e.outline_m.clone())
+                .unwrap_or_default();
+            (ring, [sm.mean_centre.x_m, sm.mean_centre.y_m])
+        };
         let s = self.study_ref()?;
         let obj = Object::new();
         set(
@@ -455,13 +519,8 @@ impl Session {
         }
         set(&obj, "area", &to_js(s.window.polygons())?)?;
         set(&obj, "bbox", &to_js(&s.window.bbox())?)?;
-        let sm = summary::summarise(s);
-        set(&obj, "ellipse", &to_js(&sm.ellipse_ring())?)?;
-        set(
-            &obj,
-            "mean_centre",
-            &to_js(&[sm.mean_centre.x, sm.mean_centre.y])?,
-        )?;
+        set(&obj, "ellipse", &to_js(&ring)?)?;
+        set(&obj, "mean_centre", &to_js(&centre)?)?;
         Ok(obj.into())
     }
 

@@ -1,0 +1,353 @@
+//! What masking costs the analysis: the same summaries on the original and
+//! the masked points, side by side.
+//!
+//! * Mean nearest-neighbour distance and the Clark–Evans ratio
+//!   R = r̄_A / (0.5/√λ), λ = n/|W| (Clark & Evans 1954, "Distance to nearest
+//!   neighbor as a measure of spatial relationships in populations",
+//!   *Ecology* 35:445–453, doi:10.2307/1931034; no edge correction, the same
+//!   for both patterns, so the difference is what masking did).
+//! * Mean centre and its shift; standard distance √(Σ‖xᵢ − x̄‖²/n)
+//!   (divisor n) and its change.
+//! * How far the intensity surface moves: a Gaussian kernel estimate
+//!   (METHODS §7; bandwidth = per-axis SD h, no edge correction, truncated at
+//!   4h) on a coarse grid over the study area for both patterns with the same
+//!   bandwidth; reported as the largest and the mean absolute difference over
+//!   cells inside the area, divided by the original surface's peak.
+//!   Default h: σ̂·n^(−1/6) with σ̂ = √((s_x² + s_y²)/2) of the original
+//!   (Silverman/Scott normal reference in 2-D, single isotropic h: METHODS §7
+//!   \[CP\]).
+//!
+//! # Extension point: K/L curves
+//! [`MaskingCost::l_curves`] is empty here. When the distance module lands,
+//! compute L(r) − r with its edge correction on both patterns at the same r
+//! and pass them to [`MaskingCost::attach_l_curves`]; the page then draws the
+//! pair. (Masking by distances up to r_max attenuates clustering at scales up
+//! to about 2·r_max: METHODS §11.)
+
+use super::{bad, Region};
+use crate::error::AnalysisError;
+use crate::index::GridIndex;
+use serde::{Deserialize, Serialize};
+use std::f64::consts::PI;
+
+/// Settings of the comparison.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct CostParams {
+    /// Kernel SD per axis, m; `None`: normal-reference rule on the original.
+    pub bandwidth_m: Option<f64>,
+    /// Cells along the longer side of the study area's bounding box.
+    pub grid_cells: usize,
+}
+
+impl Default for CostParams {
+    fn default() -> Self {
+        CostParams {
+            bandwidth_m: None,
+            grid_cells: 64,
+        }
+    }
+}
+
+/// Summaries of one pattern.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct PatternSummary {
+    pub n: usize,
+    pub mean_nn_m: Option<f64>,
+    pub clark_evans_r: Option<f64>,
+    pub centre: Option<[f64; 2]>,
+    pub standard_distance_m: Option<f64>,
+}
+
+/// How far the kernel intensity surface moves.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SurfaceShift {
+    pub bandwidth_m: f64,
+    pub cell_m: f64,
+    pub nx: usize,
+    pub ny: usize,
+    /// Cells whose centre is inside the study area.
+    pub cells_inside: usize,
+    /// Peak of the original surface, events per m².
+    pub peak_original: f64,
+    pub max_abs_diff_rel: f64,
+    pub mean_abs_diff_rel: f64,
+}
+
+/// L(r) − r on both patterns (filled in by the distance module).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CurvePair {
+    pub r_m: Vec<f64>,
+    pub original: Vec<f64>,
+    pub masked: Vec<f64>,
+    pub max_abs_difference_m: f64,
+}
+
+/// Original vs masked.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MaskingCost {
+    pub original: PatternSummary,
+    pub masked: PatternSummary,
+    pub mean_nn_change_m: Option<f64>,
+    pub clark_evans_change: Option<f64>,
+    pub centre_shift_m: Option<f64>,
+    pub standard_distance_change_m: Option<f64>,
+    pub surface: Option<SurfaceShift>,
+    /// Extension point: see the module docs.
+    pub l_curves: Option<CurvePair>,
+}
+
+impl MaskingCost {
+    /// Attaches L(r) − r of both patterns computed elsewhere at the same `r_m`.
+    pub fn attach_l_curves(
+        &mut self,
+        r_m: Vec<f64>,
+        original: Vec<f64>,
+        masked: Vec<f64>,
+    ) -> Result<(), AnalysisError> {
+        if r_m.len() != original.len() || r_m.len() != masked.len() {
+            return Err(bad("L curves", "r, original and masked differ in length"));
+        }
+        let max_abs_difference_m = original
+            .iter()
+            .zip(&masked)
+            .map(|(a, b)| (a - b).abs())
+            .fold(0.0, f64::max);
+        self.l_curves = Some(CurvePair {
+            r_m,
+            original,
+            masked,
+            max_abs_difference_m,
+        });
+        Ok(())
+    }
+}
+
+/// Summaries of one pattern in `region`.
+pub fn summarise(x: &[f64], y: &[f64], region: &dyn Region) -> PatternSummary {
+    let n = x.len();
+    let centre = (n > 0).then(|| {
+        [
+            x.iter().sum::<f64>() / n as f64,
+            y.iter().sum::<f64>() / n as f64,
+        ]
+    });
+    let standard_distance_m = centre.map(|c| {
+        (x.iter()
+            .zip(y)
+            .map(|(a, b)| (a - c[0]).powi(2) + (b - c[1]).powi(2))
+            .sum::<f64>()
+            / n as f64)
+            .sqrt()
+    });
+    let mut mean_nn_m = None;
+    let mut clark_evans_r = None;
+    if let Some(nn) = GridIndex::new(x, y).nn_distances() {
+        let mean = nn.iter().sum::<f64>() / n as f64;
+        mean_nn_m = Some(mean);
+        let area = region.area();
+        if area > 0.0 && area.is_finite() {
+            let lambda = n as f64 / area;
+            clark_evans_r = Some(mean / (0.5 / lambda.sqrt()));
+        }
+    }
+    PatternSummary {
+        n,
+        mean_nn_m,
+        clark_evans_r,
+        centre,
+        standard_distance_m,
+    }
+}
+
+/// Compares the original points with the masked ones (the ones that will be
+/// shared; left-out points are simply absent).
+pub fn compare(
+    ox: &[f64],
+    oy: &[f64],
+    mx: &[f64],
+    my: &[f64],
+    region: &dyn Region,
+    p: &CostParams,
+) -> Result<MaskingCost, AnalysisError> {
+    if ox.len() != oy.len() || mx.len() != my.len() {
+        return Err(bad("points", "x and y have different lengths"));
+    }
+    if let Some(h) = p.bandwidth_m {
+        if !(h.is_finite() && h > 0.0) {
+            return Err(bad("bandwidth", "must be a number > 0 (metres)"));
+        }
+    }
+    if p.grid_cells < 2 || p.grid_cells > 1024 {
+        return Err(bad("grid cells", "must be between 2 and 1024"));
+    }
+    let a = summarise(ox, oy, region);
+    let b = summarise(mx, my, region);
+    let diff = |u: Option<f64>, v: Option<f64>| u.zip(v).map(|(u, v)| v - u);
+    let centre_shift_m = a
+        .centre
+        .zip(b.centre)
+        .map(|(u, v)| (u[0] - v[0]).hypot(u[1] - v[1]));
+    let h = match p.bandwidth_m {
+        Some(h) => Some(h),
+        None => normal_reference_bandwidth(ox, oy),
+    };
+    let surface = match h {
+        Some(h) if !ox.is_empty() => surface_shift(ox, oy, mx, my, region, h, p.grid_cells),
+        _ => None,
+    };
+    Ok(MaskingCost {
+        original: a,
+        masked: b,
+        mean_nn_change_m: diff(a.mean_nn_m, b.mean_nn_m),
+        clark_evans_change: diff(a.clark_evans_r, b.clark_evans_r),
+        centre_shift_m,
+        standard_distance_change_m: diff(a.standard_distance_m, b.standard_distance_m),
+        surface,
+        l_curves: None,
+    })
+}
+
+/// σ̂·n^(−1/6), σ̂ = √((s_x² + s_y²)/2) with divisor n − 1; `None` if n < 2 or σ̂ = 0.
+pub fn normal_reference_bandwidth(x: &[f64], y: &[f64]) -> Option<f64> {
+    let n = x.len();
+    if n < 2 {
+        return None;
+    }
+    let var = |v: &[f64]| {
+        let m = v.iter().sum::<f64>() / n as f64;
+        v.iter().map(|a| (a - m).powi(2)).sum::<f64>() / (n as f64 - 1.0)
+    };
+    let s = ((var(x) + var(y)) / 2.0).sqrt();
+    (s > 0.0 && s.is_finite()).then(|| s * (n as f64).powf(-1.0 / 6.0))
+}
+
+/// Gaussian kernel intensity (events per m²) at `(u, v)`, truncated at 4h.
+pub fn gaussian_intensity(g: &GridIndex, u: f64, v: f64, h: f64) -> f64 {
+    let mut s = 0.0;
+    let c = 1.0 / (2.0 * PI * h * h);
+    g.for_each_within(u, v, 4.0 * h, |_, d| s += (-d * d / (2.0 * h * h)).exp());
+    c * s
+}
+
+fn surface_shift(
+    ox: &[f64],
+    oy: &[f64],
+    mx: &[f64],
+    my: &[f64],
+    region: &dyn Region,
+    h: f64,
+    cells: usize,
+) -> Option<SurfaceShift> {
+    let b = region.bbox();
+    let (w, t) = (b[2] - b[0], b[3] - b[1]);
+    if !(w.is_finite() && t.is_finite()) || w <= 0.0 || t <= 0.0 {
+        return None;
+    }
+    let cell = w.max(t) / cells as f64;
+    let nx = (w / cell).ceil().max(1.0) as usize;
+    let ny = (t / cell).ceil().max(1.0) as usize;
+    let go = GridIndex::new(ox, oy);
+    let gm = GridIndex::new(mx, my);
+    let mut peak: f64 = 0.0;
+    let mut diffs = Vec::new();
+    for j in 0..ny {
+        for i in 0..nx {
+            let (u, v) = (
+                b[0] + (i as f64 + 0.5) * cell,
+                b[1] + (j as f64 + 0.5) * cell,
+            );
+            if !region.contains(u, v) {
+                continue;
+            }
+            let a = gaussian_intensity(&go, u, v, h);
+            let m = gaussian_intensity(&gm, u, v, h);
+            peak = peak.max(a);
+            diffs.push((a - m).abs());
+        }
+    }
+    if diffs.is_empty() || peak <= 0.0 {
+        return None;
+    }
+    Some(SurfaceShift {
+        bandwidth_m: h,
+        cell_m: cell,
+        nx,
+        ny,
+        cells_inside: diffs.len(),
+        peak_original: peak,
+        max_abs_diff_rel: diffs.iter().fold(0.0, |a: f64, &b| a.max(b)) / peak,
+        mean_abs_diff_rel: diffs.iter().sum::<f64>() / diffs.len() as f64 / peak,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::privacy::PolygonArea;
+
+    #[test]
+    fn square_lattice_clark_evans_is_two() {
+        // Clark & Evans (1954); METHODS §3 [C]: a k×k lattice with spacing d at
+        // (i+½)d in a square of side k·d has every NN distance d, λ = 1/d², R = 2.
+        let (k, d) = (10usize, 50.0);
+        let mut x = vec![];
+        let mut y = vec![];
+        for i in 0..k {
+            for j in 0..k {
+                x.push((i as f64 + 0.5) * d);
+                y.push((j as f64 + 0.5) * d);
+            }
+        }
+        let area = PolygonArea::rectangle(0.0, 0.0, k as f64 * d, k as f64 * d);
+        let s = summarise(&x, &y, &area);
+        assert!((s.mean_nn_m.unwrap() - d).abs() < 1e-9);
+        assert!((s.clark_evans_r.unwrap() - 2.0).abs() < 1e-12);
+        assert_eq!(s.centre, Some([250.0, 250.0]));
+    }
+
+    #[test]
+    fn identical_patterns_cost_nothing_and_shift_is_seen() {
+        let area = PolygonArea::rectangle(0.0, 0.0, 1000.0, 1000.0);
+        let x = [100.0, 300.0, 500.0, 700.0];
+        let y = [200.0, 400.0, 600.0, 800.0];
+        let c = compare(&x, &y, &x, &y, &area, &CostParams::default()).unwrap();
+        assert_eq!(c.centre_shift_m, Some(0.0));
+        assert_eq!(c.surface.unwrap().max_abs_diff_rel, 0.0);
+        let mx: Vec<f64> = x.iter().map(|v| v + 30.0).collect();
+        let my: Vec<f64> = y.iter().map(|v| v - 40.0).collect();
+        let c = compare(&x, &y, &mx, &my, &area, &CostParams::default()).unwrap();
+        assert!((c.centre_shift_m.unwrap() - 50.0).abs() < 1e-9);
+        assert!(c.standard_distance_change_m.unwrap().abs() < 1e-9);
+        assert!(c.surface.unwrap().max_abs_diff_rel > 0.0);
+    }
+
+    #[test]
+    fn one_point_kernel_peak() {
+        // METHODS §7 [C]: a Gaussian kernel peaks at 1/(2πh²).
+        let g = GridIndex::new(&[0.0], &[0.0]);
+        assert!((gaussian_intensity(&g, 0.0, 0.0, 10.0) - 0.15915494 / 100.0).abs() < 1e-10);
+    }
+
+    #[test]
+    fn compare_edge_cases() {
+        let area = PolygonArea::rectangle(0.0, 0.0, 10.0, 10.0);
+        let c = compare(&[], &[], &[], &[], &area, &CostParams::default()).unwrap();
+        assert!(c.original.mean_nn_m.is_none() && c.surface.is_none());
+        let c = compare(
+            &[1.0],
+            &[1.0],
+            &[2.0],
+            &[2.0],
+            &area,
+            &CostParams::default(),
+        )
+        .unwrap();
+        assert!(c.mean_nn_change_m.is_none());
+        let bad = CostParams {
+            bandwidth_m: Some(0.0),
+            ..Default::default()
+        };
+        assert!(compare(&[1.0], &[1.0], &[2.0], &[2.0], &area, &bad).is_err());
+    }
+}

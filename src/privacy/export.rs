@@ -1,0 +1,590 @@
+//! CSV and GeoJSON writers for what may leave the page, and a preview of
+//! exactly what a file will contain.
+//!
+//! Three kinds of content ([`ExportContent`]):
+//! * masked points (from [`super::donut`] or [`super::kanon`]); points that
+//!   could not be masked are absent;
+//! * a suppressed table (cells or zones with counts, hidden counts written as
+//!   empty / `null` with a `suppressed` flag, and the published totals);
+//! * the one explicit **unmasked** export of the original points, which
+//!   carries the label "unmasked, internal use only" inside the file.
+//!
+//! Every file starts with metadata: tool, version, the date the caller
+//! passes in, what the file holds, the coordinate form, the settings, and
+//! cautions. The settings never include the seed (METHODS §11 "record the
+//! masking parameters (not the seeds)"): with the seed and this tool anyone
+//! could replay the random displacements and subtract them.
+//!
+//! CSV: metadata lines start with `# `, then a header row, then data rows.
+//! GeoJSON: a FeatureCollection with foreign members `metadata` (and
+//! `totals`, `outside` for tables), allowed by RFC 7946 §6.1.
+//!
+//! Masked points are written in coordinate order (by x, then y), so the row
+//! order says nothing about the order of the source file. Coordinates are
+//! metres as analysed, or longitude/latitude through a caller-given
+//! back-projection `&dyn Fn(x, y) -> (lon, lat)`.
+
+use super::aggregate::LineKind;
+use super::suppress::SuppressedTable;
+use super::{bad, MaskedPoints};
+use crate::error::AnalysisError;
+use serde::{Deserialize, Serialize};
+use serde_json::{json, Map, Value};
+
+/// The label written into the unmasked export.
+pub const UNMASKED_LABEL: &str = "unmasked, internal use only";
+
+/// File format.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ExportFormat {
+    #[default]
+    Csv,
+    GeoJson,
+}
+
+/// Coordinate form of the output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum CoordinateOutput {
+    /// Planar metres as analysed.
+    #[default]
+    Metres,
+    /// Longitude/latitude via the caller's back-projection.
+    LonLat,
+}
+
+/// Export settings.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct ExportOptions {
+    pub format: ExportFormat,
+    pub coordinates: CoordinateOutput,
+    /// Decimals written; default 1 for metres (0.1 m), 6 for degrees (~0.1 m).
+    pub decimals: Option<u32>,
+    /// The date (and time) to write, passed in by the caller (the core has no clock).
+    pub created: String,
+}
+
+impl Default for ExportOptions {
+    fn default() -> Self {
+        ExportOptions {
+            format: ExportFormat::Csv,
+            coordinates: CoordinateOutput::Metres,
+            decimals: None,
+            created: String::new(),
+        }
+    }
+}
+
+impl ExportOptions {
+    fn decimals(&self) -> usize {
+        self.decimals.unwrap_or(match self.coordinates {
+            CoordinateOutput::Metres => 1,
+            CoordinateOutput::LonLat => 6,
+        }) as usize
+    }
+}
+
+/// What to export.
+#[derive(Debug, Clone, Copy)]
+pub enum ExportContent<'a> {
+    MaskedPoints(&'a MaskedPoints),
+    Table(&'a SuppressedTable),
+    /// The original points, unmasked: the one export that writes them.
+    UnmaskedInternal {
+        x: &'a [f64],
+        y: &'a [f64],
+    },
+}
+
+/// Exactly what a file will contain.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ExportPreview {
+    /// "masked points", "suppressed table" or "unmasked points".
+    pub content: String,
+    pub format: ExportFormat,
+    /// Column names (CSV) or feature property names plus geometry (GeoJSON).
+    pub fields: Vec<String>,
+    /// Data rows (CSV, totals included) or features (GeoJSON).
+    pub rows: usize,
+    /// Metadata keys written at the top of the file.
+    pub metadata_keys: Vec<String>,
+    /// True only for the unmasked export.
+    pub contains_original_coordinates: bool,
+    /// The label inside the file, if any.
+    pub label: Option<String>,
+    /// Input points not in the file (could not be masked).
+    pub points_left_out: usize,
+    pub cautions: Vec<String>,
+}
+
+/// A written file.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ExportFile {
+    pub text: String,
+    pub file_name: String,
+    pub mime: String,
+    pub preview: ExportPreview,
+}
+
+fn coord_names(o: &ExportOptions) -> [&'static str; 2] {
+    match o.coordinates {
+        CoordinateOutput::Metres => ["x_m", "y_m"],
+        CoordinateOutput::LonLat => ["longitude", "latitude"],
+    }
+}
+
+const TABLE_FIELDS: [&str; 8] = [
+    "kind",
+    "id",
+    "row",
+    "col",
+    "count",
+    "suppressed",
+    "population",
+    "rate",
+];
+
+fn cautions(content: &ExportContent) -> Vec<String> {
+    let mut c = Vec::new();
+    match content {
+        ExportContent::MaskedPoints(m) => {
+            c.extend(m.notes.iter().cloned());
+            c.push(
+                "Mask once: never publish a second, differently masked copy of these points; \
+                 averaging copies moves them back towards the true locations."
+                    .into(),
+            );
+            c.push(
+                "Masked locations are not real locations: do not geocode, link or annotate \
+                 them with addresses."
+                    .into(),
+            );
+            c.push(
+                "Clustering at distances up to about twice the maximum displacement is \
+                 weakened; space-time bands below that are unreliable."
+                    .into(),
+            );
+        }
+        ExportContent::Table(t) => {
+            c.push(format!(
+                "Counts from 1 to {} are suppressed, with further cells suppressed so that \
+                 no hidden count follows from the totals shown.",
+                t.params.min_count.max(1) - 1
+            ));
+            c.push(
+                "Do not publish this table beside other tables of the same events for \
+                 overlapping areas or periods: differences between them can reveal hidden counts."
+                    .into(),
+            );
+            c.extend(t.warnings.iter().cloned());
+        }
+        ExportContent::UnmaskedInternal { .. } => {
+            c.push(
+                "This file holds the ORIGINAL locations. Do not share, publish or upload it."
+                    .into(),
+            );
+        }
+    }
+    c
+}
+
+/// Lists what `content` would put in a file with `opts`, without writing it.
+pub fn what_leaves(content: &ExportContent, opts: &ExportOptions) -> ExportPreview {
+    let [cx, cy] = coord_names(opts);
+    let mut metadata_keys: Vec<String> = ["tool", "version", "created", "content", "coordinates"]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+    let (name, fields, rows, original, label, left_out): (
+        &str,
+        Vec<String>,
+        usize,
+        bool,
+        _,
+        usize,
+    ) = match content {
+        ExportContent::MaskedPoints(m) => {
+            metadata_keys.push("masking".into());
+            metadata_keys.push("points_left_out".into());
+            (
+                "masked points",
+                vec![cx.to_string(), cy.to_string()],
+                m.x.len(),
+                false,
+                None,
+                m.unplaced.len(),
+            )
+        }
+        ExportContent::Table(t) => {
+            metadata_keys.push("layout".into());
+            metadata_keys.push("suppression".into());
+            let f: Vec<String> = match opts.format {
+                ExportFormat::Csv => TABLE_FIELDS
+                    .iter()
+                    .map(|s| s.to_string())
+                    .chain([format!("centre_{cx}"), format!("centre_{cy}")])
+                    .chain(["rate_unreliable".to_string()])
+                    .collect(),
+                ExportFormat::GeoJson => TABLE_FIELDS[1..]
+                    .iter()
+                    .map(|s| s.to_string())
+                    .chain(["rate_unreliable".to_string(), "geometry".to_string()])
+                    .collect(),
+            };
+            let cells = exported_cells(t).count();
+            let rows = match opts.format {
+                ExportFormat::Csv => cells + t.lines.len() + 1,
+                ExportFormat::GeoJson => cells,
+            };
+            ("suppressed table", f, rows, false, None, 0)
+        }
+        ExportContent::UnmaskedInternal { x, .. } => {
+            metadata_keys.push("label".into());
+            (
+                "unmasked points",
+                vec![cx.to_string(), cy.to_string()],
+                x.len(),
+                true,
+                Some(UNMASKED_LABEL.to_string()),
+                0,
+            )
+        }
+    };
+    metadata_keys.push("cautions".into());
+    let fields = match (opts.format, content) {
+        (ExportFormat::GeoJson, ExportContent::Table(_)) => fields,
+        (ExportFormat::GeoJson, _) => vec!["geometry (Point)".to_string()],
+        _ => fields,
+    };
+    ExportPreview {
+        content: name.into(),
+        format: opts.format,
+        fields,
+        rows,
+        metadata_keys,
+        contains_original_coordinates: original,
+        label,
+        points_left_out: left_out,
+        cautions: cautions(content),
+    }
+}
+
+fn exported_cells(t: &SuppressedTable) -> impl Iterator<Item = &super::suppress::TableCell> {
+    t.cells.iter().filter(|c| c.in_area || c.count != Some(0))
+}
+
+fn metadata(
+    content: &ExportContent,
+    opts: &ExportOptions,
+    preview: &ExportPreview,
+) -> Map<String, Value> {
+    let mut m = Map::new();
+    m.insert("tool".into(), json!("Cloister"));
+    m.insert("version".into(), json!(crate::VERSION));
+    m.insert("created".into(), json!(opts.created));
+    m.insert("content".into(), json!(preview.content));
+    m.insert(
+        "coordinates".into(),
+        json!(match opts.coordinates {
+            CoordinateOutput::Metres => "planar metres (projected, as analysed)",
+            CoordinateOutput::LonLat => "longitude, latitude (degrees, back-projected)",
+        }),
+    );
+    match content {
+        ExportContent::MaskedPoints(mp) => {
+            // `method` carries settings only; the seed is a separate field of
+            // MaskedPoints and is deliberately not written.
+            m.insert(
+                "masking".into(),
+                serde_json::to_value(&mp.method).unwrap_or(Value::Null),
+            );
+            m.insert("points_left_out".into(), json!(mp.unplaced.len()));
+        }
+        ExportContent::Table(t) => {
+            m.insert(
+                "layout".into(),
+                serde_json::to_value(&t.layout).unwrap_or(Value::Null),
+            );
+            let p = &t.params;
+            m.insert(
+                "suppression".into(),
+                json!({
+                    "counts_hidden_from": 1,
+                    "counts_hidden_to": p.min_count.max(1) - 1,
+                    "zeros_hidden": p.suppress_zeros,
+                    "complementary": "further counts hidden so that no published total has exactly one hidden count",
+                    "audit": {
+                        "no_recovery_found": t.audit.safe,
+                        "checks": if t.audit.exact.is_some() {
+                            "single totals, linear combinations of totals, bounds, exhaustive whole-number search"
+                        } else {
+                            "single totals, linear combinations of totals, bounds (table too large for the exhaustive search)"
+                        },
+                    },
+                    "rate_per": p.rate_per,
+                    "rate_min_population": p.rate_min_population,
+                    "rate_unreliable_below_count": p.rate_unreliable_below,
+                }),
+            );
+        }
+        ExportContent::UnmaskedInternal { .. } => {
+            m.insert("label".into(), json!(UNMASKED_LABEL));
+        }
+    }
+    m.insert("cautions".into(), json!(preview.cautions));
+    m
+}
+
+fn round(v: f64, d: usize) -> f64 {
+    let f = 10f64.powi(d as i32);
+    (v * f).round() / f
+}
+
+fn fmt(v: f64, d: usize) -> String {
+    format!("{v:.d$}")
+}
+
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
+
+/// Writes `content` in the format of `opts`. `to_lonlat` is required when
+/// `opts.coordinates` is `LonLat`.
+pub fn export(
+    content: &ExportContent,
+    opts: &ExportOptions,
+    to_lonlat: Option<&dyn Fn(f64, f64) -> (f64, f64)>,
+) -> Result<ExportFile, AnalysisError> {
+    let project = |x: f64, y: f64| -> Result<(f64, f64), AnalysisError> {
+        match opts.coordinates {
+            CoordinateOutput::Metres => Ok((x, y)),
+            CoordinateOutput::LonLat => match to_lonlat {
+                Some(f) => {
+                    let (a, b) = f(x, y);
+                    if a.is_finite() && b.is_finite() {
+                        Ok((a, b))
+                    } else {
+                        Err(bad(
+                            "coordinates",
+                            "the back-projection gave a non-finite value",
+                        ))
+                    }
+                }
+                None => Err(bad(
+                    "coordinates",
+                    "longitude/latitude output needs the study's back-projection",
+                )),
+            },
+        }
+    };
+    let d = opts.decimals();
+    if d > 12 {
+        return Err(bad("decimals", "at most 12"));
+    }
+    let preview = what_leaves(content, opts);
+    let meta = metadata(content, opts, &preview);
+    let [cx, cy] = coord_names(opts);
+    let points: Option<Vec<(f64, f64)>> = match content {
+        ExportContent::MaskedPoints(m) => {
+            let mut v: Vec<(f64, f64)> = m.x.iter().copied().zip(m.y.iter().copied()).collect();
+            v.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
+            Some(v)
+        }
+        ExportContent::UnmaskedInternal { x, y } => {
+            if x.len() != y.len() {
+                return Err(bad("points", "x and y have different lengths"));
+            }
+            Some(x.iter().copied().zip(y.iter().copied()).collect())
+        }
+        ExportContent::Table(_) => None,
+    };
+    let stem = match content {
+        ExportContent::MaskedPoints(_) => "masked-points",
+        ExportContent::Table(_) => "suppressed-counts",
+        ExportContent::UnmaskedInternal { .. } => "UNMASKED-internal-only",
+    };
+    let text = match (opts.format, points) {
+        (ExportFormat::Csv, pts) => {
+            let mut s = String::new();
+            if matches!(content, ExportContent::UnmaskedInternal { .. }) {
+                s.push_str(&format!("# {}\n", UNMASKED_LABEL.to_uppercase()));
+            }
+            for (k, v) in &meta {
+                let val = match v {
+                    Value::String(t) => t.clone(),
+                    other => other.to_string(),
+                };
+                s.push_str(&format!("# {k}: {}\n", val.replace('\n', " ")));
+            }
+            match (pts, content) {
+                (Some(pts), _) => {
+                    s.push_str(&format!("{cx},{cy}\n"));
+                    for (x, y) in pts {
+                        let (a, b) = project(x, y)?;
+                        s.push_str(&format!("{},{}\n", fmt(a, d), fmt(b, d)));
+                    }
+                }
+                (None, ExportContent::Table(t)) => {
+                    table_csv(&mut s, t, &project, d, cx, cy)?;
+                }
+                (None, _) => {}
+            }
+            s
+        }
+        (ExportFormat::GeoJson, pts) => {
+            let mut fc = Map::new();
+            fc.insert("type".into(), json!("FeatureCollection"));
+            if matches!(content, ExportContent::UnmaskedInternal { .. }) {
+                fc.insert("label".into(), json!(UNMASKED_LABEL));
+            }
+            fc.insert("metadata".into(), Value::Object(meta));
+            let mut feats = Vec::new();
+            match (pts, content) {
+                (Some(pts), _) => {
+                    for (x, y) in pts {
+                        let (a, b) = project(x, y)?;
+                        feats.push(json!({
+                            "type": "Feature",
+                            "geometry": {"type": "Point", "coordinates": [round(a, d), round(b, d)]},
+                            "properties": {}
+                        }));
+                    }
+                }
+                (None, ExportContent::Table(t)) => {
+                    for c in exported_cells(t) {
+                        let mut polys = Vec::new();
+                        for poly in &c.geometry {
+                            let mut rings = Vec::new();
+                            for ring in poly {
+                                let mut r = Vec::new();
+                                for v in ring {
+                                    let (a, b) = project(v[0], v[1])?;
+                                    r.push(json!([round(a, d), round(b, d)]));
+                                }
+                                if ring.first() != ring.last() {
+                                    r.push(r[0].clone());
+                                }
+                                rings.push(Value::Array(r));
+                            }
+                            polys.push(Value::Array(rings));
+                        }
+                        let geometry = if polys.len() == 1 {
+                            json!({"type": "Polygon", "coordinates": polys[0]})
+                        } else {
+                            json!({"type": "MultiPolygon", "coordinates": polys})
+                        };
+                        feats.push(json!({
+                            "type": "Feature",
+                            "geometry": geometry,
+                            "properties": {
+                                "id": c.id, "row": c.row, "col": c.col,
+                                "count": c.count, "suppressed": c.suppressed,
+                                "population": c.population, "rate": c.rate,
+                                "rate_unreliable": c.rate_unreliable,
+                            }
+                        }));
+                    }
+                    fc.insert(
+                        "totals".into(),
+                        Value::Array(
+                            t.lines
+                                .iter()
+                                .map(|l| {
+                                    json!({"name": l.name, "kind": line_kind(l.kind),
+                                           "total": l.total, "suppressed": l.total.is_none()})
+                                })
+                                .collect(),
+                        ),
+                    );
+                    fc.insert("outside".into(), json!(t.outside));
+                }
+                (None, _) => {}
+            }
+            fc.insert("features".into(), Value::Array(feats));
+            serde_json::to_string_pretty(&Value::Object(fc))
+                .map_err(|e| bad("export", &e.to_string()))?
+        }
+    };
+    let (ext, mime) = match opts.format {
+        ExportFormat::Csv => ("csv", "text/csv"),
+        ExportFormat::GeoJson => ("geojson", "application/geo+json"),
+    };
+    Ok(ExportFile {
+        text,
+        file_name: format!("{stem}.{ext}"),
+        mime: mime.into(),
+        preview,
+    })
+}
+
+fn line_kind(k: LineKind) -> &'static str {
+    match k {
+        LineKind::Row => "row_total",
+        LineKind::Column => "column_total",
+        LineKind::Group => "group_total",
+        LineKind::Grand => "grand_total",
+    }
+}
+
+fn table_csv(
+    s: &mut String,
+    t: &SuppressedTable,
+    project: &dyn Fn(f64, f64) -> Result<(f64, f64), AnalysisError>,
+    d: usize,
+    cx: &str,
+    cy: &str,
+) -> Result<(), AnalysisError> {
+    s.push_str(&TABLE_FIELDS.join(","));
+    s.push_str(&format!(",centre_{cx},centre_{cy},rate_unreliable\n"));
+    let opt = |v: Option<String>| v.unwrap_or_default();
+    for c in exported_cells(t) {
+        // Centre: mean of the first ring's distinct vertices.
+        let centre = c.geometry.first().and_then(|p| p.first()).map(|ring| {
+            let r = super::open_ring(ring);
+            let n = r.len().max(1) as f64;
+            (
+                r.iter().map(|v| v[0]).sum::<f64>() / n,
+                r.iter().map(|v| v[1]).sum::<f64>() / n,
+            )
+        });
+        let (ca, cb) = match centre {
+            Some((a, b)) => {
+                let (a, b) = project(a, b)?;
+                (fmt(a, d), fmt(b, d))
+            }
+            None => (String::new(), String::new()),
+        };
+        s.push_str(&format!(
+            "cell,{},{},{},{},{},{},{},{ca},{cb},{}\n",
+            csv_field(&c.id),
+            opt(c.row.map(|v| v.to_string())),
+            opt(c.col.map(|v| v.to_string())),
+            opt(c.count.map(|v| v.to_string())),
+            c.suppressed,
+            opt(c.population.map(|v| format!("{v}"))),
+            opt(c.rate.map(|v| format!("{v:.3}"))),
+            c.rate_unreliable,
+        ));
+    }
+    for l in &t.lines {
+        s.push_str(&format!(
+            "{},{},,,{},{},,,,,\n",
+            line_kind(l.kind),
+            csv_field(&l.name),
+            opt(l.total.map(|v| v.to_string())),
+            l.total.is_none(),
+        ));
+    }
+    s.push_str(&format!(
+        "outside,outside every cell,,,{},{},,,,,\n",
+        opt(t.outside.map(|v| v.to_string())),
+        t.outside.is_none()
+    ));
+    Ok(())
+}

@@ -1,0 +1,1 @@
+//! Exports for "Where are the hotspots?" (filled in by its analysis work).

@@ -1,0 +1,1 @@
+//! Exports for "Can this be shared?" (filled in by its analysis work).
