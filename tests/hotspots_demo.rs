@@ -1,0 +1,156 @@
+//! The hotspot methods on the invented demo town (demo-data/), through the
+//! public API a page would call: read → Study → surface / DBSCAN / scan.
+//! The planted truth (demo-data/planted-truth.json, written by the demo
+//! generator) says where the three clusters are.
+
+use cloister::clusters::{dbscan, DbscanOptions};
+use cloister::input::{read_area, read_points, ReadOptions};
+use cloister::intensity::{
+    kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, Region, SurfaceOptions,
+};
+use cloister::scan::{ScanJob, ScanModel, ScanOptions};
+use cloister::study::{AreaFallback, Study};
+use serde_json::Value;
+
+fn study() -> Study {
+    let cases = read_points(
+        include_bytes!("../demo-data/cases.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let pop = read_points(
+        include_bytes!("../demo-data/population.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let area = read_area(include_bytes!("../demo-data/town-boundary.geojson"), None).unwrap();
+    Study::build(&cases, Some(&area), Some(&pop), AreaFallback::ConvexHull).unwrap()
+}
+
+/// Planted cluster centres (A, B, C) in the study's metres.
+fn planted(s: &Study) -> Vec<(f64, f64)> {
+    let t: Value = serde_json::from_str(include_str!("../demo-data/planted-truth.json")).unwrap();
+    t["clusters"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| {
+            let ll = &c["centre_lonlat"];
+            s.projection.forward(
+                ll["longitude"].as_f64().unwrap(),
+                ll["latitude"].as_f64().unwrap(),
+            )
+        })
+        .collect()
+}
+
+fn near(p: (f64, f64), q: (f64, f64), r: f64) -> bool {
+    ((p.0 - q.0).powi(2) + (p.1 - q.1).powi(2)).sqrt() <= r
+}
+
+#[test]
+fn region_agrees_with_window() {
+    // Our rasterising copy of the study area against crate::window (another
+    // module's implementation): same area, same inside/outside.
+    let s = study();
+    let r = Region::from_window(&s.window).unwrap();
+    assert!((r.area() - s.window.area()).abs() / s.window.area() < 1e-9);
+    // README: net area 82.466 km² in its local grid (a different plane,
+    // hence 0.5 %).
+    assert!((r.area() / 1e6 - 82.466).abs() / 82.466 < 5e-3);
+    let [x0, y0, x1, y1] = s.window.bbox();
+    let mut disagree = 0;
+    for j in 0..200 {
+        for i in 0..200 {
+            let x = x0 + (x1 - x0) * (i as f64 + 0.37) / 200.0;
+            let y = y0 + (y1 - y0) * (j as f64 + 0.61) / 200.0;
+            if r.contains(x, y) != s.window.contains(x, y) {
+                disagree += 1;
+            }
+        }
+    }
+    assert_eq!(disagree, 0);
+}
+
+#[test]
+fn surface_peaks_at_a_planted_cluster_and_keeps_mass() {
+    let s = study();
+    let o = SurfaceOptions {
+        bandwidth: BandwidthOptions {
+            method: BandwidthMethod::Fixed,
+            fixed_m: Some(200.0),
+            ..Default::default()
+        },
+        edge: EdgeCorrection::JonesDiggle,
+        ..Default::default()
+    };
+    let surf = kernel_surface(&s.events, &s.window, &o).unwrap();
+    assert!((surf.integral_events - s.events.len() as f64).abs() / (s.events.len() as f64) < 5e-3);
+    let k = (0..surf.grid.values.len())
+        .max_by(|&a, &b| surf.grid.values[a].total_cmp(&surf.grid.values[b]))
+        .unwrap();
+    let peak = surf.grid.centre(k % surf.grid.nx, k / surf.grid.nx);
+    let centres = planted(&s);
+    assert!(
+        centres.iter().any(|&c| near(peak, c, 400.0)),
+        "peak at {peak:?}"
+    );
+    // The 50 % isopleth exists and is a small part of the town.
+    let iso = surf.isopleths(&[0.5]);
+    assert!(iso.contours[0].area_km2 > 0.0 && iso.contours[0].area_km2 < surf.area_km2 * 0.5);
+    assert!(surf.max_per_km2 > 100.0 && surf.max_per_km2 < 1.0e4);
+}
+
+#[test]
+fn dbscan_finds_the_gaussian_cluster() {
+    // Cluster A: 120 events, σ = 250 m; background ≈ 15 events/km².
+    let s = study();
+    let r = dbscan(
+        &s.events,
+        &DbscanOptions {
+            eps_m: 150.0,
+            min_samples: 8,
+            use_weights: false,
+        },
+    )
+    .unwrap();
+    let a = planted(&s)[0];
+    let hit = r
+        .clusters
+        .iter()
+        .find(|c| near((c.centre_x, c.centre_y), a, 300.0))
+        .expect("a DBSCAN cluster near planted cluster A");
+    assert!(hit.members >= 50, "{} members", hit.members);
+    assert_eq!(r.labels.len(), s.events.len());
+    assert_eq!(r.noise, r.labels.iter().filter(|&&l| l < 0).count());
+}
+
+#[test]
+fn scan_against_population_finds_a_planted_cluster() {
+    let s = study();
+    let o = ScanOptions {
+        model: ScanModel::Auto,
+        n_sim: 99,
+        seed: 7,
+        ..Default::default()
+    };
+    let mut job = ScanJob::new(&s.events, s.controls.as_ref(), &s.window, &o).unwrap();
+    while job.progress().done < 99 {
+        job.run_batch(25);
+    }
+    let r = job.finish();
+    assert_eq!(r.model, ScanModel::Bernoulli);
+    assert!(r.p_value <= 0.01, "p = {}", r.p_value);
+    let m = &r.clusters[0];
+    let centres = planted(&s);
+    assert!(
+        centres
+            .iter()
+            .any(|&c| near((m.centre_x, m.centre_y), c, m.radius_m + 400.0)),
+        "most likely cluster at ({}, {}) r = {}",
+        m.centre_x,
+        m.centre_y,
+        m.radius_m
+    );
+    assert!(m.relative_risk > 1.5);
+}
