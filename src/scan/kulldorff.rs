@@ -147,6 +147,8 @@ pub struct ScanCluster {
     pub centre_x: f64,
     pub centre_y: f64,
     /// Distance from the centre to the farthest region included, metres.
+    /// For grid regions these are cell centres, so the circle drawn with this
+    /// radius matches the window to within half a cell.
     pub radius_m: f64,
     /// Regions in the window (indices into the scan's regions).
     pub regions: Vec<usize>,
