@@ -309,9 +309,9 @@ mod tests {
         let (eps, ms) = (0.75, 4);
         let (l, c) = dbscan_labels(&x, &y, eps, ms, None);
         let near = |i: usize, j: usize| (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2) <= eps * eps;
-        for i in 0..n {
+        for (i, &ci) in c.iter().enumerate() {
             let cnt = (0..n).filter(|&j| near(i, j)).count();
-            assert_eq!(c[i], cnt >= ms);
+            assert_eq!(ci, cnt >= ms);
         }
         let mut want = vec![-1; n];
         let mut lab = 0;

@@ -187,8 +187,8 @@ fn bernoulli_null_keeps_case_total_and_region_caps() {
     for _ in 0..200 {
         job.simulate(&mut rng, &mut cases);
         assert_eq!(cases.iter().sum::<u32>(), 3);
-        for k in 0..3 {
-            assert!(cases[k] as f64 <= regions.population[k]);
+        for (c, p) in cases.iter().zip(&regions.population) {
+            assert!(*c as f64 <= *p);
         }
     }
 }
