@@ -705,7 +705,12 @@ fn report_html(
         ));
         body.push_str("<h3>Settings</h3>");
         body.push_str(&kv(&settings_rows(&m.method)));
-        body.push_str("<h3>Achieved shift and k</h3><table><thead><tr><th></th><th>min</th><th>lower quartile</th><th>median</th><th>upper quartile</th><th>max</th></tr></thead><tbody>");
+        body.push_str(if ms.k.is_some() {
+            "<h3>Achieved shift and k</h3>"
+        } else {
+            "<h3>Achieved shift</h3>"
+        });
+        body.push_str("<table><thead><tr><th></th><th>min</th><th>lower quartile</th><th>median</th><th>upper quartile</th><th>max</th></tr></thead><tbody>");
         body.push_str(&spread_row("Shift", &m.displacement, " m", 1));
         body.push_str("</tbody></table>");
         if let Some(k) = &ms.k {
@@ -896,28 +901,22 @@ fn report_html(
             body.push_str(&format!("<p class=\"note\">{}</p>", esc(w)));
         }
         let zones = ts.zone_names.is_some();
-        body.push_str("<table class=\"cells\"><thead><tr><th>Area</th><th>Count</th>");
-        if ts.population_source.is_some() {
-            body.push_str("<th>Population</th><th>Rate</th>");
-        }
-        body.push_str("</tr></thead><tbody>");
+        let with_pop = ts.population_source.is_some();
         let mut listed = 0;
+        let mut items = String::new();
         for c in &t.cells {
-            if !zones && c.count == Some(0) {
-                continue;
-            }
-            if !zones && !c.in_area && c.count.is_none_or(|v| v == 0) && !c.suppressed {
+            if !zones && !c.suppressed && c.count.is_none_or(|v| v == 0) {
                 continue;
             }
             listed += 1;
-            body.push_str(&format!(
-                "<tr><td>{}</td><td>{}</td>",
+            let mut line = format!(
+                "<li><span>{}</span> <b>{}</b>",
                 esc(&c.id),
-                c.count.map_or("suppressed".to_string(), |v| v.to_string())
-            ));
-            if ts.population_source.is_some() {
-                body.push_str(&format!(
-                    "<td>{}</td><td>{}</td>",
+                c.count.map_or("hidden".to_string(), |v| v.to_string())
+            );
+            if with_pop {
+                line.push_str(&format!(
+                    " <small>pop. {}, rate {}</small>",
                     c.population.map_or("—".into(), |p| num(p, 0)),
                     c.rate.map_or("—".into(), |r| {
                         num(r, 2)
@@ -929,30 +928,34 @@ fn report_html(
                     })
                 ));
             }
-            body.push_str("</tr>");
+            line.push_str("</li>");
+            items.push_str(&line);
         }
-        body.push_str("</tbody></table>");
+        body.push_str(&format!(
+            "<h3>Count per area</h3><ul class=\"cells{}\">{items}</ul>",
+            if with_pop { " wide" } else { "" }
+        ));
         if !zones {
             body.push_str(&format!(
-                "<p class=\"note\">{listed} cells listed; cells not listed have a count of 0. Cell ids are r&lt;row&gt;c&lt;column&gt; of the grid.</p>"
+                "<p class=\"note\">{listed} areas listed; areas not listed have a count of 0. \
+                 Ids are r&lt;row&gt;c&lt;column&gt; of the grid; \"hidden\" marks a suppressed count.</p>"
             ));
         }
-        body.push_str("<h3>Published totals</h3><table><thead><tr><th>Total</th><th>Value</th></tr></thead><tbody>");
+        body.push_str("<h3>Published totals</h3><ul class=\"cells\">");
         for l in &t.lines {
             let name = match l.kind {
                 LineKind::Grand => "all areas".to_string(),
                 _ => l.name.clone(),
             };
             body.push_str(&format!(
-                "<tr><td>{}</td><td>{}</td></tr>",
+                "<li><span>{}</span> <b>{}</b></li>",
                 esc(&name),
                 l.total.map_or("withheld".to_string(), |v| v.to_string())
             ));
         }
         body.push_str(&format!(
-            "<tr><td>outside every area</td><td>{}</td></tr></tbody></table>",
-            t.outside
-                .map_or("suppressed".to_string(), |v| v.to_string())
+            "<li><span>outside every area</span> <b>{}</b></li></ul>",
+            t.outside.map_or("hidden".to_string(), |v| v.to_string())
         ));
         body.push_str("</section>");
     }
@@ -1002,6 +1005,7 @@ table{border-collapse:collapse;margin:.3rem 0;font-size:.9rem}th,td{border:1px s
 table.kv th{background:#f7f8f9;font-weight:600;max-width:22rem}td{font-variant-numeric:tabular-nums}\
 figure{margin:1rem 0}figure img{max-width:100%;border:1px solid #c9d0d8}figcaption{font-size:.85rem;color:#4d5866}\
 .meta,.note,footer{color:#4d5866;font-size:.85rem}footer{margin-top:2rem;border-top:1px solid #c9d0d8;padding-top:.4rem}\
+ul.cells{columns:7 7.5rem;list-style:none;padding:0;margin:.3rem 0;font-size:.85rem;font-variant-numeric:tabular-nums}ul.cells.wide{columns:3 16rem}ul.cells li{break-inside:avoid;padding:.05rem 0}ul.cells span{color:#4d5866}ul.cells small{color:#4d5866}\
 @media print{body{margin:0;max-width:none;font-size:11px}section{break-inside:auto}table,figure{break-inside:avoid}h2{break-after:avoid}}";
 
 #[derive(Serialize)]

@@ -144,8 +144,13 @@
     if (!state.mask && !state.table) $('share-only').checked = false;
     state.onlyShared = $('share-only').checked;
     const geographic = !!(state.snap && state.snap.study && state.snap.study.projection && state.snap.study.projection.kind === 'transverse_mercator');
-    $('share-coords').querySelector('option[value=lon_lat]').disabled = !geographic;
-    if (!geographic) $('share-coords').value = 'metres';
+    const coords = $('share-coords');
+    if (coords.dataset.geographic !== String(geographic)) {
+      // New data: longitude/latitude when the events came that way.
+      coords.dataset.geographic = String(geographic);
+      coords.querySelector('option[value=lon_lat]').disabled = !geographic;
+      coords.value = geographic ? 'lon_lat' : 'metres';
+    }
     for (const b of document.querySelectorAll('#sharing [data-export]')) {
       const [what] = b.dataset.export.split(':');
       b.disabled = what === 'masked_points' ? !state.mask
@@ -517,7 +522,7 @@
     items.push(['Original coordinates', unmasked ? 'YES: the original locations, labelled "unmasked, internal use only"' : 'none']);
     if (what === 'masked_points' || what === 'report') items.push(['Points left out (could not be masked)', fmt(p.points_left_out)]);
     if (what !== 'unmasked_points') items.push(['Masking seed', 'not written (with it the shifts could be undone)']);
-    box.replaceChildren(
+    box.replaceChildren(...[
       el('h3', { id: 'share-preview-title' }, 'What leaves the page'),
       el('dl', { class: 'figures', id: 'share-preview-list' }, ...items.flatMap(([k, v]) => [el('dt', null, k), el('dd', null, v)])),
       el('h4', null, 'Cautions written into the file'),
@@ -526,7 +531,7 @@
         ' I understand this file holds the original, unmasked locations, is for internal use only and must not be shared.') : null,
       el('div', { class: 'share-actions' },
         el('button', { type: 'button', id: 'share-save', disabled: unmasked }, 'Save the file'),
-        el('button', { type: 'button', id: 'share-cancel', class: 'quiet' }, 'Cancel')));
+        el('button', { type: 'button', id: 'share-cancel', class: 'quiet' }, 'Cancel'))].filter(Boolean));
     box.classList.toggle('danger-box', unmasked);
     box.hidden = false;
     if (unmasked) $('share-confirm-unmasked').addEventListener('change', () => { $('share-save').disabled = !$('share-confirm-unmasked').checked; });
