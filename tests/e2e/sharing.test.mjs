@@ -157,3 +157,37 @@ test('mask, count, preview and save: the report opens offline with no request an
   await rp.screenshot({ path: join(out, 'sharing-report-2.png') });
   await ctx2.close();
 });
+
+test('k-anonymity mode against the loaded population: k shown, points that fall short listed with their rows', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  await page.check('#share-method-k');
+  assert.equal(await page.isVisible('#share-k-fields'), true);
+  assert.equal(await page.isVisible('#share-ring-fields'), false);
+  await page.fill('#share-k', '10');
+  await page.fill('#share-kmax', '250');
+  await page.selectOption('#share-against', 'population');
+  await act(page, () => page.click('#share-mask'));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  const summary = await page.textContent('#share-mask-summary');
+  const m = /([\d,]+) of 1,500 points masked .*; ([\d,]+) could not be masked/.exec(summary);
+  assert.ok(m, summary);
+  const masked = Number(m[1].replace(/,/g, ''));
+  const left = Number(m[2].replace(/,/g, ''));
+  assert.equal(masked + left, 1500);
+  assert.ok(left > 0, 'with these settings some points cannot reach k = 10');
+  const kCells = await page.$$eval('#share-k-table td', (tds) => tds.map((td) => td.textContent));
+  assert.equal(kCells[0], 'min 10', 'every shared point reaches k = 10');
+  assert.equal(kCells[3], 'below target 0 %');
+  const rows = await page.$$eval('#share-unplaced tbody tr', (trs) => trs.map((tr) => [tr.cells[0].textContent, tr.cells[1].textContent]));
+  assert.equal(rows.length, Math.min(left, 500));
+  for (const [row, why] of rows) {
+    assert.match(row, /^\d[\d,]*$/);
+    assert.match(why, /target 10|candidate addresses|inside the study area/);
+  }
+  // The masked-points preview counts exactly the masked points.
+  await act(page, () => page.click('[data-export="masked_points:csv"]'));
+  assert.match(await page.textContent('#share-preview-list'), new RegExp(`Rows / features\\s*${masked.toLocaleString('en-GB')}`));
+  await page.locator('#sharing').screenshot({ path: join(outDir(), 'sharing-panel-k.png') });
+  assert.deepEqual(log.pageErrors, []);
+});
