@@ -502,7 +502,7 @@ struct AggregateSummary<'a> {
 }
 
 const THRESHOLD_NOTE: &str =
-    "counts from 1 to 4 hidden by default: common practice, no single source (METHODS §11); \
+    "counts from 1 to 4 hidden by default: common practice, no single source; \
      some policies hide 1–9 or more";
 
 fn table_js(t: &TableState, total: u64) -> Result<JsValue, JsValue> {

@@ -57,8 +57,8 @@
       field('Count k against', el('select', { id: 'share-against' },
         el('option', { value: 'population' }, 'the loaded population layer'),
         el('option', { value: 'density' }, 'a residential density I type'))),
-      field('Residential density (per km²)', num('share-density', 1000), 'used only without a population layer'),
-      field('Area factor', num('share-factor', 1, { min: '1' }), 'with a density, 3 is suggested (Allshouse et al. 2010)'),
+      field('Residential density (per km²)', num('share-density', 1000), 'k expected from it, not counted'),
+      field('Area factor', num('share-factor', 1, { min: '1' }), '3 is suggested (Allshouse et al. 2010)'),
       el('label', { class: 'check share-wide' }, el('input', { type: 'checkbox', id: 'share-keep-below' }), ' keep points that fall short of k (listed), instead of leaving them out')),
     el('div', { class: 'share-actions' },
       el('button', { type: 'button', id: 'share-mask', disabled: true }, 'Mask the points'),
@@ -164,6 +164,9 @@
     const hasPop = !!(state.snap && state.snap.study && state.snap.study.controls);
     against.querySelector('option[value=population]').disabled = !hasPop;
     if (!hasPop) against.value = 'density';
+    else if (against.dataset.hadPop !== '1') against.value = 'population';
+    against.dataset.hadPop = hasPop ? '1' : '0';
+    densityFields();
   }
 
   function thresholdNote() {
@@ -672,6 +675,12 @@
       $('share-k-fields').hidden = method() !== 'k';
     });
   }
+  function densityFields() {
+    const density = $('share-against').value === 'density';
+    $('share-density').closest('label').hidden = !density;
+    $('share-factor').closest('label').hidden = !density;
+  }
+  $('share-against').addEventListener('change', densityFields);
   $('share-mask').addEventListener('click', act(() => (state.mask ? ($('share-remask').hidden = false) : mask(false))));
   $('share-remask-yes').addEventListener('click', act(() => mask(true)));
   $('share-remask-no').addEventListener('click', () => { $('share-remask').hidden = true; });
