@@ -1,0 +1,284 @@
+//! Edge corrections: weights that make up for neighbours we cannot see
+//! beyond the study-area boundary.
+//!
+//! * **Isotropic** (Ripley 1976, J Appl Prob 13:255–266; Ripley 1977, JRSS-B
+//!   39:172–212 [from memory]): e_ij = 2π·d_ij / ℓ(∂b(x_i, d_ij) ∩ W), the
+//!   reciprocal of the fraction of the circle centred at x_i through x_j
+//!   that lies inside W. The arc length is computed analytically from
+//!   circle–edge intersections ([`super::region`]), holes included. The
+//!   weight is asymmetric (e_ij ≠ e_ji). When the circle does not reach
+//!   the boundary (b_i ≥ d) the weight is 1 and no geometry is done; the
+//!   edges within reach of each point near the boundary are cached once
+//!   per pattern.
+//! * **Translation** (Ohser & Stoyan 1981; Ohser 1983 [from memory]):
+//!   e_ij = |W| / |W ∩ (W + (x_j − x_i))|. Exact for an axis-aligned
+//!   rectangle a×b: ab/((a − |Δx|)(b − |Δy|)). For other windows the set
+//!   covariance γ(v) = |W ∩ (W + v)| is computed exactly (polygon clipping
+//!   with `geo`'s boolean operations) at the nodes of a 65×65 grid of
+//!   offsets covering [−R, R]² (R the largest distance used) and
+//!   interpolated bilinearly. γ is continuous and piecewise quadratic in v,
+//!   so the interpolation error is O(step²); the test against shapely on a
+//!   polygon with a hole (tests/reference/edge_reference.json) bounds the
+//!   relative weight error at 1e-3.
+//! * **Border** (reduced sample): only points at least r from the boundary
+//!   serve as centres at distance r.
+//! * **None**: no correction (biased low; for comparison only).
+//!
+//! **Weight cap.** Isotropic and translation weights are capped at
+//! [`FunctionParams::weight_cap`](super::FunctionParams) (default 4, the
+//! largest isotropic weight in a rectangle for r up to ¼ of the shorter
+//! side, reached at a corner: METHODS §4.1 suggests capping at about 4
+//! [common practice]). The number of pair weights that hit the cap is
+//! reported.
+
+use super::region::Region;
+use geo::{Area, BooleanOps, Coord, LineString, MultiPolygon, Polygon, Translate};
+use serde::{Deserialize, Serialize};
+
+/// Edge correction for K, L and g.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Correction {
+    /// Ripley's isotropic correction (default).
+    #[default]
+    Isotropic,
+    /// Ohser–Stoyan translation correction.
+    Translation,
+    /// Border (reduced-sample) correction.
+    Border,
+    /// No correction.
+    None,
+}
+
+/// Edge correction for the nearest-neighbour functions G, F and J.
+/// (The Kaplan–Meier estimator of Baddeley & Gill 1997 is not offered.)
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum NnCorrection {
+    /// Border (reduced sample): default.
+    #[default]
+    Border,
+    /// No correction.
+    None,
+}
+
+/// Per-pattern cache for isotropic weights: the boundary distance of each
+/// point and, for points closer than `reach` to the boundary, the edges
+/// within `reach`.
+pub(crate) struct IsoCache {
+    pub b: Vec<f64>,
+    start: Vec<u32>,
+    near: Vec<u32>,
+    cap: f64,
+}
+
+impl IsoCache {
+    /// Builds the cache for points (in any order; indices are kept).
+    pub fn new(
+        region: &Region,
+        xs: &[f64],
+        ys: &[f64],
+        b: Vec<f64>,
+        reach: f64,
+        cap: f64,
+    ) -> IsoCache {
+        let mut start = Vec::with_capacity(xs.len() + 1);
+        let mut near = Vec::new();
+        start.push(0);
+        for i in 0..xs.len() {
+            if b[i] < reach {
+                near.extend(region.edges_near(xs[i], ys[i], reach));
+            }
+            start.push(near.len() as u32);
+        }
+        IsoCache {
+            b,
+            start,
+            near,
+            cap,
+        }
+    }
+
+    /// Isotropic weight of point `i` at (x, y) for a neighbour at distance
+    /// `d`; `capped` is set when the cap applies.
+    #[inline]
+    pub fn weight(
+        &self,
+        region: &Region,
+        i: usize,
+        x: f64,
+        y: f64,
+        d: f64,
+        capped: &mut u64,
+    ) -> f64 {
+        if d <= self.b[i] {
+            return 1.0;
+        }
+        let near = &self.near[self.start[i] as usize..self.start[i + 1] as usize];
+        let arc = region.arc_inside(x, y, d, near);
+        let w = std::f64::consts::TAU * d / arc;
+        if !(w < self.cap) {
+            *capped += 1;
+            self.cap
+        } else {
+            w
+        }
+    }
+}
+
+/// Isotropic weight of one pair (uncached; for checks and small jobs).
+pub(crate) fn isotropic_weight(region: &Region, x: f64, y: f64, d: f64) -> f64 {
+    if d <= 0.0 {
+        return 1.0;
+    }
+    let near = region.edges_near(x, y, d);
+    std::f64::consts::TAU * d / region.arc_inside(x, y, d, &near)
+}
+
+const TRANS_NODES: usize = 65;
+
+/// Translation-correction weights for one window.
+#[derive(Debug, Clone)]
+pub(crate) enum Translation {
+    Rectangle {
+        w: f64,
+        h: f64,
+    },
+    Table {
+        area: f64,
+        reach: f64,
+        step: f64,
+        gamma: Vec<f64>,
+    },
+}
+
+fn to_geo(region: &Region) -> MultiPolygon<f64> {
+    let polys = region
+        .polygons
+        .iter()
+        .map(|rings| {
+            let mut it = rings.iter().map(|r| {
+                LineString::from(
+                    r.iter()
+                        .map(|p| Coord { x: p[0], y: p[1] })
+                        .collect::<Vec<_>>(),
+                )
+            });
+            let ext = it.next().unwrap_or_else(|| LineString::new(vec![]));
+            Polygon::new(ext, it.collect())
+        })
+        .collect();
+    MultiPolygon(polys)
+}
+
+/// |W ∩ (W + (dx, dy))| by exact polygon clipping.
+pub(crate) fn set_covariance_exact(mp: &MultiPolygon<f64>, dx: f64, dy: f64) -> f64 {
+    let moved = mp.translate(dx, dy);
+    mp.intersection(&moved).unsigned_area()
+}
+
+impl Translation {
+    /// Prepares the weights for offsets up to `reach` in length.
+    pub fn new(region: &Region, reach: f64) -> Translation {
+        if let Some([x0, y0, x1, y1]) = region.rectangle {
+            return Translation::Rectangle {
+                w: x1 - x0,
+                h: y1 - y0,
+            };
+        }
+        let mp = to_geo(region);
+        let n = TRANS_NODES;
+        let step = 2.0 * reach / (n - 1) as f64;
+        let mut gamma = vec![0.0; n * n];
+        let half = n / 2;
+        for iy in 0..n {
+            for ix in 0..n {
+                let k = iy * n + ix;
+                let mirror = (n - 1 - iy) * n + (n - 1 - ix);
+                if mirror < k {
+                    gamma[k] = gamma[mirror]; // γ(v) = γ(−v)
+                    continue;
+                }
+                let dx = -reach + ix as f64 * step;
+                let dy = -reach + iy as f64 * step;
+                gamma[k] = if ix == half && iy == half {
+                    region.area
+                } else {
+                    set_covariance_exact(&mp, dx, dy)
+                };
+            }
+        }
+        Translation::Table {
+            area: region.area,
+            reach,
+            step,
+            gamma,
+        }
+    }
+
+    /// Weight |W| / γ(dx, dy), capped.
+    #[inline]
+    pub fn weight(&self, dx: f64, dy: f64, cap: f64, capped: &mut u64) -> f64 {
+        let w = match self {
+            Translation::Rectangle { w, h } => (w * h) / ((w - dx.abs()) * (h - dy.abs())),
+            Translation::Table {
+                area,
+                reach,
+                step,
+                gamma,
+            } => {
+                let n = TRANS_NODES;
+                let fx = ((dx + reach) / step).clamp(0.0, (n - 1) as f64);
+                let fy = ((dy + reach) / step).clamp(0.0, (n - 1) as f64);
+                let ix = (fx.floor() as usize).min(n - 2);
+                let iy = (fy.floor() as usize).min(n - 2);
+                let (tx, ty) = (fx - ix as f64, fy - iy as f64);
+                let g00 = gamma[iy * n + ix];
+                let g10 = gamma[iy * n + ix + 1];
+                let g01 = gamma[(iy + 1) * n + ix];
+                let g11 = gamma[(iy + 1) * n + ix + 1];
+                let g =
+                    (1.0 - ty) * ((1.0 - tx) * g00 + tx * g10) + ty * ((1.0 - tx) * g01 + tx * g11);
+                area / g
+            }
+        };
+        if !(w > 0.0 && w < cap) {
+            *capped += 1;
+            cap
+        } else {
+            w
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::distance::region::tests::{unit_square, wh};
+
+    /// METHODS §4.3 single-weight checks (translation).
+    #[test]
+    fn test_translation_single_weights() {
+        let mut c = 0;
+        // Unit square, (Δx, Δy) = (0.2, −0.1): e = 1/(0.8·0.9) = 1.38888889.
+        let t = Translation::new(&unit_square(), 0.3);
+        assert!((t.weight(0.2, -0.1, 10.0, &mut c) - 1.0 / 0.72).abs() < 1e-12);
+        // WH, shift (1, 0): e = 96/84 = 1.14285714 (exact clipping).
+        let w = wh();
+        let mp = to_geo(&w);
+        assert!((96.0 / set_covariance_exact(&mp, 1.0, 0.0) - 96.0 / 84.0).abs() < 1e-9);
+        // Interpolated table at a node-free offset: within 1e-3 relative.
+        let t = Translation::new(&w, 2.5);
+        let exact = 96.0 / set_covariance_exact(&mp, 1.0, 0.0);
+        assert!((t.weight(1.0, 0.0, 10.0, &mut c) / exact - 1.0).abs() < 1e-3);
+        assert_eq!(c, 0);
+    }
+
+    #[test]
+    fn test_isotropic_weight_one_inside() {
+        let w = unit_square();
+        assert_eq!(isotropic_weight(&w, 0.5, 0.5, 0.2), 1.0);
+        // Circle centred on a corner: a quarter inside, e = 4.
+        assert!((isotropic_weight(&w, 0.0, 0.0, 0.2) - 4.0).abs() < 1e-12);
+    }
+}
