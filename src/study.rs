@@ -6,10 +6,10 @@
 //! coincident points. Every analysis takes a `&Study` or its parts, so none
 //! has to re-check coordinates.
 
-use crate::error::InputError;
-use crate::input::{RawArea, RawLayer, Rejection};
+use crate::error::{InputError, InputErrorKind};
+use crate::input::{CoordKind, LengthUnit, RawArea, RawLayer, RejectReason, Rejection};
 use crate::projection::Projection;
-use crate::window::Window;
+use crate::window::{Window, WindowOrigin};
 use serde::{Deserialize, Serialize};
 
 /// What to use as the study area when no polygon file was given.
@@ -41,7 +41,45 @@ impl Pattern {
             return None;
         }
         let row = (1..=x.len() as u64).collect();
-        Some(Pattern { x, y, row, ..Default::default() })
+        Some(Pattern {
+            x,
+            y,
+            row,
+            ..Default::default()
+        })
+    }
+    /// The points `keep` (indices into the layer) of a layer, with
+    /// coordinates already in metres (`x`, `y` of the same length as `keep`).
+    /// Optional columns are subset alongside.
+    pub(crate) fn from_layer_subset(
+        layer: &RawLayer,
+        keep: &[usize],
+        x: Vec<f64>,
+        y: Vec<f64>,
+    ) -> Pattern {
+        let pick_f = |v: &Option<Vec<f64>>| {
+            v.as_ref().map(|v| {
+                keep.iter()
+                    .map(|&i| v.get(i).copied().unwrap_or(f64::NAN))
+                    .collect()
+            })
+        };
+        Pattern {
+            x,
+            y,
+            time: pick_f(&layer.time),
+            category: layer.category.as_ref().map(|v| {
+                keep.iter()
+                    .map(|&i| v.get(i).copied().unwrap_or(0))
+                    .collect()
+            }),
+            category_names: layer.category_names.clone(),
+            weight: pick_f(&layer.weight),
+            row: keep
+                .iter()
+                .map(|&i| layer.row.get(i).copied().unwrap_or(0))
+                .collect(),
+        }
     }
     pub fn len(&self) -> usize {
         self.x.len()
@@ -102,15 +140,537 @@ pub struct Study {
     pub warnings: Vec<String>,
 }
 
+/// How coordinates of a layer are described in messages.
+fn kind_words(k: CoordKind) -> String {
+    match k {
+        CoordKind::LonLat => "longitude/latitude".to_string(),
+        CoordKind::Planar { unit } => match unit {
+            LengthUnit::Metre => "planar metres".to_string(),
+            LengthUnit::Foot => "planar feet".to_string(),
+            LengthUnit::UsSurveyFoot => "planar US survey feet".to_string(),
+        },
+    }
+}
+
+/// Centre of the smallest longitude interval holding all `lons` (so data
+/// straddling ±180° is centred near ±180°, not near 0°).
+fn lon_centre(lons: impl Iterator<Item = f64> + Clone) -> f64 {
+    let (mut a0, mut a1, mut b0, mut b1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+    for l in lons.filter(|l| l.is_finite()) {
+        a0 = a0.min(l);
+        a1 = a1.max(l);
+        let s = if l < 0.0 { l + 360.0 } else { l };
+        b0 = b0.min(s);
+        b1 = b1.max(s);
+    }
+    if a0 > a1 {
+        return 0.0;
+    }
+    if a1 - a0 <= b1 - b0 {
+        (a0 + a1) / 2.0
+    } else {
+        let c = (b0 + b1) / 2.0;
+        if c > 180.0 {
+            c - 360.0
+        } else {
+            c
+        }
+    }
+}
+
+fn mid_range(v: impl Iterator<Item = f64>) -> f64 {
+    let (lo, hi) = v
+        .filter(|v| v.is_finite())
+        .fold((f64::MAX, f64::MIN), |(lo, hi), v| (lo.min(v), hi.max(v)));
+    if lo > hi {
+        0.0
+    } else {
+        (lo + hi) / 2.0
+    }
+}
+
+/// Counts events at exactly the same input coordinates.
+fn coincidence(x: &[f64], y: &[f64]) -> Coincidence {
+    let mut pts: Vec<(f64, f64)> = x.iter().copied().zip(y.iter().copied()).collect();
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
+    let mut c = Coincidence::default();
+    let mut k = 0;
+    while k < pts.len() {
+        let mut m = k + 1;
+        // `==` so that 0.0 and -0.0 count as the same place.
+        while m < pts.len() && pts[m].0 == pts[k].0 && pts[m].1 == pts[k].1 {
+            m += 1;
+        }
+        let run = m - k;
+        if run >= 2 {
+            c.locations += 1;
+            c.events += run;
+            c.largest = c.largest.max(run);
+        }
+        k = m;
+    }
+    c
+}
+
+/// Projects a layer and keeps the points inside the window; the rest become
+/// "outside the study area" rejections, merged with the reader's rejections
+/// in row order. Also returns the kept indices into the layer.
+fn place_layer(
+    layer: &RawLayer,
+    projection: &Projection,
+    window: &Window,
+) -> (Pattern, Vec<Rejection>, Vec<usize>) {
+    let n = layer.len();
+    let mut keep = Vec::with_capacity(n);
+    let (mut xs, mut ys) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    let mut rejections = layer.rejections.clone();
+    for i in 0..n {
+        let (e, no) = projection.forward(layer.x[i], layer.y[i]);
+        if e.is_finite() && no.is_finite() && window.contains(e, no) {
+            keep.push(i);
+            xs.push(e);
+            ys.push(no);
+        } else {
+            let mut value = format!("{}, {}", layer.x[i], layer.y[i]);
+            if value.chars().count() > 60 {
+                value = value.chars().take(60).collect();
+            }
+            rejections.push(Rejection {
+                row: layer.row.get(i).copied().unwrap_or(0),
+                column: None,
+                reason: RejectReason::OutsideStudyArea,
+                value,
+            });
+        }
+    }
+    rejections.sort_by_key(|r| r.row);
+    (
+        Pattern::from_layer_subset(layer, &keep, xs, ys),
+        rejections,
+        keep,
+    )
+}
+
 impl Study {
     /// Projects and validates the layers together.
+    ///
+    /// # Steps
+    /// 1. The events, the controls and the study area must all use the same
+    ///    kind of coordinates (lon/lat, or planar in the same unit), else
+    ///    `Mismatch`.
+    /// 2. Projection: for lon/lat, a transverse Mercator centred on the
+    ///    middle of the study area's bounding box (or the events' box when
+    ///    there is no area file); planar input is only scaled to metres.
+    /// 3. Window: the projected area polygons (edges are straight lines in
+    ///    metres between the projected corners), or, without an area file,
+    ///    the convex hull or bounding box of the projected events with a
+    ///    warning.
+    /// 4. Events and controls outside the window (holes included) become
+    ///    rejections with reason "outside the study area", column `None`
+    ///    and the input coordinates as value; rejection lists stay sorted by
+    ///    row. No event left → `NoValidRows`; no control left → `Mismatch`.
+    /// 5. Coincident events (exactly equal input coordinates) are counted
+    ///    and kept as they are: never dropped, merged or jittered.
+    ///
+    /// `events.len() + event_rejections.len() == events_rows_read` holds
+    /// whenever the reader's `accepted + rejected == rows_read` holds, i.e.
+    /// for one point per row. (A GeoJSON MultiPoint feature read as several
+    /// points would break the equality; the reader decides how to count it.)
     pub fn build(
         events: &RawLayer,
         area: Option<&RawArea>,
         controls: Option<&RawLayer>,
         fallback: AreaFallback,
     ) -> Result<Study, InputError> {
-        let _ = (events, area, controls, fallback);
-        todo!("study::build")
+        let kind = events.coords;
+        let mismatch = |what: &str, other: CoordKind| {
+            InputError::new(InputErrorKind::Mismatch {
+                detail: format!(
+                    "the events are in {} but the {what} is in {}; both must use the same \
+                     coordinates",
+                    kind_words(kind),
+                    kind_words(other)
+                ),
+            })
+        };
+        if let Some(a) = area {
+            if a.coords != kind {
+                return Err(mismatch("study area", a.coords));
+            }
+        }
+        if let Some(c) = controls {
+            if c.coords != kind {
+                return Err(mismatch("control layer", c.coords));
+            }
+        }
+        if events.is_empty() {
+            return Err(InputError::new(InputErrorKind::NoValidRows {
+                rows_read: events.rows_read,
+            }));
+        }
+
+        // 2. Projection centre.
+        let (cx, cy) = match area {
+            Some(a) => {
+                let verts = || a.polygons.iter().flatten().flatten();
+                (
+                    lon_centre(verts().map(|p| p[0])),
+                    mid_range(verts().map(|p| p[1])),
+                )
+            }
+            None => (
+                lon_centre(events.x.iter().copied()),
+                mid_range(events.y.iter().copied()),
+            ),
+        };
+        let projection = Projection::for_data(kind, cx, cy);
+        let mut warnings = Vec::new();
+
+        // 3. Window.
+        let window = match area {
+            Some(a) => {
+                let polys = a
+                    .polygons
+                    .iter()
+                    .map(|poly| {
+                        poly.iter()
+                            .map(|ring| {
+                                ring.iter()
+                                    .map(|p| {
+                                        let (e, n) = projection.forward(p[0], p[1]);
+                                        [e, n]
+                                    })
+                                    .collect()
+                            })
+                            .collect()
+                    })
+                    .collect();
+                Window::from_polygons(polys, WindowOrigin::File)?
+            }
+            None => {
+                let (px, py): (Vec<f64>, Vec<f64>) = (0..events.len())
+                    .map(|i| projection.forward(events.x[i], events.y[i]))
+                    .unzip();
+                let (w, shape) = match fallback {
+                    AreaFallback::ConvexHull => (
+                        Window::convex_hull_of(&px, &py)?,
+                        "the convex hull of the events",
+                    ),
+                    AreaFallback::BoundingBox => (
+                        Window::bounding_box_of(&px, &py)?,
+                        "the bounding box of the events",
+                    ),
+                };
+                warnings.push(format!(
+                    "No study-area file was given, so the study area is {shape}. An area drawn \
+                     around the points understates the space where events could have happened, \
+                     which biases clustering tests toward finding clustering (or hides \
+                     regularity); give the true study area if you have it."
+                ));
+                w
+            }
+        };
+
+        // Stretch of distances far from the centre.
+        if projection.is_geographic() {
+            let kmax = window
+                .polygons()
+                .iter()
+                .flatten()
+                .flatten()
+                .map(|p| {
+                    let (lon, lat) = projection.inverse(p[0], p[1]);
+                    projection.scale_factor(lon, lat)
+                })
+                .filter(|k| k.is_finite())
+                .fold(1.0_f64, f64::max);
+            if kmax > 1.001 {
+                warnings.push(format!(
+                    "The study area is large: at its far edge, distances in metres are {:.2} % \
+                     longer than on the ground, because the map flattening is exact only along \
+                     its central meridian.",
+                    (kmax - 1.0) * 100.0
+                ));
+            }
+        }
+
+        // 4. Place events and controls.
+        let (ev, event_rejections, kept) = place_layer(events, &projection, &window);
+        if ev.is_empty() {
+            return Err(InputError::new(InputErrorKind::NoValidRows {
+                rows_read: events.rows_read,
+            }));
+        }
+        let outside = event_rejections
+            .iter()
+            .filter(|r| r.reason == RejectReason::OutsideStudyArea)
+            .count();
+        if outside > 0 {
+            warnings.push(format!(
+                "{outside} event(s) lie outside the study area (or inside one of its holes) and \
+                 were left out; they are listed with the rejected rows."
+            ));
+        }
+        let (ctrl, control_rejections, controls_rows_read) = match controls {
+            Some(c) => {
+                let (p, rej, _) = place_layer(c, &projection, &window);
+                if p.is_empty() {
+                    return Err(InputError::new(InputErrorKind::Mismatch {
+                        detail: format!(
+                            "none of the {} control rows gives a point inside the study area",
+                            c.rows_read
+                        ),
+                    }));
+                }
+                (Some(p), rej, c.rows_read)
+            }
+            None => (None, Vec::new(), 0),
+        };
+
+        // 5. Coincident events, by input coordinates.
+        let ix: Vec<f64> = kept.iter().map(|&i| events.x[i]).collect();
+        let iy: Vec<f64> = kept.iter().map(|&i| events.y[i]).collect();
+        let coincident = coincidence(&ix, &iy);
+        if coincident.locations > 0 {
+            warnings.push(format!(
+                "{} events share a location with another event ({} locations, up to {} at one \
+                 place). They are kept as they are; they give nearest-neighbour distances of 0, \
+                 which pulls distance-based measures toward clustering.",
+                coincident.events, coincident.locations, coincident.largest
+            ));
+        }
+
+        Ok(Study {
+            projection,
+            window,
+            events: ev,
+            controls: ctrl,
+            event_rejections,
+            events_rows_read: events.rows_read,
+            control_rejections,
+            controls_rows_read,
+            coincident,
+            warnings,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::input::{ResolvedMapping, SourceFormat};
+
+    fn layer(coords: CoordKind, pts: &[(f64, f64)]) -> RawLayer {
+        // Rows 2.. as in a CSV with a header; row 3 rejected by the reader.
+        let rows: Vec<u64> = (0..pts.len() as u64)
+            .map(|i| if i == 0 { 2 } else { i + 3 })
+            .collect();
+        RawLayer {
+            format: SourceFormat::Csv {
+                delimiter: ',',
+                decimal_comma: false,
+            },
+            columns: vec!["x".into(), "y".into(), "day".into()],
+            mapping: ResolvedMapping::default(),
+            coords,
+            x: pts.iter().map(|p| p.0).collect(),
+            y: pts.iter().map(|p| p.1).collect(),
+            time: Some((0..pts.len()).map(|i| i as f64).collect()),
+            category: None,
+            category_names: vec![],
+            weight: None,
+            row: rows,
+            rejections: vec![Rejection {
+                row: 3,
+                column: Some("x".into()),
+                reason: RejectReason::NotANumber,
+                value: "abc".into(),
+            }],
+            rows_read: pts.len() as u64 + 1,
+            time_has_clock: false,
+        }
+    }
+
+    fn square_area(coords: CoordKind, x0: f64, y0: f64, s: f64, hole: bool) -> RawArea {
+        let mut rings = vec![vec![[x0, y0], [x0 + s, y0], [x0 + s, y0 + s], [x0, y0 + s]]];
+        if hole {
+            let (a, b) = (x0 + 0.4 * s, x0 + 0.6 * s);
+            let (c, d) = (y0 + 0.4 * s, y0 + 0.6 * s);
+            rings.push(vec![[a, c], [b, c], [b, d], [a, d]]);
+        }
+        RawArea {
+            polygons: vec![rings],
+            coords,
+        }
+    }
+
+    const METRE: CoordKind = CoordKind::Planar {
+        unit: LengthUnit::Metre,
+    };
+
+    #[test]
+    fn test_build_planar_with_area_and_hole() {
+        let ev = layer(
+            METRE,
+            &[(1.0, 1.0), (5.0, 5.0), (20.0, 3.0), (9.0, 9.0), (4.0, 5.0)],
+        );
+        let area = square_area(METRE, 0.0, 0.0, 10.0, true);
+        let s = Study::build(&ev, Some(&area), None, AreaFallback::ConvexHull).unwrap();
+        assert_eq!(s.events.x(), &[1.0, 9.0, 4.0]); // (4, 5) is on the hole's edge: inside
+        assert_eq!(s.events.row(), &[2, 6, 7]);
+        assert_eq!(s.events.time().unwrap(), &[0.0, 3.0, 4.0]);
+        let rows: Vec<u64> = s.event_rejections.iter().map(|r| r.row).collect();
+        assert_eq!(rows, vec![3, 4, 5]);
+        let out = &s.event_rejections[1];
+        assert_eq!(out.reason, RejectReason::OutsideStudyArea);
+        assert_eq!(out.column, None);
+        assert_eq!(out.value, "5, 5");
+        assert_eq!(
+            s.events.len() + s.event_rejections.len(),
+            s.events_rows_read as usize
+        );
+        assert_eq!(s.window.origin(), WindowOrigin::File);
+        assert_eq!(s.window.area(), 96.0);
+        assert!(s
+            .warnings
+            .iter()
+            .any(|w| w.contains("2 event(s) lie outside")));
+    }
+
+    #[test]
+    fn test_build_lonlat_centre_and_projection() {
+        let ev = layer(
+            CoordKind::LonLat,
+            &[(10.01, 44.02), (10.05, 44.05), (10.09, 44.08)],
+        );
+        let area = square_area(CoordKind::LonLat, 10.0, 44.0, 0.1, false);
+        let s = Study::build(&ev, Some(&area), None, AreaFallback::ConvexHull).unwrap();
+        match s.projection {
+            Projection::TransverseMercator { lon0, lat0 } => {
+                assert!((lon0 - 10.05).abs() < 1e-12 && (lat0 - 44.05).abs() < 1e-12);
+            }
+            _ => panic!("expected transverse Mercator"),
+        }
+        // The centre event maps to (0, 0); the area is about 8 km × 11 km.
+        assert!(s.events.x()[1].abs() < 1e-6 && s.events.y()[1].abs() < 1e-6);
+        let a = s.window.area() / 1e6;
+        assert!(a > 85.0 && a < 92.0, "{a}");
+        assert!(s.event_rejections.len() == 1 && s.warnings.is_empty());
+    }
+
+    #[test]
+    fn test_dateline_centre() {
+        assert!((lon_centre([179.0, -179.0, 179.5].into_iter()) - 180.0).abs() < 1e-12);
+        assert!((lon_centre([178.0, -179.0].into_iter()) - 179.5).abs() < 1e-12);
+        assert_eq!(lon_centre([-10.0, 20.0].into_iter()), 5.0);
+        let ev = layer(
+            CoordKind::LonLat,
+            &[(179.9, -16.0), (-179.9, -16.1), (179.95, -16.2)],
+        );
+        let s = Study::build(&ev, None, None, AreaFallback::BoundingBox).unwrap();
+        let b = s.window.bbox();
+        // About 0.2° of longitude wide (≈ 21 km), not 360°.
+        assert!(b[2] - b[0] < 25_000.0 && b[2] - b[0] > 15_000.0, "{b:?}");
+    }
+
+    #[test]
+    fn test_mismatch_between_layers() {
+        let ev = layer(CoordKind::LonLat, &[(10.0, 44.0)]);
+        let area = square_area(METRE, 0.0, 0.0, 10.0, false);
+        let e = Study::build(&ev, Some(&area), None, AreaFallback::ConvexHull).unwrap_err();
+        assert!(matches!(e.kind, InputErrorKind::Mismatch { .. }));
+        assert!(e.to_string().contains("longitude/latitude") && e.to_string().contains("metres"));
+        let ctrl = layer(
+            CoordKind::Planar {
+                unit: LengthUnit::Foot,
+            },
+            &[(1.0, 1.0)],
+        );
+        let ev = layer(METRE, &[(1.0, 1.0)]);
+        let e = Study::build(&ev, None, Some(&ctrl), AreaFallback::ConvexHull).unwrap_err();
+        assert!(e.to_string().contains("control layer is in planar feet"));
+    }
+
+    #[test]
+    fn test_no_valid_rows_when_all_outside() {
+        let ev = layer(METRE, &[(20.0, 20.0), (30.0, 30.0)]);
+        let area = square_area(METRE, 0.0, 0.0, 10.0, false);
+        let e = Study::build(&ev, Some(&area), None, AreaFallback::ConvexHull).unwrap_err();
+        assert_eq!(e.kind, InputErrorKind::NoValidRows { rows_read: 3 });
+    }
+
+    #[test]
+    fn test_fallback_windows_warn() {
+        let ev = layer(METRE, &[(0.0, 0.0), (4.0, 0.0), (0.0, 3.0), (1.0, 1.0)]);
+        let s = Study::build(&ev, None, None, AreaFallback::ConvexHull).unwrap();
+        assert_eq!(s.window.origin(), WindowOrigin::ConvexHull);
+        assert_eq!(s.window.area(), 6.0);
+        assert_eq!(s.events.len(), 4);
+        assert!(s.warnings[0].contains("convex hull") && s.warnings[0].contains("toward"));
+        let s = Study::build(&ev, None, None, AreaFallback::BoundingBox).unwrap();
+        assert_eq!(s.window.area(), 12.0);
+        // Too few distinct points for a hull: a clear BadPolygon error.
+        let ev = layer(METRE, &[(0.0, 0.0), (1.0, 1.0)]);
+        let e = Study::build(&ev, None, None, AreaFallback::ConvexHull).unwrap_err();
+        assert!(matches!(e.kind, InputErrorKind::BadPolygon { .. }));
+    }
+
+    #[test]
+    fn test_coincident_events_counted_not_dropped() {
+        let pts = [
+            (1.0, 1.0),
+            (2.0, 2.0),
+            (1.0, 1.0),
+            (3.0, 1.0),
+            (1.0, 1.0),
+            (2.0, 2.0),
+        ];
+        let ev = layer(METRE, &pts);
+        let area = square_area(METRE, 0.0, 0.0, 10.0, false);
+        let s = Study::build(&ev, Some(&area), None, AreaFallback::ConvexHull).unwrap();
+        assert_eq!(s.events.len(), 6);
+        assert_eq!(
+            s.coincident,
+            Coincidence {
+                locations: 2,
+                events: 5,
+                largest: 3
+            }
+        );
+        assert!(s
+            .warnings
+            .iter()
+            .any(|w| w.contains("5 events share a location")));
+        assert_eq!(coincidence(&[], &[]), Coincidence::default());
+        assert_eq!(coincidence(&[0.0, -0.0], &[1.0, 1.0]).events, 2);
+    }
+
+    #[test]
+    fn test_controls_placed_and_all_outside() {
+        let ev = layer(METRE, &[(1.0, 1.0), (2.0, 2.0)]);
+        let ctrl = layer(METRE, &[(3.0, 3.0), (50.0, 50.0), (4.0, 4.0)]);
+        let area = square_area(METRE, 0.0, 0.0, 10.0, false);
+        let s = Study::build(&ev, Some(&area), Some(&ctrl), AreaFallback::ConvexHull).unwrap();
+        let c = s.controls.as_ref().unwrap();
+        assert_eq!(c.x(), &[3.0, 4.0]);
+        assert_eq!(s.control_rejections.len(), 2);
+        assert_eq!(
+            c.len() + s.control_rejections.len(),
+            s.controls_rows_read as usize
+        );
+        let ctrl = layer(METRE, &[(30.0, 3.0)]);
+        let e = Study::build(&ev, Some(&area), Some(&ctrl), AreaFallback::ConvexHull).unwrap_err();
+        assert!(matches!(e.kind, InputErrorKind::Mismatch { .. }));
+    }
+
+    #[test]
+    fn test_planar_feet_converted() {
+        let ft = CoordKind::Planar {
+            unit: LengthUnit::Foot,
+        };
+        let ev = layer(ft, &[(100.0, 100.0), (200.0, 100.0), (100.0, 300.0)]);
+        let s = Study::build(&ev, None, None, AreaFallback::BoundingBox).unwrap();
+        assert!((s.window.area() - 100.0 * 200.0 * 0.3048 * 0.3048).abs() < 1e-9);
+        assert_eq!(s.events.x()[1], 200.0 * 0.3048);
     }
 }

@@ -3,9 +3,31 @@
 //! A [`Window`] is the study area in planar metres: one or more polygons, each
 //! with any number of holes (a lake, an airport). Points on the boundary count
 //! as inside, for data and simulations alike.
+//!
+//! # Conventions
+//! * Rings are stored closed (first vertex repeated last), exterior rings
+//!   counter-clockwise and holes clockwise, whatever the input order was.
+//! * Containment uses the even-odd rule over all rings of a polygon (so a
+//!   point in a hole is outside), and a point is in the window if it is in
+//!   any of its polygons. A point within `1e-12 ×` (larger side of the
+//!   bounding box) of any edge counts as on the boundary, hence inside; this
+//!   makes rounded coordinates that lie on an edge behave the same way in data
+//!   and simulations (METHODS §1, "boundary counts as inside").
+//! * The perimeter includes the boundaries of holes (METHODS §0).
+//! * Not checked: self-intersecting rings, holes that are not inside their
+//!   exterior ring, or overlapping polygons (RFC 7946 GeoJSON forbids all
+//!   three). Overlapping polygons would have their overlap counted twice in
+//!   [`Window::area`].
+//!
+//! # Speed
+//! The edges are kept in horizontal bands (an edge is listed in every band
+//! its y-range meets). A containment test looks only at the edges of the
+//! band holding the point, so it costs O(edges per band) instead of
+//! O(all edges). Windows with at most 64 edges use a single band.
 
-use crate::error::InputError;
+use crate::error::{InputError, InputErrorKind};
 use crate::rng::Rng;
+use rand::RngExt;
 use serde::Serialize;
 
 /// Where the study area came from.
@@ -20,14 +42,131 @@ pub enum WindowOrigin {
     BoundingBox,
 }
 
+/// One boundary segment, tagged with the polygon it belongs to.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Edge {
+    a: [f64; 2],
+    b: [f64; 2],
+    poly: u32,
+}
+
+/// Edges grouped by horizontal band (compressed rows: the edges of band `k`
+/// are `idx[start[k]..start[k + 1]]`, in increasing edge order).
+#[derive(Debug, Clone, PartialEq)]
+struct Bands {
+    y0: f64,
+    h: f64,
+    start: Vec<u32>,
+    idx: Vec<u32>,
+}
+
+impl Bands {
+    fn count(&self) -> usize {
+        self.start.len() - 1
+    }
+    fn band_of(&self, y: f64) -> usize {
+        let k = ((y - self.y0) / self.h).floor();
+        if k.is_nan() || k < 0.0 {
+            0
+        } else {
+            (k as usize).min(self.count() - 1)
+        }
+    }
+}
+
 /// A study area: polygons with holes, in metres.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Window {
-    // Implementation detail; see accessors.
-    #[allow(dead_code)]
     polygons: Vec<Vec<Vec<[f64; 2]>>>,
-    #[allow(dead_code)]
     origin: WindowOrigin,
+    edges: Vec<Edge>,
+    bands: Bands,
+    area: f64,
+    perimeter: f64,
+    bbox: [f64; 4],
+    /// Distance below which a point counts as on the boundary.
+    tol: f64,
+}
+
+fn bad(detail: String) -> InputError {
+    InputError::new(InputErrorKind::BadPolygon { detail })
+}
+
+/// Twice the signed area of an open ring (shoelace, relative to the first
+/// vertex for accuracy); positive when counter-clockwise.
+fn signed_area2(ring: &[[f64; 2]]) -> f64 {
+    let o = ring[0];
+    let mut s = 0.0;
+    for k in 1..ring.len().saturating_sub(1) {
+        let p = ring[k];
+        let q = ring[k + 1];
+        s += (p[0] - o[0]) * (q[1] - o[1]) - (q[0] - o[0]) * (p[1] - o[1]);
+    }
+    s
+}
+
+/// Squared distance from (x, y) to the segment a–b.
+fn seg_dist2(x: f64, y: f64, a: [f64; 2], b: [f64; 2]) -> f64 {
+    let dx = b[0] - a[0];
+    let dy = b[1] - a[1];
+    let px = x - a[0];
+    let py = y - a[1];
+    let len2 = dx * dx + dy * dy;
+    let t = if len2 > 0.0 {
+        ((px * dx + py * dy) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    let ex = px - t * dx;
+    let ey = py - t * dy;
+    ex * ex + ey * ey
+}
+
+/// Cleans one ring: finite check, consecutive duplicates (and the closing
+/// vertex) dropped, at least 3 distinct vertices, non-zero area. Returns the
+/// open ring and its doubled signed area.
+fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), InputError> {
+    let mut out: Vec<[f64; 2]> = Vec::with_capacity(ring.len());
+    for (k, p) in ring.iter().enumerate() {
+        if !(p[0].is_finite() && p[1].is_finite()) {
+            return Err(bad(format!(
+                "{what}, corner {}: coordinate ({}, {}) is not a finite number",
+                k + 1,
+                p[0],
+                p[1]
+            )));
+        }
+        if out.last() != Some(p) {
+            out.push(*p);
+        }
+    }
+    while out.len() > 1 && out.first() == out.last() {
+        out.pop();
+    }
+    let mut distinct = out.clone();
+    distinct.sort_by(|a, b| a[0].total_cmp(&b[0]).then(a[1].total_cmp(&b[1])));
+    distinct.dedup();
+    if distinct.len() < 3 {
+        return Err(bad(format!(
+            "{what} has {} distinct corner(s); a ring needs at least 3",
+            distinct.len()
+        )));
+    }
+    let a2 = signed_area2(&out);
+    let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
+    for p in &out {
+        x0 = x0.min(p[0]);
+        y0 = y0.min(p[1]);
+        x1 = x1.max(p[0]);
+        y1 = y1.max(p[1]);
+    }
+    let diag2 = (x1 - x0).powi(2) + (y1 - y0).powi(2);
+    if !(a2.abs() > 1e-12 * diag2) {
+        return Err(bad(format!(
+            "{what} has zero area (its corners lie on one line)"
+        )));
+    }
+    Ok((out, a2))
 }
 
 impl Window {
@@ -38,19 +177,205 @@ impl Window {
         polygons: Vec<Vec<Vec<[f64; 2]>>>,
         origin: WindowOrigin,
     ) -> Result<Window, InputError> {
-        let _ = (polygons, origin);
-        todo!("window::from_polygons")
+        if polygons.is_empty() {
+            return Err(bad("the study area contains no polygon".to_string()));
+        }
+        let many = polygons.len() > 1;
+        let mut clean: Vec<Vec<Vec<[f64; 2]>>> = Vec::with_capacity(polygons.len());
+        let mut area = 0.0;
+        for (pi, poly) in polygons.iter().enumerate() {
+            let pname = if many {
+                format!("polygon {}", pi + 1)
+            } else {
+                "the polygon".into()
+            };
+            if poly.is_empty() {
+                return Err(bad(format!("{pname} has no rings")));
+            }
+            let mut rings = Vec::with_capacity(poly.len());
+            let mut parea = 0.0;
+            for (ri, ring) in poly.iter().enumerate() {
+                let what = if ri == 0 {
+                    format!("{pname}, outer ring")
+                } else {
+                    format!("{pname}, hole {ri}")
+                };
+                let (mut r, a2) = clean_ring(ring, &what)?;
+                // Exterior counter-clockwise, holes clockwise.
+                if (ri == 0) != (a2 > 0.0) {
+                    r.reverse();
+                }
+                parea += if ri == 0 {
+                    a2.abs() / 2.0
+                } else {
+                    -a2.abs() / 2.0
+                };
+                r.push(r[0]);
+                rings.push(r);
+            }
+            if !(parea > 0.0) {
+                return Err(bad(format!("{pname}: its holes cover all of its area")));
+            }
+            area += parea;
+            clean.push(rings);
+        }
+        Ok(Self::assemble(clean, origin, area))
     }
+
+    /// Builds the derived fields from cleaned, oriented, closed rings.
+    fn assemble(polygons: Vec<Vec<Vec<[f64; 2]>>>, origin: WindowOrigin, area: f64) -> Window {
+        let mut edges = Vec::new();
+        let mut perimeter = 0.0;
+        let mut bbox = [f64::MAX, f64::MAX, f64::MIN, f64::MIN];
+        for (pi, poly) in polygons.iter().enumerate() {
+            for ring in poly {
+                for w in ring.windows(2) {
+                    let (a, b) = (w[0], w[1]);
+                    perimeter += (b[0] - a[0]).hypot(b[1] - a[1]);
+                    edges.push(Edge {
+                        a,
+                        b,
+                        poly: pi as u32,
+                    });
+                    bbox[0] = bbox[0].min(a[0]);
+                    bbox[1] = bbox[1].min(a[1]);
+                    bbox[2] = bbox[2].max(a[0]);
+                    bbox[3] = bbox[3].max(a[1]);
+                }
+            }
+        }
+        let extent = (bbox[2] - bbox[0]).max(bbox[3] - bbox[1]);
+        let tol = 1e-12 * extent;
+        let nb = if edges.len() <= 64 {
+            1
+        } else {
+            (edges.len() / 2).clamp(1, 1 << 16)
+        };
+        let h = ((bbox[3] - bbox[1]) / nb as f64).max(f64::MIN_POSITIVE);
+        let mut bands = Bands {
+            y0: bbox[1],
+            h,
+            start: vec![0; nb + 1],
+            idx: Vec::new(),
+        };
+        let span = |bands: &Bands, e: &Edge| {
+            let lo = bands.band_of(e.a[1].min(e.b[1]) - tol);
+            let hi = bands.band_of(e.a[1].max(e.b[1]) + tol);
+            (lo, hi)
+        };
+        for e in &edges {
+            let (lo, hi) = span(&bands, e);
+            for k in lo..=hi {
+                bands.start[k + 1] += 1;
+            }
+        }
+        for k in 0..nb {
+            bands.start[k + 1] += bands.start[k];
+        }
+        let mut fill: Vec<u32> = bands.start[..nb].to_vec();
+        bands.idx = vec![0; bands.start[nb] as usize];
+        for (i, e) in edges.iter().enumerate() {
+            let (lo, hi) = span(&bands, e);
+            for f in &mut fill[lo..=hi] {
+                bands.idx[*f as usize] = i as u32;
+                *f += 1;
+            }
+        }
+        Window {
+            polygons,
+            origin,
+            edges,
+            bands,
+            area,
+            perimeter,
+            bbox,
+            tol,
+        }
+    }
+
+    /// The rectangle [x0, x1] × [y0, y1] as a window (origin `File`).
+    pub fn rectangle(x0: f64, y0: f64, x1: f64, y1: f64) -> Result<Window, InputError> {
+        Window::from_polygons(
+            vec![vec![vec![[x0, y0], [x1, y0], [x1, y1], [x0, y1]]]],
+            WindowOrigin::File,
+        )
+    }
+
     /// The bounding box of the points as a window.
+    ///
+    /// Non-finite points are ignored. Fails (with `BadPolygon`) when there
+    /// are no points or they all share one x or one y value.
     pub fn bounding_box_of(x: &[f64], y: &[f64]) -> Result<Window, InputError> {
-        let _ = (x, y);
-        todo!("window::bounding_box_of")
+        let mut b = [f64::MAX, f64::MAX, f64::MIN, f64::MIN];
+        for (&px, &py) in x.iter().zip(y) {
+            if px.is_finite() && py.is_finite() {
+                b = [b[0].min(px), b[1].min(py), b[2].max(px), b[3].max(py)];
+            }
+        }
+        if !(b[2] > b[0] && b[3] > b[1]) {
+            return Err(bad(
+                "the events all share one x or one y coordinate (or there are \
+                 none), so a box drawn around them has no area; give a study-area file"
+                    .to_string(),
+            ));
+        }
+        let mut w = Window::rectangle(b[0], b[1], b[2], b[3])?;
+        w.origin = WindowOrigin::BoundingBox;
+        Ok(w)
     }
-    /// The convex hull of the points as a window.
+
+    /// The convex hull of the points as a window (Andrew's monotone chain,
+    /// Andrew 1979, Inf. Process. Lett. 9:216–219 [M]).
+    ///
+    /// Non-finite points are ignored. Fails (with `BadPolygon`) when fewer
+    /// than 3 distinct points remain or all lie on one line.
     pub fn convex_hull_of(x: &[f64], y: &[f64]) -> Result<Window, InputError> {
-        let _ = (x, y);
-        todo!("window::convex_hull_of")
+        let mut pts: Vec<[f64; 2]> = x
+            .iter()
+            .zip(y)
+            .filter(|(a, b)| a.is_finite() && b.is_finite())
+            .map(|(&a, &b)| [a, b])
+            .collect();
+        pts.sort_by(|a, b| a[0].total_cmp(&b[0]).then(a[1].total_cmp(&b[1])));
+        pts.dedup();
+        let degenerate = || {
+            bad(
+                "the events lie on one straight line (or there are fewer than 3 distinct \
+                 locations), so no area can be drawn around them; give a study-area file"
+                    .to_string(),
+            )
+        };
+        if pts.len() < 3 {
+            return Err(degenerate());
+        }
+        let cross = |o: [f64; 2], a: [f64; 2], b: [f64; 2]| {
+            (a[0] - o[0]) * (b[1] - o[1]) - (a[1] - o[1]) * (b[0] - o[0])
+        };
+        let mut hull: Vec<[f64; 2]> = Vec::with_capacity(2 * pts.len());
+        for &p in &pts {
+            while hull.len() >= 2 && cross(hull[hull.len() - 2], hull[hull.len() - 1], p) <= 0.0 {
+                hull.pop();
+            }
+            hull.push(p);
+        }
+        let lower = hull.len() + 1;
+        for &p in pts.iter().rev().skip(1) {
+            while hull.len() >= lower && cross(hull[hull.len() - 2], hull[hull.len() - 1], p) <= 0.0
+            {
+                hull.pop();
+            }
+            hull.push(p);
+        }
+        hull.pop();
+        if hull.len() < 3 {
+            return Err(degenerate());
+        }
+        let mut w = Window::from_polygons(vec![vec![hull]], WindowOrigin::ConvexHull)
+            .map_err(|_| degenerate())?;
+        w.origin = WindowOrigin::ConvexHull;
+        Ok(w)
     }
+
     /// Polygons: exterior ring first, then holes; rings closed (first == last).
     pub fn polygons(&self) -> &[Vec<Vec<[f64; 2]>>] {
         &self.polygons
@@ -60,33 +385,378 @@ impl Window {
     }
     /// Area in m², holes excluded.
     pub fn area(&self) -> f64 {
-        todo!("window::area")
+        self.area
     }
     /// Perimeter in m, hole boundaries included.
     pub fn perimeter(&self) -> f64 {
-        todo!("window::perimeter")
+        self.perimeter
     }
     /// [min_x, min_y, max_x, max_y].
     pub fn bbox(&self) -> [f64; 4] {
-        todo!("window::bbox")
+        self.bbox
     }
-    /// Inside or on the boundary.
+    /// Inside or on the boundary. Non-finite points are outside.
     pub fn contains(&self, x: f64, y: f64) -> bool {
-        let _ = (x, y);
-        todo!("window::contains")
+        let t = self.tol;
+        let b = self.bbox;
+        // Written so that NaN fails every comparison.
+        if !(x >= b[0] - t && x <= b[2] + t && y >= b[1] - t && y <= b[3] + t) {
+            return false;
+        }
+        let k = self.bands.band_of(y);
+        let list = &self.bands.idx[self.bands.start[k] as usize..self.bands.start[k + 1] as usize];
+        let t2 = t * t;
+        let mut poly = u32::MAX;
+        let mut odd = false;
+        for &i in list {
+            let e = &self.edges[i as usize];
+            if e.poly != poly {
+                if odd {
+                    return true;
+                }
+                poly = e.poly;
+                odd = false;
+            }
+            let (a, bb) = (e.a, e.b);
+            if x >= a[0].min(bb[0]) - t
+                && x <= a[0].max(bb[0]) + t
+                && y >= a[1].min(bb[1]) - t
+                && y <= a[1].max(bb[1]) + t
+                && seg_dist2(x, y, a, bb) <= t2
+            {
+                return true;
+            }
+            if (a[1] > y) != (bb[1] > y) {
+                let xi = a[0] + (y - a[1]) * (bb[0] - a[0]) / (bb[1] - a[1]);
+                if x < xi {
+                    odd = !odd;
+                }
+            }
+        }
+        odd
     }
-    /// Distance to the nearest boundary (outer rings and holes).
+    /// Distance to the nearest boundary (outer rings and holes), whether the
+    /// point is inside or outside. O(number of edges).
     pub fn boundary_distance(&self, x: f64, y: f64) -> f64 {
-        let _ = (x, y);
-        todo!("window::boundary_distance")
+        let mut best = f64::INFINITY;
+        for e in &self.edges {
+            let d2 = seg_dist2(x, y, e.a, e.b);
+            if d2 < best {
+                best = d2;
+            }
+        }
+        best.sqrt()
     }
     /// All boundary edges (outer rings and holes) as segments.
     pub fn edges(&self) -> Vec<([f64; 2], [f64; 2])> {
-        todo!("window::edges")
+        self.edges.iter().map(|e| (e.a, e.b)).collect()
     }
     /// `n` independent uniform points in the window (binomial process).
+    ///
+    /// # Algorithm
+    /// Rejection sampling (METHODS §1): a proposal uniform on a region that
+    /// covers the window is kept when [`Window::contains`] is true; kept points
+    /// are then uniform on the window. The proposal region is the bounding box
+    /// when the window fills at least a quarter of it. For thin or ragged
+    /// windows (acceptance below 25 %) it is the union of the cells of a
+    /// 64 × 64 grid over the bounding box that either meet an edge's bounding
+    /// box or have their centre inside; every other cell lies wholly outside
+    /// the window, so the union still covers it, and all cells have equal
+    /// area, so a cell drawn uniformly and a point drawn uniformly in it is a
+    /// uniform draw on the union. The number of proposals per point is
+    /// geometric with mean 1/acceptance.
     pub fn sample_uniform(&self, n: usize, rng: &mut Rng) -> (Vec<f64>, Vec<f64>) {
-        let _ = (n, rng);
-        todo!("window::sample_uniform")
+        let mut xs = Vec::with_capacity(n);
+        let mut ys = Vec::with_capacity(n);
+        if n == 0 {
+            return (xs, ys);
+        }
+        let [x0, y0, x1, y1] = self.bbox;
+        let (w, h) = (x1 - x0, y1 - y0);
+        if self.area >= 0.25 * w * h {
+            while xs.len() < n {
+                let x = x0 + w * rng.random::<f64>();
+                let y = y0 + h * rng.random::<f64>();
+                if self.contains(x, y) {
+                    xs.push(x);
+                    ys.push(y);
+                }
+            }
+            return (xs, ys);
+        }
+        let cells = self.covering_cells(64);
+        let (cw, ch) = (w / 64.0, h / 64.0);
+        while xs.len() < n {
+            let c = cells[rng.random_range(0..cells.len())];
+            let (cx, cy) = ((c % 64) as f64, (c / 64) as f64);
+            let x = x0 + cw * (cx + rng.random::<f64>());
+            let y = y0 + ch * (cy + rng.random::<f64>());
+            if self.contains(x, y) {
+                xs.push(x);
+                ys.push(y);
+            }
+        }
+        (xs, ys)
+    }
+
+    /// Cells (row-major index) of a g × g grid over the bounding box that may
+    /// hold part of the window (see [`Window::sample_uniform`]).
+    fn covering_cells(&self, g: usize) -> Vec<usize> {
+        let [x0, y0, x1, y1] = self.bbox;
+        let (cw, ch) = ((x1 - x0) / g as f64, (y1 - y0) / g as f64);
+        let cell = |v: f64, o: f64, s: f64| (((v - o) / s).floor().max(0.0) as usize).min(g - 1);
+        let mut mark = vec![false; g * g];
+        for e in &self.edges {
+            let (ix0, ix1) = (
+                cell(e.a[0].min(e.b[0]), x0, cw),
+                cell(e.a[0].max(e.b[0]), x0, cw),
+            );
+            let (iy0, iy1) = (
+                cell(e.a[1].min(e.b[1]), y0, ch),
+                cell(e.a[1].max(e.b[1]), y0, ch),
+            );
+            // One cell of margin absorbs rounding at cell borders.
+            for iy in iy0.saturating_sub(1)..=(iy1 + 1).min(g - 1) {
+                for ix in ix0.saturating_sub(1)..=(ix1 + 1).min(g - 1) {
+                    mark[iy * g + ix] = true;
+                }
+            }
+        }
+        (0..g * g)
+            .filter(|&c| {
+                mark[c]
+                    || self.contains(
+                        x0 + cw * ((c % g) as f64 + 0.5),
+                        y0 + ch * ((c / g) as f64 + 0.5),
+                    )
+            })
+            .collect()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::rng::rng_from_seed;
+
+    /// METHODS §1 / Appendix A "WH": [0,10]² minus the hole [4,6]².
+    fn wh() -> Window {
+        Window::from_polygons(
+            vec![vec![
+                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+                vec![[4.0, 4.0], [6.0, 4.0], [6.0, 6.0], [4.0, 6.0], [4.0, 4.0]],
+            ]],
+            WindowOrigin::File,
+        )
+        .unwrap()
+    }
+
+    #[test]
+    fn test_window_with_hole_area() {
+        let w = wh();
+        assert_eq!(w.area(), 96.0);
+        assert_eq!(w.perimeter(), 48.0);
+        assert_eq!(w.bbox(), [0.0, 0.0, 10.0, 10.0]);
+        assert_eq!(w.edges().len(), 8);
+    }
+
+    #[test]
+    fn test_window_orientation_and_closing() {
+        let w = wh();
+        let rings = &w.polygons()[0];
+        assert_eq!(rings[0].first(), rings[0].last());
+        assert!(signed_area2(&rings[0][..rings[0].len() - 1]) > 0.0);
+        assert!(signed_area2(&rings[1][..rings[1].len() - 1]) < 0.0);
+        assert_eq!(rings[1].len(), 5);
+    }
+
+    #[test]
+    fn test_window_contains_hole_and_boundary() {
+        let w = wh();
+        assert!(w.contains(1.0, 1.0));
+        assert!(!w.contains(5.0, 5.0));
+        assert!(w.contains(4.0, 5.0)); // on the hole's edge
+        assert!(w.contains(0.0, 0.0)); // corner
+        assert!(w.contains(10.0, 3.0)); // outer edge
+        assert!(!w.contains(10.000001, 3.0));
+        assert!(!w.contains(f64::NAN, 3.0));
+        assert_eq!(w.boundary_distance(3.0, 5.0), 1.0);
+        assert_eq!(w.boundary_distance(5.0, 5.0), 1.0);
+        assert_eq!(w.boundary_distance(12.0, 5.0), 2.0);
+    }
+
+    #[test]
+    fn test_window_rejects_bad_rings() {
+        let e = Window::from_polygons(
+            vec![vec![vec![[0.0, 0.0], [1.0, 1.0], [0.0, 0.0]]]],
+            WindowOrigin::File,
+        );
+        assert!(matches!(
+            e.unwrap_err().kind,
+            InputErrorKind::BadPolygon { .. }
+        ));
+        let e = Window::from_polygons(
+            vec![vec![vec![[0.0, 0.0], [1.0, 1.0], [2.0, 2.0], [0.0, 0.0]]]],
+            WindowOrigin::File,
+        );
+        assert!(e.unwrap_err().to_string().contains("zero area"));
+        let e = Window::from_polygons(
+            vec![vec![vec![[0.0, 0.0], [1.0, f64::NAN], [2.0, 2.0]]]],
+            WindowOrigin::File,
+        );
+        assert!(e.unwrap_err().to_string().contains("corner 2"));
+        assert!(Window::from_polygons(vec![], WindowOrigin::File).is_err());
+        assert!(Window::from_polygons(vec![vec![]], WindowOrigin::File).is_err());
+    }
+
+    #[test]
+    fn test_multipolygon_area_and_contains() {
+        let w = Window::from_polygons(
+            vec![
+                vec![vec![[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]]],
+                vec![vec![[2.0, 0.0], [2.0, 2.0], [4.0, 2.0], [4.0, 0.0]]],
+            ],
+            WindowOrigin::File,
+        )
+        .unwrap();
+        assert_eq!(w.area(), 5.0);
+        assert_eq!(w.perimeter(), 12.0);
+        assert!(w.contains(0.5, 0.5) && w.contains(3.0, 1.0) && !w.contains(1.5, 0.5));
+    }
+
+    #[test]
+    fn test_bounding_box_and_hull() {
+        let x = [0.0, 2.0, 1.0, 2.0, 0.0, 1.0];
+        let y = [0.0, 0.0, 0.5, 3.0, 3.0, 1.0];
+        let b = Window::bounding_box_of(&x, &y).unwrap();
+        assert_eq!(b.area(), 6.0);
+        assert_eq!(b.origin(), WindowOrigin::BoundingBox);
+        let h = Window::convex_hull_of(&x, &y).unwrap();
+        assert_eq!(h.area(), 6.0);
+        assert_eq!(h.polygons()[0][0].len(), 5);
+        assert_eq!(h.origin(), WindowOrigin::ConvexHull);
+        // A triangle hull with interior and collinear edge points.
+        let h =
+            Window::convex_hull_of(&[0.0, 4.0, 0.0, 1.0, 2.0], &[0.0, 0.0, 4.0, 1.0, 0.0]).unwrap();
+        assert_eq!(h.area(), 8.0);
+        assert_eq!(h.polygons()[0][0].len(), 4);
+    }
+
+    #[test]
+    fn test_hull_degenerate_inputs() {
+        for (x, y) in [
+            (vec![], vec![]),
+            (vec![1.0], vec![1.0]),
+            (vec![1.0, 1.0, 1.0], vec![2.0, 2.0, 2.0]),
+            (vec![0.0, 1.0, 2.0, 3.0], vec![0.0, 1.0, 2.0, 3.0]),
+        ] {
+            let e = Window::convex_hull_of(&x, &y).unwrap_err();
+            assert!(e.to_string().contains("one straight line"));
+            // A box around points on a diagonal line still has area.
+            assert_eq!(Window::bounding_box_of(&x, &y).is_err(), x.len() < 4);
+        }
+    }
+
+    #[test]
+    fn test_many_vertex_polygon_uses_bands() {
+        // Regular 1000-gon of radius 1: area (n/2) sin(2π/n).
+        let n = 1000;
+        let ring: Vec<[f64; 2]> = (0..n)
+            .map(|k| {
+                let t = 2.0 * std::f64::consts::PI * k as f64 / n as f64;
+                [t.cos(), t.sin()]
+            })
+            .collect();
+        let w = Window::from_polygons(vec![vec![ring]], WindowOrigin::File).unwrap();
+        assert!(w.bands.count() > 1);
+        let want = n as f64 / 2.0 * (2.0 * std::f64::consts::PI / n as f64).sin();
+        assert!((w.area() - want).abs() < 1e-12);
+        let mut rng = rng_from_seed(7);
+        for _ in 0..20000 {
+            let x = rng.random::<f64>() * 2.2 - 1.1;
+            let y = rng.random::<f64>() * 2.2 - 1.1;
+            let r = x.hypot(y);
+            // The polygon lies between radius cos(π/n) and 1.
+            if r < 0.99999 {
+                assert!(w.contains(x, y));
+            } else if r > 1.0 {
+                assert!(!w.contains(x, y));
+            }
+        }
+    }
+
+    /// METHODS §1 check values: |W| = 96, mean (5, 5), none in the hole,
+    /// P(x < 2) = 20/96; tolerance 4 standard errors.
+    #[test]
+    fn test_sample_uniform_in_window_with_hole() {
+        let w = wh();
+        let mut rng = rng_from_seed(20260311);
+        let n = 200_000;
+        let (x, y) = w.sample_uniform(n, &mut rng);
+        assert_eq!(x.len(), n);
+        let nf = n as f64;
+        let mx = x.iter().sum::<f64>() / nf;
+        let my = y.iter().sum::<f64>() / nf;
+        // Var of x under uniform on W: E[x²] − 25 with E[x²] = (10·1000/3 − 2·(216−64)/3)/96.
+        let ex2 = (10.0 * 1000.0 / 3.0 - 2.0 * (216.0 - 64.0) / 3.0) / 96.0;
+        let se = ((ex2 - 25.0) / nf).sqrt();
+        assert!((mx - 5.0).abs() < 4.0 * se, "mean x {mx}, se {se}");
+        assert!((my - 5.0).abs() < 4.0 * se, "mean y {my}");
+        assert!(x
+            .iter()
+            .zip(&y)
+            .all(|(&a, &b)| !(a > 4.0 && a < 6.0 && b > 4.0 && b < 6.0)));
+        let p = 20.0 / 96.0;
+        let frac = x.iter().filter(|&&a| a < 2.0).count() as f64 / nf;
+        assert!(
+            (frac - p).abs() < 4.0 * (p * (1.0 - p) / nf).sqrt(),
+            "P(x<2) {frac}"
+        );
+    }
+
+    /// A thin L-shaped window (acceptance < 25 %) uses the cell cover; the
+    /// fraction of points in each arm must match its share of the area.
+    #[test]
+    fn test_sample_uniform_thin_window() {
+        let w = Window::from_polygons(
+            vec![vec![vec![
+                [0.0, 0.0],
+                [100.0, 0.0],
+                [100.0, 1.0],
+                [1.0, 1.0],
+                [1.0, 100.0],
+                [0.0, 100.0],
+            ]]],
+            WindowOrigin::File,
+        )
+        .unwrap();
+        assert_eq!(w.area(), 199.0);
+        let mut rng = rng_from_seed(3);
+        let n = 100_000;
+        let (x, y) = w.sample_uniform(n, &mut rng);
+        assert!(x.iter().zip(&y).all(|(&a, &b)| w.contains(a, b)));
+        // Horizontal arm y < 1 has area 100 of 199.
+        let p = 100.0 / 199.0;
+        let frac = y.iter().filter(|&&b| b < 1.0).count() as f64 / n as f64;
+        assert!(
+            (frac - p).abs() < 4.0 * (p * (1.0 - p) / n as f64).sqrt(),
+            "{frac}"
+        );
+        // Uniform along the arm: mean x of points in the horizontal arm (x ≥ 1) = 50.5.
+        let arm: Vec<f64> = x
+            .iter()
+            .zip(&y)
+            .filter(|(&a, &b)| b < 1.0 && a >= 1.0)
+            .map(|(&a, _)| a)
+            .collect();
+        let m = arm.iter().sum::<f64>() / arm.len() as f64;
+        let se = (99.0f64.powi(2) / 12.0 / arm.len() as f64).sqrt();
+        assert!((m - 50.5).abs() < 4.0 * se, "{m}");
+    }
+
+    #[test]
+    fn test_sample_zero_points() {
+        let mut rng = rng_from_seed(1);
+        assert_eq!(wh().sample_uniform(0, &mut rng).0.len(), 0);
     }
 }
