@@ -31,9 +31,15 @@ pub mod quadrat;
 pub(crate) mod region;
 pub mod verdict;
 
+pub use clark_evans::{
+    clark_evans, clark_evans_from_mean, ClarkEvansParams, ClarkEvansResult, ClarkEvansStats,
+};
 pub use csr::{simulate_csr, simulate_matern2, simulate_thomas, stream_seed, ThomasParams};
 pub use edge::{Correction, NnCorrection};
-pub use envelope::{EnvelopeJob, EnvelopeParams, EnvelopeResult, Reference, SummaryFunction};
+pub use envelope::{
+    envelope, monte_carlo_p, EnvelopeJob, EnvelopeParams, EnvelopeResult, GlobalTest, Reference,
+    SummaryFunction,
+};
 pub use functions::{distance_functions, DistanceFunctions, FunctionParams};
-
-pub use verdict::{Outcome, Verdict};
+pub use quadrat::{quadrat_from_counts, quadrat_test, QuadratParams, QuadratResult, QuadratStats};
+pub use verdict::{Departure, DistanceRange, Outcome, Verdict};
