@@ -69,7 +69,31 @@ pub(crate) struct IsoCache {
     pub b: Vec<f64>,
     start: Vec<u32>,
     near: Vec<u32>,
+    /// For a rectangular window: distances to the left, right, bottom and
+    /// top sides of each point (closed form, no edge loop).
+    sides: Vec<[f64; 4]>,
     cap: f64,
+}
+
+/// Inside angle (radians) of the circle of radius `d` about a point whose
+/// distances to the left, right, bottom and top sides of a rectangle are
+/// `s`: 2π minus the arcs 2·acos(s_k/d) cut off by each side reached, plus,
+/// for each corner inside the circle, the overlap α_a + α_b − π/2 of the
+/// two cut arcs meeting there (inclusion–exclusion; arcs of opposite sides
+/// never overlap).
+#[inline]
+pub(crate) fn rectangle_inside_angle(s: &[f64; 4], d: f64) -> f64 {
+    use std::f64::consts::{FRAC_PI_2, TAU};
+    let cut = |v: f64| if v < d { (v / d).acos() } else { 0.0 };
+    let (l, r, b, t) = (cut(s[0]), cut(s[1]), cut(s[2]), cut(s[3]));
+    let mut ang = TAU - 2.0 * (l + r + b + t);
+    for (p, q) in [(l, b), (l, t), (r, b), (r, t)] {
+        let o = p + q - FRAC_PI_2;
+        if o > 0.0 {
+            ang += o;
+        }
+    }
+    ang
 }
 
 impl IsoCache {
@@ -84,17 +108,25 @@ impl IsoCache {
     ) -> IsoCache {
         let mut start = Vec::with_capacity(xs.len() + 1);
         let mut near = Vec::new();
+        let mut sides = Vec::new();
         start.push(0);
-        for i in 0..xs.len() {
-            if b[i] < reach {
-                near.extend(region.edges_near(xs[i], ys[i], reach));
+        if let Some([x0, y0, x1, y1]) = region.rectangle {
+            sides = (0..xs.len())
+                .map(|i| [xs[i] - x0, x1 - xs[i], ys[i] - y0, y1 - ys[i]])
+                .collect();
+        } else {
+            for i in 0..xs.len() {
+                if b[i] < reach {
+                    near.extend(region.edges_near(xs[i], ys[i], reach));
+                }
+                start.push(near.len() as u32);
             }
-            start.push(near.len() as u32);
         }
         IsoCache {
             b,
             start,
             near,
+            sides,
             cap,
         }
     }
@@ -114,9 +146,12 @@ impl IsoCache {
         if d <= self.b[i] {
             return 1.0;
         }
-        let near = &self.near[self.start[i] as usize..self.start[i + 1] as usize];
-        let arc = region.arc_inside(x, y, d, near);
-        let w = std::f64::consts::TAU * d / arc;
+        let w = if self.sides.is_empty() {
+            let near = &self.near[self.start[i] as usize..self.start[i + 1] as usize];
+            std::f64::consts::TAU * d / region.arc_inside(x, y, d, near)
+        } else {
+            std::f64::consts::TAU / rectangle_inside_angle(&self.sides[i], d)
+        };
         if !(w < self.cap) {
             *capped += 1;
             self.cap
@@ -272,6 +307,25 @@ mod tests {
         let exact = 96.0 / set_covariance_exact(&mp, 1.0, 0.0);
         assert!((t.weight(1.0, 0.0, 10.0, &mut c) / exact - 1.0).abs() < 1e-3);
         assert_eq!(c, 0);
+    }
+
+    /// The rectangle closed form agrees with the general arc routine.
+    #[test]
+    fn test_rectangle_formula_matches_arcs() {
+        let w = unit_square();
+        let mut rng = crate::rng::rng_from_seed(12);
+        for _ in 0..2000 {
+            let (x, y) = w.sample_one(&mut rng);
+            let d = 0.6 * rand::RngExt::random::<f64>(&mut rng);
+            let near = w.edges_near(x, y, d);
+            let arc = w.arc_inside(x, y, d, &near);
+            let ang = rectangle_inside_angle(&[x, 1.0 - x, y, 1.0 - y], d);
+            assert!(
+                (arc - ang * d).abs() < 1e-12,
+                "{x} {y} {d}: {arc} {}",
+                ang * d
+            );
+        }
     }
 
     #[test]

@@ -392,68 +392,81 @@ impl Context {
             let mut border_diff = vec![0.0f64; nr + 1];
             let mut pacc = vec![0.0f64; nr];
             let mut capped = 0u64;
+            // Fast path for the common case: K alone, isotropic or none.
+            let fast = needs.k
+                && !needs.pcf
+                && matches!(self.correction, Correction::Isotropic | Correction::None);
+            if fast {
+                kacc = match &iso {
+                    Some(c) => self.k_kernel::<true>(&grid, Some(c), &mut capped),
+                    None => self.k_kernel::<false>(&grid, None, &mut capped),
+                };
+            }
             let kc = self.correction;
             let pc = self.pcf_correction;
             let kernel_c = 0.75 / h;
             let inv_h2 = 1.0 / (h * h);
             let region = &self.region;
-            grid.for_each_pair(reach, |a, bb, d| {
-                let (xa, ya, xb, yb) = (grid.xs[a], grid.ys[a], grid.xs[bb], grid.ys[bb]);
-                // Pair weights (sum of both orders) per correction.
-                let mut iso_pair = f64::NAN;
-                let mut iso_w = |capped: &mut u64| -> f64 {
-                    if iso_pair.is_nan() {
-                        let c = iso.as_ref().expect("isotropic cache built when used");
-                        iso_pair = c.weight(region, a, xa, ya, d, capped)
-                            + c.weight(region, bb, xb, yb, d, capped);
-                    }
-                    iso_pair
-                };
-                let mut trans_pair = f64::NAN;
-                let mut trans_w = |capped: &mut u64| -> f64 {
-                    if trans_pair.is_nan() {
-                        let t = self
-                            .translation
-                            .as_ref()
-                            .expect("translation table built when used");
-                        trans_pair = 2.0 * t.weight(xb - xa, yb - ya, self.cap, capped);
-                    }
-                    trans_pair
-                };
-                if needs.k && d <= self.r_max {
-                    let k = self.bin(d);
-                    match kc {
-                        Correction::None => kacc[k] += 2.0,
-                        Correction::Isotropic => kacc[k] += iso_w(&mut capped),
-                        Correction::Translation => kacc[k] += trans_w(&mut capped),
-                        Correction::Border => {
-                            for c in [a, bb] {
-                                let km = kmax[c];
-                                if km >= k as i64 {
-                                    border_diff[k] += 1.0;
-                                    border_diff[km as usize + 1] -= 1.0;
+            let generic = !fast || needs.pcf;
+            if generic {
+                grid.for_each_pair(reach, |a, bb, d| {
+                    let (xa, ya, xb, yb) = (grid.xs[a], grid.ys[a], grid.xs[bb], grid.ys[bb]);
+                    // Pair weights (sum of both orders) per correction.
+                    let mut iso_pair = f64::NAN;
+                    let mut iso_w = |capped: &mut u64| -> f64 {
+                        if iso_pair.is_nan() {
+                            let c = iso.as_ref().expect("isotropic cache built when used");
+                            iso_pair = c.weight(region, a, xa, ya, d, capped)
+                                + c.weight(region, bb, xb, yb, d, capped);
+                        }
+                        iso_pair
+                    };
+                    let mut trans_pair = f64::NAN;
+                    let mut trans_w = |capped: &mut u64| -> f64 {
+                        if trans_pair.is_nan() {
+                            let t = self
+                                .translation
+                                .as_ref()
+                                .expect("translation table built when used");
+                            trans_pair = 2.0 * t.weight(xb - xa, yb - ya, self.cap, capped);
+                        }
+                        trans_pair
+                    };
+                    if needs.k && !fast && d <= self.r_max {
+                        let k = self.bin(d);
+                        match kc {
+                            Correction::None => kacc[k] += 2.0,
+                            Correction::Isotropic => kacc[k] += iso_w(&mut capped),
+                            Correction::Translation => kacc[k] += trans_w(&mut capped),
+                            Correction::Border => {
+                                for c in [a, bb] {
+                                    let km = kmax[c];
+                                    if km >= k as i64 {
+                                        border_diff[k] += 1.0;
+                                        border_diff[km as usize + 1] -= 1.0;
+                                    }
                                 }
                             }
                         }
                     }
-                }
-                if needs.pcf {
-                    let w = match pc {
-                        Correction::Translation => trans_w(&mut capped),
-                        Correction::None => 2.0,
-                        _ => iso_w(&mut capped),
-                    };
-                    let lo = (((d - h) / self.step).ceil().max(0.0)) as usize;
-                    let hi = (((d + h) / self.step).floor() as usize).min(nr - 1);
-                    for k in lo..=hi {
-                        let u = self.r[k] - d;
-                        let q = 1.0 - u * u * inv_h2;
-                        if q > 0.0 {
-                            pacc[k] += kernel_c * q * w;
+                    if needs.pcf {
+                        let w = match pc {
+                            Correction::Translation => trans_w(&mut capped),
+                            Correction::None => 2.0,
+                            _ => iso_w(&mut capped),
+                        };
+                        let lo = (((d - h) / self.step).ceil().max(0.0)) as usize;
+                        let hi = (((d + h) / self.step).floor() as usize).min(nr - 1);
+                        for k in lo..=hi {
+                            let u = self.r[k] - d;
+                            let q = 1.0 - u * u * inv_h2;
+                            if q > 0.0 {
+                                pacc[k] += kernel_c * q * w;
+                            }
                         }
                     }
-                }
-            });
+                });
+            }
             out.capped = capped;
             if needs.k {
                 let mut kk = vec![0.0; nr];
@@ -526,6 +539,57 @@ impl Context {
             }
         }
         out
+    }
+
+    /// Sum over unordered pairs within r_max of the two ordered-pair
+    /// weights, binned by the smallest r_k ≥ d (last slot: beyond r_max).
+    /// Written without a distance test in the inner loop: every candidate
+    /// goes to a bin, those beyond r_max to the overflow slot. With `ISO`,
+    /// each weight starts at 1 and the isotropic excess is added only when
+    /// the circle reaches the boundary (d > b).
+    fn k_kernel<const ISO: bool>(
+        &self,
+        grid: &PointGrid,
+        iso: Option<&IsoCache>,
+        capped: &mut u64,
+    ) -> Vec<f64> {
+        let nr = self.r.len();
+        let mut hist = vec![0.0f64; nr + 1];
+        let r = &self.r[..];
+        let inv = 1.0 / self.step;
+        let region = &self.region;
+        let empty: Vec<f64> = Vec::new();
+        let b: &[f64] = iso.map_or(&empty[..], |c| &c.b[..]);
+        grid.for_each_block(self.r_max, |a, b0, b1| {
+            let (xa, ya) = (grid.xs[a], grid.ys[a]);
+            let ba = if ISO { b[a] } else { f64::INFINITY };
+            let bx = &grid.xs[b0..b1];
+            let by = &grid.ys[b0..b1];
+            for k in 0..bx.len() {
+                let dx = bx[k] - xa;
+                let dy = by[k] - ya;
+                let d = (dx * dx + dy * dy).sqrt();
+                let mut bin = ((d * inv).ceil() as usize).min(nr);
+                if bin < nr && d > r[bin] {
+                    bin += 1;
+                }
+                if bin > 0 && d <= r[bin - 1] {
+                    bin -= 1;
+                }
+                let mut w = 2.0;
+                if ISO && bin < nr {
+                    let bb = b[b0 + k];
+                    if d > ba || d > bb {
+                        if let Some(c) = iso {
+                            w = c.weight(region, a, xa, ya, d, capped)
+                                + c.weight(region, b0 + k, bx[k], by[k], d, capped);
+                        }
+                    }
+                }
+                hist[bin] += w;
+            }
+        });
+        hist
     }
 
     /// #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r} on the grid (NaN when no

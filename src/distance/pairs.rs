@@ -95,13 +95,13 @@ impl PointGrid {
         }
     }
 
-    /// Calls `visit(a, b, d)` once for every unordered pair of sorted
-    /// positions a ≠ b with distance `d ≤ r`. The grid's cell side must be
-    /// at least `r / reach` where `reach` is the number of neighbouring
-    /// cells searched on each side (`reach = ceil(r / cell)`).
+    /// Calls `block(a, b0, b1)` so that every unordered pair of sorted
+    /// positions that can be within `r` appears exactly once as
+    /// (a, b) with b in b0..b1 (candidates, not yet filtered by distance):
+    /// the rest of a's own cell, then runs of cells in the forward half of
+    /// its neighbourhood (same row to the right, rows above).
     #[inline]
-    pub fn for_each_pair<F: FnMut(usize, usize, f64)>(&self, r: f64, mut visit: F) {
-        let r2 = r * r;
+    pub fn for_each_block<F: FnMut(usize, usize, usize)>(&self, r: f64, mut block: F) {
         let reach = (r / self.cell).ceil().max(1.0) as isize;
         let (nx, ny) = (self.nx as isize, self.ny as isize);
         for cy in 0..ny {
@@ -111,20 +111,11 @@ impl PointGrid {
                 if a0 == a1 {
                     continue;
                 }
-                // Same cell: a < b.
                 for a in a0..a1 {
-                    let (xa, ya) = (self.xs[a], self.ys[a]);
-                    for b in a + 1..a1 {
-                        let dx = self.xs[b] - xa;
-                        let dy = self.ys[b] - ya;
-                        let d2 = dx * dx + dy * dy;
-                        if d2 <= r2 {
-                            visit(a, b, d2.sqrt());
-                        }
+                    if a + 1 < a1 {
+                        block(a, a + 1, a1);
                     }
                 }
-                // Forward half of the neighbourhood: same row to the right,
-                // then the rows above.
                 for oy in 0..=reach {
                     let ny_ = cy + oy;
                     if ny_ >= ny {
@@ -143,22 +134,32 @@ impl PointGrid {
                     if b0 == b1 {
                         continue;
                     }
-                    let bx = &self.xs[b0..b1];
-                    let by = &self.ys[b0..b1];
                     for a in a0..a1 {
-                        let (xa, ya) = (self.xs[a], self.ys[a]);
-                        for k in 0..bx.len() {
-                            let dx = bx[k] - xa;
-                            let dy = by[k] - ya;
-                            let d2 = dx * dx + dy * dy;
-                            if d2 <= r2 {
-                                visit(a, b0 + k, d2.sqrt());
-                            }
-                        }
+                        block(a, b0, b1);
                     }
                 }
             }
         }
+    }
+
+    /// Calls `visit(a, b, d)` once for every unordered pair of sorted
+    /// positions a ≠ b with distance `d ≤ r`.
+    #[inline]
+    pub fn for_each_pair<F: FnMut(usize, usize, f64)>(&self, r: f64, mut visit: F) {
+        let r2 = r * r;
+        self.for_each_block(r, |a, b0, b1| {
+            let (xa, ya) = (self.xs[a], self.ys[a]);
+            let bx = &self.xs[b0..b1];
+            let by = &self.ys[b0..b1];
+            for k in 0..bx.len() {
+                let dx = bx[k] - xa;
+                let dy = by[k] - ya;
+                let d2 = dx * dx + dy * dy;
+                if d2 <= r2 {
+                    visit(a, b0 + k, d2.sqrt());
+                }
+            }
+        });
     }
 
     /// Distance from (x, y) to the nearest point, skipping sorted position
