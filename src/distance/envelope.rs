@@ -280,6 +280,49 @@ impl EnvelopeJob {
         self.done
     }
 
+    /// Curves of simulations `from..to` (row after row, `r().len()` values
+    /// each), without changing the job. For spreading one run over several
+    /// workers: each worker builds the same job (same pattern, window and
+    /// parameters) and simulates its own range; the results are handed to
+    /// one job with [`EnvelopeJob::add_simulated`] in order. The result is
+    /// identical to a single-worker run because simulation j always uses
+    /// stream j of the seed.
+    pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
+        let to = to.min(self.params.n_sim);
+        let mut out = Vec::with_capacity(to.saturating_sub(from) * self.ctx.r.len());
+        for j in from..to {
+            let mut rng = stream_rng(self.params.seed, j as u64);
+            let (x, y) = self.ctx.region.sample(self.ctx.n, &mut rng);
+            out.extend(select(
+                self.params.function,
+                self.ctx.compute(&x, &y, self.needs),
+            ));
+        }
+        out
+    }
+
+    /// Appends curves from [`EnvelopeJob::simulate_range`] that start at
+    /// simulation `from`, which must equal [`EnvelopeJob::done`]. Returns
+    /// the number done so far.
+    pub fn add_simulated(&mut self, from: usize, curves: &[f64]) -> Result<usize, AnalysisError> {
+        let nr = self.ctx.r.len();
+        if from != self.done
+            || curves.len() % nr != 0
+            || self.done + curves.len() / nr > self.params.n_sim
+        {
+            return Err(AnalysisError::BadParameter {
+                name: "simulated curves".into(),
+                detail: format!(
+                    "expected curves starting at simulation {}, of {nr} values each",
+                    self.done
+                ),
+            });
+        }
+        self.sims.extend_from_slice(curves);
+        self.done += curves.len() / nr;
+        Ok(self.done)
+    }
+
     pub fn done(&self) -> usize {
         self.done
     }
@@ -550,6 +593,16 @@ mod tests {
             b.run_batch(3);
         }
         let rb = b.finish();
+        // Two "workers" simulating ranges, merged in order.
+        let w1 = EnvelopeJob::new_in(unit_square(), &x, &y, &p).unwrap();
+        let mut c = EnvelopeJob::new_in(unit_square(), &x, &y, &p).unwrap();
+        let (first, second) = (w1.simulate_range(0, 11), w1.simulate_range(11, 19));
+        assert!(c.add_simulated(11, &second).is_err());
+        c.add_simulated(0, &first).unwrap();
+        assert_eq!(c.add_simulated(11, &second).unwrap(), 19);
+        let rc = c.finish();
+        assert_eq!(ra.pointwise_hi, rc.pointwise_hi);
+        assert_eq!(ra.dclf.statistic, rc.dclf.statistic);
         assert_eq!(ra.pointwise_lo, rb.pointwise_lo);
         assert_eq!(ra.mad.statistic, rb.mad.statistic);
         assert_eq!(ra.mad.p_value, rb.mad.p_value);
