@@ -170,6 +170,68 @@ pub(crate) fn isotropic_weight(region: &Region, x: f64, y: f64, d: f64) -> f64 {
     std::f64::consts::TAU * d / region.arc_inside(x, y, d, &near)
 }
 
+/// Length (m) of the circle of radius `r` about (x, y) that lies inside the
+/// window (analytic, holes included). For checks and displays; the distance
+/// functions use a per-pattern cache instead.
+pub fn inside_arc_length(
+    window: &crate::Window,
+    x: f64,
+    y: f64,
+    r: f64,
+) -> Result<f64, crate::AnalysisError> {
+    let region = super::csr::prepare(window)?;
+    let near = region.edges_near(x, y, r);
+    Ok(region.arc_inside(x, y, r, &near))
+}
+
+/// Ripley's isotropic weight 2πd / ℓ(∂b(x, d) ∩ W), uncapped (infinite when
+/// no part of the circle is inside).
+pub fn isotropic_weight_at(
+    window: &crate::Window,
+    x: f64,
+    y: f64,
+    d: f64,
+) -> Result<f64, crate::AnalysisError> {
+    let region = super::csr::prepare(window)?;
+    Ok(isotropic_weight(&region, x, y, d))
+}
+
+/// Translation weights |W| / |W ∩ (W + v)| for one window (see the module
+/// docs for the interpolation table used for non-rectangular windows).
+pub struct TranslationWeights {
+    table: Translation,
+    exact: MultiPolygon<f64>,
+    area: f64,
+}
+
+impl TranslationWeights {
+    /// Prepares weights for shifts up to `reach` m long.
+    pub fn new(
+        window: &crate::Window,
+        reach: f64,
+    ) -> Result<TranslationWeights, crate::AnalysisError> {
+        let region = super::csr::prepare(window)?;
+        Ok(TranslationWeights {
+            table: Translation::new(&region, reach),
+            exact: to_geo(&region),
+            area: region.area,
+        })
+    }
+    /// The weight used by the distance functions (uncapped).
+    pub fn weight(&self, dx: f64, dy: f64) -> f64 {
+        let mut c = 0;
+        self.table.weight(dx, dy, f64::INFINITY, &mut c)
+    }
+    /// |W ∩ (W + (dx, dy))| by exact polygon clipping.
+    pub fn set_covariance_exact(&self, dx: f64, dy: f64) -> f64 {
+        set_covariance_exact(&self.exact, dx, dy)
+    }
+    /// |W| in m².
+    pub fn area(&self) -> f64 {
+        self.area
+    }
+}
+
 const TRANS_NODES: usize = 65;
 
 /// Translation-correction weights for one window.
