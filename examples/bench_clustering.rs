@@ -75,41 +75,43 @@ fn main() {
             s.push_str(&format!("{:.17e},{:.17e}\n", p.x()[i], p.y()[i]));
         }
         std::fs::write("bench/data/points.csv", s).expect("write points");
-        let params = FunctionParams {
+        let reps = 5;
+        let time_k = |c: Correction| -> f64 {
+            let params = EnvelopeParams {
+                function: SummaryFunction::K,
+                n_sim: 1,
+                functions: FunctionParams {
+                    n_steps: 50,
+                    correction: c,
+                    ..Default::default()
+                },
+                ..Default::default()
+            };
+            let t = Instant::now();
+            for _ in 0..reps {
+                // new() computes the observed K once (no simulation is run).
+                let _ = EnvelopeJob::new(&p, &w, &params).expect("job");
+            }
+            t.elapsed().as_secs_f64() / reps as f64
+        };
+        let k_iso = time_k(Correction::Isotropic);
+        let k_none = time_k(Correction::None);
+        let fp = |c| FunctionParams {
             n_steps: 50,
+            correction: c,
             ..Default::default()
         };
-        let reps = 10;
-        let t = Instant::now();
-        let mut out = None;
-        for _ in 0..reps {
-            out = Some(distance_functions(&p, &w, &params).expect("functions"));
-        }
-        let per = t.elapsed().as_secs_f64() / reps as f64;
-        let out = out.expect("ran");
+        let iso = distance_functions(&p, &w, &fp(Correction::Isotropic)).expect("functions");
+        let none = distance_functions(&p, &w, &fp(Correction::None)).expect("functions");
         let json = serde_json::json!({
-            "r": out.r, "k_iso": out.k, "area": out.area_m2, "seconds_all_functions": per
+            "n": p.len(), "area": iso.area_m2, "r": iso.r, "k_iso": iso.k, "k_none": none.k,
+            "seconds_k_isotropic": k_iso, "seconds_k_none": k_none
         });
         std::fs::write("bench/data/rust_k.json", json.to_string()).expect("write json");
-        // Time K alone (isotropic), as the envelope job does per pattern.
-        let params = EnvelopeParams {
-            function: SummaryFunction::K,
-            n_sim: 1,
-            functions: FunctionParams {
-                n_steps: 50,
-                ..Default::default()
-            },
-            ..Default::default()
-        };
-        let t = Instant::now();
-        for _ in 0..reps {
-            let _ = EnvelopeJob::new(&p, &w, &params).expect("job");
-        }
-        let k_only = t.elapsed().as_secs_f64() / reps as f64;
         println!(
-            "single pattern, n=10000: all functions {per:.4} s, K isotropic only {k_only:.4} s"
+            "single pattern, n = 10,000, 51 distances: K isotropic {k_iso:.4} s, \
+             K no correction {k_none:.4} s"
         );
-        std::fs::write("bench/data/rust_k_seconds.txt", format!("{k_only}\n")).expect("write");
         return;
     }
     println!("Target A: K and L, isotropic, n = 10,000, 199 simulations, 50 steps");
