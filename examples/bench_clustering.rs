@@ -4,7 +4,8 @@
 //! in a 1000 m square, 199 simulations, 50 distance steps (51 values).
 //!
 //! ```text
-//! cargo run --release --example bench_clustering            # target A and friends
+//! cargo run --release --example bench_clustering            # target A (K and L)
+//! cargo run --release --example bench_clustering -- quick   # other settings, 19 sims
 //! cargo run --release --example bench_clustering -- export  # write bench/data/points.csv
 //! ```
 //! The export writes the points and the r grid used by
@@ -33,6 +34,18 @@ fn with_hole(side: f64) -> Window {
     .expect("polygon window")
 }
 
+/// CPU seconds used by this process so far (Linux /proc; None elsewhere).
+/// Reported beside wall time because the benchmark machine is shared.
+fn cpu_seconds() -> Option<f64> {
+    let stat = std::fs::read_to_string("/proc/self/stat").ok()?;
+    // Fields after the command name (which is in parentheses).
+    let rest = &stat[stat.rfind(')')? + 2..];
+    let f: Vec<&str> = rest.split_whitespace().collect();
+    let utime: f64 = f.get(11)?.parse().ok()?;
+    let stime: f64 = f.get(12)?.parse().ok()?;
+    Some((utime + stime) / 100.0) // clock ticks, 100 per second on Linux
+}
+
 fn envelope_time(w: &Window, n: usize, f: SummaryFunction, c: Correction, n_sim: usize) -> f64 {
     let p = simulate_csr(w, n, 42).expect("points");
     let params = EnvelopeParams {
@@ -47,17 +60,27 @@ fn envelope_time(w: &Window, n: usize, f: SummaryFunction, c: Correction, n_sim:
         ..Default::default()
     };
     let t = Instant::now();
+    let c0 = cpu_seconds();
     let mut job = EnvelopeJob::new(&p, w, &params).expect("job");
     while job.run_batch(10) < job.total() {}
     let res = job.finish();
     let secs = t.elapsed().as_secs_f64();
+    let cpu = match (c0, cpu_seconds()) {
+        (Some(a), Some(b)) => format!("{:>8.2} s CPU", b - a),
+        _ => "CPU n/a".to_string(),
+    };
     println!(
-        "{:<18} {:<12} n={:<6} sims={:<4} {:>8.3} s   (MAD p={:.3}, DCLF p={:.3})",
+        "{:<6} {:<12} n={:<6} sims={:<4} {:>8.2} s wall {}  ({:.1} ms CPU per pattern; MAD p={:.3}, DCLF p={:.3})",
         res.label,
         format!("{c:?}"),
         n,
         n_sim,
         secs,
+        cpu,
+        match (c0, cpu_seconds()) {
+            (Some(a), Some(b)) => 1000.0 * (b - a) / (n_sim as f64 + 1.0),
+            _ => f64::NAN,
+        },
         res.mad.p_value,
         res.dclf.p_value
     );

@@ -49,9 +49,9 @@ pub(crate) fn prepare(window: &Window) -> Result<Region, AnalysisError> {
 ///
 /// # Examples
 /// ```
-/// # use cloister::window::{Window, WindowOrigin};
+/// # use cloister::window::Window;
 /// # use cloister::distance::simulate_csr;
-/// # let Ok(w) = Window::from_polygons(vec![vec![vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]]]], WindowOrigin::File) else { return };
+/// # let w = Window::rectangle(0.0, 0.0, 10.0, 10.0).unwrap();
 /// let p = simulate_csr(&w, 50, 7).unwrap();
 /// assert_eq!(p.len(), 50);
 /// assert_eq!(p, simulate_csr(&w, 50, 7).unwrap()); // same seed, same points

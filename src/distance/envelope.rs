@@ -199,9 +199,9 @@ pub struct EnvelopeResult {
 ///
 /// # Examples
 /// ```
-/// # use cloister::window::{Window, WindowOrigin};
+/// # use cloister::window::Window;
 /// # use cloister::distance::{simulate_csr, EnvelopeJob, EnvelopeParams};
-/// # let Ok(w) = Window::from_polygons(vec![vec![vec![[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]]]], WindowOrigin::File) else { return };
+/// # let w = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
 /// let pattern = simulate_csr(&w, 60, 3).unwrap();
 /// let params = EnvelopeParams { n_sim: 39, seed: 11, ..Default::default() };
 /// let mut job = EnvelopeJob::new(&pattern, &w, &params).unwrap();

@@ -24,7 +24,7 @@ pub(crate) struct Edge {
 
 impl Edge {
     /// Distance from (x, y) to the segment.
-    #[inline]
+    #[cfg(test)]
     pub fn distance(&self, x: f64, y: f64) -> f64 {
         self.distance_sq(x, y).sqrt()
     }
