@@ -30,7 +30,10 @@ pub enum InputErrorKind {
     /// Not a CSV table we can use (e.g. a single column, no data rows).
     NotATable { detail: String },
     /// No usable coordinate columns were found or the named ones are missing.
-    MissingColumns { detail: String, available: Vec<String> },
+    MissingColumns {
+        detail: String,
+        available: Vec<String>,
+    },
     /// The JSON could not be parsed.
     BadJson { detail: String },
     /// Valid JSON but not the GeoJSON we need.
@@ -56,7 +59,10 @@ impl InputError {
         InputError { at: None, kind }
     }
     pub fn at(mut self, row: u64, column: Option<&str>) -> Self {
-        self.at = Some(Location { row, column: column.map(str::to_string) });
+        self.at = Some(Location {
+            row,
+            column: column.map(str::to_string),
+        });
         self
     }
     /// Short machine-readable code, e.g. `"not_utf8"`.
@@ -87,7 +93,10 @@ impl fmt::Display for InputError {
         match &self.kind {
             InputErrorKind::Empty => write!(f, "the file is empty"),
             InputErrorKind::Binary => {
-                write!(f, "this does not look like a text file (CSV or GeoJSON expected)")
+                write!(
+                    f,
+                    "this does not look like a text file (CSV or GeoJSON expected)"
+                )
             }
             InputErrorKind::NotUtf8 { byte_offset } => write!(
                 f,
@@ -103,7 +112,10 @@ impl fmt::Display for InputError {
             InputErrorKind::BadPolygon { detail } => write!(f, "unusable study area: {detail}"),
             InputErrorKind::Mismatch { detail } => write!(f, "{detail}"),
             InputErrorKind::NoValidRows { rows_read } => {
-                write!(f, "none of the {rows_read} rows could be used (see the rejected rows)")
+                write!(
+                    f,
+                    "none of the {rows_read} rows could be used (see the rejected rows)"
+                )
             }
         }
     }
@@ -130,7 +142,10 @@ impl fmt::Display for AnalysisError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
             AnalysisError::TooFewPoints { needed, found } => {
-                write!(f, "this needs at least {needed} events, but {found} are loaded")
+                write!(
+                    f,
+                    "this needs at least {needed} events, but {found} are loaded"
+                )
             }
             AnalysisError::BadParameter { name, detail } => write!(f, "{name}: {detail}"),
             AnalysisError::NothingLoaded { what } => write!(f, "load {what} first"),

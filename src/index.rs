@@ -29,6 +29,19 @@
 //! none); if present they never count as near anything.
 
 /// A grid index over a fixed set of points.
+///
+/// # Examples
+/// Three points on a line and a repeated one: coincident points are each
+/// other's nearest neighbours at distance 0.
+/// ```
+/// use cloister::index::GridIndex;
+/// let g = GridIndex::new(&[0.0, 3.0, 7.0, 7.0], &[0.0, 0.0, 0.0, 0.0]);
+/// assert_eq!(g.nn_distances(), Some(vec![3.0, 3.0, 0.0, 0.0]));
+/// let mut pairs = Vec::new();
+/// g.for_each_pair_within(4.0, |i, j, d| pairs.push((i, j, d)));
+/// pairs.sort_by_key(|p| (p.0, p.1));
+/// assert_eq!(pairs, vec![(0, 1, 3.0), (1, 2, 4.0), (1, 3, 4.0), (2, 3, 0.0)]);
+/// ```
 #[derive(Debug, Clone)]
 pub struct GridIndex {
     /// Coordinates in cell order.
@@ -51,12 +64,51 @@ struct Best {
     items: Vec<(f64, u32)>,
 }
 
+/// Receives candidate neighbours during a ring search.
+trait Sink {
+    /// The distance² a candidate must beat (∞ until enough are known).
+    fn worst(&self) -> f64;
+    fn offer(&mut self, d2: f64, j: u32);
+}
+
+/// The single nearest (distance², index); ties by lower index.
+struct Best1 {
+    d2: f64,
+    j: u32,
+}
+
+impl Sink for Best1 {
+    #[inline]
+    fn worst(&self) -> f64 {
+        self.d2
+    }
+    #[inline]
+    fn offer(&mut self, d2: f64, j: u32) {
+        if d2 < self.d2 || (d2 == self.d2 && j < self.j) {
+            self.d2 = d2;
+            self.j = j;
+        }
+    }
+}
+
+impl Sink for Best {
+    fn worst(&self) -> f64 {
+        Best::worst(self)
+    }
+    fn offer(&mut self, d2: f64, j: u32) {
+        Best::offer(self, d2, j)
+    }
+}
+
 impl Best {
     fn new(k: usize) -> Best {
         Best {
             k,
             items: Vec::with_capacity(k + 1),
         }
+    }
+    fn clear(&mut self) {
+        self.items.clear();
     }
     /// The current k-th smallest distance², or ∞ while fewer than k are known.
     fn worst(&self) -> f64 {
@@ -66,13 +118,19 @@ impl Best {
             self.items[self.k - 1].0
         }
     }
+    /// Keeps (d2, j) if it is among the k smallest (ties by lower index).
     fn offer(&mut self, d2: f64, j: u32) {
-        if !(d2 < self.worst()) {
-            return;
+        if self.items.len() == self.k {
+            let (wd, wj) = self.items[self.k - 1];
+            if !(d2 < wd || (d2 == wd && j < wj)) {
+                return;
+            }
+            self.items.pop();
         }
-        let pos = self.items.partition_point(|&(e, i)| (e, i) < (d2, j));
+        let pos = self
+            .items
+            .partition_point(|&(e, i)| e < d2 || (e == d2 && i < j));
         self.items.insert(pos, (d2, j));
-        self.items.truncate(self.k);
     }
 }
 
@@ -178,8 +236,7 @@ impl GridIndex {
 
     /// Ring search around (qx, qy) keeping the k nearest, skipping original
     /// index `skip` (use `u32::MAX` for none).
-    fn search(&self, qx: f64, qy: f64, k: usize, skip: u32) -> Best {
-        let mut best = Best::new(k);
+    fn search<B: Sink>(&self, qx: f64, qy: f64, skip: u32, best: &mut B) {
         let (cx, cy) = (self.col(qx) as isize, self.row(qy) as isize);
         let (nx, ny) = (self.nx as isize, self.ny as isize);
         let mut rho: isize = 0;
@@ -226,11 +283,11 @@ impl GridIndex {
                 bound = bound.min(self.y0 + (cy + rho + 1) as f64 * self.cell - qy);
             }
             if bound == f64::INFINITY {
-                return best; // the whole grid was visited
+                return; // the whole grid was visited
             }
             let bound = bound.max(0.0);
             if best.worst() <= bound * bound {
-                return best;
+                return;
             }
             rho += 1;
         }
@@ -251,15 +308,30 @@ impl GridIndex {
             return None;
         }
         let mut out = vec![0.0; n];
+        if k == 1 {
+            for s in 0..n {
+                let mut b = Best1 {
+                    d2: f64::INFINITY,
+                    j: u32::MAX,
+                };
+                self.search(self.px[s], self.py[s], self.id[s], &mut b);
+                out[self.id[s] as usize] = b.d2.sqrt();
+            }
+            return Some(out);
+        }
+        let mut b = Best::new(k);
         for s in 0..n {
-            let b = self.search(self.px[s], self.py[s], k, self.id[s]);
+            b.clear();
+            self.search(self.px[s], self.py[s], self.id[s], &mut b);
             out[self.id[s] as usize] = b.worst().sqrt();
         }
         Some(out)
     }
 
     /// Index of each point's nearest other point and the distance, in input
-    /// order (ties go to the lower index). `None` with fewer than 2 points.
+    /// order (ties go to the lower index). `None` with fewer than 2 points. A
+    /// point with no finite neighbour (possible only with non-finite
+    /// coordinates) gets its own index and an infinite distance.
     pub fn nearest_neighbours(&self) -> Option<Vec<(usize, f64)>> {
         let n = self.len();
         if n < 2 {
@@ -267,9 +339,17 @@ impl GridIndex {
         }
         let mut out = vec![(0, 0.0); n];
         for s in 0..n {
-            let b = self.search(self.px[s], self.py[s], 1, self.id[s]);
-            let (d2, j) = b.items[0];
-            out[self.id[s] as usize] = (j as usize, d2.sqrt());
+            let mut b = Best1 {
+                d2: f64::INFINITY,
+                j: u32::MAX,
+            };
+            self.search(self.px[s], self.py[s], self.id[s], &mut b);
+            let i = self.id[s] as usize;
+            out[i] = if b.j == u32::MAX {
+                (i, f64::INFINITY)
+            } else {
+                (b.j as usize, b.d2.sqrt())
+            };
         }
         Some(out)
     }
@@ -280,15 +360,19 @@ impl GridIndex {
         if self.is_empty() {
             return None;
         }
-        let b = self.search(qx, qy, 1, u32::MAX);
-        b.items.first().map(|&(d2, j)| (j as usize, d2.sqrt()))
+        let mut b = Best1 {
+            d2: f64::INFINITY,
+            j: u32::MAX,
+        };
+        self.search(qx, qy, u32::MAX, &mut b);
+        (b.j != u32::MAX).then(|| (b.j as usize, b.d2.sqrt()))
     }
 
     /// Calls `f(j, d)` for every indexed point j with distance d ≤ r from
     /// (qx, qy), in no particular order. Nothing is called when r is negative
     /// or NaN.
     pub fn for_each_within<F: FnMut(usize, f64)>(&self, qx: f64, qy: f64, r: f64, mut f: F) {
-        if !(r >= 0.0) || self.is_empty() {
+        if r.is_nan() || r < 0.0 || self.is_empty() {
             return;
         }
         let (xlo, xhi) = (self.col(qx - r), self.col(qx + r));
@@ -311,7 +395,7 @@ impl GridIndex {
     /// distance d ≤ r, in no particular order. Nothing is called when r is
     /// negative or NaN; r = 0 gives the coincident pairs.
     pub fn for_each_pair_within<F: FnMut(usize, usize, f64)>(&self, r: f64, mut f: F) {
-        if !(r >= 0.0) || self.len() < 2 {
+        if r.is_nan() || r < 0.0 || self.len() < 2 {
             return;
         }
         let reach = (r / self.cell).ceil().min(self.nx.max(self.ny) as f64) as isize;
@@ -410,8 +494,8 @@ mod tests {
         let g = GridIndex::new(x, y);
         for k in 1..=3 {
             let got = g.kth_nn_distances(k).unwrap();
-            for i in 0..x.len() {
-                assert_eq!(got[i], brute_sorted(x, y, i)[k - 1], "k={k} i={i}");
+            for (i, &gi) in got.iter().enumerate() {
+                assert_eq!(gi, brute_sorted(x, y, i)[k - 1], "k={k} i={i}");
             }
         }
         let nn = g.nearest_neighbours().unwrap();
@@ -422,7 +506,7 @@ mod tests {
         for r in [0.0, 3.0, 17.5, 60.0, 5000.0] {
             let mut got = Vec::new();
             g.for_each_pair_within(r, |i, j, d| got.push((i, j, d)));
-            got.sort_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+            got.sort_by_key(|p| (p.0, p.1));
             assert_eq!(got, brute_pairs(x, y, r), "r = {r}");
         }
     }
@@ -540,6 +624,17 @@ mod tests {
                 .collect();
             assert_eq!(got, want);
         }
+    }
+
+    #[test]
+    fn test_nearest_ties_go_to_lower_index() {
+        let x = [5.0, 0.0, 6.0, 4.0, 5.0, 5.0];
+        let y = [5.0, 0.0, 5.0, 5.0, 6.0, 4.0];
+        let g = GridIndex::new(&x, &y);
+        let nn = g.nearest_neighbours().unwrap();
+        assert_eq!(nn[0], (2, 1.0));
+        assert_eq!(g.nearest(5.0, 5.0), Some((0, 0.0)));
+        assert_eq!(g.nearest(5.5, 5.0), Some((0, 0.5)));
     }
 
     #[test]

@@ -25,10 +25,14 @@
 //! # Accuracy of distances
 //! With k₀ = 1 on the central meridian, the point scale factor grows roughly
 //! as 1 + x²/(2R²): about 1.0000012 at 10 km, 1.00012 at 100 km and 1.0011 at
-//! 300 km east or west of the centre. Planar distances are therefore longer
-//! than geodesics by at most about 0.1 % at 300 km; the measured errors are in
-//! `tests/reference/projection_reference.json` ([`Projection::scale_factor`]
-//! gives k at any point).
+//! 300 km east or west of the centre (derived here from k ≈ 1 + x²/2R²).
+//! Planar distances are therefore longer than geodesics by at most about
+//! 0.1 % at 300 km. Measured against pyproj's geodesics for 40 seeded pairs
+//! per scale around four invented centres
+//! (`tests/reference/projection_reference.json`): largest error 0.010 m
+//! (0.0001 %) for 10 km pairs, 10.5 m (0.011 %) for 100 km pairs and 319 m
+//! (0.11 %) for 300 km pairs (pairs reach up to 1.5 × the scale from the
+//! centre). [`Projection::scale_factor`] gives k at any point.
 
 use crate::input::{CoordKind, LengthUnit};
 use serde::Serialize;
@@ -93,6 +97,36 @@ fn krueger_wgs84() -> Krueger {
     }
 }
 
+/// The Krüger coefficients for WGS 84, computed once.
+fn krueger() -> &'static Krueger {
+    static K: std::sync::OnceLock<Krueger> = std::sync::OnceLock::new();
+    K.get_or_init(krueger_wgs84)
+}
+
+/// Σ_{j=1..6} c_j · sin(2j·ζ) for complex ζ = ξ + iη, returned as (re, im),
+/// by Clenshaw summation (as in Karney 2011, §5): two circular and two
+/// hyperbolic functions per call instead of twenty-four.
+fn clenshaw_sin(c: &[f64; 6], xi: f64, eta: f64) -> (f64, f64) {
+    let (s2, c2) = (2.0 * xi).sin_cos();
+    let (sh2, ch2) = ((2.0 * eta).sinh(), (2.0 * eta).cosh());
+    // a = 2·cos(2ζ) = 2(cos2ξ·cosh2η − i·sin2ξ·sinh2η)
+    let (ar, ai) = (2.0 * c2 * ch2, -2.0 * s2 * sh2);
+    // y_k = c_k + a·y_{k+1} − y_{k+2}, from k = 6 down to 1.
+    let (mut y1r, mut y1i) = (0.0_f64, 0.0_f64);
+    let (mut y2r, mut y2i) = (0.0_f64, 0.0_f64);
+    for &ck in c.iter().rev() {
+        let yr = ck + ar * y1r - ai * y1i - y2r;
+        let yi = ar * y1i + ai * y1r - y2i;
+        y2r = y1r;
+        y2i = y1i;
+        y1r = yr;
+        y1i = yi;
+    }
+    // sum = sin(2ζ)·y_1, sin(2ζ) = sin2ξ·cosh2η + i·cos2ξ·sinh2η
+    let (sr, si) = (s2 * ch2, c2 * sh2);
+    (sr * y1r - si * y1i, sr * y1i + si * y1r)
+}
+
 /// Wraps an angle in degrees to [-180, 180].
 fn wrap_degrees(d: f64) -> f64 {
     let mut r = d % 360.0;
@@ -141,14 +175,8 @@ impl Krueger {
         } else {
             (taup.atan2(coslam), (lam.sin() / taup.hypot(coslam)).asinh())
         };
-        let mut xi = xip;
-        let mut eta = etap;
-        for (j, a) in self.alpha.iter().enumerate() {
-            let k = 2.0 * (j as f64 + 1.0);
-            xi += a * (k * xip).sin() * (k * etap).cosh();
-            eta += a * (k * xip).cos() * (k * etap).sinh();
-        }
-        ((xip, etap), (xi, eta))
+        let (dxi, deta) = clenshaw_sin(&self.alpha, xip, etap);
+        ((xip, etap), (xip + dxi, etap + deta))
     }
 
     /// Point scale factor for k₀ = 1 (Karney eqs. 25–28).
@@ -172,13 +200,9 @@ impl Krueger {
 
     /// Inverse: (ξ, η) to (φ, Δλ) in degrees.
     fn inverse(&self, xi: f64, eta: f64) -> (f64, f64) {
-        let mut xip = xi;
-        let mut etap = eta;
-        for (j, b) in self.beta.iter().enumerate() {
-            let k = 2.0 * (j as f64 + 1.0);
-            xip -= b * (k * xi).sin() * (k * eta).cosh();
-            etap -= b * (k * xi).cos() * (k * eta).sinh();
-        }
+        let (dxi, deta) = clenshaw_sin(&self.beta, xi, eta);
+        let xip = xi - dxi;
+        let etap = eta - deta;
         let s = etap.sinh();
         let c = xip.cos();
         let r = s.hypot(c);
@@ -194,6 +218,20 @@ impl Krueger {
 }
 
 /// A map from input coordinates to planar metres.
+///
+/// # Examples
+/// The centre maps to (0, 0), and a point 0.1° north lies about 11.1 km
+/// up the central meridian.
+/// ```
+/// use cloister::projection::Projection;
+/// let p = Projection::TransverseMercator { lon0: 9.0, lat0: 45.0 };
+/// let (e, n) = p.forward(9.0, 45.0);
+/// assert!(e.abs() < 1e-9 && n.abs() < 1e-9);
+/// let (e, n) = p.forward(9.0, 45.1);
+/// assert!(e.abs() < 1e-9 && (n - 11_113.0).abs() < 5.0);
+/// let (lon, lat) = p.inverse(e, n);
+/// assert!((lon - 9.0).abs() < 1e-12 && (lat - 45.1).abs() < 1e-12);
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Projection {
@@ -228,10 +266,32 @@ impl Projection {
                 if !(x.is_finite() && y.is_finite()) {
                     return (f64::NAN, f64::NAN);
                 }
-                let k = krueger_wgs84();
+                let k = krueger();
                 let (_, (xi, eta)) = k.xi_eta(y, wrap_degrees(x - lon0));
                 let (_, (xi0, _)) = k.xi_eta(lat0, 0.0);
                 (k.a_rect * eta, k.a_rect * (xi - xi0))
+            }
+        }
+    }
+
+    /// [`Projection::forward`] for many points at once; the origin's
+    /// northing is computed once, which halves the cost per point.
+    pub fn forward_many(&self, x: &[f64], y: &[f64]) -> (Vec<f64>, Vec<f64>) {
+        match *self {
+            Projection::Planar { .. } => x.iter().zip(y).map(|(a, b)| self.forward(*a, *b)).unzip(),
+            Projection::TransverseMercator { lon0, lat0 } => {
+                let k = krueger();
+                let (_, (xi0, _)) = k.xi_eta(lat0, 0.0);
+                x.iter()
+                    .zip(y)
+                    .map(|(&lon, &lat)| {
+                        if !(lon.is_finite() && lat.is_finite()) {
+                            return (f64::NAN, f64::NAN);
+                        }
+                        let (_, (xi, eta)) = k.xi_eta(lat, wrap_degrees(lon - lon0));
+                        (k.a_rect * eta, k.a_rect * (xi - xi0))
+                    })
+                    .unzip()
             }
         }
     }
@@ -244,7 +304,7 @@ impl Projection {
                 if !(e.is_finite() && n.is_finite()) {
                     return (f64::NAN, f64::NAN);
                 }
-                let k = krueger_wgs84();
+                let k = krueger();
                 let (_, (xi0, _)) = k.xi_eta(lat0, 0.0);
                 let (lat, dlon) = k.inverse(n / k.a_rect + xi0, e / k.a_rect);
                 (wrap_degrees(lon0 + dlon), lat)
@@ -262,7 +322,7 @@ impl Projection {
                 if !(x.is_finite() && y.is_finite()) || y.abs() >= 90.0 {
                     return f64::NAN;
                 }
-                krueger_wgs84().scale(y, wrap_degrees(x - lon0))
+                krueger().scale(y, wrap_degrees(x - lon0))
             }
         }
     }

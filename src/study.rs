@@ -224,8 +224,9 @@ fn place_layer(
     let mut keep = Vec::with_capacity(n);
     let (mut xs, mut ys) = (Vec::with_capacity(n), Vec::with_capacity(n));
     let mut rejections = layer.rejections.clone();
+    let (px, py) = projection.forward_many(&layer.x, &layer.y);
     for i in 0..n {
-        let (e, no) = projection.forward(layer.x[i], layer.y[i]);
+        let (e, no) = (px[i], py[i]);
         if e.is_finite() && no.is_finite() && window.contains(e, no) {
             keep.push(i);
             xs.push(e);
@@ -348,9 +349,7 @@ impl Study {
                 Window::from_polygons(polys, WindowOrigin::File)?
             }
             None => {
-                let (px, py): (Vec<f64>, Vec<f64>) = (0..events.len())
-                    .map(|i| projection.forward(events.x[i], events.y[i]))
-                    .unzip();
+                let (px, py) = projection.forward_many(&events.x, &events.y);
                 let (w, shape) = match fallback {
                     AreaFallback::ConvexHull => (
                         Window::convex_hull_of(&px, &py)?,
@@ -363,9 +362,11 @@ impl Study {
                 };
                 warnings.push(format!(
                     "No study-area file was given, so the study area is {shape}. An area drawn \
-                     around the points understates the space where events could have happened, \
-                     which biases clustering tests toward finding clustering (or hides \
-                     regularity); give the true study area if you have it."
+                     around the points is not the space where events could have happened, so \
+                     every comparison with chance is biased: a tight hull overstates the \
+                     intensity and makes events look more evenly spread than they are, while a \
+                     rectangle can take in empty corners and make them look more clustered. \
+                     Give the true study area if you have it."
                 ));
                 w
             }

@@ -9,15 +9,18 @@
 //!   counter-clockwise and holes clockwise, whatever the input order was.
 //! * Containment uses the even-odd rule over all rings of a polygon (so a
 //!   point in a hole is outside), and a point is in the window if it is in
-//!   any of its polygons. A point within `1e-12 ×` (larger side of the
-//!   bounding box) of any edge counts as on the boundary, hence inside; this
-//!   makes rounded coordinates that lie on an edge behave the same way in data
-//!   and simulations (METHODS §1, "boundary counts as inside").
+//!   any of its polygons. A point within [`Window::boundary_tolerance`]
+//!   (`1e-12 ×` the larger of the bounding box's longer side and its largest
+//!   absolute coordinate) of any edge counts as on the boundary, hence
+//!   inside; this makes rounded coordinates that lie on an edge behave the
+//!   same way in data and simulations (METHODS §1, "boundary counts as
+//!   inside"), also for large planar coordinates such as UTM northings.
 //! * The perimeter includes the boundaries of holes (METHODS §0).
-//! * Not checked: self-intersecting rings, holes that are not inside their
-//!   exterior ring, or overlapping polygons (RFC 7946 GeoJSON forbids all
-//!   three). Overlapping polygons would have their overlap counted twice in
-//!   [`Window::area`].
+//! * Checked: every corner of a hole lies inside or on its outer ring.
+//!   Not checked: self-intersecting rings, holes that cross their outer ring
+//!   between corners or overlap each other, and overlapping polygons (RFC 7946
+//!   GeoJSON forbids all of these). Overlapping polygons would have their
+//!   overlap counted twice in [`Window::area`].
 //!
 //! # Speed
 //! The edges are kept in horizontal bands (an edge is listed in every band
@@ -51,13 +54,14 @@ struct Edge {
 }
 
 /// Edges grouped by horizontal band (compressed rows: the edges of band `k`
-/// are `idx[start[k]..start[k + 1]]`, in increasing edge order).
+/// are `items[start[k]..start[k + 1]]`, copies in increasing edge order so
+/// that one band is contiguous in memory).
 #[derive(Debug, Clone, PartialEq)]
 struct Bands {
     y0: f64,
     h: f64,
     start: Vec<u32>,
-    idx: Vec<u32>,
+    items: Vec<Edge>,
 }
 
 impl Bands {
@@ -74,13 +78,187 @@ impl Bands {
     }
 }
 
+/// Edges bucketed in a square grid for distance queries: the edges whose
+/// bounding box meets cell c are `idx[start[c]..start[c + 1]]`; edges whose
+/// box would cover more than 16 cells are kept in `long` and always scanned.
+#[derive(Debug, Clone, PartialEq)]
+struct EdgeGrid {
+    x0: f64,
+    y0: f64,
+    cell: f64,
+    nx: usize,
+    ny: usize,
+    start: Vec<u32>,
+    idx: Vec<u32>,
+    long: Vec<u32>,
+}
+
+impl EdgeGrid {
+    fn build(edges: &[Edge], bbox: [f64; 4]) -> Option<EdgeGrid> {
+        if edges.len() <= 64 {
+            return None;
+        }
+        let (w, h) = (bbox[2] - bbox[0], bbox[3] - bbox[1]);
+        let cell = (w * h / edges.len() as f64).sqrt().max(w.max(h) / 4096.0);
+        let nx = ((w / cell).floor() as usize + 1).min(4096);
+        let ny = ((h / cell).floor() as usize + 1).min(4096);
+        let mut g = EdgeGrid {
+            x0: bbox[0],
+            y0: bbox[1],
+            cell,
+            nx,
+            ny,
+            start: vec![0; nx * ny + 1],
+            idx: Vec::new(),
+            long: Vec::new(),
+        };
+        let mut spans = Vec::with_capacity(edges.len());
+        for (i, e) in edges.iter().enumerate() {
+            let (cx0, cx1) = (g.col(e.a[0].min(e.b[0])), g.col(e.a[0].max(e.b[0])));
+            let (cy0, cy1) = (g.row(e.a[1].min(e.b[1])), g.row(e.a[1].max(e.b[1])));
+            if (cx1 - cx0 + 1) * (cy1 - cy0 + 1) > 16 {
+                g.long.push(i as u32);
+                spans.push(None);
+                continue;
+            }
+            for cy in cy0..=cy1 {
+                for cx in cx0..=cx1 {
+                    g.start[cy * nx + cx + 1] += 1;
+                }
+            }
+            spans.push(Some((cx0, cx1, cy0, cy1)));
+        }
+        for c in 0..nx * ny {
+            g.start[c + 1] += g.start[c];
+        }
+        let mut fill: Vec<u32> = g.start[..nx * ny].to_vec();
+        g.idx = vec![0; g.start[nx * ny] as usize];
+        for (i, sp) in spans.iter().enumerate() {
+            if let Some((cx0, cx1, cy0, cy1)) = *sp {
+                for cy in cy0..=cy1 {
+                    for cx in cx0..=cx1 {
+                        let f = &mut fill[cy * nx + cx];
+                        g.idx[*f as usize] = i as u32;
+                        *f += 1;
+                    }
+                }
+            }
+        }
+        Some(g)
+    }
+    fn col(&self, x: f64) -> usize {
+        let c = ((x - self.x0) / self.cell).floor();
+        if c.is_nan() || c < 0.0 {
+            0
+        } else {
+            (c as usize).min(self.nx - 1)
+        }
+    }
+    fn row(&self, y: f64) -> usize {
+        let c = ((y - self.y0) / self.cell).floor();
+        if c.is_nan() || c < 0.0 {
+            0
+        } else {
+            (c as usize).min(self.ny - 1)
+        }
+    }
+    /// Smallest squared distance from (x, y) to any edge: long edges first,
+    /// then rings of cells around the point's cell until no unvisited cell
+    /// can hold a closer edge.
+    fn min_dist2(&self, edges: &[Edge], x: f64, y: f64) -> f64 {
+        let mut best = f64::INFINITY;
+        for &i in &self.long {
+            let e = &edges[i as usize];
+            best = best.min(seg_dist2(x, y, e.a, e.b));
+        }
+        let (cx, cy) = (self.col(x) as isize, self.row(y) as isize);
+        let (nx, ny) = (self.nx as isize, self.ny as isize);
+        let visit = |ix: isize, iy: isize, best: &mut f64| {
+            let c = iy as usize * self.nx + ix as usize;
+            for &i in &self.idx[self.start[c] as usize..self.start[c + 1] as usize] {
+                let e = &edges[i as usize];
+                let d2 = seg_dist2(x, y, e.a, e.b);
+                if d2 < *best {
+                    *best = d2;
+                }
+            }
+        };
+        let mut rho: isize = 0;
+        loop {
+            let (ylo, yhi) = ((cy - rho).max(0), (cy + rho).min(ny - 1));
+            let (xlo, xhi) = ((cx - rho).max(0), (cx + rho).min(nx - 1));
+            for iy in ylo..=yhi {
+                if iy == cy - rho || iy == cy + rho {
+                    for ix in xlo..=xhi {
+                        visit(ix, iy, &mut best);
+                    }
+                } else {
+                    if cx - rho >= 0 {
+                        visit(cx - rho, iy, &mut best);
+                    }
+                    if rho > 0 && cx + rho < nx {
+                        visit(cx + rho, iy, &mut best);
+                    }
+                }
+            }
+            let mut bound = f64::INFINITY;
+            if cx - rho > 0 {
+                bound = bound.min(x - (self.x0 + (cx - rho) as f64 * self.cell));
+            }
+            if cx + rho < nx - 1 {
+                bound = bound.min(self.x0 + (cx + rho + 1) as f64 * self.cell - x);
+            }
+            if cy - rho > 0 {
+                bound = bound.min(y - (self.y0 + (cy - rho) as f64 * self.cell));
+            }
+            if cy + rho < ny - 1 {
+                bound = bound.min(self.y0 + (cy + rho + 1) as f64 * self.cell - y);
+            }
+            if bound == f64::INFINITY {
+                return best;
+            }
+            let bound = bound.max(0.0);
+            if best <= bound * bound {
+                return best;
+            }
+            rho += 1;
+        }
+    }
+}
+
+/// Side (in cells) of the grid used to sample thin windows.
+const COVER_GRID: usize = 64;
+
 /// A study area: polygons with holes, in metres.
+///
+/// # Examples
+/// The square [0, 10]² with the hole [4, 6]² (METHODS §1): area 96, the
+/// hole is outside, its edge is inside.
+/// ```
+/// use cloister::window::{Window, WindowOrigin};
+/// let w = Window::from_polygons(
+///     vec![vec![
+///         vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+///         vec![[4.0, 4.0], [6.0, 4.0], [6.0, 6.0], [4.0, 6.0]],
+///     ]],
+///     WindowOrigin::File,
+/// )
+/// .unwrap();
+/// assert_eq!(w.area(), 96.0);
+/// assert!(!w.contains(5.0, 5.0) && w.contains(4.0, 5.0));
+/// assert_eq!(w.boundary_distance(2.0, 5.0), 2.0);
+/// ```
 #[derive(Debug, Clone, PartialEq)]
 pub struct Window {
     polygons: Vec<Vec<Vec<[f64; 2]>>>,
     origin: WindowOrigin,
     edges: Vec<Edge>,
     bands: Bands,
+    /// Grid of edges for distance queries (`None` for ≤ 64 edges).
+    grid: Option<EdgeGrid>,
+    /// Cells of a 64 × 64 grid over the bounding box that may hold part of
+    /// the window; empty when the window fills at least 25 % of its box.
+    cover: Vec<u32>,
     area: f64,
     perimeter: f64,
     bbox: [f64; 4],
@@ -161,7 +339,7 @@ fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), Inp
         y1 = y1.max(p[1]);
     }
     let diag2 = (x1 - x0).powi(2) + (y1 - y0).powi(2);
-    if !(a2.abs() > 1e-12 * diag2) {
+    if a2.is_nan() || a2.abs() <= 1e-12 * diag2 {
         return Err(bad(format!(
             "{what} has zero area (its corners lie on one line)"
         )));
@@ -213,8 +391,20 @@ impl Window {
                 r.push(r[0]);
                 rings.push(r);
             }
-            if !(parea > 0.0) {
+            if parea.is_nan() || parea <= 0.0 {
                 return Err(bad(format!("{pname}: its holes cover all of its area")));
+            }
+            if rings.len() > 1 {
+                // Every corner of every hole must be inside (or on) the outer ring.
+                let outer = Self::assemble(vec![vec![rings[0].clone()]], origin, 0.0);
+                for (hi, hole) in rings.iter().enumerate().skip(1) {
+                    if let Some(p) = hole.iter().find(|p| !outer.contains(p[0], p[1])) {
+                        return Err(bad(format!(
+                            "{pname}, hole {hi}: its corner ({}, {}) lies outside the outer ring",
+                            p[0], p[1]
+                        )));
+                    }
+                }
             }
             area += parea;
             clean.push(rings);
@@ -245,7 +435,8 @@ impl Window {
             }
         }
         let extent = (bbox[2] - bbox[0]).max(bbox[3] - bbox[1]);
-        let tol = 1e-12 * extent;
+        let magnitude = bbox.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+        let tol = 1e-12 * extent.max(magnitude);
         let nb = if edges.len() <= 64 {
             1
         } else {
@@ -256,7 +447,7 @@ impl Window {
             y0: bbox[1],
             h,
             start: vec![0; nb + 1],
-            idx: Vec::new(),
+            items: Vec::new(),
         };
         let span = |bands: &Bands, e: &Edge| {
             let lo = bands.band_of(e.a[1].min(e.b[1]) - tol);
@@ -273,24 +464,31 @@ impl Window {
             bands.start[k + 1] += bands.start[k];
         }
         let mut fill: Vec<u32> = bands.start[..nb].to_vec();
-        bands.idx = vec![0; bands.start[nb] as usize];
-        for (i, e) in edges.iter().enumerate() {
+        bands.items = vec![edges[0]; bands.start[nb] as usize];
+        for e in &edges {
             let (lo, hi) = span(&bands, e);
             for f in &mut fill[lo..=hi] {
-                bands.idx[*f as usize] = i as u32;
+                bands.items[*f as usize] = *e;
                 *f += 1;
             }
         }
-        Window {
+        let grid = EdgeGrid::build(&edges, bbox);
+        let mut w = Window {
             polygons,
             origin,
             edges,
             bands,
+            grid,
+            cover: Vec::new(),
             area,
             perimeter,
             bbox,
             tol,
+        };
+        if w.area < 0.25 * (bbox[2] - bbox[0]) * (bbox[3] - bbox[1]) {
+            w.cover = w.covering_cells(COVER_GRID);
         }
+        w
     }
 
     /// The rectangle [x0, x1] × [y0, y1] as a window (origin `File`).
@@ -325,7 +523,7 @@ impl Window {
     }
 
     /// The convex hull of the points as a window (Andrew's monotone chain,
-    /// Andrew 1979, Inf. Process. Lett. 9:216–219 [M]).
+    /// Andrew 1979, Inf. Process. Lett. 9:216–219 (from memory)).
     ///
     /// Non-finite points are ignored. Fails (with `BadPolygon`) when fewer
     /// than 3 distinct points remain or all lie on one line.
@@ -395,6 +593,10 @@ impl Window {
     pub fn bbox(&self) -> [f64; 4] {
         self.bbox
     }
+    /// Distance (m) within which a point counts as on the boundary.
+    pub fn boundary_tolerance(&self) -> f64 {
+        self.tol
+    }
     /// Inside or on the boundary. Non-finite points are outside.
     pub fn contains(&self, x: f64, y: f64) -> bool {
         let t = self.tol;
@@ -404,12 +606,12 @@ impl Window {
             return false;
         }
         let k = self.bands.band_of(y);
-        let list = &self.bands.idx[self.bands.start[k] as usize..self.bands.start[k + 1] as usize];
+        let list =
+            &self.bands.items[self.bands.start[k] as usize..self.bands.start[k + 1] as usize];
         let t2 = t * t;
         let mut poly = u32::MAX;
         let mut odd = false;
-        for &i in list {
-            let e = &self.edges[i as usize];
+        for e in list {
             if e.poly != poly {
                 if odd {
                     return true;
@@ -436,8 +638,15 @@ impl Window {
         odd
     }
     /// Distance to the nearest boundary (outer rings and holes), whether the
-    /// point is inside or outside. O(number of edges).
+    /// point is inside or outside; NaN for a non-finite point. Windows with
+    /// more than 64 edges search a grid of edges outward from the point.
     pub fn boundary_distance(&self, x: f64, y: f64) -> f64 {
+        if !(x.is_finite() && y.is_finite()) {
+            return f64::NAN;
+        }
+        if let Some(g) = &self.grid {
+            return g.min_dist2(&self.edges, x, y).sqrt();
+        }
         let mut best = f64::INFINITY;
         for e in &self.edges {
             let d2 = seg_dist2(x, y, e.a, e.b);
@@ -459,7 +668,7 @@ impl Window {
     /// are then uniform on the window. The proposal region is the bounding box
     /// when the window fills at least a quarter of it. For thin or ragged
     /// windows (acceptance below 25 %) it is the union of the cells of a
-    /// 64 × 64 grid over the bounding box that either meet an edge's bounding
+    /// 64 × 64 grid over the bounding box (found once, when the window is built) that either meet an edge's bounding
     /// box or have their centre inside; every other cell lies wholly outside
     /// the window, so the union still covers it, and all cells have equal
     /// area, so a cell drawn uniformly and a point drawn uniformly in it is a
@@ -473,7 +682,7 @@ impl Window {
         }
         let [x0, y0, x1, y1] = self.bbox;
         let (w, h) = (x1 - x0, y1 - y0);
-        if self.area >= 0.25 * w * h {
+        if self.cover.is_empty() {
             while xs.len() < n {
                 let x = x0 + w * rng.random::<f64>();
                 let y = y0 + h * rng.random::<f64>();
@@ -484,11 +693,11 @@ impl Window {
             }
             return (xs, ys);
         }
-        let cells = self.covering_cells(64);
-        let (cw, ch) = (w / 64.0, h / 64.0);
+        let g = COVER_GRID;
+        let (cw, ch) = (w / g as f64, h / g as f64);
         while xs.len() < n {
-            let c = cells[rng.random_range(0..cells.len())];
-            let (cx, cy) = ((c % 64) as f64, (c / 64) as f64);
+            let c = self.cover[rng.random_range(0..self.cover.len())] as usize;
+            let (cx, cy) = ((c % g) as f64, (c / g) as f64);
             let x = x0 + cw * (cx + rng.random::<f64>());
             let y = y0 + ch * (cy + rng.random::<f64>());
             if self.contains(x, y) {
@@ -501,7 +710,7 @@ impl Window {
 
     /// Cells (row-major index) of a g × g grid over the bounding box that may
     /// hold part of the window (see [`Window::sample_uniform`]).
-    fn covering_cells(&self, g: usize) -> Vec<usize> {
+    fn covering_cells(&self, g: usize) -> Vec<u32> {
         let [x0, y0, x1, y1] = self.bbox;
         let (cw, ch) = ((x1 - x0) / g as f64, (y1 - y0) / g as f64);
         let cell = |v: f64, o: f64, s: f64| (((v - o) / s).floor().max(0.0) as usize).min(g - 1);
@@ -530,6 +739,7 @@ impl Window {
                         y0 + ch * ((c / g) as f64 + 0.5),
                     )
             })
+            .map(|c| c as u32)
             .collect()
     }
 }
@@ -585,6 +795,29 @@ mod tests {
         assert_eq!(w.boundary_distance(12.0, 5.0), 2.0);
     }
 
+    /// Points computed on a slanted edge far from the origin (UTM-like
+    /// coordinates) are inside; 1 mm outward they are outside.
+    #[test]
+    fn test_contains_edge_points_large_coordinates() {
+        let (a, b) = ([500_123.25, 5_000_017.5], [501_377.75, 5_000_911.125]);
+        let w = Window::from_polygons(
+            vec![vec![vec![a, b, [500_100.0, 5_001_500.0]]]],
+            WindowOrigin::File,
+        )
+        .unwrap();
+        let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+        let len = dx.hypot(dy);
+        // Outward normal of a counter-clockwise ring's edge a→b is (dy, −dx)/len.
+        let (ox, oy) = (dy / len * 1e-3, -dx / len * 1e-3);
+        for k in 0..=100 {
+            let t = k as f64 / 100.0;
+            let (x, y) = (a[0] + t * dx, a[1] + t * dy);
+            assert!(w.contains(x, y), "t = {t}");
+            assert!(!w.contains(x + ox, y + oy), "t = {t} outside");
+        }
+        assert!(w.boundary_tolerance() < 1e-5);
+    }
+
     #[test]
     fn test_window_rejects_bad_rings() {
         let e = Window::from_polygons(
@@ -606,6 +839,25 @@ mod tests {
         );
         assert!(e.unwrap_err().to_string().contains("corner 2"));
         assert!(Window::from_polygons(vec![], WindowOrigin::File).is_err());
+        let e = Window::from_polygons(
+            vec![vec![
+                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+                vec![[8.0, 8.0], [12.0, 8.0], [12.0, 9.0]],
+            ]],
+            WindowOrigin::File,
+        );
+        assert!(e
+            .unwrap_err()
+            .to_string()
+            .contains("hole 1: its corner (12, 9) lies outside the outer ring"));
+        let e = Window::from_polygons(
+            vec![vec![
+                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
+            ]],
+            WindowOrigin::File,
+        );
+        assert!(e.unwrap_err().to_string().contains("holes cover all"));
         assert!(Window::from_polygons(vec![vec![]], WindowOrigin::File).is_err());
     }
 
@@ -683,6 +935,35 @@ mod tests {
                 assert!(!w.contains(x, y));
             }
         }
+    }
+
+    /// The edge grid gives the same distance as a scan of every edge, for a
+    /// long-edged rectangle with a 300-vertex wiggly hole, at points inside,
+    /// in the hole and far outside.
+    #[test]
+    fn test_boundary_distance_grid_matches_scan() {
+        let hole: Vec<[f64; 2]> = (0..300)
+            .map(|k| {
+                let t = 2.0 * std::f64::consts::PI * k as f64 / 300.0;
+                let r = 200.0 * (1.0 + 0.2 * (11.0 * t).sin());
+                [500.0 + r * t.cos(), 300.0 + r * t.sin()]
+            })
+            .collect();
+        let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
+        let w = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
+        assert!(w.grid.is_some());
+        let edges = w.edges();
+        let mut rng = rng_from_seed(5);
+        for _ in 0..5000 {
+            let x = rng.random::<f64>() * 3000.0 - 1000.0;
+            let y = rng.random::<f64>() * 2000.0 - 700.0;
+            let scan = edges
+                .iter()
+                .map(|&(a, b)| seg_dist2(x, y, a, b))
+                .fold(f64::INFINITY, f64::min);
+            assert_eq!(w.boundary_distance(x, y), scan.sqrt(), "({x}, {y})");
+        }
+        assert!(w.boundary_distance(f64::NAN, 0.0).is_nan());
     }
 
     /// METHODS §1 check values: |W| = 96, mean (5, 5), none in the hole,

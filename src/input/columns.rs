@@ -1,1 +1,439 @@
 //! Detects column roles from header names.
+//!
+//! Header names are compared after [`normalize`]: lower case, anything in
+//! brackets dropped (so `Easting (m)` matches `easting`), and only letters and
+//! digits kept (so `Lon_DD`, `lon dd` and `lon-dd` all become `londd`).
+//!
+//! Each role has a list of accepted names, tried in list order: the first name
+//! that some header matches wins, and within one name the leftmost header.
+//! A column is never given two roles.
+//!
+//! A user-given name in [`ColumnMapping`] overrides detection. It must match
+//! a header exactly, or else after normalisation; otherwise the read fails
+//! with `MissingColumns` listing the columns that exist. An empty name for
+//! time, category or weight means "no such column" (detection off).
+//!
+//! **Coordinate kind** (when the caller does not say): lon/lat if the x and y
+//! column names are longitude / latitude names, otherwise planar metres. The
+//! values are not used to guess.
+
+use super::{ColumnMapping, CoordKind, LengthUnit};
+use crate::error::{InputError, InputErrorKind};
+
+/// Planar x names (after [`normalize`]): x, easting, east and variants.
+pub const X_NAMES: &[&str] = &[
+    "x",
+    "easting",
+    "eastings",
+    "east",
+    "xcoord",
+    "xcoordinate",
+    "coordx",
+];
+
+/// Planar y names (after [`normalize`]): y, northing, north and variants.
+pub const Y_NAMES: &[&str] = &[
+    "y",
+    "northing",
+    "northings",
+    "north",
+    "ycoord",
+    "ycoordinate",
+    "coordy",
+];
+
+/// Longitude names (after [`normalize`]). `decimallongitude` is the Darwin Core term.
+pub const LON_NAMES: &[&str] = &[
+    "lon",
+    "lng",
+    "long",
+    "longitude",
+    "londd",
+    "lngdd",
+    "longdd",
+    "decimallongitude",
+];
+
+/// Latitude names (after [`normalize`]). `decimallatitude` is the Darwin Core term.
+pub const LAT_NAMES: &[&str] = &["lat", "latitude", "latdd", "decimallatitude"];
+
+/// Time names (after [`normalize`]), most specific first: a combined
+/// date-time column is preferred to a date, and a date to a bare "time".
+pub const TIME_NAMES: &[&str] = &[
+    "datetime",
+    "timestamp",
+    "date",
+    "eventdate",
+    "onset",
+    "onsetdate",
+    "dateonset",
+    "reported",
+    "reportdate",
+    "reporteddate",
+    "datereported",
+    "time",
+];
+
+/// Category names (after [`normalize`]).
+pub const CATEGORY_NAMES: &[&str] = &[
+    "category", "type", "class", "group", "kind", "cat", "species",
+];
+
+/// Weight names (after [`normalize`]).
+pub const WEIGHT_NAMES: &[&str] = &["weight", "count", "n", "cases", "ncases", "wt"];
+
+/// Lower case, bracketed parts removed, letters and digits only.
+pub fn normalize(name: &str) -> String {
+    let mut out = String::with_capacity(name.len());
+    let mut depth = 0u32;
+    for c in name.chars() {
+        match c {
+            '(' | '[' | '{' => depth += 1,
+            ')' | ']' | '}' => depth = depth.saturating_sub(1),
+            c if depth == 0 && c.is_alphanumeric() => out.extend(c.to_lowercase()),
+            _ => {}
+        }
+    }
+    out
+}
+
+/// Index of the first header (by `names` priority, then left to right) whose
+/// normalised form is in `names`, skipping `taken` columns.
+pub fn find(norm_headers: &[String], names: &[&str], taken: &[usize]) -> Option<usize> {
+    names.iter().find_map(|n| {
+        norm_headers
+            .iter()
+            .enumerate()
+            .position(|(i, h)| h == n && !taken.contains(&i))
+    })
+}
+
+/// Looks up a user-given column name: exact match first, then normalised.
+fn lookup(headers: &[String], norm_headers: &[String], name: &str) -> Option<usize> {
+    let name = name.trim();
+    headers.iter().position(|h| h == name).or_else(|| {
+        let n = normalize(name);
+        if n.is_empty() {
+            return None;
+        }
+        norm_headers.iter().position(|h| *h == n)
+    })
+}
+
+fn missing(headers: &[String], detail: String) -> InputError {
+    InputError::new(InputErrorKind::MissingColumns {
+        detail,
+        available: headers.to_vec(),
+    })
+}
+
+fn named(headers: &[String], norm: &[String], role: &str, name: &str) -> Result<usize, InputError> {
+    lookup(headers, norm, name).ok_or_else(|| {
+        missing(
+            headers,
+            format!(
+                "there is no column named \"{}\" (chosen for {role})",
+                name.trim()
+            ),
+        )
+    })
+}
+
+/// The x and y columns and what their coordinates are.
+#[derive(Debug, Clone, PartialEq)]
+pub struct XyRoles {
+    pub x: usize,
+    pub y: usize,
+    pub coords: CoordKind,
+}
+
+/// Resolves the x / y columns of a table.
+///
+/// Detection (for roles the mapping leaves unset) prefers a longitude /
+/// latitude pair to a planar x / y pair, unless `coords` says planar.
+pub fn resolve_xy(
+    headers: &[String],
+    mapping: &ColumnMapping,
+    coords: Option<CoordKind>,
+) -> Result<XyRoles, InputError> {
+    let norm: Vec<String> = headers.iter().map(|h| normalize(h)).collect();
+    fn given(o: &Option<String>) -> Option<&str> {
+        o.as_deref().filter(|s| !s.trim().is_empty())
+    }
+    let gx = given(&mapping.x)
+        .map(|n| named(headers, &norm, "x", n))
+        .transpose()?;
+    let gy = given(&mapping.y)
+        .map(|n| named(headers, &norm, "y", n))
+        .transpose()?;
+
+    let prefer_planar = matches!(coords, Some(CoordKind::Planar { .. }));
+    let pairs: [(&[&str], &[&str]); 2] = if prefer_planar {
+        [(X_NAMES, Y_NAMES), (LON_NAMES, LAT_NAMES)]
+    } else {
+        [(LON_NAMES, LAT_NAMES), (X_NAMES, Y_NAMES)]
+    };
+    let (x, y) = match (gx, gy) {
+        (Some(x), Some(y)) => (x, y),
+        (Some(x), None) => {
+            let y = pairs.iter().find_map(|(_, yn)| find(&norm, yn, &[x]));
+            (
+                x,
+                y.ok_or_else(|| missing(headers, "no y / latitude column found".into()))?,
+            )
+        }
+        (None, Some(y)) => {
+            let x = pairs.iter().find_map(|(xn, _)| find(&norm, xn, &[y]));
+            (
+                x.ok_or_else(|| missing(headers, "no x / longitude column found".into()))?,
+                y,
+            )
+        }
+        (None, None) => {
+            let mut found = None;
+            for (xn, yn) in pairs {
+                if let Some(x) = find(&norm, xn, &[]) {
+                    if let Some(y) = find(&norm, yn, &[x]) {
+                        found = Some((x, y));
+                        break;
+                    }
+                }
+            }
+            match found {
+                Some(p) => p,
+                None => return Err(missing(headers, no_coordinates_detail(headers, &norm))),
+            }
+        }
+    };
+    if x == y {
+        return Err(missing(
+            headers,
+            format!("x and y cannot both be the column \"{}\"", headers[x]),
+        ));
+    }
+    let coords = coords.unwrap_or_else(|| {
+        if LON_NAMES.contains(&norm[x].as_str()) || LAT_NAMES.contains(&norm[y].as_str()) {
+            CoordKind::LonLat
+        } else {
+            CoordKind::Planar {
+                unit: LengthUnit::Metre,
+            }
+        }
+    });
+    Ok(XyRoles { x, y, coords })
+}
+
+/// Explains why no coordinate pair was found.
+fn no_coordinates_detail(headers: &[String], norm: &[String]) -> String {
+    let one_of = |names: &[&str]| find(norm, names, &[]).map(|i| headers[i].clone());
+    let looks_numeric = !headers.is_empty()
+        && headers.iter().all(|h| {
+            h.trim()
+                .trim_matches(['-', '+', '.', ','])
+                .parse::<f64>()
+                .is_ok()
+        });
+    if looks_numeric {
+        return "no coordinate columns found: the first row holds numbers, but it should name \
+                the columns (for example x,y or lon,lat)"
+            .into();
+    }
+    if let Some(h) = one_of(LON_NAMES) {
+        return format!("found the longitude column \"{h}\" but no latitude column");
+    }
+    if let Some(h) = one_of(LAT_NAMES) {
+        return format!("found the latitude column \"{h}\" but no longitude column");
+    }
+    if let Some(h) = one_of(X_NAMES) {
+        return format!("found the x column \"{h}\" but no y column");
+    }
+    if let Some(h) = one_of(Y_NAMES) {
+        return format!("found the y column \"{h}\" but no x column");
+    }
+    "no coordinate columns found: name them x and y (or easting/northing, lon/lat), \
+     or choose them by hand"
+        .into()
+}
+
+/// A role for an attribute column and whether it was detected (rather than
+/// named by the user). Detected columns may be dropped later if none of
+/// their sampled values can be read.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct AttrRole {
+    pub index: usize,
+    pub detected: bool,
+}
+
+/// Time, category and weight columns.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct AttrRoles {
+    pub time: Option<AttrRole>,
+    pub category: Option<AttrRole>,
+    pub weight: Option<AttrRole>,
+}
+
+/// Resolves the time, category and weight columns among `headers`, never
+/// using a column in `taken` (the coordinate columns) for detection.
+pub fn resolve_attributes(
+    headers: &[String],
+    mapping: &ColumnMapping,
+    taken: &[usize],
+) -> Result<AttrRoles, InputError> {
+    let norm: Vec<String> = headers.iter().map(|h| normalize(h)).collect();
+    let mut taken = taken.to_vec();
+    let mut out = AttrRoles::default();
+    let roles: [(&Option<String>, &[&str], &str); 3] = [
+        (&mapping.time, TIME_NAMES, "time"),
+        (&mapping.category, CATEGORY_NAMES, "category"),
+        (&mapping.weight, WEIGHT_NAMES, "weight"),
+    ];
+    for (i, (given, names, role)) in roles.into_iter().enumerate() {
+        let r = match given {
+            Some(name) if name.trim().is_empty() => None,
+            Some(name) => Some(AttrRole {
+                index: named(headers, &norm, role, name)?,
+                detected: false,
+            }),
+            None => find(&norm, names, &taken).map(|index| AttrRole {
+                index,
+                detected: true,
+            }),
+        };
+        if let Some(r) = r {
+            taken.push(r.index);
+        }
+        match i {
+            0 => out.time = r,
+            1 => out.category = r,
+            _ => out.weight = r,
+        }
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn h(names: &[&str]) -> Vec<String> {
+        names.iter().map(|s| s.to_string()).collect()
+    }
+
+    #[test]
+    fn normalisation() {
+        assert_eq!(normalize(" Lon_DD "), "londd");
+        assert_eq!(normalize("Easting (m)"), "easting");
+        assert_eq!(normalize("Date-Time [UTC]"), "datetime");
+        assert_eq!(normalize("X"), "x");
+    }
+
+    #[test]
+    fn every_listed_name_is_already_normalised() {
+        for list in [
+            X_NAMES,
+            Y_NAMES,
+            LON_NAMES,
+            LAT_NAMES,
+            TIME_NAMES,
+            CATEGORY_NAMES,
+            WEIGHT_NAMES,
+        ] {
+            for n in list {
+                assert_eq!(normalize(n), *n);
+            }
+        }
+    }
+
+    #[test]
+    fn detects_lonlat_and_planar() {
+        let r = resolve_xy(
+            &h(&["id", "Latitude", "Longitude"]),
+            &Default::default(),
+            None,
+        )
+        .unwrap();
+        assert_eq!((r.x, r.y, r.coords), (2, 1, CoordKind::LonLat));
+        let r = resolve_xy(
+            &h(&["Easting (m)", "Northing (m)"]),
+            &Default::default(),
+            None,
+        )
+        .unwrap();
+        assert_eq!(
+            r.coords,
+            CoordKind::Planar {
+                unit: LengthUnit::Metre
+            }
+        );
+        // Both pairs: lon/lat wins unless planar is asked for.
+        let both = h(&["x", "y", "lon", "lat"]);
+        assert_eq!(resolve_xy(&both, &Default::default(), None).unwrap().x, 2);
+        let planar = Some(CoordKind::Planar {
+            unit: LengthUnit::Foot,
+        });
+        assert_eq!(resolve_xy(&both, &Default::default(), planar).unwrap().x, 0);
+    }
+
+    #[test]
+    fn mapping_overrides_and_missing_names() {
+        let hs = h(&["a", "b", "Lat"]);
+        let m = ColumnMapping {
+            x: Some("a".into()),
+            y: Some("B".into()),
+            ..Default::default()
+        };
+        let r = resolve_xy(&hs, &m, None).unwrap();
+        assert_eq!((r.x, r.y), (0, 1));
+        let m = ColumnMapping {
+            x: Some("nope".into()),
+            ..Default::default()
+        };
+        let e = resolve_xy(&hs, &m, None).unwrap_err();
+        match e.kind {
+            InputErrorKind::MissingColumns { detail, available } => {
+                assert!(detail.contains("\"nope\""), "{detail}");
+                assert_eq!(available, hs);
+            }
+            k => panic!("{k:?}"),
+        }
+        // Only a latitude column: says which one is missing.
+        let e = resolve_xy(&h(&["id", "lat"]), &Default::default(), None).unwrap_err();
+        assert!(e.to_string().contains("no longitude column"), "{e}");
+        let e = resolve_xy(&h(&["12.5", "45.1"]), &Default::default(), None).unwrap_err();
+        assert!(e.to_string().contains("first row holds numbers"), "{e}");
+    }
+
+    #[test]
+    fn attributes() {
+        let hs = h(&["x", "y", "Time", "Onset Date", "Type", "N"]);
+        let a = resolve_attributes(&hs, &Default::default(), &[0, 1]).unwrap();
+        assert_eq!(a.time.map(|r| r.index), Some(3)); // a date beats a bare "time"
+        assert_eq!(a.category.map(|r| r.index), Some(4));
+        assert_eq!(
+            a.weight,
+            Some(AttrRole {
+                index: 5,
+                detected: true
+            })
+        );
+        let m = ColumnMapping {
+            time: Some("".into()),
+            weight: Some("x".into()),
+            ..Default::default()
+        };
+        let a = resolve_attributes(&hs, &m, &[0, 1]).unwrap();
+        assert_eq!(a.time, None);
+        assert_eq!(
+            a.weight,
+            Some(AttrRole {
+                index: 0,
+                detected: false
+            })
+        );
+        let m = ColumnMapping {
+            category: Some("colour".into()),
+            ..Default::default()
+        };
+        assert!(resolve_attributes(&hs, &m, &[0, 1]).is_err());
+    }
+}

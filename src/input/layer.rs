@@ -1,10 +1,718 @@
 //! Builds a [`RawLayer`] from a delimited table, row by row.
+//!
+//! Steps: pick the delimiter ([`csv::detect_delimiter`] unless given), take
+//! the first non-blank record as the header, resolve the column roles
+//! ([`columns`]), look at up to [`SAMPLE_RECORDS`] data records to decide on
+//! decimal commas and on detected time / weight columns, then read every
+//! record once.
+//!
+//! Each non-blank data record is either accepted or gets exactly one
+//! [`Rejection`]: the first problem found, checking in this order:
+//! fewer fields than the header, x, y, time, weight. Records that are blank
+//! (or whose fields are all empty, like `;;;`) are skipped and not counted.
+//! The category is never a reason to reject: an empty one becomes
+//! [`BLANK_CATEGORY`].
+//!
+//! Two choices made here, beyond the format itself:
+//! * **Decimal comma** is used when the delimiter is `;` or tab and, among
+//!   the sampled x / y / weight cells, numbers written like `12,5` are at
+//!   least as common as numbers written like `12.5` (and there is one).
+//! * A **detected** (not user-named) time or weight column is used only if
+//!   at least one sampled value can be read; a column called "reported"
+//!   holding yes / no is thus ignored instead of rejecting every row. A
+//!   column the user named is always used.
 
-use super::{RawLayer, ReadOptions};
-use crate::error::InputError;
+use super::columns::{self, AttrRole, AttrRoles};
+use super::csv::{self, DecimalMark, Reader};
+use super::text::cut_value;
+use super::time::parse_time;
+use super::{
+    CoordKind, RawLayer, ReadOptions, RejectReason, Rejection, ResolvedMapping, SourceFormat,
+};
+use crate::error::{InputError, InputErrorKind};
+use std::borrow::Cow;
+use std::collections::HashMap;
+use std::fmt;
+
+/// Data records looked at before reading, for decimal-comma and column checks.
+pub const SAMPLE_RECORDS: usize = 200;
+
+/// Category given to rows whose category cell is empty.
+pub const BLANK_CATEGORY: &str = "(blank)";
+
+/// Accumulates accepted points and rejections; shared with the GeoJSON reader.
+#[derive(Debug)]
+pub(crate) struct Builder {
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+    pub time: Option<Vec<f64>>,
+    pub category: Option<Vec<u32>>,
+    pub category_names: Vec<String>,
+    category_ids: HashMap<String, u32>,
+    pub weight: Option<Vec<f64>>,
+    pub row: Vec<u64>,
+    pub rejections: Vec<Rejection>,
+    pub rows_read: u64,
+    pub time_has_clock: bool,
+}
+
+impl Builder {
+    pub fn new(time: bool, category: bool, weight: bool) -> Builder {
+        Builder {
+            x: Vec::new(),
+            y: Vec::new(),
+            time: time.then(Vec::new),
+            category: category.then(Vec::new),
+            category_names: Vec::new(),
+            category_ids: HashMap::new(),
+            weight: weight.then(Vec::new),
+            row: Vec::new(),
+            rejections: Vec::new(),
+            rows_read: 0,
+            time_has_clock: false,
+        }
+    }
+
+    pub fn reserve(&mut self, n: usize) {
+        self.x.reserve(n);
+        self.y.reserve(n);
+        self.row.reserve(n);
+        if let Some(t) = &mut self.time {
+            t.reserve(n);
+        }
+        if let Some(c) = &mut self.category {
+            c.reserve(n);
+        }
+        if let Some(w) = &mut self.weight {
+            w.reserve(n);
+        }
+    }
+
+    pub fn reject(&mut self, row: u64, column: Option<&str>, reason: RejectReason, value: &str) {
+        self.rejections.push(Rejection {
+            row,
+            column: column.map(str::to_string),
+            reason,
+            value: cut_value(value),
+        });
+    }
+
+    /// Index of a category label, adding it in first-seen order.
+    pub fn category_id(&mut self, label: &str) -> u32 {
+        let label = label.trim();
+        let label = if label.is_empty() {
+            BLANK_CATEGORY
+        } else {
+            label
+        };
+        if let Some(&id) = self.category_ids.get(label) {
+            return id;
+        }
+        let id = self.category_names.len() as u32;
+        self.category_names.push(label.to_string());
+        self.category_ids.insert(label.to_string(), id);
+        id
+    }
+
+    /// Adds an accepted point; `t` is (days, has clock time). Attribute
+    /// values are ignored for attributes the layer does not carry.
+    pub fn accept(&mut self, row: u64, x: f64, y: f64, t: (f64, bool), cat: u32, w: f64) {
+        let (t, clock) = t;
+        self.x.push(x);
+        self.y.push(y);
+        self.row.push(row);
+        if let Some(v) = &mut self.time {
+            v.push(t);
+            self.time_has_clock |= clock;
+        }
+        if let Some(v) = &mut self.category {
+            v.push(cat);
+        }
+        if let Some(v) = &mut self.weight {
+            v.push(w);
+        }
+    }
+
+    pub fn finish(
+        self,
+        format: SourceFormat,
+        columns: Vec<String>,
+        mapping: ResolvedMapping,
+        coords: CoordKind,
+    ) -> RawLayer {
+        debug_assert_eq!(
+            self.x.len() as u64 + self.rejections.len() as u64,
+            self.rows_read
+        );
+        RawLayer {
+            format,
+            columns,
+            mapping,
+            coords,
+            x: self.x,
+            y: self.y,
+            time: self.time,
+            category: self.category,
+            category_names: self.category_names,
+            weight: self.weight,
+            row: self.row,
+            rejections: self.rejections,
+            rows_read: self.rows_read,
+            time_has_clock: self.time_has_clock,
+        }
+    }
+}
+
+/// Checks a coordinate against lon/lat ranges when the layer is lon/lat.
+/// `is_x` selects longitude (x) or latitude (y).
+pub(crate) fn range_problem(coords: CoordKind, is_x: bool, v: f64) -> Option<RejectReason> {
+    if coords != CoordKind::LonLat {
+        return None;
+    }
+    if is_x && !(-180.0..=180.0).contains(&v) {
+        Some(RejectReason::LongitudeOutOfRange)
+    } else if !is_x && !(-90.0..=90.0).contains(&v) {
+        Some(RejectReason::LatitudeOutOfRange)
+    } else {
+        None
+    }
+}
+
+/// Reads a weight: a finite number ≥ 0.
+pub(crate) fn weight_value(cell: &str, decimal_comma: bool, buf: &mut String) -> Option<f64> {
+    csv::parse_number(cell, decimal_comma, buf).filter(|w| *w >= 0.0)
+}
+
+/// Keeps a detected attribute only if `readable` accepts one of the samples.
+pub(crate) fn keep_if_readable<'s>(
+    role: Option<AttrRole>,
+    samples: impl Iterator<Item = &'s str>,
+    readable: impl Fn(&str) -> bool,
+) -> Option<AttrRole> {
+    match role {
+        Some(r) if r.detected => {
+            let mut seen = false;
+            for s in samples {
+                if !s.trim().is_empty() {
+                    seen = true;
+                    if readable(s) {
+                        return Some(r);
+                    }
+                }
+            }
+            // No non-empty sample at all: keep it, the rows will say why.
+            (!seen).then_some(r)
+        }
+        other => other,
+    }
+}
+
+fn not_a_table(detail: impl Into<String>) -> InputError {
+    InputError::new(InputErrorKind::NotATable {
+        detail: detail.into(),
+    })
+}
 
 /// Reads a CSV / semicolon / tab table of points.
 pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> {
-    let _ = (text, opts);
-    todo!("input::layer::from_csv")
+    // 1. Delimiter.
+    let delim = match opts.delimiter {
+        Some(c) if c.is_ascii() && !matches!(c, '"' | '\n' | '\r') => {
+            let d = c as u8;
+            if csv::header_width(text, d) < 2 {
+                let hint = match csv::detect_delimiter(text) {
+                    Some(other) if other != d => format!(
+                        "; the file seems to use {} instead",
+                        csv::delimiter_name(other as char)
+                    ),
+                    _ => String::new(),
+                };
+                return Err(not_a_table(format!(
+                    "with the delimiter {} the header has only one column{hint}",
+                    csv::delimiter_name(c)
+                )));
+            }
+            d
+        }
+        Some(c) => {
+            return Err(not_a_table(format!(
+                "{} cannot be used as a delimiter (use a comma, semicolon or tab)",
+                csv::delimiter_name(c)
+            )))
+        }
+        None => match csv::detect_delimiter(text) {
+            Some(d) => d,
+            None => {
+                // A header whose quote never closes splits under no delimiter.
+                let mut r = Reader::new(text, b',');
+                let mut f = Vec::new();
+                while let Some(res) = r.read_into(&mut f) {
+                    match res {
+                        Err(u) => {
+                            return Err(not_a_table(
+                                "a quoted field starts here but its closing quote is missing",
+                            )
+                            .at(u.row, None))
+                        }
+                        Ok(info) if info.blank => {}
+                        Ok(_) => break,
+                    }
+                }
+                return Err(not_a_table(
+                    "only one column found; expected columns separated by commas, semicolons \
+                     or tabs",
+                ));
+            }
+        },
+    };
+
+    // 2. Header.
+    let mut reader = Reader::new(text, delim);
+    let mut fields: Vec<Cow<str>> = Vec::new();
+    let unclosed = |u: csv::UnclosedQuote, headers: Option<&[String]>| {
+        let col = headers.and_then(|h| h.get(u.field)).map(String::as_str);
+        not_a_table("a quoted field starts here but its closing quote is missing").at(u.row, col)
+    };
+    let headers: Vec<String> = loop {
+        match reader.read_into(&mut fields) {
+            None => return Err(not_a_table("no header row")),
+            Some(Err(u)) => return Err(unclosed(u, None)),
+            Some(Ok(info)) if info.blank => {}
+            Some(Ok(_)) => {
+                break fields
+                    .iter()
+                    .enumerate()
+                    .map(|(i, f)| {
+                        let t = f.trim();
+                        if t.is_empty() {
+                            format!("column {}", i + 1)
+                        } else {
+                            t.to_string()
+                        }
+                    })
+                    .collect()
+            }
+        }
+    };
+    if headers.len() < 2 {
+        return Err(not_a_table("only one column found"));
+    }
+
+    // 3. Column roles.
+    let xy = columns::resolve_xy(&headers, &opts.mapping, opts.coords)?;
+    let attrs = columns::resolve_attributes(&headers, &opts.mapping, &[xy.x, xy.y])?;
+
+    // 4. Sample data records.
+    let mut sample: Vec<Vec<String>> = Vec::new();
+    {
+        let mut r = reader.clone();
+        while sample.len() < SAMPLE_RECORDS {
+            match r.read_into(&mut fields) {
+                None => break,
+                Some(Err(u)) => return Err(unclosed(u, Some(&headers))),
+                Some(Ok(info)) if info.blank => {}
+                Some(Ok(_)) => sample.push(fields.iter().map(|f| f.to_string()).collect()),
+            }
+        }
+    }
+    if sample.is_empty() {
+        return Err(not_a_table("the table has a header row but no data rows"));
+    }
+    let cells = |i: usize| {
+        sample
+            .iter()
+            .filter_map(move |r| r.get(i).map(String::as_str))
+    };
+    let decimal_comma = delim != b',' && {
+        let (mut comma, mut point) = (0usize, 0usize);
+        let mut numeric_cols = vec![xy.x, xy.y];
+        numeric_cols.extend(attrs.weight.map(|r| r.index));
+        for &c in &numeric_cols {
+            for cell in cells(c) {
+                match csv::decimal_mark(cell) {
+                    DecimalMark::Comma => comma += 1,
+                    DecimalMark::Point => point += 1,
+                    DecimalMark::None => {}
+                }
+            }
+        }
+        comma > 0 && comma >= point
+    };
+    let order = opts.date_order;
+    let mut buf = String::new();
+    let attrs = AttrRoles {
+        time: keep_if_readable(attrs.time, cells_of(&sample, attrs.time), |s| {
+            parse_time(s, order).is_some()
+        }),
+        category: attrs.category,
+        weight: keep_if_readable(attrs.weight, cells_of(&sample, attrs.weight), |s| {
+            weight_value(s, decimal_comma, &mut String::new()).is_some()
+        }),
+    };
+    drop(sample);
+
+    // 5. Read every record.
+    let name = |r: Option<AttrRole>| r.map(|r| headers[r.index].clone());
+    let mapping = ResolvedMapping {
+        x: Some(headers[xy.x].clone()),
+        y: Some(headers[xy.y].clone()),
+        time: name(attrs.time),
+        category: name(attrs.category),
+        weight: name(attrs.weight),
+    };
+    let mut b = Builder::new(
+        attrs.time.is_some(),
+        attrs.category.is_some(),
+        attrs.weight.is_some(),
+    );
+    // Rough capacity guess: ~25 bytes per record.
+    b.reserve((text.len() / 25).min(10_000_000));
+    let width = headers.len();
+    let (xi, yi) = (xy.x, xy.y);
+    let (xname, yname) = (headers[xi].as_str(), headers[yi].as_str());
+    loop {
+        let info = match reader.read_into(&mut fields) {
+            None => break,
+            Some(Err(u)) => return Err(unclosed(u, Some(&headers))),
+            Some(Ok(info)) => info,
+        };
+        if info.blank {
+            continue;
+        }
+        b.rows_read += 1;
+        let row = info.row;
+        if fields.len() < width {
+            let raw = &text[info.span.clone()];
+            b.reject(row, None, RejectReason::TooFewFields, raw);
+            continue;
+        }
+        let mut coord = |i: usize, is_x: bool, b: &mut Builder| -> Option<f64> {
+            let cell = fields[i].as_ref();
+            let col = if is_x { xname } else { yname };
+            if cell.trim().is_empty() {
+                b.reject(row, Some(col), RejectReason::Empty, cell);
+                return None;
+            }
+            let Some(v) = csv::parse_number(cell, decimal_comma, &mut buf) else {
+                b.reject(row, Some(col), RejectReason::NotANumber, cell);
+                return None;
+            };
+            if let Some(reason) = range_problem(xy.coords, is_x, v) {
+                b.reject(row, Some(col), reason, cell);
+                return None;
+            }
+            Some(v)
+        };
+        let Some(x) = coord(xi, true, &mut b) else {
+            continue;
+        };
+        let Some(y) = coord(yi, false, &mut b) else {
+            continue;
+        };
+        let mut t = (0.0, false);
+        if let Some(r) = attrs.time {
+            let cell = fields[r.index].as_ref();
+            let col = headers[r.index].as_str();
+            if cell.trim().is_empty() {
+                b.reject(row, Some(col), RejectReason::Empty, cell);
+                continue;
+            }
+            match parse_time(cell, order) {
+                Some(p) => t = (p.days, p.has_clock),
+                None => {
+                    b.reject(row, Some(col), RejectReason::BadTime, cell);
+                    continue;
+                }
+            }
+        }
+        let mut w = 1.0;
+        if let Some(r) = attrs.weight {
+            let cell = fields[r.index].as_ref();
+            let col = headers[r.index].as_str();
+            if cell.trim().is_empty() {
+                b.reject(row, Some(col), RejectReason::Empty, cell);
+                continue;
+            }
+            match weight_value(cell, decimal_comma, &mut buf) {
+                Some(v) => w = v,
+                None => {
+                    b.reject(row, Some(col), RejectReason::BadWeight, cell);
+                    continue;
+                }
+            }
+        }
+        let cat = match attrs.category {
+            Some(r) => b.category_id(fields[r.index].as_ref()),
+            None => 0,
+        };
+        b.accept(row, x, y, t, cat, w);
+    }
+    let format = SourceFormat::Csv {
+        delimiter: delim as char,
+        decimal_comma,
+    };
+    Ok(b.finish(format, headers, mapping, xy.coords))
+}
+
+fn cells_of(sample: &[Vec<String>], role: Option<AttrRole>) -> impl Iterator<Item = &str> {
+    let idx = role.map(|r| r.index);
+    sample
+        .iter()
+        .filter_map(move |r| idx.and_then(|i| r.get(i)).map(String::as_str))
+}
+
+/// The analyst-facing sentence for one rejected row, e.g.
+/// `row 14, column "y": could not read "12,5" as a number`.
+impl fmt::Display for Rejection {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match &self.column {
+            Some(c) => write!(f, "row {}, column \"{}\": ", self.row, c)?,
+            None => write!(f, "row {}: ", self.row)?,
+        }
+        let v = &self.value;
+        match self.reason {
+            RejectReason::Empty => write!(f, "the cell is empty"),
+            RejectReason::NotANumber => {
+                write!(f, "could not read \"{v}\" as a number")?;
+                if csv::decimal_mark(v) == DecimalMark::Comma {
+                    write!(f, " (decimal comma?)")?;
+                }
+                Ok(())
+            }
+            RejectReason::LatitudeOutOfRange => {
+                write!(f, "latitude {v} is outside -90 to 90")
+            }
+            RejectReason::LongitudeOutOfRange => {
+                write!(f, "longitude {v} is outside -180 to 180")
+            }
+            RejectReason::OutsideStudyArea => write!(f, "the point lies outside the study area"),
+            RejectReason::BadTime => write!(
+                f,
+                "could not read \"{v}\" as a date (e.g. 2025-03-04, 04/03/2025 or \
+                 2025-03-04 14:30), or the date does not exist"
+            ),
+            RejectReason::BadWeight => write!(f, "weight \"{v}\" must be a number ≥ 0"),
+            RejectReason::TooFewFields => {
+                write!(f, "fewer fields than the header row (\"{v}\")")
+            }
+            RejectReason::BadGeometry => write!(f, "no usable point geometry ({v})"),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::input::{ColumnMapping, DateOrder, LengthUnit};
+
+    fn read(text: &str) -> RawLayer {
+        from_csv(text, &ReadOptions::default()).unwrap()
+    }
+
+    fn rej(l: &RawLayer) -> Vec<(u64, Option<&str>, RejectReason, &str)> {
+        l.rejections
+            .iter()
+            .map(|r| {
+                (
+                    r.row,
+                    r.column.as_deref(),
+                    r.reason.clone(),
+                    r.value.as_str(),
+                )
+            })
+            .collect()
+    }
+
+    fn invariant(l: &RawLayer) {
+        assert_eq!(l.len() as u64 + l.rejections.len() as u64, l.rows_read);
+        assert_eq!(l.row.len(), l.len());
+    }
+
+    #[test]
+    fn simple_comma_table() {
+        let l = read("x,y\n1,2\n3.5,-4e2\n");
+        invariant(&l);
+        assert_eq!(l.x, vec![1.0, 3.5]);
+        assert_eq!(l.y, vec![2.0, -400.0]);
+        assert_eq!(l.row, vec![2, 3]);
+        assert_eq!(
+            l.coords,
+            CoordKind::Planar {
+                unit: LengthUnit::Metre
+            }
+        );
+        assert_eq!(
+            l.format,
+            SourceFormat::Csv {
+                delimiter: ',',
+                decimal_comma: false
+            }
+        );
+        assert!(l.time.is_none() && l.category.is_none() && l.weight.is_none());
+    }
+
+    #[test]
+    fn one_rejection_per_row_in_column_order() {
+        // Row 2: x empty and y bad: x is reported. Row 3: y bad, time bad: y.
+        let l = read("x,y,date\n,abc,nope\n1,abc,nope\n1,2,nope\n1,2,2025-01-01\n");
+        invariant(&l);
+        assert_eq!(
+            rej(&l),
+            vec![
+                (2, Some("x"), RejectReason::Empty, ""),
+                (3, Some("y"), RejectReason::NotANumber, "abc"),
+                (4, Some("date"), RejectReason::BadTime, "nope"),
+            ]
+        );
+        assert_eq!(l.row, vec![5]);
+    }
+
+    #[test]
+    fn categories_weights_and_blank_category() {
+        let l = read("x,y,type,count\n0,0,b,1\n0,0,a,2.5\n0,0,,0\n0,0,b,-1\n0,0,a,lots\n");
+        invariant(&l);
+        assert_eq!(l.category_names, vec!["b", "a", BLANK_CATEGORY]);
+        assert_eq!(l.category, Some(vec![0, 1, 2]));
+        assert_eq!(l.weight, Some(vec![1.0, 2.5, 0.0]));
+        assert_eq!(
+            rej(&l),
+            vec![
+                (5, Some("count"), RejectReason::BadWeight, "-1"),
+                (6, Some("count"), RejectReason::BadWeight, "lots"),
+            ]
+        );
+    }
+
+    #[test]
+    fn detected_time_column_without_any_date_is_ignored() {
+        let l = read("x,y,reported\n1,2,yes\n3,4,no\n");
+        assert!(l.time.is_none());
+        assert_eq!(l.mapping.time, None);
+        assert_eq!(l.len(), 2);
+        // Named by the user, it is used, and rows are rejected.
+        let opts = ReadOptions {
+            mapping: ColumnMapping {
+                time: Some("reported".into()),
+                ..Default::default()
+            },
+            ..Default::default()
+        };
+        let l = from_csv("x,y,reported\n1,2,yes\n", &opts).unwrap();
+        assert_eq!(
+            rej(&l),
+            vec![(2, Some("reported"), RejectReason::BadTime, "yes")]
+        );
+    }
+
+    #[test]
+    fn time_values_and_clock_flag() {
+        let l = read("x,y,date\n1,2,1970-01-02\n1,2,02/01/1970\n");
+        assert_eq!(l.time, Some(vec![1.0, 1.0]));
+        assert!(!l.time_has_clock);
+        let l = read("x,y,datetime\n1,2,1970-01-02T12:00Z\n");
+        assert_eq!(l.time, Some(vec![1.5]));
+        assert!(l.time_has_clock);
+        // A clock time on a rejected row does not count.
+        let l = read("x,y,datetime,count\n1,2,1970-01-02T12:00Z,-1\n1,2,1970-01-02,1\n");
+        assert_eq!(l.time, Some(vec![1.0]));
+        assert!(!l.time_has_clock);
+        let opts = ReadOptions {
+            date_order: DateOrder::MonthDayYear,
+            ..Default::default()
+        };
+        let l = from_csv("x,y,date\n1,2,01/02/1970\n", &opts).unwrap();
+        assert_eq!(l.time, Some(vec![1.0]));
+    }
+
+    #[test]
+    fn decimal_comma_with_semicolons_and_tabs() {
+        let l = read("x;y\n12,5;3,25\n1;2\n");
+        assert_eq!(
+            l.format,
+            SourceFormat::Csv {
+                delimiter: ';',
+                decimal_comma: true
+            }
+        );
+        assert_eq!(l.x, vec![12.5, 1.0]);
+        assert_eq!(l.y, vec![3.25, 2.0]);
+        let l = read("x\ty\n12,5\t3,25\n");
+        assert_eq!(
+            l.format,
+            SourceFormat::Csv {
+                delimiter: '\t',
+                decimal_comma: true
+            }
+        );
+        assert_eq!(l.x, vec![12.5]);
+        // Semicolon with point decimals: a stray comma decimal is not a number.
+        let l = read("x;y\n1.5;2.5\n3.5;4.5\n1,5;2\n");
+        assert_eq!(
+            l.format,
+            SourceFormat::Csv {
+                delimiter: ';',
+                decimal_comma: false
+            }
+        );
+        assert_eq!(
+            rej(&l),
+            vec![(4, Some("x"), RejectReason::NotANumber, "1,5")]
+        );
+        assert!(l.rejections[0].to_string().contains("decimal comma?"));
+    }
+
+    #[test]
+    fn short_rows_and_extra_fields() {
+        let l = read("x,y,type\n1,2\n1,2,a,extra,more\n");
+        invariant(&l);
+        assert_eq!(rej(&l), vec![(2, None, RejectReason::TooFewFields, "1,2")]);
+        assert_eq!(l.len(), 1);
+    }
+
+    #[test]
+    fn lonlat_ranges() {
+        let l = read("lat,lon\n91,0\n0,-180.5\n-90,180\n");
+        invariant(&l);
+        assert_eq!(l.coords, CoordKind::LonLat);
+        assert_eq!(
+            rej(&l),
+            vec![
+                (2, Some("lat"), RejectReason::LatitudeOutOfRange, "91"),
+                (3, Some("lon"), RejectReason::LongitudeOutOfRange, "-180.5"),
+            ]
+        );
+        assert_eq!((l.x[0], l.y[0]), (180.0, -90.0));
+        // Planar: no range checks.
+        let l = read("x,y\n500000,4000000\n");
+        assert_eq!(l.len(), 1);
+    }
+
+    #[test]
+    fn rows_numbered_as_a_spreadsheet_shows_them() {
+        let l = read("\nx,y\n\n1,2\n,\n\"3\",\"4\"\n");
+        // Header on row 2, blank row 3, data rows 4 and 6 (row 5 is blank: one field).
+        assert_eq!(l.row, vec![4, 6]);
+        assert_eq!(l.rows_read, 2);
+    }
+
+    #[test]
+    fn unclosed_quote_in_header() {
+        let e = from_csv("\"x,y\n1,2\n", &ReadOptions::default()).unwrap_err();
+        assert_eq!(e.at.as_ref().map(|a| a.row), Some(1));
+        assert!(e.to_string().contains("closing quote"), "{e}");
+    }
+
+    #[test]
+    fn display_reads_well() {
+        let r = Rejection {
+            row: 14,
+            column: Some("y".into()),
+            reason: RejectReason::NotANumber,
+            value: "12,5".into(),
+        };
+        assert_eq!(
+            r.to_string(),
+            "row 14, column \"y\": could not read \"12,5\" as a number (decimal comma?)"
+        );
+    }
 }

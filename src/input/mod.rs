@@ -157,7 +157,10 @@ pub struct Rejection {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 #[serde(tag = "format", rename_all = "snake_case")]
 pub enum SourceFormat {
-    Csv { delimiter: char, decimal_comma: bool },
+    Csv {
+        delimiter: char,
+        decimal_comma: bool,
+    },
     GeoJson,
 }
 

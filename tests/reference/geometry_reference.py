@@ -10,7 +10,9 @@ exercises the banded edge index), it records
 * for ~500 seeded random points in and around each one: containment with the
   boundary counted as inside (`geom.covers(point)`), and the distance to the
   boundary (`geom.boundary.distance(point)`),
-* the vertices themselves as extra points (boundary distance exactly 0).
+* the vertices themselves as extra points (boundary distance exactly 0),
+* for the two small polygons, every point of the half-unit lattice over
+  [-1, 11]^2 (rounded coordinates on edges and level with vertices).
 """
 import json
 import math
@@ -70,6 +72,11 @@ for name, geom in [("hole", hole_poly), ("multipolygon", multi), ("concave", con
     for poly in polygons_of(geom):
         for ring in poly:
             pts.extend((c[0], c[1]) for c in ring[:-1][:20])
+    # Rounded coordinates: a half-unit lattice over the small polygons puts
+    # points on edges and on horizontal lines through vertices (the hard
+    # cases for ray casting).
+    if name in ("hole", "concave"):
+        pts.extend((i * 0.5, j * 0.5) for i in range(-2, 23) for j in range(-2, 23))
     boundary = geom.boundary
     points = []
     for x, y in pts:

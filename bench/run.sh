@@ -1,0 +1,15 @@
+#!/usr/bin/env bash
+# Benchmarks: what users wait for, measured natively, in Node and in headless
+# Chromium. Run through `./build.sh bench` (which builds dist/ first).
+# Figures print as JSON lines; copy them into README.md's performance section.
+# Never run from the tests: timings are not assertions.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+SIZES="${BENCH_SIZES:-1000 10000 100000 1000000}"
+
+echo "== intake: native (release)"
+cargo run --quiet --release --example bench_intake -- $SIZES
+echo "== intake: Node.js (dist/node)"
+node --max-old-space-size=4096 bench/intake-node.mjs $SIZES
+echo "== intake: headless Chromium page (worker)"
+node bench/intake-browser.mjs $SIZES

@@ -1,0 +1,54 @@
+// The page builder refuses text that would break out of its script block,
+// and writes one file with the policy first and the wasm inlined.
+import { test } from 'node:test';
+import assert from 'node:assert/strict';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, copyFileSync, writeFileSync, readFileSync, existsSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { ROOT } from './helpers.mjs';
+
+const PKG = join(ROOT, 'www', 'pkg');
+
+function build(args) {
+  return spawnSync(process.execPath, [join(ROOT, 'tools', 'build-page.mjs'), ...args], { encoding: 'utf8' });
+}
+
+function pkgCopy(glueExtra = '') {
+  assert.ok(existsSync(join(PKG, 'cloister.js')), 'build first: www/pkg is missing');
+  const dir = mkdtempSync(join(tmpdir(), 'cloister-pkg-'));
+  copyFileSync(join(PKG, 'cloister_bg.wasm'), join(dir, 'cloister_bg.wasm'));
+  writeFileSync(join(dir, 'cloister.js'), readFileSync(join(PKG, 'cloister.js'), 'utf8') + glueExtra);
+  return dir;
+}
+
+test('the builder writes one page with the wasm inlined and the policy before any script', () => {
+  const dir = pkgCopy();
+  const out = join(dir, 'page.html');
+  const r = build(['--pkg', dir, '--out', out]);
+  assert.equal(r.status, 0, r.stderr);
+  const html = readFileSync(out, 'utf8');
+  const wasm = readFileSync(join(dir, 'cloister_bg.wasm'));
+  assert.ok(html.includes(wasm.toString('base64')), 'wasm inlined as base64');
+  assert.ok(html.indexOf('Content-Security-Policy') < html.search(/<script[\s>]/i));
+  assert.equal((html.match(/Content-Security-Policy/g) || []).length, 1);
+  assert.doesNotMatch(html, /<script[^>]*\bsrc=/i, 'no script loaded from elsewhere');
+  assert.doesNotMatch(html, /<link[^>]*\bhref=/i, 'no linked resources');
+});
+
+test('the builder refuses inlined text containing </script or <!--', () => {
+  for (const bad of ['\n// </script><script>alert(1)</script>\n', '\n// <!-- x\n']) {
+    const dir = pkgCopy(bad);
+    const r = build(['--pkg', dir, '--out', join(dir, 'page.html')]);
+    assert.notEqual(r.status, 0, `accepted ${JSON.stringify(bad)}`);
+    assert.match(r.stderr, /wasm-bindgen glue contains/);
+    assert.equal(existsSync(join(dir, 'page.html')), false, 'no page written');
+  }
+});
+
+test('the builder refuses a glue built for ES modules', () => {
+  const dir = pkgCopy('\nexport default 1;\n');
+  const r = build(['--pkg', dir, '--out', join(dir, 'page.html')]);
+  assert.notEqual(r.status, 0);
+  assert.match(r.stderr, /no-modules/);
+});
