@@ -4,7 +4,7 @@ Run from the repository root (the Rust example writes the points first):
     cargo run --release --example bench_clustering -- export
     python3 bench/clustering_vs_scipy.py
 
-Same 10,000 points (seeded CSR in a 1000 m square, bench/data/points.csv) and
+Same 10,000 points (seeded CSR in a 1000 m square, target/bench-data/points.csv) and
 the same 51 radii (0 to 250 m). scipy's count_neighbors gives cumulative
 ordered-pair counts (self pairs included) with no edge correction, so
 * the values are checked against our K with no correction:
@@ -21,8 +21,8 @@ import time
 import numpy as np
 from scipy.spatial import cKDTree
 
-pts = np.loadtxt("bench/data/points.csv", delimiter=",", skiprows=1)
-rust = json.load(open("bench/data/rust_k.json"))
+pts = np.loadtxt("target/bench-data/points.csv", delimiter=",", skiprows=1)
+rust = json.load(open("target/bench-data/rust_k.json"))
 r = np.array(rust["r"])
 n = len(pts)
 area = rust["area"]

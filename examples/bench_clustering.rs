@@ -6,7 +6,7 @@
 //! ```text
 //! cargo run --release --example bench_clustering            # target A (K and L)
 //! cargo run --release --example bench_clustering -- quick   # other settings, 19 sims
-//! cargo run --release --example bench_clustering -- export  # write bench/data/points.csv
+//! cargo run --release --example bench_clustering -- export  # write target/bench-data/points.csv
 //! ```
 //! The export writes the points and the r grid used by
 //! `bench/clustering_vs_scipy.py`, and prints our single-pattern K timing.
@@ -92,12 +92,12 @@ fn main() {
     if args.get(1).map(String::as_str) == Some("export") {
         let w = square(1000.0);
         let p = simulate_csr(&w, 10_000, 42).expect("points");
-        std::fs::create_dir_all("bench/data").expect("bench/data");
+        std::fs::create_dir_all("target/bench-data").expect("target/bench-data");
         let mut s = String::from("x,y\n");
         for i in 0..p.len() {
             s.push_str(&format!("{:.17e},{:.17e}\n", p.x()[i], p.y()[i]));
         }
-        std::fs::write("bench/data/points.csv", s).expect("write points");
+        std::fs::write("target/bench-data/points.csv", s).expect("write points");
         let reps = 5;
         let time_k = |c: Correction| -> f64 {
             let params = EnvelopeParams {
@@ -130,7 +130,7 @@ fn main() {
             "n": p.len(), "area": iso.area_m2, "r": iso.r, "k_iso": iso.k, "k_none": none.k,
             "seconds_k_isotropic": k_iso, "seconds_k_none": k_none
         });
-        std::fs::write("bench/data/rust_k.json", json.to_string()).expect("write json");
+        std::fs::write("target/bench-data/rust_k.json", json.to_string()).expect("write json");
         println!(
             "single pattern, n = 10,000, 51 distances: K isotropic {k_iso:.4} s, \
              K no correction {k_none:.4} s"
