@@ -137,46 +137,40 @@ fn main() {
         );
         return;
     }
-    println!("Target A: K and L, isotropic, n = 10,000, 199 simulations, 50 steps");
     let sq = square(1000.0);
+    if args.get(1).map(String::as_str) == Some("quick") {
+        // Per-pattern costs with 19 simulations (the machine is shared).
+        let corrections = [
+            Correction::Isotropic,
+            Correction::None,
+            Correction::Border,
+            Correction::Translation,
+        ];
+        for c in corrections {
+            envelope_time(&sq, 10_000, SummaryFunction::L, c, 19);
+        }
+        let hole = with_hole(1000.0);
+        envelope_time(&hole, 10_000, SummaryFunction::L, Correction::Isotropic, 19);
+        envelope_time(
+            &hole,
+            10_000,
+            SummaryFunction::L,
+            Correction::Translation,
+            19,
+        );
+        let functions = [
+            SummaryFunction::PairCorrelation,
+            SummaryFunction::NearestNeighbour,
+            SummaryFunction::EmptySpace,
+            SummaryFunction::J,
+        ];
+        for f in functions {
+            envelope_time(&sq, 10_000, f, Correction::Isotropic, 19);
+        }
+        envelope_time(&sq, 1_000, SummaryFunction::L, Correction::Isotropic, 199);
+        return;
+    }
+    println!("Target A: K and L, isotropic, n = 10,000, 199 simulations, 50 steps");
     envelope_time(&sq, 10_000, SummaryFunction::K, Correction::Isotropic, 199);
     envelope_time(&sq, 10_000, SummaryFunction::L, Correction::Isotropic, 199);
-    println!("Other settings");
-    envelope_time(
-        &with_hole(1000.0),
-        10_000,
-        SummaryFunction::L,
-        Correction::Isotropic,
-        199,
-    );
-    envelope_time(
-        &sq,
-        10_000,
-        SummaryFunction::L,
-        Correction::Translation,
-        199,
-    );
-    envelope_time(&sq, 10_000, SummaryFunction::L, Correction::Border, 199);
-    envelope_time(
-        &sq,
-        10_000,
-        SummaryFunction::PairCorrelation,
-        Correction::Isotropic,
-        199,
-    );
-    envelope_time(
-        &sq,
-        10_000,
-        SummaryFunction::NearestNeighbour,
-        Correction::Isotropic,
-        199,
-    );
-    envelope_time(
-        &sq,
-        10_000,
-        SummaryFunction::EmptySpace,
-        Correction::Isotropic,
-        199,
-    );
-    envelope_time(&sq, 1_000, SummaryFunction::L, Correction::Isotropic, 999);
 }
