@@ -249,7 +249,9 @@ impl Context {
         let uses_translation = (needs.k && p.correction == Correction::Translation)
             || (needs.pcf && pcf_correction == Correction::Translation);
         let translation = if uses_translation {
-            Some(Translation::new(&region, reach))
+            // Same table whether or not g is computed, so K does not depend
+            // on which other functions were asked for.
+            Some(Translation::new(&region, r_max + bandwidth))
         } else {
             None
         };
@@ -394,14 +396,18 @@ impl Context {
             let mut pacc = vec![0.0f64; nr];
             let mut capped = 0u64;
             // Fast path for the common case: K alone, isotropic or none.
-            let fast = needs.k
-                && !needs.pcf
-                && matches!(self.correction, Correction::Isotropic | Correction::None);
+            let fast = needs.k && !needs.pcf;
             if fast {
-                kacc = match &iso {
-                    Some(c) => self.k_kernel::<true>(&grid, Some(c), &mut capped),
-                    None => self.k_kernel::<false>(&grid, None, &mut capped),
+                let (h, diff) = match self.correction {
+                    Correction::None => self.k_kernel::<0>(&grid, None, &[], &mut capped),
+                    Correction::Isotropic => {
+                        self.k_kernel::<1>(&grid, iso.as_ref(), &[], &mut capped)
+                    }
+                    Correction::Translation => self.k_kernel::<2>(&grid, None, &[], &mut capped),
+                    Correction::Border => self.k_kernel::<3>(&grid, None, &kmax, &mut capped),
                 };
+                kacc = h;
+                border_diff = diff;
             }
             let kc = self.correction;
             let pc = self.pcf_correction;
@@ -550,23 +556,28 @@ impl Context {
     /// goes to a bin, those beyond r_max to the overflow slot. With `ISO`,
     /// each weight starts at 1 and the isotropic excess is added only when
     /// the circle reaches the boundary (d > b).
-    fn k_kernel<const ISO: bool>(
+    fn k_kernel<const MODE: u8>(
         &self,
         grid: &PointGrid,
         iso: Option<&IsoCache>,
+        kmax: &[i64],
         capped: &mut u64,
-    ) -> Vec<f64> {
+    ) -> (Vec<f64>, Vec<f64>) {
+        // MODE: 0 none, 1 isotropic, 2 translation, 3 border.
         let nr = self.r.len();
-        // Four interleaved histograms (fewer store-to-load stalls when
-        // consecutive pairs fall in the same bin); the isotropic excess
-        // goes to a fifth, as f64.
+        // Four interleaved count histograms (fewer store-to-load stalls
+        // when consecutive pairs fall in the same bin); weight excesses
+        // over 1 go to `extra`; border counts to a difference array.
         let mut h4 = vec![[0u32; 4]; nr + 1];
         let mut extra = vec![0.0f64; nr + 1];
+        let mut diff = vec![0.0f64; nr + 1];
         let r = &self.r[..];
         let inv = 1.0 / self.step;
         let region = &self.region;
         let empty: Vec<f64> = Vec::new();
         let b: &[f64] = iso.map_or(&empty[..], |c| &c.b[..]);
+        let trans = self.translation.as_ref();
+        let cap = self.cap;
         let mut dbuf: Vec<f64> = Vec::new();
         // Exact bin: smallest k with r_k ≥ d (nr when beyond r_max).
         let exact_bin = |d: f64| -> usize {
@@ -595,7 +606,8 @@ impl Context {
                 (dx * dx + dy * dy).sqrt()
             }));
             // Phase 2: bins and weights.
-            let ba = if ISO { b[a] } else { f64::INFINITY };
+            let ba = if MODE == 1 { b[a] } else { f64::INFINITY };
+            let ka = if MODE == 3 { kmax[a] } else { 0 };
             for (k, &d) in dbuf.iter().enumerate() {
                 let q = d * inv;
                 let t = q as i64;
@@ -607,8 +619,19 @@ impl Context {
                 } else {
                     exact_bin(d)
                 };
+                if MODE == 3 {
+                    if bin < nr {
+                        for km in [ka, kmax[b0 + k]] {
+                            if km >= bin as i64 {
+                                diff[bin] += 1.0;
+                                diff[km as usize + 1] -= 1.0;
+                            }
+                        }
+                    }
+                    continue;
+                }
                 h4[bin][k & 3] += 1;
-                if ISO && bin < nr {
+                if MODE == 1 && bin < nr {
                     let bb = b[b0 + k];
                     if d > ba || d > bb {
                         if let Some(c) = iso {
@@ -618,11 +641,17 @@ impl Context {
                         }
                     }
                 }
+                if MODE == 2 && bin < nr {
+                    if let Some(t) = trans {
+                        extra[bin] += 2.0 * (t.weight(bx[k] - xa, by[k] - ya, cap, capped) - 1.0);
+                    }
+                }
             }
         });
-        (0..=nr)
+        let hist = (0..=nr)
             .map(|k| 2.0 * (h4[k].iter().map(|v| *v as f64).sum::<f64>()) + extra[k])
-            .collect()
+            .collect();
+        (hist, diff)
     }
 
     /// #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r} on the grid (NaN when no
@@ -923,6 +952,54 @@ mod tests {
             );
         }
         assert!(out.pcf[0].is_nan());
+    }
+
+    /// The K-only kernel (used by envelopes) and the general pass (used when
+    /// g is also asked for) agree for every correction, on a rectangle and
+    /// on a window with a hole; the F12 table above checks the general pass.
+    #[test]
+    fn test_k_kernel_matches_general_pass() {
+        use crate::distance::region::tests::wh;
+        for (region, scale) in [(unit_square(), 1.0), (wh(), 10.0)] {
+            let mut rng = crate::rng::rng_from_seed(31);
+            let (x, y) = region.sample(400, &mut rng);
+            for c in [
+                Correction::None,
+                Correction::Isotropic,
+                Correction::Translation,
+                Correction::Border,
+            ] {
+                let p = FunctionParams {
+                    r_max: Some(0.2 * scale),
+                    n_steps: 20,
+                    correction: c,
+                    ..Default::default()
+                };
+                let k_only = Needs {
+                    k: true,
+                    ..Default::default()
+                };
+                let both = Needs {
+                    k: true,
+                    pcf: true,
+                    ..Default::default()
+                };
+                let a = Context::new(region.clone(), x.len(), &p, k_only)
+                    .unwrap()
+                    .compute(&x, &y, k_only);
+                let b = Context::new(region.clone(), x.len(), &p, both)
+                    .unwrap()
+                    .compute(&x, &y, both);
+                for k in 0..a.k.len() {
+                    assert!(
+                        (a.k[k] - b.k[k]).abs() <= 1e-12 * b.k[k].abs().max(1e-12),
+                        "{c:?} {k}: {} {}",
+                        a.k[k],
+                        b.k[k]
+                    );
+                }
+            }
+        }
     }
 
     #[test]
