@@ -245,7 +245,6 @@ impl Context {
         } else {
             p.correction
         };
-        let reach = if needs.pcf { r_max + bandwidth } else { r_max };
         let uses_translation = (needs.k && p.correction == Correction::Translation)
             || (needs.pcf && pcf_correction == Correction::Translation);
         let translation = if uses_translation {
