@@ -636,6 +636,49 @@ mod tests {
         }
     }
 
+    /// Edge cases return values, never panic: all events at one place, two
+    /// events, a tiny r_max, every function.
+    #[test]
+    fn test_degenerate_patterns() {
+        let fs = [
+            SummaryFunction::NearestNeighbour,
+            SummaryFunction::EmptySpace,
+            SummaryFunction::J,
+            SummaryFunction::K,
+            SummaryFunction::L,
+            SummaryFunction::PairCorrelation,
+        ];
+        let cases: Vec<(Vec<f64>, Vec<f64>, Option<f64>)> = vec![
+            (vec![0.5; 6], vec![0.5; 6], None),
+            (vec![0.2, 0.8], vec![0.3, 0.7], None),
+            (vec![0.2, 0.8, 0.5], vec![0.3, 0.7, 0.5], Some(1e-9)),
+        ];
+        for (x, y, r_max) in cases {
+            for f in fs {
+                let p = EnvelopeParams {
+                    function: f,
+                    n_sim: 9,
+                    functions: FunctionParams {
+                        r_max,
+                        ..Default::default()
+                    },
+                    ..Default::default()
+                };
+                let res = EnvelopeJob::new_in(unit_square(), &x, &y, &p)
+                    .unwrap()
+                    .finish();
+                assert_eq!(res.r.len(), 51);
+                assert!(res.mad.p_value > 0.0 && res.mad.p_value <= 1.0);
+                // 9 simulations cannot reach level 0.05: said so.
+                assert!(res
+                    .warnings
+                    .iter()
+                    .any(|w| w.contains("no test can reach level")));
+                assert!(serde_json::to_string(&res).is_ok());
+            }
+        }
+    }
+
     #[test]
     fn test_bad_parameters() {
         let (x, y) = (vec![0.1, 0.5, 0.9], vec![0.2, 0.4, 0.6]);
