@@ -679,6 +679,23 @@ mod tests {
         }
     }
 
+    /// JavaScript may leave any parameter out (serde defaults).
+    #[test]
+    fn test_params_from_partial_json() {
+        let p: EnvelopeParams =
+            serde_json::from_str(r#"{"function":"pair_correlation","n_sim":99,"functions":{"correction":"translation"}}"#)
+                .unwrap();
+        assert_eq!(p.function, SummaryFunction::PairCorrelation);
+        assert_eq!(p.n_sim, 99);
+        assert_eq!(p.alpha, 0.05);
+        assert_eq!(p.functions.correction, Correction::Translation);
+        assert_eq!(p.functions.n_steps, 50);
+        let d: EnvelopeParams = serde_json::from_str("{}").unwrap();
+        assert_eq!(d, EnvelopeParams::default());
+        assert_eq!(d.function, SummaryFunction::L);
+        assert_eq!(d.n_sim, 199);
+    }
+
     #[test]
     fn test_bad_parameters() {
         let (x, y) = (vec![0.1, 0.5, 0.9], vec![0.2, 0.4, 0.6]);
