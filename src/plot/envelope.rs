@@ -89,7 +89,9 @@ pub fn envelope_chart<DB: DrawingBackend>(
     let xmax = res.r.last().copied().unwrap_or(1.0).max(1e-12);
     let (xl, yl) = axis_labels(res);
     area.fill(&WHITE).map_err(err)?;
-    let mut chart = ChartBuilder::on(area)
+    let (legend, plot) = area.split_vertically(28);
+    let pct = format!("global {:.0}% band (MAD test)", 100.0 * (1.0 - res.alpha));
+    let mut chart = ChartBuilder::on(&plot)
         .margin(12)
         .x_label_area_size(40)
         .y_label_area_size(64)
@@ -118,30 +120,18 @@ pub fn envelope_chart<DB: DrawingBackend>(
             })
             .collect()
     };
-    let grey = RGBColor(215, 215, 215);
+    let grey = RGBColor(120, 120, 120).mix(0.35);
     let blue = RGBColor(160, 196, 232);
-    let mut first = true;
+    // Global band first, the narrower pointwise band on top of it.
+    for poly in band(&glo, &ghi) {
+        chart
+            .draw_series(std::iter::once(Polygon::new(poly, blue.filled())))
+            .map_err(err)?;
+    }
     for poly in band(&plo, &phi) {
-        let s = chart
+        chart
             .draw_series(std::iter::once(Polygon::new(poly, grey.filled())))
             .map_err(err)?;
-        if first {
-            s.label("pointwise — not a test")
-                .legend(move |(x, y)| Rectangle::new([(x, y - 5), (x + 16, y + 5)], grey.filled()));
-            first = false;
-        }
-    }
-    first = true;
-    let pct = format!("global {:.0}% band (MAD test)", 100.0 * (1.0 - res.alpha));
-    for poly in band(&glo, &ghi) {
-        let s = chart
-            .draw_series(std::iter::once(Polygon::new(poly, blue.mix(0.7).filled())))
-            .map_err(err)?;
-        if first {
-            s.label(pct.clone())
-                .legend(move |(x, y)| Rectangle::new([(x, y - 5), (x + 16, y + 5)], blue.filled()));
-            first = false;
-        }
     }
     let line = |v: &[f64]| -> Vec<Vec<(f64, f64)>> {
         let ok: Vec<bool> = v.iter().map(|a| a.is_finite()).collect();
@@ -150,37 +140,50 @@ pub fn envelope_chart<DB: DrawingBackend>(
             .map(|(s, e)| (s..e).map(|k| (res.r[k], v[k])).collect())
             .collect()
     };
-    first = true;
     for seg in line(&theo) {
-        let s = chart
+        chart
             .draw_series(DashedLineSeries::new(seg, 6, 4, BLACK.stroke_width(1)))
             .map_err(err)?;
-        if first {
-            s.label("CSR")
-                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], BLACK));
-            first = false;
-        }
     }
-    first = true;
     let dark = RGBColor(150, 30, 30);
     for seg in line(&obs) {
-        let s = chart
+        chart
             .draw_series(LineSeries::new(seg, dark.stroke_width(2)))
             .map_err(err)?;
-        if first {
-            s.label("observed").legend(move |(x, y)| {
-                PathElement::new(vec![(x, y), (x + 16, y)], dark.stroke_width(2))
-            });
-            first = false;
-        }
     }
-    chart
-        .configure_series_labels()
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK.mix(0.3))
-        .position(SeriesLabelPosition::UpperLeft)
-        .draw()
+    // Legend in its own strip above the plot, so it never hides a curve.
+    let font = ("sans-serif", 13).into_font().color(&BLACK);
+    let mut x = 70;
+    let y = 14;
+    let items = [
+        ("observed", 0u8),
+        ("CSR", 1),
+        (pct.as_str(), 2),
+        ("pointwise — not a test", 3),
+    ];
+    for (text, kind) in items {
+        let swatch = [(x, y - 6), (x + 18, y + 6)];
+        match kind {
+            0 => legend.draw(&PathElement::new(
+                vec![(x, y), (x + 18, y)],
+                dark.stroke_width(2),
+            )),
+            1 => legend
+                .draw(&PathElement::new(vec![(x, y), (x + 6, y)], BLACK))
+                .and_then(|_| {
+                    legend.draw(&PathElement::new(vec![(x + 11, y), (x + 17, y)], BLACK))
+                }),
+            2 => legend.draw(&Rectangle::new(swatch, blue.filled())),
+            _ => legend
+                .draw(&Rectangle::new(swatch, blue.filled()))
+                .and_then(|_| legend.draw(&Rectangle::new(swatch, grey.filled()))),
+        }
         .map_err(err)?;
+        legend
+            .draw(&Text::new(text.to_string(), (x + 24, y - 7), font.clone()))
+            .map_err(err)?;
+        x += 44 + (text.chars().count() as f64 * 6.3) as i32;
+    }
     area.present().map_err(err)?;
     Ok(())
 }
