@@ -29,7 +29,8 @@ pub(crate) struct PointGrid {
 
 impl PointGrid {
     /// Builds a grid with cells of side `cell` over the points' extent.
-    /// The grid has at most about 4·10⁶ cells (the side grows if needed).
+    /// The grid has at most about max(4n, 4096) cells (the side grows if
+    /// needed).
     pub fn new(x: &[f64], y: &[f64], cell: f64) -> PointGrid {
         let n = x.len();
         let (mut x0, mut y0, mut x1, mut y1) = (
@@ -52,9 +53,17 @@ impl PointGrid {
         } else {
             1.0
         };
-        let extent = (x1 - x0).max(y1 - y0);
-        if extent / cell > 2000.0 {
-            cell = extent / 2000.0;
+        // Keep the cell table small (memory stays flat per simulation): at
+        // most about max(4n, 4096) cells; larger cells only mean more
+        // candidate pairs, never missed ones.
+        let max_cells = (4 * n).max(4096) as f64;
+        let (w, h) = (x1 - x0, y1 - y0);
+        if (w / cell + 1.0) * (h / cell + 1.0) > max_cells {
+            // Positive root of (w/c + 1)(h/c + 1) = max_cells.
+            let a = max_cells - 1.0;
+            let b = w + h;
+            let c = (b + (b * b + 4.0 * a * w * h).sqrt()) / (2.0 * a);
+            cell = cell.max(c);
         }
         let nx = (((x1 - x0) / cell).floor() as usize + 1).max(1);
         let ny = (((y1 - y0) / cell).floor() as usize + 1).max(1);
@@ -243,7 +252,7 @@ mod tests {
     #[test]
     fn test_pairs_match_brute_force() {
         let (x, y) = random_points(500, 17);
-        for (r, cell) in [(0.05, 0.025), (0.1, 0.1), (0.2, 0.05)] {
+        for (r, cell) in [(0.05, 0.025), (0.1, 0.1), (0.2, 0.05), (0.05, 0.001)] {
             let g = PointGrid::new(&x, &y, cell);
             let mut got = Vec::new();
             g.for_each_pair(r, |a, b, d| {
