@@ -12,8 +12,8 @@ ordered-pair counts (self pairs included) with no edge correction, so
 * the times compare scipy's plain pair count with our K with Ripley's
   isotropic correction (the default, which does more work per pair) and
   with our K without correction (the like-for-like count).
-Timings are CPU seconds (time.process_time) for scipy and the Rust example's
-wall-clock seconds per pattern (one thread each).
+Timings are CPU seconds on both sides (time.process_time for scipy; the Rust
+example reads /proc/self/stat), one thread each, because the machine is shared.
 """
 import json
 import time
