@@ -77,6 +77,10 @@ pub(crate) struct IsoCache {
     /// For a rectangular window: distances to the left, right, bottom and
     /// top sides of each point (closed form, no edge loop).
     sides: Vec<[f64; 4]>,
+    /// For a rectangular window: the second-smallest side distance of each
+    /// point. Up to that radius only the nearest side cuts the circle, so
+    /// the inside angle is 2π − 2·acos(b/d) (no corner terms).
+    second: Vec<f64>,
     cap: f64,
 }
 
@@ -107,7 +111,7 @@ impl IsoCache {
         region: &Region,
         xs: &[f64],
         ys: &[f64],
-        b: Vec<f64>,
+        mut b: Vec<f64>,
         reach: f64,
         cap: f64,
     ) -> IsoCache {
@@ -115,10 +119,24 @@ impl IsoCache {
         let mut near = Vec::new();
         let (mut near_lo, mut near_hi) = (Vec::new(), Vec::new());
         let mut sides = Vec::new();
+        let mut second = Vec::new();
         start.push(0);
         if let Some([x0, y0, x1, y1]) = region.rectangle {
             sides = (0..xs.len())
                 .map(|i| [xs[i] - x0, x1 - xs[i], ys[i] - y0, y1 - ys[i]])
+                .collect();
+            // Boundary distance = nearest side, computed the same way as
+            // the closed form below.
+            for (bi, s) in b.iter_mut().zip(&sides) {
+                *bi = s[0].min(s[1]).min(s[2]).min(s[3]);
+            }
+            second = sides
+                .iter()
+                .map(|s| {
+                    let mut v = *s;
+                    v.sort_unstable_by(f64::total_cmp);
+                    v[1]
+                })
                 .collect();
         } else {
             for i in 0..xs.len() {
@@ -144,6 +162,7 @@ impl IsoCache {
             near_lo,
             near_hi,
             sides,
+            second,
             cap,
         }
     }
@@ -188,7 +207,12 @@ impl IsoCache {
             };
             std::f64::consts::TAU * d / arc
         } else {
-            std::f64::consts::TAU / rectangle_inside_angle(&self.sides[i], d)
+            if d <= self.second[i] {
+                // One side only: 2π / (2π − 2·acos(b/d)).
+                std::f64::consts::PI / (std::f64::consts::PI - (self.b[i] / d).acos())
+            } else {
+                std::f64::consts::TAU / rectangle_inside_angle(&self.sides[i], d)
+            }
         };
         if !(w < self.cap) {
             *capped += 1;
@@ -432,22 +456,25 @@ mod tests {
     /// as the uncached routine on a window with a hole.
     #[test]
     fn test_cache_matches_uncached() {
-        let w = wh();
-        let mut rng = crate::rng::rng_from_seed(21);
-        let (xs, ys) = w.sample(300, &mut rng);
-        let b: Vec<f64> = xs
-            .iter()
-            .zip(&ys)
-            .map(|(x, y)| w.boundary_distance(*x, *y))
-            .collect();
-        let cache = IsoCache::new(&w, &xs, &ys, b, 3.0, f64::INFINITY);
-        let mut capped = 0;
-        for i in 0..xs.len() {
-            for k in 1..=30 {
-                let d = 0.1 * k as f64;
-                let a = cache.weight(&w, i, xs[i], ys[i], d, &mut capped);
-                let e = isotropic_weight(&w, xs[i], ys[i], d);
-                assert!((a - e).abs() < 1e-12 * e, "{i} {d}: {a} vs {e}");
+        // WH (general polygon path) and the unit square (closed form with
+        // its one-side shortcut) against the general uncached routine.
+        for (w, reach) in [(wh(), 3.0), (unit_square(), 0.3)] {
+            let mut rng = crate::rng::rng_from_seed(21);
+            let (xs, ys) = w.sample(300, &mut rng);
+            let b: Vec<f64> = xs
+                .iter()
+                .zip(&ys)
+                .map(|(x, y)| w.boundary_distance(*x, *y))
+                .collect();
+            let cache = IsoCache::new(&w, &xs, &ys, b, reach, f64::INFINITY);
+            let mut capped = 0;
+            for i in 0..xs.len() {
+                for k in 1..=30 {
+                    let d = reach / 30.0 * k as f64;
+                    let a = cache.weight(&w, i, xs[i], ys[i], d, &mut capped);
+                    let e = isotropic_weight(&w, xs[i], ys[i], d);
+                    assert!((a - e).abs() < 1e-12 * e, "{i} {d}: {a} vs {e}");
+                }
             }
         }
     }
