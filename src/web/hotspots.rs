@@ -668,6 +668,8 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
         .light_line_style(RGBColor(236, 238, 234))
         .x_desc("events, sorted from the most isolated")
         .y_desc(nth)
+        .x_label_formatter(&|v| format!("{v:.0}"))
+        .y_label_formatter(&|v| format!("{v:.0}"))
         .label_style(("sans-serif", 12))
         .axis_desc_style(("sans-serif", 13))
         .draw()
