@@ -479,7 +479,11 @@ impl Session {
         let k = k_distance_plot(s.events.x(), s.events.y(), min_samples)
             .map_err(|e| analysis_error(&e))?;
         let obj = Object::new();
-        set(&obj, "min_samples", &JsValue::from_f64(k.min_samples as f64))?;
+        set(
+            &obj,
+            "min_samples",
+            &JsValue::from_f64(k.min_samples as f64),
+        )?;
         set(
             &obj,
             "sorted_desc_m",

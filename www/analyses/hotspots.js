@@ -17,11 +17,13 @@
    * reads the same with any colour-vision deficiency and in greyscale; it
    * also stays apart from the map's blue event squares. */
   const RAMP = ['#f4ecc2', '#e8c886', '#d59a5c', '#b26847', '#81404b', '#4b2340'];
-  const RAMP_ALPHA = 0.62;
+  // Opacity grows with the class, so thin background density leaves the
+  // study area and the events readable and the hotspots stand out.
+  const RAMP_ALPHA = [0.22, 0.36, 0.5, 0.6, 0.68, 0.75];
   const ISO_STYLE = { 0.5: [], 0.75: [7, 4], 0.95: [2, 3] };
   const HULL = '#0f5c5a';
   const SCAN_MAIN = '#101010';
-  const SCAN_OTHER = '#5b4a8a';
+  const SCAN_OTHER = '#2b2b2b';
 
   const state = {
     info: null,
@@ -127,7 +129,7 @@
     const ctx = img.getContext('2d');
     const data = ctx.createImageData(nx, ny);
     const rgb = RAMP.map((h) => [parseInt(h.slice(1, 3), 16), parseInt(h.slice(3, 5), 16), parseInt(h.slice(5, 7), 16)]);
-    const a = Math.round(255 * RAMP_ALPHA);
+    const alpha = RAMP_ALPHA.map((a) => Math.round(255 * a));
     const v = meta.values, m = meta.mask;
     for (let j = 0; j < ny; j++) {
       const row = (ny - 1 - j) * nx; // row 0 of the grid is the south edge
@@ -140,7 +142,7 @@
         while (c < breaks.length && x >= breaks[c]) c++;
         const o = (row + i) * 4;
         const col = rgb[c];
-        data.data[o] = col[0]; data.data[o + 1] = col[1]; data.data[o + 2] = col[2]; data.data[o + 3] = c === 0 ? Math.round(a * 0.6) : a;
+        data.data[o] = col[0]; data.data[o + 1] = col[1]; data.data[o + 2] = col[2]; data.data[o + 3] = alpha[c];
       }
     }
     ctx.putImageData(data, 0, 0);
@@ -597,7 +599,7 @@
         ctx.setLineDash([]);
       }, [
         { label: 'Scan: most likely circle', colour: SCAN_MAIN, kind: 'line' },
-        { label: 'Scan: secondary circles with p < 0.05', colour: SCAN_OTHER, kind: 'line' },
+        { label: 'Scan: secondary circles with p < 0.05 (dashed)', colour: SCAN_OTHER, kind: 'line' },
       ]);
     } else {
       C.setOverlay('hotspots-scan', null);
