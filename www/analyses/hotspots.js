@@ -43,7 +43,9 @@
 
   const num = (v) => (typeof v === 'bigint' ? Number(v) : Number(v));
   function field(label, control, hint) {
-    const id = control.id;
+    // The label names the field's own input even when it sits in a wrapper.
+    const inner = control.matches('input, select') ? control : control.querySelector('input, select');
+    const id = inner ? inner.id : null;
     return el('div', { class: 'hs-field' }, el('label', { for: id }, label), control, hint ? el('span', { class: 'hint' }, hint) : null);
   }
   function input(id, attrs) {
