@@ -272,3 +272,21 @@ test('nothing loaded: every hotspot method says so', () => {
     assert.equal(throws(f).code, 'nothing_loaded');
   }
 });
+
+test('MSE criterion on random events: "no finite optimum" is said, not the end of the range', () => {
+  // 400 events uniform in a 5 km square (seeded LCG): under complete spatial
+  // randomness the Diggle / Berman–Diggle criterion keeps falling as the
+  // bandwidth grows (METHODS §7), so no bandwidth may be reported.
+  let st = 2n;
+  const next = () => { st = (st * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn; return Number(st >> 11n) / 2 ** 53; };
+  let csv = 'x,y\n';
+  for (let i = 0; i < 400; i++) csv += `${(5000 * next()).toFixed(2)},${(5000 * next()).toFixed(2)}\n`;
+  const s = new Session();
+  s.loadEvents(new TextEncoder().encode(csv), { coords: { kind: 'planar', unit: 'metre' } });
+  s.setAreaFallback('bounding_box');
+  const e = throws(() => s.intensitySurface({ method: 'diggle_mse' }));
+  assert.equal(e.code, 'bad_parameter');
+  assert.match(e.message, /no finite optimum/);
+  // The other methods still answer on the same data.
+  assert.ok(s.intensitySurface({ method: 'likelihood_cv' }).bandwidth_m > 0);
+});
