@@ -44,7 +44,11 @@
 //! 2. Local minimum distance ρ = distance from x to the (k − self)-th nearest
 //!    layer point (the radius that holds k addresses around x; under locally
 //!    even density a disc of that radius around x′ holds about as many);
-//!    r_lo = min(max(r_min, ρ), r_max).
+//!    r_lo = min(max(r_min, ρ), max(r_min, r_max/2)). The lower edge is
+//!    never raised above half the maximum shift (unless the user's own r_min
+//!    is higher): where addresses are sparse, ρ can exceed r_max, and a donut
+//!    [r_max, r_max) would shift every such point by exactly r_max, putting
+//!    its true location on a known circle around the shared one.
 //! 3. Draw candidates from the donut [r_lo, r_max) with the chosen law and a
 //!    uniform direction; accept the first one inside the study area whose k
 //!    reaches the target. After `max_tries`, report `target_not_reached` with
@@ -273,7 +277,8 @@ fn population_mode(
         }
         let rho =
             kth_distance_within(&grid, x[i], y[i], need_layer, p.r_max_m).unwrap_or(p.r_max_m);
-        let r_lo = p.r_min_m.max(rho).min(p.r_max_m);
+        // Keep the donut wide: never a fixed-distance shift (see module docs).
+        let r_lo = p.r_min_m.max(rho).min(p.r_min_m.max(0.5 * p.r_max_m));
         let mut best: Option<(usize, f64, f64, f64)> = None;
         let mut accepted = None;
         for _ in 0..p.max_tries {
@@ -512,5 +517,44 @@ mod tests {
                 ..
             }
         ));
+    }
+
+    #[test]
+    fn sparse_population_never_gives_a_fixed_distance_shift() {
+        // Addresses on a 100 m lattice (100 per km²) plus a dense block on a
+        // 25 m lattice from x = 5000 m. Events sit 300 m west of the block:
+        // the disc of radius r_max = 250 m around each holds about 20
+        // addresses, so the local radius ρ for k = 30 exceeds r_max, yet
+        // shifts toward the block reach k. The shifts must be spread over a
+        // band, not all equal to r_max (which would put the true point on a
+        // known circle around the shared one).
+        let area = PolygonArea::rectangle(0.0, 0.0, 10_000.0, 10_000.0);
+        let (mut px, mut py) = (Vec::new(), Vec::new());
+        for i in 0..100 {
+            for j in 0..100 {
+                px.push(50.0 + 100.0 * i as f64);
+                py.push(50.0 + 100.0 * j as f64);
+            }
+        }
+        for i in 0..40 {
+            for j in 0..400 {
+                px.push(5012.5 + 25.0 * i as f64);
+                py.push(12.5 + 25.0 * j as f64);
+            }
+        }
+        let ex: Vec<f64> = vec![4700.0; 40];
+        let ey: Vec<f64> = (0..40).map(|i| 1000.0 + 200.0 * i as f64).collect();
+        let p = KAnonParams {
+            target_k: 30,
+            r_max_m: 250.0,
+            ..Default::default()
+        };
+        let r = kanon_mask(&ex, &ey, Some((&px, &py)), &area, &p).unwrap();
+        let d = &r.masked.displacement_m;
+        assert!(d.len() >= 30, "most points can reach k: {}", d.len());
+        assert!(d.iter().all(|&v| (125.0..250.0).contains(&v)), "{d:?}");
+        let spread = d.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+            - d.iter().cloned().fold(f64::INFINITY, f64::min);
+        assert!(spread > 20.0, "shifts bunched at one distance: {d:?}");
     }
 }

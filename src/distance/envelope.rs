@@ -1,0 +1,726 @@
+//! Monte Carlo envelopes and global tests of CSR, run in batches.
+//!
+//! # Method
+//! The observed curve Ĥ (one of G, F, J, K, L, g) is compared with m curves
+//! from binomial CSR patterns with the same n in the same window (Besag &
+//! Diggle 1977, Applied Statistics 26:327–333). All curves share one r grid.
+//!
+//! * **Pointwise band**: min and max of the simulated curves at each r.
+//!   Labelled "pointwise — not a test": for one pre-chosen r it has level
+//!   2/(m+1), but reading it over all r is multiple testing (Loosmore &
+//!   Ford 2006, Ecology 87:1925–1931; Baddeley et al. 2014 [from memory]).
+//! * **Global tests** on the interval I = [r_min, r_max] (default r_min = 0,
+//!   or the kernel half-width h for g), over grid values where every curve
+//!   is finite, against a reference curve H₀:
+//!   - MAD (Ripley 1977, 1981 [from memory]): T = max_{r∈I} |Ĥ(r) − H₀(r)|.
+//!   - DCLF (Diggle 1979; Cressie 1993; Loosmore & Ford 2006 [from
+//!     memory]): T = ∫_I (Ĥ(r) − H₀(r))² dr by the trapezoid rule.
+//!   - p = (1 + #{j: T_j ≥ T_obs})/(m + 1) (Barnard 1963; Hope 1968;
+//!     Besag & Diggle 1977), ties counted against the data (conservative).
+//! * **Reference curve H₀**: the CSR curve by default (METHODS §5: use the
+//!   theoretical value when known). Optionally the mean of all m + 1
+//!   curves, data included, which keeps data and simulations exchangeable
+//!   (one of the options listed by Baddeley et al. 2014, Ecol Monogr
+//!   84:477–489, via METHODS §5).
+//! * **Global band** matching the MAD test: H₀(r) ± T_(k), T_(k) the k-th
+//!   largest simulated MAD statistic, k = ⌊α(m+1)⌋. The observed curve
+//!   leaves this band (strictly) somewhere on I if and only if the MAD test
+//!   rejects at level α (a graphical test). For K the band is dominated by
+//!   large r, so L (variance-stabilised, Besag 1977) is the default.
+//!
+//! # Batches and seeds
+//! Simulation j uses its own generator, seeded from (seed, j)
+//! ([`super::csr::stream_seed`]), so the result depends only on the seed,
+//! not on batch sizes. Memory: one curve per simulation (m × n_r values).
+
+use super::csr::stream_rng;
+use super::edge::{Correction, NnCorrection};
+use super::functions::{checked_region, gf_theo, j_from, l_from_k, Context, FunctionParams, Needs};
+use super::verdict::{verdict_for, Verdict};
+use crate::error::AnalysisError;
+use crate::study::Pattern;
+use crate::window::Window;
+use serde::{Deserialize, Serialize};
+use std::f64::consts::PI;
+
+/// Which function to test.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SummaryFunction {
+    /// G: distribution of nearest-neighbour distances.
+    NearestNeighbour,
+    /// F: distribution of distances from a location to the nearest event.
+    EmptySpace,
+    /// J = (1 − G)/(1 − F).
+    J,
+    /// Ripley's K.
+    K,
+    /// Besag's L = √(K/π) (default).
+    #[default]
+    L,
+    /// Pair correlation g.
+    PairCorrelation,
+}
+
+impl SummaryFunction {
+    /// Short label for axes and text.
+    pub fn label(self) -> &'static str {
+        match self {
+            SummaryFunction::NearestNeighbour => "G(r)",
+            SummaryFunction::EmptySpace => "F(r)",
+            SummaryFunction::J => "J(r)",
+            SummaryFunction::K => "K(r)",
+            SummaryFunction::L => "L(r)",
+            SummaryFunction::PairCorrelation => "g(r)",
+        }
+    }
+    /// Whether a value above the CSR curve means clustering.
+    pub fn above_means_clustered(self) -> bool {
+        !matches!(self, SummaryFunction::EmptySpace | SummaryFunction::J)
+    }
+    fn needs(self) -> Needs {
+        match self {
+            SummaryFunction::NearestNeighbour => Needs {
+                g: true,
+                ..Default::default()
+            },
+            SummaryFunction::EmptySpace => Needs {
+                f: true,
+                ..Default::default()
+            },
+            SummaryFunction::J => Needs {
+                g: true,
+                f: true,
+                ..Default::default()
+            },
+            SummaryFunction::K | SummaryFunction::L => Needs {
+                k: true,
+                ..Default::default()
+            },
+            SummaryFunction::PairCorrelation => Needs {
+                pcf: true,
+                ..Default::default()
+            },
+        }
+    }
+}
+
+/// Reference curve for the global tests.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Reference {
+    /// The CSR curve (default).
+    #[default]
+    Theoretical,
+    /// The mean of the observed and all simulated curves.
+    SimulationMean,
+}
+
+/// Parameters of an envelope run.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct EnvelopeParams {
+    pub function: SummaryFunction,
+    /// Number of CSR simulations m (1 to 9999; default 199).
+    pub n_sim: usize,
+    pub seed: u64,
+    /// Level of the global tests (default 0.05).
+    pub alpha: f64,
+    pub reference: Reference,
+    /// Start of the test interval in m (default 0; h for g).
+    pub r_min: Option<f64>,
+    pub functions: FunctionParams,
+}
+
+impl Default for EnvelopeParams {
+    fn default() -> Self {
+        EnvelopeParams {
+            function: SummaryFunction::L,
+            n_sim: 199,
+            seed: 1,
+            alpha: 0.05,
+            reference: Reference::Theoretical,
+            r_min: None,
+            functions: FunctionParams::default(),
+        }
+    }
+}
+
+/// A global test: statistic, p-value and critical value.
+#[derive(Debug, Clone, Serialize)]
+pub struct GlobalTest {
+    pub statistic: f64,
+    pub p_value: f64,
+    /// Number of simulated statistics ≥ the observed one.
+    pub at_least_as_extreme: usize,
+    /// k-th largest simulated statistic (k = ⌊α(m+1)⌋).
+    pub critical: f64,
+    pub rejects: bool,
+}
+
+/// Result of an envelope run. Curves are on `r`; NaN (null in JSON) where
+/// undefined.
+#[derive(Debug, Clone, Serialize)]
+pub struct EnvelopeResult {
+    pub function: SummaryFunction,
+    pub label: String,
+    pub r: Vec<f64>,
+    pub observed: Vec<f64>,
+    pub theoretical: Vec<f64>,
+    pub reference: Reference,
+    /// Curve the deviations are measured from.
+    pub reference_curve: Vec<f64>,
+    pub sim_mean: Vec<f64>,
+    pub pointwise_lo: Vec<f64>,
+    pub pointwise_hi: Vec<f64>,
+    pub pointwise_label: String,
+    pub global_lo: Vec<f64>,
+    pub global_hi: Vec<f64>,
+    pub test_r_min: f64,
+    pub test_r_max: f64,
+    pub mad: GlobalTest,
+    pub dclf: GlobalTest,
+    pub alpha: f64,
+    pub k_rank: usize,
+    pub n_sim: usize,
+    pub seed: u64,
+    pub n: usize,
+    pub correction: Correction,
+    pub nn_correction: NnCorrection,
+    pub r_max_rule: String,
+    pub bandwidth_m: f64,
+    pub capped_weights: u64,
+    pub warnings: Vec<String>,
+    pub verdict: Verdict,
+}
+
+/// A Monte Carlo envelope run that can be advanced in batches (for a
+/// worker that reports progress and can stop between batches).
+///
+/// # Examples
+/// ```
+/// # use cloister::window::Window;
+/// # use cloister::distance::{simulate_csr, EnvelopeJob, EnvelopeParams};
+/// # let w = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+/// let pattern = simulate_csr(&w, 60, 3).unwrap();
+/// let params = EnvelopeParams { n_sim: 39, seed: 11, ..Default::default() };
+/// let mut job = EnvelopeJob::new(&pattern, &w, &params).unwrap();
+/// while job.run_batch(10) < job.total() {}
+/// let res = job.finish();
+/// assert_eq!(res.n_sim, 39);
+/// assert!(res.mad.p_value > 0.0 && res.mad.p_value <= 1.0);
+/// ```
+pub struct EnvelopeJob {
+    ctx: Context,
+    needs: Needs,
+    params: EnvelopeParams,
+    observed: Vec<f64>,
+    sims: Vec<f64>,
+    done: usize,
+    capped: u64,
+}
+
+impl EnvelopeJob {
+    /// Validates the parameters, prepares the window and computes the
+    /// observed curve.
+    pub fn new(
+        pattern: &Pattern,
+        window: &Window,
+        params: &EnvelopeParams,
+    ) -> Result<EnvelopeJob, AnalysisError> {
+        let region = checked_region(pattern, window)?;
+        EnvelopeJob::new_in(region, pattern.x(), pattern.y(), params)
+    }
+
+    pub(crate) fn new_in(
+        region: super::region::Region,
+        x: &[f64],
+        y: &[f64],
+        params: &EnvelopeParams,
+    ) -> Result<EnvelopeJob, AnalysisError> {
+        if !(1..=9999).contains(&params.n_sim) {
+            return Err(AnalysisError::BadParameter {
+                name: "n_sim".into(),
+                detail: "must be between 1 and 9999".into(),
+            });
+        }
+        if !(params.alpha > 0.0 && params.alpha < 1.0) {
+            return Err(AnalysisError::BadParameter {
+                name: "alpha".into(),
+                detail: "must be between 0 and 1".into(),
+            });
+        }
+        let needs = params.function.needs();
+        let ctx = Context::new(region, x.len(), &params.functions, needs)?;
+        let c = ctx.compute(x, y, needs);
+        let capped = c.capped;
+        let observed = select(params.function, c);
+        let nr = ctx.r.len();
+        Ok(EnvelopeJob {
+            ctx,
+            needs,
+            params: params.clone(),
+            observed,
+            sims: Vec::with_capacity(params.n_sim * nr),
+            done: 0,
+            capped,
+        })
+    }
+
+    /// Runs up to `k` more simulations; returns how many are done so far.
+    pub fn run_batch(&mut self, k: usize) -> usize {
+        let end = (self.done + k).min(self.params.n_sim);
+        for j in self.done..end {
+            let mut rng = stream_rng(self.params.seed, j as u64);
+            let (x, y) = self.ctx.region.sample(self.ctx.n, &mut rng);
+            let c = self.ctx.compute(&x, &y, self.needs);
+            self.sims.extend(select(self.params.function, c));
+        }
+        self.done = end;
+        self.done
+    }
+
+    /// Curves of simulations `from..to` (row after row, `r().len()` values
+    /// each), without changing the job. For spreading one run over several
+    /// workers: each worker builds the same job (same pattern, window and
+    /// parameters) and simulates its own range; the results are handed to
+    /// one job with [`EnvelopeJob::add_simulated`] in order. The result is
+    /// identical to a single-worker run because simulation j always uses
+    /// stream j of the seed.
+    pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
+        let to = to.min(self.params.n_sim);
+        let mut out = Vec::with_capacity(to.saturating_sub(from) * self.ctx.r.len());
+        for j in from..to {
+            let mut rng = stream_rng(self.params.seed, j as u64);
+            let (x, y) = self.ctx.region.sample(self.ctx.n, &mut rng);
+            out.extend(select(
+                self.params.function,
+                self.ctx.compute(&x, &y, self.needs),
+            ));
+        }
+        out
+    }
+
+    /// Appends curves from [`EnvelopeJob::simulate_range`] that start at
+    /// simulation `from`, which must equal [`EnvelopeJob::done`]. Returns
+    /// the number done so far.
+    pub fn add_simulated(&mut self, from: usize, curves: &[f64]) -> Result<usize, AnalysisError> {
+        let nr = self.ctx.r.len();
+        if from != self.done
+            || curves.len() % nr != 0
+            || self.done + curves.len() / nr > self.params.n_sim
+        {
+            return Err(AnalysisError::BadParameter {
+                name: "simulated curves".into(),
+                detail: format!(
+                    "expected curves starting at simulation {}, of {nr} values each",
+                    self.done
+                ),
+            });
+        }
+        self.sims.extend_from_slice(curves);
+        self.done += curves.len() / nr;
+        Ok(self.done)
+    }
+
+    pub fn done(&self) -> usize {
+        self.done
+    }
+
+    pub fn total(&self) -> usize {
+        self.params.n_sim
+    }
+
+    /// The distance grid.
+    pub fn r(&self) -> &[f64] {
+        &self.ctx.r
+    }
+
+    /// Runs any remaining simulations and computes bands, tests and the
+    /// verdict.
+    pub fn finish(mut self) -> EnvelopeResult {
+        let rest = self.params.n_sim - self.done;
+        self.run_batch(rest);
+        let f = self.params.function;
+        let r = self.ctx.r.clone();
+        let nr = r.len();
+        let m = self.params.n_sim;
+        let n = self.ctx.n;
+        let lambda = n as f64 / self.ctx.region.area;
+        let theoretical: Vec<f64> = match f {
+            SummaryFunction::K => r.iter().map(|r| PI * r * r).collect(),
+            SummaryFunction::L => r.clone(),
+            SummaryFunction::PairCorrelation | SummaryFunction::J => vec![1.0; nr],
+            SummaryFunction::NearestNeighbour | SummaryFunction::EmptySpace => gf_theo(&r, lambda),
+        };
+        let sim = |j: usize| &self.sims[j * nr..(j + 1) * nr];
+        let mut sim_mean = vec![0.0; nr];
+        let mut lo = vec![f64::INFINITY; nr];
+        let mut hi = vec![f64::NEG_INFINITY; nr];
+        let mut finite_all: Vec<bool> = self.observed.iter().map(|v| v.is_finite()).collect();
+        for j in 0..m {
+            for (k, v) in sim(j).iter().enumerate() {
+                if v.is_finite() {
+                    sim_mean[k] += v;
+                    lo[k] = lo[k].min(*v);
+                    hi[k] = hi[k].max(*v);
+                } else {
+                    finite_all[k] = false;
+                }
+            }
+        }
+        for k in 0..nr {
+            if finite_all[k] {
+                sim_mean[k] /= m as f64;
+            } else {
+                sim_mean[k] = f64::NAN;
+            }
+            if !lo[k].is_finite() {
+                lo[k] = f64::NAN;
+                hi[k] = f64::NAN;
+            }
+        }
+        let reference_curve: Vec<f64> = match self.params.reference {
+            Reference::Theoretical => theoretical.clone(),
+            Reference::SimulationMean => (0..nr)
+                .map(|k| {
+                    if finite_all[k] {
+                        (sim_mean[k] * m as f64 + self.observed[k]) / (m as f64 + 1.0)
+                    } else {
+                        f64::NAN
+                    }
+                })
+                .collect(),
+        };
+        let r_min = self
+            .params
+            .r_min
+            .unwrap_or(if f == SummaryFunction::PairCorrelation {
+                self.ctx.bandwidth
+            } else {
+                0.0
+            });
+        let in_test: Vec<bool> = (0..nr)
+            .map(|k| finite_all[k] && reference_curve[k].is_finite() && r[k] >= r_min)
+            .collect();
+        let mut warnings = self.ctx.warnings.clone();
+        if !in_test.iter().any(|b| *b) {
+            warnings.push("no distance in the test interval has finite values for every curve: the global tests are undefined".into());
+        }
+        let stats = |curve: &[f64]| -> (f64, f64) {
+            let mut mad: f64 = 0.0;
+            let mut dclf = 0.0;
+            for k in 0..nr {
+                if in_test[k] {
+                    let dev = curve[k] - reference_curve[k];
+                    mad = mad.max(dev.abs());
+                    if k + 1 < nr && in_test[k + 1] {
+                        let dev2 = curve[k + 1] - reference_curve[k + 1];
+                        dclf += 0.5 * (dev * dev + dev2 * dev2) * (r[k + 1] - r[k]);
+                    }
+                }
+            }
+            (mad, dclf)
+        };
+        let (mad_obs, dclf_obs) = stats(&self.observed);
+        let mut mads = Vec::with_capacity(m);
+        let mut dclfs = Vec::with_capacity(m);
+        for j in 0..m {
+            let (a, b) = stats(sim(j));
+            mads.push(a);
+            dclfs.push(b);
+        }
+        let k_exact = self.params.alpha * (m as f64 + 1.0);
+        let mut k_rank = k_exact.floor() as usize;
+        if k_rank == 0 {
+            warnings.push(format!(
+                "with {m} simulations no test can reach level {}: use at least {} simulations",
+                self.params.alpha,
+                (1.0 / self.params.alpha).ceil() as usize - 1
+            ));
+            k_rank = 1;
+        }
+        let mad = global_test(mad_obs, &mads, k_rank, self.params.alpha);
+        let dclf = global_test(dclf_obs, &dclfs, k_rank, self.params.alpha);
+        let global_lo: Vec<f64> = reference_curve.iter().map(|v| v - mad.critical).collect();
+        let global_hi: Vec<f64> = reference_curve.iter().map(|v| v + mad.critical).collect();
+        if self.capped > 0 {
+            warnings.push(format!(
+                "{} pair weights of the observed pattern reached the cap of {}",
+                self.capped, self.ctx.cap
+            ));
+        }
+        let test_r_min = r
+            .iter()
+            .zip(&in_test)
+            .find(|(_, b)| **b)
+            .map_or(f64::NAN, |(r, _)| *r);
+        let test_r_max = r
+            .iter()
+            .zip(&in_test)
+            .rev()
+            .find(|(_, b)| **b)
+            .map_or(f64::NAN, |(r, _)| *r);
+        let verdict = verdict_for(
+            f,
+            &r,
+            &self.observed,
+            &global_lo,
+            &global_hi,
+            &in_test,
+            &mad,
+            &dclf,
+            self.params.alpha,
+            m,
+        );
+        EnvelopeResult {
+            function: f,
+            label: f.label().to_string(),
+            observed: self.observed.clone(),
+            theoretical,
+            reference: self.params.reference,
+            reference_curve,
+            sim_mean,
+            pointwise_lo: lo,
+            pointwise_hi: hi,
+            pointwise_label: "pointwise — not a test".into(),
+            global_lo,
+            global_hi,
+            test_r_min,
+            test_r_max,
+            mad,
+            dclf,
+            alpha: self.params.alpha,
+            k_rank,
+            n_sim: m,
+            seed: self.params.seed,
+            n,
+            correction: self.ctx.correction,
+            nn_correction: self.ctx.nn_correction,
+            r_max_rule: self.ctx.r_max_rule.clone(),
+            bandwidth_m: self.ctx.bandwidth,
+            capped_weights: self.capped,
+            warnings,
+            verdict,
+            r,
+        }
+    }
+}
+
+/// Runs a whole envelope at once (no progress reports).
+pub fn envelope(
+    pattern: &Pattern,
+    window: &Window,
+    params: &EnvelopeParams,
+) -> Result<EnvelopeResult, AnalysisError> {
+    Ok(EnvelopeJob::new(pattern, window, params)?.finish())
+}
+
+fn select(f: SummaryFunction, c: super::functions::Curves) -> Vec<f64> {
+    match f {
+        SummaryFunction::NearestNeighbour => c.g,
+        SummaryFunction::EmptySpace => c.f,
+        SummaryFunction::J => j_from(&c.g, &c.f),
+        SummaryFunction::K => c.k,
+        SummaryFunction::L => l_from_k(&c.k),
+        SummaryFunction::PairCorrelation => c.pcf,
+    }
+}
+
+/// Monte Carlo p-value (Barnard 1963; Hope 1968; Besag & Diggle 1977):
+/// p = (1 + #{j: T_j ≥ T_obs})/(m + 1), ties counted (conservative).
+pub fn monte_carlo_p(observed: f64, simulated: &[f64]) -> f64 {
+    let ge = simulated.iter().filter(|t| **t >= observed).count();
+    (1.0 + ge as f64) / (simulated.len() as f64 + 1.0)
+}
+
+fn global_test(obs: f64, sims: &[f64], k: usize, alpha: f64) -> GlobalTest {
+    let ge = sims.iter().filter(|t| **t >= obs).count();
+    let p = (1.0 + ge as f64) / (sims.len() as f64 + 1.0);
+    let mut sorted = sims.to_vec();
+    sorted.sort_by(|a, b| b.total_cmp(a));
+    let critical = sorted.get(k.saturating_sub(1)).copied().unwrap_or(f64::NAN);
+    GlobalTest {
+        statistic: obs,
+        p_value: p,
+        at_least_as_extreme: ge,
+        critical,
+        rejects: p <= alpha,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::distance::region::tests::unit_square;
+
+    /// METHODS §5 check values: simulated 1..99, T_obs = 100 → 0.01,
+    /// 95 (a tie) → 0.06, 0.5 → 1.0.
+    #[test]
+    fn test_monte_carlo_p_check_values() {
+        let sims: Vec<f64> = (1..=99).map(|v| v as f64).collect();
+        assert!((monte_carlo_p(100.0, &sims) - 0.01).abs() < 1e-15);
+        assert!((monte_carlo_p(95.0, &sims) - 0.06).abs() < 1e-15);
+        assert!((monte_carlo_p(0.5, &sims) - 1.0).abs() < 1e-15);
+    }
+
+    /// Critical rank k = ⌊α(m+1)⌋ (METHODS §5): m = 99 → 5th largest.
+    #[test]
+    fn test_global_band_rank() {
+        let sims: Vec<f64> = (1..=99).map(|v| v as f64).collect();
+        let t = global_test(96.0, &sims, (0.05f64 * 100.0).floor() as usize, 0.05);
+        assert_eq!(t.critical, 95.0);
+        assert!(t.rejects); // 96 > 95: p = (1+3)/100 = 0.04
+        let t = global_test(95.0, &sims, 5, 0.05);
+        assert!(!t.rejects); // on the band edge: p = 0.06
+    }
+
+    /// Same seed, different batch sizes: identical results.
+    #[test]
+    fn test_batches_do_not_change_results() {
+        let mut rng = crate::rng::rng_from_seed(4);
+        let (x, y) = unit_square().sample(40, &mut rng);
+        let p = EnvelopeParams {
+            n_sim: 19,
+            seed: 77,
+            ..Default::default()
+        };
+        let mut a = EnvelopeJob::new_in(unit_square(), &x, &y, &p).unwrap();
+        a.run_batch(19);
+        let ra = a.finish();
+        let mut b = EnvelopeJob::new_in(unit_square(), &x, &y, &p).unwrap();
+        for _ in 0..7 {
+            b.run_batch(3);
+        }
+        let rb = b.finish();
+        // Two "workers" simulating ranges, merged in order.
+        let w1 = EnvelopeJob::new_in(unit_square(), &x, &y, &p).unwrap();
+        let mut c = EnvelopeJob::new_in(unit_square(), &x, &y, &p).unwrap();
+        let (first, second) = (w1.simulate_range(0, 11), w1.simulate_range(11, 19));
+        assert!(c.add_simulated(11, &second).is_err());
+        c.add_simulated(0, &first).unwrap();
+        assert_eq!(c.add_simulated(11, &second).unwrap(), 19);
+        let rc = c.finish();
+        assert_eq!(ra.pointwise_hi, rc.pointwise_hi);
+        assert_eq!(ra.dclf.statistic, rc.dclf.statistic);
+        assert_eq!(ra.pointwise_lo, rb.pointwise_lo);
+        assert_eq!(ra.mad.statistic, rb.mad.statistic);
+        assert_eq!(ra.mad.p_value, rb.mad.p_value);
+        assert_eq!(ra.dclf.p_value, rb.dclf.p_value);
+    }
+
+    /// The graphical test: leaving the global band ⇔ MAD rejects.
+    #[test]
+    fn test_band_matches_mad_test() {
+        for seed in 0..6 {
+            let mut rng = crate::rng::rng_from_seed(100 + seed);
+            // Half the points squeezed into a corner: sometimes rejected.
+            let (mut x, mut y) = unit_square().sample(30, &mut rng);
+            for i in 0..(seed as usize * 3) {
+                x[i] *= 0.2;
+                y[i] *= 0.2;
+            }
+            let p = EnvelopeParams {
+                n_sim: 39,
+                seed,
+                ..Default::default()
+            };
+            let res = EnvelopeJob::new_in(unit_square(), &x, &y, &p)
+                .unwrap()
+                .finish();
+            let leaves = (0..res.r.len()).any(|k| {
+                res.r[k] >= res.test_r_min
+                    && (res.observed[k] > res.global_hi[k] || res.observed[k] < res.global_lo[k])
+            });
+            assert_eq!(leaves, res.mad.rejects, "seed {seed}");
+        }
+    }
+
+    /// Edge cases return values, never panic: all events at one place, two
+    /// events, a tiny r_max, every function.
+    #[test]
+    fn test_degenerate_patterns() {
+        let fs = [
+            SummaryFunction::NearestNeighbour,
+            SummaryFunction::EmptySpace,
+            SummaryFunction::J,
+            SummaryFunction::K,
+            SummaryFunction::L,
+            SummaryFunction::PairCorrelation,
+        ];
+        let cases: Vec<(Vec<f64>, Vec<f64>, Option<f64>)> = vec![
+            (vec![0.5; 6], vec![0.5; 6], None),
+            (vec![0.2, 0.8], vec![0.3, 0.7], None),
+            (vec![0.2, 0.8, 0.5], vec![0.3, 0.7, 0.5], Some(1e-9)),
+        ];
+        for (x, y, r_max) in cases {
+            for f in fs {
+                let p = EnvelopeParams {
+                    function: f,
+                    n_sim: 9,
+                    functions: FunctionParams {
+                        r_max,
+                        ..Default::default()
+                    },
+                    ..Default::default()
+                };
+                let res = EnvelopeJob::new_in(unit_square(), &x, &y, &p)
+                    .unwrap()
+                    .finish();
+                assert_eq!(res.r.len(), 51);
+                assert!(res.mad.p_value > 0.0 && res.mad.p_value <= 1.0);
+                // 9 simulations cannot reach level 0.05: said so.
+                assert!(res
+                    .warnings
+                    .iter()
+                    .any(|w| w.contains("no test can reach level")));
+                assert!(serde_json::to_string(&res).is_ok());
+            }
+        }
+    }
+
+    /// JavaScript may leave any parameter out (serde defaults).
+    #[test]
+    fn test_params_from_partial_json() {
+        let p: EnvelopeParams =
+            serde_json::from_str(r#"{"function":"pair_correlation","n_sim":99,"functions":{"correction":"translation"}}"#)
+                .unwrap();
+        assert_eq!(p.function, SummaryFunction::PairCorrelation);
+        assert_eq!(p.n_sim, 99);
+        assert_eq!(p.alpha, 0.05);
+        assert_eq!(p.functions.correction, Correction::Translation);
+        assert_eq!(p.functions.n_steps, 50);
+        let d: EnvelopeParams = serde_json::from_str("{}").unwrap();
+        assert_eq!(d, EnvelopeParams::default());
+        assert_eq!(d.function, SummaryFunction::L);
+        assert_eq!(d.n_sim, 199);
+    }
+
+    #[test]
+    fn test_bad_parameters() {
+        let (x, y) = (vec![0.1, 0.5, 0.9], vec![0.2, 0.4, 0.6]);
+        for p in [
+            EnvelopeParams {
+                n_sim: 0,
+                ..Default::default()
+            },
+            EnvelopeParams {
+                n_sim: 10_000,
+                ..Default::default()
+            },
+            EnvelopeParams {
+                alpha: 0.0,
+                ..Default::default()
+            },
+        ] {
+            assert!(matches!(
+                EnvelopeJob::new_in(unit_square(), &x, &y, &p),
+                Err(AnalysisError::BadParameter { .. })
+            ));
+        }
+        assert!(matches!(
+            EnvelopeJob::new_in(unit_square(), &[0.5], &[0.5], &EnvelopeParams::default()),
+            Err(AnalysisError::TooFewPoints { .. })
+        ));
+    }
+}

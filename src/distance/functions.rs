@@ -1,0 +1,1031 @@
+//! The distance functions G, F, J, K, L and the pair correlation g over a
+//! grid of distances.
+//!
+//! # Definitions and estimators (METHODS §4)
+//! * **K** (Ripley 1976, 1977 [from memory]):
+//!   K̂(r) = |W| / (n(n−1)) · Σ_{i≠j} 1{d_ij ≤ r}·e_ij. The n(n−1)
+//!   normalisation is used (unbiased for λ² under Poisson, and K̂ is
+//!   unbiased for πr² under binomial CSR with the isotropic or translation
+//!   correction; METHODS §1 [derived]). With the **border** correction
+//!   K̂_B(r) = |W|/(n−1) · Σ_i 1{b_i ≥ r}·#{j ≠ i: d_ij ≤ r} / #{i: b_i ≥ r},
+//!   i.e. λ̂ = (n−1)/|W| in place of n/|W|, consistent with the n(n−1)
+//!   normalisation (the METHODS §4.3 table uses n/|W|; values differ by the
+//!   factor n/(n−1)).
+//! * **L** = √(K/π) (Besag 1977 [from memory]); CSR: L(r) = r.
+//! * **g** (pair correlation): ĝ(r) = |W| / (2πr·n(n−1)) ·
+//!   Σ_{i≠j} κ_h(r − d_ij)·e_ij with the Epanechnikov kernel
+//!   κ_h(u) = 3/(4h)·(1 − u²/h²)₊ and h = 0.15/√λ̂ (Stoyan & Stoyan 1994,
+//!   *Fractals, Random Shapes and Point Fields*, Wiley, pp. 284–285 [from
+//!   memory]). Biased for r < h; undefined (NaN) at r = 0. The border
+//!   correction is not defined for g: g then uses the isotropic weights.
+//! * **G** (nearest neighbour), border (reduced sample):
+//!   Ĝ(r) = #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r}. Kaplan–Meier and
+//!   Hanisch estimators are not implemented.
+//! * **F** (empty space) on a regular grid of test locations u_k in W (cell
+//!   centres, spacing r_max/50 [common practice, METHODS §4.1], widened so
+//!   at most 65,536 grid nodes cover the bounding box):
+//!   F̂(r) = #{k: e_k ≤ r, b_k ≥ r} / #{k: b_k ≥ r}.
+//! * **J** = (1 − Ĝ)/(1 − F̂) (van Lieshout & Baddeley 1996), reported only
+//!   where F̂ < 0.9 (NaN elsewhere) because it is noisy near F̂ = 1 [common
+//!   practice, METHODS §4.1].
+//! * CSR curves: K = πr², L = r, g = 1, G = F = 1 − exp(−λ̂πr²) (exact
+//!   under Poisson; binomial differences negligible for n ≳ 50), J = 1.
+//!
+//! # Distance grid
+//! r_k = k·r_max/n_steps, k = 0..=n_steps (default 50 steps). Default
+//! r_max: for an axis-aligned rectangle ¼ of the shorter side (Ripley 1988,
+//! *Statistical Inference for Spatial Processes*, CUP [from memory]); for
+//! any other window min(¼ of the shorter side of the bounding box,
+//! ½·√(|W|/π)) — the second term (half the radius of a disc of the same
+//! area) is our own rule [common practice, no source] that shrinks r_max for
+//! thin or ragged windows.
+//!
+//! # Complexity
+//! One pass over the pairs within r_max (+h for g) on a grid index,
+//! O(n + pairs), plus one boundary-distance query per point and, with the
+//! isotropic correction, one analytic arc computation per ordered pair
+//! whose circle reaches the boundary.
+
+use super::edge::{Correction, IsoCache, NnCorrection, Translation};
+use super::pairs::{nn_cell, PointGrid};
+use super::region::Region;
+use crate::error::AnalysisError;
+use crate::study::Pattern;
+use crate::window::Window;
+use serde::{Deserialize, Serialize};
+use std::f64::consts::PI;
+
+/// Parameters of the distance functions. Every field has a default, so
+/// JavaScript may leave any of them out.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default)]
+pub struct FunctionParams {
+    /// Largest distance in m (default: see the module docs).
+    pub r_max: Option<f64>,
+    /// Number of steps from 0 to r_max (the grid has n_steps + 1 values).
+    pub n_steps: usize,
+    /// Edge correction for K, L and g.
+    pub correction: Correction,
+    /// Edge correction for G, F and J.
+    pub nn_correction: NnCorrection,
+    /// Upper limit on isotropic and translation weights.
+    pub weight_cap: f64,
+    /// Kernel half-width for g in m (default 0.15/√λ̂).
+    pub bandwidth: Option<f64>,
+    /// Spacing of the F test locations in m (default r_max/50).
+    pub f_spacing: Option<f64>,
+}
+
+impl Default for FunctionParams {
+    fn default() -> Self {
+        FunctionParams {
+            r_max: None,
+            n_steps: 50,
+            correction: Correction::Isotropic,
+            nn_correction: NnCorrection::Border,
+            weight_cap: 4.0,
+            bandwidth: None,
+            f_spacing: None,
+        }
+    }
+}
+
+/// All distance functions of one pattern, with their CSR curves.
+#[derive(Debug, Clone, Serialize)]
+pub struct DistanceFunctions {
+    pub n: usize,
+    pub area_m2: f64,
+    pub intensity_per_m2: f64,
+    pub r: Vec<f64>,
+    pub r_max: f64,
+    /// How r_max was chosen, in words.
+    pub r_max_rule: String,
+    pub correction: Correction,
+    pub nn_correction: NnCorrection,
+    pub bandwidth_m: f64,
+    pub weight_cap: f64,
+    pub k: Vec<f64>,
+    pub k_theo: Vec<f64>,
+    pub l: Vec<f64>,
+    pub l_theo: Vec<f64>,
+    /// Pair correlation g.
+    pub pcf: Vec<f64>,
+    pub pcf_theo: Vec<f64>,
+    /// Nearest-neighbour distribution G.
+    pub g: Vec<f64>,
+    /// Empty-space function F.
+    pub f: Vec<f64>,
+    /// CSR curve for G and F.
+    pub gf_theo: Vec<f64>,
+    pub j: Vec<f64>,
+    pub j_theo: Vec<f64>,
+    /// Number of F test locations.
+    pub f_locations: usize,
+    /// Pair weights that hit the cap.
+    pub capped_weights: u64,
+    pub warnings: Vec<String>,
+}
+
+/// What a computation needs.
+#[derive(Debug, Clone, Copy, Default)]
+pub(crate) struct Needs {
+    pub k: bool,
+    pub pcf: bool,
+    pub g: bool,
+    pub f: bool,
+}
+
+/// Curves of one pattern (only those asked for).
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Curves {
+    pub k: Vec<f64>,
+    pub pcf: Vec<f64>,
+    pub g: Vec<f64>,
+    pub f: Vec<f64>,
+    pub capped: u64,
+}
+
+/// Everything that depends on the window and parameters, not the points.
+pub(crate) struct Context {
+    pub region: Region,
+    pub r: Vec<f64>,
+    pub step: f64,
+    pub r_max: f64,
+    pub r_max_rule: String,
+    pub correction: Correction,
+    pub pcf_correction: Correction,
+    pub nn_correction: NnCorrection,
+    pub cap: f64,
+    pub bandwidth: f64,
+    pub n: usize,
+    translation: Option<Translation>,
+    f_x: Vec<f64>,
+    f_y: Vec<f64>,
+    f_b: Vec<f64>,
+    pub warnings: Vec<String>,
+}
+
+fn bad(name: &str, detail: impl Into<String>) -> AnalysisError {
+    AnalysisError::BadParameter {
+        name: name.into(),
+        detail: detail.into(),
+    }
+}
+
+/// Default r_max for a region, with the rule in words.
+pub(crate) fn default_r_max(region: &Region) -> (f64, String) {
+    let [x0, y0, x1, y1] = region.bbox;
+    let short = (x1 - x0).min(y1 - y0);
+    if region.rectangle.is_some() {
+        (
+            0.25 * short,
+            "a quarter of the shorter side of the rectangle (Ripley 1988)".into(),
+        )
+    } else {
+        let disc = 0.5 * (region.area / PI).sqrt();
+        if disc < 0.25 * short {
+            (disc, "half the radius of a disc with the study area's area (our rule for irregular areas)".into())
+        } else {
+            (
+                0.25 * short,
+                "a quarter of the shorter side of the study area's bounding box".into(),
+            )
+        }
+    }
+}
+
+impl Context {
+    pub fn new(
+        region: Region,
+        n: usize,
+        p: &FunctionParams,
+        needs: Needs,
+    ) -> Result<Context, AnalysisError> {
+        if n < 2 {
+            return Err(AnalysisError::TooFewPoints {
+                needed: 2,
+                found: n,
+            });
+        }
+        if !(p.n_steps >= 1 && p.n_steps <= 10_000) {
+            return Err(bad("n_steps", "must be between 1 and 10000"));
+        }
+        if !(p.weight_cap >= 1.0) {
+            return Err(bad("weight_cap", "must be at least 1"));
+        }
+        let (r_max, r_max_rule) = match p.r_max {
+            Some(r) if r.is_finite() && r > 0.0 => (r, "set by the user".to_string()),
+            Some(_) => return Err(bad("r_max", "must be a positive number of metres")),
+            None => default_r_max(&region),
+        };
+        let mut warnings = Vec::new();
+        let [bx0, by0, bx1, by1] = region.bbox;
+        if r_max > 0.5 * (bx1 - bx0).min(by1 - by0) {
+            warnings.push(format!(
+                "the largest distance ({r_max:.4} m) exceeds half the study area's shorter side: edge-corrected estimates there rest on few points"
+            ));
+        }
+        let lambda = n as f64 / region.area;
+        let bandwidth = match p.bandwidth {
+            Some(h) if h.is_finite() && h > 0.0 => h,
+            Some(_) => return Err(bad("bandwidth", "must be a positive number of metres")),
+            None => 0.15 / lambda.sqrt(),
+        };
+        let step = r_max / p.n_steps as f64;
+        // k·r_max/n (not k·step) so that e.g. 0.25·3/5 is exactly 0.15.
+        let r: Vec<f64> = (0..=p.n_steps)
+            .map(|k| (k as f64 * r_max) / p.n_steps as f64)
+            .collect();
+        let pcf_correction = if p.correction == Correction::Border && needs.pcf {
+            warnings.push(
+                "the border correction is not defined for g: g uses the isotropic correction"
+                    .into(),
+            );
+            Correction::Isotropic
+        } else {
+            p.correction
+        };
+        let uses_translation = (needs.k && p.correction == Correction::Translation)
+            || (needs.pcf && pcf_correction == Correction::Translation);
+        let translation = if uses_translation {
+            // Same table whether or not g is computed, so K does not depend
+            // on which other functions were asked for.
+            Some(Translation::new(&region, r_max + bandwidth))
+        } else {
+            None
+        };
+        let (mut f_x, mut f_y, mut f_b) = (Vec::new(), Vec::new(), Vec::new());
+        if needs.f {
+            let w = bx1 - bx0;
+            let h = by1 - by0;
+            let mut s = match p.f_spacing {
+                Some(s) if s.is_finite() && s > 0.0 => s,
+                Some(_) => return Err(bad("f_spacing", "must be a positive number of metres")),
+                None => r_max / 50.0,
+            };
+            if (w / s) * (h / s) > 65_536.0 {
+                s = (w * h / 65_536.0).sqrt();
+            }
+            let nx = ((w / s).floor() as usize).max(1);
+            let ny = ((h / s).floor() as usize).max(1);
+            let ox = bx0 + 0.5 * (w - (nx as f64 - 1.0) * s);
+            let oy = by0 + 0.5 * (h - (ny as f64 - 1.0) * s);
+            for iy in 0..ny {
+                for ix in 0..nx {
+                    let (x, y) = (ox + ix as f64 * s, oy + iy as f64 * s);
+                    if region.contains(x, y) {
+                        f_x.push(x);
+                        f_y.push(y);
+                        f_b.push(region.boundary_distance(x, y));
+                    }
+                }
+            }
+            if f_x.is_empty() {
+                warnings.push(
+                    "no F test location falls inside the study area; F and J are undefined".into(),
+                );
+            }
+        }
+        Ok(Context {
+            region,
+            r,
+            step,
+            r_max,
+            r_max_rule,
+            correction: p.correction,
+            pcf_correction,
+            nn_correction: p.nn_correction,
+            cap: p.weight_cap,
+            bandwidth,
+            n,
+            translation,
+            f_x,
+            f_y,
+            f_b,
+            warnings,
+        })
+    }
+
+    pub fn f_locations(&self) -> usize {
+        self.f_x.len()
+    }
+
+    /// Index of the smallest grid value r_k ≥ d (may be r.len()).
+    #[inline]
+    fn bin(&self, d: f64) -> usize {
+        let n = self.r.len();
+        let q = d / self.step;
+        if !(q < n as f64) {
+            return n;
+        }
+        let mut k = q as usize;
+        if k < n && d > self.r[k] {
+            k += 1;
+        }
+        if k > 0 && k <= n && d <= self.r[k - 1] {
+            k -= 1;
+        }
+        k
+    }
+
+    /// Largest k with r_k ≤ b, or None when b < 0.
+    #[inline]
+    fn last_at_most(&self, b: f64) -> Option<usize> {
+        if b < 0.0 {
+            return None;
+        }
+        let k = self.bin(b);
+        let n = self.r.len();
+        if k < n && self.r[k] <= b {
+            Some(k)
+        } else if k == 0 {
+            None
+        } else {
+            Some(k - 1)
+        }
+    }
+
+    /// Computes the asked-for curves for points (x, y) in the region.
+    pub fn compute(&self, x: &[f64], y: &[f64], needs: Needs) -> Curves {
+        let n = x.len();
+        let nr = self.r.len();
+        let mut out = Curves::default();
+        let nf = n as f64;
+        let area = self.region.area;
+        if needs.k || needs.pcf {
+            let h = self.bandwidth;
+            let reach = if needs.pcf {
+                self.r_max + h
+            } else {
+                self.r_max
+            };
+            let grid = PointGrid::new(x, y, reach / 2.0);
+            let need_b = matches!(self.correction, Correction::Isotropic | Correction::Border)
+                || (needs.pcf && self.pcf_correction == Correction::Isotropic);
+            let b: Vec<f64> = if need_b {
+                (0..n)
+                    .map(|p| self.region.boundary_distance(grid.xs[p], grid.ys[p]))
+                    .collect()
+            } else {
+                Vec::new()
+            };
+            let kmax: Vec<i64> = if self.correction == Correction::Border {
+                b.iter()
+                    .map(|&bb| self.last_at_most(bb).map_or(-1, |k| k as i64))
+                    .collect()
+            } else {
+                Vec::new()
+            };
+            let use_iso = (needs.k && self.correction == Correction::Isotropic)
+                || (needs.pcf && self.pcf_correction == Correction::Isotropic);
+            let iso = if use_iso {
+                Some(IsoCache::new(
+                    &self.region,
+                    &grid.xs,
+                    &grid.ys,
+                    b.clone(),
+                    reach,
+                    self.cap,
+                ))
+            } else {
+                None
+            };
+            let mut kacc = vec![0.0f64; nr + 1];
+            let mut border_diff = vec![0.0f64; nr + 1];
+            let mut pacc = vec![0.0f64; nr];
+            let mut capped = 0u64;
+            // Fast path for the common case: K alone, isotropic or none.
+            let fast = needs.k && !needs.pcf;
+            if fast {
+                let (h, diff) = match self.correction {
+                    Correction::None => self.k_kernel::<0>(&grid, None, &[], &mut capped),
+                    Correction::Isotropic => {
+                        self.k_kernel::<1>(&grid, iso.as_ref(), &[], &mut capped)
+                    }
+                    Correction::Translation => self.k_kernel::<2>(&grid, None, &[], &mut capped),
+                    Correction::Border => self.k_kernel::<3>(&grid, None, &kmax, &mut capped),
+                };
+                kacc = h;
+                border_diff = diff;
+            }
+            let kc = self.correction;
+            let pc = self.pcf_correction;
+            let kernel_c = 0.75 / h;
+            let inv_h2 = 1.0 / (h * h);
+            let region = &self.region;
+            let generic = !fast || needs.pcf;
+            if generic {
+                grid.for_each_pair(reach, |a, bb, d| {
+                    let (xa, ya, xb, yb) = (grid.xs[a], grid.ys[a], grid.xs[bb], grid.ys[bb]);
+                    // Pair weights (sum of both orders) per correction.
+                    let mut iso_pair = f64::NAN;
+                    let mut iso_w = |capped: &mut u64| -> f64 {
+                        if iso_pair.is_nan() {
+                            let c = iso.as_ref().expect("isotropic cache built when used");
+                            iso_pair = c.weight(region, a, xa, ya, d, capped)
+                                + c.weight(region, bb, xb, yb, d, capped);
+                        }
+                        iso_pair
+                    };
+                    let mut trans_pair = f64::NAN;
+                    let mut trans_w = |capped: &mut u64| -> f64 {
+                        if trans_pair.is_nan() {
+                            let t = self
+                                .translation
+                                .as_ref()
+                                .expect("translation table built when used");
+                            trans_pair = 2.0 * t.weight(xb - xa, yb - ya, self.cap, capped);
+                        }
+                        trans_pair
+                    };
+                    if needs.k && !fast && d <= self.r_max {
+                        let k = self.bin(d);
+                        match kc {
+                            Correction::None => kacc[k] += 2.0,
+                            Correction::Isotropic => kacc[k] += iso_w(&mut capped),
+                            Correction::Translation => kacc[k] += trans_w(&mut capped),
+                            Correction::Border => {
+                                for c in [a, bb] {
+                                    let km = kmax[c];
+                                    if km >= k as i64 {
+                                        border_diff[k] += 1.0;
+                                        border_diff[km as usize + 1] -= 1.0;
+                                    }
+                                }
+                            }
+                        }
+                    }
+                    if needs.pcf {
+                        let w = match pc {
+                            Correction::Translation => trans_w(&mut capped),
+                            Correction::None => 2.0,
+                            _ => iso_w(&mut capped),
+                        };
+                        // Floor by truncation (no libm call); the kernel test below
+                        // drops the extra node.
+                        let lo = ((d - h) / self.step).max(0.0) as usize;
+                        let hi = (((d + h) / self.step) as usize + 1).min(nr - 1);
+                        for k in lo..=hi {
+                            let u = self.r[k] - d;
+                            let q = 1.0 - u * u * inv_h2;
+                            if q > 0.0 {
+                                pacc[k] += kernel_c * q * w;
+                            }
+                        }
+                    }
+                });
+            }
+            out.capped = capped;
+            if needs.k {
+                let mut kk = vec![0.0; nr];
+                if kc == Correction::Border {
+                    let mut denom = vec![0.0f64; nr + 1];
+                    for &km in &kmax {
+                        if km >= 0 {
+                            denom[0] += 1.0;
+                            denom[km as usize + 1] -= 1.0;
+                        }
+                    }
+                    let (mut s, mut c) = (0.0, 0.0);
+                    for k in 0..nr {
+                        s += border_diff[k];
+                        c += denom[k];
+                        kk[k] = if c > 0.0 {
+                            area / (nf - 1.0) * s / c
+                        } else {
+                            f64::NAN
+                        };
+                    }
+                } else {
+                    let norm = area / (nf * (nf - 1.0));
+                    let mut s = 0.0;
+                    for k in 0..nr {
+                        s += kacc[k];
+                        kk[k] = norm * s;
+                    }
+                }
+                out.k = kk;
+            }
+            if needs.pcf {
+                let norm = area / (nf * (nf - 1.0));
+                out.pcf = (0..nr)
+                    .map(|k| {
+                        if self.r[k] > 0.0 {
+                            norm * pacc[k] / (2.0 * PI * self.r[k])
+                        } else {
+                            f64::NAN
+                        }
+                    })
+                    .collect();
+            }
+        }
+        if needs.g || needs.f {
+            let grid = PointGrid::new(x, y, nn_cell(n, area));
+            if needs.g {
+                let mut d = vec![0.0; n];
+                let mut b = vec![0.0; n];
+                for p in 0..n {
+                    d[p] = grid.nearest(grid.xs[p], grid.ys[p], p);
+                    b[p] = if self.nn_correction == NnCorrection::Border {
+                        self.region.boundary_distance(grid.xs[p], grid.ys[p])
+                    } else {
+                        f64::INFINITY
+                    };
+                }
+                out.g = self.reduced_sample(&d, &b);
+            }
+            if needs.f {
+                let e: Vec<f64> = (0..self.f_x.len())
+                    .map(|k| grid.nearest(self.f_x[k], self.f_y[k], usize::MAX))
+                    .collect();
+                let b: Vec<f64> = if self.nn_correction == NnCorrection::Border {
+                    self.f_b.clone()
+                } else {
+                    vec![f64::INFINITY; e.len()]
+                };
+                out.f = self.reduced_sample(&e, &b);
+            }
+        }
+        out
+    }
+
+    /// Sum over unordered pairs within r_max of the two ordered-pair
+    /// weights, binned by the smallest r_k ≥ d (last slot: beyond r_max).
+    /// Written without a distance test in the inner loop: every candidate
+    /// goes to a bin, those beyond r_max to the overflow slot. With `ISO`,
+    /// each weight starts at 1 and the isotropic excess is added only when
+    /// the circle reaches the boundary (d > b).
+    fn k_kernel<const MODE: u8>(
+        &self,
+        grid: &PointGrid,
+        iso: Option<&IsoCache>,
+        kmax: &[i64],
+        capped: &mut u64,
+    ) -> (Vec<f64>, Vec<f64>) {
+        // MODE: 0 none, 1 isotropic, 2 translation, 3 border.
+        let nr = self.r.len();
+        // Four interleaved count histograms (fewer store-to-load stalls
+        // when consecutive pairs fall in the same bin); weight excesses
+        // over 1 go to `extra`; border counts to a difference array.
+        let mut h4 = vec![[0u32; 4]; nr + 1];
+        let mut extra = vec![0.0f64; nr + 1];
+        let mut diff = vec![0.0f64; nr + 1];
+        let r = &self.r[..];
+        let inv = 1.0 / self.step;
+        let region = &self.region;
+        let empty: Vec<f64> = Vec::new();
+        let b: &[f64] = iso.map_or(&empty[..], |c| &c.b[..]);
+        let trans = self.translation.as_ref();
+        let cap = self.cap;
+        let mut dbuf: Vec<f64> = Vec::new();
+        // Exact bin: smallest k with r_k ≥ d (nr when beyond r_max).
+        let exact_bin = |d: f64| -> usize {
+            let q = d * inv;
+            if !(q < nr as f64) {
+                return nr;
+            }
+            let mut k = q as usize;
+            if k < nr && d > r[k] {
+                k += 1;
+            }
+            if k > 0 && d <= r[k - 1] {
+                k -= 1;
+            }
+            k
+        };
+        grid.for_each_block(self.r_max, |a, b0, b1| {
+            let (xa, ya) = (grid.xs[a], grid.ys[a]);
+            let bx = &grid.xs[b0..b1];
+            let by = &grid.ys[b0..b1];
+            // Phase 1: distances (vectorisable).
+            dbuf.clear();
+            dbuf.extend(bx.iter().zip(by).map(|(x, y)| {
+                let dx = x - xa;
+                let dy = y - ya;
+                (dx * dx + dy * dy).sqrt()
+            }));
+            // Phase 2: bins and weights.
+            let ba = if MODE == 1 { b[a] } else { f64::INFINITY };
+            let ka = if MODE == 3 { kmax[a] } else { 0 };
+            for (k, &d) in dbuf.iter().enumerate() {
+                let q = d * inv;
+                let t = q as i64;
+                let frac = q - t as f64;
+                // Away from grid values, the bin is ⌊q⌋ + 1; near them
+                // (or beyond r_max) decide exactly.
+                let bin = if frac > 1e-9 && frac < 1.0 - 1e-9 && (t as usize) < nr - 1 {
+                    t as usize + 1
+                } else {
+                    exact_bin(d)
+                };
+                if MODE == 3 {
+                    if bin < nr {
+                        for km in [ka, kmax[b0 + k]] {
+                            if km >= bin as i64 {
+                                diff[bin] += 1.0;
+                                diff[km as usize + 1] -= 1.0;
+                            }
+                        }
+                    }
+                    continue;
+                }
+                h4[bin][k & 3] += 1;
+                if MODE == 1 && bin < nr {
+                    let bb = b[b0 + k];
+                    if d > ba || d > bb {
+                        if let Some(c) = iso {
+                            let w = c.weight(region, a, xa, ya, d, capped)
+                                + c.weight(region, b0 + k, bx[k], by[k], d, capped);
+                            extra[bin] += w - 2.0;
+                        }
+                    }
+                }
+                if MODE == 2 && bin < nr {
+                    if let Some(t) = trans {
+                        extra[bin] += 2.0 * (t.weight(bx[k] - xa, by[k] - ya, cap, capped) - 1.0);
+                    }
+                }
+            }
+        });
+        let hist = (0..=nr)
+            .map(|k| 2.0 * (h4[k].iter().map(|v| *v as f64).sum::<f64>()) + extra[k])
+            .collect();
+        (hist, diff)
+    }
+
+    /// #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r} on the grid (NaN when no
+    /// point qualifies).
+    pub(crate) fn reduced_sample(&self, d: &[f64], b: &[f64]) -> Vec<f64> {
+        let nr = self.r.len();
+        let mut num = vec![0.0f64; nr + 1];
+        let mut den = vec![0.0f64; nr + 1];
+        for i in 0..d.len() {
+            let km = if b[i].is_infinite() {
+                Some(nr - 1)
+            } else {
+                self.last_at_most(b[i])
+            };
+            let Some(km) = km else { continue };
+            den[0] += 1.0;
+            den[km + 1] -= 1.0;
+            let k = self.bin(d[i]);
+            if k <= km {
+                num[k] += 1.0;
+                num[km + 1] -= 1.0;
+            }
+        }
+        let (mut s, mut c) = (0.0, 0.0);
+        (0..nr)
+            .map(|k| {
+                s += num[k];
+                c += den[k];
+                if c > 0.0 {
+                    s / c
+                } else {
+                    f64::NAN
+                }
+            })
+            .collect()
+    }
+}
+
+/// L from K.
+pub(crate) fn l_from_k(k: &[f64]) -> Vec<f64> {
+    k.iter().map(|v| (v.max(0.0) / PI).sqrt()).collect()
+}
+
+/// J from G and F (NaN where F ≥ 0.9).
+pub(crate) fn j_from(g: &[f64], f: &[f64]) -> Vec<f64> {
+    g.iter()
+        .zip(f)
+        .map(|(g, f)| {
+            if *f < 0.9 {
+                (1.0 - g) / (1.0 - f)
+            } else {
+                f64::NAN
+            }
+        })
+        .collect()
+}
+
+/// CSR value of G and F: 1 − exp(−λπr²).
+pub(crate) fn gf_theo(r: &[f64], lambda: f64) -> Vec<f64> {
+    r.iter()
+        .map(|r| 1.0 - (-lambda * PI * r * r).exp())
+        .collect()
+}
+
+pub(crate) fn checked_region(pattern: &Pattern, window: &Window) -> Result<Region, AnalysisError> {
+    let region = super::csr::prepare(window)?;
+    if pattern.len() < 2 {
+        return Err(AnalysisError::TooFewPoints {
+            needed: 2,
+            found: pattern.len(),
+        });
+    }
+    Ok(region)
+}
+
+/// Computes G, F, J, K, L and g for a pattern in its window.
+///
+/// # Parameters
+/// * `pattern`: events in metres, inside `window`.
+/// * `params`: distance grid, corrections, weight cap, bandwidth.
+///
+/// # Returns
+/// Every curve on the same r grid with its CSR curve; NaN where a value is
+/// undefined (g at r = 0, G or F where no point qualifies for the border
+/// correction, J where F̂ ≥ 0.9).
+///
+/// # Errors
+/// `TooFewPoints` for fewer than 2 events; `BadParameter` for a bad
+/// parameter or an unusable window.
+pub fn distance_functions(
+    pattern: &Pattern,
+    window: &Window,
+    params: &FunctionParams,
+) -> Result<DistanceFunctions, AnalysisError> {
+    let region = checked_region(pattern, window)?;
+    distance_functions_in(region, pattern.x(), pattern.y(), params)
+}
+
+pub(crate) fn distance_functions_in(
+    region: Region,
+    x: &[f64],
+    y: &[f64],
+    params: &FunctionParams,
+) -> Result<DistanceFunctions, AnalysisError> {
+    let needs = Needs {
+        k: true,
+        pcf: true,
+        g: true,
+        f: true,
+    };
+    let ctx = Context::new(region, x.len(), params, needs)?;
+    let c = ctx.compute(x, y, needs);
+    let n = x.len();
+    let area = ctx.region.area;
+    let lambda = n as f64 / area;
+    let r = ctx.r.clone();
+    let mut warnings = ctx.warnings.clone();
+    if c.capped > 0 {
+        warnings.push(format!(
+            "{} pair weights reached the cap of {}",
+            c.capped, ctx.cap
+        ));
+    }
+    Ok(DistanceFunctions {
+        n,
+        area_m2: area,
+        intensity_per_m2: lambda,
+        r_max: ctx.r_max,
+        r_max_rule: ctx.r_max_rule.clone(),
+        correction: ctx.correction,
+        nn_correction: ctx.nn_correction,
+        bandwidth_m: ctx.bandwidth,
+        weight_cap: ctx.cap,
+        l: l_from_k(&c.k),
+        k_theo: r.iter().map(|r| PI * r * r).collect(),
+        l_theo: r.clone(),
+        pcf_theo: vec![1.0; r.len()],
+        j: j_from(&c.g, &c.f),
+        j_theo: vec![1.0; r.len()],
+        gf_theo: gf_theo(&r, lambda),
+        k: c.k,
+        pcf: c.pcf,
+        g: c.g,
+        f: c.f,
+        f_locations: ctx.f_locations(),
+        capped_weights: c.capped,
+        warnings,
+        r,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::distance::region::tests::unit_square;
+
+    /// Fixture F12 (METHODS Appendix A).
+    pub fn f12() -> (Vec<f64>, Vec<f64>) {
+        let p = [
+            (0.10, 0.20),
+            (0.15, 0.25),
+            (0.30, 0.80),
+            (0.35, 0.75),
+            (0.40, 0.78),
+            (0.55, 0.50),
+            (0.60, 0.10),
+            (0.70, 0.90),
+            (0.80, 0.30),
+            (0.85, 0.35),
+            (0.90, 0.60),
+            (0.20, 0.55),
+        ];
+        (
+            p.iter().map(|a| a.0).collect(),
+            p.iter().map(|a| a.1).collect(),
+        )
+    }
+
+    fn k_at(correction: Correction) -> Vec<f64> {
+        let (x, y) = f12();
+        // r grid 0, 0.05, ..., 0.25 so the table's r values are grid points.
+        let p = FunctionParams {
+            r_max: Some(0.25),
+            n_steps: 5,
+            correction,
+            weight_cap: 100.0,
+            ..Default::default()
+        };
+        distance_functions_in(unit_square(), &x, &y, &p).unwrap().k
+    }
+
+    /// METHODS §4.3 F12 table: K none / translation / isotropic / border at
+    /// r = 0.10, 0.15, 0.20, 0.25 (values [C] there, 6 decimals).
+    #[test]
+    fn test_f12_k_table() {
+        let idx = [2, 3, 4, 5];
+        let none = [0.060606, 0.075758, 0.075758, 0.090909];
+        let trans = [0.066807, 0.083986, 0.083986, 0.106268];
+        let iso = [0.060606, 0.075758, 0.075758, 0.092861];
+        // Table column "K border (n/|W|)"; we use (n−1)/|W| so multiply by n/(n−1) = 12/11.
+        let border = [0.066667, 0.093750, 0.083333, 0.125000];
+        for (c, want, scale) in [
+            (Correction::None, none, 1.0),
+            (Correction::Translation, trans, 1.0),
+            (Correction::Isotropic, iso, 1.0),
+            (Correction::Border, border, 12.0 / 11.0),
+        ] {
+            let k = k_at(c);
+            for (i, &ix) in idx.iter().enumerate() {
+                assert!(
+                    (k[ix] - want[i] * scale).abs() < 6e-7 * scale,
+                    "{c:?} r={} got {} want {}",
+                    ix as f64 * 0.05,
+                    k[ix],
+                    want[i] * scale
+                );
+            }
+        }
+        // L_iso(0.10) = 0.138894; L_iso(0.25) = 0.171926 (METHODS §4.3).
+        let l = l_from_k(&k_at(Correction::Isotropic));
+        assert!((l[2] - 0.138894).abs() < 1e-6 && (l[5] - 0.171926).abs() < 1e-6);
+    }
+
+    /// METHODS §4.3: G, F, J on F12 with border correction, F on the
+    /// 201×201 lattice linspace(0, 1, 201)² (as in methods-checks/part6.py).
+    #[test]
+    fn test_f12_gfj() {
+        let (x, y) = f12();
+        let p = FunctionParams {
+            r_max: Some(0.25),
+            n_steps: 5,
+            ..Default::default()
+        };
+        let needs = Needs {
+            g: true,
+            ..Default::default()
+        };
+        let ctx = Context::new(unit_square(), 12, &p, needs).unwrap();
+        let g = ctx.compute(&x, &y, needs).g;
+        assert_eq!(g[1], 0.0);
+        assert!((g[2] - 0.7).abs() < 1e-12 && (g[3] - 0.75).abs() < 1e-12);
+        // F on the lattice.
+        let grid = PointGrid::new(&x, &y, 0.1);
+        let (mut e, mut b) = (Vec::new(), Vec::new());
+        for iy in 0..201 {
+            for ix in 0..201 {
+                // numpy.linspace(0, 1, 201) computes k·0.005 (last node 1.0);
+                // copy it so ties at d = r break the same way.
+                let node = |k: usize| if k == 200 { 1.0 } else { k as f64 * 0.005 };
+                let (u, v) = (node(ix), node(iy));
+                e.push(grid.nearest(u, v, usize::MAX));
+                b.push(u.min(1.0 - u).min(v).min(1.0 - v));
+            }
+        }
+        let f = ctx.reduced_sample(&e, &b);
+        for (k, want) in [(1, 0.10735), (2, 0.36379), (3, 0.69267)] {
+            assert!((f[k] - want).abs() < 5e-6, "F {k}: {}", f[k]);
+        }
+        let j = j_from(&g, &f);
+        for (k, want) in [(1, 1.12025), (2, 0.47154), (3, 0.81346)] {
+            assert!((j[k] - want).abs() < 5e-5, "J {k}: {}", j[k]);
+        }
+    }
+
+    /// Pair-correlation sum against a direct O(n²) evaluation.
+    #[test]
+    fn test_pcf_matches_direct_sum() {
+        let (x, y) = f12();
+        let p = FunctionParams {
+            r_max: Some(0.25),
+            n_steps: 10,
+            bandwidth: Some(0.04),
+            correction: Correction::Translation,
+            ..Default::default()
+        };
+        let out = distance_functions_in(unit_square(), &x, &y, &p).unwrap();
+        for (k, &r) in out.r.iter().enumerate().skip(1) {
+            let mut s = 0.0;
+            for i in 0..12 {
+                for j in 0..12 {
+                    if i == j {
+                        continue;
+                    }
+                    let (dx, dy) = (x[j] - x[i], y[j] - y[i]);
+                    let d = (dx * dx + dy * dy).sqrt();
+                    let u = (r - d) / 0.04;
+                    if u.abs() < 1.0 {
+                        let e = 1.0 / ((1.0 - dx.abs()) * (1.0 - dy.abs()));
+                        s += 0.75 / 0.04 * (1.0 - u * u) * e;
+                    }
+                }
+            }
+            let want = s / (2.0 * PI * r * 12.0 * 11.0);
+            assert!(
+                (out.pcf[k] - want).abs() < 1e-12,
+                "r={r}: {} vs {want}",
+                out.pcf[k]
+            );
+        }
+        assert!(out.pcf[0].is_nan());
+    }
+
+    /// The K-only kernel (used by envelopes) and the general pass (used when
+    /// g is also asked for) agree for every correction, on a rectangle and
+    /// on a window with a hole; the F12 table above checks the general pass.
+    #[test]
+    fn test_k_kernel_matches_general_pass() {
+        use crate::distance::region::tests::wh;
+        for (region, scale) in [(unit_square(), 1.0), (wh(), 10.0)] {
+            let mut rng = crate::rng::rng_from_seed(31);
+            let (x, y) = region.sample(400, &mut rng);
+            for c in [
+                Correction::None,
+                Correction::Isotropic,
+                Correction::Translation,
+                Correction::Border,
+            ] {
+                let p = FunctionParams {
+                    r_max: Some(0.2 * scale),
+                    n_steps: 20,
+                    correction: c,
+                    ..Default::default()
+                };
+                let k_only = Needs {
+                    k: true,
+                    ..Default::default()
+                };
+                let both = Needs {
+                    k: true,
+                    pcf: true,
+                    ..Default::default()
+                };
+                let a = Context::new(region.clone(), x.len(), &p, k_only)
+                    .unwrap()
+                    .compute(&x, &y, k_only);
+                let b = Context::new(region.clone(), x.len(), &p, both)
+                    .unwrap()
+                    .compute(&x, &y, both);
+                for k in 0..a.k.len() {
+                    assert!(
+                        (a.k[k] - b.k[k]).abs() <= 1e-12 * b.k[k].abs().max(1e-12),
+                        "{c:?} {k}: {} {}",
+                        a.k[k],
+                        b.k[k]
+                    );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn test_too_few_points() {
+        let r = distance_functions_in(unit_square(), &[0.5], &[0.5], &FunctionParams::default());
+        assert_eq!(
+            r.unwrap_err(),
+            AnalysisError::TooFewPoints {
+                needed: 2,
+                found: 1
+            }
+        );
+    }
+
+    #[test]
+    fn test_coincident_points_and_default_rmax() {
+        let out = distance_functions_in(
+            unit_square(),
+            &[0.5, 0.5, 0.2],
+            &[0.5, 0.5, 0.2],
+            &FunctionParams::default(),
+        )
+        .unwrap();
+        assert!((out.r_max - 0.25).abs() < 1e-15);
+        assert_eq!(out.r.len(), 51);
+        // One coincident pair (2 ordered pairs) counts at every r ≥ 0.
+        assert!((out.k[0] - 2.0 / 6.0).abs() < 1e-12);
+        assert!(out.k.iter().all(|v| v.is_finite()));
+    }
+}
