@@ -86,6 +86,7 @@
     ['fixed', 'fixed, in metres'],
   ], 'normal_reference');
   const fixedIn = input('hs-fixed', { type: 'number', min: '1', step: 'any', value: '300', disabled: true, 'aria-label': 'Fixed bandwidth in metres' });
+  const cellsSel = select('hs-cells', [['256', '256 (quick)'], ['512', '512'], ['1024', '1024 (fine, slower)']], '256');
   const edgeBox = input('hs-edge', { type: 'checkbox', checked: true });
   const weightBox = input('hs-weights', { type: 'checkbox', disabled: true });
   const surfaceBtn = el('button', { type: 'button', id: 'hs-surface-run', disabled: true }, 'Draw the surface');
@@ -110,6 +111,7 @@
       field('Kernel', kernelSel),
       kernelHint,
       field('Bandwidth', el('span', { class: 'hs-inline' }, methodSel, fixedIn, el('span', { class: 'hint' }, 'm'))),
+      field('Grid cells', cellsSel, 'along the longer side of the study area; use more when the bandwidth is under a few cells'),
       el('label', { class: 'check' }, edgeBox, ' Correct for the edge of the study area (Jones–Diggle: every event keeps its whole mound inside)'),
       el('label', { class: 'check', id: 'hs-weights-label' }, weightBox, ' Weight each event by its count column')),
     el('div', { class: 'hs-buttons' }, surfaceBtn, el('label', { class: 'check' }, showBox, ' Show on the map'), exportBtn),
@@ -210,6 +212,7 @@
       method: methodSel.value,
       edge: edgeBox.checked ? 'jones_diggle' : 'none',
       use_weights: weightBox.checked && !weightBox.disabled,
+      cells: Number(cellsSel.value),
       isopleths: [0.5, 0.75, 0.95],
     };
     if (methodSel.value === 'fixed') {
