@@ -111,7 +111,7 @@
       field('Kernel', kernelSel),
       kernelHint,
       field('Bandwidth', el('span', { class: 'hs-inline' }, methodSel, fixedIn, el('span', { class: 'hint' }, 'm'))),
-      field('Grid cells', cellsSel, 'along the longer side of the study area; use more when the bandwidth is under a few cells'),
+      field('Grid cells', cellsSel, 'along the area\u2019s longer side; more when the bandwidth is small'),
       el('label', { class: 'check' }, edgeBox, ' Correct for the edge of the study area (Jones–Diggle: every event keeps its whole mound inside)'),
       el('label', { class: 'check', id: 'hs-weights-label' }, weightBox, ' Weight each event by its count column')),
     el('div', { class: 'hs-buttons' }, surfaceBtn, el('label', { class: 'check' }, showBox, ' Show on the map'), exportBtn),
@@ -257,7 +257,7 @@
   // ---------- 2. density clusters ----------
 
   const minIn = input('hs-min', { type: 'number', min: '2', step: '1', value: '8' });
-  const epsIn = input('hs-eps', { type: 'number', min: '1', step: 'any', placeholder: 'from the chart' });
+  const epsIn = input('hs-eps', { type: 'number', min: '1', step: 'any', placeholder: 'see chart' });
   const kdistBtn = el('button', { type: 'button', id: 'hs-kdist-run', class: 'quiet', disabled: true }, 'Show the distance chart');
   const knee = el('button', { type: 'button', id: 'hs-use-knee', class: 'linklike', hidden: true }, '');
   const dbBtn = el('button', { type: 'button', id: 'hs-dbscan-run', disabled: true }, 'Find clusters');
