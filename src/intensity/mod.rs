@@ -287,9 +287,13 @@ pub(crate) fn surface_on_canvas(
     let mut v = match evaluation {
         Evaluation::Binned => {
             // The stencil carries the cell area (see Kernel::stencil); divide
-            // it out to get events per m².
+            // it out to get events per m². Dividing by the stencil's lattice
+            // mass too makes each binned event spread exactly its weight over
+            // the grid: for a bandwidth near or below one cell the sampled
+            // kernel sums to more than 1 (e.g. 1.11 at h = 0.43 cell) and the
+            // surface would hold more events than there are.
             let counts = cv.bin(x, y, |i| ew[i]);
-            let inv_a = 1.0 / (cv.cell * cv.cell);
+            let inv_a = 1.0 / (cv.cell * cv.cell * sampling_mass(kernel, h, cv.cell));
             let mut v = convolve(&counts, cv.nx, cv.ny, &stencil);
             v.iter_mut().for_each(|t| *t *= inv_a);
             v
@@ -307,6 +311,27 @@ pub(crate) fn surface_on_canvas(
         }
     }
     (v, e)
+}
+
+/// Σ of the kernel sampled on the whole (untruncated) lattice × cell area:
+/// 1 up to round-off once the bandwidth spans a few cells (Poisson summation),
+/// above 1 when the kernel is narrower than a cell. Dividing binned surfaces
+/// by it corrects the under-sampling without touching the 4-SD truncation.
+fn sampling_mass(kernel: Kernel, h: f64, cell: f64) -> f64 {
+    match kernel {
+        Kernel::Gaussian => {
+            let r = ((8.0 * h / cell).ceil() as i64).max(1);
+            let s: f64 = (-r..=r)
+                .map(|k| {
+                    let x = k as f64 * cell;
+                    (-x * x / (2.0 * h * h)).exp() / ((2.0 * std::f64::consts::PI).sqrt() * h)
+                        * cell
+                })
+                .sum();
+            s * s
+        }
+        Kernel::Quartic => kernel.lattice_mass(h, cell),
+    }
 }
 
 fn exact_sum(cv: &Canvas, x: &[f64], y: &[f64], w: &[f64], kernel: Kernel, h: f64) -> Vec<f64> {

@@ -595,3 +595,37 @@ fn diggle_binned_lags_agree_with_exact_pairs() {
         assert!((p - q).abs() < 0.02 * range, "{va:?} vs {vb:?}");
     }
 }
+
+#[test]
+fn narrow_bandwidth_binned_surface_keeps_the_event_count() {
+    // Regression: a Gaussian bandwidth below one grid cell (20 m against
+    // 50 m cells) made the sampled kernel sum to about 1.11 per event, so the
+    // surface held 11 % more events than there are. With Jones–Diggle
+    // correction ∫_W λ̂ = n (METHODS §7 [D]) must hold whatever the bandwidth.
+    let region = window_with_hole();
+    let mut rng = crate::rng::rng_from_seed(22);
+    let (x, y) = region.sample_uniform(300, &mut rng);
+    for h in [20.0, 35.0, 60.0] {
+        let o = SurfaceOptions {
+            kernel: Kernel::Gaussian,
+            bandwidth: BandwidthOptions {
+                method: BandwidthMethod::Fixed,
+                fixed_m: Some(h),
+                ..Default::default()
+            },
+            edge: EdgeCorrection::JonesDiggle,
+            evaluation: Evaluation::Binned,
+            grid: GridOptions {
+                cells_long_side: 200,
+                cell_m: None,
+            },
+            ..Default::default()
+        };
+        let s = kernel_surface_in(&x, &y, None, &region, &o).unwrap();
+        assert!(
+            rel(s.integral_events, 300.0) < 5e-3,
+            "h = {h}: {}",
+            s.integral_events
+        );
+    }
+}
