@@ -101,6 +101,21 @@ test('envelope run on the demo: chart drawn, verdict "clustered", CSV and PNG sa
   assert.equal(png.readUInt32BE(16), census.width);
   assert.equal(png.readUInt32BE(20), census.height);
 
+  // The drawing export on the page's thread: a missing canvas or an incomplete
+  // result is a thrown error with a code, and the engine keeps working.
+  const errs = await page.evaluate(() => {
+    const out = [];
+    const eng = window.Cloister.engine();
+    for (const [id, res] of [['no-such-canvas', { r: [0, 1], observed: [0, 1] }], ['clu-chart', { function: 'l', r: [0, 1, 2], observed: [0, 1] }]]) {
+      try { eng.drawEnvelopeChart(id, res, {}); out.push('no error'); } catch (e) { out.push(`${e.code}: ${e.message}`); }
+    }
+    out.push(eng.version());
+    return out;
+  });
+  assert.match(errs[0], /^chart: .*no canvas with id "no-such-canvas"/);
+  assert.match(errs[1], /^chart: .*incomplete/);
+  assert.match(errs[2], /^\d/);
+
   // New data clear the results.
   await act(page, () => page.click('#area-mode-box'));
   assert.equal(await page.isVisible('#clu-env-result'), false);

@@ -9,7 +9,7 @@ import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 
 const require = createRequire(import.meta.url);
-const { Session } = require('../../dist/node/cloister.js');
+const { Session, drawEnvelopeChart } = require('../../dist/node/cloister.js');
 const root = new URL('../../', import.meta.url);
 const file = (p) => new Uint8Array(readFileSync(new URL(p, root)));
 const reference = JSON.parse(readFileSync(new URL('tests/reference/clustering_reference.json', root), 'utf8'));
@@ -261,4 +261,17 @@ test('bad parameters and out-of-order calls throw errors with a code', () => {
   assert.equal(throws(() => empty.envelopeStart({})).code, 'nothing_loaded');
   assert.equal(throws(() => empty.quadratTest({})).code, 'nothing_loaded');
   assert.equal(throws(() => empty.clarkEvans({})).code, 'nothing_loaded');
+});
+
+test('drawEnvelopeChart without a canvas (Node has no page) throws a "chart" error, never a panic', () => {
+  const s = demo();
+  const res = envelope(s, { function: 'pair_correlation', n_sim: 4, seed: 3, n_steps: 10 }, 4);
+  const e = throws(() => drawEnvelopeChart('no-such-canvas', res, {}));
+  assert.equal(e.code, 'chart');
+  assert.match(e.message, /no canvas with id "no-such-canvas"/);
+  assert.equal(throws(() => drawEnvelopeChart('no-such-canvas', res, { view: 'sideways' })).code, 'bad_options');
+  assert.equal(throws(() => drawEnvelopeChart('no-such-canvas', res, { colour: 'red' })).code, 'bad_options');
+  assert.equal(throws(() => drawEnvelopeChart('no-such-canvas', null, {})).code, 'chart');
+  // The engine is still alive after these errors.
+  assert.equal(s.quadratTest({ n_sim: 0 }).n, 1500);
 });

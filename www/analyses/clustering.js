@@ -12,18 +12,32 @@
   const $ = (id) => document.getElementById(id);
 
   const FUNCTIONS = [
-    ['l', 'L: Ripley\u2019s K rescaled to a distance (recommended)'],
-    ['k', 'K: expected neighbours within r, per unit intensity'],
-    ['pair_correlation', 'g: pair correlation (neighbours at distance r)'],
-    ['nearest_neighbour', 'G: nearest-neighbour distances'],
-    ['empty_space', 'F: distance from any place to the nearest event'],
-    ['j', 'J: G compared with F'],
+    ['l', 'L \u2013 Ripley\u2019s K as a distance'],
+    ['k', 'K \u2013 Ripley\u2019s K'],
+    ['pair_correlation', 'g \u2013 pair correlation'],
+    ['nearest_neighbour', 'G \u2013 nearest neighbour'],
+    ['empty_space', 'F \u2013 empty space'],
+    ['j', 'J \u2013 G set against F'],
   ];
+  const FUNCTION_HINTS = {
+    l: 'Neighbours within each distance, rescaled so chance is a flat line. Recommended first look.',
+    k: 'Average number of other events within each distance, per unit density.',
+    pair_correlation: 'Neighbours at (not within) each distance: shows the size of clusters more sharply.',
+    nearest_neighbour: 'Share of events whose nearest neighbour is within each distance.',
+    empty_space: 'Share of places in the area that have an event within each distance.',
+    j: 'Nearest-neighbour against empty-space distances: below 1 clustered, above 1 regular.',
+  };
   const PAIR_FUNCTIONS = new Set(['l', 'k', 'pair_correlation']);
   const CORRECTIONS = {
-    pair: [['isotropic', 'isotropic (circle share inside the area)'], ['translation', 'translation (shifted copies of the area)'], ['border', 'border (only events far from the edge)'], ['none', 'none (biased near the edge)']],
-    pair_g: [['isotropic', 'isotropic (circle share inside the area)'], ['translation', 'translation (shifted copies of the area)'], ['none', 'none (biased near the edge)']],
-    nn: [['border', 'border (only places far from the edge)'], ['none', 'none (biased near the edge)']],
+    pair: [['isotropic', 'isotropic'], ['translation', 'translation'], ['border', 'border'], ['none', 'none']],
+    pair_g: [['isotropic', 'isotropic'], ['translation', 'translation'], ['none', 'none']],
+    nn: [['border', 'border'], ['none', 'none']],
+  };
+  const CORRECTION_HINTS = {
+    isotropic: 'counts each pair by the share of its circle inside the area',
+    translation: 'counts each pair by the overlap of the area with a shifted copy',
+    border: 'uses only events (or places) farther from the edge than the distance',
+    none: 'no correction: values near the edge are too low',
   };
   const MAX_SEED = Number.MAX_SAFE_INTEGER;
 
@@ -52,8 +66,8 @@
   const envBox = el('fieldset', { class: 'clu-box', id: 'clu-env-box' },
     el('legend', null, 'Distances between events, against simulated chance'),
     el('div', { class: 'clu-grid' },
-      field('Function', select('clu-function', FUNCTIONS, 'l')),
-      field('Edge correction', el('select', { id: 'clu-correction' }), 'events near the edge have neighbours outside the area that were not recorded'),
+      field('Function', select('clu-function', FUNCTIONS, 'l'), ' '),
+      field('Edge correction', el('select', { id: 'clu-correction' }), ' '),
       field('Simulations', el('input', { type: 'number', id: 'clu-nsim', value: 199, min: 1, max: 9999, step: 1 }), '199 is usual; 999 or more for a smaller p'),
       el('fieldset', { class: 'clu-field clu-kind', role: 'radiogroup' },
         el('legend', null, 'Band on the chart'),
@@ -127,9 +141,15 @@
     const old = s.value;
     s.replaceChildren(...list.map(([v, t]) => el('option', { value: v }, t)));
     s.value = list.some(([v]) => v === old) ? old : list[0][0];
+    hints();
   }
 
-  const pText = (p) => (p === null || p === undefined ? '—' : fmt(p, 3));
+  function hints() {
+    $('clu-function').parentElement.querySelector('small').textContent = FUNCTION_HINTS[$('clu-function').value] || '';
+    $('clu-correction').parentElement.querySelector('small').textContent = CORRECTION_HINTS[$('clu-correction').value] || '';
+  }
+
+  const pText = (p) => (p === null || p === undefined ? '—' : p < 1e-4 ? 'below 0.0001' : fmt(p, 3));
 
   function dl(target, rows) {
     target.replaceChildren();
@@ -223,7 +243,7 @@
     const res = state.result;
     if (!res) return;
     const canvas = $('clu-chart');
-    const w = Math.max(420, Math.min(960, Math.floor(canvas.parentElement.clientWidth || 760)));
+    const w = Math.max(420, Math.min(960, Math.floor((canvas.parentElement.clientWidth || 762) - 2)));
     canvas.width = w;
     canvas.height = Math.round(Math.min(460, Math.max(300, w * 0.55)));
     try {
@@ -372,6 +392,7 @@
   newSeed();
   fillCorrections();
   $('clu-function').addEventListener('change', fillCorrections);
+  $('clu-correction').addEventListener('change', hints);
   $('clu-seed').addEventListener('input', () => { $('clu-fresh').checked = false; });
   $('clu-run').addEventListener('click', () => { run(); });
   $('clu-cancel').addEventListener('click', cancel);
