@@ -82,7 +82,7 @@
       el('span', { id: 'clu-progress-text', class: 'hint', 'aria-live': 'polite' })),
     el('div', { id: 'clu-env-result', class: 'clu-result', hidden: true },
       el('div', { class: 'clu-grid clu-view' },
-        field('Show', select('clu-view', [['centred', 'difference from chance (flat line = chance)'], ['function', 'the function itself']], 'centred')),
+        field('Show', select('clu-view', [['centred', 'difference from chance'], ['function', 'the function itself']], 'centred')),
         field('Distances in', select('clu-units', [['auto', 'automatic'], ['m', 'metres'], ['km', 'kilometres']], 'auto'))),
       el('div', { class: 'clu-chart-wrap' }, el('canvas', { id: 'clu-chart', width: 760, height: 420, role: 'img', 'aria-label': 'Envelope chart' })),
       el('p', { id: 'clu-band-note', class: 'hint' }),
@@ -270,7 +270,8 @@
     const verdict = $('clu-verdict');
     verdict.textContent = v.text;
     verdict.dataset.outcome = v.outcome;
-    $('clu-caveats').replaceChildren(...v.caveats.map((c) => el('li', null, c)));
+    // The chart shows one band at a time, so the engine's '(lightest shading)' does not apply here.
+    $('clu-caveats').replaceChildren(...v.caveats.map((c) => el('li', null, c.replace(' (lightest shading)', ''))));
     const mad = res.mad;
     const dclf = res.dclf;
     const corr = PAIR_FUNCTIONS.has(res.function) ? res.correction : res.nn_correction;
