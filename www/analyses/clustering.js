@@ -150,6 +150,7 @@
   }
 
   const pText = (p) => (p === null || p === undefined ? '—' : p < 1e-4 ? 'below 0.0001' : fmt(p, 3));
+  const pEq = (p) => (p !== null && p !== undefined && p < 1e-4 ? 'p < 0.0001' : `p = ${pText(p)}`);
 
   function dl(target, rows) {
     target.replaceChildren();
@@ -277,8 +278,8 @@
     const corr = PAIR_FUNCTIONS.has(res.function) ? res.correction : res.nn_correction;
     dl($('clu-details'), [
       ['Function', `${res.label}, ${fmt(res.n)} events`],
-      ['Maximum-deviation test', `p = ${pText(mad.p_value)} (${fmt(mad.at_least_as_extreme)} of ${fmt(res.n_sim)} simulations at least as extreme)`, 'mad_p'],
-      ['Integrated-deviation test (DCLF)', `p = ${pText(dclf.p_value)}`, 'dclf_p'],
+      ['Maximum-deviation test', `${pEq(mad.p_value)} (${fmt(mad.at_least_as_extreme)} of ${fmt(res.n_sim)} simulations at least as extreme)`, 'mad_p'],
+      ['Integrated-deviation test (DCLF)', pEq(dclf.p_value), 'dclf_p'],
       ['Distances tested', `${fmtMetres(res.test_r_min)} to ${fmtMetres(res.test_r_max)}`],
       ['Largest distance', res.r_max_rule],
       ['Edge correction', String(corr)],
@@ -373,7 +374,7 @@
       if (!(err && err.code === 'engine_stopped')) showError('The Clark\u2013Evans ratio could not be computed', err);
       return;
     }
-    const line = (s) => `R = ${fmt(s.r, 4)}, z = ${fmt(s.z, 4)}, p = ${pText(s.p_two_sided)} two-sided`;
+    const line = (s) => `R = ${fmt(s.r, 4)}, z = ${fmt(s.z, 4)}, ${pEq(s.p_two_sided)} (two-sided)`;
     const d = el('dl', { class: 'clu-dl' });
     dl(d, [
       ['Mean nearest-neighbour distance', `${fmtMetres(res.mean_nn_m)} (${fmt(res.n)} events)`, 'mean_nn'],
