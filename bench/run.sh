@@ -13,3 +13,4 @@ echo "== intake: Node.js (dist/node)"
 node --max-old-space-size=4096 bench/intake-node.mjs $SIZES
 echo "== intake: headless Chromium page (worker)"
 node bench/intake-browser.mjs $SIZES
+echo "== hotspots: headless Chromium page (worker)"; node bench/hotspots-browser.mjs

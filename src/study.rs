@@ -219,12 +219,16 @@ fn place_layer(
     layer: &RawLayer,
     projection: &Projection,
     window: &Window,
+    projected: Option<(Vec<f64>, Vec<f64>)>,
 ) -> (Pattern, Vec<Rejection>, Vec<usize>) {
     let n = layer.len();
     let mut keep = Vec::with_capacity(n);
     let (mut xs, mut ys) = (Vec::with_capacity(n), Vec::with_capacity(n));
     let mut rejections = layer.rejections.clone();
-    let (px, py) = projection.forward_many(&layer.x, &layer.y);
+    let (px, py) = match projected {
+        Some(p) if p.0.len() == n && p.1.len() == n => p,
+        _ => projection.forward_many(&layer.x, &layer.y),
+    };
     for i in 0..n {
         let (e, no) = (px[i], py[i]);
         if e.is_finite() && no.is_finite() && window.contains(e, no) {
@@ -328,6 +332,7 @@ impl Study {
         let mut warnings = Vec::new();
 
         // 3. Window.
+        let mut projected_events = None;
         let window = match area {
             Some(a) => {
                 let polys = a
@@ -368,6 +373,7 @@ impl Study {
                      rectangle can take in empty corners and make them look more clustered. \
                      Give the true study area if you have it."
                 ));
+                projected_events = Some((px, py));
                 w
             }
         };
@@ -396,7 +402,8 @@ impl Study {
         }
 
         // 4. Place events and controls.
-        let (ev, event_rejections, kept) = place_layer(events, &projection, &window);
+        let (ev, event_rejections, kept) =
+            place_layer(events, &projection, &window, projected_events);
         if ev.is_empty() {
             return Err(InputError::new(InputErrorKind::NoValidRows {
                 rows_read: events.rows_read,
@@ -414,7 +421,7 @@ impl Study {
         }
         let (ctrl, control_rejections, controls_rows_read) = match controls {
             Some(c) => {
-                let (p, rej, _) = place_layer(c, &projection, &window);
+                let (p, rej, _) = place_layer(c, &projection, &window, None);
                 if p.is_empty() {
                     return Err(InputError::new(InputErrorKind::Mismatch {
                         detail: format!(

@@ -1,1 +1,726 @@
-//! Exports for "Where are the hotspots?" (filled in by its analysis work).
+//! Exports for "Where are the hotspots?": kernel intensity surfaces with
+//! percent-volume isopleths, DBSCAN with its k-distance plot, and Kulldorff's
+//! scan as a batched job (`scanStart` / `scanStep` / `scanFinish`).
+//!
+//! Every method decodes plain JS options (snake_case fields, all optional),
+//! calls the core ([`crate::intensity`], [`crate::clusters`],
+//! [`crate::scan`]) and returns plain objects; grids and labels come back as
+//! typed arrays. Coordinates are the study's planar metres; where the input
+//! was longitude/latitude, centres are also given back-projected
+//! (`centre_lon`, `centre_lat`) and the isopleth GeoJSON is in WGS 84.
+//!
+//! `drawKDistanceChart` is a free function for the page's main thread: it
+//! draws with plotters-canvas, which needs the DOM (it cannot run in the
+//! worker, see TOOLCHAIN.md).
+
+use super::{analysis_error, from_js, js_error, set, to_js, Session};
+use crate::clusters::kdist::kth_distances;
+use crate::clusters::{dbscan, k_distance_plot, DbscanOptions};
+use crate::intensity::{
+    kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, GridOptions,
+    IntensitySurface, Kernel, SurfaceOptions,
+};
+use crate::scan::{ScanJob, ScanModel, ScanOptions};
+use crate::study::Study;
+use js_sys::{Float64Array, Int32Array, Object, Uint8Array};
+use serde::{Deserialize, Serialize};
+use wasm_bindgen::prelude::*;
+
+const KEY_SURFACE: &str = "hotspots.surface";
+const KEY_KDIST5: &str = "hotspots.kdist_privacy";
+const KEY_SCAN: &str = "hotspots.scan";
+
+/// Fewer than this many events within two kernel SDs of an event and its
+/// bump on the surface mostly reflects that one event and a handful of
+/// others. Five is a common small-cell threshold in disclosure control
+/// (common practice \[CP\], no single source).
+const PRIVACY_K: usize = 5;
+
+/// Options for `intensitySurface`.
+#[derive(Debug, Deserialize)]
+#[serde(default)]
+struct SurfaceParams {
+    kernel: Kernel,
+    /// `normal_reference`, `likelihood_cv`, `diggle_mse` or `fixed`.
+    method: BandwidthMethod,
+    /// Metres, for `fixed`.
+    fixed_m: Option<f64>,
+    /// Candidates tried by the two criteria.
+    candidates: usize,
+    edge: EdgeCorrection,
+    /// Cells along the longer side of the study area's bounding box.
+    cells: usize,
+    use_weights: bool,
+    /// Percent-volume fractions for the isopleths.
+    isopleths: Vec<f64>,
+    /// Whether to count events that the bandwidth would expose.
+    privacy_check: bool,
+}
+
+impl Default for SurfaceParams {
+    fn default() -> Self {
+        SurfaceParams {
+            kernel: Kernel::Gaussian,
+            method: BandwidthMethod::NormalReference,
+            fixed_m: None,
+            candidates: 20,
+            edge: EdgeCorrection::JonesDiggle,
+            cells: 256,
+            use_weights: false,
+            isopleths: vec![0.5, 0.75, 0.95],
+            privacy_check: true,
+        }
+    }
+}
+
+#[derive(Serialize)]
+struct IsoplethOut<'a> {
+    percent: Option<f64>,
+    level_per_km2: f64,
+    area_km2: f64,
+    polygons: &'a Vec<Vec<Vec<[f64; 2]>>>,
+}
+
+#[derive(Serialize)]
+struct PrivacyOut {
+    /// Radius checked: two kernel SDs, metres.
+    radius_m: f64,
+    threshold: usize,
+    /// Events with fewer than `threshold` events (themselves included)
+    /// within `radius_m`.
+    exposed_events: usize,
+    warning: Option<String>,
+}
+
+#[derive(Serialize)]
+struct SurfaceMeta<'a> {
+    x0: f64,
+    y0: f64,
+    cell_m: f64,
+    nx: usize,
+    ny: usize,
+    kernel: Kernel,
+    bandwidth_m: f64,
+    /// Per-axis SD of the kernel, metres (= bandwidth for the Gaussian).
+    kernel_sd_m: f64,
+    method: BandwidthMethod,
+    method_text: &'static str,
+    reference_m: Option<f64>,
+    candidates_m: &'a [f64],
+    criterion: &'a [Option<f64>],
+    bandwidth_note: Option<&'a str>,
+    edge: EdgeCorrection,
+    n_events: usize,
+    total_weight: f64,
+    weighted: bool,
+    integral_events: f64,
+    max_per_km2: f64,
+    area_km2: f64,
+    notes: &'a [String],
+    isopleths: Vec<IsoplethOut<'a>>,
+    privacy: Option<PrivacyOut>,
+}
+
+fn method_text(m: BandwidthMethod) -> &'static str {
+    match m {
+        BandwidthMethod::NormalReference => "rule of thumb (normal reference, Scott / Silverman)",
+        BandwidthMethod::LikelihoodCv => "likelihood cross-validation (Loader 1999)",
+        BandwidthMethod::DiggleMse => {
+            "mean-square-error criterion (Diggle 1985; Berman & Diggle 1989)"
+        }
+        BandwidthMethod::Fixed => "fixed by you",
+    }
+}
+
+impl Session {
+    /// Distance from each event to its `PRIVACY_K`-th nearest (itself
+    /// counted), cached per study.
+    fn privacy_kdist(&mut self) -> Result<&Vec<f64>, JsValue> {
+        if self.extra_mut::<Vec<f64>>(KEY_KDIST5).is_none() {
+            let s = self.study_ref()?;
+            let n = s.events.len();
+            let d = if n >= PRIVACY_K {
+                kth_distances(s.events.x(), s.events.y(), PRIVACY_K)
+                    .map_err(|e| analysis_error(&e))?
+            } else {
+                vec![f64::INFINITY; n]
+            };
+            self.extras.insert(KEY_KDIST5, Box::new(d));
+        }
+        self.extra_mut::<Vec<f64>>(KEY_KDIST5)
+            .map(|v| &*v)
+            .ok_or_else(|| js_error("internal", "privacy check unavailable", None))
+    }
+}
+
+fn geographic_centre(s: &Study, x: f64, y: f64) -> (Option<f64>, Option<f64>) {
+    if s.projection.is_geographic() {
+        let (lon, lat) = s.projection.inverse(x, y);
+        (Some(lon), Some(lat))
+    } else {
+        (None, None)
+    }
+}
+
+/// Options for `dbscan`.
+#[derive(Debug, Default, Deserialize)]
+#[serde(default)]
+struct DbscanParams {
+    eps_m: f64,
+    min_samples: Option<usize>,
+    use_weights: bool,
+}
+
+#[derive(Serialize)]
+struct ClusterOut<'a> {
+    id: i32,
+    members: usize,
+    core_members: usize,
+    centre_x: f64,
+    centre_y: f64,
+    centre_lon: Option<f64>,
+    centre_lat: Option<f64>,
+    hull_area_km2: f64,
+    density_per_km2: Option<f64>,
+    hull: &'a [[f64; 2]],
+}
+
+/// Options for `scanStart`.
+#[derive(Debug, Deserialize)]
+#[serde(default)]
+struct ScanParams {
+    /// `auto` (Bernoulli with controls, else Poisson against area),
+    /// `bernoulli` or `poisson`.
+    model: ScanModel,
+    max_share: f64,
+    n_sim: usize,
+    seed: f64,
+    cells_long_side: usize,
+    max_secondary: usize,
+}
+
+impl Default for ScanParams {
+    fn default() -> Self {
+        let d = ScanOptions::default();
+        ScanParams {
+            model: d.model,
+            max_share: d.max_share,
+            n_sim: d.n_sim,
+            seed: d.seed as f64,
+            cells_long_side: d.cells_long_side,
+            max_secondary: d.max_secondary,
+        }
+    }
+}
+
+#[derive(Serialize)]
+struct ScanClusterOut {
+    rank: usize,
+    centre_x: f64,
+    centre_y: f64,
+    centre_lon: Option<f64>,
+    centre_lat: Option<f64>,
+    radius_m: f64,
+    regions: usize,
+    observed: u64,
+    expected: f64,
+    relative_risk: f64,
+    population: f64,
+    llr: f64,
+    p_value: f64,
+}
+
+#[derive(Serialize)]
+struct ScanOut {
+    model: ScanModel,
+    model_text: &'static str,
+    centres: crate::scan::ScanCentres,
+    n_sim: usize,
+    seed: u64,
+    max_share: f64,
+    n_regions: usize,
+    n_windows: usize,
+    total_cases: u64,
+    total_population: f64,
+    statistic: f64,
+    p_value: f64,
+    smallest_p: f64,
+    critical_95: Option<f64>,
+    critical_99: Option<f64>,
+    cell_m: Option<f64>,
+    clusters: Vec<ScanClusterOut>,
+    null_maxima: Vec<f64>,
+}
+
+#[wasm_bindgen]
+impl Session {
+    /// What the hotspot panel needs to know about the loaded data:
+    /// `{n_events, has_weights, has_controls, geographic}`.
+    #[wasm_bindgen(js_name = hotspotsInfo)]
+    pub fn hotspots_info(&self) -> Result<JsValue, JsValue> {
+        #[derive(Serialize)]
+        struct Info {
+            n_events: usize,
+            has_weights: bool,
+            has_controls: bool,
+            geographic: bool,
+        }
+        let s = self.study_ref()?;
+        to_js(&Info {
+            n_events: s.events.len(),
+            has_weights: s.events.weight().is_some(),
+            has_controls: s.controls.as_ref().is_some_and(|c| !c.is_empty()),
+            geographic: s.projection.is_geographic(),
+        })
+    }
+
+    /// A kernel intensity surface of the events (see [`SurfaceParams`] for
+    /// the options). Returns the grid as `values` (Float64Array, events per
+    /// km², row-major with row 0 at the south) and `mask` (Uint8Array, 1 in
+    /// the study area) plus `x0, y0, cell_m, nx, ny`, the bandwidth in
+    /// metres and how it was chosen, `max_per_km2`, `integral_events`,
+    /// `notes`, the percent-volume `isopleths` (polygons in metres) and a
+    /// `privacy` count. The surface is kept for `isoplethsGeoJson`.
+    #[wasm_bindgen(js_name = intensitySurface)]
+    pub fn intensity_surface(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+        let p: SurfaceParams = from_js(params)?;
+        self.extras.remove(KEY_SURFACE);
+        let o = SurfaceOptions {
+            kernel: p.kernel,
+            bandwidth: BandwidthOptions {
+                method: p.method,
+                fixed_m: p.fixed_m,
+                candidates: p.candidates,
+                ..Default::default()
+            },
+            edge: p.edge,
+            grid: GridOptions {
+                cells_long_side: p.cells,
+                cell_m: None,
+            },
+            use_weights: p.use_weights,
+            ..Default::default()
+        };
+        let surf: IntensitySurface = {
+            let s = self.study_ref()?;
+            kernel_surface(&s.events, &s.window, &o).map_err(|e| analysis_error(&e))?
+        };
+        for &f in &p.isopleths {
+            if !(f > 0.0 && f <= 1.0) {
+                return Err(js_error(
+                    "bad_options",
+                    &format!("isopleth fraction {f} must be more than 0 and at most 1"),
+                    None,
+                ));
+            }
+        }
+        let iso = surf.isopleths(&p.isopleths);
+        let sd = surf.kernel.sd(surf.bandwidth_m);
+        let privacy = if p.privacy_check {
+            let r = 2.0 * sd;
+            let exposed = self.privacy_kdist()?.iter().filter(|&&d| d > r).count();
+            Some(PrivacyOut {
+                radius_m: r,
+                threshold: PRIVACY_K,
+                exposed_events: exposed,
+                warning: (exposed > 0).then(|| {
+                    format!(
+                        "{exposed} event(s) have fewer than {PRIVACY_K} events (themselves \
+                         included) within {r:.0} m, twice the kernel's spread: their bumps on \
+                         this surface can point at single addresses. Use a wider bandwidth \
+                         before showing or sharing it."
+                    )
+                }),
+            })
+        } else {
+            None
+        };
+        let weighted = p.use_weights && self.study_ref()?.events.weight().is_some();
+        let g = &surf.grid;
+        let meta = SurfaceMeta {
+            x0: g.x0,
+            y0: g.y0,
+            cell_m: g.cell_m,
+            nx: g.nx,
+            ny: g.ny,
+            kernel: surf.kernel,
+            bandwidth_m: surf.bandwidth_m,
+            kernel_sd_m: sd,
+            method: surf.bandwidth.method,
+            method_text: method_text(surf.bandwidth.method),
+            reference_m: surf.bandwidth.reference_m,
+            candidates_m: &surf.bandwidth.candidates_m,
+            criterion: &surf.bandwidth.criterion,
+            bandwidth_note: surf.bandwidth.note.as_deref(),
+            edge: surf.edge,
+            n_events: surf.n_events,
+            total_weight: surf.total_weight,
+            weighted,
+            integral_events: surf.integral_events,
+            max_per_km2: surf.max_per_km2,
+            area_km2: surf.area_km2,
+            notes: &surf.notes,
+            isopleths: iso
+                .contours
+                .iter()
+                .map(|c| IsoplethOut {
+                    percent: c.percent_volume,
+                    level_per_km2: c.level,
+                    area_km2: c.area_km2,
+                    polygons: &c.polygons,
+                })
+                .collect(),
+            privacy,
+        };
+        let out = to_js(&meta)?;
+        let obj: &Object = out
+            .dyn_ref::<Object>()
+            .ok_or_else(|| js_error("internal", "surface metadata is not an object", None))?;
+        set(obj, "values", &Float64Array::from(&g.values[..]).into())?;
+        let mask: Vec<u8> = g.mask.iter().map(|&m| u8::from(m)).collect();
+        set(obj, "mask", &Uint8Array::from(&mask[..]).into())?;
+        self.extras.insert(KEY_SURFACE, Box::new(surf));
+        Ok(out)
+    }
+
+    /// The last surface's percent-volume isopleths (`fractions`, e.g.
+    /// `[0.5, 0.75, 0.95]`) as a GeoJSON FeatureCollection string: one
+    /// MultiPolygon per level. Longitude/latitude (WGS 84) when the events
+    /// were longitude/latitude, else the events file's own planar units.
+    #[wasm_bindgen(js_name = isoplethsGeoJson)]
+    pub fn isopleths_geojson(&mut self, fractions: Vec<f64>) -> Result<String, JsValue> {
+        let projection = self.study_ref()?.projection;
+        let surf = self
+            .extra_mut::<IntensitySurface>(KEY_SURFACE)
+            .ok_or_else(|| {
+                js_error(
+                    "nothing_computed",
+                    "draw an intensity surface first: the isopleths come from it",
+                    None,
+                )
+            })?;
+        if let Some(f) = fractions.iter().find(|f| !(**f > 0.0 && **f <= 1.0)) {
+            return Err(js_error(
+                "bad_options",
+                &format!("isopleth fraction {f} must be more than 0 and at most 1"),
+                None,
+            ));
+        }
+        let contours = surf.isopleths(&fractions);
+        Ok(crate::intensity::isopleth::to_geojson(&contours, |x, y| {
+            let (a, b) = projection.inverse(x, y);
+            [a, b]
+        }))
+    }
+
+    /// DBSCAN (Ester et al. 1996) with scikit-learn's labelling: options
+    /// `{eps_m, min_samples, use_weights}`. Returns `labels` (Int32Array,
+    /// −1 = noise, input order), `core` (Uint8Array), `n_clusters`, `noise`
+    /// and the cluster table with hulls (metres).
+    pub fn dbscan(&self, params: JsValue) -> Result<JsValue, JsValue> {
+        let p: DbscanParams = from_js(params)?;
+        let s = self.study_ref()?;
+        let o = DbscanOptions {
+            eps_m: p.eps_m,
+            min_samples: p.min_samples.unwrap_or(5),
+            use_weights: p.use_weights,
+        };
+        let r = dbscan(&s.events, &o).map_err(|e| analysis_error(&e))?;
+        #[derive(Serialize)]
+        struct Out<'a> {
+            eps_m: f64,
+            min_samples: usize,
+            n_clusters: usize,
+            noise: usize,
+            weighted: bool,
+            clusters: Vec<ClusterOut<'a>>,
+        }
+        let clusters = r
+            .clusters
+            .iter()
+            .map(|c| {
+                let (lon, lat) = geographic_centre(s, c.centre_x, c.centre_y);
+                ClusterOut {
+                    id: c.id,
+                    members: c.members,
+                    core_members: c.core_members,
+                    centre_x: c.centre_x,
+                    centre_y: c.centre_y,
+                    centre_lon: lon,
+                    centre_lat: lat,
+                    hull_area_km2: c.hull_area_km2,
+                    density_per_km2: c.density_per_km2,
+                    hull: &c.hull,
+                }
+            })
+            .collect();
+        let out = to_js(&Out {
+            eps_m: r.eps_m,
+            min_samples: r.min_samples,
+            n_clusters: r.n_clusters,
+            noise: r.noise,
+            weighted: p.use_weights && s.events.weight().is_some(),
+            clusters,
+        })?;
+        let obj: &Object = out
+            .dyn_ref::<Object>()
+            .ok_or_else(|| js_error("internal", "result is not an object", None))?;
+        set(obj, "labels", &Int32Array::from(&r.labels[..]).into())?;
+        let core: Vec<u8> = r.core.iter().map(|&c| u8::from(c)).collect();
+        set(obj, "core", &Uint8Array::from(&core[..]).into())?;
+        Ok(out)
+    }
+
+    /// Sorted k-distances for choosing DBSCAN's eps: `{min_samples,
+    /// sorted_desc_m (Float64Array), knee_eps_m, knee_index}`.
+    #[wasm_bindgen(js_name = kDistance)]
+    pub fn k_distance(&self, min_samples: usize) -> Result<JsValue, JsValue> {
+        let s = self.study_ref()?;
+        let k = k_distance_plot(s.events.x(), s.events.y(), min_samples)
+            .map_err(|e| analysis_error(&e))?;
+        let obj = Object::new();
+        set(
+            &obj,
+            "min_samples",
+            &JsValue::from_f64(k.min_samples as f64),
+        )?;
+        set(
+            &obj,
+            "sorted_desc_m",
+            &Float64Array::from(&k.sorted_desc_m[..]).into(),
+        )?;
+        set(&obj, "knee_eps_m", &to_js(&k.knee_eps_m)?)?;
+        set(&obj, "knee_index", &to_js(&k.knee_index)?)?;
+        Ok(obj.into())
+    }
+
+    /// Prepares Kulldorff's scan (windows enumerated, data scored):
+    /// options `{model, max_share, n_sim, seed, cells_long_side,
+    /// max_secondary}`. Returns `{total}` (replicates to run). A scan already
+    /// prepared or running is dropped.
+    #[wasm_bindgen(js_name = scanStart)]
+    pub fn scan_start(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+        self.extras.remove(KEY_SCAN);
+        let p: ScanParams = from_js(params)?;
+        if !(p.seed.is_finite() && p.seed >= 0.0 && p.seed.fract() == 0.0 && p.seed < 9.007e15) {
+            return Err(js_error(
+                "bad_options",
+                "the seed must be a whole number from 0 to 2^53",
+                None,
+            ));
+        }
+        if p.n_sim == 0 || p.n_sim > 100_000 {
+            return Err(js_error(
+                "bad_options",
+                "replicates must be from 1 to 100 000 (999 is usual)",
+                None,
+            ));
+        }
+        let o = ScanOptions {
+            model: p.model,
+            max_share: p.max_share,
+            n_sim: p.n_sim,
+            seed: p.seed as u64,
+            cells_long_side: p.cells_long_side,
+            max_secondary: p.max_secondary,
+            ..Default::default()
+        };
+        let job = {
+            let s = self.study_ref()?;
+            ScanJob::new(&s.events, s.controls.as_ref(), &s.window, &o)
+                .map_err(|e| analysis_error(&e))?
+        };
+        #[derive(Serialize)]
+        struct Started {
+            total: usize,
+            n_windows: usize,
+            n_regions: usize,
+        }
+        let started = Started {
+            total: job.progress().total,
+            n_windows: job.n_windows(),
+            n_regions: job.regions().x.len(),
+        };
+        self.extras.insert(KEY_SCAN, Box::new(job));
+        to_js(&started)
+    }
+
+    /// Runs up to `k` more replicates; returns how many are done.
+    #[wasm_bindgen(js_name = scanStep)]
+    pub fn scan_step(&mut self, k: usize) -> Result<usize, JsValue> {
+        let job = self
+            .extra_mut::<ScanJob>(KEY_SCAN)
+            .ok_or_else(|| js_error("nothing_started", "no scan is running", None))?;
+        Ok(job.run_batch(k.max(1)).done)
+    }
+
+    /// Runs any replicates left and returns the result: the most likely
+    /// cluster and secondary clusters (centre, radius, observed, expected,
+    /// relative risk, p), the test statistic and its Monte Carlo p-value.
+    #[wasm_bindgen(js_name = scanFinish)]
+    pub fn scan_finish(&mut self) -> Result<JsValue, JsValue> {
+        let job = self
+            .take_extra::<ScanJob>(KEY_SCAN)
+            .ok_or_else(|| js_error("nothing_started", "no scan is running", None))?;
+        let r = job.finish();
+        let s = self.study_ref()?;
+        let clusters = r
+            .clusters
+            .iter()
+            .map(|c| {
+                let (lon, lat) = geographic_centre(s, c.centre_x, c.centre_y);
+                ScanClusterOut {
+                    rank: c.rank,
+                    centre_x: c.centre_x,
+                    centre_y: c.centre_y,
+                    centre_lon: lon,
+                    centre_lat: lat,
+                    radius_m: c.radius_m,
+                    regions: c.regions.len(),
+                    observed: c.observed,
+                    expected: c.expected,
+                    relative_risk: c.relative_risk,
+                    population: c.population,
+                    llr: c.llr,
+                    p_value: c.p_value,
+                }
+            })
+            .collect();
+        to_js(&ScanOut {
+            model: r.model,
+            model_text: match r.model {
+                ScanModel::Bernoulli => "cases against controls (Bernoulli)",
+                _ => "events against area (Poisson)",
+            },
+            centres: r.centres,
+            n_sim: r.n_sim,
+            seed: r.seed,
+            max_share: r.max_share,
+            n_regions: r.n_regions,
+            n_windows: r.n_windows,
+            total_cases: r.total_cases,
+            total_population: r.total_population,
+            statistic: r.statistic,
+            p_value: r.p_value,
+            smallest_p: 1.0 / (r.n_sim as f64 + 1.0),
+            critical_95: r.critical_95,
+            critical_99: r.critical_99,
+            cell_m: r.cell_m,
+            clusters,
+            null_maxima: r.null_maxima,
+        })
+    }
+}
+
+/// Data for [`draw_k_distance_chart`].
+#[derive(Debug, Default, Deserialize)]
+#[serde(default)]
+struct KDistChartData {
+    min_samples: usize,
+    /// Largest first, metres.
+    sorted_desc_m: Vec<f64>,
+    knee_index: Option<usize>,
+    knee_eps_m: Option<f64>,
+    /// The eps currently chosen, metres (drawn as a line).
+    eps_m: Option<f64>,
+}
+
+/// Draws the sorted k-distance curve on the canvas with id `canvas_id`
+/// (main thread only). `data` is `kDistance`'s answer plus an optional
+/// `eps_m`. Throws when the canvas is missing or the data are empty.
+#[wasm_bindgen(js_name = drawKDistanceChart)]
+pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsValue> {
+    use plotters::prelude::*;
+    use plotters_canvas::CanvasBackend;
+    let d: KDistChartData = from_js(data)?;
+    let n = d.sorted_desc_m.len();
+    if n == 0 {
+        return Err(js_error("bad_options", "no k-distances to draw", None));
+    }
+    let backend = CanvasBackend::new(canvas_id).ok_or_else(|| {
+        js_error(
+            "no_canvas",
+            &format!("no canvas with id \"{canvas_id}\" on the page"),
+            None,
+        )
+    })?;
+    let draw_err = |e: &dyn std::fmt::Display| js_error("draw", &e.to_string(), None);
+    let root = backend.into_drawing_area();
+    root.fill(&WHITE).map_err(|e| draw_err(&e))?;
+    let ymax = d
+        .sorted_desc_m
+        .iter()
+        .copied()
+        .filter(|v| v.is_finite())
+        .fold(0.0f64, f64::max)
+        .max(d.eps_m.unwrap_or(0.0))
+        * 1.05;
+    let ymax = if ymax > 0.0 { ymax } else { 1.0 };
+    let mut chart = ChartBuilder::on(&root)
+        .margin(8)
+        .x_label_area_size(34)
+        .y_label_area_size(56)
+        .build_cartesian_2d(0f64..(n as f64), 0f64..ymax)
+        .map_err(|e| draw_err(&e))?;
+    let nth = if d.min_samples > 1 {
+        format!("distance to {}th nearest event (m)", d.min_samples - 1)
+    } else {
+        "distance (m)".to_string()
+    };
+    chart
+        .configure_mesh()
+        .light_line_style(RGBColor(236, 238, 234))
+        .x_desc("events, sorted from the most isolated")
+        .y_desc(nth)
+        .x_label_formatter(&|v| format!("{v:.0}"))
+        .y_label_formatter(&|v| format!("{v:.0}"))
+        .label_style(("sans-serif", 12))
+        .axis_desc_style(("sans-serif", 13))
+        .draw()
+        .map_err(|e| draw_err(&e))?;
+    // At most ~2 000 vertices: the curve is monotone, so a stride keeps its shape.
+    let stride = (n / 2000).max(1);
+    let line = RGBColor(30, 72, 110);
+    chart
+        .draw_series(LineSeries::new(
+            (0..n)
+                .step_by(stride)
+                .chain(std::iter::once(n - 1))
+                .filter_map(|i| d.sorted_desc_m.get(i).map(|&v| (i as f64, v))),
+            line.stroke_width(2),
+        ))
+        .map_err(|e| draw_err(&e))?;
+    if let (Some(i), Some(v)) = (d.knee_index, d.knee_eps_m) {
+        let knee = RGBColor(176, 74, 20);
+        chart
+            .draw_series(std::iter::once(Circle::new(
+                (i as f64, v),
+                6,
+                knee.stroke_width(2),
+            )))
+            .map_err(|e| draw_err(&e))?
+            .label(format!("suggested eps {v:.0} m"))
+            .legend(move |(x, y)| Circle::new((x + 8, y), 5, knee.stroke_width(2)));
+    }
+    if let Some(eps) = d.eps_m.filter(|v| v.is_finite() && *v > 0.0) {
+        let c = RGBColor(90, 90, 90);
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![(0.0, eps), (n as f64, eps)],
+                c.stroke_width(1),
+            )))
+            .map_err(|e| draw_err(&e))?
+            .label(format!("eps in use {eps:.0} m"))
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], c.stroke_width(1)));
+    }
+    chart
+        .configure_series_labels()
+        .background_style(WHITE.mix(0.85))
+        .border_style(RGBColor(180, 180, 180))
+        .label_font(("sans-serif", 12))
+        .position(SeriesLabelPosition::UpperRight)
+        .draw()
+        .map_err(|e| draw_err(&e))?;
+    root.present().map_err(|e| draw_err(&e))?;
+    Ok(())
+}

@@ -1270,7 +1270,7 @@ impl Session {
         let m = state(self)
             .and_then(|st| st.mask.as_ref())
             .ok_or_else(|| js_error("nothing_masked", "mask the points first", None))?;
-        let c = compare(
+        let mut c = compare(
             s.events.x(),
             s.events.y(),
             &m.masked.x,
@@ -1279,6 +1279,27 @@ impl Session {
             &p,
         )
         .map_err(|e| analysis_error(&e))?;
+        // L(r) − r of both patterns on one r grid (isotropic correction), so
+        // the analyst sees how masking moves the clustering curve.
+        if let Some(masked) = crate::study::Pattern::from_xy(m.masked.x.clone(), m.masked.y.clone())
+        {
+            use crate::distance::functions::{distance_functions, FunctionParams};
+            let fp = FunctionParams::default();
+            if let Ok(o) = distance_functions(&s.events, &s.window, &fp) {
+                let fp2 = FunctionParams {
+                    r_max: Some(o.r_max),
+                    ..fp
+                };
+                if let Ok(k) = distance_functions(&masked, &s.window, &fp2) {
+                    let lr = |d: &crate::distance::functions::DistanceFunctions| -> Vec<f64> {
+                        d.l.iter().zip(&d.r).map(|(l, r)| l - r).collect()
+                    };
+                    if k.r.len() == o.r.len() {
+                        let _ = c.attach_l_curves(o.r.clone(), lr(&o), lr(&k));
+                    }
+                }
+            }
+        }
         to_js(&c)
     }
 

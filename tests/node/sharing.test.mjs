@@ -373,3 +373,24 @@ test('new data drops the masked copy and the counts', () => {
   assert.equal(s.maskResult(), null);
   assert.equal(throws(() => s.exportFile('aggregates', {})).code, 'nothing_aggregated');
 });
+
+test('cost of masking includes L(r) − r of both patterns, and a wide shift weakens clustering', () => {
+  // The demo has planted clusters of σ ≈ 200–250 m (demo-data/README.md).
+  // Donut-shifting every point by 400–800 m spreads them, so the peak of
+  // L(r) − r (Besag's L with Ripley's isotropic correction) must drop.
+  const s = demo();
+  s.maskDonut({ r_min_m: 400, r_max_m: 800, seed: 7 });
+  const c = s.maskingCost({});
+  const lc = c.l_curves;
+  assert.ok(lc, 'l_curves present');
+  assert.equal(lc.r_m.length, lc.original.length);
+  assert.equal(lc.r_m.length, lc.masked.length);
+  assert.ok(lc.r_m.length > 10);
+  const finite = (a) => a.slice(1).every(Number.isFinite);
+  assert.ok(finite(lc.original) && finite(lc.masked));
+  const peak = (a) => Math.max(...a.slice(1));
+  assert.ok(peak(lc.original) > 0, 'the demo is clustered');
+  assert.ok(peak(lc.masked) < peak(lc.original), `masked peak ${peak(lc.masked)} vs original ${peak(lc.original)}`);
+  const maxDiff = Math.max(...lc.original.map((v, i) => Math.abs(v - lc.masked[i])).slice(1));
+  assert.ok(Math.abs(maxDiff - lc.max_abs_difference_m) < 1e-6 * Math.max(1, maxDiff));
+});

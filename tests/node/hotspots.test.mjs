@@ -1,0 +1,292 @@
+// "Where are the hotspots?" through the JS API (dist/node: the same wasm core
+// the page's worker runs). Run: node --test tests/node/
+import { test } from 'node:test';
+import assert from 'node:assert/strict';
+import { readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+
+const require = createRequire(import.meta.url);
+const { Session } = require('../../dist/node/cloister.js');
+const root = new URL('../../', import.meta.url);
+const file = (p) => new Uint8Array(readFileSync(new URL(p, root)));
+// The demo generator's record of what it planted (demo-data/README.md).
+const truth = JSON.parse(readFileSync(new URL('demo-data/planted-truth.json', root)));
+
+function demo({ controls = false } = {}) {
+  const s = new Session();
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  if (controls) s.loadControls(file('demo-data/population.csv'), {});
+  return s;
+}
+
+function throws(fn) {
+  try { fn(); } catch (e) { return e; }
+  assert.fail('expected an error to be thrown');
+}
+
+/** Great-circle distance on a sphere of radius 6 371 008.8 m (haversine);
+ * exact enough to compare points a few hundred metres apart. */
+function metresApart(lon1, lat1, lon2, lat2) {
+  const r = Math.PI / 180;
+  const a = Math.sin(((lat2 - lat1) * r) / 2) ** 2 + Math.cos(lat1 * r) * Math.cos(lat2 * r) * Math.sin(((lon2 - lon1) * r) / 2) ** 2;
+  return 2 * 6371008.8 * Math.asin(Math.sqrt(a));
+}
+
+function runScan(s, params) {
+  const { total } = s.scanStart(params);
+  let done = 0;
+  let k = 7; // odd batch sizes on purpose: the result must not depend on them
+  while (done < total) { done = s.scanStep(k); k = k * 2 + 1; }
+  return s.scanFinish();
+}
+
+test('surface: with Jones–Diggle edge correction it integrates to n (Jones 1993)', () => {
+  const s = demo();
+  for (const kernel of ['gaussian', 'quartic']) {
+    const r = s.intensitySurface({ kernel, method: 'fixed', fixed_m: 400, edge: 'jones_diggle' });
+    // Each event keeps exactly one unit of mass inside the area; the grid
+    // quadrature resolves the boundary to one cell (METHODS §7).
+    assert.ok(Math.abs(r.integral_events - 1500) / 1500 < 5e-3, `${kernel}: ${r.integral_events}`);
+    // The same integral recomputed here from the returned grid (values per km², cells in km²).
+    let sum = 0;
+    for (let k = 0; k < r.values.length; k++) if (r.mask[k]) sum += r.values[k];
+    const cellKm2 = (r.cell_m / 1000) ** 2;
+    assert.ok(Math.abs(sum * cellKm2 - r.integral_events) < 1e-6 * r.integral_events);
+    assert.equal(r.values.length, r.nx * r.ny);
+    assert.equal(r.bandwidth_m, 400);
+  }
+  // Without correction mass leaks out across the town edge and into the lake.
+  const none = s.intensitySurface({ method: 'fixed', fixed_m: 400, edge: 'none' });
+  assert.ok(none.integral_events < 1500 * 0.99, `uncorrected ${none.integral_events}`);
+});
+
+test('surface: bandwidth methods, the rule of thumb by hand, isopleths nest', () => {
+  const s = demo();
+  const r = s.intensitySurface({});
+  assert.equal(r.method, 'normal_reference');
+  // Scott (1992) / Silverman (1986) in 2-d: σ̂·n^(−1/6), σ̂² = (s_x² + s_y²)/2 on the projected events.
+  const m = s.mapLayers().events;
+  const n = m.length / 2;
+  let mx = 0, my = 0;
+  for (let i = 0; i < n; i++) { mx += m[2 * i]; my += m[2 * i + 1]; }
+  mx /= n; my /= n;
+  let sxx = 0, syy = 0;
+  for (let i = 0; i < n; i++) { sxx += (m[2 * i] - mx) ** 2; syy += (m[2 * i + 1] - my) ** 2; }
+  const h = Math.sqrt((sxx / (n - 1) + syy / (n - 1)) / 2) * n ** (-1 / 6);
+  assert.ok(Math.abs(r.bandwidth_m - h) < 1e-6 * h, `${r.bandwidth_m} vs ${h}`);
+  // 50 % ⊂ 75 % ⊂ 95 %: levels fall and areas grow.
+  const iso = r.isopleths;
+  assert.deepEqual(iso.map((c) => c.percent), [0.5, 0.75, 0.95]);
+  assert.ok(iso[0].level_per_km2 > iso[1].level_per_km2 && iso[1].level_per_km2 > iso[2].level_per_km2);
+  assert.ok(iso[0].area_km2 < iso[1].area_km2 && iso[1].area_km2 < iso[2].area_km2);
+  for (const method of ['likelihood_cv', 'diggle_mse']) {
+    const c = s.intensitySurface({ method });
+    assert.equal(c.method, method);
+    assert.equal(c.candidates_m.length, 20);
+    assert.ok(c.bandwidth_m > c.candidates_m[0] && c.bandwidth_m <= c.candidates_m[19]);
+    // The clustered demo wants less smoothing than the rule of thumb, which
+    // assumes one normal blob (Scott 1992 notes it oversmooths multimodal data).
+    assert.ok(c.bandwidth_m < r.bandwidth_m, `${method} ${c.bandwidth_m} < ${r.bandwidth_m}`);
+  }
+  const e = throws(() => s.intensitySurface({ method: 'fixed' }));
+  assert.equal(e.code, 'bad_parameter');
+});
+
+test('surface: privacy count matches a direct 5th-nearest-neighbour count', () => {
+  const s = demo();
+  const m = s.mapLayers().events;
+  const n = m.length / 2;
+  const r = s.intensitySurface({ method: 'fixed', fixed_m: 60 });
+  const radius = 120; // twice the Gaussian SD
+  assert.equal(r.privacy.radius_m, radius);
+  let exposed = 0;
+  for (let i = 0; i < n; i++) {
+    let c = 0;
+    for (let j = 0; j < n; j++) {
+      const d2 = (m[2 * i] - m[2 * j]) ** 2 + (m[2 * i + 1] - m[2 * j + 1]) ** 2;
+      if (d2 <= radius * radius) c++;
+    }
+    if (c < 5) exposed++;
+  }
+  assert.equal(r.privacy.exposed_events, exposed);
+  assert.ok(exposed > 0 && r.privacy.warning.includes(String(exposed)));
+  const wide = s.intensitySurface({ method: 'fixed', fixed_m: 1500 });
+  assert.equal(wide.privacy.warning, null);
+});
+
+test('isopleths as GeoJSON: lon/lat polygons, closed rings, areas as reported', () => {
+  const s = demo();
+  const e = throws(() => s.isoplethsGeoJson([0.5]));
+  assert.equal(e.code, 'nothing_computed');
+  const r = s.intensitySurface({ method: 'fixed', fixed_m: 300 });
+  const gj = JSON.parse(s.isoplethsGeoJson([0.5, 0.95]));
+  assert.equal(gj.type, 'FeatureCollection');
+  assert.equal(gj.features.length, 2);
+  for (const [i, f] of gj.features.entries()) {
+    assert.equal(f.geometry.type, 'MultiPolygon');
+    assert.equal(f.properties.percent_volume, [0.5, 0.95][i]);
+    const want = r.isopleths[[0, 2][i]];
+    assert.ok(Math.abs(f.properties.area_km2 - want.area_km2) < 1e-12);
+    for (const poly of f.geometry.coordinates) for (const ring of poly) {
+      assert.deepEqual(ring[0], ring[ring.length - 1]);
+      for (const [lon, lat] of ring) assert.ok(Math.abs(lon + 32) < 0.1 && Math.abs(lat + 41.5) < 0.1);
+    }
+  }
+  assert.equal(throws(() => s.isoplethsGeoJson([1.5])).code, 'bad_options');
+});
+
+/** DBSCAN as Ester et al. (1996) define it with scikit-learn's order of
+ * growth (visit points in input order, grow depth-first through core
+ * points, a border point keeps its first cluster), written out directly
+ * with O(n²) distances: an independent check on the engine's bucketed one. */
+function directDbscan(xy, eps, minSamples) {
+  const n = xy.length / 2;
+  const nb = [];
+  for (let i = 0; i < n; i++) {
+    const l = [];
+    for (let j = 0; j < n; j++) {
+      const d2 = (xy[2 * i] - xy[2 * j]) ** 2 + (xy[2 * i + 1] - xy[2 * j + 1]) ** 2;
+      if (d2 <= eps * eps) l.push(j);
+    }
+    nb.push(l);
+  }
+  const core = nb.map((l) => l.length >= minSamples);
+  const labels = new Array(n).fill(-1);
+  let next = 0;
+  for (let i = 0; i < n; i++) {
+    if (labels[i] !== -1 || !core[i]) continue;
+    const stack = [i];
+    labels[i] = next;
+    while (stack.length) {
+      const p = stack.pop();
+      if (!core[p]) continue;
+      for (const q of nb[p]) {
+        if (labels[q] === -1) {
+          labels[q] = next;
+          if (core[q]) stack.push(q);
+        }
+      }
+    }
+    next++;
+  }
+  return { labels, core };
+}
+
+test('DBSCAN on the demo equals a direct computation, label for label', () => {
+  const s = demo();
+  const xy = s.mapLayers().events;
+  for (const [eps, k] of [[150, 8], [250, 12], [90, 4]]) {
+    const r = s.dbscan({ eps_m: eps, min_samples: k });
+    const d = directDbscan(xy, eps, k);
+    assert.ok(r.labels instanceof Int32Array);
+    assert.deepEqual(Array.from(r.labels), d.labels, `eps ${eps}, min ${k}`);
+    assert.deepEqual(Array.from(r.core, Boolean), d.core);
+    assert.equal(r.noise, d.labels.filter((l) => l < 0).length);
+    assert.equal(r.n_clusters, Math.max(-1, ...d.labels) + 1);
+    for (const c of r.clusters) assert.equal(c.members, d.labels.filter((l) => l === c.id).length);
+  }
+  // Planted cluster A (120 events, σ = 250 m) is found at eps 150 m / 8 points.
+  const r = s.dbscan({ eps_m: 150, min_samples: 8 });
+  const a = truth.clusters[0].centre_lonlat;
+  const hit = r.clusters.find((c) => metresApart(c.centre_lon, c.centre_lat, a.longitude, a.latitude) < 300);
+  assert.ok(hit && hit.members >= 50, 'a cluster at planted A');
+  assert.equal(throws(() => s.dbscan({ eps_m: 0 })).code, 'bad_parameter');
+});
+
+test('k-distance: sorted largest first, each the distance to the (k−1)-th other event', () => {
+  const s = demo();
+  const xy = s.mapLayers().events;
+  const n = xy.length / 2;
+  const kd = s.kDistance(6);
+  assert.equal(kd.sorted_desc_m.length, n);
+  const direct = [];
+  for (let i = 0; i < n; i++) {
+    const d = [];
+    for (let j = 0; j < n; j++) d.push(Math.hypot(xy[2 * i] - xy[2 * j], xy[2 * i + 1] - xy[2 * j + 1]));
+    d.sort((a, b) => a - b);
+    direct.push(d[5]); // 6th nearest counting itself (d[0] = 0)
+  }
+  direct.sort((a, b) => b - a);
+  for (let i = 0; i < n; i++) assert.ok(Math.abs(kd.sorted_desc_m[i] - direct[i]) < 1e-9);
+  assert.equal(kd.knee_eps_m, kd.sorted_desc_m[kd.knee_index]);
+});
+
+test('scan finds the three planted clusters with p at its floor (Kulldorff 1997)', () => {
+  for (const controls of [true, false]) {
+    const s = demo({ controls });
+    const r = runScan(s, { n_sim: 99, seed: 11 });
+    assert.equal(r.model, controls ? 'bernoulli' : 'poisson');
+    // p = (1 + #{T_j ≥ T_obs}) / (m + 1) (Kulldorff 1997), so with 99 replicates p ≥ 0.01.
+    assert.equal(r.smallest_p, 0.01);
+    assert.ok(r.p_value >= 0.01 && r.p_value < 0.05, `p = ${r.p_value}`);
+    const sig = r.clusters.filter((c) => c.p_value < 0.05);
+    for (const planted of truth.clusters) {
+      const c = planted.centre_lonlat;
+      // The planted centre lies inside a significant circle (within one circle radius of its centre).
+      const hit = sig.find((k) => metresApart(k.centre_lon, k.centre_lat, c.longitude, c.latitude) <= Math.max(k.radius_m, r.cell_m));
+      assert.ok(hit, `${controls ? 'Bernoulli' : 'Poisson'}: planted ${planted.label} inside a circle with p < 0.05`);
+      assert.ok(hit.observed > hit.expected && hit.relative_risk > 1);
+    }
+  }
+});
+
+test('scan: the same seed gives the same answer; another seed changes the replicates only', () => {
+  const s = demo({ controls: true });
+  const a = runScan(s, { n_sim: 49, seed: 123456789 });
+  const b = runScan(s, { n_sim: 49, seed: 123456789 });
+  assert.deepEqual(a, b);
+  const c = runScan(s, { n_sim: 49, seed: 987 });
+  assert.notDeepEqual(c.null_maxima, a.null_maxima);
+  assert.equal(c.statistic, a.statistic);
+  assert.equal(a.seed, 123456789);
+});
+
+test('scan: starting again drops a half-run job; finishing twice is refused', () => {
+  const s = demo({ controls: true });
+  const full = runScan(s, { n_sim: 39, seed: 5 });
+  const st = s.scanStart({ n_sim: 1000, seed: 5 });
+  assert.equal(st.total, 1000);
+  assert.ok(s.scanStep(3) === 3 && s.scanStep(4) === 7);
+  // Start again (as after a cancel): the new job starts from zero.
+  assert.equal(s.scanStart({ n_sim: 39, seed: 5 }).total, 39);
+  assert.equal(s.scanStep(1), 1);
+  let done = 1;
+  while (done < 39) done = s.scanStep(10);
+  assert.deepEqual(s.scanFinish(), full);
+  assert.equal(throws(() => s.scanFinish()).code, 'nothing_started');
+  assert.equal(throws(() => s.scanStep(1)).code, 'nothing_started');
+  // New data drop a job too.
+  s.scanStart({ n_sim: 10, seed: 1 });
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  assert.equal(throws(() => s.scanStep(1)).code, 'nothing_started');
+  // Bad options are refused with a message.
+  assert.equal(throws(() => s.scanStart({ max_share: 0.8 })).code, 'bad_parameter');
+  assert.equal(throws(() => s.scanStart({ seed: -1 })).code, 'bad_options');
+  assert.equal(throws(() => s.scanStart({ n_sim: 0 })).code, 'bad_options');
+});
+
+test('nothing loaded: every hotspot method says so', () => {
+  const s = new Session();
+  for (const f of [() => s.intensitySurface({}), () => s.dbscan({ eps_m: 100 }), () => s.kDistance(5), () => s.scanStart({}), () => s.hotspotsInfo()]) {
+    assert.equal(throws(f).code, 'nothing_loaded');
+  }
+});
+
+test('MSE criterion on random events: "no finite optimum" is said, not the end of the range', () => {
+  // 400 events uniform in a 5 km square (seeded LCG): under complete spatial
+  // randomness the Diggle / Berman–Diggle criterion keeps falling as the
+  // bandwidth grows (METHODS §7), so no bandwidth may be reported.
+  let st = 2n;
+  const next = () => { st = (st * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn; return Number(st >> 11n) / 2 ** 53; };
+  let csv = 'x,y\n';
+  for (let i = 0; i < 400; i++) csv += `${(5000 * next()).toFixed(2)},${(5000 * next()).toFixed(2)}\n`;
+  const s = new Session();
+  s.loadEvents(new TextEncoder().encode(csv), { coords: { kind: 'planar', unit: 'metre' } });
+  s.setAreaFallback('bounding_box');
+  const e = throws(() => s.intensitySurface({ method: 'diggle_mse' }));
+  assert.equal(e.code, 'bad_parameter');
+  assert.match(e.message, /no finite optimum/);
+  // The other methods still answer on the same data.
+  assert.ok(s.intensitySurface({ method: 'likelihood_cv' }).bandwidth_m > 0);
+});
