@@ -440,7 +440,7 @@ fn draw_chart<DB: DrawingBackend>(
     let ink = RGBColor(34, 34, 34);
     let band_fill = match o.band {
         Band::Global => RGBColor(176, 208, 226),
-        Band::Pointwise => RGBColor(214, 214, 206),
+        Band::Pointwise => RGBColor(206, 200, 182),
     };
     let obs_colour = RGBColor(176, 58, 18);
     area.fill(&WHITE).map_err(plot_err)?;

@@ -141,9 +141,15 @@ test('a long run can be cancelled and the page recovers', async () => {
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
   assert.equal(await page.isDisabled('#clu-run'), false);
   assert.equal(await page.isDisabled('#clu-cancel'), true);
-  // A new run works.
+  // A new run works; with "new seed for every run" ticked (the default) it
+  // uses a fresh seed, and the result names the seed it used.
+  assert.equal(await page.isChecked('#clu-fresh'), true);
+  const before = await page.inputValue('#clu-seed');
   await runEnvelope(page, 19);
   assert.match(await page.textContent('#clu-verdict'), /^Clustered/);
+  const used = await page.inputValue('#clu-seed');
+  assert.notEqual(used, before);
+  assert.equal((await page.textContent('#clu-details dd[data-key="seed"]')).trim(), used);
   assert.deepEqual(log.pageErrors, []);
 });
 
