@@ -6,7 +6,7 @@
 //! * `clarkEvans(params)`: Clark–Evans R with and without Donnelly's
 //!   correction, Monte Carlo p (`n_sim`, `seed`); see
 //!   [`crate::distance::clark_evans`].
-//! * `envelopeStart(params) -> {total, distances}`: prepares a Monte Carlo
+//! * `envelopeStart(params) -> {total, distances, seed}`: prepares a Monte Carlo
 //!   envelope run (`function`, `n_sim`, `seed`, `alpha`, `reference`,
 //!   `r_min`, `r_max`, `n_steps`, `correction`, `nn_correction`,
 //!   `bandwidth`); the observed curve is computed here.
