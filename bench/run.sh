@@ -14,3 +14,4 @@ node --max-old-space-size=4096 bench/intake-node.mjs $SIZES
 echo "== intake: headless Chromium page (worker)"
 node bench/intake-browser.mjs $SIZES
 echo "== hotspots: headless Chromium page (worker)"; node bench/hotspots-browser.mjs
+echo "== clustering envelopes: headless Chromium page (worker)"; node bench/clustering-browser.mjs 10000 199 k l demo

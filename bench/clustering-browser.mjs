@@ -1,0 +1,91 @@
+// Envelope benchmark in headless Chromium, through the page and its worker:
+// a generated CSV of CSR points is read with the events file input, then
+// Cloister.runJob (envelopeStart / envelopeStep / envelopeFinish) is timed in
+// the page, as the Run button uses it. Also timed: how long a Cancel takes to
+// stop a long run (click to rejection).
+// Target A: K and L, isotropic correction, n = 10,000 CSR points in a
+// 1000 m square, 199 simulations, 50 distance steps. Target: under 15 s.
+// Usage: node bench/clustering-browser.mjs [n] [n_sim] [functions...]
+//   e.g. node bench/clustering-browser.mjs 10000 199 k l
+//   add "demo" as a function to also time L on the demo (1,500 events, town
+//   boundary polygon).
+// Prints one JSON line per run. Never run from the tests.
+import { writeFileSync, mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { launch, openPage, loadDemo } from '../tests/e2e/helpers.mjs';
+
+function makeCsv(n, seed) {
+  let s = BigInt(seed);
+  const next = () => {
+    s = (s * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn;
+    return Number(s >> 11n) / 2 ** 53;
+  };
+  const parts = ['id,x,y\n'];
+  for (let i = 0; i < n; i++) parts.push(`${i},${(1000 * next()).toFixed(3)},${(1000 * next()).toFixed(3)}\n`);
+  return parts.join('');
+}
+
+const args = process.argv.slice(2);
+const n = Number(args[0]) || 10000;
+const nSim = Number(args[1]) || 199;
+const functions = args.slice(2).length ? args.slice(2) : ['k', 'l'];
+
+/** Times one job in the page; returns seconds and what the engine reported. */
+async function timeJob(page, params) {
+  return page.evaluate(async (params) => {
+    const t0 = performance.now();
+    let first = null;
+    const job = window.Cloister.runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params }, (p) => {
+      if (first === null && p.done > 0) first = performance.now() - t0;
+    });
+    const res = await job.promise;
+    return { seconds: (performance.now() - t0) / 1000, first_batch_s: first / 1000, n: res.n, n_sim: res.n_sim, distances: res.r.length, r_max_m: res.r[res.r.length - 1], outcome: res.verdict.outcome };
+  }, params);
+}
+
+/** Starts a long run, cancels after the first progress report, times the stop. */
+async function timeCancel(page, params) {
+  return page.evaluate(async (params) => {
+    let cancelAt = null;
+    let job = null;
+    const firstProgress = new Promise((resolve) => {
+      job = window.Cloister.runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params }, (p) => { if (p.done > 0) resolve(); });
+    });
+    await firstProgress;
+    await new Promise((r) => setTimeout(r, 300));
+    cancelAt = performance.now();
+    job.cancel();
+    try { await job.promise; return { stopped: false }; } catch (e) { return { stopped: e.code === 'cancelled', cancel_to_stop_s: (performance.now() - cancelAt) / 1000 }; }
+  }, params);
+}
+
+const dir = mkdtempSync(join(tmpdir(), 'cloister-bench-'));
+const path = join(dir, `csr-${n}.csv`);
+writeFileSync(path, makeCsv(n, 42));
+const browser = await launch();
+try {
+  const { page } = await openPage(browser);
+  const want = `csr-${n}.csv: ${n.toLocaleString('en-US')} of`;
+  await page.setInputFiles('#events-file', path);
+  await page.waitForFunction((w) => document.getElementById('status').textContent.includes(w), want, { timeout: 300000 });
+  // The square itself: a rectangle around the points (the points fill it).
+  await page.click('#area-mode-box');
+  await page.waitForFunction(() => document.body.dataset.busy === '0', null, { timeout: 120000 });
+  for (const f of functions.filter((f) => f !== 'demo')) {
+    const r = await timeJob(page, { function: f, correction: 'isotropic', n_sim: nSim, seed: 7, n_steps: 50 });
+    console.log(JSON.stringify({ where: 'chromium page (worker)', target: 'A', window: 'rectangle around CSR points in a 1000 m square', function: f, correction: 'isotropic', ...r, target_s: 15 }));
+  }
+  const c = await timeCancel(page, { function: 'l', correction: 'isotropic', n_sim: 9999, seed: 8 });
+  console.log(JSON.stringify({ where: 'chromium page (worker)', what: 'cancel a 9999-simulation run', n, ...c }));
+  if (functions.includes('demo')) {
+    const { page: p2 } = await openPage(browser);
+    await loadDemo(p2);
+    const r = await timeJob(p2, { function: 'l', n_sim: nSim, seed: 7 });
+    console.log(JSON.stringify({ where: 'chromium page (worker)', window: 'demo town boundary (polygon)', function: 'l', correction: 'isotropic', ...r }));
+    const c2 = await timeCancel(p2, { function: 'l', n_sim: 9999, seed: 8 });
+    console.log(JSON.stringify({ where: 'chromium page (worker)', what: 'cancel a 9999-simulation run (demo)', ...c2 }));
+  }
+} finally {
+  await browser.close();
+}

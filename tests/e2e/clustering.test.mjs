@@ -1,0 +1,184 @@
+// (Is it clustered?) In the page: load the demo, run an envelope test with a
+// few simulations and see the chart drawn and the verdict "clustered"; start
+// a long run and cancel it, then run again; save the CSV and the PNG and read
+// them back; quadrat and Clark–Evans boxes; results cleared when data change.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { launch, openPage, loadDemo, act, settle, frame, outDir } from './helpers.mjs';
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+const OBSERVED = [176, 58, 18]; // colour of the observed curve (src/web/clustering.rs)
+
+/** Pixels of the chart canvas: non-white, and of the observed-curve colour. */
+async function chartCensus(page) {
+  return page.evaluate((obs) => {
+    const c = document.getElementById('clu-chart');
+    const d = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;
+    let ink = 0;
+    let observed = 0;
+    for (let i = 0; i < d.length; i += 4) {
+      if (d[i] !== 255 || d[i + 1] !== 255 || d[i + 2] !== 255) ink++;
+      if (d[i] === obs[0] && d[i + 1] === obs[1] && d[i + 2] === obs[2]) observed++;
+    }
+    return { ink, observed, width: c.width, height: c.height };
+  }, OBSERVED);
+}
+
+async function runEnvelope(page, nSim) {
+  await page.fill('#clu-nsim', String(nSim));
+  await page.click('#clu-run');
+  await page.waitForFunction(() => ['done', 'error', 'cancelled'].includes(document.getElementById('clustering-body').dataset.run), null, { timeout: 180000 });
+  assert.equal(await page.getAttribute('#clustering-body', 'data-run'), 'done', await page.textContent('#error-text'));
+  await frame(page);
+}
+
+test('envelope run on the demo: chart drawn, verdict "clustered", CSV and PNG saved', async () => {
+  const out = outDir();
+  const { page, log } = await openPage(browser, { width: 1366, height: 900 });
+  await loadDemo(page);
+  assert.equal(await page.isDisabled('#clu-run'), false);
+  // A fresh seed from the browser's generator is shown and editable.
+  const seed0 = await page.inputValue('#clu-seed');
+  assert.match(seed0, /^\d+$/);
+  await page.fill('#clu-seed', '777');
+  assert.equal(await page.isChecked('#clu-fresh'), false, 'typing a seed keeps it for the next run');
+  await runEnvelope(page, 19);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  const verdict = await page.textContent('#clu-verdict');
+  assert.match(verdict, /^Clustered/, verdict);
+  assert.equal(await page.getAttribute('#clu-verdict', 'data-outcome'), 'clustered');
+  assert.match(await page.textContent('#clu-caveats'), /population at risk is uneven/);
+  assert.equal((await page.textContent('#clu-details dd[data-key="seed"]')).trim(), '777');
+  assert.match(await page.textContent('#clu-details dd[data-key="mad_p"]'), /p = 0\.05 /, 'with 19 simulations the smallest p is 1/20');
+  assert.equal(await page.getAttribute('#clu-chart', 'data-drawn'), '1');
+  const census = await chartCensus(page);
+  assert.ok(census.ink > census.width * census.height * 0.05, `chart mostly blank: ${JSON.stringify(census)}`);
+  assert.ok(census.observed > 100, `observed curve not drawn: ${JSON.stringify(census)}`);
+  assert.match(await page.getAttribute('#clu-chart', 'aria-label'), /L\(r\) − r \(m\)/);
+  await page.locator('#clustering').screenshot({ path: join(out, 'clustering-envelope.png') });
+
+  // Same seed again: identical verdict text (reproducible).
+  await runEnvelope(page, 19);
+  assert.equal(await page.textContent('#clu-verdict'), verdict);
+
+  // Views: K as itself in km, pointwise band labelled as not a test.
+  await page.selectOption('#clu-function', 'k');
+  await runEnvelope(page, 19);
+  await page.selectOption('#clu-units', 'km');
+  await page.check('#clu-kind-pointwise');
+  await frame(page);
+  assert.match(await page.getAttribute('#clu-chart', 'aria-label'), /K\(r\) − πr² \(km²\).*pointwise band — not a test/);
+  assert.match(await page.textContent('#clu-band-note'), /not a test/);
+  await page.selectOption('#clu-view', 'function');
+  await frame(page);
+  assert.match(await page.getAttribute('#clu-chart', 'aria-label'), /K\(r\) \(km²\) against distance r \(km\)/);
+  assert.ok((await chartCensus(page)).observed > 100);
+  await page.locator('#clustering').screenshot({ path: join(out, 'clustering-k-pointwise-km.png') });
+
+  // CSV: one row per distance, numbers as the engine returned them.
+  const [csvDl] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#clu-csv'))]);
+  const csvPath = join(out, 'clustering-envelope.csv');
+  await csvDl.saveAs(csvPath);
+  assert.match(csvDl.suggestedFilename(), /^cloister-envelope-k-19sims-seed777\.csv$/);
+  const lines = readFileSync(csvPath, 'utf8').trim().split(/\r?\n/);
+  assert.equal(lines[0], 'r_m,observed,csr,global_low,global_high,pointwise_low,pointwise_high,simulation_mean');
+  assert.equal(lines.length, 52, '51 distances + header');
+  const row = lines[10].split(',').map(Number);
+  assert.ok(Math.abs(row[2] - Math.PI * row[0] * row[0]) < 1e-6 * row[2], 'CSR column of K is πr²');
+  assert.ok(row[5] <= row[6] && row[1] > 0);
+
+  // PNG: a real PNG of the canvas size.
+  const [pngDl] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#clu-png'))]);
+  const pngPath = join(out, 'clustering-downloaded-chart.png');
+  await pngDl.saveAs(pngPath);
+  const png = readFileSync(pngPath);
+  assert.deepEqual([...png.subarray(1, 4)], [0x50, 0x4e, 0x47]);
+  assert.equal(png.readUInt32BE(16), census.width);
+  assert.equal(png.readUInt32BE(20), census.height);
+
+  // The drawing export on the page's thread: a missing canvas or an incomplete
+  // result is a thrown error with a code, and the engine keeps working.
+  const errs = await page.evaluate(() => {
+    const out = [];
+    const eng = window.Cloister.engine();
+    for (const [id, res] of [['no-such-canvas', { r: [0, 1], observed: [0, 1] }], ['clu-chart', { function: 'l', r: [0, 1, 2], observed: [0, 1] }]]) {
+      try { eng.drawEnvelopeChart(id, res, {}); out.push('no error'); } catch (e) { out.push(`${e.code}: ${e.message}`); }
+    }
+    out.push(eng.version());
+    return out;
+  });
+  assert.match(errs[0], /^chart: .*no canvas with id "no-such-canvas"/);
+  assert.match(errs[1], /^chart: .*incomplete/);
+  assert.match(errs[2], /^\d/);
+
+  // New data clear the results.
+  await act(page, () => page.click('#area-mode-box'));
+  assert.equal(await page.isVisible('#clu-env-result'), false);
+  assert.equal(await page.getAttribute('#clustering-body', 'data-run'), 'idle');
+  assert.deepEqual(log.pageErrors, []);
+  assert.equal(log.requests.filter((u) => !/^(file|blob|data):/.test(u)).length, 0);
+});
+
+test('a long run can be cancelled and the page recovers', async () => {
+  const out = outDir();
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  await page.fill('#clu-nsim', '9999');
+  await page.click('#clu-run');
+  await page.waitForFunction(() => Number(document.getElementById('clu-progress').value) > 0, null, { timeout: 60000 });
+  assert.equal(await page.getAttribute('#clustering-body', 'data-run'), 'running');
+  assert.equal(await page.isDisabled('#clu-run'), true);
+  assert.match(await page.textContent('#clu-progress-text'), /\/ 9,999 simulations/);
+  await page.locator('#clu-env-box').screenshot({ path: join(out, 'clustering-running.png') });
+  await page.click('#clu-cancel');
+  await page.waitForFunction(() => document.getElementById('clustering-body').dataset.run === 'cancelled', null, { timeout: 30000 });
+  await settle(page);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await page.isDisabled('#clu-run'), false);
+  assert.equal(await page.isDisabled('#clu-cancel'), true);
+  // A new run works; with "new seed for every run" ticked (the default) it
+  // uses a fresh seed, and the result names the seed it used.
+  assert.equal(await page.isChecked('#clu-fresh'), true);
+  const before = await page.inputValue('#clu-seed');
+  await runEnvelope(page, 19);
+  assert.match(await page.textContent('#clu-verdict'), /^Clustered/);
+  const used = await page.inputValue('#clu-seed');
+  assert.notEqual(used, before);
+  assert.equal((await page.textContent('#clu-details dd[data-key="seed"]')).trim(), used);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('quadrat and Clark–Evans boxes show finite numbers for the demo', async () => {
+  const out = outDir();
+  const { page, log } = await openPage(browser, { width: 1366, height: 900 });
+  await loadDemo(page);
+  await page.fill('#clu-quad-nsim', '99');
+  await act(page, () => page.click('#clu-quad-run'));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.match(await page.textContent('#clu-quad-result dd[data-key="chi_square"]'), /^[\d,.]+ on \d+ degrees of freedom/);
+  assert.match(await page.textContent('#clu-quad-result dd[data-key="p_mc"]'), /0\.01 for clustering/);
+  assert.match(await page.textContent('#clu-quad-warnings'), /fewer than 5/);
+  await page.fill('#clu-nx', '4');
+  await page.fill('#clu-ny', '3');
+  await act(page, () => page.click('#clu-quad-run'));
+  assert.match(await page.textContent('#clu-quad-result dd[data-key="grid"]'), /^4 × 3 cells/);
+  await page.fill('#clu-ce-nsim', '99');
+  await act(page, () => page.click('#clu-ce-run'));
+  const ce = await page.textContent('#clu-ce-result dd[data-key="donnelly"]');
+  const m = /R = ([\d.]+), z = (−|-)?([\d.]+)/.exec(ce);
+  assert.ok(m, ce);
+  assert.ok(Number(m[1]) < 1 && Number(m[1]) > 0.5, ce);
+  assert.match(await page.textContent('#clu-ce-result dd[data-key="naive"]'), /R = 0\.\d+/);
+  await page.locator('#clu-quad-box').screenshot({ path: join(out, 'clustering-quadrat.png') });
+  await page.locator('#clu-ce-box').screenshot({ path: join(out, 'clustering-clark-evans.png') });
+  // Bad input: a clear message, no crash.
+  await page.fill('#clu-ce-nsim', '100000');
+  await act(page, () => page.click('#clu-ce-run'));
+  assert.match(await page.textContent('#error-text'), /number of simulations must be a whole number from 0 to 9999/);
+  assert.deepEqual(log.pageErrors, []);
+});

@@ -1,0 +1,429 @@
+/* Cloister panel "Is it clustered?": distance-function tests with
+ * simulation envelopes, the quadrat test and the Clark–Evans index.
+ * Every number comes from the engine (src/web/clustering.rs): the worker
+ * simulates and tests, the page's own engine instance draws the chart with
+ * plotters on a canvas. Files are saved by the browser from a Blob. */
+'use strict';
+
+(function () {
+  const C = window.Cloister;
+  if (!C) return;
+  const { el, fmt, fmtMetres, call, runJob, act, setStatus, showError, clearError } = C;
+  const $ = (id) => document.getElementById(id);
+
+  const FUNCTIONS = [
+    ['l', 'L \u2013 Ripley\u2019s K as a distance'],
+    ['k', 'K \u2013 Ripley\u2019s K'],
+    ['pair_correlation', 'g \u2013 pair correlation'],
+    ['nearest_neighbour', 'G \u2013 nearest neighbour'],
+    ['empty_space', 'F \u2013 empty space'],
+    ['j', 'J \u2013 G set against F'],
+  ];
+  const FUNCTION_HINTS = {
+    l: 'Neighbours within each distance, rescaled so chance is a flat line. Recommended first look.',
+    k: 'Average number of other events within each distance, per unit density.',
+    pair_correlation: 'Neighbours at (not within) each distance: shows the size of clusters more sharply.',
+    nearest_neighbour: 'Share of events whose nearest neighbour is within each distance.',
+    empty_space: 'Share of places in the area that have an event within each distance.',
+    j: 'Nearest-neighbour against empty-space distances: below 1 clustered, above 1 regular.',
+  };
+  const PAIR_FUNCTIONS = new Set(['l', 'k', 'pair_correlation']);
+  const CORRECTIONS = {
+    pair: [['isotropic', 'isotropic'], ['translation', 'translation'], ['border', 'border'], ['none', 'none']],
+    pair_g: [['isotropic', 'isotropic'], ['translation', 'translation'], ['none', 'none']],
+    nn: [['border', 'border'], ['none', 'none']],
+  };
+  const CORRECTION_HINTS = {
+    isotropic: 'counts each pair by the share of its circle inside the area',
+    translation: 'counts each pair by the overlap of the area with a shifted copy',
+    border: 'uses only events (or places) farther from the edge than the distance',
+    none: 'no correction: values near the edge are too low',
+  };
+  const MAX_SEED = Number.MAX_SAFE_INTEGER;
+
+  const state = {
+    job: null, // {cancel} while a run is going
+    runToken: 0,
+    result: null, // last envelope result
+    hasData: false,
+  };
+
+  // ---------- markup ----------
+
+  const field = (label, input, hint) => el('label', { class: 'clu-field' }, el('span', null, label), input, hint ? el('small', null, hint) : null);
+  const select = (id, options, value) => {
+    const s = el('select', { id });
+    for (const [v, t] of options) s.append(el('option', { value: v, selected: v === value ? true : null }, t));
+    return s;
+  };
+
+  const body = C.addSection('clustering', 'Is it clustered?',
+    'Compares the distances between events with what pure chance would give in the same study area ' +
+    '(complete spatial randomness: every place equally likely). Chance is simulated many times; ' +
+    'the chart shows where the events depart from it, and at which distances.');
+  body.dataset.run = 'idle';
+
+  const envBox = el('fieldset', { class: 'clu-box', id: 'clu-env-box' },
+    el('legend', null, 'Distances between events, against simulated chance'),
+    el('div', { class: 'clu-grid' },
+      field('Function', select('clu-function', FUNCTIONS, 'l'), ' '),
+      field('Edge correction', el('select', { id: 'clu-correction' }), ' '),
+      field('Simulations', el('input', { type: 'number', id: 'clu-nsim', value: 199, min: 1, max: 9999, step: 1 }), '199 is usual; 999 or more for a smaller p'),
+      el('fieldset', { class: 'clu-field clu-kind', role: 'radiogroup' },
+        el('legend', null, 'Band on the chart'),
+        el('label', null, el('input', { type: 'radio', name: 'clu-kind', value: 'global', id: 'clu-kind-global', checked: true }), ' global test band'),
+        el('label', null, el('input', { type: 'radio', name: 'clu-kind', value: 'pointwise', id: 'clu-kind-pointwise' }), ' pointwise \u2014 not a test')),
+      field('Random seed', el('input', { type: 'text', id: 'clu-seed', inputmode: 'numeric', autocomplete: 'off', spellcheck: 'false' }), 'type a seed from an earlier run to repeat it exactly'),
+      el('label', { class: 'check clu-fresh' }, el('input', { type: 'checkbox', id: 'clu-fresh', checked: true }), ' new seed for every run')),
+    el('div', { class: 'clu-actions' },
+      el('button', { type: 'button', id: 'clu-run', disabled: true }, 'Run'),
+      el('button', { type: 'button', id: 'clu-cancel', class: 'quiet', disabled: true }, 'Cancel'),
+      el('progress', { id: 'clu-progress', max: 1, value: 0, hidden: true }),
+      el('span', { id: 'clu-progress-text', class: 'hint', 'aria-live': 'polite' })),
+    el('div', { id: 'clu-env-result', class: 'clu-result', hidden: true },
+      el('div', { class: 'clu-grid clu-view' },
+        field('Show', select('clu-view', [['centred', 'difference from chance'], ['function', 'the function itself']], 'centred')),
+        field('Distances in', select('clu-units', [['auto', 'automatic'], ['m', 'metres'], ['km', 'kilometres']], 'auto'))),
+      el('div', { class: 'clu-chart-wrap' }, el('canvas', { id: 'clu-chart', width: 760, height: 420, role: 'img', 'aria-label': 'Envelope chart' })),
+      el('p', { id: 'clu-band-note', class: 'hint' }),
+      el('p', { id: 'clu-verdict', class: 'clu-verdict' }),
+      el('ul', { id: 'clu-caveats', class: 'clu-caveats' }),
+      el('dl', { id: 'clu-details', class: 'clu-dl' }),
+      el('ul', { id: 'clu-warnings', class: 'clu-warnings' }),
+      el('div', { class: 'clu-actions' },
+        el('button', { type: 'button', id: 'clu-png', class: 'quiet' }, 'Save chart (PNG)'),
+        el('button', { type: 'button', id: 'clu-csv', class: 'quiet' }, 'Save numbers (CSV)'))));
+  body.append(envBox);
+
+  const quadBox = el('fieldset', { class: 'clu-box', id: 'clu-quad-box' },
+    el('legend', null, 'Counts in a grid of cells (quadrat test)'),
+    el('div', { class: 'clu-grid' },
+      field('Columns', el('input', { type: 'number', id: 'clu-nx', min: 1, max: 100, step: 1, placeholder: 'automatic' })),
+      field('Rows', el('input', { type: 'number', id: 'clu-ny', min: 1, max: 100, step: 1, placeholder: 'automatic' })),
+      field('Simulations', el('input', { type: 'number', id: 'clu-quad-nsim', value: 999, min: 0, max: 9999, step: 1 }))),
+    el('div', { class: 'clu-actions' }, el('button', { type: 'button', id: 'clu-quad-run', disabled: true }, 'Count and test')),
+    el('div', { id: 'clu-quad-result', class: 'clu-result' }));
+  const ceBox = el('fieldset', { class: 'clu-box', id: 'clu-ce-box' },
+    el('legend', null, 'Nearest-neighbour ratio (Clark\u2013Evans)'),
+    el('div', { class: 'clu-grid' },
+      field('Simulations', el('input', { type: 'number', id: 'clu-ce-nsim', value: 999, min: 0, max: 9999, step: 1 }))),
+    el('div', { class: 'clu-actions' }, el('button', { type: 'button', id: 'clu-ce-run', disabled: true }, 'Compute')),
+    el('div', { id: 'clu-ce-result', class: 'clu-result' }));
+  body.append(el('div', { class: 'clu-pair' }, quadBox, ceBox));
+
+  // ---------- helpers ----------
+
+  function randomSeed() {
+    const a = new Uint32Array(2);
+    crypto.getRandomValues(a);
+    return (a[0] & 0x1fffff) * 4294967296 + a[1];
+  }
+  const newSeed = () => { $('clu-seed').value = String(randomSeed()); };
+
+  function readSeed() {
+    const s = $('clu-seed').value.trim();
+    if (!/^\d{1,16}$/.test(s) || Number(s) > MAX_SEED) {
+      throw { code: 'bad_parameter', message: `the seed must be a whole number from 0 to ${MAX_SEED}` };
+    }
+    return Number(s);
+  }
+
+  function readInt(id, lo, hi, what) {
+    const v = Number($(id).value);
+    if (!Number.isInteger(v) || v < lo || v > hi) throw { code: 'bad_parameter', message: `${what} must be a whole number from ${lo} to ${hi}` };
+    return v;
+  }
+
+  function fillCorrections() {
+    const f = $('clu-function').value;
+    const list = f === 'pair_correlation' ? CORRECTIONS.pair_g : PAIR_FUNCTIONS.has(f) ? CORRECTIONS.pair : CORRECTIONS.nn;
+    const s = $('clu-correction');
+    const old = s.value;
+    s.replaceChildren(...list.map(([v, t]) => el('option', { value: v }, t)));
+    s.value = list.some(([v]) => v === old) ? old : list[0][0];
+    hints();
+  }
+
+  function hints() {
+    $('clu-function').parentElement.querySelector('small').textContent = FUNCTION_HINTS[$('clu-function').value] || '';
+    $('clu-correction').parentElement.querySelector('small').textContent = CORRECTION_HINTS[$('clu-correction').value] || '';
+  }
+
+  const pText = (p) => (p === null || p === undefined ? '—' : p < 1e-4 ? 'below 0.0001' : fmt(p, 3));
+  const pEq = (p) => (p !== null && p !== undefined && p < 1e-4 ? 'p < 0.0001' : `p = ${pText(p)}`);
+
+  function dl(target, rows) {
+    target.replaceChildren();
+    for (const [k, v, key] of rows) {
+      target.append(el('dt', null, k), el('dd', key ? { 'data-key': key } : null, v));
+    }
+  }
+
+  function download(blob, name) {
+    const url = URL.createObjectURL(blob);
+    const a = el('a', { href: url, download: name, hidden: true });
+    document.body.append(a);
+    a.click();
+    a.remove();
+    setTimeout(() => URL.revokeObjectURL(url), 30000);
+  }
+
+  function setRun(kind) {
+    body.dataset.run = kind;
+    const running = kind === 'running';
+    $('clu-run').disabled = running || !state.hasData;
+    $('clu-cancel').disabled = !running;
+    $('clu-progress').hidden = !running;
+  }
+
+  // ---------- envelope run ----------
+
+  async function run() {
+    clearError();
+    let params;
+    try {
+      if ($('clu-fresh').checked) newSeed();
+      const f = $('clu-function').value;
+      params = { function: f, n_sim: readInt('clu-nsim', 1, 9999, 'the number of simulations'), seed: readSeed() };
+      if (PAIR_FUNCTIONS.has(f)) params.correction = $('clu-correction').value;
+      else params.nn_correction = $('clu-correction').value;
+    } catch (err) {
+      showError('Could not start the run', err);
+      return;
+    }
+    const token = ++state.runToken;
+    setRun('running');
+    $('clu-progress').max = params.n_sim;
+    $('clu-progress').value = 0;
+    $('clu-progress-text').textContent = `0 / ${fmt(params.n_sim)} simulations`;
+    setStatus('Simulating chance patterns…');
+    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params }, ({ done, total }) => {
+      if (token !== state.runToken) return;
+      $('clu-progress').max = total;
+      $('clu-progress').value = done;
+      $('clu-progress-text').textContent = `${fmt(done)} / ${fmt(total)} simulations`;
+    });
+    state.job = job;
+    try {
+      const res = await job.promise;
+      if (token !== state.runToken) return;
+      state.result = res;
+      state.job = null;
+      setRun('done');
+      $('clu-progress-text').textContent = `${fmt(res.n_sim)} simulations done`;
+      renderResult();
+      setStatus('Envelope test done.');
+    } catch (err) {
+      if (token !== state.runToken) return;
+      state.job = null;
+      if (err && err.code === 'cancelled') {
+        setRun('cancelled');
+        $('clu-progress-text').textContent = 'Cancelled.';
+        setStatus('Envelope run cancelled.');
+      } else {
+        setRun('error');
+        $('clu-progress-text').textContent = '';
+        if (!(err && (err.code === 'no_job' || err.code === 'engine_stopped'))) showError('The envelope test could not run', err);
+      }
+    }
+  }
+
+  function cancel() {
+    if (state.job) state.job.cancel();
+  }
+
+  function chartOptions() {
+    return {
+      view: $('clu-view').value,
+      units: $('clu-units').value,
+      band: $('clu-kind-pointwise').checked ? 'pointwise' : 'global',
+    };
+  }
+
+  function drawChart() {
+    const res = state.result;
+    if (!res) return;
+    const canvas = $('clu-chart');
+    const w = Math.max(420, Math.min(960, Math.floor((canvas.parentElement.clientWidth || 762) - 2)));
+    canvas.width = w;
+    canvas.height = Math.round(Math.min(460, Math.max(300, w * 0.55)));
+    try {
+      const drawn = C.engine().drawEnvelopeChart('clu-chart', res, chartOptions());
+      canvas.dataset.drawn = '1';
+      canvas.setAttribute('aria-label', `Envelope chart: ${drawn.y_label} against ${drawn.x_label}, observed curve, complete spatial randomness and ${drawn.band_label}`);
+    } catch (err) {
+      canvas.dataset.drawn = '0';
+      showError('Could not draw the chart', err);
+    }
+    const pointwise = chartOptions().band === 'pointwise';
+    $('clu-band-note').textContent = pointwise
+      ? 'The shaded band is pointwise (the lowest and highest simulated value at each distance): it is not a test. A curve leaving it somewhere is expected by chance when many distances are looked at. The verdict below comes from the global test.'
+      : `The shaded band is the global ${fmt(100 * (1 - res.alpha), 3)}% band: if the observed curve leaves it anywhere, the maximum-deviation test rejects chance at that level. Where it leaves shows the distances of the departure.`;
+    const centredAvailable = res.function === 'l' || res.function === 'k';
+    $('clu-view').disabled = !centredAvailable;
+  }
+
+  function renderResult() {
+    const res = state.result;
+    $('clu-env-result').hidden = !res;
+    if (!res) return;
+    const v = res.verdict;
+    const verdict = $('clu-verdict');
+    verdict.textContent = v.text;
+    verdict.dataset.outcome = v.outcome;
+    // The chart shows one band at a time, so the engine's '(lightest shading)' does not apply here.
+    $('clu-caveats').replaceChildren(...v.caveats.map((c) => el('li', null, c.replace(' (lightest shading)', ''))));
+    const mad = res.mad;
+    const dclf = res.dclf;
+    const corr = PAIR_FUNCTIONS.has(res.function) ? res.correction : res.nn_correction;
+    dl($('clu-details'), [
+      ['Function', `${res.label}, ${fmt(res.n)} events`],
+      ['Maximum-deviation test', `${pEq(mad.p_value)} (${fmt(mad.at_least_as_extreme)} of ${fmt(res.n_sim)} simulations at least as extreme)`, 'mad_p'],
+      ['Integrated-deviation test (DCLF)', pEq(dclf.p_value), 'dclf_p'],
+      ['Distances tested', `${fmtMetres(res.test_r_min)} to ${fmtMetres(res.test_r_max)}`],
+      ['Largest distance', res.r_max_rule],
+      ['Edge correction', String(corr)],
+      ['Simulations', fmt(res.n_sim)],
+      ['Seed', String(res.seed), 'seed'],
+      ['Smallest possible p', fmt(1 / (res.n_sim + 1), 3)],
+    ]);
+    $('clu-warnings').replaceChildren(...(res.warnings || []).map((w) => el('li', null, w)));
+    drawChart();
+  }
+
+  function csvText(res) {
+    const head = ['r_m', 'observed', 'csr', 'global_low', 'global_high', 'pointwise_low', 'pointwise_high', 'simulation_mean'];
+    const cols = [res.r, res.observed, res.theoretical, res.global_lo, res.global_hi, res.pointwise_lo, res.pointwise_hi, res.sim_mean];
+    const cell = (x) => (x === null || x === undefined || !Number.isFinite(Number(x)) ? '' : String(Number(x)));
+    const lines = [head.join(',')];
+    for (let i = 0; i < res.r.length; i++) lines.push(cols.map((c) => cell(c[i])).join(','));
+    return lines.join('\r\n') + '\r\n';
+  }
+
+  const baseName = (res) => `cloister-envelope-${res.function}-${res.n_sim}sims-seed${res.seed}`;
+
+  function saveCsv() {
+    const res = state.result;
+    if (!res) return;
+    download(new Blob([csvText(res)], { type: 'text/csv;charset=utf-8' }), `${baseName(res)}.csv`);
+    setStatus(`Saved ${baseName(res)}.csv.`);
+  }
+
+  async function savePng() {
+    const res = state.result;
+    if (!res) return;
+    const blob = await new Promise((resolve, reject) => $('clu-chart').toBlob((b) => (b ? resolve(b) : reject({ message: 'the picture could not be made' })), 'image/png'));
+    download(blob, `${baseName(res)}.png`);
+    setStatus(`Saved ${baseName(res)}.png.`);
+  }
+
+  // ---------- quadrat and Clark–Evans ----------
+
+  async function quadrat() {
+    clearError();
+    const out = $('clu-quad-result');
+    let p;
+    try {
+      p = { n_sim: readInt('clu-quad-nsim', 0, 9999, 'the number of simulations'), seed: randomSeed() };
+      for (const [id, key] of [['clu-nx', 'nx'], ['clu-ny', 'ny']]) {
+        if ($(id).value.trim() !== '') p[key] = readInt(id, 1, 100, key === 'nx' ? 'the number of columns' : 'the number of rows');
+      }
+    } catch (err) {
+      showError('Could not run the quadrat test', err);
+      return;
+    }
+    let res;
+    try {
+      res = await call('quadratTest', p);
+    } catch (err) {
+      out.replaceChildren();
+      if (!(err && err.code === 'engine_stopped')) showError('The quadrat test could not run', err);
+      return;
+    }
+    const s = res.stats;
+    const d = el('dl', { class: 'clu-dl' });
+    dl(d, [
+      ['Grid', `${res.nx} × ${res.ny} cells of ${fmtMetres(res.cell_width_m)} × ${fmtMetres(res.cell_height_m)}; ${fmt(res.cells.length)} inside the area`, 'grid'],
+      ['Chi-square', `${fmt(s.chi_square, 5)} on ${fmt(s.df)} degrees of freedom`, 'chi_square'],
+      ['p (chi-square)', `${pText(s.p_two_sided)} two-sided; ${pText(s.p_upper)} for clustering, ${pText(s.p_lower)} for regularity`, 'p'],
+      ['p (simulated)', res.p_mc_two_sided === null ? 'not computed (0 simulations)' : `${pText(res.p_mc_two_sided)} two-sided; ${pText(res.p_mc_upper)} for clustering (${fmt(res.n_sim)} simulations, seed ${res.seed})`, 'p_mc'],
+      ['Variance / mean of counts', `${fmt(s.dispersion_index, 4)} (about 1 under chance; above 1 clustered, below 1 regular)`, 'dispersion'],
+    ]);
+    const notes = [];
+    if (s.cells_below_5 > 0) notes.push(`${fmt(s.cells_below_5)} of ${fmt(s.expected.length)} cells expect fewer than 5 events: the chi-square p is unreliable, use the simulated p.`);
+    for (const w of res.warnings || []) if (!notes.includes(w)) notes.push(w);
+    out.replaceChildren(d, notes.length ? el('ul', { class: 'clu-warnings', id: 'clu-quad-warnings' }, ...notes.map((n) => el('li', null, n))) : '');
+    out.dataset.ready = '1';
+  }
+
+  async function clarkEvans() {
+    clearError();
+    const out = $('clu-ce-result');
+    let p;
+    try {
+      p = { n_sim: readInt('clu-ce-nsim', 0, 9999, 'the number of simulations'), seed: randomSeed() };
+    } catch (err) {
+      showError('Could not compute the Clark\u2013Evans ratio', err);
+      return;
+    }
+    let res;
+    try {
+      res = await call('clarkEvans', p);
+    } catch (err) {
+      out.replaceChildren();
+      if (!(err && err.code === 'engine_stopped')) showError('The Clark\u2013Evans ratio could not be computed', err);
+      return;
+    }
+    const line = (s) => `R = ${fmt(s.r, 4)}, z = ${fmt(s.z, 4)}, ${pEq(s.p_two_sided)} (two-sided)`;
+    const d = el('dl', { class: 'clu-dl' });
+    dl(d, [
+      ['Mean nearest-neighbour distance', `${fmtMetres(res.mean_nn_m)} (${fmt(res.n)} events)`, 'mean_nn'],
+      ['With edge correction (Donnelly)', line(res.donnelly), 'donnelly'],
+      ['Without edge correction', line(res.naive), 'naive'],
+      ['p (simulated in this area)', res.p_mc_two_sided === null ? 'not computed (0 simulations)' : `${pText(res.p_mc_two_sided)} two-sided; ${pText(res.p_mc_clustered)} for clustering (${fmt(res.n_sim)} simulations, seed ${res.seed})`, 'p_mc'],
+    ]);
+    out.replaceChildren(
+      el('p', { class: 'hint' }, 'R below 1: events closer together than chance (clustered); above 1: more evenly spaced (regular).'),
+      d,
+      (res.warnings || []).length ? el('ul', { class: 'clu-warnings' }, ...res.warnings.map((w) => el('li', null, w))) : '');
+    out.dataset.ready = '1';
+  }
+
+  // ---------- wiring ----------
+
+  newSeed();
+  fillCorrections();
+  $('clu-function').addEventListener('change', fillCorrections);
+  $('clu-correction').addEventListener('change', hints);
+  $('clu-seed').addEventListener('input', () => { $('clu-fresh').checked = false; });
+  $('clu-run').addEventListener('click', () => { run(); });
+  $('clu-cancel').addEventListener('click', cancel);
+  for (const id of ['clu-view', 'clu-units', 'clu-kind-global', 'clu-kind-pointwise']) $(id).addEventListener('change', drawChart);
+  $('clu-csv').addEventListener('click', act(saveCsv));
+  $('clu-png').addEventListener('click', act(savePng));
+  $('clu-quad-run').addEventListener('click', act(quadrat));
+  $('clu-ce-run').addEventListener('click', act(clarkEvans));
+  let resizeTimer = 0;
+  window.addEventListener('resize', () => {
+    clearTimeout(resizeTimer);
+    resizeTimer = setTimeout(drawChart, 150);
+  });
+
+  C.onSnapshot((snap) => {
+    // New data: stop any run and clear every result of the old data.
+    state.runToken++;
+    if (state.job) state.job.cancel();
+    state.job = null;
+    state.result = null;
+    state.hasData = Boolean(snap && snap.study && snap.study.events > 0);
+    setRun('idle');
+    $('clu-progress-text').textContent = '';
+    $('clu-env-result').hidden = true;
+    $('clu-chart').dataset.drawn = '0';
+    for (const id of ['clu-quad-result', 'clu-ce-result']) {
+      $(id).replaceChildren();
+      delete $(id).dataset.ready;
+    }
+    for (const id of ['clu-quad-run', 'clu-ce-run']) $(id).disabled = !state.hasData;
+  });
+})();
