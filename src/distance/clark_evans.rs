@@ -230,22 +230,7 @@ mod tests {
     /// F12 (Appendix A): mean NN = 0.158227, naive R = 1.096229.
     #[test]
     fn test_f12_mean_nn() {
-        let p = [
-            (0.10, 0.20),
-            (0.15, 0.25),
-            (0.30, 0.80),
-            (0.35, 0.75),
-            (0.40, 0.78),
-            (0.55, 0.50),
-            (0.60, 0.10),
-            (0.70, 0.90),
-            (0.80, 0.30),
-            (0.85, 0.35),
-            (0.90, 0.60),
-            (0.20, 0.55),
-        ];
-        let x: Vec<f64> = p.iter().map(|a| a.0).collect();
-        let y: Vec<f64> = p.iter().map(|a| a.1).collect();
+        let (x, y) = crate::distance::functions::tests::f12();
         let nn = nn_distances(&x, &y, 1.0);
         let mean = nn.iter().sum::<f64>() / 12.0;
         assert!((mean - 0.158227).abs() < 5e-7);

@@ -803,7 +803,7 @@ pub(crate) fn distance_functions_in(
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use crate::distance::region::tests::unit_square;
 
