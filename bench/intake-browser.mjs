@@ -8,23 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { launch, openPage } from '../tests/e2e/helpers.mjs';
 
-function makeCsv(n, seed) { // same generator as bench/intake-node.mjs
-  let s = BigInt(seed);
-  const next = () => {
-    s = (s * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn;
-    return Number(s >> 11n) / 2 ** 53;
-  };
-  const parts = ['id,longitude,latitude,onset_date,category\n'];
-  for (let i = 0; i < n; i++) {
-    const lon = (-32.06 + 0.12 * next()).toFixed(6);
-    const lat = (-41.54 + 0.08 * next()).toFixed(6);
-    const day = String(1 + Math.floor(next() * 28)).padStart(2, '0');
-    const month = String(1 + Math.floor(next() * 12)).padStart(2, '0');
-    const cat = next() < 0.3 ? 'enteric' : 'respiratory';
-    parts.push(`${i},${lon},${lat},2025-${month}-${day},${cat}\n`);
-  }
-  return parts.join('');
-}
+import { makeCsv } from './events-csv.mjs';
 
 const sizes = process.argv.slice(2).map(Number).filter(Boolean);
 const dir = mkdtempSync(join(tmpdir(), 'cloister-bench-'));

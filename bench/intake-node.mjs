@@ -6,23 +6,8 @@ import { createRequire } from 'node:module';
 const require = createRequire(import.meta.url);
 const { Session } = require('../dist/node/cloister.js');
 
-function makeCsv(n, seed) {
-  let s = BigInt(seed);
-  const next = () => { // 64-bit LCG (Knuth MMIX constants), top 53 bits
-    s = (s * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn;
-    return Number(s >> 11n) / 2 ** 53;
-  };
-  const parts = ['id,longitude,latitude,onset_date,category\n'];
-  for (let i = 0; i < n; i++) {
-    const lon = (-32.06 + 0.12 * next()).toFixed(6);
-    const lat = (-41.54 + 0.08 * next()).toFixed(6);
-    const day = String(1 + Math.floor(next() * 28)).padStart(2, '0');
-    const month = String(1 + Math.floor(next() * 12)).padStart(2, '0');
-    const cat = next() < 0.3 ? 'enteric' : 'respiratory';
-    parts.push(`${i},${lon},${lat},2025-${month}-${day},${cat}\n`);
-  }
-  return new TextEncoder().encode(parts.join(''));
-}
+import { makeCsv as makeCsvText } from './events-csv.mjs';
+const makeCsv = (n, seed) => new TextEncoder().encode(makeCsvText(n, seed));
 
 const sizes = process.argv.slice(2).map(Number).filter(Boolean);
 for (const n of (sizes.length ? sizes : [1e3, 1e4, 1e5, 1e6])) {
