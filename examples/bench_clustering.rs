@@ -144,6 +144,14 @@ fn main() {
         return;
     }
     let sq = square(1000.0);
+    if args.get(1).map(String::as_str) == Some("iso") {
+        // The isotropic K path alone (19 simulations), for tuning.
+        envelope_time(&sq, 10_000, SummaryFunction::L, Correction::None, 19);
+        envelope_time(&sq, 10_000, SummaryFunction::L, Correction::Isotropic, 19);
+        let hole = with_hole(1000.0);
+        envelope_time(&hole, 10_000, SummaryFunction::L, Correction::Isotropic, 19);
+        return;
+    }
     if args.get(1).map(String::as_str) == Some("quick") {
         // Per-pattern costs with 19 simulations (the machine is shared).
         let corrections = [

@@ -62,47 +62,47 @@ pub enum NnCorrection {
     None,
 }
 
-/// Per-pattern cache for isotropic weights: the boundary distance of each
-/// point and, for points closer than `reach` to the boundary, the edges
-/// within `reach`.
+/// Per-pattern cache for isotropic weights.
+///
+/// **Method (exact, no sorting of crossings).** Split the study area into
+/// the signed triangles T_k = (x, a_k, b_k) formed by the point x and each
+/// directed boundary edge a_k→b_k (holes included): 1_W = Σ_k s_k·1_{T_k}
+/// almost everywhere, s_k = ±1 the orientation of T_k, and Σ_k s_k·span_k =
+/// 2π for x inside W (winding number 1). Seen from x, the circle of radius
+/// d at angle θ lies in T_k iff θ is within the triangle's angular span and
+/// d·cos(θ − φ_k) ≤ p_k, where p_k is the distance from x to the edge's line
+/// and φ_k the direction of the foot of the perpendicular. So
+///
+///   inside angle = 2π − Σ_k s_k·|[lo_k, hi_k] ∩ (−α_k, α_k)|,
+///   α_k = acos(p_k/d) (0 when p_k ≥ d),
+///
+/// with [lo_k, hi_k] the edge's angular span measured from φ_k. Only edges
+/// closer than `reach` can contribute; they are cached per point with p, lo,
+/// hi, s, the distance to the segment (no cut below it) and to its farther
+/// end (the whole span is cut beyond it, no `acos` needed). A point on the
+/// boundary or outside the area (where the winding argument fails) falls
+/// back to the general crossing routine [`Region::arc_inside`].
 pub(crate) struct IsoCache {
     pub b: Vec<f64>,
     start: Vec<u32>,
-    near: Vec<u32>,
-    /// Per cached edge: distance from the point to the segment and to its
-    /// farther end. A circle of radius d can cross the edge only when
-    /// near_lo < d < near_hi.
-    near_lo: Vec<f64>,
-    near_hi: Vec<f64>,
-    /// For a rectangular window: distances to the left, right, bottom and
-    /// top sides of each point (closed form, no edge loop).
-    sides: Vec<[f64; 4]>,
-    /// For a rectangular window: the second-smallest side distance of each
-    /// point. Up to that radius only the nearest side cuts the circle, so
-    /// the inside angle is 2π − 2·acos(b/d) (no corner terms).
-    second: Vec<f64>,
+    fan: Vec<FanEdge>,
+    /// Points that use the general routine, with their near edges.
+    fallback: Vec<(u32, Vec<u32>)>,
+    /// Per point: index into `fallback`, or u32::MAX for the fan.
+    fb_index: Vec<u32>,
+    /// Reused buffer for [`Self::weights_minus_one`].
+    scratch: std::cell::RefCell<Vec<f64>>,
     cap: f64,
 }
 
-/// Inside angle (radians) of the circle of radius `d` about a point whose
-/// distances to the left, right, bottom and top sides of a rectangle are
-/// `s`: 2π minus the arcs 2·acos(s_k/d) cut off by each side reached, plus,
-/// for each corner inside the circle, the overlap α_a + α_b − π/2 of the
-/// two cut arcs meeting there (inclusion–exclusion; arcs of opposite sides
-/// never overlap).
-#[inline]
-pub(crate) fn rectangle_inside_angle(s: &[f64; 4], d: f64) -> f64 {
-    use std::f64::consts::{FRAC_PI_2, TAU};
-    let cut = |v: f64| if v < d { (v / d).acos() } else { 0.0 };
-    let (l, r, b, t) = (cut(s[0]), cut(s[1]), cut(s[2]), cut(s[3]));
-    let mut ang = TAU - 2.0 * (l + r + b + t);
-    for (p, q) in [(l, b), (l, t), (r, b), (r, t)] {
-        let o = p + q - FRAC_PI_2;
-        if o > 0.0 {
-            ang += o;
-        }
-    }
-    ang
+#[derive(Debug, Clone, Copy)]
+struct FanEdge {
+    p: f64,
+    lo: f64,
+    hi: f64,
+    s: f64,
+    seg: f64,
+    far: f64,
 }
 
 impl IsoCache {
@@ -111,59 +111,149 @@ impl IsoCache {
         region: &Region,
         xs: &[f64],
         ys: &[f64],
-        mut b: Vec<f64>,
+        b: Vec<f64>,
         reach: f64,
         cap: f64,
     ) -> IsoCache {
-        let mut start = Vec::with_capacity(xs.len() + 1);
-        let mut near = Vec::new();
-        let (mut near_lo, mut near_hi) = (Vec::new(), Vec::new());
-        let mut sides = Vec::new();
-        let mut second = Vec::new();
-        start.push(0);
-        if let Some([x0, y0, x1, y1]) = region.rectangle {
-            sides = (0..xs.len())
-                .map(|i| [xs[i] - x0, x1 - xs[i], ys[i] - y0, y1 - ys[i]])
-                .collect();
-            // Boundary distance = nearest side, computed the same way as
-            // the closed form below.
-            for (bi, s) in b.iter_mut().zip(&sides) {
-                *bi = s[0].min(s[1]).min(s[2]).min(s[3]);
-            }
-            second = sides
-                .iter()
-                .map(|s| {
-                    let mut v = *s;
-                    v.sort_unstable_by(f64::total_cmp);
-                    v[1]
-                })
-                .collect();
-        } else {
-            for i in 0..xs.len() {
-                if b[i] < reach {
-                    for e in region.edges_near(xs[i], ys[i], reach) {
+        let n = xs.len();
+        let mut start = Vec::with_capacity(n + 1);
+        let mut fan = Vec::new();
+        let mut fallback = Vec::new();
+        let scale = {
+            let [x0, y0, x1, y1] = region.bbox;
+            (x1 - x0).abs().max((y1 - y0).abs()).max(f64::MIN_POSITIVE)
+        };
+        start.push(0u32);
+        for i in 0..n {
+            let (x, y) = (xs[i], ys[i]);
+            if b[i] < reach {
+                let near = region.edges_near(x, y, reach);
+                let degenerate = !(b[i] > 1e-12 * scale) || !region.contains(x, y);
+                if degenerate {
+                    fallback.push((i as u32, near));
+                } else {
+                    for &e in &near {
                         let edge = &region.edges[e as usize];
-                        let (x, y) = (xs[i], ys[i]);
-                        let far = ((edge.ax - x).powi(2) + (edge.ay - y).powi(2))
-                            .max((edge.bx - x).powi(2) + (edge.by - y).powi(2))
-                            .sqrt();
-                        near.push(e);
-                        near_lo.push(edge.distance_sq(x, y).sqrt());
-                        near_hi.push(far);
+                        let (ex, ey) = (edge.bx - edge.ax, edge.by - edge.ay);
+                        let len = (ex * ex + ey * ey).sqrt();
+                        if !(len > 0.0) {
+                            continue;
+                        }
+                        let (ux, uy) = (ex / len, ey / len);
+                        let (fx, fy) = (x - edge.ax, y - edge.ay);
+                        // Signed distance to the line (> 0: x on the left).
+                        let cross = ux * fy - uy * fx;
+                        let p = cross.abs();
+                        // Positions of the ends along the line, from the foot.
+                        let ta = -(ux * fx + uy * fy);
+                        let tb = ta + len;
+                        let far = (p * p + ta * ta).max(p * p + tb * tb).sqrt();
+                        fan.push(FanEdge {
+                            p,
+                            lo: ta.atan2(p),
+                            hi: tb.atan2(p),
+                            s: cross.signum(),
+                            seg: edge.distance_sq(x, y).sqrt(),
+                            far,
+                        });
                     }
                 }
-                start.push(near.len() as u32);
             }
+            start.push(fan.len() as u32);
+        }
+        let mut fb_index = vec![u32::MAX; n];
+        for (k, (i, _)) in fallback.iter().enumerate() {
+            fb_index[*i as usize] = k as u32;
         }
         IsoCache {
             b,
             start,
-            near,
-            near_lo,
-            near_hi,
-            sides,
-            second,
+            fan,
+            fallback,
+            fb_index,
+            scratch: Default::default(),
             cap,
+        }
+    }
+
+    /// Inside angle of the circle of radius d > b_i about point i.
+    #[inline]
+    fn inside_angle(&self, i: usize, d: f64) -> f64 {
+        let (s0, s1) = (self.start[i] as usize, self.start[i + 1] as usize);
+        let acos = super::acos::acos01();
+        let mut cut = 0.0;
+        for f in &self.fan[s0..s1] {
+            if d <= f.seg {
+                continue;
+            }
+            if d >= f.far {
+                cut += f.s * (f.hi - f.lo);
+                continue;
+            }
+            let a = acos(f.p / d);
+            let c = f.hi.min(a) - f.lo.max(-a);
+            if c > 0.0 {
+                cut += f.s * c;
+            }
+        }
+        std::f64::consts::TAU - cut
+    }
+
+    /// e − 1 for point `i` at (x, y) and each squared distance in `d2s`
+    /// (all beyond b_i), into `out`. Same values as [`Self::weight`], in
+    /// one sweep per cached edge.
+    #[allow(clippy::too_many_arguments)]
+    pub fn weights_minus_one(
+        &self,
+        region: &Region,
+        i: usize,
+        x: f64,
+        y: f64,
+        d2s: &[f64],
+        out: &mut Vec<f64>,
+        capped: &mut u64,
+    ) {
+        use std::f64::consts::TAU;
+        out.clear();
+        if self.fb_index[i] != u32::MAX {
+            out.extend(
+                d2s.iter()
+                    .map(|&d2| self.weight(region, i, x, y, d2.sqrt(), capped) - 1.0),
+            );
+            return;
+        }
+        let (s0, s1) = (self.start[i] as usize, self.start[i + 1] as usize);
+        let acos = super::acos::acos01();
+        let fan = &self.fan[s0..s1];
+        let min_inside = TAU / self.cap;
+        // Staged sweeps (short independent iterations pipeline well):
+        // 1/d, then the cut of each cached edge, then the weights.
+        let mut inv = std::mem::take(&mut *self.scratch.borrow_mut());
+        inv.clear();
+        inv.extend(d2s.iter().map(|&d2| 1.0 / d2.sqrt()));
+        out.resize(d2s.len(), 0.0);
+        for f in fan {
+            let (p, lo, hi, sg) = (f.p, f.lo, f.hi, f.s);
+            for (c, &iv) in out.iter_mut().zip(&inv) {
+                // α = 0 when d ≤ p (t ≥ 1), and the clamp at 0 drops edges
+                // whose span misses (−α, α): no branches needed.
+                let a = acos(p * iv);
+                // Plain comparisons (no NaN handling needed here).
+                let top = if hi < a { hi } else { a };
+                let bot = if lo > -a { lo } else { -a };
+                let part = top - bot;
+                *c += if part > 0.0 { sg * part } else { 0.0 };
+            }
+        }
+        *self.scratch.borrow_mut() = inv;
+        for c in out.iter_mut() {
+            let inside = TAU - *c;
+            *c = if inside > min_inside {
+                TAU / inside - 1.0
+            } else {
+                *capped += 1;
+                self.cap - 1.0
+            };
         }
     }
 
@@ -182,39 +272,14 @@ impl IsoCache {
         if d <= self.b[i] {
             return 1.0;
         }
-        let w = if self.sides.is_empty() {
-            let (s0, s1) = (self.start[i] as usize, self.start[i + 1] as usize);
-            // Keep only edges the circle can cross (with a relative margin
-            // of 1e-9 so rounding never drops a crossing).
-            let mut buf = [0u32; 32];
-            let mut m = 0;
-            let mut overflow = false;
-            for k in s0..s1 {
-                if self.near_lo[k] < d * (1.0 + 1e-9) && self.near_hi[k] > d * (1.0 - 1e-9) {
-                    if m < buf.len() {
-                        buf[m] = self.near[k];
-                        m += 1;
-                    } else {
-                        overflow = true;
-                        break;
-                    }
-                }
-            }
-            let arc = if overflow {
-                region.arc_inside(x, y, d, &self.near[s0..s1])
-            } else {
-                region.arc_inside(x, y, d, &buf[..m])
-            };
-            std::f64::consts::TAU * d / arc
+        let k = self.fb_index[i];
+        let w = if k == u32::MAX {
+            std::f64::consts::TAU / self.inside_angle(i, d)
         } else {
-            if d <= self.second[i] {
-                // One side only: 2π / (2π − 2·acos(b/d)).
-                std::f64::consts::PI / (std::f64::consts::PI - (self.b[i] / d).acos())
-            } else {
-                std::f64::consts::TAU / rectangle_inside_angle(&self.sides[i], d)
-            }
+            let near = &self.fallback[k as usize].1;
+            std::f64::consts::TAU * d / region.arc_inside(x, y, d, near)
         };
-        if !(w < self.cap) {
+        if !(w > 0.0 && w < self.cap) {
             *capped += 1;
             self.cap
         } else {
@@ -433,49 +498,69 @@ mod tests {
         assert_eq!(c, 0);
     }
 
-    /// The rectangle closed form agrees with the general arc routine.
-    #[test]
-    fn test_rectangle_formula_matches_arcs() {
-        let w = unit_square();
-        let mut rng = crate::rng::rng_from_seed(12);
-        for _ in 0..2000 {
-            let (x, y) = w.sample_one(&mut rng);
-            let d = 0.6 * rand::RngExt::random::<f64>(&mut rng);
-            let near = w.edges_near(x, y, d);
-            let arc = w.arc_inside(x, y, d, &near);
-            let ang = rectangle_inside_angle(&[x, 1.0 - x, y, 1.0 - y], d);
-            assert!(
-                (arc - ang * d).abs() < 1e-12,
-                "{x} {y} {d}: {arc} {}",
-                ang * d
-            );
-        }
-    }
-
     /// The per-pattern cache (filtered edge lists) gives the same weights
     /// as the uncached routine on a window with a hole.
     #[test]
     fn test_cache_matches_uncached() {
-        // WH (general polygon path) and the unit square (closed form with
-        // its one-side shortcut) against the general uncached routine.
-        for (w, reach) in [(wh(), 3.0), (unit_square(), 0.3)] {
+        // WH (a polygon with a hole) and the unit square, through the
+        // triangle-fan cache (one weight at a time and in sweeps), against
+        // the general crossing routine. Points on the boundary (which use
+        // the crossing routine inside the cache too) are included.
+        let boundary: [(Region, f64, Vec<(f64, f64)>); 2] = [
+            (
+                wh(),
+                3.0,
+                vec![(0.0, 5.0), (4.0, 5.0), (6.0, 6.0), (10.0, 0.0)],
+            ),
+            (
+                unit_square(),
+                0.3,
+                vec![(0.0, 0.37), (0.0, 0.0), (0.5, 1.0)],
+            ),
+        ];
+        for (w, reach, extra) in boundary {
             let mut rng = crate::rng::rng_from_seed(21);
-            let (xs, ys) = w.sample(300, &mut rng);
+            let (mut xs, mut ys) = w.sample(300, &mut rng);
+            for (x, y) in extra {
+                xs.push(x);
+                ys.push(y);
+            }
             let b: Vec<f64> = xs
                 .iter()
                 .zip(&ys)
                 .map(|(x, y)| w.boundary_distance(*x, *y))
                 .collect();
-            let cache = IsoCache::new(&w, &xs, &ys, b, reach, f64::INFINITY);
+            let cache = IsoCache::new(&w, &xs, &ys, b.clone(), reach, f64::INFINITY);
             let mut capped = 0;
+            let mut out = Vec::new();
             for i in 0..xs.len() {
-                for k in 1..=30 {
-                    let d = reach / 30.0 * k as f64;
+                let mut ds = Vec::new();
+                for k in 1..=60 {
+                    // Grid distances and random ones in between.
+                    let d = if k <= 30 {
+                        reach / 30.0 * k as f64
+                    } else {
+                        reach * rand::RngExt::random::<f64>(&mut rng)
+                    };
                     let a = cache.weight(&w, i, xs[i], ys[i], d, &mut capped);
                     let e = isotropic_weight(&w, xs[i], ys[i], d);
                     assert!((a - e).abs() < 1e-12 * e, "{i} {d}: {a} vs {e}");
+                    if d > b[i] {
+                        ds.push((d, e));
+                    }
+                }
+                let d2s: Vec<f64> = ds.iter().map(|(d, _)| d * d).collect();
+                cache.weights_minus_one(&w, i, xs[i], ys[i], &d2s, &mut out, &mut capped);
+                assert_eq!(out.len(), ds.len());
+                for ((d, e), got) in ds.iter().zip(&out) {
+                    assert!(
+                        (got + 1.0 - e).abs() < 1e-11 * e,
+                        "sweep {i} {d}: {} vs {e}",
+                        got + 1.0
+                    );
                 }
             }
+            assert_eq!(capped, 0);
         }
     }
 

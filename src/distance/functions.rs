@@ -47,6 +47,7 @@
 //! whose circle reaches the boundary.
 
 use super::edge::{Correction, IsoCache, NnCorrection, Translation};
+use super::pairs::SquaredBins;
 use super::pairs::{nn_cell, PointGrid};
 use super::region::Region;
 use crate::error::AnalysisError;
@@ -159,6 +160,8 @@ pub(crate) struct Context {
     pub bandwidth: f64,
     pub n: usize,
     translation: Option<Translation>,
+    /// Exact bins by squared distance over `r`.
+    bins: SquaredBins,
     f_x: Vec<f64>,
     f_y: Vec<f64>,
     f_b: Vec<f64>,
@@ -286,6 +289,7 @@ impl Context {
                 );
             }
         }
+        let bins = SquaredBins::new(&r);
         Ok(Context {
             region,
             r,
@@ -299,6 +303,7 @@ impl Context {
             bandwidth,
             n,
             translation,
+            bins,
             f_x,
             f_y,
             f_b,
@@ -359,7 +364,7 @@ impl Context {
             } else {
                 self.r_max
             };
-            let grid = PointGrid::new(x, y, reach / 2.0);
+            let grid = PointGrid::new(x, y, reach / 4.0);
             let need_b = matches!(self.correction, Correction::Isotropic | Correction::Border)
                 || (needs.pcf && self.pcf_correction == Correction::Isotropic);
             let b: Vec<f64> = if need_b {
@@ -552,9 +557,10 @@ impl Context {
     /// Sum over unordered pairs within r_max of the two ordered-pair
     /// weights, binned by the smallest r_k ≥ d (last slot: beyond r_max).
     /// Written without a distance test in the inner loop: every candidate
-    /// goes to a bin, those beyond r_max to the overflow slot. With `ISO`,
-    /// each weight starts at 1 and the isotropic excess is added only when
-    /// the circle reaches the boundary (d > b).
+    /// goes to a bin (looked up by d², no square root), those beyond r_max
+    /// to the overflow slot. With `ISO` (MODE 1) the pairs are counted
+    /// with weight 1 here and the isotropic excess w − 1 is added by
+    /// [`Self::iso_excess`].
     fn k_kernel<const MODE: u8>(
         &self,
         grid: &PointGrid,
@@ -570,54 +576,25 @@ impl Context {
         let mut h4 = vec![[0u32; 4]; nr + 1];
         let mut extra = vec![0.0f64; nr + 1];
         let mut diff = vec![0.0f64; nr + 1];
-        let r = &self.r[..];
-        let inv = 1.0 / self.step;
-        let region = &self.region;
-        let empty: Vec<f64> = Vec::new();
-        let b: &[f64] = iso.map_or(&empty[..], |c| &c.b[..]);
+        let bins = &self.bins;
         let trans = self.translation.as_ref();
         let cap = self.cap;
         let mut dbuf: Vec<f64> = Vec::new();
-        // Exact bin: smallest k with r_k ≥ d (nr when beyond r_max).
-        let exact_bin = |d: f64| -> usize {
-            let q = d * inv;
-            if !(q < nr as f64) {
-                return nr;
-            }
-            let mut k = q as usize;
-            if k < nr && d > r[k] {
-                k += 1;
-            }
-            if k > 0 && d <= r[k - 1] {
-                k -= 1;
-            }
-            k
-        };
         grid.for_each_block(self.r_max, |a, b0, b1| {
             let (xa, ya) = (grid.xs[a], grid.ys[a]);
             let bx = &grid.xs[b0..b1];
             let by = &grid.ys[b0..b1];
-            // Phase 1: distances (vectorisable).
+            // Phase 1: squared distances (vectorisable).
             dbuf.clear();
             dbuf.extend(bx.iter().zip(by).map(|(x, y)| {
                 let dx = x - xa;
                 let dy = y - ya;
-                (dx * dx + dy * dy).sqrt()
+                dx * dx + dy * dy
             }));
             // Phase 2: bins and weights.
-            let ba = if MODE == 1 { b[a] } else { f64::INFINITY };
             let ka = if MODE == 3 { kmax[a] } else { 0 };
-            for (k, &d) in dbuf.iter().enumerate() {
-                let q = d * inv;
-                let t = q as i64;
-                let frac = q - t as f64;
-                // Away from grid values, the bin is ⌊q⌋ + 1; near them
-                // (or beyond r_max) decide exactly.
-                let bin = if frac > 1e-9 && frac < 1.0 - 1e-9 && (t as usize) < nr - 1 {
-                    t as usize + 1
-                } else {
-                    exact_bin(d)
-                };
+            for (k, &d2) in dbuf.iter().enumerate() {
+                let bin = bins.bin(d2);
                 if MODE == 3 {
                     if bin < nr {
                         for km in [ka, kmax[b0 + k]] {
@@ -630,16 +607,6 @@ impl Context {
                     continue;
                 }
                 h4[bin][k & 3] += 1;
-                if MODE == 1 && bin < nr {
-                    let bb = b[b0 + k];
-                    if d > ba || d > bb {
-                        if let Some(c) = iso {
-                            let w = c.weight(region, a, xa, ya, d, capped)
-                                + c.weight(region, b0 + k, bx[k], by[k], d, capped);
-                            extra[bin] += w - 2.0;
-                        }
-                    }
-                }
                 if MODE == 2 && bin < nr {
                     if let Some(t) = trans {
                         extra[bin] += 2.0 * (t.weight(bx[k] - xa, by[k] - ya, cap, capped) - 1.0);
@@ -647,10 +614,60 @@ impl Context {
                 }
             }
         });
+        if MODE == 1 {
+            if let Some(c) = iso {
+                self.iso_excess(grid, c, &mut extra, capped);
+            }
+        }
         let hist = (0..=nr)
             .map(|k| 2.0 * (h4[k].iter().map(|v| *v as f64).sum::<f64>()) + extra[k])
             .collect();
         (hist, diff)
+    }
+
+    /// Adds Σ (e_ij − 1) over ordered pairs (i, j) with b_i < d_ij ≤ r_max
+    /// to `extra` by bin: the isotropic excess over the count. Each point
+    /// near the boundary gathers its whole neighbourhood beyond b_i, then
+    /// the weights are computed in one branch-free sweep per cached edge
+    /// (see [`IsoCache`]), which keeps the arithmetic units busy.
+    fn iso_excess(&self, grid: &PointGrid, iso: &IsoCache, extra: &mut [f64], capped: &mut u64) {
+        let bins = &self.bins;
+        let limit = bins.limit();
+        let mut d2s: Vec<f64> = Vec::new();
+        let mut ws: Vec<f64> = Vec::new();
+        let region = &self.region;
+        grid.for_each_cell_runs(self.r_max, |a0, a1, runs| {
+            for a in a0..a1 {
+                let ba = iso.b[a];
+                if !(ba < self.r_max) {
+                    continue;
+                }
+                let b2 = ba * ba;
+                let (xa, ya) = (grid.xs[a], grid.ys[a]);
+                // Branch-free gather: write every candidate, advance the
+                // length only for those beyond b_a and within r_max.
+                let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
+                d2s.resize(total, 0.0);
+                let mut m = 0;
+                for &(b0, b1) in runs {
+                    for (x, y) in grid.xs[b0..b1].iter().zip(&grid.ys[b0..b1]) {
+                        let dx = x - xa;
+                        let dy = y - ya;
+                        let d2 = dx * dx + dy * dy;
+                        d2s[m] = d2;
+                        m += (d2 > b2 && d2 <= limit) as usize;
+                    }
+                }
+                if m == 0 {
+                    continue;
+                }
+                d2s.truncate(m);
+                iso.weights_minus_one(region, a, xa, ya, &d2s, &mut ws, capped);
+                for (&d2, &w) in d2s.iter().zip(&ws) {
+                    extra[bins.bin(d2)] += w;
+                }
+            }
+        });
     }
 
     /// #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r} on the grid (NaN when no

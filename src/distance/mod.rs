@@ -21,6 +21,7 @@
 //! (d computed as `sqrt(dx² + dy²)`); every random step is seeded and the
 //! seed is echoed in results.
 
+pub(crate) mod acos;
 pub mod clark_evans;
 pub mod csr;
 pub mod edge;

@@ -111,7 +111,7 @@ impl PointGrid {
     /// its neighbourhood (same row to the right, rows above).
     #[inline]
     pub fn for_each_block<F: FnMut(usize, usize, usize)>(&self, r: f64, mut block: F) {
-        let reach = (r / self.cell).ceil().max(1.0) as isize;
+        let reach = self.reach(r);
         let (nx, ny) = (self.nx as isize, self.ny as isize);
         for cy in 0..ny {
             for cx in 0..nx {
@@ -130,7 +130,8 @@ impl PointGrid {
                     if ny_ >= ny {
                         break;
                     }
-                    let (ox0, ox1) = if oy == 0 { (1, reach) } else { (-reach, reach) };
+                    let span = self.row_span(r, reach, oy);
+                    let (ox0, ox1) = if oy == 0 { (1, span) } else { (-span, span) };
                     let lo = (cx + ox0).max(0);
                     let hi = (cx + ox1).min(nx - 1);
                     if lo > hi {
@@ -147,6 +148,66 @@ impl PointGrid {
                         block(a, b0, b1);
                     }
                 }
+            }
+        }
+    }
+
+    /// Rows of cells to search for distances up to `r`.
+    #[inline]
+    fn reach(&self, r: f64) -> isize {
+        (r / self.cell).ceil().max(1.0) as isize
+    }
+
+    /// Largest column offset that can hold a point within `r` of a point
+    /// in a cell `oy` rows away: the gap between the rows is at least
+    /// (|oy| − 1)·cell, and between columns |ox| apart at least
+    /// (|ox| − 1)·cell, so |ox| ≤ ⌈√(r² − gap²)/cell⌉ (with a relative
+    /// margin so that rounding in the cell assignment never loses a pair).
+    #[inline]
+    fn row_span(&self, r: f64, reach: isize, oy: isize) -> isize {
+        let gap = ((oy.abs() - 1).max(0)) as f64 * self.cell;
+        let w2 = (r * r - gap * gap).max(0.0);
+        ((w2.sqrt() * (1.0 + 1e-9) / self.cell).ceil() as isize)
+            .max(1)
+            .min(reach)
+    }
+
+    /// Calls `run(cell_start, cell_end, b0, b1)` for every non-empty cell
+    /// and every row-run b0..b1 of sorted positions in its full
+    /// neighbourhood (all directions, its own cell included) that can hold
+    /// a point within `r` of a point of the cell.
+    pub fn for_each_cell_runs<F: FnMut(usize, usize, &[(usize, usize)])>(
+        &self,
+        r: f64,
+        mut run: F,
+    ) {
+        let reach = self.reach(r);
+        let (nx, ny) = (self.nx as isize, self.ny as isize);
+        let mut runs: Vec<(usize, usize)> = Vec::with_capacity(2 * reach as usize + 1);
+        for cy in 0..ny {
+            for cx in 0..nx {
+                let c = (cy * nx + cx) as usize;
+                let (a0, a1) = (self.start[c] as usize, self.start[c + 1] as usize);
+                if a0 == a1 {
+                    continue;
+                }
+                runs.clear();
+                for oy in -reach..=reach {
+                    let ny_ = cy + oy;
+                    if ny_ < 0 || ny_ >= ny {
+                        continue;
+                    }
+                    let span = self.row_span(r, reach, oy);
+                    let lo = (cx - span).max(0);
+                    let hi = (cx + span).min(nx - 1);
+                    let row = ny_ * nx;
+                    let b0 = self.start[(row + lo) as usize] as usize;
+                    let b1 = self.start[(row + hi) as usize + 1] as usize;
+                    if b0 < b1 {
+                        runs.push((b0, b1));
+                    }
+                }
+                run(a0, a1, &runs);
             }
         }
     }
@@ -226,6 +287,78 @@ impl PointGrid {
     }
 }
 
+/// Exact distance bins looked up by squared distance (no square root):
+/// `bin(d²)` is the smallest k with `sqrt(d²) ≤ r_k`, or `r.len()` beyond
+/// the last grid value, exactly as if `sqrt` were taken (METHODS §0's
+/// `d ≤ r` convention). T_k is the largest double whose square root is
+/// ≤ r_k; a table over d² gives a starting bin that is never too high,
+/// and a short scan (almost always zero or one step) finishes.
+#[derive(Debug, Clone)]
+pub(crate) struct SquaredBins {
+    /// T_0..T_{n−1}, then +∞.
+    t: Vec<f64>,
+    tab: Vec<u32>,
+    scale: f64,
+}
+
+/// Largest double x with sqrt(x) ≤ r (r ≥ 0).
+fn sq_threshold(r: f64) -> f64 {
+    let mut x = r * r;
+    while x > 0.0 && x.sqrt() > r {
+        x = f64::from_bits(x.to_bits() - 1);
+    }
+    loop {
+        let up = f64::from_bits(x.to_bits() + 1);
+        if up.is_finite() && up.sqrt() <= r {
+            x = up;
+        } else {
+            return x;
+        }
+    }
+}
+
+impl SquaredBins {
+    /// For an increasing grid r (r_0 ≥ 0).
+    pub fn new(r: &[f64]) -> SquaredBins {
+        let mut t: Vec<f64> = r.iter().map(|&v| sq_threshold(v.max(0.0))).collect();
+        let last = t.last().copied().unwrap_or(0.0);
+        t.push(f64::INFINITY);
+        let n = r.len();
+        // Cells narrower than the smallest gap between thresholds (~ step²)
+        // when n is moderate; capped at about a million entries.
+        let cells = (2 * n * n + 2).min(1 << 20);
+        let scale = if last > 0.0 { cells as f64 / last } else { 0.0 };
+        let mut tab = Vec::with_capacity(cells + 2);
+        let mut k = 0usize;
+        for idx in 0..cells + 2 {
+            while k < n && !(t[k] * scale >= idx as f64) {
+                k += 1;
+            }
+            tab.push(k as u32);
+        }
+        SquaredBins { t, tab, scale }
+    }
+
+    /// Largest squared distance within the last grid value.
+    #[inline]
+    pub fn limit(&self) -> f64 {
+        self.t[self.t.len() - 2]
+    }
+
+    /// Smallest k with sqrt(d2) ≤ r_k (r.len() beyond the grid).
+    #[inline]
+    pub fn bin(&self, d2: f64) -> usize {
+        let q = d2 * self.scale;
+        let last = self.tab.len() - 1;
+        let idx = if q < last as f64 { q as usize } else { last };
+        let mut k = self.tab[idx] as usize;
+        while d2 > self.t[k] {
+            k += 1;
+        }
+        k
+    }
+}
+
 /// Cell side for nearest-neighbour grids: about two points per cell.
 pub(crate) fn nn_cell(n: usize, area: f64) -> f64 {
     (2.0 * area / n.max(1) as f64).sqrt()
@@ -298,5 +431,52 @@ mod tests {
         assert_eq!(nn_distances(&[0.5], &[0.5], 1.0)[0], f64::INFINITY);
         // Coincident points: distance 0.
         assert_eq!(nn_distances(&[0.5, 0.5], &[0.5, 0.5], 1.0), vec![0.0, 0.0]);
+    }
+    /// Squared-distance bins agree with binning by sqrt, at and around
+    /// every threshold and at random distances.
+    #[test]
+    fn test_squared_bins_match_sqrt() {
+        let mut rng = crate::rng::rng_from_seed(8);
+        for (r_max, steps) in [
+            (0.25, 5usize),
+            (250.0, 50),
+            (1.0, 1),
+            (3.7, 1000),
+            (0.3, 10_000),
+        ] {
+            let r: Vec<f64> = (0..=steps)
+                .map(|k| (k as f64 * r_max) / steps as f64)
+                .collect();
+            let bins = SquaredBins::new(&r);
+            let want = |d2: f64| {
+                let d = d2.sqrt();
+                r.iter().position(|&v| d <= v).unwrap_or(r.len())
+            };
+            let mut probes = vec![0.0, f64::INFINITY, 4.0 * r_max * r_max];
+            for &v in &r {
+                let t = v * v;
+                probes.extend([t, f64::from_bits(t.to_bits() + 1)]);
+                if t > 0.0 {
+                    probes.push(f64::from_bits(t.to_bits() - 1));
+                }
+            }
+            for _ in 0..20_000 {
+                let d: f64 = rng.random::<f64>() * 1.2 * r_max;
+                probes.push(d * d);
+            }
+            for &d2 in &probes {
+                assert_eq!(bins.bin(d2), want(d2), "steps {steps}, d² = {d2:e}");
+            }
+            assert_eq!(bins.bin(f64::NAN), r.len());
+            assert!(bins.limit().sqrt() <= r_max);
+        }
+        // F12-style exact distance: 0.09² + 0.12² against r = 0.25·3/5.
+        let r: Vec<f64> = (0..=5).map(|k| (k as f64 * 0.25) / 5.0).collect();
+        let bins = SquaredBins::new(&r);
+        let d2: f64 = 0.09f64 * 0.09 + 0.12 * 0.12;
+        assert_eq!(
+            bins.bin(d2),
+            r.iter().position(|&v| d2.sqrt() <= v).unwrap()
+        );
     }
 }
