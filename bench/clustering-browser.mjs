@@ -36,7 +36,7 @@ async function timeJob(page, params) {
   return page.evaluate(async (params) => {
     const t0 = performance.now();
     let first = null;
-    const job = window.Cloister.runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params }, (p) => {
+    const job = window.Cloister.runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, (p) => {
       if (first === null && p.done > 0) first = performance.now() - t0;
     });
     const res = await job.promise;
@@ -50,7 +50,7 @@ async function timeCancel(page, params) {
     let cancelAt = null;
     let job = null;
     const firstProgress = new Promise((resolve) => {
-      job = window.Cloister.runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params }, (p) => { if (p.done > 0) resolve(); });
+      job = window.Cloister.runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, (p) => { if (p.done > 0) resolve(); });
     });
     await firstProgress;
     await new Promise((r) => setTimeout(r, 300));

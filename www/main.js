@@ -186,7 +186,10 @@
       if (worker === state.worker) engineStopped('a message could not be read');
     };
     state.worker = worker;
-    return post('init', [state.module]);
+    // The worker's own source goes along so that it can start helper
+    // workers for long jobs (a page opened from disk cannot share its
+    // Blob URL with a worker).
+    return post('init', [state.module, `${glue}\n;\n${body}`]);
   }
 
   /** Sends one request to the worker now. */

@@ -10,6 +10,8 @@
 
 let session = null;
 let memory = null;
+let wasmModule = null; // kept to start helper workers
+let helperUrl = null; // Blob URL of this worker's own source, made here
 
 /** Any public Session method may be called by name (analysis modules add
  * their own in src/web/*.rs); the wasm-bindgen internals may not. */
@@ -66,6 +68,159 @@ function runJob(id, spec) {
   };
   self.postMessage({ id, progress: { done: 0, total } });
   setTimeout(tick, 0);
+}
+
+// ---------- the same job spread over helper workers ----------
+// A job whose spec has `parallel: {share, helperStart, simulate, add}` can be
+// split: pieces from..to are computed by `simulate(from, to)`, here and in
+// helper workers (copies of this worker started from the same script and
+// wasm module, given `share()`), and handed back to the job in order with
+// `add(from, curves)`. Piece j of a run is the same wherever it is
+// computed, so the result is identical to one worker's. A helper that
+// fails gives its piece back; Cancel stops the helpers at once.
+const HELPER_MS = 400;
+
+function helperCount() {
+  const cores = Number(self.navigator && self.navigator.hardwareConcurrency) || 1;
+  if (typeof Worker !== 'function' || !wasmModule || !helperUrl) return 0;
+  return Math.max(0, Math.min(cores - 1, 7));
+}
+
+/** New piece size: aim for `target` ms, changing by at most 4x. */
+function adapt(size, did, ms, target) {
+  return Math.max(1, Math.min(size * 4, Math.round(did * target / Math.max(ms, 1))));
+}
+
+function runParallelJob(id, spec) {
+  const { start, finish, params, parallel } = spec;
+  for (const m of [start, finish, parallel.share, parallel.simulate, parallel.add]) {
+    if (!isSessionMethod(m)) throw { code: 'unknown_method', message: `Unknown job step "${m}".` };
+  }
+  const info = session[start](params ?? {});
+  const total = Number(info && info.total);
+  const job = { cancelled: false, helpers: [] };
+  jobs.set(id, job);
+  let next = 0;
+  let done = 0;
+  let k = 1;
+  let reported = -1;
+  const ready = new Map(); // from -> curves, waiting for their turn
+  const returned = []; // pieces given back by failed helpers
+  const take = (size) => {
+    if (returned.length) return returned.shift();
+    if (next >= total) return null;
+    const from = next;
+    next = Math.min(total, next + size);
+    return [from, next];
+  };
+  const flush = () => {
+    while (ready.has(done)) {
+      const curves = ready.get(done);
+      ready.delete(done);
+      done = Number(session[parallel.add](done, curves));
+    }
+  };
+  const stopHelpers = () => {
+    for (const h of job.helpers) h.stop();
+    job.helpers = [];
+  };
+  const share = session[parallel.share]();
+  for (let i = 0; i < helperCount(); i++) startHelper(job, share, parallel, take, (from, curves) => ready.set(from, curves), (piece) => returned.push(piece));
+
+  const tick = () => {
+    try {
+      if (job.cancelled) {
+        stopHelpers();
+        jobs.delete(id);
+        self.postMessage({ id, ok: false, error: { code: 'cancelled', message: 'Cancelled.', row: null, column: null }, fatal: false });
+        return;
+      }
+      flush();
+      const piece = done < total ? take(k) : null;
+      if (piece) {
+        const t0 = performance.now();
+        ready.set(piece[0], session[parallel.simulate](piece[0], piece[1]));
+        k = adapt(k, piece[1] - piece[0], performance.now() - t0, BATCH_MS);
+        flush();
+      }
+      if (done >= total) {
+        stopHelpers();
+        jobs.delete(id);
+        const result = session[finish]();
+        self.postMessage({ id, ok: true, result }, transferables(result));
+        return;
+      }
+      if (done !== reported) {
+        reported = done;
+        self.postMessage({ id, progress: { done, total, workers: 1 + job.helpers.filter((h) => h.alive).length } });
+      }
+      // Nothing left to take: wait for the helpers' pieces.
+      setTimeout(tick, piece ? 0 : 15);
+    } catch (err) {
+      stopHelpers();
+      jobs.delete(id);
+      const fatal = isFatal(err);
+      if (fatal) session = null;
+      self.postMessage({ id, ok: false, error: plainError(err), fatal });
+    }
+  };
+  self.postMessage({ id, progress: { done: 0, total } });
+  setTimeout(tick, 0);
+}
+
+/** Starts one helper worker that takes pieces until none are left. */
+function startHelper(job, share, parallel, take, deliver, giveBack) {
+  let worker;
+  try {
+    worker = new Worker(helperUrl);
+  } catch (_) {
+    return; // helpers not available here: the job runs on this worker alone
+  }
+  const waiting = new Map();
+  let seq = 0;
+  const h = { alive: true, stop() { h.alive = false; worker.terminate(); for (const w of waiting.values()) w.reject({ code: 'stopped' }); waiting.clear(); } };
+  job.helpers.push(h);
+  const call = (method, args) => new Promise((resolve, reject) => {
+    const rid = ++seq;
+    waiting.set(rid, { resolve, reject });
+    worker.postMessage({ id: rid, method, args });
+  });
+  worker.onmessage = (e) => {
+    const m = e.data || {};
+    const w = waiting.get(m.id);
+    if (!w || m.progress) return;
+    waiting.delete(m.id);
+    if (m.ok) w.resolve(m.result);
+    else w.reject(m.error);
+  };
+  worker.onerror = (e) => {
+    e.preventDefault();
+    for (const w of waiting.values()) w.reject({ code: 'helper_failed' });
+    waiting.clear();
+  };
+  (async () => {
+    let piece = null;
+    let size = 1;
+    try {
+      await call('init', [wasmModule]);
+      await call(parallel.helperStart, [share]);
+      while (h.alive && !job.cancelled) {
+        piece = take(size);
+        if (!piece) break;
+        const t0 = performance.now();
+        const curves = await call(parallel.simulate, piece);
+        size = adapt(size, piece[1] - piece[0], performance.now() - t0, HELPER_MS);
+        if (!h.alive) break;
+        deliver(piece[0], curves);
+        piece = null;
+      }
+    } catch (_) {
+      // fall through: the piece in hand goes back to the queue
+    }
+    if (piece && !job.cancelled) giveBack(piece);
+    h.alive = false;
+    worker.terminate();
+  })();
 }
 
 function isFatal(err) {
@@ -164,6 +319,14 @@ self.onmessage = (event) => {
   try {
     let result;
     if (method === 'init') {
+      wasmModule = args[0];
+      if (typeof args[1] === 'string' && typeof Worker === 'function') {
+        try {
+          helperUrl = URL.createObjectURL(new Blob([args[1]], { type: 'text/javascript' }));
+        } catch (_) {
+          helperUrl = null;
+        }
+      }
       const exports = wasm_bindgen.initSync({ module: args[0] });
       memory = exports && exports.memory ? exports.memory : null;
       session = new wasm_bindgen.Session();
@@ -177,7 +340,8 @@ self.onmessage = (event) => {
       if (job) job.cancelled = true;
       result = Boolean(job);
     } else if (method === 'runJob') {
-      runJob(id, args[0]);
+      if (args[0] && args[0].parallel && helperCount() > 0) runParallelJob(id, args[0]);
+      else runJob(id, args[0]);
       return; // answers (progress, then result) are posted by the job itself
     } else if (isSessionMethod(method)) {
       result = session[method](...args);

@@ -116,6 +116,84 @@ pub enum Reference {
     SimulationMean,
 }
 
+/// What a helper needs to simulate for a run: the study area, the number
+/// of events and the parameters (never the event locations). See
+/// [`EnvelopeJob::share`] and [`EnvelopeSimulator`].
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SimulationShare {
+    pub polygons: Vec<Vec<Vec<[f64; 2]>>>,
+    pub n: usize,
+    pub params: EnvelopeParams,
+}
+
+/// Simulates ranges of an envelope run elsewhere (another thread or Web
+/// Worker): built from a [`SimulationShare`], it gives exactly the curves
+/// [`EnvelopeJob::simulate_range`] would, because simulation j always uses
+/// stream j of the seed.
+pub struct EnvelopeSimulator {
+    ctx: Context,
+    needs: Needs,
+    params: EnvelopeParams,
+}
+
+impl EnvelopeSimulator {
+    /// Prepares the window and distance grid of a shared run.
+    pub fn new(share: &SimulationShare) -> Result<EnvelopeSimulator, AnalysisError> {
+        let region = super::region::Region::from_polygons(&share.polygons).ok_or_else(|| {
+            AnalysisError::BadParameter {
+                name: "study area".into(),
+                detail: "the study area has no usable polygon with positive area".into(),
+            }
+        })?;
+        check_params(&share.params)?;
+        let needs = share.params.function.needs();
+        let ctx = Context::new(region, share.n, &share.params.functions, needs)?;
+        Ok(EnvelopeSimulator {
+            ctx,
+            needs,
+            params: share.params.clone(),
+        })
+    }
+
+    /// Curves of simulations `from..to`, row after row.
+    pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
+        simulate_curves(&self.ctx, self.needs, &self.params, from, to)
+    }
+}
+
+fn simulate_curves(
+    ctx: &Context,
+    needs: Needs,
+    params: &EnvelopeParams,
+    from: usize,
+    to: usize,
+) -> Vec<f64> {
+    let to = to.min(params.n_sim);
+    let mut out = Vec::with_capacity(to.saturating_sub(from) * ctx.r.len());
+    for j in from..to {
+        let mut rng = stream_rng(params.seed, j as u64);
+        let (x, y) = ctx.region.sample(ctx.n, &mut rng);
+        out.extend(select(params.function, ctx.compute(&x, &y, needs)));
+    }
+    out
+}
+
+fn check_params(params: &EnvelopeParams) -> Result<(), AnalysisError> {
+    if !(1..=9999).contains(&params.n_sim) {
+        return Err(AnalysisError::BadParameter {
+            name: "n_sim".into(),
+            detail: "must be between 1 and 9999".into(),
+        });
+    }
+    if !(params.alpha > 0.0 && params.alpha < 1.0) {
+        return Err(AnalysisError::BadParameter {
+            name: "alpha".into(),
+            detail: "must be between 0 and 1".into(),
+        });
+    }
+    Ok(())
+}
+
 /// Parameters of an envelope run.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(default)]
@@ -238,18 +316,7 @@ impl EnvelopeJob {
         y: &[f64],
         params: &EnvelopeParams,
     ) -> Result<EnvelopeJob, AnalysisError> {
-        if !(1..=9999).contains(&params.n_sim) {
-            return Err(AnalysisError::BadParameter {
-                name: "n_sim".into(),
-                detail: "must be between 1 and 9999".into(),
-            });
-        }
-        if !(params.alpha > 0.0 && params.alpha < 1.0) {
-            return Err(AnalysisError::BadParameter {
-                name: "alpha".into(),
-                detail: "must be between 0 and 1".into(),
-            });
-        }
+        check_params(params)?;
         let needs = params.function.needs();
         let ctx = Context::new(region, x.len(), &params.functions, needs)?;
         let c = ctx.compute(x, y, needs);
@@ -270,13 +337,47 @@ impl EnvelopeJob {
     /// Runs up to `k` more simulations; returns how many are done so far.
     pub fn run_batch(&mut self, k: usize) -> usize {
         let end = (self.done + k).min(self.params.n_sim);
-        for j in self.done..end {
-            let mut rng = stream_rng(self.params.seed, j as u64);
-            let (x, y) = self.ctx.region.sample(self.ctx.n, &mut rng);
-            let c = self.ctx.compute(&x, &y, self.needs);
-            self.sims.extend(select(self.params.function, c));
-        }
+        let curves = simulate_curves(&self.ctx, self.needs, &self.params, self.done, end);
+        self.sims.extend(curves);
         self.done = end;
+        self.done
+    }
+
+    /// Like [`EnvelopeJob::run_batch`], with the `k` simulations split
+    /// over `threads` native threads (contiguous ranges, joined in order),
+    /// so the result is identical to a single-threaded run. Native builds
+    /// only; the page uses several Web Workers for the same purpose.
+    #[cfg(not(target_arch = "wasm32"))]
+    pub fn run_batch_parallel(&mut self, k: usize, threads: usize) -> usize {
+        let end = (self.done + k).min(self.params.n_sim);
+        let count = end - self.done;
+        let threads = threads.clamp(1, count.max(1));
+        if threads <= 1 {
+            return self.run_batch(k);
+        }
+        let start = self.done;
+        let parts: Vec<Vec<f64>> = std::thread::scope(|scope| {
+            let job = &*self;
+            let handles: Vec<_> = (0..threads)
+                .map(|t| {
+                    let from = start + count * t / threads;
+                    let to = start + count * (t + 1) / threads;
+                    scope.spawn(move || job.simulate_range(from, to))
+                })
+                .collect();
+            handles
+                .into_iter()
+                .map(|h| h.join().unwrap_or_default())
+                .collect()
+        });
+        for part in parts {
+            let from = self.done;
+            if self.add_simulated(from, &part).is_err() {
+                // A thread failed (cannot happen short of a panic): finish
+                // the rest on this thread.
+                return self.run_batch(end - self.done);
+            }
+        }
         self.done
     }
 
@@ -288,17 +389,17 @@ impl EnvelopeJob {
     /// identical to a single-worker run because simulation j always uses
     /// stream j of the seed.
     pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
-        let to = to.min(self.params.n_sim);
-        let mut out = Vec::with_capacity(to.saturating_sub(from) * self.ctx.r.len());
-        for j in from..to {
-            let mut rng = stream_rng(self.params.seed, j as u64);
-            let (x, y) = self.ctx.region.sample(self.ctx.n, &mut rng);
-            out.extend(select(
-                self.params.function,
-                self.ctx.compute(&x, &y, self.needs),
-            ));
+        simulate_curves(&self.ctx, self.needs, &self.params, from, to)
+    }
+
+    /// What a helper needs to simulate parts of this run (see
+    /// [`EnvelopeSimulator`]): the study area, n and the parameters.
+    pub fn share(&self) -> SimulationShare {
+        SimulationShare {
+            polygons: self.ctx.region.polygons.clone(),
+            n: self.ctx.n,
+            params: self.params.clone(),
         }
-        out
     }
 
     /// Appends curves from [`EnvelopeJob::simulate_range`] that start at
@@ -601,6 +702,42 @@ mod tests {
         c.add_simulated(0, &first).unwrap();
         assert_eq!(c.add_simulated(11, &second).unwrap(), 19);
         let rc = c.finish();
+        // A helper built from the share (no event locations) gives the
+        // same curves.
+        let helper = EnvelopeSimulator::new(&w1.share()).unwrap();
+        assert_eq!(helper.simulate_range(3, 9), w1.simulate_range(3, 9));
+        let json = serde_json::to_string(&w1.share()).unwrap();
+        let back: SimulationShare = serde_json::from_str(&json).unwrap();
+        assert_eq!(back, w1.share());
+        // The JSON hand-over is exact for coordinates that are not short
+        // decimals (projected metres with many digits).
+        let odd = SimulationShare {
+            polygons: vec![vec![(0..200)
+                .map(|i| {
+                    let t = i as f64 * 0.031_415_926_535_897_93;
+                    [
+                        512_345.678_901_234_5 + 1e3 * t.cos() / 3.0,
+                        4_123_456.1 + 7e2 * t.sin() / 7.0,
+                    ]
+                })
+                .collect()]],
+            n: 10,
+            params: EnvelopeParams {
+                seed: u64::MAX - 12_345,
+                ..Default::default()
+            },
+        };
+        let back: SimulationShare =
+            serde_json::from_str(&serde_json::to_string(&odd).unwrap()).unwrap();
+        assert_eq!(back, odd);
+        // Native threads: 19 simulations over 3 threads, in two batches.
+        let mut d = EnvelopeJob::new_in(unit_square(), &x, &y, &p).unwrap();
+        assert_eq!(d.run_batch_parallel(8, 3), 8);
+        assert_eq!(d.run_batch_parallel(100, 3), 19);
+        let rd = d.finish();
+        assert_eq!(ra.pointwise_hi, rd.pointwise_hi);
+        assert_eq!(ra.pointwise_lo, rd.pointwise_lo);
+        assert_eq!(ra.mad.p_value, rd.mad.p_value);
         assert_eq!(ra.pointwise_hi, rc.pointwise_hi);
         assert_eq!(ra.dclf.statistic, rc.dclf.statistic);
         assert_eq!(ra.pointwise_lo, rb.pointwise_lo);

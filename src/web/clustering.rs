@@ -14,6 +14,13 @@
 //! * `envelopeFinish() -> result`: bands, MAD and DCLF tests and the verdict
 //!   (an [`EnvelopeResult`] with snake_case fields).
 //!
+//! * `envelopeShare() -> string`, `envelopeHelperStart(share)`,
+//!   `envelopeSimulate(from, to) -> Float64Array`, `envelopeAdd(from,
+//!   curves) -> done`: the same run spread over helper workers (the worker
+//!   does this by itself when the machine has more than one core); results
+//!   are identical to one worker's because simulation j always uses stream
+//!   j of the seed.
+//!
 //! The three envelope methods follow the worker's job protocol; the running
 //! job lives in `Session::extras` under [`KEY`], so loading other data drops
 //! it (a later step then fails with `no_job`).
@@ -30,7 +37,7 @@
 use super::{analysis_error, from_js, js_error, to_js, Session};
 use crate::distance::{
     clark_evans, quadrat_test, ClarkEvansParams, Correction, EnvelopeJob, EnvelopeParams,
-    NnCorrection, QuadratParams, Reference, SummaryFunction,
+    EnvelopeSimulator, NnCorrection, QuadratParams, Reference, SimulationShare, SummaryFunction,
 };
 use plotters::coord::Shift;
 use plotters::prelude::*;
@@ -39,6 +46,8 @@ use std::f64::consts::PI;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "clustering";
+/// A helper worker's simulator (see `envelopeHelperStart`).
+const HELPER_KEY: &str = "clustering-helper";
 
 /// Parameters of `envelopeStart`, flat for JavaScript. Absent fields take
 /// the core's defaults.
@@ -206,6 +215,63 @@ impl Session {
     pub fn envelope_step(&mut self, k: usize) -> Result<usize, JsValue> {
         let job = self.extra_mut::<EnvelopeJob>(KEY).ok_or_else(no_job)?;
         Ok(job.run_batch(k.max(1)))
+    }
+
+    /// What a helper worker needs to simulate parts of the running job, as
+    /// JSON: the study area, the number of events and the parameters (never
+    /// the event locations).
+    #[wasm_bindgen(js_name = envelopeShare)]
+    pub fn envelope_share(&self) -> Result<String, JsValue> {
+        let job = self
+            .extras
+            .get(KEY)
+            .and_then(|b| b.downcast_ref::<EnvelopeJob>())
+            .ok_or_else(no_job)?;
+        serde_json::to_string(&job.share())
+            .map_err(|e| js_error("internal", &format!("could not share the run: {e}"), None))
+    }
+
+    /// In a helper worker: prepares to simulate parts of a shared run.
+    #[wasm_bindgen(js_name = envelopeHelperStart)]
+    pub fn envelope_helper_start(&mut self, share: String) -> Result<(), JsValue> {
+        let share: SimulationShare = serde_json::from_str(&share).map_err(|e| {
+            js_error(
+                "bad_parameter",
+                &format!("unreadable shared run: {e}"),
+                None,
+            )
+        })?;
+        let sim = EnvelopeSimulator::new(&share).map_err(|e| analysis_error(&e))?;
+        self.extras.insert(HELPER_KEY, Box::new(sim));
+        Ok(())
+    }
+
+    /// Curves of simulations `from..to` (row after row), from the helper's
+    /// simulator or else the running job; the job is not changed.
+    #[wasm_bindgen(js_name = envelopeSimulate)]
+    pub fn envelope_simulate(&self, from: usize, to: usize) -> Result<Vec<f64>, JsValue> {
+        if let Some(sim) = self
+            .extras
+            .get(HELPER_KEY)
+            .and_then(|b| b.downcast_ref::<EnvelopeSimulator>())
+        {
+            return Ok(sim.simulate_range(from, to));
+        }
+        let job = self
+            .extras
+            .get(KEY)
+            .and_then(|b| b.downcast_ref::<EnvelopeJob>())
+            .ok_or_else(no_job)?;
+        Ok(job.simulate_range(from, to))
+    }
+
+    /// Appends simulated curves that start at simulation `from` (which must
+    /// be the number done so far); returns the number done.
+    #[wasm_bindgen(js_name = envelopeAdd)]
+    pub fn envelope_add(&mut self, from: usize, curves: Vec<f64>) -> Result<usize, JsValue> {
+        let job = self.extra_mut::<EnvelopeJob>(KEY).ok_or_else(no_job)?;
+        job.add_simulated(from, &curves)
+            .map_err(|e| analysis_error(&e))
     }
 
     /// Finishes the run: bands, global tests and the verdict.

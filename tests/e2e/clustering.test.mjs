@@ -153,6 +153,28 @@ test('a long run can be cancelled and the page recovers', async () => {
   assert.deepEqual(log.pageErrors, []);
 });
 
+test('a run spread over helper workers gives exactly the one-worker result', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  const got = await page.evaluate(async () => {
+    const spec = (parallel) => ({
+      start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish',
+      params: { n_sim: 39, seed: 1234567, function: 'l' },
+      ...(parallel ? { parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } } : {}),
+    });
+    let workers = 0;
+    const a = await window.Cloister.runJob(spec(true), (p) => { workers = Math.max(workers, p.workers || 0); }).promise;
+    const b = await window.Cloister.runJob(spec(false), () => {}).promise;
+    return { workers, cores: navigator.hardwareConcurrency, a: JSON.stringify([a.pointwise_lo, a.pointwise_hi, a.mad, a.dclf]), b: JSON.stringify([b.pointwise_lo, b.pointwise_hi, b.mad, b.dclf]) };
+  });
+  // With more than one core the worker starts helpers (progress reports
+  // how many workers computed); the results must not depend on it.
+  if (got.cores > 1) assert.ok(got.workers >= 2, `workers: ${got.workers}`);
+  assert.equal(got.a, got.b);
+  assert.deepEqual(log.pageErrors, []);
+  assert.deepEqual(log.requests.filter((u) => !u.startsWith('file:') && !u.startsWith('blob:') && !u.startsWith('data:')), []);
+});
+
 test('quadrat and Clark–Evans boxes show finite numbers for the demo', async () => {
   const out = outDir();
   const { page, log } = await openPage(browser, { width: 1366, height: 900 });

@@ -197,7 +197,7 @@
     $('clu-progress').value = 0;
     $('clu-progress-text').textContent = `0 / ${fmt(params.n_sim)} simulations`;
     setStatus('Simulating chance patterns…');
-    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params }, ({ done, total }) => {
+    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, ({ done, total }) => {
       if (token !== state.runToken) return;
       $('clu-progress').max = total;
       $('clu-progress').value = done;
