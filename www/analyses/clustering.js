@@ -197,11 +197,23 @@
     $('clu-progress').value = 0;
     $('clu-progress-text').textContent = `0 / ${fmt(params.n_sim)} simulations`;
     setStatus('Simulating chance patterns…');
-    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, ({ done, total }) => {
+    // Time left is estimated from the simulations done so far (the first
+    // progress report comes after the observed pattern is computed).
+    let t0 = null;
+    let d0 = 0;
+    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, ({ done, total, workers }) => {
       if (token !== state.runToken) return;
       $('clu-progress').max = total;
       $('clu-progress').value = done;
-      $('clu-progress-text').textContent = `${fmt(done)} / ${fmt(total)} simulations`;
+      const now = performance.now();
+      if (t0 === null) { t0 = now; d0 = done; }
+      let extra = '';
+      if (done > d0 && now - t0 > 1500) {
+        const left = ((now - t0) / (done - d0)) * (total - done) / 1000;
+        extra += left >= 90 ? ` · about ${fmt(Math.round(left / 60))} min left` : ` · about ${fmt(Math.max(1, Math.round(left)))} s left`;
+      }
+      if (workers > 1) extra += ` · ${fmt(workers)} workers`;
+      $('clu-progress-text').textContent = `${fmt(done)} / ${fmt(total)} simulations${extra}`;
     });
     state.job = job;
     try {
