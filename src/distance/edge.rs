@@ -4,12 +4,12 @@
 //! * **Isotropic** (Ripley 1976, J Appl Prob 13:255–266; Ripley 1977, JRSS-B
 //!   39:172–212 [from memory]): e_ij = 2π·d_ij / ℓ(∂b(x_i, d_ij) ∩ W), the
 //!   reciprocal of the fraction of the circle centred at x_i through x_j
-//!   that lies inside W. The arc length is computed analytically from
-//!   circle–edge intersections ([`super::region`]), holes included. The
-//!   weight is asymmetric (e_ij ≠ e_ji). When the circle does not reach
-//!   the boundary (b_i ≥ d) the weight is 1 and no geometry is done; the
-//!   edges within reach of each point near the boundary are cached once
-//!   per pattern.
+//!   that lies inside W. The arc length is computed analytically, holes
+//!   included: per pattern, from the signed triangles each nearby edge
+//!   forms with the point ([`IsoCache`]); for single checks, and for points
+//!   on the boundary, from circle–edge crossings ([`Region::arc_inside`]).
+//!   The weight is asymmetric (e_ij ≠ e_ji). When the circle does not
+//!   reach the boundary (b_i ≥ d) the weight is 1 and no geometry is done.
 //! * **Translation** (Ohser & Stoyan 1981; Ohser 1983 [from memory]):
 //!   e_ij = |W| / |W ∩ (W + (x_j − x_i))|. Exact for an axis-aligned
 //!   rectangle a×b: ab/((a − |Δx|)(b − |Δy|)). For other windows the set

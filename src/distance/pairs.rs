@@ -4,11 +4,13 @@
 //! (counting sort) and stored contiguously, so the inner loop of the pair
 //! enumeration walks plain slices. Distances are compared as `d² ≤ r²` and
 //! the distance handed on is `sqrt(d²)`; every caller then compares that
-//! `d` with `r` values (`d ≤ r` convention, METHODS §0).
+//! `d` with `r` values (`d ≤ r` convention, METHODS §0). [`SquaredBins`]
+//! gives the same bins from d² without the square root.
 //!
 //! Complexity: building is O(n); enumerating pairs within `r` is
-//! O(n + pairs examined), where with cells of side `r/2` about twice the
-//! number of pairs within `r` are examined.
+//! O(n + pairs examined). Each row of neighbouring cells is clipped to the
+//! columns that can reach the disc of radius `r`, so with cells of side
+//! `r/4` about 1.5 times the number of pairs within `r` are examined.
 
 /// Points sorted into square cells.
 #[derive(Debug, Clone)]
@@ -407,6 +409,43 @@ mod tests {
                 assert_eq!((a.0, a.1), (b.0, b.1));
                 assert_eq!(a.2, b.2);
             }
+        }
+    }
+
+    /// The full-neighbourhood runs (used for the isotropic weights) hold
+    /// every point within r of each point of the cell.
+    #[test]
+    fn test_cell_runs_cover_all_neighbours() {
+        let (x, y) = random_points(400, 29);
+        for (r, cell) in [(0.05, 0.0125), (0.1, 0.1), (0.2, 0.05), (0.07, 0.02)] {
+            let g = PointGrid::new(&x, &y, cell);
+            let mut got = Vec::new();
+            g.for_each_cell_runs(r, |a0, a1, runs| {
+                for a in a0..a1 {
+                    for &(b0, b1) in runs {
+                        for b in b0..b1 {
+                            let d2 = (g.xs[a] - g.xs[b]).powi(2) + (g.ys[a] - g.ys[b]).powi(2);
+                            if b != a && d2 <= r * r {
+                                got.push((g.id[a], g.id[b]));
+                            }
+                        }
+                    }
+                }
+            });
+            got.sort_unstable();
+            let before = got.len();
+            got.dedup();
+            assert_eq!(got.len(), before, "a pair was visited twice");
+            let mut want = Vec::new();
+            for i in 0..x.len() {
+                for j in 0..x.len() {
+                    let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
+                    if i != j && d2 <= r * r {
+                        want.push((i as u32, j as u32));
+                    }
+                }
+            }
+            assert_eq!(got, want, "r = {r}, cell = {cell}");
         }
     }
 
