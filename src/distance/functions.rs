@@ -417,7 +417,6 @@ impl Context {
             let pc = self.pcf_correction;
             let kernel_c = 0.75 / h;
             let inv_h2 = 1.0 / (h * h);
-            let region = &self.region;
             let generic = !fast || needs.pcf;
             if generic {
                 grid.for_each_pair(reach, |a, bb, d| {
@@ -427,8 +426,7 @@ impl Context {
                     let mut iso_w = |capped: &mut u64| -> f64 {
                         if iso_pair.is_nan() {
                             let c = iso.as_ref().expect("isotropic cache built when used");
-                            iso_pair = c.weight(region, a, xa, ya, d, capped)
-                                + c.weight(region, bb, xb, yb, d, capped);
+                            iso_pair = c.weight(a, d, capped) + c.weight(bb, d, capped);
                         }
                         iso_pair
                     };
@@ -635,7 +633,6 @@ impl Context {
         let limit = bins.limit();
         let mut d2s: Vec<f64> = Vec::new();
         let mut ws: Vec<f64> = Vec::new();
-        let region = &self.region;
         grid.for_each_cell_runs(self.r_max, |a0, a1, runs| {
             for a in a0..a1 {
                 let ba = iso.b[a];
@@ -662,7 +659,7 @@ impl Context {
                     continue;
                 }
                 d2s.truncate(m);
-                iso.weights_minus_one(region, a, xa, ya, &d2s, &mut ws, capped);
+                iso.weights_minus_one(a, &d2s, &mut ws, capped);
                 for (&d2, &w) in d2s.iter().zip(&ws) {
                     extra[bins.bin(d2)] += w;
                 }

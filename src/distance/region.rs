@@ -361,6 +361,12 @@ impl Region {
     /// the arcs from each entering to the next leaving crossing are summed.
     /// If entering and leaving do not alternate (tangencies, vertex
     /// grazes), arc midpoints are tested for containment instead.
+    ///
+    /// Known limit: for a centre exactly on the boundary, a circle through
+    /// a vertex can be misjudged (a crossing at the vertex is dropped). The
+    /// distance functions do not use this routine (see `IsoCache`, which
+    /// handles such points); it stays as an independent check for points
+    /// inside the area.
     pub fn arc_inside(&self, cx: f64, cy: f64, d: f64, near: &[u32]) -> f64 {
         const TAU: f64 = std::f64::consts::TAU;
         if d <= 0.0 {
