@@ -42,32 +42,44 @@ function runJob(id, spec) {
   const tick = () => {
     try {
       if (job.cancelled) {
-        jobs.delete(id);
-        self.postMessage({ id, ok: false, error: { code: 'cancelled', message: 'Cancelled.', row: null, column: null }, fatal: false });
+        endCancelled(id);
         return;
       }
       const t0 = performance.now();
       done = Number(session[step](k));
       const dt = performance.now() - t0;
-      // Aim for BATCH_MS per batch: grow or shrink k by at most 4x.
-      k = Math.max(1, Math.min(k * 4, Math.round(k * BATCH_MS / Math.max(dt, 1))));
+      k = adapt(k, k, dt, BATCH_MS);
       if (done >= total) {
-        jobs.delete(id);
-        const result = session[finish]();
-        self.postMessage({ id, ok: true, result }, transferables(result));
+        endFinished(id, finish);
         return;
       }
       self.postMessage({ id, progress: { done, total } });
       setTimeout(tick, 0);
     } catch (err) {
-      jobs.delete(id);
-      const fatal = isFatal(err);
-      if (fatal) session = null;
-      self.postMessage({ id, ok: false, error: plainError(err), fatal });
+      endFailed(id, err);
     }
   };
   self.postMessage({ id, progress: { done: 0, total } });
   setTimeout(tick, 0);
+}
+
+/** The three ways a job ends: each forgets the job and answers the page. */
+function endCancelled(id) {
+  jobs.delete(id);
+  self.postMessage({ id, ok: false, error: { code: 'cancelled', message: 'Cancelled.', row: null, column: null }, fatal: false });
+}
+
+function endFinished(id, finish) {
+  jobs.delete(id);
+  const result = session[finish]();
+  self.postMessage({ id, ok: true, result }, transferables(result));
+}
+
+function endFailed(id, err) {
+  jobs.delete(id);
+  const fatal = isFatal(err);
+  if (fatal) session = null;
+  self.postMessage({ id, ok: false, error: plainError(err), fatal });
 }
 
 // ---------- the same job spread over helper workers ----------
@@ -86,7 +98,7 @@ function helperCount() {
   return Math.max(0, Math.min(cores - 1, 7));
 }
 
-/** New piece size: aim for `target` ms, changing by at most 4x. */
+/** New batch or piece size: aim for `target` ms, changing by at most 4x. */
 function adapt(size, did, ms, target) {
   return Math.max(1, Math.min(size * 4, Math.round(did * target / Math.max(ms, 1))));
 }
@@ -131,8 +143,7 @@ function runParallelJob(id, spec) {
     try {
       if (job.cancelled) {
         stopHelpers();
-        jobs.delete(id);
-        self.postMessage({ id, ok: false, error: { code: 'cancelled', message: 'Cancelled.', row: null, column: null }, fatal: false });
+        endCancelled(id);
         return;
       }
       flush();
@@ -145,9 +156,7 @@ function runParallelJob(id, spec) {
       }
       if (done >= total) {
         stopHelpers();
-        jobs.delete(id);
-        const result = session[finish]();
-        self.postMessage({ id, ok: true, result }, transferables(result));
+        endFinished(id, finish);
         return;
       }
       if (done !== reported) {
@@ -158,10 +167,7 @@ function runParallelJob(id, spec) {
       setTimeout(tick, piece ? 0 : 15);
     } catch (err) {
       stopHelpers();
-      jobs.delete(id);
-      const fatal = isFatal(err);
-      if (fatal) session = null;
-      self.postMessage({ id, ok: false, error: plainError(err), fatal });
+      endFailed(id, err);
     }
   };
   self.postMessage({ id, progress: { done: 0, total } });

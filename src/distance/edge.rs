@@ -95,8 +95,6 @@ pub(crate) struct IsoCache {
     fan: Vec<FanEdge>,
     /// Angle of the area seen from each point (2π inside).
     base: Vec<f64>,
-    /// Reused buffer for [`Self::weights_minus_one`].
-    scratch: std::cell::RefCell<Vec<f64>>,
     cap: f64,
 }
 
@@ -123,6 +121,19 @@ struct FanEdge {
     s: f64,
     seg: f64,
     far: f64,
+}
+
+/// |[lo, hi] ∩ (−α, α)|, with plain comparisons (no NaN can occur here).
+#[inline(always)]
+fn cut_part(lo: f64, hi: f64, a: f64) -> f64 {
+    let top = if hi < a { hi } else { a };
+    let bot = if lo > -a { lo } else { -a };
+    let part = top - bot;
+    if part > 0.0 {
+        part
+    } else {
+        0.0
+    }
 }
 
 impl IsoCache {
@@ -187,7 +198,6 @@ impl IsoCache {
             start,
             fan,
             base,
-            scratch: Default::default(),
             cap,
         }
     }
@@ -206,11 +216,7 @@ impl IsoCache {
                 cut += f.s * (f.hi - f.lo);
                 continue;
             }
-            let a = acos(f.p / d);
-            let c = f.hi.min(a) - f.lo.max(-a);
-            if c > 0.0 {
-                cut += f.s * c;
-            }
+            cut += f.s * cut_part(f.lo, f.hi, acos(f.p / d));
         }
         self.base[i] - cut
     }
@@ -218,7 +224,15 @@ impl IsoCache {
     /// e − 1 for point `i` at (x, y) and each squared distance in `d2s`
     /// (all beyond b_i), into `out`. Same values as [`Self::weight`], in
     /// one sweep per cached edge.
-    pub fn weights_minus_one(&self, i: usize, d2s: &[f64], out: &mut Vec<f64>, capped: &mut u64) {
+    /// `inv` is a buffer the caller keeps between calls (1/d).
+    pub fn weights_minus_one(
+        &self,
+        i: usize,
+        d2s: &[f64],
+        inv: &mut Vec<f64>,
+        out: &mut Vec<f64>,
+        capped: &mut u64,
+    ) {
         use std::f64::consts::TAU;
         out.clear();
         let (s0, s1) = (self.start[i] as usize, self.start[i + 1] as usize);
@@ -227,24 +241,17 @@ impl IsoCache {
         let min_inside = TAU / self.cap;
         // Staged sweeps (short independent iterations pipeline well):
         // 1/d, then the cut of each cached edge, then the weights.
-        let mut inv = std::mem::take(&mut *self.scratch.borrow_mut());
         inv.clear();
         inv.extend(d2s.iter().map(|&d2| 1.0 / d2.sqrt()));
         out.resize(d2s.len(), 0.0);
         for f in fan {
             let (p, lo, hi, sg) = (f.p, f.lo, f.hi, f.s);
-            for (c, &iv) in out.iter_mut().zip(&inv) {
+            for (c, &iv) in out.iter_mut().zip(inv.iter()) {
                 // α = 0 when d ≤ p (t ≥ 1), and the clamp at 0 drops edges
                 // whose span misses (−α, α): no branches needed.
-                let a = acos(p * iv);
-                // Plain comparisons (no NaN handling needed here).
-                let top = if hi < a { hi } else { a };
-                let bot = if lo > -a { lo } else { -a };
-                let part = top - bot;
-                *c += if part > 0.0 { sg * part } else { 0.0 };
+                *c += sg * cut_part(lo, hi, acos(p * iv));
             }
         }
-        *self.scratch.borrow_mut() = inv;
         let base = self.base[i];
         for c in out.iter_mut() {
             let inside = base - *c;
@@ -530,7 +537,7 @@ mod tests {
                 .collect();
             let cache = IsoCache::new(&w, &xs, &ys, b.clone(), reach, f64::INFINITY);
             let mut capped = 0;
-            let mut out = Vec::new();
+            let (mut out, mut inv) = (Vec::new(), Vec::new());
             for i in 0..xs.len() {
                 let mut ds = Vec::new();
                 for k in 1..=60 {
@@ -552,7 +559,7 @@ mod tests {
                     }
                 }
                 let d2s: Vec<f64> = ds.iter().map(|(d, _)| d * d).collect();
-                cache.weights_minus_one(i, &d2s, &mut out, &mut capped);
+                cache.weights_minus_one(i, &d2s, &mut inv, &mut out, &mut capped);
                 assert_eq!(out.len(), ds.len());
                 for ((d, e), got) in ds.iter().zip(&out) {
                     assert!(

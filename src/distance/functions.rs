@@ -633,6 +633,7 @@ impl Context {
         let limit = bins.limit();
         let mut d2s: Vec<f64> = Vec::new();
         let mut ws: Vec<f64> = Vec::new();
+        let mut inv: Vec<f64> = Vec::new();
         grid.for_each_cell_runs(self.r_max, |a0, a1, runs| {
             for a in a0..a1 {
                 let ba = iso.b[a];
@@ -659,7 +660,7 @@ impl Context {
                     continue;
                 }
                 d2s.truncate(m);
-                iso.weights_minus_one(a, &d2s, &mut ws, capped);
+                iso.weights_minus_one(a, &d2s, &mut inv, &mut ws, capped);
                 for (&d2, &w) in d2s.iter().zip(&ws) {
                     extra[bins.bin(d2)] += w;
                 }
