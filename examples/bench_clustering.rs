@@ -157,6 +157,16 @@ fn main() {
         return;
     }
     let sq = square(1000.0);
+    if args.get(1).map(String::as_str) == Some("square") {
+        // One path at a time, for profiling: `square iso` or `square none`.
+        let c = if args.get(2).map(String::as_str) == Some("none") {
+            Correction::None
+        } else {
+            Correction::Isotropic
+        };
+        envelope_time(&sq, 10_000, SummaryFunction::L, c, 19);
+        return;
+    }
     if args.get(1).map(String::as_str) == Some("iso") {
         // The isotropic K path alone (19 simulations), for tuning.
         envelope_time(&sq, 10_000, SummaryFunction::L, Correction::None, 19);

@@ -221,47 +221,39 @@ impl IsoCache {
         self.base[i] - cut
     }
 
-    /// e − 1 for point `i` at (x, y) and each squared distance in `d2s`
-    /// (all beyond b_i), into `out`. Same values as [`Self::weight`], in
-    /// one sweep per cached edge.
-    /// `inv` is a buffer the caller keeps between calls (1/d).
-    pub fn weights_minus_one(
-        &self,
-        i: usize,
-        d2s: &[f64],
-        inv: &mut Vec<f64>,
-        out: &mut Vec<f64>,
-        capped: &mut u64,
-    ) {
+    /// e − 1 for point `i` and each distance in `ds` (all beyond b_i),
+    /// into `out`. Same values as [`Self::weight`] (to rounding), in one
+    /// branch-free sweep per cached edge, which the compiler vectorises.
+    pub fn weights_minus_one(&self, i: usize, ds: &[f64], out: &mut Vec<f64>, capped: &mut u64) {
         use std::f64::consts::TAU;
         out.clear();
         let (s0, s1) = (self.start[i] as usize, self.start[i + 1] as usize);
         let acos = super::acos::acos01();
         let fan = &self.fan[s0..s1];
         let min_inside = TAU / self.cap;
-        // Staged sweeps (short independent iterations pipeline well):
-        // 1/d, then the cut of each cached edge, then the weights.
-        inv.clear();
-        inv.extend(d2s.iter().map(|&d2| 1.0 / d2.sqrt()));
-        out.resize(d2s.len(), 0.0);
+        // Staged sweeps (short independent iterations pipeline well): the
+        // cut of each cached edge, then the weights. t = p/d is divided
+        // directly, not multiplied by 1/d: a tangent circle (d = p) must
+        // give t = 1 exactly, where acos is steepest.
+        out.resize(ds.len(), 0.0);
         for f in fan {
             let (p, lo, hi, sg) = (f.p, f.lo, f.hi, f.s);
-            for (c, &iv) in out.iter_mut().zip(inv.iter()) {
+            for (c, &d) in out.iter_mut().zip(ds) {
                 // α = 0 when d ≤ p (t ≥ 1), and the clamp at 0 drops edges
                 // whose span misses (−α, α): no branches needed.
-                *c += sg * cut_part(lo, hi, acos(p * iv));
+                *c += sg * cut_part(lo, hi, acos(p / d));
             }
         }
         let base = self.base[i];
+        let cap1 = self.cap - 1.0;
+        let mut n_capped = 0u64;
         for c in out.iter_mut() {
             let inside = base - *c;
-            *c = if inside > min_inside {
-                TAU / inside - 1.0
-            } else {
-                *capped += 1;
-                self.cap - 1.0
-            };
+            let ok = inside > min_inside;
+            n_capped += (!ok) as u64;
+            *c = if ok { TAU / inside - 1.0 } else { cap1 };
         }
+        *capped += n_capped;
     }
 
     /// Isotropic weight of point `i` for a neighbour at distance `d`;
@@ -537,7 +529,7 @@ mod tests {
                 .collect();
             let cache = IsoCache::new(&w, &xs, &ys, b.clone(), reach, f64::INFINITY);
             let mut capped = 0;
-            let (mut out, mut inv) = (Vec::new(), Vec::new());
+            let mut out = Vec::new();
             for i in 0..xs.len() {
                 let mut ds = Vec::new();
                 for k in 1..=60 {
@@ -558,8 +550,8 @@ mod tests {
                         ds.push((d, a));
                     }
                 }
-                let d2s: Vec<f64> = ds.iter().map(|(d, _)| d * d).collect();
-                cache.weights_minus_one(i, &d2s, &mut inv, &mut out, &mut capped);
+                let dist: Vec<f64> = ds.iter().map(|(d, _)| *d).collect();
+                cache.weights_minus_one(i, &dist, &mut out, &mut capped);
                 assert_eq!(out.len(), ds.len());
                 for ((d, e), got) in ds.iter().zip(&out) {
                     assert!(

@@ -47,7 +47,6 @@
 //! whose circle reaches the boundary.
 
 use super::edge::{Correction, IsoCache, NnCorrection, Translation};
-use super::pairs::SquaredBins;
 use super::pairs::{nn_cell, PointGrid};
 use super::region::Region;
 use crate::error::AnalysisError;
@@ -160,8 +159,6 @@ pub(crate) struct Context {
     pub bandwidth: f64,
     pub n: usize,
     translation: Option<Translation>,
-    /// Exact bins by squared distance over `r`.
-    bins: SquaredBins,
     f_x: Vec<f64>,
     f_y: Vec<f64>,
     f_b: Vec<f64>,
@@ -289,7 +286,6 @@ impl Context {
                 );
             }
         }
-        let bins = SquaredBins::new(&r);
         Ok(Context {
             region,
             r,
@@ -303,7 +299,6 @@ impl Context {
             bandwidth,
             n,
             translation,
-            bins,
             f_x,
             f_y,
             f_b,
@@ -403,12 +398,17 @@ impl Context {
             let fast = needs.k && !needs.pcf;
             if fast {
                 let (h, diff) = match self.correction {
-                    Correction::None => self.k_kernel::<0>(&grid, None, &[], &mut capped),
-                    Correction::Isotropic => {
-                        self.k_kernel::<1>(&grid, iso.as_ref(), &[], &mut capped)
-                    }
-                    Correction::Translation => self.k_kernel::<2>(&grid, None, &[], &mut capped),
-                    Correction::Border => self.k_kernel::<3>(&grid, None, &kmax, &mut capped),
+                    Correction::None => self.k_kernel::<0>(&grid, &[], &mut capped),
+                    Correction::Isotropic => (
+                        self.k_isotropic(
+                            &grid,
+                            iso.as_ref().expect("isotropic cache built when used"),
+                            &mut capped,
+                        ),
+                        vec![0.0; nr + 1],
+                    ),
+                    Correction::Translation => self.k_kernel::<2>(&grid, &[], &mut capped),
+                    Correction::Border => self.k_kernel::<3>(&grid, &kmax, &mut capped),
                 };
                 kacc = h;
                 border_diff = diff;
@@ -556,43 +556,44 @@ impl Context {
     /// weights, binned by the smallest r_k ≥ d (last slot: beyond r_max).
     /// Written without a distance test in the inner loop: every candidate
     /// goes to a bin (looked up by d², no square root), those beyond r_max
-    /// to the overflow slot. With `ISO` (MODE 1) the pairs are counted
-    /// with weight 1 here and the isotropic excess w − 1 is added by
-    /// [`Self::iso_excess`].
+    /// to the overflow slot. (The isotropic correction has its own pass,
+    /// [`Self::k_isotropic`].)
     fn k_kernel<const MODE: u8>(
         &self,
         grid: &PointGrid,
-        iso: Option<&IsoCache>,
         kmax: &[i64],
         capped: &mut u64,
     ) -> (Vec<f64>, Vec<f64>) {
-        // MODE: 0 none, 1 isotropic, 2 translation, 3 border.
+        // MODE: 0 none, 2 translation, 3 border.
         let nr = self.r.len();
         // Four interleaved count histograms (fewer store-to-load stalls
         // when consecutive pairs fall in the same bin); weight excesses
         // over 1 go to `extra`; border counts to a difference array.
-        let mut h4 = vec![[0u32; 4]; nr + 1];
+        let mut h4 = vec![[0u64; 4]; nr + 1];
         let mut extra = vec![0.0f64; nr + 1];
         let mut diff = vec![0.0f64; nr + 1];
-        let bins = &self.bins;
         let trans = self.translation.as_ref();
         let cap = self.cap;
-        let mut dbuf: Vec<f64> = Vec::new();
+        let scale = BinScale::new(self.step, nr);
+        let (mut ds, mut ks): (Vec<f64>, Vec<u32>) = (Vec::new(), Vec::new());
         grid.for_each_block(self.r_max, |a, b0, b1| {
             let (xa, ya) = (grid.xs[a], grid.ys[a]);
             let bx = &grid.xs[b0..b1];
             let by = &grid.ys[b0..b1];
-            // Phase 1: squared distances (vectorisable).
-            dbuf.clear();
-            dbuf.extend(bx.iter().zip(by).map(|(x, y)| {
-                let dx = x - xa;
-                let dy = y - ya;
-                dx * dx + dy * dy
-            }));
-            // Phase 2: bins and weights.
+            // Phase 1: distances and bins (vectorised).
+            ds.resize(bx.len(), 0.0);
+            ks.resize(bx.len(), 0);
+            if distance_bins(bx, by, xa, ya, &scale, &mut ds, &mut ks) > 0 {
+                for (k, &d) in ks.iter_mut().zip(&ds) {
+                    if scale.doubtful(d) {
+                        *k = self.bin(d) as u32;
+                    }
+                }
+            }
+            // Phase 2: counts and weights.
             let ka = if MODE == 3 { kmax[a] } else { 0 };
-            for (k, &d2) in dbuf.iter().enumerate() {
-                let bin = bins.bin(d2);
+            for (k, &bin) in ks.iter().enumerate() {
+                let bin = bin as usize;
                 if MODE == 3 {
                     if bin < nr {
                         for km in [ka, kmax[b0 + k]] {
@@ -612,60 +613,101 @@ impl Context {
                 }
             }
         });
-        if MODE == 1 {
-            if let Some(c) = iso {
-                self.iso_excess(grid, c, &mut extra, capped);
-            }
-        }
         let hist = (0..=nr)
             .map(|k| 2.0 * (h4[k].iter().map(|v| *v as f64).sum::<f64>()) + extra[k])
             .collect();
         (hist, diff)
     }
 
-    /// Adds Σ (e_ij − 1) over ordered pairs (i, j) with b_i < d_ij ≤ r_max
-    /// to `extra` by bin: the isotropic excess over the count. Each point
-    /// near the boundary gathers its whole neighbourhood beyond b_i, then
-    /// the weights are computed in one branch-free sweep per cached edge
-    /// (see [`IsoCache`]), which keeps the arithmetic units busy.
-    fn iso_excess(&self, grid: &PointGrid, iso: &IsoCache, extra: &mut [f64], capped: &mut u64) {
-        let bins = &self.bins;
-        let limit = bins.limit();
-        let mut d2s: Vec<f64> = Vec::new();
+    /// Σ over ordered pairs (i, j), i ≠ j, of Ripley's isotropic weight
+    /// e_i(d_ij), binned by the smallest r_k ≥ d_ij (last slot: beyond
+    /// r_max), in one pass over each point's whole neighbourhood:
+    ///
+    /// 1. distances and bins of all candidates, in a branch-free loop the
+    ///    compiler vectorises ([`distance_bins`]);
+    /// 2. one count per candidate (weight 1), and for a point whose
+    ///    circle can reach the boundary (b_i < r_max) the candidates with
+    ///    b_i < d ≤ r_max are packed aside;
+    /// 3. their weights minus one in vectorised sweeps
+    ///    ([`IsoCache::weights_minus_one`]), added by bin.
+    ///
+    /// Each point meets itself once at distance 0 (bin 0); those n
+    /// self-pairs are taken off at the end.
+    fn k_isotropic(&self, grid: &PointGrid, iso: &IsoCache, capped: &mut u64) -> Vec<f64> {
+        let nr = self.r.len();
+        let n = grid.xs.len();
+        // Four interleaved histograms (fewer store-to-load stalls when
+        // consecutive candidates fall in the same bin).
+        let mut h4 = vec![[0u64; 4]; nr + 1];
+        let mut e4 = vec![[0.0f64; 4]; nr + 1];
+        let (mut ds, mut ks): (Vec<f64>, Vec<u32>) = (Vec::new(), Vec::new());
+        let (mut nd, mut nk): (Vec<f64>, Vec<u32>) = (Vec::new(), Vec::new());
         let mut ws: Vec<f64> = Vec::new();
-        let mut inv: Vec<f64> = Vec::new();
+        let scale = BinScale::new(self.step, nr);
         grid.for_each_cell_runs(self.r_max, |a0, a1, runs| {
+            let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
+            ds.resize(total, 0.0);
+            ks.resize(total, 0);
             for a in a0..a1 {
-                let ba = iso.b[a];
-                if !(ba < self.r_max) {
-                    continue;
-                }
-                let b2 = ba * ba;
                 let (xa, ya) = (grid.xs[a], grid.ys[a]);
-                // Branch-free gather: write every candidate, advance the
-                // length only for those beyond b_a and within r_max.
-                let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
-                d2s.resize(total, 0.0);
-                let mut m = 0;
+                let mut off = 0;
+                let mut doubtful = 0u32;
                 for &(b0, b1) in runs {
-                    for (x, y) in grid.xs[b0..b1].iter().zip(&grid.ys[b0..b1]) {
-                        let dx = x - xa;
-                        let dy = y - ya;
-                        let d2 = dx * dx + dy * dy;
-                        d2s[m] = d2;
-                        m += (d2 > b2 && d2 <= limit) as usize;
+                    let m = b1 - b0;
+                    doubtful += distance_bins(
+                        &grid.xs[b0..b1],
+                        &grid.ys[b0..b1],
+                        xa,
+                        ya,
+                        &scale,
+                        &mut ds[off..off + m],
+                        &mut ks[off..off + m],
+                    );
+                    off += m;
+                }
+                if doubtful > 0 {
+                    // Some distance lies within rounding of a grid value:
+                    // settle those bins exactly (rare except on lattices).
+                    for (k, &d) in ks.iter_mut().zip(&ds) {
+                        if scale.doubtful(d) {
+                            *k = self.bin(d) as u32;
+                        }
                     }
                 }
-                if m == 0 {
-                    continue;
-                }
-                d2s.truncate(m);
-                iso.weights_minus_one(a, &d2s, &mut inv, &mut ws, capped);
-                for (&d2, &w) in d2s.iter().zip(&ws) {
-                    extra[bins.bin(d2)] += w;
+                let ba = iso.b[a];
+                if ba < self.r_max {
+                    nd.resize(total, 0.0);
+                    nk.resize(total, 0);
+                    let mut m = 0;
+                    for (i, (&k, &d)) in ks.iter().zip(&ds).enumerate() {
+                        h4[k as usize][i & 3] += 1;
+                        // Branch-free packing: write always, advance only
+                        // for b_a < d ≤ r_max.
+                        nd[m] = d;
+                        nk[m] = k;
+                        m += (d > ba && (k as usize) < nr) as usize;
+                    }
+                    if m > 0 {
+                        iso.weights_minus_one(a, &nd[..m], &mut ws, capped);
+                        for (i, (&k, &w)) in nk[..m].iter().zip(&ws).enumerate() {
+                            e4[k as usize][i & 3] += w;
+                        }
+                    }
+                } else {
+                    for (i, &k) in ks.iter().enumerate() {
+                        h4[k as usize][i & 3] += 1;
+                    }
                 }
             }
         });
+        let mut hist: Vec<f64> = (0..=nr)
+            .map(|k| {
+                let c: u64 = h4[k].iter().sum();
+                c as f64 + (e4[k][0] + e4[k][1]) + (e4[k][2] + e4[k][3])
+            })
+            .collect();
+        hist[0] -= n as f64;
+        hist
     }
 
     /// #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r} on the grid (NaN when no
@@ -815,6 +857,83 @@ pub(crate) fn distance_functions_in(
         warnings,
         r,
     })
+}
+
+/// Bins from distances without a table: k = ⌈d/step⌉ (capped at the
+/// overflow slot), which is the exact bin unless d/step lies within
+/// `SLACK` of an integer (of 0 only for d > 0), where the rounding of d/step and of the
+/// grid values r_k = k·r_max/n could disagree (their relative errors are
+/// a few units in the last place, so |d/step − k| < 1e-11 covers them
+/// with a wide margin). Those few are flagged and settled exactly.
+struct BinScale {
+    inv_step: f64,
+    /// d/step values above this go to the overflow slot.
+    q_max: f64,
+}
+
+const SLACK: f64 = 1e-9;
+
+impl BinScale {
+    fn new(step: f64, nr: usize) -> BinScale {
+        BinScale {
+            inv_step: 1.0 / step,
+            q_max: nr as f64 - 0.5,
+        }
+    }
+
+    /// (bin estimate, doubtful) for distance d ≥ 0.
+    #[inline(always)]
+    fn estimate(&self, d: f64) -> (u32, bool) {
+        // 2^52: adding it rounds q (0 ≤ q < 2^51) to the nearest integer,
+        // which then sits in the low bits of the sum (a bit cast, not a
+        // float-to-int conversion, so the loop stays vectorised).
+        const ROUND: f64 = 4_503_599_627_370_496.0;
+        let q0 = d * self.inv_step;
+        let q = if q0 < self.q_max { q0 } else { self.q_max };
+        let big = q + ROUND;
+        let near = big - ROUND;
+        let gap = q - near;
+        let k = (big.to_bits() as u32) + (gap > 0.0) as u32;
+        // Near 0 only d > 0 is in doubt (r_0 = 0; a tiny d/step may even
+        // underflow to 0).
+        let doubtful = (gap < SLACK) & (gap > -SLACK) & ((near > 0.5) | (d > 0.0));
+        (k, doubtful)
+    }
+
+    fn doubtful(&self, d: f64) -> bool {
+        self.estimate(d).1
+    }
+}
+
+/// Distances from (xa, ya) to the points (xs, ys) and their bin estimates
+/// ([`BinScale`]); returns how many estimates are doubtful. Branch-free,
+/// so the compiler vectorises it.
+#[inline]
+fn distance_bins(
+    xs: &[f64],
+    ys: &[f64],
+    xa: f64,
+    ya: f64,
+    scale: &BinScale,
+    d_out: &mut [f64],
+    k_out: &mut [u32],
+) -> u32 {
+    let mut doubtful = 0u32;
+    for (((x, y), d), k) in xs
+        .iter()
+        .zip(ys)
+        .zip(d_out.iter_mut())
+        .zip(k_out.iter_mut())
+    {
+        let dx = x - xa;
+        let dy = y - ya;
+        let dd = (dx * dx + dy * dy).sqrt();
+        let (kk, flag) = scale.estimate(dd);
+        *d = dd;
+        *k = kk;
+        doubtful += flag as u32;
+    }
+    doubtful
 }
 
 #[cfg(test)]
@@ -1042,5 +1161,120 @@ pub(crate) mod tests {
         // One coincident pair (2 ordered pairs) counts at every r ≥ 0.
         assert!((out.k[0] - 2.0 / 6.0).abs() < 1e-12);
         assert!(out.k.iter().all(|v| v.is_finite()));
+    }
+
+    /// Bins from the vectorised estimate (settled exactly where doubtful)
+    /// agree with the smallest r_k ≥ d found by scanning the grid, at,
+    /// just below and just above every grid value and at random distances.
+    #[test]
+    fn test_bin_estimate_matches_scan() {
+        let mut rng = crate::rng::rng_from_seed(8);
+        for (r_max, steps) in [
+            (0.25, 5usize),
+            (250.0, 50),
+            (1.0, 1),
+            (3.7, 1000),
+            (0.3, 10_000),
+        ] {
+            let p = FunctionParams {
+                r_max: Some(r_max),
+                n_steps: steps,
+                ..Default::default()
+            };
+            let ctx = Context::new(unit_square(), 10, &p, Needs::default()).unwrap();
+            let r = ctx.r.clone();
+            let scale = BinScale::new(ctx.step, r.len());
+            let want = |d: f64| r.iter().position(|&v| d <= v).unwrap_or(r.len());
+            let mut probes = vec![0.0, 4.0 * r_max, 1e300, f64::MIN_POSITIVE];
+            for &v in &r {
+                probes.push(v);
+                probes.push(f64::from_bits(v.to_bits() + 1));
+                if v > 0.0 {
+                    probes.push(f64::from_bits(v.to_bits() - 1));
+                }
+            }
+            for _ in 0..20_000 {
+                probes.push(rand::RngExt::random::<f64>(&mut rng) * 1.2 * r_max);
+            }
+            let mut settled = 0;
+            for &d in &probes {
+                let (k, doubtful) = scale.estimate(d);
+                let k = if doubtful {
+                    settled += 1;
+                    ctx.bin(d)
+                } else {
+                    k as usize
+                };
+                assert_eq!(k, want(d), "steps {steps}, d = {d:e}");
+                assert_eq!(ctx.bin(d), want(d), "steps {steps}, d = {d:e}");
+            }
+            // Every grid value and its neighbours are doubtful (r_0 = 0 is
+            // exact and needs no settling).
+            assert!(settled >= 3 * steps, "{settled}");
+        }
+        // F12-style exact distance: √(0.09² + 0.12²) against r = 0.25·3/5.
+        let d = (0.09f64 * 0.09 + 0.12 * 0.12).sqrt();
+        let p = FunctionParams {
+            r_max: Some(0.25),
+            n_steps: 5,
+            ..Default::default()
+        };
+        let ctx = Context::new(unit_square(), 10, &p, Needs::default()).unwrap();
+        assert_eq!(ctx.bin(d), ctx.r.iter().position(|&v| d <= v).unwrap());
+    }
+
+    /// Points on a lattice whose spacing is a multiple of the distance
+    /// step: many pair distances equal grid values exactly, so the
+    /// doubtful-bin path runs for most points; every correction's fast
+    /// kernel still matches the general pass.
+    #[test]
+    fn test_lattice_distances_on_grid_values() {
+        let (mut x, mut y) = (Vec::new(), Vec::new());
+        for i in 0..12 {
+            for j in 0..12 {
+                x.push(0.04 + 0.08 * i as f64);
+                y.push(0.04 + 0.08 * j as f64);
+            }
+        }
+        for c in [
+            Correction::None,
+            Correction::Isotropic,
+            Correction::Translation,
+            Correction::Border,
+        ] {
+            let p = FunctionParams {
+                r_max: Some(0.24),
+                n_steps: 6,
+                correction: c,
+                ..Default::default()
+            };
+            let k_only = Needs {
+                k: true,
+                ..Default::default()
+            };
+            let both = Needs {
+                k: true,
+                pcf: true,
+                ..Default::default()
+            };
+            let a = Context::new(unit_square(), x.len(), &p, k_only)
+                .unwrap()
+                .compute(&x, &y, k_only);
+            let b = Context::new(unit_square(), x.len(), &p, both)
+                .unwrap()
+                .compute(&x, &y, both);
+            for k in 0..a.k.len() {
+                assert!(
+                    (a.k[k] - b.k[k]).abs() <= 1e-12 * b.k[k].abs().max(1e-12),
+                    "{c:?} {k}: {} {}",
+                    a.k[k],
+                    b.k[k]
+                );
+            }
+            // Spacing 0.08 = 2 steps: nothing closer than r_2, and the
+            // first neighbours (4 per inner point) count at r_2 exactly.
+            assert_eq!(a.k[1], 0.0, "{c:?}");
+            assert!(a.k[2] > 0.0, "{c:?}");
+        }
     }
 }

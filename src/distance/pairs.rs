@@ -4,8 +4,7 @@
 //! (counting sort) and stored contiguously, so the inner loop of the pair
 //! enumeration walks plain slices. Distances are compared as `d² ≤ r²` and
 //! the distance handed on is `sqrt(d²)`; every caller then compares that
-//! `d` with `r` values (`d ≤ r` convention, METHODS §0). [`SquaredBins`]
-//! gives the same bins from d² without the square root.
+//! `d` with `r` values (`d ≤ r` convention, METHODS §0).
 //!
 //! Complexity: building is O(n); enumerating pairs within `r` is
 //! O(n + pairs examined). Each row of neighbouring cells is clipped to the
@@ -289,78 +288,6 @@ impl PointGrid {
     }
 }
 
-/// Exact distance bins looked up by squared distance (no square root):
-/// `bin(d²)` is the smallest k with `sqrt(d²) ≤ r_k`, or `r.len()` beyond
-/// the last grid value, exactly as if `sqrt` were taken (METHODS §0's
-/// `d ≤ r` convention). T_k is the largest double whose square root is
-/// ≤ r_k; a table over d² gives a starting bin that is never too high,
-/// and a short scan (almost always zero or one step) finishes.
-#[derive(Debug, Clone)]
-pub(crate) struct SquaredBins {
-    /// T_0..T_{n−1}, then +∞.
-    t: Vec<f64>,
-    tab: Vec<u32>,
-    scale: f64,
-}
-
-/// Largest double x with sqrt(x) ≤ r (r ≥ 0).
-fn sq_threshold(r: f64) -> f64 {
-    let mut x = r * r;
-    while x > 0.0 && x.sqrt() > r {
-        x = f64::from_bits(x.to_bits() - 1);
-    }
-    loop {
-        let up = f64::from_bits(x.to_bits() + 1);
-        if up.is_finite() && up.sqrt() <= r {
-            x = up;
-        } else {
-            return x;
-        }
-    }
-}
-
-impl SquaredBins {
-    /// For an increasing grid r (r_0 ≥ 0).
-    pub fn new(r: &[f64]) -> SquaredBins {
-        let mut t: Vec<f64> = r.iter().map(|&v| sq_threshold(v.max(0.0))).collect();
-        let last = t.last().copied().unwrap_or(0.0);
-        t.push(f64::INFINITY);
-        let n = r.len();
-        // Cells narrower than the smallest gap between thresholds (~ step²)
-        // when n is moderate; capped at about a million entries.
-        let cells = (2 * n * n + 2).min(1 << 20);
-        let scale = if last > 0.0 { cells as f64 / last } else { 0.0 };
-        let mut tab = Vec::with_capacity(cells + 2);
-        let mut k = 0usize;
-        for idx in 0..cells + 2 {
-            while k < n && !(t[k] * scale >= idx as f64) {
-                k += 1;
-            }
-            tab.push(k as u32);
-        }
-        SquaredBins { t, tab, scale }
-    }
-
-    /// Largest squared distance within the last grid value.
-    #[inline]
-    pub fn limit(&self) -> f64 {
-        self.t[self.t.len() - 2]
-    }
-
-    /// Smallest k with sqrt(d2) ≤ r_k (r.len() beyond the grid).
-    #[inline]
-    pub fn bin(&self, d2: f64) -> usize {
-        let q = d2 * self.scale;
-        let last = self.tab.len() - 1;
-        let idx = if q < last as f64 { q as usize } else { last };
-        let mut k = self.tab[idx] as usize;
-        while d2 > self.t[k] {
-            k += 1;
-        }
-        k
-    }
-}
-
 /// Cell side for nearest-neighbour grids: about two points per cell.
 pub(crate) fn nn_cell(n: usize, area: f64) -> f64 {
     (2.0 * area / n.max(1) as f64).sqrt()
@@ -470,52 +397,5 @@ mod tests {
         assert_eq!(nn_distances(&[0.5], &[0.5], 1.0)[0], f64::INFINITY);
         // Coincident points: distance 0.
         assert_eq!(nn_distances(&[0.5, 0.5], &[0.5, 0.5], 1.0), vec![0.0, 0.0]);
-    }
-    /// Squared-distance bins agree with binning by sqrt, at and around
-    /// every threshold and at random distances.
-    #[test]
-    fn test_squared_bins_match_sqrt() {
-        let mut rng = crate::rng::rng_from_seed(8);
-        for (r_max, steps) in [
-            (0.25, 5usize),
-            (250.0, 50),
-            (1.0, 1),
-            (3.7, 1000),
-            (0.3, 10_000),
-        ] {
-            let r: Vec<f64> = (0..=steps)
-                .map(|k| (k as f64 * r_max) / steps as f64)
-                .collect();
-            let bins = SquaredBins::new(&r);
-            let want = |d2: f64| {
-                let d = d2.sqrt();
-                r.iter().position(|&v| d <= v).unwrap_or(r.len())
-            };
-            let mut probes = vec![0.0, f64::INFINITY, 4.0 * r_max * r_max];
-            for &v in &r {
-                let t = v * v;
-                probes.extend([t, f64::from_bits(t.to_bits() + 1)]);
-                if t > 0.0 {
-                    probes.push(f64::from_bits(t.to_bits() - 1));
-                }
-            }
-            for _ in 0..20_000 {
-                let d: f64 = rng.random::<f64>() * 1.2 * r_max;
-                probes.push(d * d);
-            }
-            for &d2 in &probes {
-                assert_eq!(bins.bin(d2), want(d2), "steps {steps}, d² = {d2:e}");
-            }
-            assert_eq!(bins.bin(f64::NAN), r.len());
-            assert!(bins.limit().sqrt() <= r_max);
-        }
-        // F12-style exact distance: 0.09² + 0.12² against r = 0.25·3/5.
-        let r: Vec<f64> = (0..=5).map(|k| (k as f64 * 0.25) / 5.0).collect();
-        let bins = SquaredBins::new(&r);
-        let d2: f64 = 0.09f64 * 0.09 + 0.12 * 0.12;
-        assert_eq!(
-            bins.bin(d2),
-            r.iter().position(|&v| d2.sqrt() <= v).unwrap()
-        );
     }
 }
