@@ -205,25 +205,36 @@ function startHelper(job, share, parallel, take, deliver, giveBack) {
     waiting.clear();
   };
   (async () => {
-    let piece = null;
+    // Two pieces in flight: the next one waits in the helper's queue while
+    // it computes the current one, so the helper never idles while this
+    // worker is busy with its own batch and cannot hand out work.
+    const inFlight = [];
     let size = 1;
     try {
       await call('init', [wasmModule]);
       await call(parallel.helperStart, [share]);
+      let last = performance.now();
       while (h.alive && !job.cancelled) {
-        piece = take(size);
-        if (!piece) break;
-        const t0 = performance.now();
-        const curves = await call(parallel.simulate, piece);
-        size = adapt(size, piece[1] - piece[0], performance.now() - t0, HELPER_MS);
+        while (inFlight.length < 2) {
+          const piece = take(size);
+          if (!piece) break;
+          inFlight.push({ piece, result: call(parallel.simulate, piece) });
+        }
+        if (!inFlight.length) break;
+        const curves = await inFlight[0].result;
+        const { piece } = inFlight.shift();
+        // Time between finished pieces: the helper's own computing time.
+        const now = performance.now();
+        size = adapt(size, piece[1] - piece[0], now - last, HELPER_MS);
+        last = now;
         if (!h.alive) break;
         deliver(piece[0], curves);
-        piece = null;
       }
     } catch (_) {
-      // fall through: the piece in hand goes back to the queue
+      // fall through: the pieces in hand go back to the queue
     }
-    if (piece && !job.cancelled) giveBack(piece);
+    if (!job.cancelled) for (const { piece } of inFlight) giveBack(piece);
+    for (const f of inFlight) f.result.catch(() => {});
     h.alive = false;
     worker.terminate();
   })();
