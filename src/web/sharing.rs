@@ -65,7 +65,7 @@ const KEY: &str = "sharing";
 pub const REPORT_CSP: &str = "default-src 'none'; script-src 'unsafe-inline' 'wasm-unsafe-eval' blob:; worker-src blob:; style-src 'unsafe-inline'; img-src data: blob:; connect-src 'none'";
 
 /// Cautions written into the report and shown in the page.
-pub const CAUTIONS: [&str; 4] = [
+pub const CAUTIONS: [&str; 5] = [
     "Dot maps can identify people: published maps of case locations have been turned back \
      into home addresses, and lowering the map resolution did not prevent it (Brownstein, \
      Cassa & Mandl 2006, N Engl J Med 355:1741–1742). Share only masked points or suppressed \
@@ -79,6 +79,9 @@ pub const CAUTIONS: [&str; 4] = [
     "Local data-protection law, your organisation's disclosure-control policy and the data \
      owner's rules prevail over any default in this tool; the threshold of 5 for small counts \
      is common practice, not a rule from any single source.",
+    "Do not release masked points together with counts that have hidden cells for the same \
+     events: counting the masked points per area gives the hidden counts back, roughly. A \
+     report holds one or the other whenever counts are hidden.",
 ];
 
 #[derive(Default)]
@@ -223,6 +226,58 @@ struct ExportArgs {
     map_image: Option<String>,
     /// Report only: a title line.
     title: Option<String>,
+    /// Report only: which shared results it holds when there are both
+    /// masked points and counts (required when counts are hidden).
+    report_holds: Option<ReportHolds>,
+}
+
+/// What a report holds when both masked points and counts exist.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum ReportHolds {
+    MaskedPoints,
+    Counts,
+    Both,
+}
+
+/// The shared results one report is made from.
+struct ReportView<'a> {
+    mask: Option<&'a MaskState>,
+    table: Option<&'a TableState>,
+}
+
+/// Chooses what goes into the report. Masked points and counts with
+/// hidden cells never go together: counting the masked points per area
+/// would give the hidden counts back.
+fn report_view(st: &SharingState, holds: Option<ReportHolds>) -> Result<ReportView<'_>, JsValue> {
+    let (mask, table) = (st.mask.as_ref(), st.table.as_ref());
+    let hidden = table.is_some_and(|t| t.table.cells.iter().any(|c| c.suppressed));
+    let both = mask.is_some() && table.is_some();
+    let refuse = || {
+        js_error(
+            "choose_report_contents",
+            "the report would hold masked points and counts with hidden cells: counting the \
+             masked points per area would give the hidden counts back. Choose one: \
+             report_holds \"masked_points\" or \"counts\"",
+            None,
+        )
+    };
+    match holds {
+        None | Some(ReportHolds::Both) if both && hidden => Err(refuse()),
+        None | Some(ReportHolds::Both) => Ok(ReportView { mask, table }),
+        Some(ReportHolds::MaskedPoints) if mask.is_none() => Err(js_error(
+            "nothing_to_report",
+            "there are no masked points to report: mask the points first",
+            None,
+        )),
+        Some(ReportHolds::MaskedPoints) => Ok(ReportView { mask, table: None }),
+        Some(ReportHolds::Counts) if table.is_none() => Err(js_error(
+            "nothing_to_report",
+            "there are no counts to report: count the events per area first",
+            None,
+        )),
+        Some(ReportHolds::Counts) => Ok(ReportView { mask: None, table }),
+    }
 }
 
 // ---------- results ----------
@@ -251,7 +306,7 @@ struct MaskSummary<'a> {
     k_summary: Option<KSummary>,
     below_target: Vec<UnplacedRow>,
     replaced: bool,
-    cautions: [&'static str; 4],
+    cautions: [&'static str; 5],
 }
 
 fn unplaced_rows(list: &[Unplaced], study: &Study) -> Vec<UnplacedRow> {
@@ -498,7 +553,7 @@ struct AggregateSummary<'a> {
     threshold_note: &'static str,
     largest_shown: Option<u64>,
     events_counted: u64,
-    cautions: [&'static str; 4],
+    cautions: [&'static str; 5],
 }
 
 const THRESHOLD_NOTE: &str =
@@ -651,7 +706,7 @@ const REPORT_MIN_ORIGINAL: usize = 5;
 
 fn report_html(
     study: &Study,
-    st: &SharingState,
+    st: &ReportView<'_>,
     args: &ExportArgs,
     created: &str,
 ) -> Result<(String, Vec<String>), JsValue> {
@@ -692,7 +747,7 @@ fn report_html(
              boundary file.</figcaption></figure>"
         ));
     }
-    if let Some(ms) = &st.mask {
+    if let Some(ms) = st.mask {
         let m = &ms.masked;
         sections.push("masking settings and results".into());
         body.push_str("<section><h2>Masked points</h2>");
@@ -814,7 +869,7 @@ fn report_html(
         body.push_str("<p class=\"note\">Mean nearest-neighbour distance and Clark–Evans R = observed mean / (0.5/√(n/area)) after Clark &amp; Evans (1954), without edge correction; the kernel surfaces use one Gaussian bandwidth for both patterns.</p>");
         body.push_str("</section>");
     }
-    if let Some(ts) = &st.table {
+    if let Some(ts) = st.table {
         let t = &ts.table;
         sections.push("counts per area with suppression and audit".into());
         body.push_str("<section><h2>Counts per area</h2>");
@@ -970,14 +1025,14 @@ fn report_html(
     sections.push("cautions".into());
     body.push_str("<section><h2>Cautions</h2><ul>");
     let mut cautions: Vec<String> = CAUTIONS.iter().map(|s| s.to_string()).collect();
-    if let Some(ms) = &st.mask {
+    if let Some(ms) = st.mask {
         let p = what_leaves(
             &ExportContent::MaskedPoints(&ms.masked),
             &ExportOptions::default(),
         );
         cautions.extend(p.cautions);
     }
-    if let Some(ts) = &st.table {
+    if let Some(ts) = st.table {
         let p = what_leaves(&ExportContent::Table(&ts.table), &ExportOptions::default());
         cautions.extend(p.cautions);
     }
@@ -1121,16 +1176,16 @@ impl Session {
     fn report_preview(&self, args: &ExportArgs, created: &str) -> Result<ReportFile, JsValue> {
         let study = self.study_ref()?;
         let empty = SharingState::default();
-        let st = state(self).unwrap_or(&empty);
-        let (html, sections) = report_html(study, st, args, created)?;
+        let st = report_view(state(self).unwrap_or(&empty), args.report_holds)?;
+        let (html, sections) = report_html(study, &st, args, created)?;
         let mut cautions: Vec<String> = CAUTIONS.iter().map(|s| s.to_string()).collect();
-        if let Some(m) = &st.mask {
+        if let Some(m) = st.mask {
             cautions.extend(m.masked.notes.iter().cloned());
         }
-        if let Some(t) = &st.table {
+        if let Some(t) = st.table {
             cautions.extend(t.table.warnings.iter().cloned());
         }
-        let rows = st.table.as_ref().map_or(0, |t| t.table.cells.len());
+        let rows = st.table.map_or(0, |t| t.table.cells.len());
         Ok(ReportFile {
             text: html,
             file_name: "sharing-report.html".into(),
@@ -1140,15 +1195,14 @@ impl Session {
                 format: "html",
                 fields: sections,
                 rows,
-                metadata_keys: vec![
-                    "tool".into(),
-                    "version".into(),
-                    "created".into(),
-                    "masking settings (no seed)".into(),
-                ],
+                metadata_keys: ["tool", "version", "created"]
+                    .into_iter()
+                    .map(String::from)
+                    .chain(st.mask.map(|_| "masking settings (no seed)".to_string()))
+                    .collect(),
                 contains_original_coordinates: false,
                 label: None,
-                points_left_out: st.mask.as_ref().map_or(0, |m| m.masked.unplaced.len()),
+                points_left_out: st.mask.map_or(0, |m| m.masked.unplaced.len()),
                 cautions,
             },
         })

@@ -100,6 +100,18 @@ test('mask, count, preview and save: the report opens offline with no request an
   await frame(page);
   await page.locator('#map-panel').screenshot({ path: join(out, 'sharing-map.png') });
 
+  // Masked points and hidden counts never go out together: the map picture
+  // and the report show one or the other (counts first).
+  assert.equal(await page.isVisible('#share-holds'), true);
+  assert.equal(await page.isVisible('#share-holds-hint'), true);
+  assert.equal(await page.inputValue('#share-holds'), 'counts');
+  assert.equal(await page.$eval('#share-holds option[value=both]', (o) => o.disabled), true);
+  await frame(page);
+  const countsOnly = await canvasCensus(page, ['#1b1b1b']);
+  assert.equal(countsOnly.counts[0], 0, 'no masked circle drawn over the counts');
+  await page.selectOption('#share-holds', 'masked_points');
+  await frame(page);
+
   // 3. The map picture: preview, then download; it holds no original-point colour.
   await act(page, () => page.click('[data-export="map_png:png"]'));
   assert.match(await page.textContent('#share-preview'), /What leaves the page/);
@@ -110,7 +122,8 @@ test('mask, count, preview and save: the report opens offline with no request an
   assert.ok(pngCount.counts[0] > 100, 'masked points in the picture');
   assert.equal(pngCount.counts.slice(1).reduce((a, b) => a + b, 0), 0, 'no original point colour in the picture');
 
-  // 4. The report: preview first.
+  // 4. The report (of the counts): preview first.
+  await page.selectOption('#share-holds', 'counts');
   await act(page, () => page.click('[data-export="report:html"]'));
   const preview = await page.textContent('#share-preview-list');
   assert.match(preview, /Original coordinates\s*none/);

@@ -287,7 +287,12 @@ test('exports: no original coordinate pair in any shared file; the unmasked expo
       }
     }
   }
-  outputs.push(['report', s.exportFile('report', { created: '2026-01-01' })]);
+  // Masked points and counts with hidden cells never share a report.
+  assert.ok(s.exportFile('aggregates', { format: 'csv' }).text.includes('true'), 'some counts are hidden');
+  assert.equal(throws(() => s.exportFile('report', { created: '2026-01-01' })).code, 'choose_report_contents');
+  assert.equal(throws(() => s.exportPreview('report', { report_holds: 'both' })).code, 'choose_report_contents');
+  outputs.push(['report (masked points)', s.exportFile('report', { created: '2026-01-01', report_holds: 'masked_points' })]);
+  outputs.push(['report (counts)', s.exportFile('report', { created: '2026-01-01', report_holds: 'counts' })]);
   for (const [name, f] of outputs) {
     const pairs = pairsIn(f.text);
     const leaked = origPairs.filter((p) => pairs.has(p)).concat(origMetres.filter((p) => pairs.has(p)));
@@ -296,9 +301,10 @@ test('exports: no original coordinate pair in any shared file; the unmasked expo
     assert.equal(f.preview.contains_original_coordinates, false);
     assert.ok(!/unmasked, internal use only/.test(f.text), `${name} must not carry the unmasked label`);
   }
-  // The report has no coordinates at all: not even single original values.
-  const report = outputs.at(-1)[1].text;
-  for (const [x, y] of originals) assert.ok(!report.includes(x) && !report.includes(y));
+  // The reports have no coordinates at all: not even single original values.
+  for (const [, f] of outputs.slice(-2)) {
+    for (const [x, y] of originals) assert.ok(!f.text.includes(x) && !f.text.includes(y));
+  }
   // Masked points CSV: as many rows as the preview said, as many as were masked.
   const m = outputs[0][1];
   assert.equal(m.text.split('\n').filter((l) => /^-?\d/.test(l)).length, m.preview.rows);
@@ -342,8 +348,9 @@ test('report: one self-contained HTML file with the page\'s CSP, no scripts, no 
   s.maskKAnonymity({ target_k: 10, r_max_m: 250, seed: SEED });
   s.aggregate({ layout: 'square', cell_size_m: 500 });
   const png = 'data:image/png;base64,iVBORw0KGgoAAAANSUhEUgAAAAEAAAABCAYAAAAfFcSJAAAADUlEQVR42mNkYPhfDwAChwGA60e6kgAAAABJRU5ErkJggg==';
-  const f = s.exportFile('report', { created: '2026-01-02T03:04:05Z', map_image: png, title: 'Harrowmere <test>' });
+  const f = s.exportFile('report', { created: '2026-01-02T03:04:05Z', map_image: png, title: 'Harrowmere <test>', report_holds: 'masked_points' });
   const html = f.text;
+  const counts = s.exportFile('report', { created: '2026-01-02T03:04:05Z', report_holds: 'counts' }).text;
   const csp = /export const CSP =\s*"([^"]*)" \+\s*"([^"]*)"/.exec(text('tools/build-page.mjs'));
   assert.ok(csp, 'CSP found in the page builder');
   const policy = csp[1] + csp[2];
@@ -356,12 +363,19 @@ test('report: one self-contained HTML file with the page\'s CSP, no scripts, no 
   assert.ok(html.includes(png));
   assert.ok(html.includes('Harrowmere &lt;test&gt;'), 'text is escaped');
   assert.ok(html.includes(`version ${version()}`) && html.includes('2026-01-02T03:04:05Z'));
-  for (const w of ['Brownstein', 'Cassa', 'data-protection law', 'Target k', 'Counts hidden', 'Audit', 'Clark–Evans R', 'not recorded']) {
+  for (const w of ['Brownstein', 'Cassa', 'data-protection law', 'Target k', 'Clark–Evans R', 'not recorded', 'the hidden counts back']) {
     assert.ok(html.includes(w), `report mentions ${w}`);
   }
+  // One or the other: the masked-points report has no counts, and the
+  // counts report no masked points.
+  for (const w of ['Counts hidden', 'Audit']) {
+    assert.ok(counts.includes(w), `counts report mentions ${w}`);
+    assert.ok(!html.includes(w), `masked-points report must not hold ${w}`);
+  }
+  assert.ok(!counts.includes('Target k'), 'counts report must not hold the masking');
   assert.ok(!html.includes(String(SEED)));
   assert.equal(f.mime, 'text/html');
-  const bad = throws(() => s.exportFile('report', { map_image: 'data:text/html,<script>' }));
+  const bad = throws(() => s.exportFile('report', { map_image: 'data:text/html,<script>', report_holds: 'counts' }));
   assert.equal(bad.code, 'bad_options');
 });
 

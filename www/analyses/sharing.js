@@ -106,7 +106,13 @@
     el('div', { class: 'share-grid' },
       field('Coordinates in files', el('select', { id: 'share-coords' },
         el('option', { value: 'lon_lat' }, 'longitude / latitude'),
-        el('option', { value: 'metres' }, 'planar metres as analysed')))),
+        el('option', { value: 'metres' }, 'planar metres as analysed'))),
+      el('label', { id: 'share-holds-field', hidden: true }, 'Map picture and report show ',
+        el('select', { id: 'share-holds' },
+          el('option', { value: 'counts' }, 'counts per area'),
+          el('option', { value: 'masked_points' }, 'masked points'),
+          el('option', { value: 'both' }, 'both')))),
+    el('p', { class: 'hint', id: 'share-holds-hint', hidden: true }, 'Masked points and counts with hidden cells never go out together: counting the masked points per area would give the hidden counts back. Save one or the other.'),
     el('div', { class: 'share-exports' },
       ...exportButtons.map(([what, format, label]) => el('button', { type: 'button', class: 'quiet', 'data-export': `${what}:${format}`, disabled: true }, label))),
     el('p', { class: 'hint', id: 'share-png-hint' }, 'The map picture can be saved only while the map shows only what would be shared (tick the box in step 1).'),
@@ -126,6 +132,19 @@
     return el('table', { class: cls },
       el('thead', null, el('tr', null, ...headers.map((h, i) => el('th', { scope: 'col', class: i > 0 ? 'n' : null }, h)))),
       el('tbody', null, ...rows.map((r) => el('tr', null, ...r.map((c, i) => (i === 0 ? el('th', { scope: 'row' }, c) : el('td', { class: 'n' }, c)))))));
+  }
+
+  /** True when some count is hidden. */
+  function hiddenCounts() {
+    return !!(state.table && state.table.table.cells.some((c) => c.suppressed));
+  }
+
+  /** Which shared layers go into pictures and the report (never masked
+   * points together with hidden counts). */
+  function sharedParts() {
+    const both = !!(state.mask && state.table);
+    const v = both ? $('share-holds').value : null;
+    return { points: !!state.mask && v !== 'counts', counts: !!state.table && v !== 'masked_points' };
   }
 
   function areaFromFile() {
@@ -160,6 +179,12 @@
               : !data;
     }
     $('share-png-hint').hidden = state.onlyShared;
+    const both = !!(state.mask && state.table);
+    $('share-holds-field').hidden = !both;
+    const hidden = hiddenCounts();
+    $('share-holds').querySelector('option[value=both]').disabled = hidden;
+    if (hidden && $('share-holds').value === 'both') $('share-holds').value = 'counts';
+    $('share-holds-hint').hidden = !(both && hidden);
     const against = $('share-against');
     const hasPop = !!(state.snap && state.snap.study && state.snap.study.controls);
     against.querySelector('option[value=population]').disabled = !hasPop;
@@ -238,6 +263,8 @@
   function drawShared(ctx, geo, wipe) {
     const dpr = geo.dpr || 1;
     const layers = state.snap && state.snap.layers;
+    // Pictures and the shared-only view: the chosen layers only.
+    const parts = wipe ? sharedParts() : { points: true, counts: true };
     let areaPath = null;
     if (wipe) {
       ctx.fillStyle = CLOISTER_PALETTE.background;
@@ -248,7 +275,7 @@
         ctx.fill(areaPath, 'evenodd');
       }
     }
-    if (state.table) {
+    if (state.table && parts.counts) {
       const cells = state.table.table.cells;
       const pattern = hatchPattern(ctx, dpr);
       ctx.globalAlpha = wipe ? 1 : 0.85;
@@ -274,7 +301,7 @@
       ctx.strokeStyle = CLOISTER_PALETTE.areaLine;
       ctx.stroke(areaPath);
     }
-    if (state.mask && state.mask.masked) {
+    if (state.mask && state.mask.masked && parts.points) {
       const m = state.mask.masked;
       const r = 3.2 * dpr;
       ctx.lineWidth = Math.max(1, 1.4 * dpr);
@@ -297,8 +324,9 @@
     const items = [];
     if (state.onlyShared) items.push({ label: 'Original points: hidden (only what would be shared is drawn)', colour: '#ffffff', kind: 'none' });
     if (state.onlyShared && !areaFromFile()) items.push({ label: 'Study area not drawn (it was drawn around the original points)', colour: '#ffffff', kind: 'none' });
-    if (state.mask) items.push({ label: `Masked points (${fmt(state.mask.n_masked)})`, colour: MASK_COLOUR, kind: 'masked' });
-    if (state.table) {
+    const parts = state.onlyShared ? sharedParts() : { points: true, counts: true };
+    if (state.mask && parts.points) items.push({ label: `Masked points (${fmt(state.mask.n_masked)})`, colour: MASK_COLOUR, kind: 'masked' });
+    if (state.table && parts.counts) {
       for (const c of state.classes || []) {
         items.push({ label: c.lo === c.hi ? `${fmt(c.lo)} events per area` : `${fmt(c.lo)}–${fmt(c.hi)} events per area`, colour: c.colour, kind: 'fill' });
       }
@@ -501,6 +529,7 @@
   function exportOptions(format) {
     const o = { created: new Date().toISOString(), coordinates: $('share-coords').value };
     if (format === 'csv' || format === 'geo_json') o.format = format;
+    if (state.mask && state.table) o.report_holds = $('share-holds').value;
     return o;
   }
 
@@ -512,7 +541,7 @@
       if (!state.onlyShared) { showError('Map picture not saved', { message: 'tick "Show only what would be shared" first: the map still shows the original points' }); return; }
       p = {
         content: 'map picture', format: 'png', rows: null, contains_original_coordinates: false, label: null,
-        fields: ['the map as drawn now, with only the shared layers', state.mask ? 'masked points' : null, state.table ? 'counts per area (hidden counts hatched)' : null,
+        fields: ['the map as drawn now, with only the shared layers', sharedParts().points ? 'masked points' : null, sharedParts().counts ? 'counts per area (hidden counts hatched)' : null,
           areaFromFile() ? 'study area outline (from the boundary file)' : null, 'scale bar, north arrow, legend'].filter(Boolean),
         metadata_keys: [], points_left_out: state.mask ? state.mask.unplaced.length : 0, cautions: state.mask ? state.mask.cautions : state.table.cautions,
       };
@@ -637,8 +666,9 @@
     let b = [Infinity, Infinity, -Infinity, -Infinity];
     const grow = (x, y) => { b = [Math.min(b[0], x), Math.min(b[1], y), Math.max(b[2], x), Math.max(b[3], y)]; };
     if (areaFromFile() && layers) for (const p of layers.area) for (const ring of p) for (const v of ring) grow(v[0], v[1]);
-    if (state.mask) for (let i = 0; i + 1 < state.mask.masked.length; i += 2) grow(state.mask.masked[i], state.mask.masked[i + 1]);
-    if (state.table) for (const c of state.table.table.cells) if (c.suppressed || c.count > 0) for (const p of c.geometry) for (const v of p[0]) grow(v[0], v[1]);
+    const parts = sharedParts();
+    if (state.mask && parts.points) for (let i = 0; i + 1 < state.mask.masked.length; i += 2) grow(state.mask.masked[i], state.mask.masked[i + 1]);
+    if (state.table && parts.counts) for (const c of state.table.table.cells) if (c.suppressed || c.count > 0) for (const p of c.geometry) for (const v of p[0]) grow(v[0], v[1]);
     const legend = legendItems().filter((it) => it.kind !== 'none');
     const lh = 22;
     const mapH = h - lh * legend.length - 16;
@@ -696,6 +726,7 @@
   $('share-remask-yes').addEventListener('click', act(() => mask(true)));
   $('share-remask-no').addEventListener('click', () => { $('share-remask').hidden = true; });
   $('share-only').addEventListener('change', () => { updateButtons(); redrawOverlay(); });
+  $('share-holds').addEventListener('change', () => { updateButtons(); redrawOverlay(); });
   $('share-aggregate').addEventListener('click', act(aggregate));
   $('share-min').addEventListener('input', thresholdNote);
   $('share-layout').addEventListener('change', () => {
