@@ -158,13 +158,19 @@ fn main() {
     }
     let sq = square(1000.0);
     if args.get(1).map(String::as_str) == Some("square") {
-        // One path at a time, for profiling: `square iso` or `square none`.
+        // One path at a time, for profiling: `square iso` or `square none`
+        // (add `g` for the pair-correlation function).
         let c = if args.get(2).map(String::as_str) == Some("none") {
             Correction::None
         } else {
             Correction::Isotropic
         };
-        envelope_time(&sq, 10_000, SummaryFunction::L, c, 19);
+        let f = if args.get(3).map(String::as_str) == Some("g") {
+            SummaryFunction::PairCorrelation
+        } else {
+            SummaryFunction::L
+        };
+        envelope_time(&sq, 10_000, f, c, 19);
         return;
     }
     if args.get(1).map(String::as_str) == Some("iso") {

@@ -417,7 +417,18 @@ impl Context {
             let pc = self.pcf_correction;
             let kernel_c = 0.75 / h;
             let inv_h2 = 1.0 / (h * h);
-            let generic = !fast || needs.pcf;
+            let inv_step = 1.0 / self.step;
+            // Fast path for g alone with the isotropic correction.
+            let fast_pcf = needs.pcf && !needs.k && self.pcf_correction == Correction::Isotropic;
+            if fast_pcf {
+                pacc = self.pcf_isotropic(
+                    &grid,
+                    iso.as_ref().expect("isotropic cache built when used"),
+                    reach,
+                    &mut capped,
+                );
+            }
+            let generic = !fast && !fast_pcf;
             if generic {
                 grid.for_each_pair(reach, |a, bb, d| {
                     let (xa, ya, xb, yb) = (grid.xs[a], grid.ys[a], grid.xs[bb], grid.ys[bb]);
@@ -464,10 +475,7 @@ impl Context {
                             Correction::None => 2.0,
                             _ => iso_w(&mut capped),
                         };
-                        // Floor by truncation (no libm call); the kernel test below
-                        // drops the extra node.
-                        let lo = ((d - h) / self.step).max(0.0) as usize;
-                        let hi = (((d + h) / self.step) as usize + 1).min(nr - 1);
+                        let (lo, hi) = kernel_nodes(d, h, inv_step, nr);
                         for k in lo..=hi {
                             let u = self.r[k] - d;
                             let q = 1.0 - u * u * inv_h2;
@@ -710,6 +718,86 @@ impl Context {
         hist
     }
 
+    /// Kernel sums for g with the isotropic correction, over ordered pairs
+    /// (i, j), i ≠ j, with d_ij ≤ r_max + h: Σ e_i(d_ij)·k_h(r_k − d_ij) at
+    /// each grid value (Epanechnikov kernel, as in the general pass). Each
+    /// point's neighbourhood is visited once: distances in a vectorised
+    /// loop, the pairs beyond b_i get their weights in vectorised sweeps
+    /// ([`IsoCache::weights_minus_one`]); the rest weigh 1.
+    fn pcf_isotropic(
+        &self,
+        grid: &PointGrid,
+        iso: &IsoCache,
+        reach: f64,
+        capped: &mut u64,
+    ) -> Vec<f64> {
+        let nr = self.r.len();
+        let h = self.bandwidth;
+        let kernel_c = 0.75 / h;
+        let inv_h2 = 1.0 / (h * h);
+        let mut pacc = vec![0.0f64; nr];
+        let mut ds: Vec<f64> = Vec::new();
+        let (mut near, mut plain): (Vec<f64>, Vec<f64>) = (Vec::new(), Vec::new());
+        let mut ws: Vec<f64> = Vec::new();
+        let inv_step = 1.0 / self.step;
+        let mut add = |d: f64, w: f64| {
+            let (lo, hi) = kernel_nodes(d, h, inv_step, nr);
+            for k in lo..=hi {
+                let u = self.r[k] - d;
+                let q = 1.0 - u * u * inv_h2;
+                if q > 0.0 {
+                    pacc[k] += kernel_c * q * w;
+                }
+            }
+        };
+        grid.for_each_cell_runs(reach, |a0, a1, runs| {
+            let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
+            ds.resize(total, 0.0);
+            for a in a0..a1 {
+                let (xa, ya) = (grid.xs[a], grid.ys[a]);
+                let mut off = 0;
+                for &(b0, b1) in runs {
+                    for ((d, x), y) in ds[off..off + b1 - b0]
+                        .iter_mut()
+                        .zip(&grid.xs[b0..b1])
+                        .zip(&grid.ys[b0..b1])
+                    {
+                        let dx = x - xa;
+                        let dy = y - ya;
+                        *d = (dx * dx + dy * dy).sqrt();
+                    }
+                    if (b0..b1).contains(&a) {
+                        // Not a pair: the point itself.
+                        ds[off + a - b0] = f64::INFINITY;
+                    }
+                    off += b1 - b0;
+                }
+                let ba = iso.b[a];
+                near.clear();
+                plain.clear();
+                for &d in ds.iter() {
+                    if d <= reach {
+                        if d > ba {
+                            near.push(d);
+                        } else {
+                            plain.push(d);
+                        }
+                    }
+                }
+                for &d in &plain {
+                    add(d, 1.0);
+                }
+                if !near.is_empty() {
+                    iso.weights_minus_one(a, &near, &mut ws, capped);
+                    for (&d, &w) in near.iter().zip(&ws) {
+                        add(d, 1.0 + w);
+                    }
+                }
+            }
+        });
+        pacc
+    }
+
     /// #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r} on the grid (NaN when no
     /// point qualifies).
     pub(crate) fn reduced_sample(&self, d: &[f64], b: &[f64]) -> Vec<f64> {
@@ -857,6 +945,25 @@ pub(crate) fn distance_functions_in(
         warnings,
         r,
     })
+}
+
+/// Grid nodes k that can lie within the kernel's reach, |r_k − d| < h:
+/// from ⌈(d − h)/step⌉ to ⌊(d + h)/step⌋, widened by 1e-9 steps for the
+/// rounding of the products (relative error a few units in the last
+/// place), capped to the grid; the caller's kernel test drops any node
+/// outside. Ceiling and floor by truncation (no libm call). An empty range
+/// comes back as lo > hi.
+#[inline(always)]
+fn kernel_nodes(d: f64, h: f64, inv_step: f64, nr: usize) -> (usize, usize) {
+    // Clamped to [0, nr] first, so 32-bit conversions (cheaper than to
+    // usize on x86-64) are exact.
+    let top = nr as f64;
+    let a = ((d - h) * inv_step - 1e-9).clamp(0.0, top);
+    let b = ((d + h) * inv_step + 1e-9).clamp(0.0, top);
+    let whole = a as i32;
+    let lo = (whole + ((whole as f64) < a) as i32) as usize;
+    let hi = (b as i32 as usize).min(nr - 1);
+    (lo, hi)
 }
 
 /// Bins from distances without a table: k = ⌈d/step⌉ (capped at the
@@ -1132,6 +1239,49 @@ pub(crate) mod tests {
                     );
                 }
             }
+        }
+    }
+
+    /// g alone with the isotropic correction (the fast path used by
+    /// envelopes) against the general pass (taken when K is also asked
+    /// for), on a rectangle and on a window with a hole.
+    #[test]
+    fn test_pcf_fast_path_matches_general_pass() {
+        use crate::distance::region::tests::wh;
+        for (region, scale) in [(unit_square(), 1.0), (wh(), 10.0)] {
+            let mut rng = crate::rng::rng_from_seed(37);
+            let (x, y) = region.sample(400, &mut rng);
+            let p = FunctionParams {
+                r_max: Some(0.2 * scale),
+                n_steps: 20,
+                bandwidth: Some(0.02 * scale),
+                ..Default::default()
+            };
+            let pcf_only = Needs {
+                pcf: true,
+                ..Default::default()
+            };
+            let both = Needs {
+                k: true,
+                pcf: true,
+                ..Default::default()
+            };
+            let a = Context::new(region.clone(), x.len(), &p, pcf_only)
+                .unwrap()
+                .compute(&x, &y, pcf_only);
+            let b = Context::new(region.clone(), x.len(), &p, both)
+                .unwrap()
+                .compute(&x, &y, both);
+            assert!(a.pcf[0].is_nan() && b.pcf[0].is_nan());
+            for k in 1..a.pcf.len() {
+                assert!(
+                    (a.pcf[k] - b.pcf[k]).abs() <= 1e-12 * b.pcf[k].abs().max(1e-12),
+                    "{k}: {} {}",
+                    a.pcf[k],
+                    b.pcf[k]
+                );
+            }
+            assert_eq!(a.capped, b.capped);
         }
     }
 
