@@ -69,12 +69,18 @@ test('mask, count, preview and save: the report opens offline with no request an
 
   // The picture can only be saved while the originals are hidden.
   assert.equal(await page.isDisabled('[data-export="map_png:png"]'), true);
+  const baseItems = await page.$$eval('#legend li', (lis) => lis.filter((li) => li.querySelector('.sw.dot, .sw.control, .sw.centre, .sw.ellipse')).map((li) => li.textContent));
+  assert.ok(baseItems.length > 0, 'the original layers are in the legend');
   await page.check('#share-only');
   await frame(page);
   await frame(page);
   const onlyShared = await canvasCensus(page, ['#1b1b1b', ...pal.categories, pal.control]);
   assert.ok(onlyShared.counts[0] > 200, 'masked circles still drawn');
   assert.equal(onlyShared.counts.slice(1).reduce((a, b) => a + b, 0), 0, 'no original point or control pixel left on the map');
+  // The legend lists only what is drawn.
+  const sharedLegend = await page.textContent('#legend');
+  for (const t of baseItems) assert.ok(!sharedLegend.includes(t), `legend still lists ${t}`);
+  assert.match(sharedLegend, /Masked points \(1,500\)/);
   assert.equal(await page.isDisabled('[data-export="map_png:png"]'), false);
 
   // Masking again asks first and warns about averaging.

@@ -322,7 +322,7 @@
 
   function legendItems() {
     const items = [];
-    if (state.onlyShared) items.push({ label: 'Original points: hidden (only what would be shared is drawn)', colour: '#ffffff', kind: 'none' });
+    if (state.onlyShared) items.push({ label: 'Original points: hidden (only what would be shared is drawn)', colour: '#ffffff', kind: 'none', hidesBase: true });
     if (state.onlyShared && !areaFromFile()) items.push({ label: 'Study area not drawn (it was drawn around the original points)', colour: '#ffffff', kind: 'none' });
     const parts = state.onlyShared ? sharedParts() : { points: true, counts: true };
     if (state.mask && parts.points) items.push({ label: `Masked points (${fmt(state.mask.n_masked)})`, colour: MASK_COLOUR, kind: 'masked' });
