@@ -344,6 +344,10 @@ struct ChartOptions {
     view: View,
     units: Units,
     band: Band,
+    /// Device pixels per CSS pixel (1 to 4): sizes of text, lines and
+    /// margins are multiplied by it, so a canvas with that many more
+    /// pixels looks the same, only sharper, on a high-density screen.
+    scale: Option<f64>,
 }
 
 /// What was drawn, for the page's caption and tests.
@@ -509,16 +513,24 @@ fn draw_chart<DB: DrawingBackend>(
         Band::Pointwise => RGBColor(206, 200, 182),
     };
     let obs_colour = RGBColor(176, 58, 18);
+    let k = o
+        .scale
+        .filter(|v| v.is_finite())
+        .unwrap_or(1.0)
+        .clamp(1.0, 4.0);
+    let px = |v: i32| (v as f64 * k).round() as i32;
+    let pt = |v: u32| (v as f64 * k).round() as u32;
+    let pf = |v: f64| v * k;
     area.fill(&WHITE).map_err(plot_err)?;
-    let (legend, plot) = area.split_vertically(30);
+    let (legend, plot) = area.split_vertically(px(30));
     let mut chart = ChartBuilder::on(&plot)
-        .margin(12)
-        .x_label_area_size(44)
-        .y_label_area_size(72)
+        .margin(pt(12))
+        .x_label_area_size(pt(44))
+        .y_label_area_size(pt(72))
         .build_cartesian_2d(0.0..xmax, (ymin - pad)..(ymax + pad))
         .map_err(plot_err)?;
-    let label_font = ("sans-serif", 14).into_font().color(&ink);
-    let tick_font = ("sans-serif", 12).into_font().color(&ink);
+    let label_font = ("sans-serif", pf(14.0)).into_font().color(&ink);
+    let tick_font = ("sans-serif", pf(12.0)).into_font().color(&ink);
     chart
         .configure_mesh()
         .x_desc(x_label.clone())
@@ -561,18 +573,23 @@ fn draw_chart<DB: DrawingBackend>(
     };
     for seg in line(&theo) {
         chart
-            .draw_series(DashedLineSeries::new(seg, 7, 5, ink.stroke_width(1)))
+            .draw_series(DashedLineSeries::new(
+                seg,
+                pt(7),
+                pt(5),
+                ink.stroke_width(pt(1)),
+            ))
             .map_err(plot_err)?;
     }
     for seg in line(&obs) {
         chart
-            .draw_series(LineSeries::new(seg, obs_colour.stroke_width(2)))
+            .draw_series(LineSeries::new(seg, obs_colour.stroke_width(pt(2))))
             .map_err(plot_err)?;
     }
     // Legend in its own strip above the plot, so it never hides a curve.
-    let font = ("sans-serif", 13).into_font().color(&ink);
-    let y = 15;
-    let mut x = 84;
+    let font = ("sans-serif", pf(13.0)).into_font().color(&ink);
+    let y = px(15);
+    let mut x = px(84);
     let items: [(&str, u8); 3] = [
         ("observed", 0),
         ("complete spatial randomness", 1),
@@ -581,26 +598,38 @@ fn draw_chart<DB: DrawingBackend>(
     for (text, kind) in items {
         match kind {
             0 => legend.draw(&PathElement::new(
-                vec![(x, y), (x + 20, y)],
-                obs_colour.stroke_width(2),
+                vec![(x, y), (x + px(20), y)],
+                obs_colour.stroke_width(pt(2)),
             )),
             1 => legend
-                .draw(&PathElement::new(vec![(x, y), (x + 7, y)], ink))
-                .and_then(|_| legend.draw(&PathElement::new(vec![(x + 12, y), (x + 19, y)], ink))),
+                .draw(&PathElement::new(
+                    vec![(x, y), (x + px(7), y)],
+                    ink.stroke_width(pt(1)),
+                ))
+                .and_then(|_| {
+                    legend.draw(&PathElement::new(
+                        vec![(x + px(12), y), (x + px(19), y)],
+                        ink.stroke_width(pt(1)),
+                    ))
+                }),
             _ => legend.draw(&Rectangle::new(
-                [(x, y - 7), (x + 20, y + 7)],
+                [(x, y - px(7)), (x + px(20), y + px(7))],
                 band_fill.filled(),
             )),
         }
         .map_err(plot_err)?;
         legend
-            .draw(&Text::new(text.to_string(), (x + 26, y - 7), font.clone()))
+            .draw(&Text::new(
+                text.to_string(),
+                (x + px(26), y - px(7)),
+                font.clone(),
+            ))
             .map_err(plot_err)?;
         let w = legend
             .estimate_text_size(text, &font)
             .map(|(w, _)| w as i32)
-            .unwrap_or((text.chars().count() as i32) * 7);
-        x += 26 + w + 22;
+            .unwrap_or((text.chars().count() as i32) * px(7));
+        x += px(26) + w + px(22);
     }
     area.present().map_err(plot_err)?;
     Ok(Drawn {
@@ -624,7 +653,7 @@ pub fn draw_envelope_chart(
     }
     let data: ChartData = serde_wasm_bindgen::from_value(result)
         .map_err(|e| chart_error(&format!("the result was not understood ({e})")))?;
-    reject_unknown(&options, &["view", "units", "band"])?;
+    reject_unknown(&options, &["view", "units", "band", "scale"])?;
     let opts: ChartOptions = from_js(options)?;
     let backend = plotters_canvas::CanvasBackend::new(canvas_id)
         .ok_or_else(|| chart_error(&format!("there is no canvas with id \"{canvas_id}\"")))?;

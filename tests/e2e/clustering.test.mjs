@@ -204,3 +204,31 @@ test('quadrat and Clark–Evans boxes show finite numbers for the demo', async (
   assert.match(await page.textContent('#error-text'), /number of simulations must be a whole number from 0 to 9999/);
   assert.deepEqual(log.pageErrors, []);
 });
+
+test('on a high-density screen the chart has a pixel per screen pixel and the same layout', async () => {
+  const out = outDir();
+  const census = {};
+  for (const dpr of [1, 2]) {
+    const { page, context, log } = await openPage(browser, { width: 1366, height: 900, deviceScaleFactor: dpr });
+    await loadDemo(page);
+    await page.fill('#clu-seed', '777');
+    await runEnvelope(page, 19);
+    assert.equal(await page.getAttribute('#clu-chart', 'data-drawn'), '1');
+    const box = await page.locator('#clu-chart').boundingBox();
+    census[dpr] = { ...(await chartCensus(page)), css: [Math.round(box.width), Math.round(box.height)] };
+    assert.equal(census[dpr].width, census[dpr].css[0] * dpr, `canvas width at ${dpr}x`);
+    assert.equal(census[dpr].height, census[dpr].css[1] * dpr, `canvas height at ${dpr}x`);
+    if (dpr === 2) await page.locator('#clu-chart').screenshot({ path: join(out, 'clustering-chart-2x.png') });
+    assert.deepEqual(log.pageErrors, []);
+    await context.close();
+  }
+  // Same picture, scaled: the same shown size and about 4x the pixels of
+  // ink (everything twice as wide and twice as long). The observed curve's
+  // exact colour grows more than 4x, because a wider line has relatively
+  // fewer antialiased edge pixels; it must at least not shrink relatively.
+  assert.deepEqual(census[2].css, census[1].css);
+  const inkRatio = census[2].ink / census[1].ink;
+  assert.ok(inkRatio > 3 && inkRatio < 5, `ink: ${census[1].ink} px at 1x, ${census[2].ink} px at 2x`);
+  const obsRatio = census[2].observed / census[1].observed;
+  assert.ok(obsRatio > 3 && obsRatio < 8, `observed: ${census[1].observed} px at 1x, ${census[2].observed} px at 2x`);
+});

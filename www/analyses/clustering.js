@@ -257,10 +257,16 @@
     if (!res) return;
     const canvas = $('clu-chart');
     const w = Math.max(420, Math.min(960, Math.floor((canvas.parentElement.clientWidth || 762) - 2)));
-    canvas.width = w;
-    canvas.height = Math.round(Math.min(460, Math.max(300, w * 0.55)));
+    const h = Math.round(Math.min(460, Math.max(300, w * 0.55)));
+    // As many canvas pixels as screen pixels (sharp on high-density
+    // screens); the engine scales text, lines and margins to match.
+    const dpr = Math.min(4, Math.max(1, window.devicePixelRatio || 1));
+    canvas.width = Math.round(w * dpr);
+    canvas.height = Math.round(h * dpr);
+    canvas.style.width = `${w}px`;
+    canvas.style.height = `${h}px`;
     try {
-      const drawn = C.engine().drawEnvelopeChart('clu-chart', res, chartOptions());
+      const drawn = C.engine().drawEnvelopeChart('clu-chart', res, { ...chartOptions(), scale: dpr });
       canvas.dataset.drawn = '1';
       canvas.setAttribute('aria-label', `Envelope chart: ${drawn.y_label} against ${drawn.x_label}, observed curve, complete spatial randomness and ${drawn.band_label}`);
     } catch (err) {
