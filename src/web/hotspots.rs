@@ -623,6 +623,9 @@ struct KDistChartData {
     knee_eps_m: Option<f64>,
     /// The eps currently chosen, metres (drawn as a line).
     eps_m: Option<f64>,
+    /// Device pixels per CSS pixel (1 to 4): text, lines and margins are
+    /// multiplied by it (sharp charts on high-density screens).
+    scale: Option<f64>,
 }
 
 /// Draws the sorted k-distance curve on the canvas with id `canvas_id`
@@ -656,10 +659,17 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
         .max(d.eps_m.unwrap_or(0.0))
         * 1.05;
     let ymax = if ymax > 0.0 { ymax } else { 1.0 };
+    let k = d
+        .scale
+        .filter(|v| v.is_finite())
+        .unwrap_or(1.0)
+        .clamp(1.0, 4.0);
+    let px = |v: i32| (v as f64 * k).round() as i32;
+    let pt = |v: u32| (v as f64 * k).round() as u32;
     let mut chart = ChartBuilder::on(&root)
-        .margin(8)
-        .x_label_area_size(34)
-        .y_label_area_size(56)
+        .margin(pt(8))
+        .x_label_area_size(pt(34))
+        .y_label_area_size(pt(56))
         .build_cartesian_2d(0f64..(n as f64), 0f64..ymax)
         .map_err(|e| draw_err(&e))?;
     let nth = if d.min_samples > 1 {
@@ -674,8 +684,8 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
         .y_desc(nth)
         .x_label_formatter(&|v| format!("{v:.0}"))
         .y_label_formatter(&|v| format!("{v:.0}"))
-        .label_style(("sans-serif", 12))
-        .axis_desc_style(("sans-serif", 13))
+        .label_style(("sans-serif", 12.0 * k))
+        .axis_desc_style(("sans-serif", 13.0 * k))
         .draw()
         .map_err(|e| draw_err(&e))?;
     // At most ~2 000 vertices: the curve is monotone, so a stride keeps its shape.
@@ -687,7 +697,7 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
                 .step_by(stride)
                 .chain(std::iter::once(n - 1))
                 .filter_map(|i| d.sorted_desc_m.get(i).map(|&v| (i as f64, v))),
-            line.stroke_width(2),
+            line.stroke_width(pt(2)),
         ))
         .map_err(|e| draw_err(&e))?;
     if let (Some(i), Some(v)) = (d.knee_index, d.knee_eps_m) {
@@ -695,29 +705,31 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
         chart
             .draw_series(std::iter::once(Circle::new(
                 (i as f64, v),
-                6,
-                knee.stroke_width(2),
+                pt(6),
+                knee.stroke_width(pt(2)),
             )))
             .map_err(|e| draw_err(&e))?
             .label(format!("suggested eps {v:.0} m"))
-            .legend(move |(x, y)| Circle::new((x + 8, y), 5, knee.stroke_width(2)));
+            .legend(move |(x, y)| Circle::new((x + px(8), y), pt(5), knee.stroke_width(pt(2))));
     }
     if let Some(eps) = d.eps_m.filter(|v| v.is_finite() && *v > 0.0) {
         let c = RGBColor(90, 90, 90);
         chart
             .draw_series(std::iter::once(PathElement::new(
                 vec![(0.0, eps), (n as f64, eps)],
-                c.stroke_width(1),
+                c.stroke_width(pt(1)),
             )))
             .map_err(|e| draw_err(&e))?
             .label(format!("eps in use {eps:.0} m"))
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 16, y)], c.stroke_width(1)));
+            .legend(move |(x, y)| {
+                PathElement::new(vec![(x, y), (x + px(16), y)], c.stroke_width(pt(1)))
+            });
     }
     chart
         .configure_series_labels()
         .background_style(WHITE.mix(0.85))
         .border_style(RGBColor(180, 180, 180))
-        .label_font(("sans-serif", 12))
+        .label_font(("sans-serif", 12.0 * k))
         .position(SeriesLabelPosition::UpperRight)
         .draw()
         .map_err(|e| draw_err(&e))?;

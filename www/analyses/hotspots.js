@@ -305,8 +305,16 @@
     chart.hidden = false;
     $('hs-kdist-help').hidden = false;
     const eps = Number(epsIn.value);
+    // As many canvas pixels as screen pixels; the engine scales the drawing.
+    const canvas = $('hs-kdist-chart');
+    const dpr = Math.min(4, Math.max(1, window.devicePixelRatio || 1));
+    canvas.width = Math.round(560 * dpr);
+    canvas.height = Math.round(260 * dpr);
+    canvas.style.width = '560px';
+    canvas.style.height = '260px';
     try {
       C.engine().drawKDistanceChart('hs-kdist-chart', {
+        scale: dpr,
         min_samples: num(state.kdist.min_samples),
         sorted_desc_m: Array.from(state.kdist.sorted_desc_m),
         knee_index: state.kdist.knee_index,
