@@ -328,6 +328,17 @@ impl Context {
         k
     }
 
+    /// Bins of the distances whose estimate is doubtful (within rounding of
+    /// a grid value, [`BinScale`]), settled exactly against the grid. Rare
+    /// except on lattices.
+    fn settle_doubtful(&self, scale: &BinScale, ds: &[f64], ks: &mut [u32]) {
+        for (k, &d) in ks.iter_mut().zip(ds) {
+            if scale.doubtful(d) {
+                *k = self.bin(d) as u32;
+            }
+        }
+    }
+
     /// Largest k with r_k ≤ b, or None when b < 0.
     #[inline]
     fn last_at_most(&self, b: f64) -> Option<usize> {
@@ -415,9 +426,7 @@ impl Context {
             }
             let kc = self.correction;
             let pc = self.pcf_correction;
-            let kernel_c = 0.75 / h;
-            let inv_h2 = 1.0 / (h * h);
-            let inv_step = 1.0 / self.step;
+            let kernel = Kernel::new(h, self.step);
             // Fast path for g alone with the isotropic correction.
             let fast_pcf = needs.pcf && !needs.k && self.pcf_correction == Correction::Isotropic;
             if fast_pcf {
@@ -475,14 +484,7 @@ impl Context {
                             Correction::None => 2.0,
                             _ => iso_w(&mut capped),
                         };
-                        let (lo, hi) = kernel_nodes(d, h, inv_step, nr);
-                        for k in lo..=hi {
-                            let u = self.r[k] - d;
-                            let q = 1.0 - u * u * inv_h2;
-                            if q > 0.0 {
-                                pacc[k] += kernel_c * q * w;
-                            }
-                        }
+                        kernel.add(&self.r, &mut pacc, d, w);
                     }
                 });
             }
@@ -592,11 +594,7 @@ impl Context {
             ds.resize(bx.len(), 0.0);
             ks.resize(bx.len(), 0);
             if distance_bins(bx, by, xa, ya, &scale, &mut ds, &mut ks) > 0 {
-                for (k, &d) in ks.iter_mut().zip(&ds) {
-                    if scale.doubtful(d) {
-                        *k = self.bin(d) as u32;
-                    }
-                }
+                self.settle_doubtful(&scale, &ds, &mut ks);
             }
             // Phase 2: counts and weights.
             let ka = if MODE == 3 { kmax[a] } else { 0 };
@@ -674,13 +672,7 @@ impl Context {
                     off += m;
                 }
                 if doubtful > 0 {
-                    // Some distance lies within rounding of a grid value:
-                    // settle those bins exactly (rare except on lattices).
-                    for (k, &d) in ks.iter_mut().zip(&ds) {
-                        if scale.doubtful(d) {
-                            *k = self.bin(d) as u32;
-                        }
-                    }
+                    self.settle_doubtful(&scale, &ds, &mut ks);
                 }
                 let ba = iso.b[a];
                 if ba < self.r_max {
@@ -731,25 +723,12 @@ impl Context {
         reach: f64,
         capped: &mut u64,
     ) -> Vec<f64> {
-        let nr = self.r.len();
-        let h = self.bandwidth;
-        let kernel_c = 0.75 / h;
-        let inv_h2 = 1.0 / (h * h);
-        let mut pacc = vec![0.0f64; nr];
+        let kernel = Kernel::new(self.bandwidth, self.step);
+        let mut pacc = vec![0.0f64; self.r.len()];
         let mut ds: Vec<f64> = Vec::new();
         let (mut near, mut plain): (Vec<f64>, Vec<f64>) = (Vec::new(), Vec::new());
         let mut ws: Vec<f64> = Vec::new();
-        let inv_step = 1.0 / self.step;
-        let mut add = |d: f64, w: f64| {
-            let (lo, hi) = kernel_nodes(d, h, inv_step, nr);
-            for k in lo..=hi {
-                let u = self.r[k] - d;
-                let q = 1.0 - u * u * inv_h2;
-                if q > 0.0 {
-                    pacc[k] += kernel_c * q * w;
-                }
-            }
-        };
+        let mut add = |d: f64, w: f64| kernel.add(&self.r, &mut pacc, d, w);
         grid.for_each_cell_runs(reach, |a0, a1, runs| {
             let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
             ds.resize(total, 0.0);
@@ -947,23 +926,49 @@ pub(crate) fn distance_functions_in(
     })
 }
 
-/// Grid nodes k that can lie within the kernel's reach, |r_k − d| < h:
-/// from ⌈(d − h)/step⌉ to ⌊(d + h)/step⌋, widened by 1e-9 steps for the
-/// rounding of the products (relative error a few units in the last
-/// place), capped to the grid; the caller's kernel test drops any node
-/// outside. Ceiling and floor by truncation (no libm call). An empty range
-/// comes back as lo > hi.
-#[inline(always)]
-fn kernel_nodes(d: f64, h: f64, inv_step: f64, nr: usize) -> (usize, usize) {
-    // Clamped to [0, nr] first, so 32-bit conversions (cheaper than to
-    // usize on x86-64) are exact.
-    let top = nr as f64;
-    let a = ((d - h) * inv_step - 1e-9).clamp(0.0, top);
-    let b = ((d + h) * inv_step + 1e-9).clamp(0.0, top);
-    let whole = a as i32;
-    let lo = (whole + ((whole as f64) < a) as i32) as usize;
-    let hi = (b as i32 as usize).min(nr - 1);
-    (lo, hi)
+/// The Epanechnikov kernel of half-width h used for g, summed onto the
+/// grid values r_k.
+struct Kernel {
+    h: f64,
+    c: f64,
+    inv_h2: f64,
+    inv_step: f64,
+}
+
+impl Kernel {
+    fn new(h: f64, step: f64) -> Kernel {
+        Kernel {
+            h,
+            c: 0.75 / h,
+            inv_h2: 1.0 / (h * h),
+            inv_step: 1.0 / step,
+        }
+    }
+
+    /// Adds w·k_h(r_k − d) at every grid value r_k within reach of d.
+    /// Candidate nodes run from ⌈(d − h)/step⌉ to ⌊(d + h)/step⌋, widened
+    /// by 1e-9 steps for the rounding of the products (relative error a
+    /// few units in the last place) and capped to the grid; the kernel
+    /// test drops any node outside. Ceiling and floor by truncation (no
+    /// libm call), after clamping to [0, n] so that 32-bit conversions
+    /// (cheaper than to usize on x86-64) are exact.
+    #[inline(always)]
+    fn add(&self, r: &[f64], acc: &mut [f64], d: f64, w: f64) {
+        let nr = r.len();
+        let top = nr as f64;
+        let a = ((d - self.h) * self.inv_step - 1e-9).clamp(0.0, top);
+        let b = ((d + self.h) * self.inv_step + 1e-9).clamp(0.0, top);
+        let whole = a as i32;
+        let lo = (whole + ((whole as f64) < a) as i32) as usize;
+        let hi = (b as i32 as usize).min(nr - 1);
+        for k in lo..=hi {
+            let u = r[k] - d;
+            let q = 1.0 - u * u * self.inv_h2;
+            if q > 0.0 {
+                acc[k] += self.c * q * w;
+            }
+        }
+    }
 }
 
 /// Bins from distances without a table: k = ⌈d/step⌉ (capped at the
@@ -1047,6 +1052,49 @@ fn distance_bins(
 pub(crate) mod tests {
     use super::*;
     use crate::distance::region::tests::unit_square;
+
+    /// The curves from a fast path (`fast` asks for K alone or g alone)
+    /// and from the general pass (taken when K and g are both asked for).
+    fn fast_and_general(
+        region: &Region,
+        x: &[f64],
+        y: &[f64],
+        p: &FunctionParams,
+        fast: Needs,
+    ) -> (Curves, Curves) {
+        let both = Needs {
+            k: true,
+            pcf: true,
+            ..Default::default()
+        };
+        let a = Context::new(region.clone(), x.len(), p, fast)
+            .unwrap()
+            .compute(x, y, fast);
+        let b = Context::new(region.clone(), x.len(), p, both)
+            .unwrap()
+            .compute(x, y, both);
+        (a, b)
+    }
+
+    /// a[k] and b[k] agree to 1e-12 (relative) for every k ≥ `from`.
+    fn assert_agree(a: &[f64], b: &[f64], from: usize, what: &str) {
+        assert_eq!(a.len(), b.len(), "{what}");
+        for k in from..a.len() {
+            assert!(
+                (a[k] - b[k]).abs() <= 1e-12 * b[k].abs().max(1e-12),
+                "{what} {k}: {} {}",
+                a[k],
+                b[k]
+            );
+        }
+    }
+
+    const K_ONLY: Needs = Needs {
+        k: true,
+        pcf: false,
+        g: false,
+        f: false,
+    };
 
     /// Fixture F12 (METHODS Appendix A).
     pub fn f12() -> (Vec<f64>, Vec<f64>) {
@@ -1215,29 +1263,8 @@ pub(crate) mod tests {
                     correction: c,
                     ..Default::default()
                 };
-                let k_only = Needs {
-                    k: true,
-                    ..Default::default()
-                };
-                let both = Needs {
-                    k: true,
-                    pcf: true,
-                    ..Default::default()
-                };
-                let a = Context::new(region.clone(), x.len(), &p, k_only)
-                    .unwrap()
-                    .compute(&x, &y, k_only);
-                let b = Context::new(region.clone(), x.len(), &p, both)
-                    .unwrap()
-                    .compute(&x, &y, both);
-                for k in 0..a.k.len() {
-                    assert!(
-                        (a.k[k] - b.k[k]).abs() <= 1e-12 * b.k[k].abs().max(1e-12),
-                        "{c:?} {k}: {} {}",
-                        a.k[k],
-                        b.k[k]
-                    );
-                }
+                let (a, b) = fast_and_general(&region, &x, &y, &p, K_ONLY);
+                assert_agree(&a.k, &b.k, 0, &format!("{c:?}"));
             }
         }
     }
@@ -1261,26 +1288,9 @@ pub(crate) mod tests {
                 pcf: true,
                 ..Default::default()
             };
-            let both = Needs {
-                k: true,
-                pcf: true,
-                ..Default::default()
-            };
-            let a = Context::new(region.clone(), x.len(), &p, pcf_only)
-                .unwrap()
-                .compute(&x, &y, pcf_only);
-            let b = Context::new(region.clone(), x.len(), &p, both)
-                .unwrap()
-                .compute(&x, &y, both);
+            let (a, b) = fast_and_general(&region, &x, &y, &p, pcf_only);
             assert!(a.pcf[0].is_nan() && b.pcf[0].is_nan());
-            for k in 1..a.pcf.len() {
-                assert!(
-                    (a.pcf[k] - b.pcf[k]).abs() <= 1e-12 * b.pcf[k].abs().max(1e-12),
-                    "{k}: {} {}",
-                    a.pcf[k],
-                    b.pcf[k]
-                );
-            }
+            assert_agree(&a.pcf, &b.pcf, 1, "g");
             assert_eq!(a.capped, b.capped);
         }
     }
@@ -1398,29 +1408,8 @@ pub(crate) mod tests {
                 correction: c,
                 ..Default::default()
             };
-            let k_only = Needs {
-                k: true,
-                ..Default::default()
-            };
-            let both = Needs {
-                k: true,
-                pcf: true,
-                ..Default::default()
-            };
-            let a = Context::new(unit_square(), x.len(), &p, k_only)
-                .unwrap()
-                .compute(&x, &y, k_only);
-            let b = Context::new(unit_square(), x.len(), &p, both)
-                .unwrap()
-                .compute(&x, &y, both);
-            for k in 0..a.k.len() {
-                assert!(
-                    (a.k[k] - b.k[k]).abs() <= 1e-12 * b.k[k].abs().max(1e-12),
-                    "{c:?} {k}: {} {}",
-                    a.k[k],
-                    b.k[k]
-                );
-            }
+            let (a, b) = fast_and_general(&unit_square(), &x, &y, &p, K_ONLY);
+            assert_agree(&a.k, &b.k, 0, &format!("{c:?}"));
             // Spacing 0.08 = 2 steps: nothing closer than r_2, and the
             // first neighbours (4 per inner point) count at r_2 exactly.
             assert_eq!(a.k[1], 0.0, "{c:?}");

@@ -344,9 +344,7 @@ struct ChartOptions {
     view: View,
     units: Units,
     band: Band,
-    /// Device pixels per CSS pixel (1 to 4): sizes of text, lines and
-    /// margins are multiplied by it, so a canvas with that many more
-    /// pixels looks the same, only sharper, on a high-density screen.
+    /// Device pixels per CSS pixel ([`super::PixelScale`]).
     scale: Option<f64>,
 }
 
@@ -513,14 +511,8 @@ fn draw_chart<DB: DrawingBackend>(
         Band::Pointwise => RGBColor(206, 200, 182),
     };
     let obs_colour = RGBColor(176, 58, 18);
-    let k = o
-        .scale
-        .filter(|v| v.is_finite())
-        .unwrap_or(1.0)
-        .clamp(1.0, 4.0);
-    let px = |v: i32| (v as f64 * k).round() as i32;
-    let pt = |v: u32| (v as f64 * k).round() as u32;
-    let pf = |v: f64| v * k;
+    let sc = super::PixelScale::new(o.scale);
+    let (px, pt, pf) = (|v| sc.px(v), |v| sc.pt(v), |v| sc.font(v));
     area.fill(&WHITE).map_err(plot_err)?;
     let (legend, plot) = area.split_vertically(px(30));
     let mut chart = ChartBuilder::on(&plot)

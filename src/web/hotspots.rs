@@ -623,8 +623,7 @@ struct KDistChartData {
     knee_eps_m: Option<f64>,
     /// The eps currently chosen, metres (drawn as a line).
     eps_m: Option<f64>,
-    /// Device pixels per CSS pixel (1 to 4): text, lines and margins are
-    /// multiplied by it (sharp charts on high-density screens).
+    /// Device pixels per CSS pixel ([`super::PixelScale`]).
     scale: Option<f64>,
 }
 
@@ -659,13 +658,8 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
         .max(d.eps_m.unwrap_or(0.0))
         * 1.05;
     let ymax = if ymax > 0.0 { ymax } else { 1.0 };
-    let k = d
-        .scale
-        .filter(|v| v.is_finite())
-        .unwrap_or(1.0)
-        .clamp(1.0, 4.0);
-    let px = |v: i32| (v as f64 * k).round() as i32;
-    let pt = |v: u32| (v as f64 * k).round() as u32;
+    let sc = super::PixelScale::new(d.scale);
+    let (px, pt, pf) = (|v| sc.px(v), |v| sc.pt(v), |v| sc.font(v));
     let mut chart = ChartBuilder::on(&root)
         .margin(pt(8))
         .x_label_area_size(pt(34))
@@ -684,8 +678,8 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
         .y_desc(nth)
         .x_label_formatter(&|v| format!("{v:.0}"))
         .y_label_formatter(&|v| format!("{v:.0}"))
-        .label_style(("sans-serif", 12.0 * k))
-        .axis_desc_style(("sans-serif", 13.0 * k))
+        .label_style(("sans-serif", pf(12.0)))
+        .axis_desc_style(("sans-serif", pf(13.0)))
         .draw()
         .map_err(|e| draw_err(&e))?;
     // At most ~2 000 vertices: the curve is monotone, so a stride keeps its shape.
@@ -729,7 +723,7 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
         .configure_series_labels()
         .background_style(WHITE.mix(0.85))
         .border_style(RGBColor(180, 180, 180))
-        .label_font(("sans-serif", 12.0 * k))
+        .label_font(("sans-serif", pf(12.0)))
         .position(SeriesLabelPosition::UpperRight)
         .draw()
         .map_err(|e| draw_err(&e))?;
