@@ -123,10 +123,21 @@ pub(crate) fn acos01() -> impl Fn(f64) -> f64 + Copy {
         // Clamp to [0, 1] with plain comparisons (t is never NaN here).
         let t = if t > 1.0 { 1.0 } else { t };
         let t = if t < 0.0 { 0.0 } else { t };
-        let mut acc = c[DEG];
-        for k in (0..DEG).rev() {
-            acc = acc * t + c[k];
-        }
+        // Estrin's scheme: the same polynomial as Horner's rule, in a
+        // tree of depth 5 instead of a chain of 17 multiply-adds, so
+        // successive evaluations overlap in the pipeline.
+        let t2 = t * t;
+        let t4 = t2 * t2;
+        let t8 = t4 * t4;
+        let t16 = t8 * t8;
+        let q = |k: usize| c[k] + c[k + 1] * t;
+        let r0 = q(0) + q(2) * t2;
+        let r1 = q(4) + q(6) * t2;
+        let r2 = q(8) + q(10) * t2;
+        let r3 = q(12) + q(14) * t2;
+        let s0 = r0 + r1 * t4;
+        let s1 = r2 + r3 * t4;
+        let acc = (s0 + s1 * t8) + q(16) * t16;
         (1.0 - t).sqrt() * acc
     }
 }

@@ -627,86 +627,80 @@ impl Context {
 
     /// Σ over ordered pairs (i, j), i ≠ j, of Ripley's isotropic weight
     /// e_i(d_ij), binned by the smallest r_k ≥ d_ij (last slot: beyond
-    /// r_max), in one pass over each point's whole neighbourhood:
+    /// r_max), in two passes:
     ///
-    /// 1. distances and bins of all candidates, in a branch-free loop the
-    ///    compiler vectorises ([`distance_bins`]);
-    /// 2. one count per candidate (weight 1), and for a point whose
-    ///    circle can reach the boundary (b_i < r_max) the candidates with
-    ///    b_i < d ≤ r_max are packed aside;
-    /// 3. their weights minus one in vectorised sweeps
-    ///    ([`IsoCache::weights_minus_one`]), added by bin.
-    ///
-    /// Each point meets itself once at distance 0 (bin 0); those n
-    /// self-pairs are taken off at the end.
+    /// 1. every ordered pair at weight 1: unordered pairs counted twice
+    ///    (the pass of the uncorrected K, [`Self::k_kernel`]);
+    /// 2. the weights' excess e_i − 1, which is zero unless the circle
+    ///    reaches the boundary (b_i < d_ij): for each point with
+    ///    b_i < r_max, only the cells beyond its inner disc of radius b_i
+    ///    are searched ([`PointGrid::for_each_point_runs_beyond`]); the
+    ///    candidates with b_i < d ≤ r_max are packed in a branch-free
+    ///    loop, binned, and weighted in vectorised sweeps
+    ///    ([`IsoCache::weights_minus_one`]).
     fn k_isotropic(&self, grid: &PointGrid, iso: &IsoCache, capped: &mut u64) -> Vec<f64> {
         let nr = self.r.len();
-        let n = grid.xs.len();
-        // Four interleaved histograms (fewer store-to-load stalls when
-        // consecutive candidates fall in the same bin).
-        let mut h4 = vec![[0u64; 4]; nr + 1];
-        let mut e4 = vec![[0.0f64; 4]; nr + 1];
-        let (mut ds, mut ks): (Vec<f64>, Vec<u32>) = (Vec::new(), Vec::new());
-        let (mut nd, mut nk): (Vec<f64>, Vec<u32>) = (Vec::new(), Vec::new());
-        let mut ws: Vec<f64> = Vec::new();
+        let (mut hist, _) = self.k_kernel::<0>(grid, &[], capped);
+        let r_last = self.r[nr - 1];
         let scale = BinScale::new(self.step, nr);
-        grid.for_each_cell_runs(self.r_max, |a0, a1, runs| {
+        // Four interleaved sums (fewer store-to-load stalls when
+        // consecutive pairs fall in the same bin).
+        let mut e4 = vec![[0.0f64; 4]; nr + 1];
+        let mut ds: Vec<f64> = Vec::new();
+        let mut nd: Vec<f64> = Vec::new();
+        let mut nk: Vec<u32> = Vec::new();
+        let mut ws: Vec<f64> = Vec::new();
+        let inner = |a: usize| {
+            let ba = iso.b[a];
+            (ba < r_last).then_some(ba)
+        };
+        grid.for_each_point_runs_beyond(self.r_max, inner, |a, runs| {
+            let (xa, ya) = (grid.xs[a], grid.ys[a]);
+            let ba = iso.b[a];
             let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
             ds.resize(total, 0.0);
-            ks.resize(total, 0);
-            for a in a0..a1 {
-                let (xa, ya) = (grid.xs[a], grid.ys[a]);
-                let mut off = 0;
-                let mut doubtful = 0u32;
-                for &(b0, b1) in runs {
-                    let m = b1 - b0;
-                    doubtful += distance_bins(
-                        &grid.xs[b0..b1],
-                        &grid.ys[b0..b1],
-                        xa,
-                        ya,
-                        &scale,
-                        &mut ds[off..off + m],
-                        &mut ks[off..off + m],
-                    );
-                    off += m;
+            nd.resize(total, 0.0);
+            let mut off = 0;
+            for &(b0, b1) in runs {
+                for ((d, x), y) in ds[off..off + b1 - b0]
+                    .iter_mut()
+                    .zip(&grid.xs[b0..b1])
+                    .zip(&grid.ys[b0..b1])
+                {
+                    let dx = x - xa;
+                    let dy = y - ya;
+                    *d = (dx * dx + dy * dy).sqrt();
                 }
-                if doubtful > 0 {
-                    self.settle_doubtful(&scale, &ds, &mut ks);
-                }
-                let ba = iso.b[a];
-                if ba < self.r_max {
-                    nd.resize(total, 0.0);
-                    nk.resize(total, 0);
-                    let mut m = 0;
-                    for (i, (&k, &d)) in ks.iter().zip(&ds).enumerate() {
-                        h4[k as usize][i & 3] += 1;
-                        // Branch-free packing: write always, advance only
-                        // for b_a < d ≤ r_max.
-                        nd[m] = d;
-                        nk[m] = k;
-                        m += (d > ba && (k as usize) < nr) as usize;
-                    }
-                    if m > 0 {
-                        iso.weights_minus_one(a, &nd[..m], &mut ws, capped);
-                        for (i, (&k, &w)) in nk[..m].iter().zip(&ws).enumerate() {
-                            e4[k as usize][i & 3] += w;
-                        }
-                    }
-                } else {
-                    for (i, &k) in ks.iter().enumerate() {
-                        h4[k as usize][i & 3] += 1;
-                    }
-                }
+                off += b1 - b0;
+            }
+            // Branch-free packing: write always, advance only for
+            // b_a < d ≤ r_max (a itself, at d = 0 ≤ b_a, never counts).
+            let mut m = 0;
+            for &d in ds.iter() {
+                nd[m] = d;
+                m += (d > ba && d <= r_last) as usize;
+            }
+            if m == 0 {
+                return;
+            }
+            nk.resize(m, 0);
+            let mut doubtful = 0u32;
+            for (k, &d) in nk.iter_mut().zip(&nd[..m]) {
+                let (kk, flag) = scale.estimate(d);
+                *k = kk;
+                doubtful += flag as u32;
+            }
+            if doubtful > 0 {
+                self.settle_doubtful(&scale, &nd[..m], &mut nk);
+            }
+            iso.weights_minus_one(a, &nd[..m], &mut ws, capped);
+            for (i, (&k, &w)) in nk.iter().zip(&ws).enumerate() {
+                e4[k as usize][i & 3] += w;
             }
         });
-        let mut hist: Vec<f64> = (0..=nr)
-            .map(|k| {
-                let c: u64 = h4[k].iter().sum();
-                c as f64 + (e4[k][0] + e4[k][1]) + (e4[k][2] + e4[k][3])
-            })
-            .collect();
-        hist[0] -= n as f64;
+        for (h, e) in hist.iter_mut().zip(&e4) {
+            *h += (e[0] + e[1]) + (e[2] + e[3]);
+        }
         hist
     }
 

@@ -213,6 +213,74 @@ impl PointGrid {
         }
     }
 
+    /// For each sorted position `a` with `inner(a) = Some(ρ)`, calls
+    /// `visit(a, runs)` with row-runs of sorted positions that hold every
+    /// point b ≠ a with ρ < d(a, b) ≤ r (candidates, not yet filtered by
+    /// distance; a itself may be among them). Cells that lie wholly inside
+    /// the disc of radius ρ about a are cut out of the runs, so a point
+    /// close to nothing but its inner disc costs little. (The cut keeps a
+    /// margin of 1e-9 of ρ and of the cell side, so a point whose computed
+    /// distance could exceed ρ is never cut.)
+    pub fn for_each_point_runs_beyond<I, F>(&self, r: f64, inner: I, mut visit: F)
+    where
+        I: Fn(usize) -> Option<f64>,
+        F: FnMut(usize, &[(usize, usize)]),
+    {
+        let reach = self.reach(r);
+        let (nx, ny) = (self.nx as isize, self.ny as isize);
+        let cell = self.cell;
+        let spans: Vec<isize> = (-reach..=reach)
+            .map(|oy| self.row_span(r, reach, oy))
+            .collect();
+        let mut runs: Vec<(usize, usize)> = Vec::with_capacity(4 * reach as usize + 2);
+        let s = |row: isize, col: isize| self.start[(row * nx + col) as usize] as usize;
+        for cy in 0..ny {
+            for cx in 0..nx {
+                let c = (cy * nx + cx) as usize;
+                for a in self.start[c] as usize..self.start[c + 1] as usize {
+                    let Some(rho) = inner(a) else { continue };
+                    let (xa, ya) = (self.xs[a], self.ys[a]);
+                    let rho = rho * (1.0 - 1e-9) - 1e-9 * cell;
+                    runs.clear();
+                    for (k, oy) in (-reach..=reach).enumerate() {
+                        let row = cy + oy;
+                        if row < 0 || row >= ny {
+                            continue;
+                        }
+                        let span = spans[k];
+                        let lo = (cx - span).max(0);
+                        let hi = (cx + span).min(nx - 1);
+                        // Columns wholly inside the disc of radius rho.
+                        let (mut cut_lo, mut cut_hi) = (1isize, 0isize);
+                        if rho > 0.0 {
+                            let y_lo = self.y0 + row as f64 * cell;
+                            let dy = (ya - y_lo).abs().max((ya - y_lo - cell).abs());
+                            if dy < rho {
+                                let w = (rho * rho - dy * dy).sqrt();
+                                cut_lo = ((xa - w - self.x0) / cell).ceil() as isize;
+                                cut_hi = ((xa + w - self.x0) / cell).floor() as isize - 1;
+                                cut_lo = cut_lo.max(lo);
+                                cut_hi = cut_hi.min(hi);
+                            }
+                        }
+                        if cut_lo <= cut_hi {
+                            if lo < cut_lo {
+                                runs.push((s(row, lo), s(row, cut_lo)));
+                            }
+                            if cut_hi < hi {
+                                runs.push((s(row, cut_hi + 1), s(row, hi + 1)));
+                            }
+                        } else {
+                            runs.push((s(row, lo), s(row, hi + 1)));
+                        }
+                    }
+                    runs.retain(|(b0, b1)| b0 < b1);
+                    visit(a, &runs);
+                }
+            }
+        }
+    }
+
     /// Calls `visit(a, b, d)` once for every unordered pair of sorted
     /// positions a ≠ b with distance `d ≤ r`.
     #[inline]
@@ -372,6 +440,68 @@ mod tests {
                     }
                 }
             }
+            assert_eq!(got, want, "r = {r}, cell = {cell}");
+        }
+    }
+
+    /// The runs beyond an inner disc (used for the isotropic weights' excess)
+    /// hold every point b with ρ < d ≤ r, each once, for inner radii drawn
+    /// at random, set to 0, and set just below a neighbour's distance (that
+    /// neighbour must then be kept).
+    #[test]
+    fn test_runs_beyond_cover_the_annulus() {
+        let (x, y) = random_points(400, 31);
+        let mut rng = crate::rng::rng_from_seed(8);
+        for (r, cell) in [(0.05, 0.0125), (0.1, 0.1), (0.2, 0.05), (0.07, 0.02)] {
+            let g = PointGrid::new(&x, &y, cell);
+            let n = g.xs.len();
+            let d = |a: usize, b: usize| {
+                let (dx, dy) = (g.xs[b] - g.xs[a], g.ys[b] - g.ys[a]);
+                (dx * dx + dy * dy).sqrt()
+            };
+            let rho: Vec<Option<f64>> = (0..n)
+                .map(|a| match a % 4 {
+                    0 => None,
+                    1 => Some(0.0),
+                    2 => Some(rng.random::<f64>() * r),
+                    // Just below the distance to a neighbour within r.
+                    _ => (0..n)
+                        .map(|b| d(a, b))
+                        .filter(|&v| v > 0.0 && v <= r)
+                        .fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))))
+                        .map(|v| v * (1.0 - 1e-15)),
+                })
+                .collect();
+            let mut got = Vec::new();
+            g.for_each_point_runs_beyond(
+                r,
+                |a| rho[a],
+                |a, runs| {
+                    for &(b0, b1) in runs {
+                        for b in b0..b1 {
+                            let dd = d(a, b);
+                            if dd > rho[a].unwrap_or(f64::NAN) && dd <= r {
+                                got.push((a, b));
+                            }
+                        }
+                    }
+                },
+            );
+            let before = got.len();
+            got.sort_unstable();
+            got.dedup();
+            assert_eq!(got.len(), before, "a pair was visited twice");
+            let mut want = Vec::new();
+            for a in 0..n {
+                let Some(ra) = rho[a] else { continue };
+                for b in 0..n {
+                    let dd = d(a, b);
+                    if dd > ra && dd <= r {
+                        want.push((a, b));
+                    }
+                }
+            }
+            assert!(want.len() > 500, "too few pairs to test: {}", want.len());
             assert_eq!(got, want, "r = {r}, cell = {cell}");
         }
     }
