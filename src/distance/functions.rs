@@ -371,11 +371,18 @@ impl Context {
                 self.r_max
             };
             let grid = PointGrid::new(x, y, reach / 4.0);
+            // Fast path for the common case: K alone, any correction.
+            let fast = needs.k && !needs.pcf;
+            // The isotropic K's weight pass searches annuli, which finer
+            // cells fit more tightly; its weights are indexed by that grid.
+            let fine = (fast && self.correction == Correction::Isotropic)
+                .then(|| PointGrid::new(x, y, reach / FINE));
+            let wgrid = fine.as_ref().unwrap_or(&grid);
             let need_b = matches!(self.correction, Correction::Isotropic | Correction::Border)
                 || (needs.pcf && self.pcf_correction == Correction::Isotropic);
             let b: Vec<f64> = if need_b {
                 (0..n)
-                    .map(|p| self.region.boundary_distance(grid.xs[p], grid.ys[p]))
+                    .map(|p| self.region.boundary_distance(wgrid.xs[p], wgrid.ys[p]))
                     .collect()
             } else {
                 Vec::new()
@@ -392,8 +399,8 @@ impl Context {
             let iso = if use_iso {
                 Some(IsoCache::new(
                     &self.region,
-                    &grid.xs,
-                    &grid.ys,
+                    &wgrid.xs,
+                    &wgrid.ys,
                     b.clone(),
                     reach,
                     self.cap,
@@ -405,14 +412,13 @@ impl Context {
             let mut border_diff = vec![0.0f64; nr + 1];
             let mut pacc = vec![0.0f64; nr];
             let mut capped = 0u64;
-            // Fast path for the common case: K alone, isotropic or none.
-            let fast = needs.k && !needs.pcf;
             if fast {
                 let (h, diff) = match self.correction {
                     Correction::None => self.k_kernel::<0>(&grid, &[], &mut capped),
                     Correction::Isotropic => (
                         self.k_isotropic(
                             &grid,
+                            wgrid,
                             iso.as_ref().expect("isotropic cache built when used"),
                             &mut capped,
                         ),
@@ -638,9 +644,16 @@ impl Context {
     ///    candidates with b_i < d ≤ r_max are packed in a branch-free
     ///    loop, binned, and weighted in vectorised sweeps
     ///    ([`IsoCache::weights_minus_one`]).
-    fn k_isotropic(&self, grid: &PointGrid, iso: &IsoCache, capped: &mut u64) -> Vec<f64> {
+    fn k_isotropic(
+        &self,
+        grid: &PointGrid,
+        wgrid: &PointGrid,
+        iso: &IsoCache,
+        capped: &mut u64,
+    ) -> Vec<f64> {
         let nr = self.r.len();
         let (mut hist, _) = self.k_kernel::<0>(grid, &[], capped);
+        let grid = wgrid;
         let r_last = self.r[nr - 1];
         let scale = BinScale::new(self.step, nr);
         // Four interleaved sums (fewer store-to-load stalls when
@@ -978,6 +991,9 @@ struct BinScale {
 }
 
 const SLACK: f64 = 1e-9;
+
+/// Cells per search radius in the isotropic K's weight pass.
+const FINE: f64 = 8.0;
 
 impl BinScale {
     fn new(step: f64, nr: usize) -> BinScale {
