@@ -14,4 +14,12 @@ node --max-old-space-size=4096 bench/intake-node.mjs $SIZES
 echo "== intake: headless Chromium page (worker)"
 node bench/intake-browser.mjs $SIZES
 echo "== hotspots: headless Chromium page (worker)"; node bench/hotspots-browser.mjs
+echo "== clustering envelopes: native, portable x86-64 build (release)"
+cargo run --quiet --release --example bench_clustering
+echo "== clustering envelopes: native, built for this machine's CPU (target-cpu=native)"
+RUSTFLAGS="-C target-cpu=native" CARGO_TARGET_DIR=target/native-cpu \
+  cargo run --quiet --release --example bench_clustering
+echo "== clustering: our K against scipy's cKDTree.count_neighbors (same points, same radii)"
+cargo run --quiet --release --example bench_clustering -- export
+python3 bench/clustering_vs_scipy.py
 echo "== clustering envelopes: headless Chromium page (worker)"; node bench/clustering-browser.mjs 10000 199 k l demo
