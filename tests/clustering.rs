@@ -317,7 +317,7 @@ mod simulation {
                     ..Default::default()
                 };
                 let m = 1500;
-                let mut at = vec![Vec::new(), Vec::new()];
+                let mut at = [Vec::new(), Vec::new()];
                 for j in 0..m {
                     let p = simulate_csr(&w, n, 1000 + j).unwrap();
                     let out = distance_functions(&p, &w, &params).unwrap();
@@ -422,8 +422,8 @@ mod simulation {
                 continue;
             }
             let out = distance_functions(&p, &w, &params).unwrap();
-            for k in 1..11 {
-                at[k].push(out.k[k] * n * (n - 1.0) / (lambda * lambda));
+            for (k, a) in at.iter_mut().enumerate().take(11).skip(1) {
+                a.push(out.k[k] * n * (n - 1.0) / (lambda * lambda));
             }
         }
         for k in [1, 2, 5, 10] {

@@ -169,7 +169,7 @@ impl IsoCache {
                     let (ex, ey) = (edge.bx - edge.ax, edge.by - edge.ay);
                     let len = (ex * ex + ey * ey).sqrt();
                     let seg = edge.distance_sq(x, y).sqrt();
-                    if !(len > 0.0) || (!inside && seg <= tiny) {
+                    if len.is_nan() || len <= 0.0 || (!inside && seg <= tiny) {
                         continue;
                     }
                     let (ux, uy) = (ex / len, ey / len);
@@ -492,7 +492,8 @@ mod tests {
         // against the crossing routine, to 1e-12. Points on the boundary
         // (on an edge, at a corner, on the hole): against a brute-force
         // count of 20,000 points on the circle, to 1e-3.
-        let boundary: [(Region, f64, Vec<(f64, f64)>); 2] = [
+        type Case = (Region, f64, Vec<(f64, f64)>);
+        let boundary: [Case; 2] = [
             (
                 wh(),
                 3.0,

@@ -408,7 +408,7 @@ impl EnvelopeJob {
     pub fn add_simulated(&mut self, from: usize, curves: &[f64]) -> Result<usize, AnalysisError> {
         let nr = self.ctx.r.len();
         if from != self.done
-            || curves.len() % nr != 0
+            || !curves.len().is_multiple_of(nr)
             || self.done + curves.len() / nr > self.params.n_sim
         {
             return Err(AnalysisError::BadParameter {

@@ -210,7 +210,7 @@ impl Context {
         if !(p.n_steps >= 1 && p.n_steps <= 10_000) {
             return Err(bad("n_steps", "must be between 1 and 10000"));
         }
-        if !(p.weight_cap >= 1.0) {
+        if p.weight_cap.is_nan() || p.weight_cap < 1.0 {
             return Err(bad("weight_cap", "must be at least 1"));
         }
         let (r_max, r_max_rule) = match p.r_max {
@@ -315,7 +315,7 @@ impl Context {
     fn bin(&self, d: f64) -> usize {
         let n = self.r.len();
         let q = d / self.step;
-        if !(q < n as f64) {
+        if q.is_nan() || q >= n as f64 {
             return n;
         }
         let mut k = q as usize;

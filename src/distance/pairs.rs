@@ -389,7 +389,7 @@ mod tests {
                 let (i, j) = (g.id[a] as usize, g.id[b] as usize);
                 got.push((i.min(j), i.max(j), d));
             });
-            got.sort_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+            got.sort_by_key(|a| (a.0, a.1));
             let mut want = Vec::new();
             for i in 0..x.len() {
                 for j in i + 1..x.len() {
@@ -492,8 +492,8 @@ mod tests {
             got.dedup();
             assert_eq!(got.len(), before, "a pair was visited twice");
             let mut want = Vec::new();
-            for a in 0..n {
-                let Some(ra) = rho[a] else { continue };
+            for (a, ra) in rho.iter().enumerate() {
+                let Some(ra) = *ra else { continue };
                 for b in 0..n {
                     let dd = d(a, b);
                     if dd > ra && dd <= r {

@@ -163,7 +163,7 @@ impl Region {
                 polygons.push(rings_out);
             }
         }
-        if !(area > 0.0) || edges.is_empty() {
+        if area.is_nan() || area <= 0.0 || edges.is_empty() {
             return None;
         }
         let rectangle = if polygons.len() == 1 && polygons[0].len() == 1 && edges.len() == 4 {
@@ -455,7 +455,7 @@ impl Region {
         }
         items.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
         let n = items.len();
-        let alternates = n % 2 == 0 && (0..n).all(|i| items[i].1 != items[(i + 1) % n].1);
+        let alternates = n.is_multiple_of(2) && (0..n).all(|i| items[i].1 != items[(i + 1) % n].1);
         let mut inside = 0.0;
         if alternates {
             for i in 0..n {
