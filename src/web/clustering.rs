@@ -514,7 +514,31 @@ fn draw_chart<DB: DrawingBackend>(
     let sc = super::PixelScale::new(o.scale);
     let (px, pt, pf) = (|v| sc.px(v), |v| sc.pt(v), |v| sc.font(v));
     area.fill(&WHITE).map_err(plot_err)?;
-    let (legend, plot) = area.split_vertically(px(30));
+    // Legend in its own strip above the plot, so it never hides a curve;
+    // items that would run past the right edge go to a new row.
+    let font = ("sans-serif", pf(13.0)).into_font().color(&ink);
+    let items: [(&str, u8); 3] = [
+        ("observed", 0),
+        ("complete spatial randomness", 1),
+        (band_label.as_str(), 2),
+    ];
+    let width = area.dim_in_pixel().0 as i32;
+    let mut places = Vec::with_capacity(items.len());
+    let (mut x, mut row) = (px(84), 0);
+    for (text, _) in items {
+        let w = area
+            .estimate_text_size(text, &font)
+            .map(|(w, _)| w as i32)
+            .unwrap_or((text.chars().count() as i32) * px(7));
+        let need = px(26) + w;
+        if x > px(84) && x + need > width - px(8) {
+            row += 1;
+            x = px(84);
+        }
+        places.push((x, px(15) + row * px(22)));
+        x += need + px(22);
+    }
+    let (legend, plot) = area.split_vertically(px(30) + row * px(22));
     let mut chart = ChartBuilder::on(&plot)
         .margin(pt(12))
         .x_label_area_size(pt(44))
@@ -531,7 +555,9 @@ fn draw_chart<DB: DrawingBackend>(
         .label_style(tick_font)
         .x_label_formatter(&|v| tick(*v))
         .y_label_formatter(&|v| tick(*v))
-        .bold_line_style(RGBColor(232, 232, 232))
+        .bold_line_style(RGBColor(232, 232, 232).stroke_width(pt(1)))
+        .axis_style(RGBColor(0, 0, 0).stroke_width(pt(1)))
+        .set_all_tick_mark_size(pt(5))
         .light_line_style(WHITE.mix(0.0))
         .draw()
         .map_err(plot_err)?;
@@ -578,16 +604,7 @@ fn draw_chart<DB: DrawingBackend>(
             .draw_series(LineSeries::new(seg, obs_colour.stroke_width(pt(2))))
             .map_err(plot_err)?;
     }
-    // Legend in its own strip above the plot, so it never hides a curve.
-    let font = ("sans-serif", pf(13.0)).into_font().color(&ink);
-    let y = px(15);
-    let mut x = px(84);
-    let items: [(&str, u8); 3] = [
-        ("observed", 0),
-        ("complete spatial randomness", 1),
-        (band_label.as_str(), 2),
-    ];
-    for (text, kind) in items {
+    for ((text, kind), (x, y)) in items.into_iter().zip(places) {
         match kind {
             0 => legend.draw(&PathElement::new(
                 vec![(x, y), (x + px(20), y)],
@@ -617,11 +634,6 @@ fn draw_chart<DB: DrawingBackend>(
                 font.clone(),
             ))
             .map_err(plot_err)?;
-        let w = legend
-            .estimate_text_size(text, &font)
-            .map(|(w, _)| w as i32)
-            .unwrap_or((text.chars().count() as i32) * px(7));
-        x += px(26) + w + px(22);
     }
     area.present().map_err(plot_err)?;
     Ok(Drawn {

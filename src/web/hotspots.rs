@@ -662,7 +662,7 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
     let (px, pt, pf) = (|v| sc.px(v), |v| sc.pt(v), |v| sc.font(v));
     let mut chart = ChartBuilder::on(&root)
         .margin(pt(8))
-        .x_label_area_size(pt(34))
+        .x_label_area_size(pt(38))
         .y_label_area_size(pt(56))
         .build_cartesian_2d(0f64..(n as f64), 0f64..ymax)
         .map_err(|e| draw_err(&e))?;
@@ -673,7 +673,10 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
     };
     chart
         .configure_mesh()
-        .light_line_style(RGBColor(236, 238, 234))
+        .bold_line_style(RGBColor(0, 0, 0).mix(0.2).stroke_width(pt(1)))
+        .light_line_style(RGBColor(236, 238, 234).stroke_width(pt(1)))
+        .axis_style(RGBColor(0, 0, 0).stroke_width(pt(1)))
+        .set_all_tick_mark_size(pt(5))
         .x_desc("events, sorted from the most isolated")
         .y_desc(nth)
         .x_label_formatter(&|v| format!("{v:.0}"))
@@ -721,8 +724,10 @@ pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsVal
     }
     chart
         .configure_series_labels()
+        .margin(pt(10))
+        .legend_area_size(pt(30))
         .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(180, 180, 180))
+        .border_style(RGBColor(180, 180, 180).stroke_width(pt(1)))
         .label_font(("sans-serif", pf(12.0)))
         .position(SeriesLabelPosition::UpperRight)
         .draw()

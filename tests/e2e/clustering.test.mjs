@@ -232,3 +232,24 @@ test('on a high-density screen the chart has a pixel per screen pixel and the sa
   const obsRatio = census[2].observed / census[1].observed;
   assert.ok(obsRatio > 3 && obsRatio < 8, `observed: ${census[1].observed} px at 1x, ${census[2].observed} px at 2x`);
 });
+
+test('at the narrowest page width the chart legend wraps instead of running off the canvas', async () => {
+  // The page lays out at 1000 px at least; the chart then has about 560 px.
+  const { page, context, log } = await openPage(browser, { width: 1000, height: 900 });
+  await loadDemo(page);
+  await page.fill('#clu-seed', '777');
+  await runEnvelope(page, 19);
+  const edge = await page.evaluate(() => {
+    const c = document.getElementById('clu-chart');
+    const w = 6;
+    const d = c.getContext('2d').getImageData(c.width - w, 0, w, c.height).data;
+    let ink = 0;
+    for (let i = 0; i < d.length; i += 4) if (d[i] !== 255 || d[i + 1] !== 255 || d[i + 2] !== 255) ink++;
+    return { ink, width: c.width };
+  });
+  assert.ok(edge.width < 700, `a narrow chart (${edge.width} px)`);
+  assert.equal(edge.ink, 0, 'nothing is drawn in the last 6 px columns (no clipped legend text)');
+  await page.locator('#clu-chart').screenshot({ path: join(outDir(), 'clustering-chart-narrow.png') });
+  assert.deepEqual(log.pageErrors, []);
+  await context.close();
+});

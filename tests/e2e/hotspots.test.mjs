@@ -172,3 +172,44 @@ test('scan: circles and table; a long scan is cancelled and a new one runs', asy
   assert.deepEqual(log.pageErrors, []);
   assert.deepEqual(log.consoleErrors, []);
 });
+
+test('on a high-density screen the distance chart has a pixel per screen pixel and the same layout', async () => {
+  const census = {};
+  for (const dpr of [1, 2]) {
+    const { page, context, log } = await openPage(browser, { width: 1366, height: 900, deviceScaleFactor: dpr });
+    await loadDemo(page);
+    await page.fill('#hs-min', '8');
+    await act(page, () => page.click('#hs-kdist-run'));
+    await frame(page);
+    const box = await page.locator('#hs-kdist-chart').boundingBox();
+    census[dpr] = await page.evaluate(() => {
+      const c = document.getElementById('hs-kdist-chart');
+      const d = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;
+      let curve = 0;
+      // The legend's knee marker: the leftmost knee-coloured pixel in the
+      // top fifth (the legend box sits at the upper right).
+      let markerX = Infinity;
+      for (let i = 0; i < d.length; i += 4) {
+        if (d[i] === 30 && d[i + 1] === 72 && d[i + 2] === 110) curve++;
+        const px = (i / 4) % c.width;
+        const py = Math.floor(i / 4 / c.width);
+        if (py < c.height / 5 && px > c.width / 2 && d[i] > 140 && d[i + 1] < 120 && d[i + 2] < 80) markerX = Math.min(markerX, px);
+      }
+      return { curve, markerX: markerX / c.width, width: c.width, height: c.height };
+    });
+    census[dpr].css = [Math.round(box.width), Math.round(box.height)];
+    assert.equal(census[dpr].width, census[dpr].css[0] * dpr, `canvas width at ${dpr}x`);
+    assert.equal(census[dpr].height, census[dpr].css[1] * dpr, `canvas height at ${dpr}x`);
+    assert.ok(Number.isFinite(census[dpr].markerX), `legend marker found at ${dpr}x`);
+    if (dpr === 2) await page.locator('#hs-kdist-chart').screenshot({ path: join(outDir(), 'hotspots-kdist-2x.png') });
+    assert.deepEqual(log.pageErrors, []);
+    await context.close();
+  }
+  // The same picture scaled: the same shown size, the curve's colour on
+  // about 4x the pixels (more where antialiased edges become solid), and
+  // the legend marker at the same place relative to the width.
+  assert.deepEqual(census[2].css, census[1].css);
+  const ratio = census[2].curve / census[1].curve;
+  assert.ok(ratio > 3 && ratio < 8, `curve pixels: ${census[1].curve} at 1x, ${census[2].curve} at 2x`);
+  assert.ok(Math.abs(census[2].markerX - census[1].markerX) < 0.01, `legend marker at ${census[1].markerX} of the width at 1x, ${census[2].markerX} at 2x`);
+});
