@@ -375,7 +375,9 @@ impl Context {
             let fast = needs.k && !needs.pcf;
             // The isotropic K's weight pass searches annuli, which finer
             // cells fit more tightly; its weights are indexed by that grid.
-            let fine = (fast && self.correction == Correction::Isotropic)
+            // Fast path for g alone with the isotropic correction.
+            let fast_pcf = needs.pcf && !needs.k && self.pcf_correction == Correction::Isotropic;
+            let fine = ((fast && self.correction == Correction::Isotropic) || fast_pcf)
                 .then(|| PointGrid::new(x, y, reach / FINE));
             let wgrid = fine.as_ref().unwrap_or(&grid);
             let need_b = matches!(self.correction, Correction::Isotropic | Correction::Border)
@@ -433,11 +435,10 @@ impl Context {
             let kc = self.correction;
             let pc = self.pcf_correction;
             let kernel = Kernel::new(h, self.step);
-            // Fast path for g alone with the isotropic correction.
-            let fast_pcf = needs.pcf && !needs.k && self.pcf_correction == Correction::Isotropic;
             if fast_pcf {
                 pacc = self.pcf_isotropic(
                     &grid,
+                    wgrid,
                     iso.as_ref().expect("isotropic cache built when used"),
                     reach,
                     &mut capped,
@@ -719,69 +720,74 @@ impl Context {
 
     /// Kernel sums for g with the isotropic correction, over ordered pairs
     /// (i, j), i ≠ j, with d_ij ≤ r_max + h: Σ e_i(d_ij)·k_h(r_k − d_ij) at
-    /// each grid value (Epanechnikov kernel, as in the general pass). Each
-    /// point's neighbourhood is visited once: distances in a vectorised
-    /// loop, the pairs beyond b_i get their weights in vectorised sweeps
-    /// ([`IsoCache::weights_minus_one`]); the rest weigh 1.
+    /// each grid value (Epanechnikov kernel, as in the general pass). Two
+    /// passes, as for K ([`Self::k_isotropic`]): every unordered pair at
+    /// weight 2, then for points whose circle can reach the boundary the
+    /// weight's excess e_i − 1 over the pairs beyond b_i. The kernel values
+    /// are computed in vectorised sweeps ([`KernelSweep`]).
     fn pcf_isotropic(
         &self,
         grid: &PointGrid,
+        wgrid: &PointGrid,
         iso: &IsoCache,
         reach: f64,
         capped: &mut u64,
     ) -> Vec<f64> {
-        let kernel = Kernel::new(self.bandwidth, self.step);
-        let mut pacc = vec![0.0f64; self.r.len()];
+        let nr = self.r.len();
+        let mut sweep = KernelSweep::new(Kernel::new(self.bandwidth, self.step), &self.r);
+        let mut acc = vec![0.0f64; nr + 1];
         let mut ds: Vec<f64> = Vec::new();
-        let (mut near, mut plain): (Vec<f64>, Vec<f64>) = (Vec::new(), Vec::new());
+        grid.for_each_block(reach, |a, b0, b1| {
+            let (xa, ya) = (grid.xs[a], grid.ys[a]);
+            ds.resize(b1 - b0, 0.0);
+            for ((d, x), y) in ds.iter_mut().zip(&grid.xs[b0..b1]).zip(&grid.ys[b0..b1]) {
+                let dx = x - xa;
+                let dy = y - ya;
+                *d = (dx * dx + dy * dy).sqrt();
+            }
+            sweep.add(&ds, None, 2.0, &mut acc);
+        });
+        let grid = wgrid;
+        let mut nd: Vec<f64> = Vec::new();
         let mut ws: Vec<f64> = Vec::new();
-        let mut add = |d: f64, w: f64| kernel.add(&self.r, &mut pacc, d, w);
-        grid.for_each_cell_runs(reach, |a0, a1, runs| {
+        let inner = |a: usize| {
+            let ba = iso.b[a];
+            (ba < reach).then_some(ba)
+        };
+        grid.for_each_point_runs_beyond(reach, inner, |a, runs| {
+            let (xa, ya) = (grid.xs[a], grid.ys[a]);
+            let ba = iso.b[a];
             let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
             ds.resize(total, 0.0);
-            for a in a0..a1 {
-                let (xa, ya) = (grid.xs[a], grid.ys[a]);
-                let mut off = 0;
-                for &(b0, b1) in runs {
-                    for ((d, x), y) in ds[off..off + b1 - b0]
-                        .iter_mut()
-                        .zip(&grid.xs[b0..b1])
-                        .zip(&grid.ys[b0..b1])
-                    {
-                        let dx = x - xa;
-                        let dy = y - ya;
-                        *d = (dx * dx + dy * dy).sqrt();
-                    }
-                    if (b0..b1).contains(&a) {
-                        // Not a pair: the point itself.
-                        ds[off + a - b0] = f64::INFINITY;
-                    }
-                    off += b1 - b0;
+            nd.resize(total, 0.0);
+            let mut off = 0;
+            for &(b0, b1) in runs {
+                for ((d, x), y) in ds[off..off + b1 - b0]
+                    .iter_mut()
+                    .zip(&grid.xs[b0..b1])
+                    .zip(&grid.ys[b0..b1])
+                {
+                    let dx = x - xa;
+                    let dy = y - ya;
+                    *d = (dx * dx + dy * dy).sqrt();
                 }
-                let ba = iso.b[a];
-                near.clear();
-                plain.clear();
-                for &d in ds.iter() {
-                    if d <= reach {
-                        if d > ba {
-                            near.push(d);
-                        } else {
-                            plain.push(d);
-                        }
-                    }
-                }
-                for &d in &plain {
-                    add(d, 1.0);
-                }
-                if !near.is_empty() {
-                    iso.weights_minus_one(a, &near, &mut ws, capped);
-                    for (&d, &w) in near.iter().zip(&ws) {
-                        add(d, 1.0 + w);
-                    }
-                }
+                off += b1 - b0;
             }
+            // Branch-free packing of b_a < d ≤ reach (a itself, at d = 0,
+            // never counts).
+            let mut m = 0;
+            for &d in ds.iter() {
+                nd[m] = d;
+                m += (d > ba && d <= reach) as usize;
+            }
+            if m == 0 {
+                return;
+            }
+            iso.weights_minus_one(a, &nd[..m], &mut ws, capped);
+            sweep.add(&nd[..m], Some(&ws), 1.0, &mut acc);
         });
-        pacc
+        acc.truncate(nr);
+        acc
     }
 
     /// #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r} on the grid (NaN when no
@@ -973,6 +979,86 @@ impl Kernel {
             let q = 1.0 - u * u * self.inv_h2;
             if q > 0.0 {
                 acc[k] += self.c * q * w;
+            }
+        }
+    }
+}
+
+/// [`Kernel::add`] for many distances at once: the node range and kernel
+/// values in branch-free loops the compiler vectorises, then one scalar
+/// add per node. Each pair reaches at most `span` consecutive nodes from
+/// the first one ⌈(d − h)/step⌉ (widened by 1e-9 steps as in
+/// [`Kernel::add`]); nodes outside the kernel's support get q ≤ 0 and add
+/// nothing, so the nodes that count, and each node's term
+/// c·(1 − u²/h²)·w, are exactly those of [`Kernel::add`].
+struct KernelSweep<'a> {
+    kernel: Kernel,
+    r: &'a [f64],
+    span: usize,
+    first: Vec<u32>,
+    vals: Vec<f64>,
+}
+
+impl<'a> KernelSweep<'a> {
+    fn new(kernel: Kernel, r: &'a [f64]) -> KernelSweep<'a> {
+        let span = ((2.0 * kernel.h * kernel.inv_step + 2e-9).floor() as usize + 2).min(r.len());
+        KernelSweep {
+            kernel,
+            r,
+            span,
+            first: Vec::new(),
+            vals: Vec::new(),
+        }
+    }
+
+    /// acc[k] += scale·w_i·k_h(r_k − d_i) for every distance d_i (w_i from
+    /// `ws`, 1 without it); `acc` has one slot beyond the grid, which
+    /// collects nothing that counts.
+    fn add(&mut self, ds: &[f64], ws: Option<&[f64]>, scale: f64, acc: &mut [f64]) {
+        const ROUND: f64 = 4_503_599_627_370_496.0; // 2^52, as in BinScale
+        let nr = self.r.len();
+        let last = (nr - 1) as u32;
+        let top = nr as f64;
+        let Kernel {
+            h,
+            c,
+            inv_h2,
+            inv_step,
+        } = self.kernel;
+        let m = ds.len();
+        self.first.resize(m, 0);
+        self.vals.resize(m * self.span, 0.0);
+        // First node ⌈a⌉, a = clamp((d − h)/step − 1e-9, 0, n): rounding
+        // by adding 2^52 (a bit cast, not a conversion, so it vectorises).
+        for (f, &d) in self.first.iter_mut().zip(ds) {
+            let a = (d - h) * inv_step - 1e-9;
+            let a = if a > 0.0 { a } else { 0.0 };
+            let a = if a < top { a } else { top };
+            let big = a + ROUND;
+            let near = big - ROUND;
+            *f = (big.to_bits() as u32) + (near < a) as u32;
+        }
+        let r = &self.r[..nr];
+        for j in 0..self.span {
+            let vals = &mut self.vals[j * m..(j + 1) * m];
+            for (i, (v, (&f, &d))) in vals.iter_mut().zip(self.first.iter().zip(ds)).enumerate() {
+                let k = f + j as u32;
+                let inside = k <= last;
+                let rk = r[(if inside { k } else { last }) as usize];
+                let u = rk - d;
+                let q = 1.0 - u * u * inv_h2;
+                let w = match ws {
+                    Some(ws) => ws[i] * scale,
+                    None => scale,
+                };
+                *v = if inside && q > 0.0 { c * q * w } else { 0.0 };
+            }
+        }
+        for j in 0..self.span {
+            let vals = &self.vals[j * m..(j + 1) * m];
+            for (&f, &v) in self.first.iter().zip(vals) {
+                let k = ((f as usize) + j).min(nr);
+                acc[k] += v;
             }
         }
     }
@@ -1285,23 +1371,28 @@ pub(crate) mod tests {
     #[test]
     fn test_pcf_fast_path_matches_general_pass() {
         use crate::distance::region::tests::wh;
+        // Bandwidths below half a step (one node per pair at most), at a
+        // ratio that is no simple fraction of it, and of two steps (up to
+        // five nodes per pair).
         for (region, scale) in [(unit_square(), 1.0), (wh(), 10.0)] {
             let mut rng = crate::rng::rng_from_seed(37);
             let (x, y) = region.sample(400, &mut rng);
-            let p = FunctionParams {
-                r_max: Some(0.2 * scale),
-                n_steps: 20,
-                bandwidth: Some(0.02 * scale),
-                ..Default::default()
-            };
-            let pcf_only = Needs {
-                pcf: true,
-                ..Default::default()
-            };
-            let (a, b) = fast_and_general(&region, &x, &y, &p, pcf_only);
-            assert!(a.pcf[0].is_nan() && b.pcf[0].is_nan());
-            assert_agree(&a.pcf, &b.pcf, 1, "g");
-            assert_eq!(a.capped, b.capped);
+            for h in [0.003, 0.0137, 0.02] {
+                let p = FunctionParams {
+                    r_max: Some(0.2 * scale),
+                    n_steps: 20,
+                    bandwidth: Some(h * scale),
+                    ..Default::default()
+                };
+                let pcf_only = Needs {
+                    pcf: true,
+                    ..Default::default()
+                };
+                let (a, b) = fast_and_general(&region, &x, &y, &p, pcf_only);
+                assert!(a.pcf[0].is_nan() && b.pcf[0].is_nan());
+                assert_agree(&a.pcf, &b.pcf, 1, &format!("g, h = {h}"));
+                assert_eq!(a.capped, b.capped);
+            }
         }
     }
 

@@ -173,46 +173,6 @@ impl PointGrid {
             .min(reach)
     }
 
-    /// Calls `run(cell_start, cell_end, b0, b1)` for every non-empty cell
-    /// and every row-run b0..b1 of sorted positions in its full
-    /// neighbourhood (all directions, its own cell included) that can hold
-    /// a point within `r` of a point of the cell.
-    pub fn for_each_cell_runs<F: FnMut(usize, usize, &[(usize, usize)])>(
-        &self,
-        r: f64,
-        mut run: F,
-    ) {
-        let reach = self.reach(r);
-        let (nx, ny) = (self.nx as isize, self.ny as isize);
-        let mut runs: Vec<(usize, usize)> = Vec::with_capacity(2 * reach as usize + 1);
-        for cy in 0..ny {
-            for cx in 0..nx {
-                let c = (cy * nx + cx) as usize;
-                let (a0, a1) = (self.start[c] as usize, self.start[c + 1] as usize);
-                if a0 == a1 {
-                    continue;
-                }
-                runs.clear();
-                for oy in -reach..=reach {
-                    let ny_ = cy + oy;
-                    if ny_ < 0 || ny_ >= ny {
-                        continue;
-                    }
-                    let span = self.row_span(r, reach, oy);
-                    let lo = (cx - span).max(0);
-                    let hi = (cx + span).min(nx - 1);
-                    let row = ny_ * nx;
-                    let b0 = self.start[(row + lo) as usize] as usize;
-                    let b1 = self.start[(row + hi) as usize + 1] as usize;
-                    if b0 < b1 {
-                        runs.push((b0, b1));
-                    }
-                }
-                run(a0, a1, &runs);
-            }
-        }
-    }
-
     /// For each sorted position `a` with `inner(a) = Some(ρ)`, calls
     /// `visit(a, runs)` with row-runs of sorted positions that hold every
     /// point b ≠ a with ρ < d(a, b) ≤ r (candidates, not yet filtered by
@@ -404,43 +364,6 @@ mod tests {
                 assert_eq!((a.0, a.1), (b.0, b.1));
                 assert_eq!(a.2, b.2);
             }
-        }
-    }
-
-    /// The full-neighbourhood runs (used for the isotropic weights) hold
-    /// every point within r of each point of the cell.
-    #[test]
-    fn test_cell_runs_cover_all_neighbours() {
-        let (x, y) = random_points(400, 29);
-        for (r, cell) in [(0.05, 0.0125), (0.1, 0.1), (0.2, 0.05), (0.07, 0.02)] {
-            let g = PointGrid::new(&x, &y, cell);
-            let mut got = Vec::new();
-            g.for_each_cell_runs(r, |a0, a1, runs| {
-                for a in a0..a1 {
-                    for &(b0, b1) in runs {
-                        for b in b0..b1 {
-                            let d2 = (g.xs[a] - g.xs[b]).powi(2) + (g.ys[a] - g.ys[b]).powi(2);
-                            if b != a && d2 <= r * r {
-                                got.push((g.id[a], g.id[b]));
-                            }
-                        }
-                    }
-                }
-            });
-            got.sort_unstable();
-            let before = got.len();
-            got.dedup();
-            assert_eq!(got.len(), before, "a pair was visited twice");
-            let mut want = Vec::new();
-            for i in 0..x.len() {
-                for j in 0..x.len() {
-                    let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
-                    if i != j && d2 <= r * r {
-                        want.push((i as u32, j as u32));
-                    }
-                }
-            }
-            assert_eq!(got, want, "r = {r}, cell = {cell}");
         }
     }
 
