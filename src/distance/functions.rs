@@ -660,8 +660,7 @@ impl Context {
         // Four interleaved sums (fewer store-to-load stalls when
         // consecutive pairs fall in the same bin).
         let mut e4 = vec![[0.0f64; 4]; nr + 1];
-        let mut ds: Vec<f64> = Vec::new();
-        let mut nd: Vec<f64> = Vec::new();
+        let mut annulus = Annulus::default();
         let mut nk: Vec<u32> = Vec::new();
         let mut ws: Vec<f64> = Vec::new();
         let inner = |a: usize| {
@@ -669,45 +668,24 @@ impl Context {
             (ba < r_last).then_some(ba)
         };
         grid.for_each_point_runs_beyond(self.r_max, inner, |a, runs| {
-            let (xa, ya) = (grid.xs[a], grid.ys[a]);
             let ba = iso.b[a];
-            let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
-            ds.resize(total, 0.0);
-            nd.resize(total, 0.0);
-            let mut off = 0;
-            for &(b0, b1) in runs {
-                for ((d, x), y) in ds[off..off + b1 - b0]
-                    .iter_mut()
-                    .zip(&grid.xs[b0..b1])
-                    .zip(&grid.ys[b0..b1])
-                {
-                    let dx = x - xa;
-                    let dy = y - ya;
-                    *d = (dx * dx + dy * dy).sqrt();
-                }
-                off += b1 - b0;
-            }
-            // Branch-free packing: write always, advance only for
             // b_a < d ≤ r_max (a itself, at d = 0 ≤ b_a, never counts).
-            let mut m = 0;
-            for &d in ds.iter() {
-                nd[m] = d;
-                m += (d > ba && d <= r_last) as usize;
-            }
+            let nd = annulus.distances(grid, a, runs, (ba, r_last));
+            let m = nd.len();
             if m == 0 {
                 return;
             }
             nk.resize(m, 0);
             let mut doubtful = 0u32;
-            for (k, &d) in nk.iter_mut().zip(&nd[..m]) {
+            for (k, &d) in nk.iter_mut().zip(nd) {
                 let (kk, flag) = scale.estimate(d);
                 *k = kk;
                 doubtful += flag as u32;
             }
             if doubtful > 0 {
-                self.settle_doubtful(&scale, &nd[..m], &mut nk);
+                self.settle_doubtful(&scale, nd, &mut nk);
             }
-            iso.weights_minus_one(a, &nd[..m], &mut ws, capped);
+            iso.weights_minus_one(a, nd, &mut ws, capped);
             for (i, (&k, &w)) in nk.iter().zip(&ws).enumerate() {
                 e4[k as usize][i & 3] += w;
             }
@@ -738,53 +716,25 @@ impl Context {
         let mut acc = vec![0.0f64; nr + 1];
         let mut ds: Vec<f64> = Vec::new();
         grid.for_each_block(reach, |a, b0, b1| {
-            let (xa, ya) = (grid.xs[a], grid.ys[a]);
             ds.resize(b1 - b0, 0.0);
-            for ((d, x), y) in ds.iter_mut().zip(&grid.xs[b0..b1]).zip(&grid.ys[b0..b1]) {
-                let dx = x - xa;
-                let dy = y - ya;
-                *d = (dx * dx + dy * dy).sqrt();
-            }
+            distances_to(grid, a, b0..b1, &mut ds);
             sweep.add(&ds, None, 2.0, &mut acc);
         });
         let grid = wgrid;
-        let mut nd: Vec<f64> = Vec::new();
+        let mut annulus = Annulus::default();
         let mut ws: Vec<f64> = Vec::new();
         let inner = |a: usize| {
             let ba = iso.b[a];
             (ba < reach).then_some(ba)
         };
         grid.for_each_point_runs_beyond(reach, inner, |a, runs| {
-            let (xa, ya) = (grid.xs[a], grid.ys[a]);
-            let ba = iso.b[a];
-            let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
-            ds.resize(total, 0.0);
-            nd.resize(total, 0.0);
-            let mut off = 0;
-            for &(b0, b1) in runs {
-                for ((d, x), y) in ds[off..off + b1 - b0]
-                    .iter_mut()
-                    .zip(&grid.xs[b0..b1])
-                    .zip(&grid.ys[b0..b1])
-                {
-                    let dx = x - xa;
-                    let dy = y - ya;
-                    *d = (dx * dx + dy * dy).sqrt();
-                }
-                off += b1 - b0;
-            }
-            // Branch-free packing of b_a < d ≤ reach (a itself, at d = 0,
-            // never counts).
-            let mut m = 0;
-            for &d in ds.iter() {
-                nd[m] = d;
-                m += (d > ba && d <= reach) as usize;
-            }
-            if m == 0 {
+            // b_a < d ≤ reach (a itself, at d = 0, never counts).
+            let nd = annulus.distances(grid, a, runs, (iso.b[a], reach));
+            if nd.is_empty() {
                 return;
             }
-            iso.weights_minus_one(a, &nd[..m], &mut ws, capped);
-            sweep.add(&nd[..m], Some(&ws), 1.0, &mut acc);
+            iso.weights_minus_one(a, nd, &mut ws, capped);
+            sweep.add(nd, Some(&ws), 1.0, &mut acc);
         });
         acc.truncate(nr);
         acc
@@ -981,6 +931,54 @@ impl Kernel {
                 acc[k] += self.c * q * w;
             }
         }
+    }
+}
+
+/// Distances from sorted point `a` to the sorted points `b` (a
+/// branch-free loop the compiler vectorises), into `out` (same length).
+#[inline]
+fn distances_to(grid: &PointGrid, a: usize, b: std::ops::Range<usize>, out: &mut [f64]) {
+    let (xa, ya) = (grid.xs[a], grid.ys[a]);
+    for ((d, x), y) in out.iter_mut().zip(&grid.xs[b.clone()]).zip(&grid.ys[b]) {
+        let dx = x - xa;
+        let dy = y - ya;
+        *d = (dx * dx + dy * dy).sqrt();
+    }
+}
+
+/// Scratch space for the distances from one point to the candidates in
+/// its runs, kept to those in an annulus.
+#[derive(Default)]
+struct Annulus {
+    all: Vec<f64>,
+    kept: Vec<f64>,
+}
+
+impl Annulus {
+    /// The distances d from sorted point `a` to the points in `runs` with
+    /// lo < d ≤ hi, in run order. Packed without branches: every
+    /// distance is written, the position advances only for those kept.
+    fn distances(
+        &mut self,
+        grid: &PointGrid,
+        a: usize,
+        runs: &[(usize, usize)],
+        (lo, hi): (f64, f64),
+    ) -> &[f64] {
+        let total: usize = runs.iter().map(|(b0, b1)| b1 - b0).sum();
+        self.all.resize(total, 0.0);
+        self.kept.resize(total, 0.0);
+        let mut off = 0;
+        for &(b0, b1) in runs {
+            distances_to(grid, a, b0..b1, &mut self.all[off..off + b1 - b0]);
+            off += b1 - b0;
+        }
+        let mut m = 0;
+        for &d in &self.all {
+            self.kept[m] = d;
+            m += (d > lo && d <= hi) as usize;
+        }
+        &self.kept[..m]
     }
 }
 
