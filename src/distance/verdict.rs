@@ -65,6 +65,15 @@ fn fmt_p(p: f64) -> String {
     }
 }
 
+/// "a", "a and b", "a, b and c".
+fn plain_list(parts: &[String]) -> String {
+    match parts {
+        [] => String::new(),
+        [one] => one.clone(),
+        [init @ .., last] => format!("{} and {last}", init.join(", ")),
+    }
+}
+
 #[allow(clippy::too_many_arguments)]
 pub(crate) fn verdict_for(
     f: SummaryFunction,
@@ -122,7 +131,7 @@ pub(crate) fn verdict_for(
         _ => Outcome::Clustered,
     };
     let list = |d: Departure| -> String {
-        ranges
+        let parts = ranges
             .iter()
             .filter(|x| x.departure == d)
             .map(|x| {
@@ -132,8 +141,8 @@ pub(crate) fn verdict_for(
                     format!("{} to {}", fmt_m(x.from_m), fmt_m(x.to_m))
                 }
             })
-            .collect::<Vec<_>>()
-            .join(", ")
+            .collect::<Vec<_>>();
+        plain_list(&parts)
     };
     let label = f.label();
     let mut text = match outcome {
@@ -182,5 +191,22 @@ pub(crate) fn verdict_for(
         ranges,
         text,
         caveats,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::plain_list;
+
+    #[test]
+    fn test_plain_list() {
+        let s = |v: &[&str]| v.iter().map(|x| x.to_string()).collect::<Vec<_>>();
+        assert_eq!(plain_list(&s(&[])), "");
+        assert_eq!(plain_list(&s(&["45 m to 1.1 km"])), "45 m to 1.1 km");
+        assert_eq!(
+            plain_list(&s(&["45 m to 1.1 km", "about 1.2 km"])),
+            "45 m to 1.1 km and about 1.2 km"
+        );
+        assert_eq!(plain_list(&s(&["a", "b", "c"])), "a, b and c");
     }
 }
