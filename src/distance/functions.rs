@@ -1013,7 +1013,6 @@ impl<'a> KernelSweep<'a> {
     /// `ws`, 1 without it); `acc` has one slot beyond the grid, which
     /// collects nothing that counts.
     fn add(&mut self, ds: &[f64], ws: Option<&[f64]>, scale: f64, acc: &mut [f64]) {
-        const ROUND: f64 = 4_503_599_627_370_496.0; // 2^52, as in BinScale
         let nr = self.r.len();
         let last = (nr - 1) as u32;
         let top = nr as f64;
@@ -1026,15 +1025,12 @@ impl<'a> KernelSweep<'a> {
         let m = ds.len();
         self.first.resize(m, 0);
         self.vals.resize(m * self.span, 0.0);
-        // First node ⌈a⌉, a = clamp((d − h)/step − 1e-9, 0, n): rounding
-        // by adding 2^52 (a bit cast, not a conversion, so it vectorises).
+        // First node ⌈a⌉, a = clamp((d − h)/step − 1e-9, 0, n).
         for (f, &d) in self.first.iter_mut().zip(ds) {
             let a = (d - h) * inv_step - 1e-9;
             let a = if a > 0.0 { a } else { 0.0 };
             let a = if a < top { a } else { top };
-            let big = a + ROUND;
-            let near = big - ROUND;
-            *f = (big.to_bits() as u32) + (near < a) as u32;
+            *f = ceil_small(a).0;
         }
         let r = &self.r[..nr];
         for j in 0..self.span {
@@ -1060,6 +1056,17 @@ impl<'a> KernelSweep<'a> {
             }
         }
     }
+}
+
+/// (⌈q⌉, the integer nearest q) for 0 ≤ q < 2^31. Adding 2^52 rounds q to
+/// the nearest integer, which then sits in the low bits of the sum: a bit
+/// cast, not a float-to-int conversion, so loops calling this vectorise.
+#[inline(always)]
+fn ceil_small(q: f64) -> (u32, f64) {
+    const ROUND: f64 = 4_503_599_627_370_496.0; // 2^52
+    let big = q + ROUND;
+    let near = big - ROUND;
+    ((big.to_bits() as u32) + (near < q) as u32, near)
 }
 
 /// Bins from distances without a table: k = ⌈d/step⌉ (capped at the
@@ -1090,16 +1097,10 @@ impl BinScale {
     /// (bin estimate, doubtful) for distance d ≥ 0.
     #[inline(always)]
     fn estimate(&self, d: f64) -> (u32, bool) {
-        // 2^52: adding it rounds q (0 ≤ q < 2^51) to the nearest integer,
-        // which then sits in the low bits of the sum (a bit cast, not a
-        // float-to-int conversion, so the loop stays vectorised).
-        const ROUND: f64 = 4_503_599_627_370_496.0;
         let q0 = d * self.inv_step;
         let q = if q0 < self.q_max { q0 } else { self.q_max };
-        let big = q + ROUND;
-        let near = big - ROUND;
+        let (k, near) = ceil_small(q);
         let gap = q - near;
-        let k = (big.to_bits() as u32) + (gap > 0.0) as u32;
         // Near 0 only d > 0 is in doubt (r_0 = 0; a tiny d/step may even
         // underflow to 0).
         let doubtful = (gap < SLACK) & (gap > -SLACK) & ((near > 0.5) | (d > 0.0));
@@ -1182,6 +1183,13 @@ pub(crate) mod tests {
             );
         }
     }
+
+    const ALL_CORRECTIONS: [Correction; 4] = [
+        Correction::None,
+        Correction::Isotropic,
+        Correction::Translation,
+        Correction::Border,
+    ];
 
     const K_ONLY: Needs = Needs {
         k: true,
@@ -1345,12 +1353,7 @@ pub(crate) mod tests {
         for (region, scale) in [(unit_square(), 1.0), (wh(), 10.0)] {
             let mut rng = crate::rng::rng_from_seed(31);
             let (x, y) = region.sample(400, &mut rng);
-            for c in [
-                Correction::None,
-                Correction::Isotropic,
-                Correction::Translation,
-                Correction::Border,
-            ] {
+            for c in ALL_CORRECTIONS {
                 let p = FunctionParams {
                     r_max: Some(0.2 * scale),
                     n_steps: 20,
@@ -1495,12 +1498,7 @@ pub(crate) mod tests {
                 y.push(0.04 + 0.08 * j as f64);
             }
         }
-        for c in [
-            Correction::None,
-            Correction::Isotropic,
-            Correction::Translation,
-            Correction::Border,
-        ] {
+        for c in ALL_CORRECTIONS {
             let p = FunctionParams {
                 r_max: Some(0.24),
                 n_steps: 6,
