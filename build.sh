@@ -8,8 +8,9 @@
 #
 # Everything it needs is installed here on first use: the wasm32 target
 # (rustup), wasm-bindgen-cli pinned to the crate's exact wasm-bindgen version,
-# and for tests Debian chromium, npm packages from package-lock.json and the
-# Python reference libraries from tests/reference/requirements.txt.
+# the npm packages from package-lock.json (esbuild bundles the page's scripts;
+# playwright-core drives the browser tests), and for tests Debian chromium and
+# the Python reference libraries from tests/reference/requirements.txt.
 set -euo pipefail
 cd "$(dirname "$0")"
 
@@ -31,15 +32,21 @@ need_wasm_toolchain() {
   fi
 }
 
+# esbuild (bundles the page's modules) and playwright-core (browser tests),
+# both pinned in package-lock.json.
+need_npm_packages() {
+  if [ ! -d node_modules/esbuild ] || [ ! -d node_modules/playwright-core ]; then
+    step "installing npm packages from package-lock.json"
+    npm ci --no-audit --no-fund
+  fi
+}
+
 need_test_tools() {
   if [ ! -x /usr/bin/chromium ]; then
     step "installing Debian chromium for the browser tests"
     apt-get update -qq && apt-get install -y -qq chromium
   fi
-  if [ ! -d node_modules/playwright-core ]; then
-    step "installing npm packages from package-lock.json"
-    npm ci --no-audit --no-fund
-  fi
+  need_npm_packages
   if ! python3 -c 'import numpy, scipy, sklearn, shapely, pyproj' 2>/dev/null; then
     step "installing Python reference libraries"
     python3 -m pip install -q -r tests/reference/requirements.txt
@@ -48,6 +55,7 @@ need_test_tools() {
 
 build() {
   need_wasm_toolchain
+  need_npm_packages
   step "building the wasm core (release)"
   cargo build --release --target wasm32-unknown-unknown --lib
   local wasm=target/wasm32-unknown-unknown/release/cloister.wasm

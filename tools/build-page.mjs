@@ -9,14 +9,17 @@
 //   inert <script type="application/octet-stream"> blocks: the wasm and the demo files, base64
 //   <script id="cloister-glue">: the wasm-bindgen glue (defines the global `wasm_bindgen`);
 //     the page also reads its text to build the worker
-//   inert <script type="text/plain" id="cloister-worker-src">: www/worker.js
-//   <script>: www/map.js, then www/main.js
+//   inert <script type="text/plain" id="cloister-worker-src">: www/worker.js (a classic
+//     worker script; the page starts it from a Blob URL after the glue's text)
+//   <script id="cloister-page">: www/main.js and every ES module it imports (www/*.js,
+//     www/analyses/*.js), bundled by esbuild into one classic script (an IIFE)
 // The build fails if any inlined text contains `</script` or `<!--` (either would end or
 // confuse the script block), if the glue does not define wasm_bindgen, or if the
-// Content-Security-Policy meta tag is missing or comes after a script.
+// Content-Security-Policy meta tag is missing or comes after a script. The bundle may
+// import only files under www/ (nothing from node_modules or elsewhere).
 
 import { readFileSync, writeFileSync, mkdirSync, existsSync, readdirSync } from 'node:fs';
-import { dirname, join, resolve } from 'node:path';
+import { dirname, join, relative, resolve, sep } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
 const root = resolve(dirname(fileURLToPath(import.meta.url)), '..');
@@ -61,11 +64,47 @@ export const DEMO_FILES = [
   { id: 'demo-problems', file: 'cases-with-problems.csv' },
 ];
 
-function build(opts) {
+/** Bundles www/main.js and the ES modules it imports into one classic script
+ * (an IIFE: no module loading at run time, which a page opened from disk could
+ * not do under its policy). Returns the script's text. */
+async function bundlePage(www) {
+  let esbuild;
+  try {
+    esbuild = await import('esbuild');
+  } catch (_) {
+    fail('esbuild is missing: run `npm ci` (it is pinned in package-lock.json)');
+  }
+  const entry = join(www, 'main.js');
+  read(entry, 'page script');
+  let result;
+  try {
+    result = await esbuild.build({
+      absWorkingDir: root,
+      entryPoints: [entry],
+      bundle: true,
+      format: 'iife',
+      platform: 'browser',
+      target: 'es2022',
+      write: false,
+      metafile: true,
+      logLevel: 'silent',
+      legalComments: 'none',
+    });
+  } catch (err) {
+    const errors = (err && err.errors) || [];
+    const text = errors.map((e) => `${e.location ? `${e.location.file}:${e.location.line}: ` : ''}${e.text}`).join('\n  ');
+    fail(`bundling www/main.js failed:\n  ${text || String(err)}`);
+  }
+  for (const input of Object.keys(result.metafile.inputs)) {
+    const rel = relative(www, resolve(root, input));
+    if (rel.startsWith('..') || rel.split(sep).includes('node_modules')) fail(`the page bundle may only use files under www/, not ${input}`);
+  }
+  return result.outputFiles[0].text;
+}
+
+async function build(opts) {
   const html = read(join(opts.www, 'index.html'), 'page template').toString('utf8');
   const css = read(join(opts.www, 'style.css'), 'style sheet').toString('utf8');
-  const mapJs = read(join(opts.www, 'map.js'), 'map script').toString('utf8');
-  const mainJs = read(join(opts.www, 'main.js'), 'page script').toString('utf8');
   const workerJs = read(join(opts.www, 'worker.js'), 'worker script').toString('utf8');
   const glue = read(join(opts.pkg, 'cloister.js'), 'wasm-bindgen glue (run wasm-bindgen --target no-modules)').toString('utf8');
   const wasm = read(join(opts.pkg, 'cloister_bg.wasm'), 'wasm module');
@@ -76,12 +115,12 @@ function build(opts) {
   if (wasm.subarray(0, 4).toString('binary') !== '\0asm') fail('cloister_bg.wasm is not a wasm module');
   if (css.toLowerCase().includes('</style')) fail('style.css contains "</style"');
 
-  // Analysis panels: www/analyses/*.js after main.js (they use window.Cloister),
-  // and www/analyses/*.css after style.css, each in name order.
+  const pageJs = await bundlePage(opts.www);
+
+  // Analysis panels' styles: www/analyses/*.css after style.css, in name order
+  // (their scripts are imported by main.js and so are in the bundle).
   const analysesDir = join(opts.www, 'analyses');
   const analysisFiles = existsSync(analysesDir) ? readdirSync(analysesDir).sort() : [];
-  const analysisJs = analysisFiles.filter((f) => f.endsWith('.js'))
-    .map((f) => ({ f, text: read(join(analysesDir, f), `analysis script ${f}`).toString('utf8') }));
   let allCss = css;
   for (const f of analysisFiles.filter((f) => f.endsWith('.css'))) {
     const text = read(join(analysesDir, f), `analysis style ${f}`).toString('utf8');
@@ -98,9 +137,7 @@ function build(opts) {
   }
   blocks.push(`<script id="cloister-glue">${checkInline(glue, 'the wasm-bindgen glue')}</script>`);
   blocks.push(`<script type="text/plain" id="cloister-worker-src">${checkInline(workerJs, 'worker.js')}</script>`);
-  blocks.push(`<script>${checkInline(mapJs, 'map.js')}</script>`);
-  blocks.push(`<script>${checkInline(mainJs, 'main.js')}</script>`);
-  for (const { f, text } of analysisJs) blocks.push(`<script>${checkInline(text, f)}</script>`);
+  blocks.push(`<script id="cloister-page">${checkInline(pageJs, 'the page bundle (www/main.js and its imports)')}</script>`);
 
   const styleMarker = '<!-- INLINE:style -->';
   const scriptMarker = '<!-- INLINE:scripts -->';
@@ -119,4 +156,4 @@ function build(opts) {
   console.log(`build-page: wrote ${opts.out} (${(out.length / 1024).toFixed(0)} KiB; wasm ${(wasm.length / 1024).toFixed(0)} KiB)`);
 }
 
-build(parseArgs(process.argv.slice(2)));
+await build(parseArgs(process.argv.slice(2)));

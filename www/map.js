@@ -1,15 +1,14 @@
 /* Cloister map: draws events, controls, the study area, the mean centre and
  * the standard deviational ellipse on a canvas, in planar metres with north up.
  * Drawing only: every number shown comes from the engine (worker).
- * Classic script: defines the globals PointMap and CLOISTER_PALETTE. */
-'use strict';
+ * An ES module: exports PointMap and CLOISTER_PALETTE. */
 
 /* Category colours, chosen for this tool by a max-min search over sRGB: every
  * pair stays apart (CIELAB ΔE ≥ 15) for normal vision and when protanopia,
  * deuteranopia or tritanopia is simulated, and every colour stands out from
  * the area fill, the controls' grey and white (tests/e2e/palette.test.mjs).
  * `other` collects categories beyond the sixth. */
-const CLOISTER_PALETTE = {
+export const CLOISTER_PALETTE = {
   categories: ['#1e69b4', '#e1872d', '#960000', '#c39669', '#3ca5ff', '#781e78'],
   other: '#555555',
   single: '#1e69b4',
@@ -21,7 +20,7 @@ const CLOISTER_PALETTE = {
   background: '#f7f8f6',
 };
 
-class PointMap {
+export class PointMap {
   /** @param {HTMLCanvasElement} canvas */
   constructor(canvas) {
     this.canvas = canvas;

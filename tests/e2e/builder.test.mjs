@@ -3,7 +3,7 @@
 import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, copyFileSync, writeFileSync, readFileSync, existsSync } from 'node:fs';
+import { mkdtempSync, copyFileSync, cpSync, writeFileSync, readFileSync, existsSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { ROOT } from './helpers.mjs';
@@ -51,4 +51,28 @@ test('the builder refuses a glue built for ES modules', () => {
   const r = build(['--pkg', dir, '--out', join(dir, 'page.html')]);
   assert.notEqual(r.status, 0);
   assert.match(r.stderr, /no-modules/);
+});
+
+test('the builder bundles only files under www/ and stops on a broken import', () => {
+  const dir = pkgCopy();
+  const www = join(dir, 'www');
+  cpSync(join(ROOT, 'www'), www, { recursive: true, filter: (src) => !src.includes(join('www', 'pkg')) });
+  const main = readFileSync(join(www, 'main.js'), 'utf8');
+
+  writeFileSync(join(dir, 'outside.js'), 'export const x = 1;\n');
+  writeFileSync(join(www, 'main.js'), `import { x } from '../outside.js';\nconsole.log(x);\n${main}`);
+  let r = build(['--pkg', dir, '--www', www, '--out', join(dir, 'a.html')]);
+  assert.notEqual(r.status, 0, 'accepted an import from outside www/');
+  assert.match(r.stderr, /only use files under www\//);
+  assert.equal(existsSync(join(dir, 'a.html')), false);
+
+  writeFileSync(join(www, 'main.js'), `import { nothing } from './dom.js';\nconsole.log(nothing);\n${main}`);
+  r = build(['--pkg', dir, '--www', www, '--out', join(dir, 'b.html')]);
+  assert.notEqual(r.status, 0, 'accepted an import of a name that is not exported');
+  assert.match(r.stderr, /bundling www\/main\.js failed/);
+  assert.match(r.stderr, /nothing/);
+
+  writeFileSync(join(www, 'main.js'), main);
+  r = build(['--pkg', dir, '--www', www, '--out', join(dir, 'c.html')]);
+  assert.equal(r.status, 0, r.stderr);
 });

@@ -124,7 +124,7 @@ export async function canvasCensus(page, colours) {
 
 /** Palette of the page, read from the page itself (so tests follow design changes). */
 export async function palette(page) {
-  return page.evaluate(() => CLOISTER_PALETTE);
+  return page.evaluate(() => window.Cloister.palette);
 }
 
 export function outDir() {

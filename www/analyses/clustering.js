@@ -3,11 +3,9 @@
  * Every number comes from the engine (src/web/clustering.rs): the worker
  * simulates and tests, the page's own engine instance draws the chart with
  * plotters on a canvas. Files are saved by the browser from a Blob. */
-'use strict';
 
-(function () {
-  const C = window.Cloister;
-  if (!C) return;
+/** Adds the panel to the page; C is the page's panel API (www/panel-api.js). */
+export function mountClustering(C) {
   const { el, fmt, fmtMetres, call, runJob, act, setStatus, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
 
@@ -444,4 +442,4 @@
     }
     for (const id of ['clu-quad-run', 'clu-ce-run']) $(id).disabled = !state.hasData;
   });
-})();
+}

@@ -3,12 +3,10 @@
  *   2. density clusters (DBSCAN: which events belong together);
  *   3. a scan for excess (Kulldorff: is any circle's excess more than chance?).
  * Every number comes from the engine (src/web/hotspots.rs); this file asks,
- * draws and explains. Uses only window.Cloister (www/README.md). */
-'use strict';
+ * draws and explains. Uses only the panel API it is given (www/README.md). */
 
-(function () {
-  const C = window.Cloister;
-  if (!C) return;
+/** Adds the panel to the page; C is the page's panel API (www/panel-api.js). */
+export function mountHotspots(C) {
   const { el, fmt, fmtMetres } = C;
 
   /* Sequential ramp made for this tool: six steps whose lightness falls
@@ -667,4 +665,4 @@
     scanBtn.disabled = !state.info;
     renderModel();
   });
-})();
+}

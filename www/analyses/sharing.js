@@ -3,11 +3,10 @@
  * may leave this computer (masked points, counts, map pictures, a report).
  * Every number comes from the engine (src/web/sharing.rs); this file draws
  * and saves. Files are saved by the browser from a Blob: nothing is sent. */
-'use strict';
+import { CLOISTER_PALETTE } from '../map.js';
 
-(function () {
-  const C = window.Cloister;
-  if (!C) return;
+/** Adds the panel to the page; C is the page's panel API (www/panel-api.js). */
+export function mountSharing(C) {
   const { el, fmt, fmtMetres, call, act, setStatus, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
 
@@ -768,4 +767,4 @@
     if (document.body.dataset.ready !== '1') { setTimeout(loadCautions, 200); return; }
     call('sharingCautions').then(renderCautions, () => setTimeout(loadCautions, 1000));
   })();
-})();
+}

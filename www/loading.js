@@ -1,0 +1,282 @@
+/* Loading files: the events, the study area and the controls (from a file
+ * input, a drop box or the demo), the study-area choice, and reading the kept
+ * bytes again when a column role or the kind of coordinates changes. */
+
+import { $, decodeBase64, fmt, plural } from './dom.js';
+import { state } from './state.js';
+import { setStatus, showError, clearError } from './status.js';
+import { call } from './engine.js';
+import { currentOptions, offerColumns, showMapping } from './columns.js';
+import { refresh } from './results.js';
+
+export async function readFile(file) {
+  return new Uint8Array(await file.arrayBuffer());
+}
+
+/** Counts finished load attempts (tests wait on it). */
+function loadDone() {
+  document.body.dataset.loads = String(Number(document.body.dataset.loads || 0) + 1);
+}
+
+export async function loadEvents(bytes, name, options, opts = {}) {
+  try {
+    return await loadEventsInner(bytes, name, options, opts);
+  } finally {
+    loadDone();
+  }
+}
+
+async function loadEventsInner(bytes, name, options, { refreshAfter = true, fresh = true } = {}) {
+  setStatus(`Reading ${name}…`);
+  try {
+    const report = await call('loadEvents', bytes, options);
+    state.events = { bytes, name, options };
+    if (state.pendingFile && state.pendingFile.layer === 'events') state.pendingFile = null;
+    if (fresh) state.mapLayer = 'events';
+    state.reports.events = report;
+    if (state.areaMode !== 'file' && state.areaMode !== 'convex_hull') {
+      await call('setAreaFallback', state.areaMode);
+    }
+    showMapping();
+    renderFileLine('events-name', name, report);
+    if (report.study_error) showError('The events were read, but the study could not be set up', report.study_error);
+    if (refreshAfter) await refresh(!fresh);
+    setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used.`);
+    return true;
+  } catch (err) {
+    if (err && err.code === 'engine_stopped') return false;
+    showError(`Could not read ${name}`, err);
+    offerColumns('events', bytes, name, options, err);
+    const kept = state.events ? `Kept the previous events: ${state.events.name}.` : 'No events loaded.';
+    setStatus(state.pendingFile ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
+    return false;
+  }
+}
+
+export async function loadArea(bytes, name, { refreshAfter = true } = {}) {
+  setStatus(`Reading ${name}…`);
+  try {
+    const report = await call('loadArea', bytes, sharedCoords());
+    state.area = { bytes, name };
+    state.areaMode = 'file';
+    state.reports.area = report;
+    $('area-name').textContent = `${name}: loaded`;
+    if (report && report.study_error) showError('The boundary was read, but the study could not be set up', report.study_error);
+    renderAreaMode();
+    if (refreshAfter) await refresh(false);
+    setStatus(`Study area read from ${name}.`);
+    return true;
+  } catch (err) {
+    if (err && err.code === 'engine_stopped') return false;
+    if (err && err.code === 'no_valid_rows') {
+      showError(`Could not use ${name} as the study area`, {
+        message: 'none of the events lies inside it. Check that the boundary and the events describe the same place in the same coordinates.',
+      });
+    } else {
+      showError(`Could not read ${name}`, err);
+    }
+    renderAreaMode();
+    setStatus('Kept the previous study area.');
+    return false;
+  }
+}
+
+/** Read options for the controls: their own column choices, the events' planar unit. */
+export function controlsOptions(base) {
+  const o = { ...(base || {}) };
+  delete o.coords;
+  return { ...o, ...sharedCoords() };
+}
+
+export async function loadControls(bytes, name, { refreshAfter = true, options = null } = {}) {
+  setStatus(`Reading ${name}…`);
+  const opts = controlsOptions(options);
+  try {
+    const report = await call('loadControls', bytes, opts);
+    state.controls = { bytes, name, options: opts };
+    if (state.pendingFile && state.pendingFile.layer === 'controls') state.pendingFile = null;
+    state.reports.controls = report;
+    renderFileLine('controls-name', name, report);
+    $('show-controls').disabled = false;
+    $('controls-clear').disabled = false;
+    showMapping();
+    if (report.study_error) showError('The controls were read, but the study could not be set up', report.study_error);
+    if (refreshAfter) await refresh(true);
+    setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used as controls.`);
+    return true;
+  } catch (err) {
+    if (err && err.code === 'engine_stopped') return false;
+    showError(`Could not read ${name}`, err);
+    offerColumns('controls', bytes, name, opts, err);
+    const kept = state.controls ? `Kept the previous controls: ${state.controls.name}.` : 'No controls loaded.';
+    setStatus(state.pendingFile && state.pendingFile.layer === 'controls' ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
+    return false;
+  }
+}
+
+export async function clearControls() {
+  clearError();
+  try {
+    await call('clearControls');
+    state.controls = null;
+    state.reports.controls = null;
+    if (state.pendingFile && state.pendingFile.layer === 'controls') state.pendingFile = null;
+    state.mapLayer = 'events';
+    showMapping();
+    $('controls-name').textContent = '';
+    $('controls-clear').disabled = true;
+    $('controls-file').value = '';
+    await refresh(true);
+    setStatus('Controls removed.');
+  } catch (err) {
+    showError('Could not remove the controls', err);
+  }
+}
+
+export async function setAreaMode(mode) {
+  clearError();
+  if (mode === 'file') {
+    if (!state.area) {
+      setStatus('Choose a boundary file first.');
+      renderAreaMode();
+      $('area-file').focus();
+      return;
+    }
+    await loadArea(state.area.bytes, state.area.name);
+    return;
+  }
+  try {
+    if (state.areaMode === 'file') await call('clearArea');
+    state.areaMode = mode;
+    if (state.events) await call('setAreaFallback', mode);
+    renderAreaMode();
+    await refresh(false);
+    setStatus(mode === 'convex_hull' ? 'Study area: a hull drawn around the events.' : 'Study area: a rectangle around the events.');
+  } catch (err) {
+    showError('Could not change the study area', err);
+    renderAreaMode();
+  }
+}
+
+function demoBytes(id) {
+  const node = $(id);
+  if (!node) return null;
+  return decodeBase64(node.textContent);
+}
+
+export async function loadDemo() {
+  clearError();
+  const cases = demoBytes('demo-cases');
+  const area = demoBytes('demo-area');
+  const pop = demoBytes('demo-population');
+  if (!cases) {
+    showError('The demo is missing', { message: 'this copy of the page was built without demo data.' });
+    return;
+  }
+  setStatus('Loading the demo…');
+  // Stop at the first failure: its message stays on screen.
+  if (area && !(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
+  if (!(await loadEvents(cases, 'cases.csv (demo)', {}, { refreshAfter: false }))) return;
+  if (pop && !(await loadControls(pop, 'population.csv (demo)', { refreshAfter: false }))) return;
+  await refresh(false);
+  setStatus(`Demo loaded: ${statusCounts()}.`);
+}
+
+export async function loadProblems() {
+  clearError();
+  const bytes = demoBytes('demo-problems');
+  const area = demoBytes('demo-area');
+  if (!bytes) return;
+  if (area && !(state.area && state.area.name === 'town-boundary.geojson (demo)' && state.areaMode === 'file')) {
+    if (!(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
+  }
+  if (!(await loadEvents(bytes, 'cases-with-problems.csv (demo)', {}, { refreshAfter: false }))) return;
+  await refresh(false);
+  setStatus(`Loaded a file with problems: ${statusCounts()}. See "Rows not used" under Data quality.`);
+}
+
+function statusCounts() {
+  const r = state.reports.events;
+  if (!r) return 'no events';
+  const study = state.snap && state.snap.study;
+  const used = study ? study.events : r.accepted;
+  return `${fmt(used)} events used of ${plural(r.rows_read, 'row', 'rows')}`;
+}
+
+/** Options that make the study area and controls use the events' planar
+ * unit (all files must share one kind of coordinates; a planar unit cannot
+ * be told from the numbers). Lon/lat is detected, so nothing is forced. */
+export function sharedCoords() {
+  const r = state.reports.events;
+  const c = r && r.coords;
+  return c && c.kind === 'planar' ? { coords: { kind: 'planar', unit: c.unit } } : {};
+}
+
+function sameCoords(a, b) {
+  return !!a && !!b && a.kind === b.kind && (a.kind !== 'planar' || a.unit === b.unit);
+}
+
+export async function mappingChanged() {
+  clearError();
+  const layer = state.mapLayer;
+  const pending = state.pendingFile && state.pendingFile.layer === layer ? state.pendingFile : null;
+  if (layer === 'controls') {
+    const target = pending || state.controls;
+    if (!target) return;
+    await loadControls(target.bytes, target.name, { options: currentOptions() });
+    return;
+  }
+  const target = pending || state.events;
+  if (!target) return;
+  const options = currentOptions();
+  const before = state.reports.events && state.reports.events.coords;
+  const hadArea = state.area && state.areaMode === 'file' ? state.area : null;
+  const hadControls = state.controls;
+  if (target !== state.events || sameCoords(before, options.coords) || (!hadArea && !hadControls)) {
+    await loadEvents(target.bytes, target.name, options, { fresh: target !== state.events });
+    return;
+  }
+  // New coordinates for the events: the study area and controls follow them,
+  // so take them out, read the events, then read them again in the new unit.
+  try {
+    if (hadArea) await call('clearArea');
+    if (hadControls) await call('clearControls');
+  } catch (err) {
+    if (!(err && err.code === 'engine_stopped')) showError('Could not change the coordinates', err);
+    return;
+  }
+  const ok = await loadEvents(target.bytes, target.name, options, { refreshAfter: false, fresh: false });
+  const failures = [];
+  const keepError = () => { if (!$('error-banner').hidden) failures.push($('error-text').textContent); };
+  keepError();
+  if (hadArea && !(await loadArea(hadArea.bytes, hadArea.name, { refreshAfter: false }))) {
+    keepError();
+    state.areaMode = 'convex_hull';
+    renderAreaMode();
+  }
+  if (hadControls && !(await loadControls(hadControls.bytes, hadControls.name, { refreshAfter: false, options: hadControls.options }))) {
+    keepError();
+    state.controls = null;
+    state.reports.controls = null;
+    $('controls-name').textContent = '';
+    $('controls-clear').disabled = true;
+  }
+  await refresh(ok);
+  if (failures.length > 0) showError('Changing the coordinates', { message: failures.join(' — ') });
+}
+
+function renderFileLine(id, name, report) {
+  const rows = report ? `: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used` : '';
+  $(id).textContent = `${name}${rows}`;
+}
+
+export function renderAreaMode() {
+  const mode = state.areaMode;
+  $('area-mode-file').checked = mode === 'file';
+  $('area-mode-hull').checked = mode === 'convex_hull';
+  $('area-mode-box').checked = mode === 'bounding_box';
+  $('area-mode-file').disabled = !state.area;
+  $('area-warning').hidden = mode === 'file';
+  if (!state.area) $('area-name').textContent = '';
+  else if (mode !== 'file') $('area-name').textContent = `${state.area.name} (not in use)`;
+}

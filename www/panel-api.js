@@ -1,0 +1,48 @@
+/* What an analysis panel (www/analyses/*.js) may use of the page; each
+ * panel's mount function receives this object. See www/README.md. */
+
+import { $, el, fmt, fmtFixed, fmtMetres, plural } from './dom.js';
+import { state } from './state.js';
+import { setStatus, showError, clearError, act } from './status.js';
+import { call, runJob } from './engine.js';
+import { snapshotListeners } from './results.js';
+import { map, renderLegend } from './mapview.js';
+
+// ---------- the API analysis panels use (www/analyses/*.js) ----------
+// Each analysis adds a section to the results area, calls the engine through
+// `call` / `runJob`, may draw on the map through an overlay, and hears about
+// every change of the loaded data through `onSnapshot`.
+export const panelApi = {
+  call,
+  runJob,
+  el,
+  fmt,
+  fmtFixed,
+  fmtMetres,
+  plural,
+  setStatus,
+  showError,
+  clearError,
+  act,
+  /** Registers fn(snap) to run after every change of loaded data. */
+  onSnapshot(fn) { snapshotListeners.push(fn); if (state.snap) fn(state.snap); },
+  /** The last snapshot (study, summary, layers), or null. */
+  snapshot() { return state.snap; },
+  /** Adds a titled section under the results; returns its body element. */
+  addSection(id, title, intro) {
+    const body = el('div', { class: 'analysis-body', id: `${id}-body` });
+    const section = el('section', { class: 'panel analysis', id, 'aria-labelledby': `${id}-title` },
+      el('h2', { id: `${id}-title` }, title), intro ? el('p', { class: 'hint' }, intro) : null, body);
+    $('analyses').append(section);
+    return body;
+  },
+  /** Sets (or with null removes) a named map overlay:
+   * draw(ctx, {toX, toY, k, dpr, W, H}) in device pixels, and legend
+   * entries [{label, colour, kind: 'line'|'fill'|'point'}]. */
+  setOverlay(name, draw, legend) {
+    map.setOverlay(name, draw, legend);
+    renderLegend(state.snap && state.snap.layers);
+  },
+  /** The engine running on the page's own thread (for drawing charts). */
+  engine() { return wasm_bindgen; },
+};

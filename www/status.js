@@ -1,0 +1,51 @@
+/* The status line, the error banner, and the queue that runs user actions
+ * one after another (body[data-done] counts finished actions for the tests). */
+
+import { $, el, fmt, errorText } from './dom.js';
+
+export function setStatus(text) {
+  $('status').textContent = text;
+}
+
+export function showError(context, err) {
+  let text = `${context}: ${errorText(err)}`;
+  if (err && Array.isArray(err.by_reason) && err.by_reason.length > 0) {
+    const parts = err.by_reason.map((r) => `${r.reason_text || r.reason} (${fmt(r.count)})`);
+    text += ` Reasons: ${parts.join('; ')}.`;
+  }
+  $('error-text').textContent = text;
+  // A file that read but could not be used: show its first rejected rows.
+  const list = $('error-rows');
+  list.replaceChildren();
+  const rows = err && Array.isArray(err.rejections) ? err.rejections : [];
+  for (const r of rows.slice(0, 5)) {
+    const where = r.column ? `row ${fmt(r.row)}, column "${r.column}"` : `row ${fmt(r.row)}`;
+    const value = r.value === '' || r.value === null || r.value === undefined ? 'empty' : `"${r.value}"`;
+    list.append(el('li', null, `${where}: ${r.reason_text || r.reason} (${value})`));
+  }
+  if (rows.length > 5) list.append(el('li', null, `…and ${fmt(rows.length - 5)} more`));
+  list.hidden = rows.length === 0;
+  $('error-banner').hidden = false;
+}
+
+export function clearError() {
+  $('error-banner').hidden = true;
+  $('error-text').textContent = '';
+  $('error-rows').replaceChildren();
+  $('error-rows').hidden = true;
+}
+
+/** Runs user actions one after another (the engine answers one request at
+ * a time anyway) and counts finished actions in body[data-done] for tests. */
+let queue = Promise.resolve();
+export function act(fn) {
+  return (...args) => {
+    queue = queue
+      .then(() => fn(...args))
+      .catch((err) => showError('Unexpected problem in the page', err))
+      .finally(() => {
+        document.body.dataset.done = String(Number(document.body.dataset.done || 0) + 1);
+      });
+    return queue;
+  };
+}
