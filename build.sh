@@ -42,6 +42,10 @@ need_npm_packages() {
 }
 
 need_test_tools() {
+  if ! cargo clippy --version >/dev/null 2>&1; then
+    step "adding the clippy component"
+    rustup component add clippy
+  fi
   if [ ! -x /usr/bin/chromium ]; then
     step "installing Debian chromium for the browser tests"
     apt-get update -qq && apt-get install -y -qq chromium
@@ -74,6 +78,9 @@ run_tests() {
   need_test_tools
   step "format check"
   cargo fmt --check
+  step "lints (clippy, host and wasm32; warnings are errors)"
+  cargo clippy --release --all-targets -- -D warnings
+  cargo clippy --release --target wasm32-unknown-unknown --lib -- -D warnings
   step "regenerating reference values (tests/reference/*.py)"
   for s in tests/reference/*.py; do
     echo "  $s"
