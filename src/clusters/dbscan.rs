@@ -26,9 +26,9 @@
 //! recomputed for core points during growth, so memory stays O(n) however
 //! dense the data. Worst case (everything within eps) O(n²) time.
 
-use super::buckets::Buckets;
 use super::hull::{convex_hull, ring_area};
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use crate::study::Pattern;
 use serde::{Deserialize, Serialize};
 
@@ -175,10 +175,10 @@ pub fn dbscan_labels(
 ) -> (Vec<i32>, Vec<bool>) {
     let n = x.len();
     let eps2 = eps * eps;
-    let b = Buckets::new(x, y, eps);
+    let b = GridIndex::with_cell(x, y, eps);
     let neighbours = |i: usize, f: &mut dyn FnMut(usize)| {
         let (xi, yi) = (x[i], y[i]);
-        b.for_candidates(xi, yi, eps, |j| {
+        b.for_each_candidate(xi, yi, eps, |j| {
             let dx = x[j] - xi;
             let dy = y[j] - yi;
             if dx * dx + dy * dy <= eps2 {
