@@ -21,10 +21,11 @@
 //!   clusters of one).
 //!
 //! # Complexity
-//! Points are bucketed in a grid of cell `eps`; each neighbourhood query
-//! scans a 3 × 3 block of cells. Neighbourhoods are counted in one pass and
-//! recomputed for core points during growth, so memory stays O(n) however
-//! dense the data. Worst case (everything within eps) O(n²) time.
+//! Points are indexed in the shared [`crate::index::GridIndex`] with cells of
+//! side `eps`; each neighbourhood query scans a 3 × 3 block of cells.
+//! Neighbourhoods are counted in one pass and recomputed for core points
+//! during growth, so memory stays O(n) however dense the data. Worst case
+//! (everything within eps) O(n²) time.
 
 use super::hull::{convex_hull, ring_area};
 use crate::error::AnalysisError;

@@ -41,7 +41,7 @@
 //! thin or ragged windows.
 //!
 //! # Complexity
-//! One pass over the pairs within r_max (+h for g) on a grid index,
+//! One pass over the pairs within r_max (+h for g) on [`crate::index::GridIndex`],
 //! O(n + pairs), plus one boundary-distance query per point and, with the
 //! isotropic correction, one analytic arc computation per ordered pair
 //! whose circle reaches the boundary.
