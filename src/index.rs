@@ -126,7 +126,10 @@ pub struct GridIndex {
 trait Sink {
     /// The distance² a candidate must beat (∞ until enough are known).
     fn worst(&self) -> f64;
-    fn offer(&mut self, d2: f64, j: u32);
+    /// Offers slot `s` at distance² `d2`; `id` maps slots to original
+    /// indices (read only when needed, so a distance-only search never
+    /// touches it).
+    fn offer(&mut self, d2: f64, s: usize, id: &[u32]);
 }
 
 /// The single nearest distance² (no index kept).
@@ -138,7 +141,7 @@ impl Sink for BestD {
         self.0
     }
     #[inline]
-    fn offer(&mut self, d2: f64, _j: u32) {
+    fn offer(&mut self, d2: f64, _s: usize, _id: &[u32]) {
         if d2 < self.0 {
             self.0 = d2;
         }
@@ -157,10 +160,10 @@ impl Sink for Best1 {
         self.d2
     }
     #[inline]
-    fn offer(&mut self, d2: f64, j: u32) {
-        if d2 < self.d2 || (d2 == self.d2 && j < self.j) {
+    fn offer(&mut self, d2: f64, s: usize, id: &[u32]) {
+        if d2 < self.d2 || (d2 == self.d2 && id[s] < self.j) {
             self.d2 = d2;
-            self.j = j;
+            self.j = id[s];
         }
     }
 }
@@ -175,8 +178,14 @@ impl Sink for Best {
     fn worst(&self) -> f64 {
         Best::worst(self)
     }
-    fn offer(&mut self, d2: f64, j: u32) {
-        Best::offer(self, d2, j)
+    #[inline]
+    fn offer(&mut self, d2: f64, s: usize, id: &[u32]) {
+        // A candidate beyond the current k-th is rejected by `Best::offer`
+        // whatever its index; skip reading the index for it.
+        if d2 > Best::worst(self) {
+            return;
+        }
+        Best::offer(self, d2, id[s])
     }
 }
 
@@ -347,7 +356,7 @@ impl GridIndex {
                     }
                     let dx = self.xs[s] - qx;
                     let dy = self.ys[s] - qy;
-                    best.offer(dx * dx + dy * dy, self.id[s]);
+                    best.offer(dx * dx + dy * dy, s, &self.id);
                 }
             };
             // Only the cells on the ring at Chebyshev distance rho are new.
