@@ -1,32 +1,96 @@
 //! Which points are near each other?
 //!
-//! A uniform grid index over points in metres: nearest neighbours and all
-//! pairs within a distance, without O(n²) work. Distances use `d ≤ r`.
+//! The one neighbour index of the crate: a uniform grid over points in
+//! metres for k-nearest-neighbour and fixed-radius queries, and the pair
+//! enumeration the distance functions count in. Every module that asks
+//! "which points are near this one" uses [`GridIndex`]: the summary and
+//! Clark–Evans (nearest-neighbour distances), G and F, masking and
+//! k-anonymity (counts within r), DBSCAN (ε-neighbourhoods), the k-distance
+//! plot, bandwidth selection and the exact kernel sums (candidates within a
+//! cut-off), the hard-core simulation and K and g (pairs within r).
 //!
 //! # Conventions
 //! * A distance is `(dx² + dy²).sqrt()` and a pair is "within r" when that
-//!   value is `≤ r` (METHODS §0, rules 3–4: one method everywhere; tests use
-//!   the same expression).
+//!   value is `≤ r` (one method everywhere; tests use the same expression).
+//!   The crate-internal slot-level iterators hand over candidates or `d²`
+//!   and leave the comparison to the caller, which keeps its own rule.
 //! * A point is never its own neighbour, but coincident points are each
 //!   other's neighbours at distance 0 (they are kept, not merged).
-//! * Indices refer to the order of the slices given to [`GridIndex::new`].
+//! * Indices refer to the order of the slices given to the constructor.
+//!   Inside, points are stored in *slot* order (sorted by cell); the
+//!   crate-internal iterators speak in slots, `id[slot]` maps back.
 //!
 //! # Algorithm
-//! Points are bucketed by counting sort into square cells of side
-//! `s = √(2·area/n)` over their bounding box (about two points per cell; a
-//! line of points or all-identical points get a one-dimensional or a single
-//! cell, and the cell count never exceeds 2n + 4). A nearest-neighbour search
-//! visits rings of cells around the query's cell and stops once the k-th best
-//! distance is no larger than the distance to any unvisited cell. Pairs are
-//! enumerated once each by pairing every cell with itself and with the
-//! "forward" half of its neighbourhood of reach ⌈r/s⌉.
+//! Points are bucketed by a stable counting sort into square cells over
+//! their bounding box ([`bbox`]), row-major, so the points of a row of cells
+//! are one contiguous run of slots and, within a cell, in input order.
+//! [`GridIndex::new`] picks the side `s = √(2·area/n)` (about two points per
+//! cell; a line of points or all-identical points get a one-dimensional or a
+//! single cell, and the cell count never exceeds 2n + 4);
+//! [`GridIndex::with_cell`] takes the side from the caller (a search radius,
+//! say) and enlarges it only to keep the table at most max(4n, 4096) cells.
+//! A nearest-neighbour search visits rings of cells around the query's cell
+//! and stops once the k-th best distance is no larger than the distance to
+//! any unvisited cell. Pairs are enumerated once each by pairing every cell
+//! with itself and with runs of cells in the "forward" half of its
+//! neighbourhood, each row clipped to the columns that can reach the disc of
+//! radius r (with cells of side r/4 about 1.5 times the pairs within r are
+//! examined).
+//!
+//! The pair-counting inner loop of K and g (`for_each_block`,
+//! `for_each_point_runs_beyond`) works on these same slots and cells: it
+//! hands out whole runs of slots so the caller's loop walks plain slices
+//! and vectorises. It is part of this index, not a second grid; K and g
+//! keep their order of summation, hence their values bit for bit.
+//!
+//! # Coincident points
+//! Thousands of events geocoded to one address are stored today as
+//! thousands of slots in one cell. The API is written so they can later be
+//! stored once with a multiplicity without changing it: callers receive
+//! original indices (or slots mapped through `id`), never positions in the
+//! input, so a slot could carry a run of original indices instead of one
+//! (`id` becoming an offset table), with counts multiplied by the run's
+//! length and the pair loops emitting the run's C(m, 2) internal pairs at
+//! distance 0.
 //!
 //! # Notes
 //! Building is O(n); a nearest-neighbour query is O(1) expected for points
 //! spread over an area, and pair enumeration is O(n + #pairs). Clustered data
 //! (many points in few cells) degrades towards O(n²) only within clusters.
 //! Non-finite coordinates are not expected (a [`crate::study::Pattern`] has
-//! none); if present they never count as near anything.
+//! none); if present they are left out of the bounding box and never count
+//! as near anything.
+
+/// Bounding box `[x0, y0, x1, y1]` of the points with finite coordinates
+/// (the shorter slice sets the count), or `None` when there are none.
+///
+/// # Examples
+/// ```
+/// use cloister::index::bbox;
+/// assert_eq!(bbox(&[1.0, f64::NAN, -2.0], &[5.0, 0.0, 3.0]), Some([-2.0, 3.0, 1.0, 5.0]));
+/// assert_eq!(bbox(&[], &[]), None);
+/// ```
+pub fn bbox(x: &[f64], y: &[f64]) -> Option<[f64; 4]> {
+    let mut b = [f64::MAX, f64::MAX, f64::MIN, f64::MIN];
+    for (&px, &py) in x.iter().zip(y) {
+        if px.is_finite() && py.is_finite() {
+            b = [b[0].min(px), b[1].min(py), b[2].max(px), b[3].max(py)];
+        }
+    }
+    (b[0] <= b[2]).then_some(b)
+}
+
+/// Column (or row) of coordinate `v` in a grid of `n ≥ 1` cells of side
+/// `cell` starting at `v0`: clamped to `0..n`, NaN to 0.
+#[inline]
+pub(crate) fn cell_coord(v: f64, v0: f64, cell: f64, n: usize) -> usize {
+    let c = ((v - v0) / cell).floor();
+    if c.is_nan() || c < 0.0 {
+        0
+    } else {
+        (c as usize).min(n - 1)
+    }
+}
 
 /// A grid index over a fixed set of points.
 ///
@@ -44,12 +108,12 @@
 /// ```
 #[derive(Debug, Clone)]
 pub struct GridIndex {
-    /// Coordinates in cell order.
-    px: Vec<f64>,
-    py: Vec<f64>,
-    /// Original index of each point in cell order.
-    id: Vec<u32>,
-    /// Points of cell c are `start[c]..start[c + 1]` (cells row-major).
+    /// Coordinates in slot (cell) order.
+    pub(crate) xs: Vec<f64>,
+    pub(crate) ys: Vec<f64>,
+    /// Original index of each slot.
+    pub(crate) id: Vec<u32>,
+    /// Slots of cell c are `start[c]..start[c + 1]` (cells row-major).
     start: Vec<u32>,
     x0: f64,
     y0: f64,
@@ -58,17 +122,30 @@ pub struct GridIndex {
     ny: usize,
 }
 
-/// The k smallest (distance², index) seen so far, sorted ascending.
-struct Best {
-    k: usize,
-    items: Vec<(f64, u32)>,
-}
-
 /// Receives candidate neighbours during a ring search.
 trait Sink {
     /// The distance² a candidate must beat (∞ until enough are known).
     fn worst(&self) -> f64;
-    fn offer(&mut self, d2: f64, j: u32);
+    /// Offers slot `s` at distance² `d2`; `id` maps slots to original
+    /// indices (read only when needed, so a distance-only search never
+    /// touches it).
+    fn offer(&mut self, d2: f64, s: usize, id: &[u32]);
+}
+
+/// The single nearest distance² (no index kept).
+struct BestD(f64);
+
+impl Sink for BestD {
+    #[inline]
+    fn worst(&self) -> f64 {
+        self.0
+    }
+    #[inline]
+    fn offer(&mut self, d2: f64, _s: usize, _id: &[u32]) {
+        if d2 < self.0 {
+            self.0 = d2;
+        }
+    }
 }
 
 /// The single nearest (distance², index); ties by lower index.
@@ -83,20 +160,32 @@ impl Sink for Best1 {
         self.d2
     }
     #[inline]
-    fn offer(&mut self, d2: f64, j: u32) {
-        if d2 < self.d2 || (d2 == self.d2 && j < self.j) {
+    fn offer(&mut self, d2: f64, s: usize, id: &[u32]) {
+        if d2 < self.d2 || (d2 == self.d2 && id[s] < self.j) {
             self.d2 = d2;
-            self.j = j;
+            self.j = id[s];
         }
     }
+}
+
+/// The k smallest (distance², index) seen so far, sorted ascending.
+struct Best {
+    k: usize,
+    items: Vec<(f64, u32)>,
 }
 
 impl Sink for Best {
     fn worst(&self) -> f64 {
         Best::worst(self)
     }
-    fn offer(&mut self, d2: f64, j: u32) {
-        Best::offer(self, d2, j)
+    #[inline]
+    fn offer(&mut self, d2: f64, s: usize, id: &[u32]) {
+        // A candidate beyond the current k-th is rejected by `Best::offer`
+        // whatever its index; skip reading the index for it.
+        if d2 > Best::worst(self) {
+            return;
+        }
+        Best::offer(self, d2, id[s])
     }
 }
 
@@ -135,22 +224,11 @@ impl Best {
 }
 
 impl GridIndex {
-    /// Builds the index. If the slices differ in length the extra values are
-    /// ignored.
+    /// Builds the index with cells of about two points each. If the slices
+    /// differ in length the extra values are ignored.
     pub fn new(x: &[f64], y: &[f64]) -> GridIndex {
         let n = x.len().min(y.len());
-        let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
-        for i in 0..n {
-            if x[i].is_finite() && y[i].is_finite() {
-                x0 = x0.min(x[i]);
-                y0 = y0.min(y[i]);
-                x1 = x1.max(x[i]);
-                y1 = y1.max(y[i]);
-            }
-        }
-        if x0 > x1 {
-            (x0, y0, x1, y1) = (0.0, 0.0, 0.0, 0.0);
-        }
+        let [x0, y0, x1, y1] = bbox(&x[..n], &y[..n]).unwrap_or([0.0; 4]);
         let (w, h) = (x1 - x0, y1 - y0);
         let nf = n.max(1) as f64;
         let mut cell = if w > 0.0 && h > 0.0 {
@@ -171,10 +249,44 @@ impl GridIndex {
             cell *= 1.5;
             (nx, ny) = dims(cell);
         }
+        GridIndex::fill(&x[..n], &y[..n], x0, y0, cell, nx, ny)
+    }
+
+    /// Builds the index with cells of side `cell` (a search radius or a
+    /// fraction of it; 1 if not a positive finite number), enlarged only as
+    /// far as needed to keep the cell table at most about max(4n, 4096)
+    /// cells (memory stays flat per simulation; larger cells only mean more
+    /// candidates, never missed ones). If the slices differ in length the
+    /// extra values are ignored.
+    pub fn with_cell(x: &[f64], y: &[f64], cell: f64) -> GridIndex {
+        let n = x.len().min(y.len());
+        let [x0, y0, x1, y1] = bbox(&x[..n], &y[..n]).unwrap_or([0.0; 4]);
+        let mut cell = if cell.is_finite() && cell > 0.0 {
+            cell
+        } else {
+            1.0
+        };
+        let max_cells = (4 * n).max(4096) as f64;
+        let (w, h) = (x1 - x0, y1 - y0);
+        if (w / cell + 1.0) * (h / cell + 1.0) > max_cells {
+            // Positive root of (w/c + 1)(h/c + 1) = max_cells.
+            let a = max_cells - 1.0;
+            let b = w + h;
+            let c = (b + (b * b + 4.0 * a * w * h).sqrt()) / (2.0 * a);
+            cell = cell.max(c);
+        }
+        let nx = ((w / cell).floor() as usize + 1).max(1);
+        let ny = ((h / cell).floor() as usize + 1).max(1);
+        GridIndex::fill(&x[..n], &y[..n], x0, y0, cell, nx, ny)
+    }
+
+    /// Stable counting sort of the points into the given cells.
+    fn fill(x: &[f64], y: &[f64], x0: f64, y0: f64, cell: f64, nx: usize, ny: usize) -> Self {
+        let n = x.len();
         let mut g = GridIndex {
-            px: Vec::with_capacity(n),
-            py: Vec::with_capacity(n),
-            id: Vec::with_capacity(n),
+            xs: vec![0.0; n],
+            ys: vec![0.0; n],
+            id: vec![0; n],
             start: vec![0; nx * ny + 1],
             x0,
             y0,
@@ -182,22 +294,19 @@ impl GridIndex {
             nx,
             ny,
         };
-        let cells: Vec<usize> = (0..n).map(|i| g.cell_of(x[i], y[i])).collect();
+        let cells: Vec<u32> = (0..n).map(|i| g.cell_of(x[i], y[i]) as u32).collect();
         for &c in &cells {
-            g.start[c + 1] += 1;
+            g.start[c as usize + 1] += 1;
         }
         for c in 0..nx * ny {
             g.start[c + 1] += g.start[c];
         }
         let mut fill: Vec<u32> = g.start[..nx * ny].to_vec();
-        g.px = vec![0.0; n];
-        g.py = vec![0.0; n];
-        g.id = vec![0; n];
         for (i, &c) in cells.iter().enumerate() {
-            let s = fill[c] as usize;
-            fill[c] += 1;
-            g.px[s] = x[i];
-            g.py[s] = y[i];
+            let s = fill[c as usize] as usize;
+            fill[c as usize] += 1;
+            g.xs[s] = x[i];
+            g.ys[s] = y[i];
             g.id[s] = i as u32;
         }
         g
@@ -210,33 +319,30 @@ impl GridIndex {
     pub fn is_empty(&self) -> bool {
         self.id.is_empty()
     }
-
-    fn col(&self, x: f64) -> usize {
-        let c = ((x - self.x0) / self.cell).floor();
-        if c.is_nan() || c < 0.0 {
-            0
-        } else {
-            (c as usize).min(self.nx - 1)
-        }
+    /// Side of the cells actually used, in the points' units.
+    pub fn cell(&self) -> f64 {
+        self.cell
     }
+
+    #[inline]
+    fn col(&self, x: f64) -> usize {
+        cell_coord(x, self.x0, self.cell, self.nx)
+    }
+    #[inline]
     fn row(&self, y: f64) -> usize {
-        let c = ((y - self.y0) / self.cell).floor();
-        if c.is_nan() || c < 0.0 {
-            0
-        } else {
-            (c as usize).min(self.ny - 1)
-        }
+        cell_coord(y, self.y0, self.cell, self.ny)
     }
     fn cell_of(&self, x: f64, y: f64) -> usize {
         self.row(y) * self.nx + self.col(x)
     }
+    #[inline]
     fn range(&self, c: usize) -> std::ops::Range<usize> {
         self.start[c] as usize..self.start[c + 1] as usize
     }
 
-    /// Ring search around (qx, qy) keeping the k nearest, skipping original
-    /// index `skip` (use `u32::MAX` for none).
-    fn search<B: Sink>(&self, qx: f64, qy: f64, skip: u32, best: &mut B) {
+    /// Ring search around (qx, qy) keeping the k nearest, skipping slot
+    /// `skip` (use `usize::MAX` for none).
+    fn search<B: Sink>(&self, qx: f64, qy: f64, skip: usize, best: &mut B) {
         let (cx, cy) = (self.col(qx) as isize, self.row(qy) as isize);
         let (nx, ny) = (self.nx as isize, self.ny as isize);
         let mut rho: isize = 0;
@@ -245,12 +351,12 @@ impl GridIndex {
             let (xlo, xhi) = ((cx - rho).max(0), (cx + rho).min(nx - 1));
             let mut visit = |ix: isize, iy: isize| {
                 for s in self.range(iy as usize * self.nx + ix as usize) {
-                    if self.id[s] == skip {
+                    if s == skip {
                         continue;
                     }
-                    let dx = self.px[s] - qx;
-                    let dy = self.py[s] - qy;
-                    best.offer(dx * dx + dy * dy, self.id[s]);
+                    let dx = self.xs[s] - qx;
+                    let dy = self.ys[s] - qy;
+                    best.offer(dx * dx + dy * dy, s, &self.id);
                 }
             };
             // Only the cells on the ring at Chebyshev distance rho are new.
@@ -310,19 +416,16 @@ impl GridIndex {
         let mut out = vec![0.0; n];
         if k == 1 {
             for s in 0..n {
-                let mut b = Best1 {
-                    d2: f64::INFINITY,
-                    j: u32::MAX,
-                };
-                self.search(self.px[s], self.py[s], self.id[s], &mut b);
-                out[self.id[s] as usize] = b.d2.sqrt();
+                let mut b = BestD(f64::INFINITY);
+                self.search(self.xs[s], self.ys[s], s, &mut b);
+                out[self.id[s] as usize] = b.0.sqrt();
             }
             return Some(out);
         }
         let mut b = Best::new(k);
         for s in 0..n {
             b.clear();
-            self.search(self.px[s], self.py[s], self.id[s], &mut b);
+            self.search(self.xs[s], self.ys[s], s, &mut b);
             out[self.id[s] as usize] = b.worst().sqrt();
         }
         Some(out)
@@ -343,7 +446,7 @@ impl GridIndex {
                 d2: f64::INFINITY,
                 j: u32::MAX,
             };
-            self.search(self.px[s], self.py[s], self.id[s], &mut b);
+            self.search(self.xs[s], self.ys[s], s, &mut b);
             let i = self.id[s] as usize;
             out[i] = if b.j == u32::MAX {
                 (i, f64::INFINITY)
@@ -364,8 +467,43 @@ impl GridIndex {
             d2: f64::INFINITY,
             j: u32::MAX,
         };
-        self.search(qx, qy, u32::MAX, &mut b);
+        self.search(qx, qy, usize::MAX, &mut b);
         (b.j != u32::MAX).then(|| (b.j as usize, b.d2.sqrt()))
+    }
+
+    /// Distance from (qx, qy) to the nearest indexed point other than slot
+    /// `skip` (`usize::MAX` skips none); infinite when there is none.
+    pub(crate) fn nearest_distance(&self, qx: f64, qy: f64, skip: usize) -> f64 {
+        let mut b = BestD(f64::INFINITY);
+        if !self.is_empty() {
+            self.search(qx, qy, skip, &mut b);
+        }
+        b.0.sqrt()
+    }
+
+    /// Calls `f(j)` for every indexed point j in the cells that meet the
+    /// box of half-side r about (qx, qy): a superset of the points within
+    /// r, which the caller filters by its own rule. Order: rows of cells
+    /// upwards, cells left to right, input order within a cell. Nothing is
+    /// called when r is negative or NaN.
+    #[inline]
+    pub fn for_each_candidate<F: FnMut(usize)>(&self, qx: f64, qy: f64, r: f64, mut f: F) {
+        if r.is_nan() || r < 0.0 || self.is_empty() {
+            return;
+        }
+        let (xlo, xhi) = (self.col(qx - r), self.col(qx + r));
+        let (ylo, yhi) = (self.row(qy - r), self.row(qy + r));
+        for iy in ylo..=yhi {
+            // Cells xlo..=xhi of a row are one run of slots.
+            let row = iy * self.nx;
+            let (s0, s1) = (
+                self.start[row + xlo] as usize,
+                self.start[row + xhi + 1] as usize,
+            );
+            for &j in &self.id[s0..s1] {
+                f(j as usize);
+            }
+        }
     }
 
     /// Calls `f(j, d)` for every indexed point j with distance d ≤ r from
@@ -378,14 +516,14 @@ impl GridIndex {
         let (xlo, xhi) = (self.col(qx - r), self.col(qx + r));
         let (ylo, yhi) = (self.row(qy - r), self.row(qy + r));
         for iy in ylo..=yhi {
-            for ix in xlo..=xhi {
-                for s in self.range(iy * self.nx + ix) {
-                    let dx = self.px[s] - qx;
-                    let dy = self.py[s] - qy;
-                    let d = (dx * dx + dy * dy).sqrt();
-                    if d <= r {
-                        f(self.id[s] as usize, d);
-                    }
+            // Cells xlo..=xhi of a row are one run of slots.
+            let row = iy * self.nx;
+            for s in self.start[row + xlo] as usize..self.start[row + xhi + 1] as usize {
+                let dx = self.xs[s] - qx;
+                let dy = self.ys[s] - qy;
+                let d = (dx * dx + dy * dy).sqrt();
+                if d <= r {
+                    f(self.id[s] as usize, d);
                 }
             }
         }
@@ -398,49 +536,178 @@ impl GridIndex {
         if r.is_nan() || r < 0.0 || self.len() < 2 {
             return;
         }
-        let reach = (r / self.cell).ceil().min(self.nx.max(self.ny) as f64) as isize;
-        let (nx, ny) = (self.nx as isize, self.ny as isize);
-        let mut emit = |a: usize, b: usize| {
-            let dx = self.px[a] - self.px[b];
-            let dy = self.py[a] - self.py[b];
-            let d = (dx * dx + dy * dy).sqrt();
-            if d <= r {
-                let (i, j) = (self.id[a] as usize, self.id[b] as usize);
-                if i < j {
-                    f(i, j, d)
-                } else {
-                    f(j, i, d)
+        self.for_each_block(r, |a, b0, b1| {
+            let (xa, ya) = (self.xs[a], self.ys[a]);
+            for b in b0..b1 {
+                let dx = self.xs[b] - xa;
+                let dy = self.ys[b] - ya;
+                let d = (dx * dx + dy * dy).sqrt();
+                if d <= r {
+                    let (i, j) = (self.id[a] as usize, self.id[b] as usize);
+                    if i < j {
+                        f(i, j, d)
+                    } else {
+                        f(j, i, d)
+                    }
                 }
             }
-        };
+        });
+    }
+
+    /// Calls `visit(a, b, d)` once for every unordered pair of slots a ≠ b
+    /// with `d² ≤ r²`, handing on `d = sqrt(d²)`.
+    #[inline]
+    pub(crate) fn for_each_slot_pair<F: FnMut(usize, usize, f64)>(&self, r: f64, mut visit: F) {
+        let r2 = r * r;
+        self.for_each_block(r, |a, b0, b1| {
+            let (xa, ya) = (self.xs[a], self.ys[a]);
+            let bx = &self.xs[b0..b1];
+            let by = &self.ys[b0..b1];
+            for k in 0..bx.len() {
+                let dx = bx[k] - xa;
+                let dy = by[k] - ya;
+                let d2 = dx * dx + dy * dy;
+                if d2 <= r2 {
+                    visit(a, b0 + k, d2.sqrt());
+                }
+            }
+        });
+    }
+
+    /// Calls `block(a, b0, b1)` so that every unordered pair of slots that
+    /// can be within `r` appears exactly once as (a, b) with b in b0..b1
+    /// (candidates, not yet filtered by distance): the rest of a's own cell,
+    /// then runs of cells in the forward half of its neighbourhood (same row
+    /// to the right, rows above). This is the K/g inner loop's iteration.
+    #[inline]
+    pub(crate) fn for_each_block<F: FnMut(usize, usize, usize)>(&self, r: f64, mut block: F) {
+        let reach = self.reach(r);
+        let (nx, ny) = (self.nx as isize, self.ny as isize);
         for cy in 0..ny {
             for cx in 0..nx {
                 let c = (cy * nx + cx) as usize;
-                let here = self.range(c);
-                if here.is_empty() {
+                let (a0, a1) = (self.start[c] as usize, self.start[c + 1] as usize);
+                if a0 == a1 {
                     continue;
                 }
-                for a in here.clone() {
-                    for b in a + 1..here.end {
-                        emit(a, b);
+                for a in a0..a1 {
+                    if a + 1 < a1 {
+                        block(a, a + 1, a1);
                     }
                 }
-                for dy in 0..=reach.min(ny - 1 - cy) {
-                    let xfrom = if dy == 0 { 1 } else { (-reach).max(-cx) };
-                    let gy = ((dy - 1).max(0) as f64) * self.cell;
-                    for dx in xfrom..=reach.min(nx - 1 - cx) {
-                        let gx = ((dx.abs() - 1).max(0) as f64) * self.cell;
-                        if gx * gx + gy * gy > r * r {
+                for oy in 0..=reach {
+                    let ny_ = cy + oy;
+                    if ny_ >= ny {
+                        break;
+                    }
+                    let span = self.row_span(r, reach, oy);
+                    let (ox0, ox1) = if oy == 0 { (1, span) } else { (-span, span) };
+                    let lo = (cx + ox0).max(0);
+                    let hi = (cx + ox1).min(nx - 1);
+                    if lo > hi {
+                        continue;
+                    }
+                    // Cells lo..=hi of row ny_ are contiguous in slot order.
+                    let row = ny_ * nx;
+                    let b0 = self.start[(row + lo) as usize] as usize;
+                    let b1 = self.start[(row + hi) as usize + 1] as usize;
+                    if b0 == b1 {
+                        continue;
+                    }
+                    for a in a0..a1 {
+                        block(a, b0, b1);
+                    }
+                }
+            }
+        }
+    }
+
+    /// Rows of cells to search for distances up to `r`.
+    #[inline]
+    fn reach(&self, r: f64) -> isize {
+        (r / self.cell)
+            .ceil()
+            .max(1.0)
+            .min(self.nx.max(self.ny) as f64) as isize
+    }
+
+    /// Largest column offset that can hold a point within `r` of a point
+    /// in a cell `oy` rows away: the gap between the rows is at least
+    /// (|oy| − 1)·cell, and between columns |ox| apart at least
+    /// (|ox| − 1)·cell, so |ox| ≤ ⌈√(r² − gap²)/cell⌉ (with a relative
+    /// margin so that rounding in the cell assignment never loses a pair).
+    #[inline]
+    fn row_span(&self, r: f64, reach: isize, oy: isize) -> isize {
+        let gap = ((oy.abs() - 1).max(0)) as f64 * self.cell;
+        let w2 = (r * r - gap * gap).max(0.0);
+        ((w2.sqrt() * (1.0 + 1e-9) / self.cell).ceil() as isize)
+            .max(1)
+            .min(reach)
+    }
+
+    /// For each slot `a` with `inner(a) = Some(ρ)`, calls `visit(a, runs)`
+    /// with row-runs of slots that hold every point b ≠ a with
+    /// ρ < d(a, b) ≤ r (candidates, not yet filtered by distance; a itself
+    /// may be among them). Cells that lie wholly inside the disc of radius ρ
+    /// about a are cut out of the runs, so a point close to nothing but its
+    /// inner disc costs little. (The cut keeps a margin of 1e-9 of ρ and of
+    /// the cell side, so a point whose computed distance could exceed ρ is
+    /// never cut.) Used by the isotropic K and g weight passes.
+    pub(crate) fn for_each_point_runs_beyond<I, F>(&self, r: f64, inner: I, mut visit: F)
+    where
+        I: Fn(usize) -> Option<f64>,
+        F: FnMut(usize, &[(usize, usize)]),
+    {
+        let reach = self.reach(r);
+        let (nx, ny) = (self.nx as isize, self.ny as isize);
+        let cell = self.cell;
+        let spans: Vec<isize> = (-reach..=reach)
+            .map(|oy| self.row_span(r, reach, oy))
+            .collect();
+        let mut runs: Vec<(usize, usize)> = Vec::with_capacity(4 * reach as usize + 2);
+        let s = |row: isize, col: isize| self.start[(row * nx + col) as usize] as usize;
+        for cy in 0..ny {
+            for cx in 0..nx {
+                let c = (cy * nx + cx) as usize;
+                for a in self.range(c) {
+                    let Some(rho) = inner(a) else { continue };
+                    let (xa, ya) = (self.xs[a], self.ys[a]);
+                    let rho = rho * (1.0 - 1e-9) - 1e-9 * cell;
+                    runs.clear();
+                    for (k, oy) in (-reach..=reach).enumerate() {
+                        let row = cy + oy;
+                        if row < 0 || row >= ny {
                             continue;
                         }
-                        let o = ((cy + dy) * nx + cx + dx) as usize;
-                        let there = self.range(o);
-                        for a in here.clone() {
-                            for b in there.clone() {
-                                emit(a, b);
+                        let span = spans[k];
+                        let lo = (cx - span).max(0);
+                        let hi = (cx + span).min(nx - 1);
+                        // Columns wholly inside the disc of radius rho.
+                        let (mut cut_lo, mut cut_hi) = (1isize, 0isize);
+                        if rho > 0.0 {
+                            let y_lo = self.y0 + row as f64 * cell;
+                            let dy = (ya - y_lo).abs().max((ya - y_lo - cell).abs());
+                            if dy < rho {
+                                let w = (rho * rho - dy * dy).sqrt();
+                                cut_lo = ((xa - w - self.x0) / cell).ceil() as isize;
+                                cut_hi = ((xa + w - self.x0) / cell).floor() as isize - 1;
+                                cut_lo = cut_lo.max(lo);
+                                cut_hi = cut_hi.min(hi);
                             }
                         }
+                        if cut_lo <= cut_hi {
+                            if lo < cut_lo {
+                                runs.push((s(row, lo), s(row, cut_lo)));
+                            }
+                            if cut_hi < hi {
+                                runs.push((s(row, cut_hi + 1), s(row, hi + 1)));
+                            }
+                        } else {
+                            runs.push((s(row, lo), s(row, hi + 1)));
+                        }
                     }
+                    runs.retain(|(b0, b1)| b0 < b1);
+                    visit(a, &runs);
                 }
             }
         }
@@ -637,6 +904,35 @@ mod tests {
         assert_eq!(g.nearest(5.5, 5.0), Some((0, 0.5)));
     }
 
+    /// Candidates are a superset of the points within r, each once, in
+    /// row-major cell order with input order inside a cell.
+    #[test]
+    fn test_candidates_cover_the_disc_once() {
+        let (x, y) = random_points(600, SEED_2);
+        for cell in [5.0, 40.0, 1000.0] {
+            let g = GridIndex::with_cell(&x, &y, cell);
+            let mut rng = rng_from_seed(12);
+            for _ in 0..100 {
+                let (qx, qy) = (
+                    rng.random::<f64>() * 1200.0 - 100.0,
+                    rng.random::<f64>() * 600.0,
+                );
+                let r = rng.random::<f64>() * 80.0;
+                let mut got = Vec::new();
+                g.for_each_candidate(qx, qy, r, |j| got.push(j));
+                let keys: Vec<(usize, usize)> =
+                    got.iter().map(|&j| (g.cell_of(x[j], y[j]), j)).collect();
+                assert!(keys.windows(2).all(|w| w[0] < w[1]), "order or repeat");
+                for j in 0..x.len() {
+                    if ((x[j] - qx).powi(2) + (y[j] - qy).powi(2)).sqrt() <= r {
+                        assert!(got.contains(&j), "missed {j}");
+                    }
+                }
+            }
+            g.for_each_candidate(0.0, 0.0, f64::NAN, |_| panic!("none"));
+        }
+    }
+
     #[test]
     fn test_negative_or_nan_radius() {
         let (x, y) = random_points(50, SEED_1);
@@ -660,5 +956,145 @@ mod tests {
         let mut pairs = 0;
         g.for_each_pair_within(d, |_, _, _| pairs += 1);
         assert_eq!(pairs, 2 * k * (k - 1));
+    }
+
+    // Slot-level pair and run iteration (the K/g inner loop).
+
+    fn random_unit_points(n: usize, seed: u64) -> (Vec<f64>, Vec<f64>) {
+        let mut rng = crate::rng::rng_from_seed(seed);
+        let x = (0..n).map(|_| rng.random::<f64>()).collect();
+        let y = (0..n).map(|_| rng.random::<f64>() * 0.6).collect();
+        (x, y)
+    }
+
+    /// Oracle test against an O(n²) loop on 500 seeded points (STYLE.md §3.9).
+    #[test]
+    fn test_pairs_match_brute_force() {
+        let (x, y) = random_unit_points(500, 17);
+        for (r, cell) in [(0.05, 0.025), (0.1, 0.1), (0.2, 0.05), (0.05, 0.001)] {
+            let g = GridIndex::with_cell(&x, &y, cell);
+            let mut got = Vec::new();
+            g.for_each_slot_pair(r, |a, b, d| {
+                let (i, j) = (g.id[a] as usize, g.id[b] as usize);
+                got.push((i.min(j), i.max(j), d));
+            });
+            got.sort_by_key(|a| (a.0, a.1));
+            let mut want = Vec::new();
+            for i in 0..x.len() {
+                for j in i + 1..x.len() {
+                    let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
+                    if d2 <= r * r {
+                        want.push((i, j, d2.sqrt()));
+                    }
+                }
+            }
+            assert_eq!(got.len(), want.len());
+            for (a, b) in got.iter().zip(&want) {
+                assert_eq!((a.0, a.1), (b.0, b.1));
+                assert_eq!(a.2, b.2);
+            }
+        }
+    }
+
+    /// The runs beyond an inner disc (used for the isotropic weights' excess)
+    /// hold every point b with ρ < d ≤ r, each once, for inner radii drawn
+    /// at random, set to 0, and set just below a neighbour's distance (that
+    /// neighbour must then be kept).
+    #[test]
+    fn test_runs_beyond_cover_the_annulus() {
+        let (x, y) = random_unit_points(400, 31);
+        let mut rng = crate::rng::rng_from_seed(8);
+        for (r, cell) in [(0.05, 0.0125), (0.1, 0.1), (0.2, 0.05), (0.07, 0.02)] {
+            let g = GridIndex::with_cell(&x, &y, cell);
+            let n = g.xs.len();
+            let d = |a: usize, b: usize| {
+                let (dx, dy) = (g.xs[b] - g.xs[a], g.ys[b] - g.ys[a]);
+                (dx * dx + dy * dy).sqrt()
+            };
+            let rho: Vec<Option<f64>> = (0..n)
+                .map(|a| match a % 4 {
+                    0 => None,
+                    1 => Some(0.0),
+                    2 => Some(rng.random::<f64>() * r),
+                    // Just below the distance to a neighbour within r.
+                    _ => (0..n)
+                        .map(|b| d(a, b))
+                        .filter(|&v| v > 0.0 && v <= r)
+                        .fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))))
+                        .map(|v| v * (1.0 - 1e-15)),
+                })
+                .collect();
+            let mut got = Vec::new();
+            g.for_each_point_runs_beyond(
+                r,
+                |a| rho[a],
+                |a, runs| {
+                    for &(b0, b1) in runs {
+                        for b in b0..b1 {
+                            let dd = d(a, b);
+                            if dd > rho[a].unwrap_or(f64::NAN) && dd <= r {
+                                got.push((a, b));
+                            }
+                        }
+                    }
+                },
+            );
+            let before = got.len();
+            got.sort_unstable();
+            got.dedup();
+            assert_eq!(got.len(), before, "a pair was visited twice");
+            let mut want = Vec::new();
+            for (a, ra) in rho.iter().enumerate() {
+                let Some(ra) = *ra else { continue };
+                for b in 0..n {
+                    let dd = d(a, b);
+                    if dd > ra && dd <= r {
+                        want.push((a, b));
+                    }
+                }
+            }
+            assert!(want.len() > 500, "too few pairs to test: {}", want.len());
+            assert_eq!(got, want, "r = {r}, cell = {cell}");
+        }
+    }
+
+    #[test]
+    fn test_nn_match_brute_force() {
+        let (x, y) = random_unit_points(500, 3);
+        // Cells sized for the nearest-neighbour search (about two points per
+        // cell of the 1 × 0.6 area) and the automatic layout.
+        for g in [
+            GridIndex::with_cell(&x, &y, (2.0 * 0.6 / 500.0f64).sqrt()),
+            GridIndex::new(&x, &y),
+        ] {
+            let nn = g.nn_distances().unwrap();
+            for i in 0..x.len() {
+                let mut best = f64::INFINITY;
+                for j in 0..x.len() {
+                    if i != j {
+                        best = best.min(((x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2)).sqrt());
+                    }
+                }
+                assert_eq!(nn[i], best);
+            }
+            for s in 0..x.len() {
+                let i = g.id[s] as usize;
+                assert_eq!(g.nearest_distance(x[i], y[i], s), nn[i]);
+            }
+        }
+    }
+
+    #[test]
+    fn test_nn_edge_cases() {
+        let g = GridIndex::with_cell(&[], &[], 0.5);
+        assert!(g.nn_distances().is_none());
+        assert_eq!(g.nearest_distance(0.5, 0.5, usize::MAX), f64::INFINITY);
+        // A single point: no other point, so its distance is infinite.
+        let g = GridIndex::with_cell(&[0.5], &[0.5], 0.5);
+        assert!(g.nn_distances().is_none());
+        assert_eq!(g.nearest_distance(0.5, 0.5, 0), f64::INFINITY);
+        // Coincident points: distance 0.
+        let g = GridIndex::with_cell(&[0.5, 0.5], &[0.5, 0.5], 0.5);
+        assert_eq!(g.nn_distances(), Some(vec![0.0, 0.0]));
     }
 }

@@ -147,20 +147,10 @@ impl EdgeGrid {
         Some(g)
     }
     fn col(&self, x: f64) -> usize {
-        let c = ((x - self.x0) / self.cell).floor();
-        if c.is_nan() || c < 0.0 {
-            0
-        } else {
-            (c as usize).min(self.nx - 1)
-        }
+        crate::index::cell_coord(x, self.x0, self.cell, self.nx)
     }
     fn row(&self, y: f64) -> usize {
-        let c = ((y - self.y0) / self.cell).floor();
-        if c.is_nan() || c < 0.0 {
-            0
-        } else {
-            (c as usize).min(self.ny - 1)
-        }
+        crate::index::cell_coord(y, self.y0, self.cell, self.ny)
     }
     /// Smallest squared distance from (x, y) to any edge: long edges first,
     /// then rings of cells around the point's cell until no unvisited cell
@@ -504,12 +494,7 @@ impl Window {
     /// Non-finite points are ignored. Fails (with `BadPolygon`) when there
     /// are no points or they all share one x or one y value.
     pub fn bounding_box_of(x: &[f64], y: &[f64]) -> Result<Window, InputError> {
-        let mut b = [f64::MAX, f64::MAX, f64::MIN, f64::MIN];
-        for (&px, &py) in x.iter().zip(y) {
-            if px.is_finite() && py.is_finite() {
-                b = [b[0].min(px), b[1].min(py), b[2].max(px), b[3].max(py)];
-            }
-        }
+        let b = crate::index::bbox(x, y).unwrap_or([0.0; 4]);
         if !(b[2] > b[0] && b[3] > b[1]) {
             return Err(bad(
                 "the events all share one x or one y coordinate (or there are \

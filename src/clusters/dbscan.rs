@@ -21,14 +21,15 @@
 //!   clusters of one).
 //!
 //! # Complexity
-//! Points are bucketed in a grid of cell `eps`; each neighbourhood query
-//! scans a 3 × 3 block of cells. Neighbourhoods are counted in one pass and
-//! recomputed for core points during growth, so memory stays O(n) however
-//! dense the data. Worst case (everything within eps) O(n²) time.
+//! Points are indexed in the shared [`crate::index::GridIndex`] with cells of
+//! side `eps`; each neighbourhood query scans a 3 × 3 block of cells.
+//! Neighbourhoods are counted in one pass and recomputed for core points
+//! during growth, so memory stays O(n) however dense the data. Worst case
+//! (everything within eps) O(n²) time.
 
-use super::buckets::Buckets;
 use super::hull::{convex_hull, ring_area};
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use crate::study::Pattern;
 use serde::{Deserialize, Serialize};
 
@@ -175,10 +176,10 @@ pub fn dbscan_labels(
 ) -> (Vec<i32>, Vec<bool>) {
     let n = x.len();
     let eps2 = eps * eps;
-    let b = Buckets::new(x, y, eps);
+    let b = GridIndex::with_cell(x, y, eps);
     let neighbours = |i: usize, f: &mut dyn FnMut(usize)| {
         let (xi, yi) = (x[i], y[i]);
-        b.for_candidates(xi, yi, eps, |j| {
+        b.for_each_candidate(xi, yi, eps, |j| {
             let dx = x[j] - xi;
             let dy = y[j] - yi;
             if dx * dx + dy * dy <= eps2 {

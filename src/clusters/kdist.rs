@@ -12,8 +12,8 @@
 //! straight line joining its ends (a common heuristic \[CP\], no single source);
 //! treat it as a starting value, not an answer.
 
-use super::buckets::Buckets;
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use serde::Serialize;
 
 /// The sorted k-distances and a suggested `eps`.
@@ -38,47 +38,11 @@ pub fn kth_distances(x: &[f64], y: &[f64], k: usize) -> Result<Vec<f64>, Analysi
             found: n,
         });
     }
-    // Buckets with about two events each.
-    let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
-    for i in 0..n {
-        x0 = x0.min(x[i]);
-        y0 = y0.min(y[i]);
-        x1 = x1.max(x[i]);
-        y1 = y1.max(y[i]);
-    }
-    let span = ((x1 - x0).max(1e-9) * (y1 - y0).max(1e-9)).sqrt();
-    let cell = (span * (2.0 * k as f64 / n as f64).sqrt()).max((x1 - x0).max(y1 - y0) / 2048.0);
-    let b = Buckets::new(x, y, cell);
-    let cell = b.cell();
-    let mut out = Vec::with_capacity(n);
-    let mut best: Vec<f64> = Vec::with_capacity(k + 1);
-    for i in 0..n {
-        best.clear();
-        let mut ring = 0;
-        loop {
-            let inside = b.for_ring(x[i], y[i], ring, |j| {
-                let d2 = (x[j] - x[i]).powi(2) + (y[j] - y[i]).powi(2);
-                if best.len() < k {
-                    let pos = best.partition_point(|&v| v <= d2);
-                    best.insert(pos, d2);
-                } else if d2 < best[k - 1] {
-                    best.pop();
-                    let pos = best.partition_point(|&v| v <= d2);
-                    best.insert(pos, d2);
-                }
-            });
-            // Anything in ring r+1 is at least r cells away.
-            if best.len() == k && best[k - 1] <= (ring as f64 * cell).powi(2) {
-                break;
-            }
-            if !inside && ring > 0 {
-                break;
-            }
-            ring += 1;
-        }
-        out.push(best[k - 1].sqrt());
-    }
-    Ok(out)
+    // Counting the event itself (distance 0), the k-th nearest is the
+    // (k − 1)-th nearest other event.
+    Ok(GridIndex::new(x, y)
+        .kth_nn_distances(k - 1)
+        .unwrap_or_else(|| vec![0.0; n]))
 }
 
 /// k-distance plot data for `min_samples`.

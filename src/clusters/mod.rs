@@ -5,7 +5,6 @@
 //! * [`kdist`]: the sorted k-distance curve for choosing `eps`.
 //! * [`hull`]: convex hulls (monotone chain).
 
-pub(crate) mod buckets;
 pub mod dbscan;
 pub mod hull;
 pub mod kdist;

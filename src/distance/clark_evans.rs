@@ -23,8 +23,8 @@
 
 use super::csr::stream_rng;
 use super::functions::checked_region;
-use super::pairs::nn_distances;
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use crate::study::Pattern;
 use crate::window::Window;
 use serde::{Deserialize, Serialize};
@@ -133,6 +133,14 @@ pub fn clark_evans_from_mean(
     (naive, donnelly)
 }
 
+/// Nearest-neighbour distance of every event, in input order (infinite
+/// when there is no other event).
+fn nn_distances(x: &[f64], y: &[f64]) -> Vec<f64> {
+    GridIndex::new(x, y)
+        .nn_distances()
+        .unwrap_or_else(|| vec![f64::INFINITY; x.len()])
+}
+
 /// Clark–Evans test for a pattern in its study area (see module docs).
 pub fn clark_evans(
     pattern: &Pattern,
@@ -148,7 +156,7 @@ pub fn clark_evans(
     }
     let (x, y) = (pattern.x(), pattern.y());
     let n = x.len();
-    let nn = nn_distances(x, y, region.area);
+    let nn = nn_distances(x, y);
     let mean = nn.iter().sum::<f64>() / n as f64;
     let coincident = nn.iter().filter(|d| **d == 0.0).count();
     let (naive, donnelly) = clark_evans_from_mean(mean, n, region.area, region.perimeter);
@@ -165,7 +173,7 @@ pub fn clark_evans(
         for j in 0..params.n_sim {
             let mut rng = stream_rng(params.seed, j as u64);
             let (sx, sy) = region.sample(n, &mut rng);
-            let t = nn_distances(&sx, &sy, region.area).iter().sum::<f64>() / n as f64;
+            let t = nn_distances(&sx, &sy).iter().sum::<f64>() / n as f64;
             if t <= mean {
                 le += 1;
             }
@@ -231,7 +239,7 @@ mod tests {
     #[test]
     fn test_f12_mean_nn() {
         let (x, y) = crate::distance::functions::tests::f12();
-        let nn = nn_distances(&x, &y, 1.0);
+        let nn = nn_distances(&x, &y);
         let mean = nn.iter().sum::<f64>() / 12.0;
         assert!((mean - 0.158227).abs() < 5e-7);
         let (naive, _) = clark_evans_from_mean(mean, 12, 1.0, 4.0);

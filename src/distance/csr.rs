@@ -162,9 +162,9 @@ pub(crate) fn matern2_in(
         py.push(ey0 + (ey1 - ey0) * rng.random::<f64>());
         mark.push(rng.random::<f64>());
     }
-    let grid = super::pairs::PointGrid::new(&px, &py, hard_core);
+    let grid = crate::index::GridIndex::with_cell(&px, &py, hard_core);
     let mut deleted = vec![false; n];
-    grid.for_each_pair(hard_core, |a, b, _| {
+    grid.for_each_slot_pair(hard_core, |a, b, _| {
         let (i, j) = (grid.id[a] as usize, grid.id[b] as usize);
         if mark[i] < mark[j] {
             deleted[j] = true;

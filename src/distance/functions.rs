@@ -41,15 +41,15 @@
 //! thin or ragged windows.
 //!
 //! # Complexity
-//! One pass over the pairs within r_max (+h for g) on a grid index,
+//! One pass over the pairs within r_max (+h for g) on [`crate::index::GridIndex`],
 //! O(n + pairs), plus one boundary-distance query per point and, with the
 //! isotropic correction, one analytic arc computation per ordered pair
 //! whose circle reaches the boundary.
 
 use super::edge::{Correction, IsoCache, NnCorrection, Translation};
-use super::pairs::{nn_cell, PointGrid};
 use super::region::Region;
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use crate::study::Pattern;
 use crate::window::Window;
 use serde::{Deserialize, Serialize};
@@ -370,7 +370,7 @@ impl Context {
             } else {
                 self.r_max
             };
-            let grid = PointGrid::new(x, y, reach / 4.0);
+            let grid = GridIndex::with_cell(x, y, reach / 4.0);
             // Fast path for the common case: K alone, any correction.
             let fast = needs.k && !needs.pcf;
             // The isotropic K's weight pass searches annuli, which finer
@@ -378,7 +378,7 @@ impl Context {
             // Fast path for g alone with the isotropic correction.
             let fast_pcf = needs.pcf && !needs.k && self.pcf_correction == Correction::Isotropic;
             let fine = ((fast && self.correction == Correction::Isotropic) || fast_pcf)
-                .then(|| PointGrid::new(x, y, reach / FINE));
+                .then(|| GridIndex::with_cell(x, y, reach / FINE));
             let wgrid = fine.as_ref().unwrap_or(&grid);
             let need_b = matches!(self.correction, Correction::Isotropic | Correction::Border)
                 || (needs.pcf && self.pcf_correction == Correction::Isotropic);
@@ -446,7 +446,7 @@ impl Context {
             }
             let generic = !fast && !fast_pcf;
             if generic {
-                grid.for_each_pair(reach, |a, bb, d| {
+                grid.for_each_slot_pair(reach, |a, bb, d| {
                     let (xa, ya, xb, yb) = (grid.xs[a], grid.ys[a], grid.xs[bb], grid.ys[bb]);
                     // Pair weights (sum of both orders) per correction.
                     let mut iso_pair = f64::NAN;
@@ -540,12 +540,12 @@ impl Context {
             }
         }
         if needs.g || needs.f {
-            let grid = PointGrid::new(x, y, nn_cell(n, area));
+            let grid = GridIndex::new(x, y);
             if needs.g {
                 let mut d = vec![0.0; n];
                 let mut b = vec![0.0; n];
                 for p in 0..n {
-                    d[p] = grid.nearest(grid.xs[p], grid.ys[p], p);
+                    d[p] = grid.nearest_distance(grid.xs[p], grid.ys[p], p);
                     b[p] = if self.nn_correction == NnCorrection::Border {
                         self.region.boundary_distance(grid.xs[p], grid.ys[p])
                     } else {
@@ -556,7 +556,7 @@ impl Context {
             }
             if needs.f {
                 let e: Vec<f64> = (0..self.f_x.len())
-                    .map(|k| grid.nearest(self.f_x[k], self.f_y[k], usize::MAX))
+                    .map(|k| grid.nearest_distance(self.f_x[k], self.f_y[k], usize::MAX))
                     .collect();
                 let b: Vec<f64> = if self.nn_correction == NnCorrection::Border {
                     self.f_b.clone()
@@ -577,7 +577,7 @@ impl Context {
     /// [`Self::k_isotropic`].)
     fn k_kernel<const MODE: u8>(
         &self,
-        grid: &PointGrid,
+        grid: &GridIndex,
         kmax: &[i64],
         capped: &mut u64,
     ) -> (Vec<f64>, Vec<f64>) {
@@ -641,14 +641,14 @@ impl Context {
     /// 2. the weights' excess e_i − 1, which is zero unless the circle
     ///    reaches the boundary (b_i < d_ij): for each point with
     ///    b_i < r_max, only the cells beyond its inner disc of radius b_i
-    ///    are searched ([`PointGrid::for_each_point_runs_beyond`]); the
+    ///    are searched ([`GridIndex::for_each_point_runs_beyond`]); the
     ///    candidates with b_i < d ≤ r_max are packed in a branch-free
     ///    loop, binned, and weighted in vectorised sweeps
     ///    ([`IsoCache::weights_minus_one`]).
     fn k_isotropic(
         &self,
-        grid: &PointGrid,
-        wgrid: &PointGrid,
+        grid: &GridIndex,
+        wgrid: &GridIndex,
         iso: &IsoCache,
         capped: &mut u64,
     ) -> Vec<f64> {
@@ -705,8 +705,8 @@ impl Context {
     /// are computed in vectorised sweeps ([`KernelSweep`]).
     fn pcf_isotropic(
         &self,
-        grid: &PointGrid,
-        wgrid: &PointGrid,
+        grid: &GridIndex,
+        wgrid: &GridIndex,
         iso: &IsoCache,
         reach: f64,
         capped: &mut u64,
@@ -937,7 +937,7 @@ impl Kernel {
 /// Distances from sorted point `a` to the sorted points `b` (a
 /// branch-free loop the compiler vectorises), into `out` (same length).
 #[inline]
-fn distances_to(grid: &PointGrid, a: usize, b: std::ops::Range<usize>, out: &mut [f64]) {
+fn distances_to(grid: &GridIndex, a: usize, b: std::ops::Range<usize>, out: &mut [f64]) {
     let (xa, ya) = (grid.xs[a], grid.ys[a]);
     for ((d, x), y) in out.iter_mut().zip(&grid.xs[b.clone()]).zip(&grid.ys[b]) {
         let dx = x - xa;
@@ -960,7 +960,7 @@ impl Annulus {
     /// distance is written, the position advances only for those kept.
     fn distances(
         &mut self,
-        grid: &PointGrid,
+        grid: &GridIndex,
         a: usize,
         runs: &[(usize, usize)],
         (lo, hi): (f64, f64),
@@ -1284,7 +1284,7 @@ pub(crate) mod tests {
         assert_eq!(g[1], 0.0);
         assert!((g[2] - 0.7).abs() < 1e-12 && (g[3] - 0.75).abs() < 1e-12);
         // F on the lattice.
-        let grid = PointGrid::new(&x, &y, 0.1);
+        let grid = GridIndex::with_cell(&x, &y, 0.1);
         let (mut e, mut b) = (Vec::new(), Vec::new());
         for iy in 0..201 {
             for ix in 0..201 {
@@ -1292,7 +1292,7 @@ pub(crate) mod tests {
                 // copy it so ties at d = r break the same way.
                 let node = |k: usize| if k == 200 { 1.0 } else { k as f64 * 0.005 };
                 let (u, v) = (node(ix), node(iy));
-                e.push(grid.nearest(u, v, usize::MAX));
+                e.push(grid.nearest_distance(u, v, usize::MAX));
                 b.push(u.min(1.0 - u).min(v).min(1.0 - v));
             }
         }

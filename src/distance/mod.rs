@@ -27,7 +27,6 @@ pub mod csr;
 pub mod edge;
 pub mod envelope;
 pub mod functions;
-pub(crate) mod pairs;
 pub mod quadrat;
 pub(crate) mod region;
 pub mod verdict;

@@ -45,8 +45,8 @@ use super::grid::GridOptions;
 use super::kernel::{Kernel, QUARTIC_PER_GAUSS_SD};
 use super::region::Region;
 use super::{surface_on_canvas, Canvas, Evaluation};
-use crate::clusters::buckets::Buckets;
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
@@ -314,11 +314,11 @@ pub fn likelihood_cv(
     while q < exact_refine.len() {
         let c = exact_refine[q].0;
         let cut = kernel.cutoff(hs[c], 6.0);
-        let b = Buckets::new(x, y, cut);
+        let b = GridIndex::with_cell(x, y, cut);
         while q < exact_refine.len() && exact_refine[q].0 == c {
             let i = exact_refine[q].1;
             let mut t = 0.0;
-            b.for_candidates(x[i], y[i], cut, |j| {
+            b.for_each_candidate(x[i], y[i], cut, |j| {
                 let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
                 if j != i && d2 <= cut * cut {
                     t += kernel.value(d2, hs[c]) * inv_e[c][j];
@@ -332,9 +332,9 @@ pub fn likelihood_cv(
     if !exact.is_empty() {
         let cut2: Vec<f64> = hs.iter().map(|&h| kernel.cutoff(h, 6.0).powi(2)).collect();
         let rmax = exact.iter().map(|&c| cut2[c]).fold(0.0, f64::max).sqrt();
-        let b = Buckets::new(x, y, rmax);
+        let b = GridIndex::with_cell(x, y, rmax);
         for i in 0..n {
-            b.for_candidates(x[i], y[i], rmax, |j| {
+            b.for_each_candidate(x[i], y[i], rmax, |j| {
                 if j <= i {
                     return;
                 }
@@ -531,9 +531,9 @@ pub fn diggle_mse(
         .collect();
     let rmax = exact.iter().map(|&c| cut2[c]).fold(0.0, f64::max).sqrt();
     if !exact.is_empty() {
-        let b = Buckets::new(x, y, rmax);
+        let b = GridIndex::with_cell(x, y, rmax);
         for i in 0..n {
-            b.for_candidates(x[i], y[i], rmax, |j| {
+            b.for_each_candidate(x[i], y[i], rmax, |j| {
                 if j <= i {
                     return;
                 }
@@ -598,38 +598,21 @@ pub fn diggle_mse(
 }
 
 /// Nearest other event of each event: (index, squared distance). Coincident
-/// events are each other's nearest at distance 0.
+/// events are each other's nearest at distance 0; ties go to the lower index.
 fn nearest_others(x: &[f64], y: &[f64]) -> Vec<(usize, f64)> {
-    let n = x.len();
-    let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
-    for i in 0..n {
-        x0 = x0.min(x[i]);
-        y0 = y0.min(y[i]);
-        x1 = x1.max(x[i]);
-        y1 = y1.max(y[i]);
+    match GridIndex::new(x, y).nearest_neighbours() {
+        Some(nn) => nn
+            .into_iter()
+            .enumerate()
+            .map(|(i, (j, d))| {
+                let d2 = if j == i {
+                    d
+                } else {
+                    (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2)
+                };
+                (j, d2)
+            })
+            .collect(),
+        None => (0..x.len()).map(|i| (i, f64::INFINITY)).collect(),
     }
-    let span = ((x1 - x0).max(y1 - y0)).max(1e-9);
-    let b = Buckets::new(x, y, span / (n as f64).sqrt().max(1.0));
-    let cell = b.cell();
-    (0..n)
-        .map(|i| {
-            let mut best = (i, f64::INFINITY);
-            let mut ring = 0;
-            loop {
-                let inside = b.for_ring(x[i], y[i], ring, |j| {
-                    if j != i {
-                        let d2 = (x[i] - x[j]).powi(2) + (y[i] - y[j]).powi(2);
-                        if d2 < best.1 {
-                            best = (j, d2);
-                        }
-                    }
-                });
-                if best.1 <= (ring as f64 * cell).powi(2) || (!inside && ring > 0) {
-                    break;
-                }
-                ring += 1;
-            }
-            best
-        })
-        .collect()
 }

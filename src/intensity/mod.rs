@@ -48,8 +48,8 @@ pub use isopleth::{Contour, ContourSet};
 pub use kernel::Kernel;
 pub use region::Region;
 
-use crate::clusters::buckets::Buckets;
 use crate::error::AnalysisError;
+use crate::index::GridIndex;
 use crate::study::Pattern;
 use crate::window::Window;
 use fft::convolve;
@@ -336,7 +336,7 @@ fn sampling_mass(kernel: Kernel, h: f64, cell: f64) -> f64 {
 
 fn exact_sum(cv: &Canvas, x: &[f64], y: &[f64], w: &[f64], kernel: Kernel, h: f64) -> Vec<f64> {
     let cut = kernel.cutoff(h, 8.0);
-    let b = Buckets::new(x, y, cut);
+    let b = GridIndex::with_cell(x, y, cut);
     let mut v = vec![0.0; cv.nx * cv.ny];
     for j in 0..cv.ny {
         for i in 0..cv.nx {
@@ -347,7 +347,7 @@ fn exact_sum(cv: &Canvas, x: &[f64], y: &[f64], w: &[f64], kernel: Kernel, h: f6
             let ux = cv.x0 + (i as f64 + 0.5) * cv.cell;
             let uy = cv.y0 + (j as f64 + 0.5) * cv.cell;
             let mut s = 0.0;
-            b.for_candidates(ux, uy, cut, |p| {
+            b.for_each_candidate(ux, uy, cut, |p| {
                 let d2 = (x[p] - ux).powi(2) + (y[p] - uy).powi(2);
                 if d2 <= cut * cut {
                     s += w[p] * kernel.value(d2, h);
