@@ -27,9 +27,9 @@
 //! dense the data. Worst case (everything within eps) O(n²) time.
 
 use super::buckets::Buckets;
-use super::hull::{convex_hull, ring_area};
 use crate::error::AnalysisError;
 use crate::study::Pattern;
+use crate::window::{convex_hull, ring_area};
 use serde::{Deserialize, Serialize};
 
 /// Options for [`dbscan`].

@@ -29,7 +29,6 @@ pub mod envelope;
 pub mod functions;
 pub(crate) mod pairs;
 pub mod quadrat;
-pub(crate) mod region;
 pub mod verdict;
 
 pub use clark_evans::{
