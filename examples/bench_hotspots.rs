@@ -15,25 +15,29 @@ use cloister::intensity::bandwidth;
 use cloister::intensity::*;
 use cloister::rng::{rng_from_seed, Rng};
 use cloister::scan::{ScanCentres, ScanJob, ScanOptions};
+use cloister::window::{Window, WindowOrigin};
 use rand::RngExt;
 use std::fmt::Write as _;
 use std::time::Instant;
 
-fn study_area() -> Region {
-    Region::from_polygons(&[vec![
-        vec![
-            [0.0, 0.0],
-            [20_000.0, 0.0],
-            [20_000.0, 15_000.0],
-            [0.0, 15_000.0],
-        ],
-        vec![
-            [8000.0, 6000.0],
-            [11_000.0, 6000.0],
-            [11_000.0, 9000.0],
-            [8000.0, 9000.0],
-        ],
-    ]])
+fn study_area() -> Window {
+    Window::from_polygons(
+        vec![vec![
+            vec![
+                [0.0, 0.0],
+                [20_000.0, 0.0],
+                [20_000.0, 15_000.0],
+                [0.0, 15_000.0],
+            ],
+            vec![
+                [8000.0, 6000.0],
+                [11_000.0, 6000.0],
+                [11_000.0, 9000.0],
+                [8000.0, 9000.0],
+            ],
+        ]],
+        WindowOrigin::File,
+    )
     .unwrap()
 }
 
@@ -43,7 +47,7 @@ fn gauss(rng: &mut Rng) -> f64 {
     (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
 }
 
-fn events(n: usize, seed: u64, region: &Region) -> (Vec<f64>, Vec<f64>) {
+fn events(n: usize, seed: u64, region: &Window) -> (Vec<f64>, Vec<f64>) {
     let mut rng = rng_from_seed(seed);
     let centres = [
         (3000.0, 3000.0, 300.0),

@@ -11,8 +11,8 @@ use cloister::privacy::export::{export, ExportContent, ExportOptions};
 use cloister::privacy::suppress::{suppress, SuppressionParams};
 use cloister::privacy::{
     compare, donut_mask, kanon_mask, CostParams, DonutParams, ExportFormat, KAnonParams,
-    PolygonArea,
 };
+use cloister::window::Window;
 use rand::RngExt;
 use std::time::Instant;
 
@@ -52,7 +52,7 @@ fn time<T>(step: &str, n: usize, f: impl FnOnce() -> T) -> T {
 }
 
 fn main() {
-    let area = PolygonArea::rectangle(0.0, 0.0, 20_000.0, 20_000.0);
+    let area = Window::rectangle(0.0, 0.0, 20_000.0, 20_000.0).unwrap();
     for n in [1_000, 10_000] {
         let (x, y) = clustered(n, 1);
         let (px, py) = clustered(50_000, 2);
@@ -72,7 +72,7 @@ fn main() {
                 ..Default::default()
             };
             let agg = time("aggregate", n, || {
-                aggregate_grid(&x, &y, &area, &area.polygons[0][0], Some((&px, &py)), &p).unwrap()
+                aggregate_grid(&x, &y, &area, &area.polygons()[0][0], Some((&px, &py)), &p).unwrap()
             });
             let t = time("suppress_and_audit", n, || {
                 suppress(&agg, &SuppressionParams::default())

@@ -6,7 +6,7 @@
 use cloister::clusters::{dbscan, DbscanOptions};
 use cloister::input::{read_area, read_points, ReadOptions};
 use cloister::intensity::{
-    kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, Region, SurfaceOptions,
+    kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, SurfaceOptions,
 };
 use cloister::scan::{ScanJob, ScanModel, ScanOptions};
 use cloister::study::{AreaFallback, Study};
@@ -49,26 +49,46 @@ fn near(p: (f64, f64), q: (f64, f64), r: f64) -> bool {
 }
 
 #[test]
-fn region_agrees_with_window() {
-    // Our rasterising copy of the study area against crate::window (another
-    // module's implementation): same area, same inside/outside.
+fn raster_mask_agrees_with_window() {
+    // The study area's raster mask (a scanline fill, used by the surfaces
+    // and the scan) against its containment test (banded ray casting), and
+    // its area against a plain shoelace sum written here.
     let s = study();
-    let r = Region::from_window(&s.window).unwrap();
-    assert!((r.area() - s.window.area()).abs() / s.window.area() < 1e-9);
+    let r = &s.window;
+    let mut shoelace = 0.0;
+    for poly in r.polygons() {
+        for (k, ring) in poly.iter().enumerate() {
+            let a: f64 = ring
+                .windows(2)
+                .map(|w| w[0][0] * w[1][1] - w[1][0] * w[0][1])
+                .sum();
+            shoelace += if k == 0 {
+                0.5 * a.abs()
+            } else {
+                -0.5 * a.abs()
+            };
+        }
+    }
+    assert!((r.area() - shoelace).abs() / shoelace < 1e-9);
     // README: net area 82.466 km² in its local grid (a different plane,
     // hence 0.5 %).
     assert!((r.area() / 1e6 - 82.466).abs() / 82.466 < 5e-3);
     let [x0, y0, x1, y1] = s.window.bbox();
+    let cell = (x1 - x0) / 200.0;
+    let ny = ((y1 - y0) / cell).ceil() as usize;
+    let (ox, oy) = (x0 - 0.13 * cell, y0 + 0.11 * cell);
+    let mask = r.raster_mask(ox, oy, cell, 200, ny);
     let mut disagree = 0;
-    for j in 0..200 {
+    for j in 0..ny {
         for i in 0..200 {
-            let x = x0 + (x1 - x0) * (i as f64 + 0.37) / 200.0;
-            let y = y0 + (y1 - y0) * (j as f64 + 0.61) / 200.0;
-            if r.contains(x, y) != s.window.contains(x, y) {
+            let x = ox + (i as f64 + 0.5) * cell;
+            let y = oy + (j as f64 + 0.5) * cell;
+            if mask[j * 200 + i] != s.window.contains(x, y) {
                 disagree += 1;
             }
         }
     }
+    assert!(mask.iter().filter(|&&v| v).count() > 10_000);
     assert_eq!(disagree, 0);
 }
 

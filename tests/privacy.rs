@@ -10,9 +10,10 @@ use cloister::privacy::kanon::r_min_for_k;
 use cloister::privacy::suppress::{audit, audit_view, suppress, SuppressionParams};
 use cloister::privacy::{
     compare, donut_mask, kanon_mask, CostParams, DistanceLaw, DonutParams, ExportFormat,
-    KAnonParams, PolygonArea, Region, UnplacedReason,
+    KAnonParams, UnplacedReason,
 };
 use cloister::rng::rng_from_seed;
+use cloister::window::{Window, WindowOrigin};
 use rand::RngExt;
 use serde_json::Value;
 
@@ -32,21 +33,24 @@ fn floats(v: &Value) -> Vec<f64> {
 
 /// A 10 km square with a 4 km square hole in the middle, and `n` seeded
 /// uniform points in it (rejection sampling).
-fn holed_area(n: usize, seed: u64) -> (PolygonArea, Vec<f64>, Vec<f64>) {
-    let area = PolygonArea::new(vec![vec![
-        vec![
-            [0.0, 0.0],
-            [10_000.0, 0.0],
-            [10_000.0, 10_000.0],
-            [0.0, 10_000.0],
-        ],
-        vec![
-            [3000.0, 3000.0],
-            [7000.0, 3000.0],
-            [7000.0, 7000.0],
-            [3000.0, 7000.0],
-        ],
-    ]])
+fn holed_area(n: usize, seed: u64) -> (Window, Vec<f64>, Vec<f64>) {
+    let area = Window::from_polygons(
+        vec![vec![
+            vec![
+                [0.0, 0.0],
+                [10_000.0, 0.0],
+                [10_000.0, 10_000.0],
+                [0.0, 10_000.0],
+            ],
+            vec![
+                [3000.0, 3000.0],
+                [7000.0, 3000.0],
+                [7000.0, 7000.0],
+                [3000.0, 7000.0],
+            ],
+        ]],
+        WindowOrigin::File,
+    )
     .unwrap();
     let mut rng = rng_from_seed(seed);
     let (mut x, mut y) = (vec![], vec![]);
@@ -109,9 +113,8 @@ fn donut_every_point_in_ring_inside_area_and_out_of_hole() {
 #[test]
 fn donut_with_the_study_window_type() {
     // Same property with the crate's Window (polygon with a hole) as the area.
-    use cloister::window::{Window, WindowOrigin};
     let (area, _, _) = holed_area(1, 1);
-    let w = Window::from_polygons(area.polygons.clone(), WindowOrigin::File).unwrap();
+    let w = Window::from_polygons(area.polygons().to_vec(), WindowOrigin::File).unwrap();
     let mut rng = rng_from_seed(12);
     let (x, y) = w.sample_uniform(3000, &mut rng);
     let p = DonutParams {
@@ -139,7 +142,7 @@ fn donut_displacements_follow_the_design_ks_test() {
     let r = reference("donut_reference.json");
     let crit = r["ks_critical"].as_f64().unwrap();
     assert!((0.04..0.05).contains(&crit));
-    let area = PolygonArea::rectangle(0.0, 0.0, 100_000.0, 100_000.0);
+    let area = Window::rectangle(0.0, 0.0, 100_000.0, 100_000.0).unwrap();
     let n = r["n"].as_u64().unwrap() as usize;
     let x = vec![50_000.0; n];
     let y = vec![50_000.0; n];
@@ -238,7 +241,7 @@ fn kanon_reference_set_reaches_target_or_says_exactly_why_not() {
                 .collect()
         })
         .collect();
-    let area = PolygonArea::new(vec![rings]).unwrap();
+    let area = Window::from_polygons(vec![rings], WindowOrigin::File).unwrap();
     let (ex, ey) = (floats(&r["events_x"]), floats(&r["events_y"]));
     let (px, py) = (floats(&r["population_x"]), floats(&r["population_y"]));
     let target = r["target_k"].as_u64().unwrap() as usize;
@@ -469,7 +472,7 @@ fn brute_force(
 fn grid_table(counts: &[&[u64]]) -> cloister::privacy::aggregate::Aggregation {
     let rows = counts.len();
     let cols = counts[0].len();
-    let area = PolygonArea::rectangle(0.0, 0.0, cols as f64 * 1000.0, rows as f64 * 1000.0);
+    let area = Window::rectangle(0.0, 0.0, cols as f64 * 1000.0, rows as f64 * 1000.0).unwrap();
     let (mut x, mut y) = (vec![], vec![]);
     for (r, row) in counts.iter().enumerate() {
         for (c, &n) in row.iter().enumerate() {
@@ -479,7 +482,7 @@ fn grid_table(counts: &[&[u64]]) -> cloister::privacy::aggregate::Aggregation {
             }
         }
     }
-    let verts = area.polygons[0][0].clone();
+    let verts = area.polygons()[0][0].clone();
     let a = aggregate_grid(&x, &y, &area, &verts, None, &AggregateParams::default()).unwrap();
     assert_eq!(a.cells.len(), rows * cols);
     a
@@ -614,7 +617,7 @@ fn exports_contain_no_original_coordinate() {
     let y: Vec<f64> = (0..n)
         .map(|_| ((4_000_000.0 + rng.random::<f64>() * 9000.0) * 100.0).round() / 100.0)
         .collect();
-    let area = PolygonArea::rectangle(499_000.0, 3_999_000.0, 510_000.0, 4_010_000.0);
+    let area = Window::rectangle(499_000.0, 3_999_000.0, 510_000.0, 4_010_000.0).unwrap();
     let m = donut_mask(&x, &y, &area, &DonutParams::default()).unwrap();
     let to_ll = |a: f64, b: f64| {
         (
@@ -639,7 +642,7 @@ fn exports_contain_no_original_coordinate() {
         &x,
         &y,
         &area,
-        &area.polygons[0][0],
+        &area.polygons()[0][0],
         None,
         &AggregateParams::default(),
     )
@@ -790,7 +793,7 @@ fn masking_weakens_tight_clusters() {
     // Clark–Evans ratio (Clark & Evans 1954) moves up towards 1 and the mean
     // NN distance grows; the centre moves by far less than r_max.
     let mut rng = rng_from_seed(9);
-    let area = PolygonArea::rectangle(0.0, 0.0, 20_000.0, 20_000.0);
+    let area = Window::rectangle(0.0, 0.0, 20_000.0, 20_000.0).unwrap();
     let (mut x, mut y) = (vec![], vec![]);
     for _ in 0..20 {
         let (cx, cy) = (
@@ -834,7 +837,10 @@ fn zones_rates_and_group_totals() {
         let x0 = i as f64 * 100.0;
         zones.push(Zone {
             name: format!("zone {}", i + 1),
-            polygons: PolygonArea::rectangle(x0, 0.0, x0 + 100.0, 100.0).polygons,
+            polygons: Window::rectangle(x0, 0.0, x0 + 100.0, 100.0)
+                .unwrap()
+                .polygons()
+                .to_vec(),
             population: Some(*pop),
             group: g.map(str::to_string),
         });
@@ -886,7 +892,7 @@ fn hexagon_counts_suppressed_safely() {
             orientation,
             origin: None,
         };
-        let agg = aggregate_grid(&x, &y, &area, &area.polygons[0][0], None, &p).unwrap();
+        let agg = aggregate_grid(&x, &y, &area, &area.polygons()[0][0], None, &p).unwrap();
         assert_eq!(agg.cells.iter().map(|c| c.count).sum::<u64>(), 400);
         assert_eq!(agg.outside, 0);
         let t = suppress(&agg, &SuppressionParams::default());

@@ -21,6 +21,7 @@ fn nums(v: &Value) -> Vec<f64> {
 mod kde {
     use super::nums;
     use cloister::intensity::*;
+    use cloister::window::Window;
     use serde_json::Value;
 
     fn reference() -> Value {
@@ -29,7 +30,7 @@ mod kde {
 
     fn surface(r: &Value, edge: EdgeCorrection, evaluation: Evaluation) -> IntensitySurface {
         let w = nums(&r["window"]);
-        let region = Region::rectangle(w[0], w[1], w[2], w[3]).unwrap();
+        let region = Window::rectangle(w[0], w[1], w[2], w[3]).unwrap();
         let o = SurfaceOptions {
             bandwidth: BandwidthOptions {
                 method: BandwidthMethod::Fixed,

@@ -27,10 +27,10 @@
 //! during growth, so memory stays O(n) however dense the data. Worst case
 //! (everything within eps) O(n²) time.
 
-use super::hull::{convex_hull, ring_area};
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
 use crate::study::Pattern;
+use crate::window::{convex_hull, ring_area};
 use serde::{Deserialize, Serialize};
 
 /// Options for [`dbscan`].

@@ -159,12 +159,12 @@ pub fn clark_evans(
     let nn = nn_distances(x, y);
     let mean = nn.iter().sum::<f64>() / n as f64;
     let coincident = nn.iter().filter(|d| **d == 0.0).count();
-    let (naive, donnelly) = clark_evans_from_mean(mean, n, region.area, region.perimeter);
+    let (naive, donnelly) = clark_evans_from_mean(mean, n, region.area(), region.perimeter());
     let mut warnings = Vec::new();
     if coincident > 0 {
         warnings.push(format!("{coincident} events share their location with another event (distance 0), which pulls R down"));
     }
-    if region.rectangle.is_none() {
+    if region.axis_rectangle().is_none() {
         warnings.push("Donnelly's correction was derived for rectangles; for this study area it is an approximation".into());
     }
     let (mut pc, mut pr, mut p2) = (None, None, None);
@@ -172,7 +172,7 @@ pub fn clark_evans(
         let (mut le, mut ge) = (0usize, 0usize);
         for j in 0..params.n_sim {
             let mut rng = stream_rng(params.seed, j as u64);
-            let (sx, sy) = region.sample(n, &mut rng);
+            let (sx, sy) = region.sample_uniform(n, &mut rng);
             let t = nn_distances(&sx, &sy).iter().sum::<f64>() / n as f64;
             if t <= mean {
                 le += 1;
@@ -190,8 +190,8 @@ pub fn clark_evans(
     }
     Ok(ClarkEvansResult {
         n,
-        area_m2: region.area,
-        perimeter_m: region.perimeter,
+        area_m2: region.area(),
+        perimeter_m: region.perimeter(),
         mean_nn_m: mean,
         naive,
         donnelly,

@@ -12,7 +12,6 @@
 //! seed and `j` by [`stream_seed`], so results do not depend on how the work
 //! is split into batches.
 
-use super::region::Region;
 use crate::error::AnalysisError;
 use crate::rng::{rng_from_seed, Rng};
 use crate::study::Pattern;
@@ -38,11 +37,10 @@ pub fn stream_rng(seed: u64, index: u64) -> Rng {
     rng_from_seed(stream_seed(seed, index))
 }
 
-pub(crate) fn prepare(window: &Window) -> Result<Region, AnalysisError> {
-    Region::from_window(window).ok_or_else(|| AnalysisError::BadParameter {
-        name: "study area".into(),
-        detail: "the study area has no usable polygon with positive area".into(),
-    })
+/// The study area an analysis owns (a copy of the loaded window; every
+/// [`Window`] is valid by construction).
+pub(crate) fn prepare(window: &Window) -> Result<Window, AnalysisError> {
+    Ok(window.clone())
 }
 
 /// `n` independent uniform points in the window (binomial CSR), seeded.
@@ -59,7 +57,7 @@ pub(crate) fn prepare(window: &Window) -> Result<Region, AnalysisError> {
 pub fn simulate_csr(window: &Window, n: usize, seed: u64) -> Result<Pattern, AnalysisError> {
     let region = prepare(window)?;
     let mut rng = rng_from_seed(seed);
-    let (x, y) = region.sample(n, &mut rng);
+    let (x, y) = region.sample_uniform(n, &mut rng);
     Ok(Pattern::from_xy(x, y).unwrap_or_default())
 }
 
@@ -101,9 +99,9 @@ pub struct ThomasParams {
 /// the bounding box enlarged by 4σ on every side, so clusters centred just
 /// outside still send offspring in (the missed fraction is below 1e-4);
 /// offspring outside the region are dropped.
-pub(crate) fn thomas_in(region: &Region, p: ThomasParams, rng: &mut Rng) -> (Vec<f64>, Vec<f64>) {
+pub(crate) fn thomas_in(region: &Window, p: ThomasParams, rng: &mut Rng) -> (Vec<f64>, Vec<f64>) {
     let pad = 4.0 * p.sigma;
-    let [x0, y0, x1, y1] = region.bbox;
+    let [x0, y0, x1, y1] = region.bbox();
     let (ex0, ey0, ex1, ey1) = (x0 - pad, y0 - pad, x1 + pad, y1 + pad);
     let parents = poisson(rng, p.kappa * (ex1 - ex0) * (ey1 - ey0));
     let (mut xs, mut ys) = (Vec::new(), Vec::new());
@@ -141,12 +139,12 @@ pub fn simulate_thomas(
 /// `hard_core` has a smaller mark. Retained points outside the region are
 /// dropped. Intensity: (1 − exp(−λ_p π δ²))/(π δ²).
 pub(crate) fn matern2_in(
-    region: &Region,
+    region: &Window,
     lambda_parent: f64,
     hard_core: f64,
     rng: &mut Rng,
 ) -> (Vec<f64>, Vec<f64>) {
-    let [x0, y0, x1, y1] = region.bbox;
+    let [x0, y0, x1, y1] = region.bbox();
     let (ex0, ey0, ex1, ey1) = (
         x0 - hard_core,
         y0 - hard_core,
@@ -197,7 +195,7 @@ pub fn simulate_matern2(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::distance::region::tests::wh;
+    use crate::window::tests::wh;
 
     /// METHODS §1 check values for WH: mean (5, 5), nothing in the hole,
     /// P(x < 2) = 20/96; tolerance 4 standard errors (2×10⁵ draws).
@@ -205,7 +203,7 @@ mod tests {
     fn test_csr_in_window_with_hole() {
         let w = wh();
         let mut rng = rng_from_seed(2024);
-        let (x, y) = w.sample(200_000, &mut rng);
+        let (x, y) = w.sample_uniform(200_000, &mut rng);
         let n = x.len() as f64;
         let mx = x.iter().sum::<f64>() / n;
         let my = y.iter().sum::<f64>() / n;

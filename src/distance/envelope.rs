@@ -139,11 +139,13 @@ pub struct EnvelopeSimulator {
 impl EnvelopeSimulator {
     /// Prepares the window and distance grid of a shared run.
     pub fn new(share: &SimulationShare) -> Result<EnvelopeSimulator, AnalysisError> {
-        let region = super::region::Region::from_polygons(&share.polygons).ok_or_else(|| {
-            AnalysisError::BadParameter {
-                name: "study area".into(),
-                detail: "the study area has no usable polygon with positive area".into(),
-            }
+        let region = crate::window::Window::from_polygons(
+            share.polygons.clone(),
+            crate::window::WindowOrigin::File,
+        )
+        .map_err(|e| AnalysisError::BadParameter {
+            name: "study area".into(),
+            detail: e.to_string(),
         })?;
         check_params(&share.params)?;
         let needs = share.params.function.needs();
@@ -172,7 +174,7 @@ fn simulate_curves(
     let mut out = Vec::with_capacity(to.saturating_sub(from) * ctx.r.len());
     for j in from..to {
         let mut rng = stream_rng(params.seed, j as u64);
-        let (x, y) = ctx.region.sample(ctx.n, &mut rng);
+        let (x, y) = ctx.region.sample_uniform(ctx.n, &mut rng);
         out.extend(select(params.function, ctx.compute(&x, &y, needs)));
     }
     out
@@ -311,7 +313,7 @@ impl EnvelopeJob {
     }
 
     pub(crate) fn new_in(
-        region: super::region::Region,
+        region: crate::window::Window,
         x: &[f64],
         y: &[f64],
         params: &EnvelopeParams,
@@ -396,7 +398,7 @@ impl EnvelopeJob {
     /// [`EnvelopeSimulator`]): the study area, n and the parameters.
     pub fn share(&self) -> SimulationShare {
         SimulationShare {
-            polygons: self.ctx.region.polygons.clone(),
+            polygons: self.ctx.region.polygons().to_vec(),
             n: self.ctx.n,
             params: self.params.clone(),
         }
@@ -447,7 +449,7 @@ impl EnvelopeJob {
         let nr = r.len();
         let m = self.params.n_sim;
         let n = self.ctx.n;
-        let lambda = n as f64 / self.ctx.region.area;
+        let lambda = n as f64 / self.ctx.region.area();
         let theoretical: Vec<f64> = match f {
             SummaryFunction::K => r.iter().map(|r| PI * r * r).collect(),
             SummaryFunction::L => r.clone(),
@@ -653,7 +655,7 @@ fn global_test(obs: f64, sims: &[f64], k: usize, alpha: f64) -> GlobalTest {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::distance::region::tests::unit_square;
+    use crate::window::tests::unit_square;
 
     /// METHODS §5 check values: simulated 1..99, T_obs = 100 → 0.01,
     /// 95 (a tie) → 0.06, 0.5 → 1.0.
@@ -680,7 +682,7 @@ mod tests {
     #[test]
     fn test_batches_do_not_change_results() {
         let mut rng = crate::rng::rng_from_seed(4);
-        let (x, y) = unit_square().sample(40, &mut rng);
+        let (x, y) = unit_square().sample_uniform(40, &mut rng);
         let p = EnvelopeParams {
             n_sim: 19,
             seed: 77,
@@ -752,7 +754,7 @@ mod tests {
         for seed in 0..6 {
             let mut rng = crate::rng::rng_from_seed(100 + seed);
             // Half the points squeezed into a corner: sometimes rejected.
-            let (mut x, mut y) = unit_square().sample(30, &mut rng);
+            let (mut x, mut y) = unit_square().sample_uniform(30, &mut rng);
             for i in 0..(seed as usize * 3) {
                 x[i] *= 0.2;
                 y[i] *= 0.2;

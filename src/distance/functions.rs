@@ -47,7 +47,6 @@
 //! whose circle reaches the boundary.
 
 use super::edge::{Correction, IsoCache, NnCorrection, Translation};
-use super::region::Region;
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
 use crate::study::Pattern;
@@ -147,7 +146,7 @@ pub(crate) struct Curves {
 
 /// Everything that depends on the window and parameters, not the points.
 pub(crate) struct Context {
-    pub region: Region,
+    pub region: Window,
     pub r: Vec<f64>,
     pub step: f64,
     pub r_max: f64,
@@ -173,16 +172,16 @@ fn bad(name: &str, detail: impl Into<String>) -> AnalysisError {
 }
 
 /// Default r_max for a region, with the rule in words.
-pub(crate) fn default_r_max(region: &Region) -> (f64, String) {
-    let [x0, y0, x1, y1] = region.bbox;
+pub(crate) fn default_r_max(region: &Window) -> (f64, String) {
+    let [x0, y0, x1, y1] = region.bbox();
     let short = (x1 - x0).min(y1 - y0);
-    if region.rectangle.is_some() {
+    if region.axis_rectangle().is_some() {
         (
             0.25 * short,
             "a quarter of the shorter side of the rectangle (Ripley 1988)".into(),
         )
     } else {
-        let disc = 0.5 * (region.area / PI).sqrt();
+        let disc = 0.5 * (region.area() / PI).sqrt();
         if disc < 0.25 * short {
             (disc, "half the radius of a disc with the study area's area (our rule for irregular areas)".into())
         } else {
@@ -196,7 +195,7 @@ pub(crate) fn default_r_max(region: &Region) -> (f64, String) {
 
 impl Context {
     pub fn new(
-        region: Region,
+        region: Window,
         n: usize,
         p: &FunctionParams,
         needs: Needs,
@@ -219,13 +218,13 @@ impl Context {
             None => default_r_max(&region),
         };
         let mut warnings = Vec::new();
-        let [bx0, by0, bx1, by1] = region.bbox;
+        let [bx0, by0, bx1, by1] = region.bbox();
         if r_max > 0.5 * (bx1 - bx0).min(by1 - by0) {
             warnings.push(format!(
                 "the largest distance ({r_max:.4} m) exceeds half the study area's shorter side: edge-corrected estimates there rest on few points"
             ));
         }
-        let lambda = n as f64 / region.area;
+        let lambda = n as f64 / region.area();
         let bandwidth = match p.bandwidth {
             Some(h) if h.is_finite() && h > 0.0 => h,
             Some(_) => return Err(bad("bandwidth", "must be a positive number of metres")),
@@ -362,7 +361,7 @@ impl Context {
         let nr = self.r.len();
         let mut out = Curves::default();
         let nf = n as f64;
-        let area = self.region.area;
+        let area = self.region.area();
         if needs.k || needs.pcf {
             let h = self.bandwidth;
             let reach = if needs.pcf {
@@ -802,7 +801,7 @@ pub(crate) fn gf_theo(r: &[f64], lambda: f64) -> Vec<f64> {
         .collect()
 }
 
-pub(crate) fn checked_region(pattern: &Pattern, window: &Window) -> Result<Region, AnalysisError> {
+pub(crate) fn checked_region(pattern: &Pattern, window: &Window) -> Result<Window, AnalysisError> {
     let region = super::csr::prepare(window)?;
     if pattern.len() < 2 {
         return Err(AnalysisError::TooFewPoints {
@@ -837,7 +836,7 @@ pub fn distance_functions(
 }
 
 pub(crate) fn distance_functions_in(
-    region: Region,
+    region: Window,
     x: &[f64],
     y: &[f64],
     params: &FunctionParams,
@@ -851,7 +850,7 @@ pub(crate) fn distance_functions_in(
     let ctx = Context::new(region, x.len(), params, needs)?;
     let c = ctx.compute(x, y, needs);
     let n = x.len();
-    let area = ctx.region.area;
+    let area = ctx.region.area();
     let lambda = n as f64 / area;
     let r = ctx.r.clone();
     let mut warnings = ctx.warnings.clone();
@@ -1146,12 +1145,12 @@ fn distance_bins(
 #[cfg(test)]
 pub(crate) mod tests {
     use super::*;
-    use crate::distance::region::tests::unit_square;
+    use crate::window::tests::unit_square;
 
     /// The curves from a fast path (`fast` asks for K alone or g alone)
     /// and from the general pass (taken when K and g are both asked for).
     fn fast_and_general(
-        region: &Region,
+        region: &Window,
         x: &[f64],
         y: &[f64],
         p: &FunctionParams,
@@ -1349,10 +1348,10 @@ pub(crate) mod tests {
     /// on a window with a hole; the F12 table above checks the general pass.
     #[test]
     fn test_k_kernel_matches_general_pass() {
-        use crate::distance::region::tests::wh;
+        use crate::window::tests::wh;
         for (region, scale) in [(unit_square(), 1.0), (wh(), 10.0)] {
             let mut rng = crate::rng::rng_from_seed(31);
-            let (x, y) = region.sample(400, &mut rng);
+            let (x, y) = region.sample_uniform(400, &mut rng);
             for c in ALL_CORRECTIONS {
                 let p = FunctionParams {
                     r_max: Some(0.2 * scale),
@@ -1371,13 +1370,13 @@ pub(crate) mod tests {
     /// for), on a rectangle and on a window with a hole.
     #[test]
     fn test_pcf_fast_path_matches_general_pass() {
-        use crate::distance::region::tests::wh;
+        use crate::window::tests::wh;
         // Bandwidths below half a step (one node per pair at most), at a
         // ratio that is no simple fraction of it, and of two steps (up to
         // five nodes per pair).
         for (region, scale) in [(unit_square(), 1.0), (wh(), 10.0)] {
             let mut rng = crate::rng::rng_from_seed(37);
-            let (x, y) = region.sample(400, &mut rng);
+            let (x, y) = region.sample_uniform(400, &mut rng);
             for h in [0.003, 0.0137, 0.02] {
                 let p = FunctionParams {
                     r_max: Some(0.2 * scale),

@@ -28,7 +28,6 @@ pub mod edge;
 pub mod envelope;
 pub mod functions;
 pub mod quadrat;
-pub(crate) mod region;
 pub mod verdict;
 
 pub use clark_evans::{

@@ -32,7 +32,6 @@
 
 use super::csr::stream_rng;
 use super::functions::checked_region;
-use super::region::Region;
 use crate::error::AnalysisError;
 use crate::study::Pattern;
 use crate::window::Window;
@@ -175,9 +174,9 @@ pub fn quadrat_from_counts(counts: &[u64], areas: &[f64]) -> Result<QuadratStats
 }
 
 /// Automatic grid: cells of side √(10·|W|/n), 1 to 20 a side.
-fn auto_grid(region: &Region, n: usize) -> (usize, usize) {
-    let [x0, y0, x1, y1] = region.bbox;
-    let side = (10.0 * region.area / n.max(1) as f64).sqrt();
+fn auto_grid(region: &Window, n: usize) -> (usize, usize) {
+    let [x0, y0, x1, y1] = region.bbox();
+    let side = (10.0 * region.area() / n.max(1) as f64).sqrt();
     let nx = ((x1 - x0) / side).round().clamp(1.0, 20.0) as usize;
     let ny = ((y1 - y0) / side).round().clamp(1.0, 20.0) as usize;
     if nx * ny < 2 {
@@ -209,7 +208,7 @@ pub fn quadrat_test(
 }
 
 pub(crate) fn quadrat_in(
-    region: &Region,
+    region: &Window,
     x: &[f64],
     y: &[f64],
     params: &QuadratParams,
@@ -227,7 +226,7 @@ pub(crate) fn quadrat_in(
             "columns and rows must be at least 1, with at most 10000 cells",
         ));
     }
-    let [bx0, by0, bx1, by1] = region.bbox;
+    let [bx0, by0, bx1, by1] = region.bbox();
     let cw = (bx1 - bx0) / nx as f64;
     let ch = (by1 - by0) / ny as f64;
     let mut counts = vec![0u64; nx * ny];
@@ -247,7 +246,7 @@ pub(crate) fn quadrat_in(
             ];
             let a = region.rect_intersection_area(b);
             // Drop slivers below 1e-12 of the area (rounding noise).
-            if a > 1e-12 * region.area {
+            if a > 1e-12 * region.area() {
                 cells.push(QuadratCell {
                     ix,
                     iy,
@@ -340,7 +339,7 @@ pub(crate) fn quadrat_in(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::distance::region::tests::wh;
+    use crate::window::tests::wh;
 
     /// Q9 (METHODS §2 / Appendix A; scipy.stats.chisquare): X² = 13.6,
     /// df = 8, upper 0.09281, lower 0.90719, two-sided 0.18561, VMR 1.7.
@@ -373,7 +372,7 @@ mod tests {
     fn test_cells_clipped_to_window_with_hole() {
         let w = wh();
         let mut rng = crate::rng::rng_from_seed(8);
-        let (x, y) = w.sample(300, &mut rng);
+        let (x, y) = w.sample_uniform(300, &mut rng);
         let r = quadrat_in(
             &w,
             &x,
@@ -398,12 +397,12 @@ mod tests {
     /// must reproduce it. Mean over 4000 draws within 4 SE (Var X² ≈ 2(k−1)).
     #[test]
     fn test_mc_mean_chi_square() {
-        let w = crate::distance::region::tests::unit_square();
+        let w = crate::window::tests::unit_square();
         let mut total = 0.0;
         let m = 4000;
         for j in 0..m {
             let mut rng = stream_rng(99, j);
-            let (x, y) = w.sample(45, &mut rng);
+            let (x, y) = w.sample_uniform(45, &mut rng);
             let r = quadrat_in(
                 &w,
                 &x,

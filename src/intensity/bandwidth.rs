@@ -43,10 +43,10 @@ use super::edge::EdgeCorrection;
 use super::fft::autocorrelation;
 use super::grid::GridOptions;
 use super::kernel::{Kernel, QUARTIC_PER_GAUSS_SD};
-use super::region::Region;
 use super::{surface_on_canvas, Canvas, Evaluation};
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
+use crate::window::Window;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
@@ -161,7 +161,7 @@ pub fn ladder(lo: f64, hi: f64, k: usize) -> Vec<f64> {
 pub fn choose(
     x: &[f64],
     y: &[f64],
-    region: &Region,
+    region: &Window,
     kernel: Kernel,
     edge: EdgeCorrection,
     o: &BandwidthOptions,
@@ -214,7 +214,7 @@ pub fn choose(
 pub fn likelihood_cv(
     x: &[f64],
     y: &[f64],
-    region: &Region,
+    region: &Window,
     kernel: Kernel,
     edge: EdgeCorrection,
     hs: &[f64],
@@ -434,7 +434,7 @@ pub fn likelihood_cv(
 pub fn diggle_mse(
     x: &[f64],
     y: &[f64],
-    region: &Region,
+    region: &Window,
     sds: &[f64],
     grid: &GridOptions,
 ) -> Result<BandwidthChoice, AnalysisError> {

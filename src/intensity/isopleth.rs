@@ -97,26 +97,19 @@ pub fn contours(grid: &Grid, levels: &[f64]) -> ContourSet {
     }
 }
 
+/// Signed area of a closed ring (positive counter-clockwise).
 fn ring_area(r: &[[f64; 2]]) -> f64 {
-    let mut s = 0.0;
-    for w in r.windows(2) {
-        s += w[0][0] * w[1][1] - w[1][0] * w[0][1];
-    }
-    0.5 * s
+    0.5 * crate::window::signed_area2(r)
 }
 
+/// Strictly inside a closed ring (`geo`'s exact point-in-polygon test).
 fn ring_contains(r: &[[f64; 2]], p: [f64; 2]) -> bool {
-    let mut inside = false;
-    for w in r.windows(2) {
-        let (a, b) = (w[0], w[1]);
-        if (a[1] > p[1]) != (b[1] > p[1]) {
-            let xc = a[0] + (p[1] - a[1]) * (b[0] - a[0]) / (b[1] - a[1]);
-            if xc > p[0] {
-                inside = !inside;
-            }
-        }
-    }
-    inside
+    use geo::Contains;
+    let poly = geo::Polygon::new(
+        r.iter().map(|q| geo::Coord { x: q[0], y: q[1] }).collect(),
+        vec![],
+    );
+    poly.contains(&geo::Coord { x: p[0], y: p[1] })
 }
 
 /// Key of a crossing: (vertical edge?, i, j) of the edge's lower/left corner.

@@ -39,14 +39,12 @@ pub(crate) mod fft;
 pub mod grid;
 pub mod isopleth;
 pub mod kernel;
-pub mod region;
 
 pub use bandwidth::{BandwidthChoice, BandwidthMethod, BandwidthOptions};
 pub use edge::EdgeCorrection;
 pub use grid::{Grid, GridOptions};
 pub use isopleth::{Contour, ContourSet};
 pub use kernel::Kernel;
-pub use region::Region;
 
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
@@ -124,13 +122,12 @@ pub fn kernel_surface(
     window: &Window,
     o: &SurfaceOptions,
 ) -> Result<IntensitySurface, AnalysisError> {
-    let region = Region::from_window(window)?;
     let w = if o.use_weights {
         pattern.weight()
     } else {
         None
     };
-    kernel_surface_in(pattern.x(), pattern.y(), w, &region, o)
+    kernel_surface_in(pattern.x(), pattern.y(), w, window, o)
 }
 
 /// The bandwidth alone, chosen as [`kernel_surface`] would choose it (for
@@ -140,11 +137,10 @@ pub fn select_bandwidth(
     window: &Window,
     o: &SurfaceOptions,
 ) -> Result<BandwidthChoice, AnalysisError> {
-    let region = Region::from_window(window)?;
     bandwidth::choose(
         pattern.x(),
         pattern.y(),
-        &region,
+        window,
         o.kernel,
         o.edge,
         &o.bandwidth,
@@ -177,7 +173,7 @@ pub(crate) struct Canvas {
 }
 
 impl Canvas {
-    pub(crate) fn new(region: &Region, g: &GridOptions) -> Result<Canvas, AnalysisError> {
+    pub(crate) fn new(region: &Window, g: &GridOptions) -> Result<Canvas, AnalysisError> {
         let (x0, y0, cell, nx, ny) = g.layout(region.bbox()).map_err(|d| bad("grid", d))?;
         let (px, py) = (nx + 2, ny + 2);
         let (cx0, cy0) = (x0 - cell, y0 - cell);
@@ -359,12 +355,12 @@ fn exact_sum(cv: &Canvas, x: &[f64], y: &[f64], w: &[f64], kernel: Kernel, h: f6
     v
 }
 
-/// [`kernel_surface`] on bare coordinates and a prepared [`Region`].
+/// [`kernel_surface`] on bare coordinates and a [`Window`].
 pub fn kernel_surface_in(
     x: &[f64],
     y: &[f64],
     weights: Option<&[f64]>,
-    region: &Region,
+    region: &Window,
     o: &SurfaceOptions,
 ) -> Result<IntensitySurface, AnalysisError> {
     if x.len() != y.len() || weights.is_some_and(|w| w.len() != x.len()) {

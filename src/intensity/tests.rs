@@ -13,7 +13,7 @@ const F5: [(f64, f64); 5] = [
 fn f5_surface(edge: EdgeCorrection, evaluation: Evaluation) -> IntensitySurface {
     let x: Vec<f64> = F5.iter().map(|p| p.0).collect();
     let y: Vec<f64> = F5.iter().map(|p| p.1).collect();
-    let region = Region::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
     // 110 cells: centres at (i + ½)/110, so cell 5 is centred on 0.05.
     let o = SurfaceOptions {
         bandwidth: BandwidthOptions {
@@ -68,22 +68,25 @@ fn f5_fixture_integrals_and_values() {
     }
 }
 
-fn window_with_hole() -> Region {
+fn window_with_hole() -> Window {
     // Appendix A fixture WH scaled to metres: [0, 10 km]² minus [4, 6 km]².
-    Region::from_polygons(&[vec![
-        vec![
-            [0.0, 0.0],
-            [10_000.0, 0.0],
-            [10_000.0, 10_000.0],
-            [0.0, 10_000.0],
-        ],
-        vec![
-            [4000.0, 4000.0],
-            [6000.0, 4000.0],
-            [6000.0, 6000.0],
-            [4000.0, 6000.0],
-        ],
-    ]])
+    Window::from_polygons(
+        vec![vec![
+            vec![
+                [0.0, 0.0],
+                [10_000.0, 0.0],
+                [10_000.0, 10_000.0],
+                [0.0, 10_000.0],
+            ],
+            vec![
+                [4000.0, 4000.0],
+                [6000.0, 4000.0],
+                [6000.0, 6000.0],
+                [4000.0, 6000.0],
+            ],
+        ]],
+        crate::window::WindowOrigin::File,
+    )
     .unwrap()
 }
 
@@ -140,7 +143,7 @@ fn jones_diggle_integrates_to_n_in_a_window_with_a_hole() {
 fn binned_matches_exact() {
     // The fast path against the defining sum; this is the figure quoted in
     // the module docs (max error below 1 % of the peak).
-    let region = Region::rectangle(0.0, 0.0, 5000.0, 3000.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 5000.0, 3000.0).unwrap();
     let mut rng = crate::rng::rng_from_seed(8);
     let (x, y) = region.sample_uniform(2000, &mut rng);
     for kernel in [Kernel::Gaussian, Kernel::Quartic] {
@@ -187,7 +190,7 @@ fn binned_matches_exact() {
 fn one_point_peak_and_mass() {
     // STYLE §3.8 / METHODS §7: one point peaks at 1/(2πh²) and the surface
     // sums (× cell area) to 1 when the window is large.
-    let region = Region::rectangle(-5000.0, -5000.0, 5000.0, 5000.0).unwrap();
+    let region = Window::rectangle(-5000.0, -5000.0, 5000.0, 5000.0).unwrap();
     let h = 250.0;
     let o = SurfaceOptions {
         bandwidth: BandwidthOptions {
@@ -215,7 +218,7 @@ fn isopleths_of_a_bivariate_normal() {
     // σ√(−2 ln(1−p)): 50 % → 1.177410σ (area 4.35517σ²), 75 % → 1.665109σ,
     // 95 % → 2.447747σ (area 18.82274σ²); the level is (1−p)·peak.
     let sigma = 100.0;
-    let region = Region::rectangle(-1000.0, -1000.0, 1000.0, 1000.0).unwrap();
+    let region = Window::rectangle(-1000.0, -1000.0, 1000.0, 1000.0).unwrap();
     let o = SurfaceOptions {
         bandwidth: BandwidthOptions {
             method: BandwidthMethod::Fixed,
@@ -256,7 +259,7 @@ fn isopleths_of_a_bivariate_normal() {
 #[test]
 fn contours_have_holes_and_export_as_geojson() {
     // A ring of events around an empty middle: the low contour is an annulus.
-    let region = Region::rectangle(-2000.0, -2000.0, 2000.0, 2000.0).unwrap();
+    let region = Window::rectangle(-2000.0, -2000.0, 2000.0, 2000.0).unwrap();
     let mut x = Vec::new();
     let mut y = Vec::new();
     for k in 0..200 {
@@ -376,7 +379,7 @@ fn diggle_criterion_on_csr_and_thomas() {
     // in the criterion curves). We require at least 13 of 20, which a
     // criterion with a spurious interior minimum (e.g. a wrong sign or edge
     // weight) fails.
-    let region = Region::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
     let grid = GridOptions {
         cells_long_side: 128,
         cell_m: None,
@@ -417,7 +420,7 @@ fn diggle_criterion_on_csr_and_thomas() {
 fn likelihood_cv_prefers_small_bandwidth_for_tight_clusters() {
     // Tight Thomas clusters (σ = 0.01) against CSR: the LCV optimum is
     // smaller for the clustered pattern, and it is interior for clusters.
-    let region = Region::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
     let grid = GridOptions {
         cells_long_side: 100,
         cell_m: None,
@@ -445,7 +448,7 @@ fn likelihood_cv_prefers_small_bandwidth_for_tight_clusters() {
 
 #[test]
 fn weights_scale_the_surface() {
-    let region = Region::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
     let x = [200.0, 500.0, 800.0];
     let y = [300.0, 500.0, 700.0];
     let o = SurfaceOptions {
@@ -464,7 +467,7 @@ fn weights_scale_the_surface() {
 
 #[test]
 fn edge_cases_give_values_or_errors() {
-    let region = Region::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
     // No events with a fixed bandwidth: an all-zero surface.
     let fixed = SurfaceOptions {
         bandwidth: BandwidthOptions {
@@ -516,7 +519,7 @@ fn edge_cases_give_values_or_errors() {
 #[test]
 #[ignore = "diagnostic printout"]
 fn print_diggle_curves() {
-    let region = Region::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
     let grid = GridOptions {
         cells_long_side: 128,
         cell_m: None,
@@ -539,7 +542,7 @@ fn print_diggle_curves() {
 #[test]
 #[ignore = "diagnostic printout"]
 fn print_lcv_curves() {
-    let region = Region::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
     let hs = bandwidth::ladder(0.003, 0.3, 20);
     let mut rng = crate::rng::rng_from_seed(17);
     let (cx, cy) = thomas(20.0, 10.0, 0.01, 1.0, &mut rng);
@@ -573,7 +576,7 @@ fn diggle_binned_lags_agree_with_exact_pairs() {
     // once on a coarse grid (most candidates binned) and once on a grid so
     // fine that every candidate is summed exactly; criteria within 2 % of the
     // curve's range.
-    let region = Region::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
     let mut rng = crate::rng::rng_from_seed(4);
     let (x, y) = thomas(25.0, 8.0, 0.02, 1.0, &mut rng);
     let sds = bandwidth::ladder(0.02, 0.1, 8);

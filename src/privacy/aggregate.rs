@@ -32,8 +32,9 @@
 //! Per cell: the population layer's points counted like the events. Per zone:
 //! the zone's `population` when every zone has one, else layer points counted.
 
-use super::{bad, polygon_contains, Region};
+use super::bad;
 use crate::error::AnalysisError;
+use crate::window::{Window, WindowOrigin};
 use serde::{Deserialize, Serialize};
 
 /// Most cells a grid may have.
@@ -209,7 +210,7 @@ pub fn hex_ring(c: [f64; 2], r: f64, o: HexOrientation) -> Vec<[f64; 2]> {
     ring
 }
 
-fn cell_in_area(ring: &[[f64; 2]], region: &dyn Region, region_vertices: &[[f64; 2]]) -> bool {
+fn cell_in_area(ring: &[[f64; 2]], region: &Window, region_vertices: &[[f64; 2]]) -> bool {
     let n = ring.len() - 1;
     let mut cx = 0.0;
     let mut cy = 0.0;
@@ -227,9 +228,18 @@ fn cell_in_area(ring: &[[f64; 2]], region: &dyn Region, region_vertices: &[[f64;
             return true;
         }
     }
+    // A study area smaller than a cell: one of its corners lies in the cell
+    // (boundary included; `geo`'s exact orientation test).
+    use geo::Intersects;
+    let cell = geo::Polygon::new(
+        ring.iter()
+            .map(|p| geo::Coord { x: p[0], y: p[1] })
+            .collect(),
+        vec![],
+    );
     region_vertices
         .iter()
-        .any(|v| super::ring_contains(ring, v[0], v[1]))
+        .any(|v| cell.intersects(&geo::Coord { x: v[0], y: v[1] }))
 }
 
 fn check_xy(x: &[f64], y: &[f64], what: &str) -> Result<(), AnalysisError> {
@@ -247,7 +257,7 @@ fn check_xy(x: &[f64], y: &[f64], what: &str) -> Result<(), AnalysisError> {
 pub fn aggregate_grid(
     x: &[f64],
     y: &[f64],
-    region: &dyn Region,
+    region: &Window,
     region_vertices: &[[f64; 2]],
     population: Option<(&[f64], &[f64])>,
     p: &AggregateParams,
@@ -424,9 +434,12 @@ pub fn aggregate_zones(
     if zones.is_empty() {
         return Err(bad("zones", "no zone given"));
     }
+    let mut areas = Vec::with_capacity(zones.len());
     for (i, z) in zones.iter().enumerate() {
-        super::PolygonArea::new(z.polygons.clone())
-            .map_err(|e| bad("zones", &format!("zone {} (\"{}\"): {e}", i + 1, z.name)))?;
+        areas.push(
+            Window::from_polygons(z.polygons.clone(), WindowOrigin::File)
+                .map_err(|e| bad("zones", &format!("zone {} (\"{}\"): {e}", i + 1, z.name)))?,
+        );
         if let Some(p) = z.population {
             if !(p.is_finite() && p >= 0.0) {
                 return Err(bad(
@@ -439,11 +452,7 @@ pub fn aggregate_zones(
     if let Some((px, py)) = population {
         check_xy(px, py, "population")?;
     }
-    let which = |a: f64, c: f64| {
-        zones
-            .iter()
-            .position(|z| z.polygons.iter().any(|p| polygon_contains(p, a, c)))
-    };
+    let which = |a: f64, c: f64| areas.iter().position(|w| w.contains(a, c));
     let mut counts = vec![0u64; zones.len()];
     let mut outside = 0;
     for (&a, &c) in x.iter().zip(y) {
@@ -512,7 +521,7 @@ pub fn aggregate_zones(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::privacy::PolygonArea;
+    use crate::window::Window;
 
     #[test]
     fn hex_index_matches_nearest_centre() {
@@ -543,12 +552,12 @@ mod tests {
     #[test]
     fn hexagon_area_is_three_root3_over_two_r_squared() {
         let ring = hex_ring([0.0, 0.0], 2.0, HexOrientation::FlatTop);
-        assert!((super::super::ring_area(&ring) - 1.5 * SQRT3 * 4.0).abs() < 1e-9);
+        assert!((crate::window::ring_area(&ring) - 1.5 * SQRT3 * 4.0).abs() < 1e-9);
     }
 
     #[test]
     fn square_grid_counts_all_points() {
-        let area = PolygonArea::rectangle(0.0, 0.0, 3000.0, 2000.0);
+        let area = Window::rectangle(0.0, 0.0, 3000.0, 2000.0).unwrap();
         let x = [10.0, 1500.0, 1600.0, 2999.0, 3000.0];
         let y = [10.0, 500.0, 600.0, 1999.0, 2000.0];
         let verts = [[0.0, 0.0], [3000.0, 0.0], [3000.0, 2000.0], [0.0, 2000.0]];
@@ -568,7 +577,10 @@ mod tests {
 
     #[test]
     fn grid_edge_cases_are_errors_not_panics() {
-        let huge = PolygonArea::rectangle(-1e300, -1e300, 1e300, 1e300);
+        // A box whose area overflows is not a study area at all; one whose
+        // grid would need more cells than can be counted is an error here.
+        assert!(Window::rectangle(-1e300, -1e300, 1e300, 1e300).is_err());
+        let huge = Window::rectangle(-1e150, -1e150, 1e150, 1e150).unwrap();
         for shape in [CellShape::Square, CellShape::Hexagon] {
             let p = AggregateParams {
                 shape,
@@ -580,7 +592,7 @@ mod tests {
                 cell_size_m: 0.0,
                 ..p
             };
-            let small = PolygonArea::rectangle(0.0, 0.0, 10.0, 10.0);
+            let small = Window::rectangle(0.0, 0.0, 10.0, 10.0).unwrap();
             assert!(aggregate_grid(&[], &[], &small, &[], None, &zero).is_err());
             let a = aggregate_grid(&[], &[], &small, &[], None, &p).unwrap();
             assert_eq!(a.total, 0);
@@ -589,7 +601,7 @@ mod tests {
         assert!(aggregate_grid(
             &[f64::NAN],
             &[0.0],
-            &PolygonArea::rectangle(0.0, 0.0, 1.0, 1.0),
+            &Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap(),
             &[],
             None,
             &AggregateParams::default()
@@ -601,7 +613,10 @@ mod tests {
     fn zones_count_and_groups() {
         let z = |n: &str, x0: f64, g: &str| Zone {
             name: n.into(),
-            polygons: PolygonArea::rectangle(x0, 0.0, x0 + 10.0, 10.0).polygons,
+            polygons: Window::rectangle(x0, 0.0, x0 + 10.0, 10.0)
+                .unwrap()
+                .polygons()
+                .to_vec(),
             population: Some(100.0),
             group: Some(g.into()),
         };

@@ -24,9 +24,10 @@
 //! pair. (Masking by distances up to r_max attenuates clustering at scales up
 //! to about 2·r_max: METHODS §11.)
 
-use super::{bad, Region};
+use super::bad;
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
+use crate::window::Window;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
@@ -124,7 +125,7 @@ impl MaskingCost {
 }
 
 /// Summaries of one pattern in `region`.
-pub fn summarise(x: &[f64], y: &[f64], region: &dyn Region) -> PatternSummary {
+pub fn summarise(x: &[f64], y: &[f64], region: &Window) -> PatternSummary {
     let n = x.len();
     let centre = (n > 0).then(|| {
         [
@@ -167,7 +168,7 @@ pub fn compare(
     oy: &[f64],
     mx: &[f64],
     my: &[f64],
-    region: &dyn Region,
+    region: &Window,
     p: &CostParams,
 ) -> Result<MaskingCost, AnalysisError> {
     if ox.len() != oy.len() || mx.len() != my.len() {
@@ -235,7 +236,7 @@ fn surface_shift(
     oy: &[f64],
     mx: &[f64],
     my: &[f64],
-    region: &dyn Region,
+    region: &Window,
     h: f64,
     cells: usize,
 ) -> Option<SurfaceShift> {
@@ -284,7 +285,7 @@ fn surface_shift(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::privacy::PolygonArea;
+    use crate::window::Window;
 
     #[test]
     fn square_lattice_clark_evans_is_two() {
@@ -299,7 +300,7 @@ mod tests {
                 y.push((j as f64 + 0.5) * d);
             }
         }
-        let area = PolygonArea::rectangle(0.0, 0.0, k as f64 * d, k as f64 * d);
+        let area = Window::rectangle(0.0, 0.0, k as f64 * d, k as f64 * d).unwrap();
         let s = summarise(&x, &y, &area);
         assert!((s.mean_nn_m.unwrap() - d).abs() < 1e-9);
         assert!((s.clark_evans_r.unwrap() - 2.0).abs() < 1e-12);
@@ -308,7 +309,7 @@ mod tests {
 
     #[test]
     fn identical_patterns_cost_nothing_and_shift_is_seen() {
-        let area = PolygonArea::rectangle(0.0, 0.0, 1000.0, 1000.0);
+        let area = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
         let x = [100.0, 300.0, 500.0, 700.0];
         let y = [200.0, 400.0, 600.0, 800.0];
         let c = compare(&x, &y, &x, &y, &area, &CostParams::default()).unwrap();
@@ -331,7 +332,7 @@ mod tests {
 
     #[test]
     fn compare_edge_cases() {
-        let area = PolygonArea::rectangle(0.0, 0.0, 10.0, 10.0);
+        let area = Window::rectangle(0.0, 0.0, 10.0, 10.0).unwrap();
         let c = compare(&[], &[], &[], &[], &area, &CostParams::default()).unwrap();
         assert!(c.original.mean_nn_m.is_none() && c.surface.is_none());
         let c = compare(

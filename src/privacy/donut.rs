@@ -35,9 +35,10 @@
 //! so near edges the achieved distribution differs slightly from the design:
 //! the result reports the achieved distribution. O(n·tries·containment).
 
-use super::{bad, MaskMethod, MaskedPoints, Region, Spread, Unplaced, UnplacedReason};
+use super::{bad, MaskMethod, MaskedPoints, Spread, Unplaced, UnplacedReason};
 use crate::error::AnalysisError;
 use crate::rng::{rng_from_seed, Rng};
+use crate::window::Window;
 use rand::RngExt;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
@@ -159,8 +160,9 @@ pub fn design_median(law: DistanceLaw, a: f64, b: f64) -> f64 {
 /// Donut-masks points `(x[i], y[i])` inside `region`. See the module docs.
 ///
 /// ```
-/// use cloister::privacy::{donut_mask, DonutParams, PolygonArea};
-/// let area = PolygonArea::rectangle(0.0, 0.0, 10_000.0, 10_000.0);
+/// use cloister::privacy::{donut_mask, DonutParams};
+/// use cloister::window::Window;
+/// let area = Window::rectangle(0.0, 0.0, 10_000.0, 10_000.0).unwrap();
 /// let p = DonutParams { r_min_m: 100.0, r_max_m: 500.0, seed: 3, ..Default::default() };
 /// let m = donut_mask(&[5000.0, 6000.0], &[5000.0, 4000.0], &area, &p).unwrap();
 /// assert_eq!(m.x.len(), 2);
@@ -169,7 +171,7 @@ pub fn design_median(law: DistanceLaw, a: f64, b: f64) -> f64 {
 pub fn donut_mask(
     x: &[f64],
     y: &[f64],
-    region: &dyn Region,
+    region: &Window,
     p: &DonutParams,
 ) -> Result<MaskedPoints, AnalysisError> {
     check_radii(p.r_min_m, p.r_max_m, p.max_tries)?;
@@ -243,7 +245,7 @@ pub fn ks_statistic(sample: &[f64], cdf: impl Fn(f64) -> f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::privacy::PolygonArea;
+    use crate::window::Window;
 
     #[test]
     fn design_check_values_methods_s11() {
@@ -260,7 +262,7 @@ mod tests {
 
     #[test]
     fn donut_empty_input_and_bad_params() {
-        let area = PolygonArea::rectangle(0.0, 0.0, 1000.0, 1000.0);
+        let area = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
         let m = donut_mask(&[], &[], &area, &DonutParams::default()).unwrap();
         assert!(m.x.is_empty() && m.unplaced.is_empty() && m.displacement.is_none());
         for (a, b) in [(-1.0, 5.0), (10.0, 5.0), (0.0, 0.0), (f64::NAN, 5.0)] {
@@ -276,7 +278,7 @@ mod tests {
     #[test]
     fn donut_reports_points_with_no_room() {
         // A 10 m square with a 100–500 m donut: nothing can land inside.
-        let area = PolygonArea::rectangle(0.0, 0.0, 10.0, 10.0);
+        let area = Window::rectangle(0.0, 0.0, 10.0, 10.0).unwrap();
         let p = DonutParams {
             max_tries: 50,
             ..Default::default()
@@ -293,7 +295,7 @@ mod tests {
 
     #[test]
     fn donut_same_seed_same_result() {
-        let area = PolygonArea::rectangle(0.0, 0.0, 5000.0, 5000.0);
+        let area = Window::rectangle(0.0, 0.0, 5000.0, 5000.0).unwrap();
         let p = DonutParams::default();
         let a = donut_mask(&[2500.0], &[2500.0], &area, &p).unwrap();
         let b = donut_mask(&[2500.0], &[2500.0], &area, &p).unwrap();

@@ -67,10 +67,11 @@
 //! Grid-indexed counts: O(n·tries·m) with m layer points per disc.
 
 use super::donut::{check_radii, draw_distance, DistanceLaw};
-use super::{bad, MaskMethod, MaskedPoints, Region, Spread, Unplaced, UnplacedReason};
+use super::{bad, MaskMethod, MaskedPoints, Spread, Unplaced, UnplacedReason};
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
 use crate::rng::rng_from_seed;
+use crate::window::Window;
 use rand::RngExt;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
@@ -208,7 +209,7 @@ pub fn kanon_mask(
     x: &[f64],
     y: &[f64],
     population: Option<(&[f64], &[f64])>,
-    region: &dyn Region,
+    region: &Window,
     p: &KAnonParams,
 ) -> Result<KAnonReport, AnalysisError> {
     check_radii(p.r_min_m, p.r_max_m, p.max_tries)?;
@@ -237,7 +238,7 @@ fn population_mode(
     y: &[f64],
     px: &[f64],
     py: &[f64],
-    region: &dyn Region,
+    region: &Window,
     p: &KAnonParams,
 ) -> KAnonReport {
     let grid = GridIndex::new(px, py);
@@ -348,7 +349,7 @@ fn population_mode(
 fn density_mode(
     x: &[f64],
     y: &[f64],
-    region: &dyn Region,
+    region: &Window,
     p: &KAnonParams,
 ) -> Result<KAnonReport, AnalysisError> {
     let Some(dens) = p.density_per_km2 else {
@@ -452,7 +453,7 @@ fn summarise_k(ks: &[f64], target: usize) -> Option<KSummary> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::privacy::PolygonArea;
+    use crate::window::Window;
 
     #[test]
     fn r_min_check_values_methods_s11() {
@@ -464,7 +465,7 @@ mod tests {
 
     #[test]
     fn density_mode_uses_r_min_and_refuses_impossible() {
-        let area = PolygonArea::rectangle(0.0, 0.0, 10_000.0, 10_000.0);
+        let area = Window::rectangle(0.0, 0.0, 10_000.0, 10_000.0).unwrap();
         let p = KAnonParams {
             target_k: 50,
             density_per_km2: Some(1000.0),
@@ -504,7 +505,7 @@ mod tests {
 
     #[test]
     fn population_mode_empty_layer_reports_every_point() {
-        let area = PolygonArea::rectangle(0.0, 0.0, 10_000.0, 10_000.0);
+        let area = Window::rectangle(0.0, 0.0, 10_000.0, 10_000.0).unwrap();
         let p = KAnonParams::default();
         let r = kanon_mask(&[1.0, 2.0], &[1.0, 2.0], Some((&[], &[])), &area, &p).unwrap();
         assert!(r.masked.x.is_empty());
@@ -528,7 +529,7 @@ mod tests {
         // shifts toward the block reach k. The shifts must be spread over a
         // band, not all equal to r_max (which would put the true point on a
         // known circle around the shared one).
-        let area = PolygonArea::rectangle(0.0, 0.0, 10_000.0, 10_000.0);
+        let area = Window::rectangle(0.0, 0.0, 10_000.0, 10_000.0).unwrap();
         let (mut px, mut py) = (Vec::new(), Vec::new());
         for i in 0..100 {
             for j in 0..100 {

@@ -37,6 +37,10 @@
 //!   points lets an attacker average the copies back towards the true
 //!   locations (Cassa, Wieland & Mandl 2008, *Int J Health Geogr* 7:45).
 //!
+//! The study area (which masked points must stay inside) and aggregation
+//! zones are [`Window`](crate::window::Window)s: one containment rule
+//! (the boundary counts as inside) for every module.
+//!
 //! All coordinates are planar metres (see [`crate::projection`]). Distances
 //! follow [`crate::index`]: `(dx² + dy²).sqrt() ≤ r` counts as within r.
 
@@ -55,120 +59,7 @@ pub use kanon::{kanon_mask, KAnonParams, KAnonReport};
 pub use suppress::{audit, suppress, SuppressedTable, SuppressionParams};
 
 use crate::error::AnalysisError;
-use crate::window::Window;
-use serde::{Deserialize, Serialize};
-
-/// An area that masked points must stay inside: the study [`Window`], or a
-/// [`PolygonArea`] (zones, tests).
-pub trait Region {
-    /// Inside or on the boundary; false inside holes.
-    fn contains(&self, x: f64, y: f64) -> bool;
-    /// `[min_x, min_y, max_x, max_y]`.
-    fn bbox(&self) -> [f64; 4];
-    /// Area in m², holes excluded.
-    fn area(&self) -> f64;
-}
-
-impl Region for Window {
-    fn contains(&self, x: f64, y: f64) -> bool {
-        Window::contains(self, x, y)
-    }
-    fn bbox(&self) -> [f64; 4] {
-        Window::bbox(self)
-    }
-    fn area(&self) -> f64 {
-        Window::area(self)
-    }
-}
-
-/// Polygons with holes in metres: for each polygon, the exterior ring first,
-/// then its holes. Rings may be closed or open. Used for zones and tests.
-#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
-pub struct PolygonArea {
-    pub polygons: Vec<Vec<Vec<[f64; 2]>>>,
-}
-
-impl PolygonArea {
-    /// Checks every ring has at least 3 vertices and finite coordinates.
-    pub fn new(polygons: Vec<Vec<Vec<[f64; 2]>>>) -> Result<PolygonArea, AnalysisError> {
-        if polygons.is_empty() {
-            return Err(bad("polygons", "no polygon given"));
-        }
-        for (i, p) in polygons.iter().enumerate() {
-            if p.is_empty() {
-                return Err(bad("polygons", &format!("polygon {} has no ring", i + 1)));
-            }
-            for (j, ring) in p.iter().enumerate() {
-                if open_ring(ring).len() < 3 {
-                    return Err(bad(
-                        "polygons",
-                        &format!(
-                            "polygon {}, ring {} has fewer than 3 vertices",
-                            i + 1,
-                            j + 1
-                        ),
-                    ));
-                }
-                if ring.iter().any(|v| !v[0].is_finite() || !v[1].is_finite()) {
-                    return Err(bad(
-                        "polygons",
-                        &format!(
-                            "polygon {}, ring {} has a non-finite coordinate",
-                            i + 1,
-                            j + 1
-                        ),
-                    ));
-                }
-            }
-        }
-        Ok(PolygonArea { polygons })
-    }
-    /// A rectangle.
-    pub fn rectangle(x0: f64, y0: f64, x1: f64, y1: f64) -> PolygonArea {
-        PolygonArea {
-            polygons: vec![vec![vec![[x0, y0], [x1, y0], [x1, y1], [x0, y1]]]],
-        }
-    }
-}
-
-impl Region for PolygonArea {
-    fn contains(&self, x: f64, y: f64) -> bool {
-        self.polygons.iter().any(|p| polygon_contains(p, x, y))
-    }
-    fn bbox(&self) -> [f64; 4] {
-        let mut b = [
-            f64::INFINITY,
-            f64::INFINITY,
-            f64::NEG_INFINITY,
-            f64::NEG_INFINITY,
-        ];
-        for v in self
-            .polygons
-            .iter()
-            .flat_map(|p| p.iter().take(1))
-            .flatten()
-        {
-            b[0] = b[0].min(v[0]);
-            b[1] = b[1].min(v[1]);
-            b[2] = b[2].max(v[0]);
-            b[3] = b[3].max(v[1]);
-        }
-        b
-    }
-    fn area(&self) -> f64 {
-        self.polygons
-            .iter()
-            .map(|p| {
-                let mut a = 0.0;
-                for (j, ring) in p.iter().enumerate() {
-                    let r = ring_area(ring).abs();
-                    a += if j == 0 { r } else { -r };
-                }
-                a
-            })
-            .sum()
-    }
-}
+use serde::Serialize;
 
 /// The ring without a repeated closing vertex.
 pub(crate) fn open_ring(ring: &[[f64; 2]]) -> &[[f64; 2]] {
@@ -177,78 +68,6 @@ pub(crate) fn open_ring(ring: &[[f64; 2]]) -> &[[f64; 2]] {
     } else {
         ring
     }
-}
-
-/// Signed shoelace area (positive for counter-clockwise).
-pub(crate) fn ring_area(ring: &[[f64; 2]]) -> f64 {
-    let r = open_ring(ring);
-    let n = r.len();
-    if n < 3 {
-        return 0.0;
-    }
-    let mut s = 0.0;
-    for i in 0..n {
-        let a = r[i];
-        let b = r[(i + 1) % n];
-        s += a[0] * b[1] - b[0] * a[1];
-    }
-    0.5 * s
-}
-
-/// On the segment a–b (within a tiny tolerance relative to its length).
-fn on_segment(a: [f64; 2], b: [f64; 2], x: f64, y: f64) -> bool {
-    let cross = (b[0] - a[0]) * (y - a[1]) - (b[1] - a[1]) * (x - a[0]);
-    let len = ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2)).sqrt();
-    if cross.abs() > 1e-9 * len.max(1.0) * len.max(1.0) {
-        return false;
-    }
-    x >= a[0].min(b[0]) - 1e-9
-        && x <= a[0].max(b[0]) + 1e-9
-        && y >= a[1].min(b[1]) - 1e-9
-        && y <= a[1].max(b[1]) + 1e-9
-}
-
-/// Even-odd crossing test for one ring; the boundary counts as inside.
-pub(crate) fn ring_contains(ring: &[[f64; 2]], x: f64, y: f64) -> bool {
-    let r = open_ring(ring);
-    let n = r.len();
-    if n < 3 {
-        return false;
-    }
-    let mut inside = false;
-    let mut j = n - 1;
-    for i in 0..n {
-        let (a, b) = (r[i], r[j]);
-        if on_segment(a, b, x, y) {
-            return true;
-        }
-        if (a[1] > y) != (b[1] > y) {
-            let xc = a[0] + (y - a[1]) * (b[0] - a[0]) / (b[1] - a[1]);
-            if x < xc {
-                inside = !inside;
-            }
-        }
-        j = i;
-    }
-    inside
-}
-
-/// Inside the exterior ring (boundary included) and not strictly inside a hole.
-pub(crate) fn polygon_contains(rings: &[Vec<[f64; 2]>], x: f64, y: f64) -> bool {
-    let Some(outer) = rings.first() else {
-        return false;
-    };
-    if !ring_contains(outer, x, y) {
-        return false;
-    }
-    for hole in &rings[1..] {
-        let h = open_ring(hole);
-        let on_edge = (0..h.len()).any(|i| on_segment(h[i], h[(i + 1) % h.len()], x, y));
-        if !on_edge && ring_contains(hole, x, y) {
-            return false;
-        }
-    }
-    true
 }
 
 pub(crate) fn bad(name: &str, detail: &str) -> AnalysisError {

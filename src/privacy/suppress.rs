@@ -177,11 +177,12 @@ pub const EXACT_MAX_HIDDEN: usize = 60;
 /// is hidden, and so is the 9, or the total would give the 3 back.
 /// ```
 /// use cloister::privacy::aggregate::{aggregate_zones, Zone};
-/// use cloister::privacy::{suppress, PolygonArea, SuppressionParams};
+/// use cloister::privacy::{suppress, SuppressionParams};
+/// use cloister::window::Window;
 /// let zones: Vec<Zone> = (0..4)
 ///     .map(|i| Zone {
 ///         name: format!("z{i}"),
-///         polygons: PolygonArea::rectangle(i as f64, 0.0, i as f64 + 1.0, 1.0).polygons,
+///         polygons: Window::rectangle(i as f64, 0.0, i as f64 + 1.0, 1.0).unwrap().polygons().to_vec(),
 ///         population: None,
 ///         group: None,
 ///     })

@@ -66,7 +66,6 @@
 //! This gives exactly the maximum LLR over all windows.
 
 use crate::error::AnalysisError;
-use crate::intensity::region::Region;
 use crate::rng::{rng_from_seed, Rng};
 use crate::study::Pattern;
 use crate::window::Window;
@@ -287,12 +286,11 @@ impl ScanJob {
         window: &Window,
         o: &ScanOptions,
     ) -> Result<ScanJob, AnalysisError> {
-        let region = Region::from_window(window)?;
         ScanJob::from_points(
             events.x(),
             events.y(),
             controls.map(|c| (c.x(), c.y())),
-            &region,
+            window,
             o,
         )
     }
@@ -302,7 +300,7 @@ impl ScanJob {
         x: &[f64],
         y: &[f64],
         controls: Option<(&[f64], &[f64])>,
-        region: &Region,
+        region: &Window,
         o: &ScanOptions,
     ) -> Result<ScanJob, AnalysisError> {
         let model = match (o.model, controls.is_some()) {
@@ -745,7 +743,7 @@ fn grid_regions(
     x: &[f64],
     y: &[f64],
     controls: Option<(&[f64], &[f64])>,
-    region: &Region,
+    region: &Window,
     cells_long_side: usize,
 ) -> Result<(ScanRegions, f64), AnalysisError> {
     if !(2..=512).contains(&cells_long_side) {

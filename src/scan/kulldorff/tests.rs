@@ -195,7 +195,7 @@ fn bernoulli_null_keeps_case_total_and_region_caps() {
 
 #[test]
 fn edge_cases_return_errors_not_panics() {
-    let r = Region::rectangle(0.0, 0.0, 10.0, 10.0).unwrap();
+    let r = Window::rectangle(0.0, 0.0, 10.0, 10.0).unwrap();
     let o = ScanOptions::default();
     assert!(ScanJob::from_points(&[], &[], None, &r, &o).is_err());
     assert!(ScanJob::from_points(
@@ -230,7 +230,7 @@ fn edge_cases_return_errors_not_panics() {
 
 /// Seeded CSR runs: share with most-likely-cluster p ≥ 0.05, and mean p.
 fn calibration(runs: usize, n: usize, n_sim: usize, seed0: u64) -> (usize, f64) {
-    let region = Region::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
     let mut ok = 0;
     let mut psum = 0.0;
     for run in 0..runs {
@@ -280,7 +280,7 @@ fn calibration_under_csr_heavy() {
 #[test]
 fn planted_cluster_is_found() {
     // A dense disc of 40 extra events at (700, 300) in CSR background.
-    let region = Region::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+    let region = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
     let mut rng = crate::rng::rng_from_seed(42);
     let (mut x, mut y) = region.sample_uniform(200, &mut rng);
     use rand::RngExt;

@@ -4,6 +4,16 @@
 //! with any number of holes (a lake, an airport). Points on the boundary count
 //! as inside, for data and simulations alike.
 //!
+//! It is the one study-area type of the crate: built once from the loaded
+//! polygons, it answers every geometric question the analyses ask of the
+//! area (area, perimeter, bounding box, containment, distance to the
+//! boundary, uniform sampling, oriented edges and the edges near a point for
+//! the isotropic correction, rectangle detection, raster masks, disc and
+//! rectangle intersection areas, see [`geometry`]) and builds convex hulls
+//! ([`hull`]). Zones for aggregation are windows too. Analyses keep only
+//! their own method-specific formulas (e.g. the length of a circle inside
+//! the area, `distance::edge`) as functions over [`Window::edges`].
+//!
 //! # Conventions
 //! * Rings are stored closed (first vertex repeated last), exterior rings
 //!   counter-clockwise and holes clockwise, whatever the input order was.
@@ -28,6 +38,11 @@
 //! band holding the point, so it costs O(edges per band) instead of
 //! O(all edges). Windows with at most 64 edges use a single band.
 
+pub mod geometry;
+pub mod hull;
+
+pub use hull::convex_hull;
+
 use crate::error::{InputError, InputErrorKind};
 use crate::rng::Rng;
 use rand::RngExt;
@@ -45,12 +60,22 @@ pub enum WindowOrigin {
     BoundingBox,
 }
 
-/// One boundary segment, tagged with the polygon it belongs to.
+/// One directed boundary segment a → b, tagged with the polygon it belongs
+/// to. Exterior rings run counter-clockwise and holes clockwise, so the
+/// inside of the window is always **to the left** of every edge.
 #[derive(Debug, Clone, Copy, PartialEq)]
-struct Edge {
-    a: [f64; 2],
-    b: [f64; 2],
+pub struct Edge {
+    pub a: [f64; 2],
+    pub b: [f64; 2],
     poly: u32,
+}
+
+impl Edge {
+    /// Squared distance from (x, y) to the segment.
+    #[inline]
+    pub fn distance_sq(&self, x: f64, y: f64) -> f64 {
+        seg_dist2(x, y, self.a, self.b)
+    }
 }
 
 /// Edges grouped by horizontal band (compressed rows: the edges of band `k`
@@ -216,9 +241,6 @@ impl EdgeGrid {
     }
 }
 
-/// Side (in cells) of the grid used to sample thin windows.
-const COVER_GRID: usize = 64;
-
 /// A study area: polygons with holes, in metres.
 ///
 /// # Examples
@@ -244,11 +266,11 @@ pub struct Window {
     origin: WindowOrigin,
     edges: Vec<Edge>,
     bands: Bands,
-    /// Grid of edges for distance queries (`None` for ≤ 64 edges).
+    /// Grid of edges for distance and near-edge queries (`None` for ≤ 64
+    /// edges, which are scanned).
     grid: Option<EdgeGrid>,
-    /// Cells of a 64 × 64 grid over the bounding box that may hold part of
-    /// the window; empty when the window fills at least 25 % of its box.
-    cover: Vec<u32>,
+    /// `Some([x0, y0, x1, y1])` when the window is one axis-aligned rectangle.
+    rect: Option<[f64; 4]>,
     area: f64,
     perimeter: f64,
     bbox: [f64; 4],
@@ -260,17 +282,26 @@ fn bad(detail: String) -> InputError {
     InputError::new(InputErrorKind::BadPolygon { detail })
 }
 
-/// Twice the signed area of an open ring (shoelace, relative to the first
-/// vertex for accuracy); positive when counter-clockwise.
-fn signed_area2(ring: &[[f64; 2]]) -> f64 {
-    let o = ring[0];
-    let mut s = 0.0;
-    for k in 1..ring.len().saturating_sub(1) {
-        let p = ring[k];
-        let q = ring[k + 1];
-        s += (p[0] - o[0]) * (q[1] - o[1]) - (q[0] - o[0]) * (p[1] - o[1]);
+/// Twice the signed area of a ring, open or closed; positive when
+/// counter-clockwise. This is the crate's one polygon-area routine: `geo`'s
+/// shoelace sum, which shifts every vertex by the first one for accuracy
+/// with large coordinates (UTM northings).
+pub fn signed_area2(ring: &[[f64; 2]]) -> f64 {
+    use geo::Area;
+    if ring.len() < 3 {
+        return 0.0;
     }
-    s
+    let mut ls: geo::LineString<f64> = ring
+        .iter()
+        .map(|p| geo::Coord { x: p[0], y: p[1] })
+        .collect();
+    ls.close();
+    2.0 * geo::Polygon::new(ls, vec![]).signed_area()
+}
+
+/// Area of a ring (open or closed), m², whatever its orientation.
+pub fn ring_area(ring: &[[f64; 2]]) -> f64 {
+    0.5 * signed_area2(ring).abs()
 }
 
 /// Squared distance from (x, y) to the segment a–b.
@@ -463,22 +494,26 @@ impl Window {
             }
         }
         let grid = EdgeGrid::build(&edges, bbox);
-        let mut w = Window {
+        // One ring of four axis-parallel edges that fills its bounding box.
+        let rect = if polygons.len() == 1 && polygons[0].len() == 1 && edges.len() == 4 {
+            let axis = edges.iter().all(|e| e.a[0] == e.b[0] || e.a[1] == e.b[1]);
+            let full = (area - (bbox[2] - bbox[0]) * (bbox[3] - bbox[1])).abs() <= 1e-12 * area;
+            (axis && full).then_some(bbox)
+        } else {
+            None
+        };
+        Window {
             polygons,
             origin,
             edges,
             bands,
             grid,
-            cover: Vec::new(),
+            rect,
             area,
             perimeter,
             bbox,
             tol,
-        };
-        if w.area < 0.25 * (bbox[2] - bbox[0]) * (bbox[3] - bbox[1]) {
-            w.cover = w.covering_cells(COVER_GRID);
         }
-        w
     }
 
     /// The rectangle [x0, x1] × [y0, y1] as a window (origin `File`).
@@ -507,20 +542,17 @@ impl Window {
         Ok(w)
     }
 
-    /// The convex hull of the points as a window (Andrew's monotone chain,
-    /// Andrew 1979, Inf. Process. Lett. 9:216–219 (from memory)).
+    /// The convex hull of the points as a window (see [`convex_hull`]).
     ///
     /// Non-finite points are ignored. Fails (with `BadPolygon`) when fewer
     /// than 3 distinct points remain or all lie on one line.
     pub fn convex_hull_of(x: &[f64], y: &[f64]) -> Result<Window, InputError> {
-        let mut pts: Vec<[f64; 2]> = x
+        let pts: Vec<[f64; 2]> = x
             .iter()
             .zip(y)
             .filter(|(a, b)| a.is_finite() && b.is_finite())
             .map(|(&a, &b)| [a, b])
             .collect();
-        pts.sort_by(|a, b| a[0].total_cmp(&b[0]).then(a[1].total_cmp(&b[1])));
-        pts.dedup();
         let degenerate = || {
             bad(
                 "the events lie on one straight line (or there are fewer than 3 distinct \
@@ -528,27 +560,7 @@ impl Window {
                     .to_string(),
             )
         };
-        if pts.len() < 3 {
-            return Err(degenerate());
-        }
-        let cross = |o: [f64; 2], a: [f64; 2], b: [f64; 2]| {
-            (a[0] - o[0]) * (b[1] - o[1]) - (a[1] - o[1]) * (b[0] - o[0])
-        };
-        let mut hull: Vec<[f64; 2]> = Vec::with_capacity(2 * pts.len());
-        for &p in &pts {
-            while hull.len() >= 2 && cross(hull[hull.len() - 2], hull[hull.len() - 1], p) <= 0.0 {
-                hull.pop();
-            }
-            hull.push(p);
-        }
-        let lower = hull.len() + 1;
-        for &p in pts.iter().rev().skip(1) {
-            while hull.len() >= lower && cross(hull[hull.len() - 2], hull[hull.len() - 1], p) <= 0.0
-            {
-                hull.pop();
-            }
-            hull.push(p);
-        }
+        let mut hull = convex_hull(&pts);
         hull.pop();
         if hull.len() < 3 {
             return Err(degenerate());
@@ -583,6 +595,15 @@ impl Window {
         self.tol
     }
     /// Inside or on the boundary. Non-finite points are outside.
+    ///
+    /// This is the crate's one point-in-polygon test, written by hand (even-
+    /// odd crossings over the edges of the point's horizontal band, with the
+    /// boundary tolerance) rather than `geo`'s `Intersects`, because the
+    /// bands pay on detailed boundaries: `cargo run --release --example
+    /// bench_window` measured 200,000 points against a 1200-edge window in
+    /// 23 ms here against 635 ms with `geo` (27× faster); on an 8-edge
+    /// window the two were level (12 vs 11 ms) and on a rectangle ours took
+    /// half the time (4 vs 8 ms).
     pub fn contains(&self, x: f64, y: f64) -> bool {
         let t = self.tol;
         let b = self.bbox;
@@ -641,101 +662,108 @@ impl Window {
         }
         best.sqrt()
     }
-    /// All boundary edges (outer rings and holes) as segments.
-    pub fn edges(&self) -> Vec<([f64; 2], [f64; 2])> {
-        self.edges.iter().map(|e| (e.a, e.b)).collect()
+    /// All boundary edges (outer rings and holes), directed so that the
+    /// inside is on their left; indices are stable (ring order).
+    pub fn edges(&self) -> &[Edge] {
+        &self.edges
     }
+    /// Boundary edges as segments.
+    pub fn segments(&self) -> impl Iterator<Item = ([f64; 2], [f64; 2])> + '_ {
+        self.edges.iter().map(|e| (e.a, e.b))
+    }
+    /// `Some([x0, y0, x1, y1])` when the window is one axis-aligned
+    /// rectangle (fast paths: sampling, translation correction, Donnelly's
+    /// Clark–Evans correction).
+    pub fn axis_rectangle(&self) -> Option<[f64; 4]> {
+        self.rect
+    }
+    /// Indices (sorted) of the edges within distance `r` of (x, y): the
+    /// edges a circle of radius r about the point can cross. Uses the edge
+    /// grid when the window has more than 64 edges.
+    pub fn edges_near(&self, x: f64, y: f64, r: f64) -> Vec<u32> {
+        let r2 = r * r;
+        let mut out = Vec::new();
+        match &self.grid {
+            None => {
+                for (k, e) in self.edges.iter().enumerate() {
+                    if e.distance_sq(x, y) <= r2 {
+                        out.push(k as u32);
+                    }
+                }
+                return out;
+            }
+            Some(g) => {
+                for &k in &g.long {
+                    if self.edges[k as usize].distance_sq(x, y) <= r2 {
+                        out.push(k);
+                    }
+                }
+                let (cx0, cx1) = (g.col(x - r), g.col(x + r));
+                let (cy0, cy1) = (g.row(y - r), g.row(y + r));
+                for cy in cy0..=cy1 {
+                    for cx in cx0..=cx1 {
+                        let c = cy * g.nx + cx;
+                        for &k in &g.idx[g.start[c] as usize..g.start[c + 1] as usize] {
+                            if self.edges[k as usize].distance_sq(x, y) <= r2 {
+                                out.push(k);
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        out.sort_unstable();
+        out.dedup();
+        out
+    }
+    /// One uniform point in the window: proposals uniform on the bounding
+    /// box, kept when [`Window::contains`] is true (every proposal is kept
+    /// for a rectangle).
+    #[inline]
+    pub fn sample_one(&self, rng: &mut Rng) -> (f64, f64) {
+        let [x0, y0, x1, y1] = self.bbox;
+        loop {
+            let x = x0 + (x1 - x0) * rng.random::<f64>();
+            let y = y0 + (y1 - y0) * rng.random::<f64>();
+            if self.rect.is_some() || self.contains(x, y) {
+                return (x, y);
+            }
+        }
+    }
+
     /// `n` independent uniform points in the window (binomial process).
     ///
     /// # Algorithm
-    /// Rejection sampling (METHODS §1): a proposal uniform on a region that
-    /// covers the window is kept when [`Window::contains`] is true; kept points
-    /// are then uniform on the window. The proposal region is the bounding box
-    /// when the window fills at least a quarter of it. For thin or ragged
-    /// windows (acceptance below 25 %) it is the union of the cells of a
-    /// 64 × 64 grid over the bounding box (found once, when the window is built) that either meet an edge's bounding
-    /// box or have their centre inside; every other cell lies wholly outside
-    /// the window, so the union still covers it, and all cells have equal
-    /// area, so a cell drawn uniformly and a point drawn uniformly in it is a
-    /// uniform draw on the union. The number of proposals per point is
-    /// geometric with mean 1/acceptance.
+    /// Rejection sampling (METHODS §1): a proposal uniform on the bounding
+    /// box is kept when [`Window::contains`] is true; kept points are then
+    /// uniform on the window. Two draws per proposal (x then y), so a seed
+    /// gives the same points in every analysis that simulates. The number
+    /// of proposals per point is geometric with mean (box area)/(window
+    /// area).
     pub fn sample_uniform(&self, n: usize, rng: &mut Rng) -> (Vec<f64>, Vec<f64>) {
         let mut xs = Vec::with_capacity(n);
         let mut ys = Vec::with_capacity(n);
-        if n == 0 {
-            return (xs, ys);
-        }
-        let [x0, y0, x1, y1] = self.bbox;
-        let (w, h) = (x1 - x0, y1 - y0);
-        if self.cover.is_empty() {
-            while xs.len() < n {
-                let x = x0 + w * rng.random::<f64>();
-                let y = y0 + h * rng.random::<f64>();
-                if self.contains(x, y) {
-                    xs.push(x);
-                    ys.push(y);
-                }
-            }
-            return (xs, ys);
-        }
-        let g = COVER_GRID;
-        let (cw, ch) = (w / g as f64, h / g as f64);
-        while xs.len() < n {
-            let c = self.cover[rng.random_range(0..self.cover.len())] as usize;
-            let (cx, cy) = ((c % g) as f64, (c / g) as f64);
-            let x = x0 + cw * (cx + rng.random::<f64>());
-            let y = y0 + ch * (cy + rng.random::<f64>());
-            if self.contains(x, y) {
-                xs.push(x);
-                ys.push(y);
-            }
+        for _ in 0..n {
+            let (x, y) = self.sample_one(rng);
+            xs.push(x);
+            ys.push(y);
         }
         (xs, ys)
-    }
-
-    /// Cells (row-major index) of a g × g grid over the bounding box that may
-    /// hold part of the window (see [`Window::sample_uniform`]).
-    fn covering_cells(&self, g: usize) -> Vec<u32> {
-        let [x0, y0, x1, y1] = self.bbox;
-        let (cw, ch) = ((x1 - x0) / g as f64, (y1 - y0) / g as f64);
-        let cell = |v: f64, o: f64, s: f64| (((v - o) / s).floor().max(0.0) as usize).min(g - 1);
-        let mut mark = vec![false; g * g];
-        for e in &self.edges {
-            let (ix0, ix1) = (
-                cell(e.a[0].min(e.b[0]), x0, cw),
-                cell(e.a[0].max(e.b[0]), x0, cw),
-            );
-            let (iy0, iy1) = (
-                cell(e.a[1].min(e.b[1]), y0, ch),
-                cell(e.a[1].max(e.b[1]), y0, ch),
-            );
-            // One cell of margin absorbs rounding at cell borders.
-            for iy in iy0.saturating_sub(1)..=(iy1 + 1).min(g - 1) {
-                for ix in ix0.saturating_sub(1)..=(ix1 + 1).min(g - 1) {
-                    mark[iy * g + ix] = true;
-                }
-            }
-        }
-        (0..g * g)
-            .filter(|&c| {
-                mark[c]
-                    || self.contains(
-                        x0 + cw * ((c % g) as f64 + 0.5),
-                        y0 + ch * ((c / g) as f64 + 0.5),
-                    )
-            })
-            .map(|c| c as u32)
-            .collect()
     }
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use crate::rng::rng_from_seed;
 
+    /// The unit square [0, 1]².
+    pub fn unit_square() -> Window {
+        Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap()
+    }
+
     /// METHODS §1 / Appendix A "WH": [0,10]² minus the hole [4,6]².
-    fn wh() -> Window {
+    pub fn wh() -> Window {
         Window::from_polygons(
             vec![vec![
                 vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
@@ -944,7 +972,7 @@ mod tests {
             let y = rng.random::<f64>() * 2000.0 - 700.0;
             let scan = edges
                 .iter()
-                .map(|&(a, b)| seg_dist2(x, y, a, b))
+                .map(|e| seg_dist2(x, y, e.a, e.b))
                 .fold(f64::INFINITY, f64::min);
             assert_eq!(w.boundary_distance(x, y), scan.sqrt(), "({x}, {y})");
         }
@@ -1024,5 +1052,125 @@ mod tests {
     fn test_sample_zero_points() {
         let mut rng = rng_from_seed(1);
         assert_eq!(wh().sample_uniform(0, &mut rng).0.len(), 0);
+    }
+
+    #[test]
+    fn test_region_area_perimeter_hole() {
+        // |W| = 100 − 4 = 96 and P = 40 + 8 (hole included), METHODS §1 / Appendix A WH.
+        let w = wh();
+        assert!((w.area() - 96.0).abs() < 1e-12);
+        assert!((w.perimeter() - 48.0).abs() < 1e-12);
+        assert!(w.axis_rectangle().is_none());
+        assert!(unit_square().axis_rectangle().is_some());
+        assert!(!w.contains(5.0, 5.0));
+        assert!(w.contains(3.0, 5.0));
+        assert!(w.contains(4.0, 5.0)); // on the hole boundary counts as inside
+        assert!(!w.contains(10.5, 5.0));
+    }
+
+    #[test]
+    fn test_boundary_distance_oracle() {
+        let w = wh();
+        let mut rng = crate::rng::rng_from_seed(5);
+        for _ in 0..500 {
+            let (x, y) = w.sample_one(&mut rng);
+            let brute = w
+                .edges()
+                .iter()
+                .map(|e| e.distance_sq(x, y).sqrt())
+                .fold(f64::INFINITY, f64::min);
+            assert!((w.boundary_distance(x, y) - brute).abs() < 1e-12);
+        }
+    }
+
+    /// Rectangle fast path: only a single axis-parallel ring that fills its
+    /// box is a rectangle; a rotated square, a square with a hole, two
+    /// rectangles and a five-corner ring with a collinear corner are not.
+    #[test]
+    fn test_rectangle_detection() {
+        let r = Window::rectangle(2.0, 3.0, 7.0, 4.0).unwrap();
+        assert_eq!(r.axis_rectangle(), Some([2.0, 3.0, 7.0, 4.0]));
+        let diamond = Window::from_polygons(
+            vec![vec![vec![[1.0, 0.0], [2.0, 1.0], [1.0, 2.0], [0.0, 1.0]]]],
+            WindowOrigin::File,
+        )
+        .unwrap();
+        assert_eq!(diamond.axis_rectangle(), None);
+        assert_eq!(wh().axis_rectangle(), None);
+        let two = Window::from_polygons(
+            vec![
+                vec![vec![[0.0, 0.0], [1.0, 0.0], [1.0, 1.0], [0.0, 1.0]]],
+                vec![vec![[2.0, 0.0], [3.0, 0.0], [3.0, 1.0], [2.0, 1.0]]],
+            ],
+            WindowOrigin::File,
+        )
+        .unwrap();
+        assert_eq!(two.axis_rectangle(), None);
+        let five = Window::from_polygons(
+            vec![vec![vec![
+                [0.0, 0.0],
+                [1.0, 0.0],
+                [2.0, 0.0],
+                [2.0, 1.0],
+                [0.0, 1.0],
+            ]]],
+            WindowOrigin::File,
+        )
+        .unwrap();
+        assert_eq!(five.axis_rectangle(), None);
+        // Sampling a rectangle keeps every proposal: the same points as
+        // drawing x and y uniformly on the box.
+        let mut a = rng_from_seed(9);
+        let mut b = rng_from_seed(9);
+        let (x, y) = r.sample_uniform(50, &mut a);
+        for i in 0..50 {
+            assert_eq!(x[i], 2.0 + 5.0 * b.random::<f64>());
+            assert_eq!(y[i], 3.0 + 1.0 * b.random::<f64>());
+        }
+    }
+
+    /// Edges near a point, with and without the edge grid, match a scan of
+    /// every edge; indices are sorted and refer to `edges()`.
+    #[test]
+    fn test_edges_near_matches_scan() {
+        let hole: Vec<[f64; 2]> = (0..300)
+            .map(|k| {
+                let t = 2.0 * std::f64::consts::PI * k as f64 / 300.0;
+                let r = 200.0 * (1.0 + 0.2 * (11.0 * t).sin());
+                [500.0 + r * t.cos(), 300.0 + r * t.sin()]
+            })
+            .collect();
+        let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
+        let big = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
+        assert!(big.grid.is_some() && wh().grid.is_none());
+        let mut rng = rng_from_seed(6);
+        for w in [big, wh()] {
+            let [x0, y0, x1, y1] = w.bbox();
+            for _ in 0..2000 {
+                let x = x0 + (x1 - x0) * rng.random::<f64>();
+                let y = y0 + (y1 - y0) * rng.random::<f64>();
+                let r = 0.3 * (x1 - x0) * rng.random::<f64>();
+                let want: Vec<u32> = (0..w.edges().len() as u32)
+                    .filter(|&k| w.edges()[k as usize].distance_sq(x, y) <= r * r)
+                    .collect();
+                assert_eq!(w.edges_near(x, y, r), want, "({x}, {y}) r = {r}");
+            }
+        }
+    }
+
+    /// Every edge has the inside on its left: a point a little to the left
+    /// of each edge's midpoint is inside, a little to the right is outside
+    /// (for the hole's edges too).
+    #[test]
+    fn test_edges_inside_on_the_left() {
+        let w = wh();
+        for e in w.edges() {
+            let (mx, my) = (0.5 * (e.a[0] + e.b[0]), 0.5 * (e.a[1] + e.b[1]));
+            let (dx, dy) = (e.b[0] - e.a[0], e.b[1] - e.a[1]);
+            let len = dx.hypot(dy);
+            let (lx, ly) = (-dy / len * 0.01, dx / len * 0.01);
+            assert!(w.contains(mx + lx, my + ly));
+            assert!(!w.contains(mx - lx, my - ly));
+        }
     }
 }
