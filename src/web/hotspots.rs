@@ -612,126 +612,28 @@ impl Session {
     }
 }
 
-/// Data for [`draw_k_distance_chart`].
-#[derive(Debug, Default, Deserialize)]
-#[serde(default)]
-struct KDistChartData {
-    min_samples: usize,
-    /// Largest first, metres.
-    sorted_desc_m: Vec<f64>,
-    knee_index: Option<usize>,
-    knee_eps_m: Option<f64>,
-    /// The eps currently chosen, metres (drawn as a line).
-    eps_m: Option<f64>,
-    /// Device pixels per CSS pixel ([`super::PixelScale`]).
-    scale: Option<f64>,
-}
-
 /// Draws the sorted k-distance curve on the canvas with id `canvas_id`
-/// (main thread only). `data` is `kDistance`'s answer plus an optional
-/// `eps_m`. Throws when the canvas is missing or the data are empty.
+/// (main thread only) with [`crate::plot::kdistance`]. `data` is
+/// `kDistance`'s answer plus an optional `eps_m` and `scale`. Throws when the
+/// canvas is missing or the data are empty.
 #[wasm_bindgen(js_name = drawKDistanceChart)]
 pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsValue> {
-    use plotters::prelude::*;
-    use plotters_canvas::CanvasBackend;
-    let d: KDistChartData = from_js(data)?;
-    let n = d.sorted_desc_m.len();
-    if n == 0 {
+    use crate::plot::{KDistanceChartData, PlotError};
+    use plotters::prelude::IntoDrawingArea;
+    let d: KDistanceChartData = from_js(data)?;
+    if d.sorted_desc_m.is_empty() {
         return Err(js_error("bad_options", "no k-distances to draw", None));
     }
-    let backend = CanvasBackend::new(canvas_id).ok_or_else(|| {
+    let backend = plotters_canvas::CanvasBackend::new(canvas_id).ok_or_else(|| {
         js_error(
             "no_canvas",
             &format!("no canvas with id \"{canvas_id}\" on the page"),
             None,
         )
     })?;
-    let draw_err = |e: &dyn std::fmt::Display| js_error("draw", &e.to_string(), None);
     let root = backend.into_drawing_area();
-    root.fill(&WHITE).map_err(|e| draw_err(&e))?;
-    let ymax = d
-        .sorted_desc_m
-        .iter()
-        .copied()
-        .filter(|v| v.is_finite())
-        .fold(0.0f64, f64::max)
-        .max(d.eps_m.unwrap_or(0.0))
-        * 1.05;
-    let ymax = if ymax > 0.0 { ymax } else { 1.0 };
-    let sc = super::PixelScale::new(d.scale);
-    let (px, pt, pf) = (|v| sc.px(v), |v| sc.pt(v), |v| sc.font(v));
-    let mut chart = ChartBuilder::on(&root)
-        .margin(pt(8))
-        .x_label_area_size(pt(38))
-        .y_label_area_size(pt(56))
-        .build_cartesian_2d(0f64..(n as f64), 0f64..ymax)
-        .map_err(|e| draw_err(&e))?;
-    let nth = if d.min_samples > 1 {
-        format!("distance to {}th nearest event (m)", d.min_samples - 1)
-    } else {
-        "distance (m)".to_string()
-    };
-    chart
-        .configure_mesh()
-        .bold_line_style(RGBColor(0, 0, 0).mix(0.2).stroke_width(pt(1)))
-        .light_line_style(RGBColor(236, 238, 234).stroke_width(pt(1)))
-        .axis_style(RGBColor(0, 0, 0).stroke_width(pt(1)))
-        .set_all_tick_mark_size(pt(5))
-        .x_desc("events, sorted from the most isolated")
-        .y_desc(nth)
-        .x_label_formatter(&|v| format!("{v:.0}"))
-        .y_label_formatter(&|v| format!("{v:.0}"))
-        .label_style(("sans-serif", pf(12.0)))
-        .axis_desc_style(("sans-serif", pf(13.0)))
-        .draw()
-        .map_err(|e| draw_err(&e))?;
-    // At most ~2 000 vertices: the curve is monotone, so a stride keeps its shape.
-    let stride = (n / 2000).max(1);
-    let line = RGBColor(30, 72, 110);
-    chart
-        .draw_series(LineSeries::new(
-            (0..n)
-                .step_by(stride)
-                .chain(std::iter::once(n - 1))
-                .filter_map(|i| d.sorted_desc_m.get(i).map(|&v| (i as f64, v))),
-            line.stroke_width(pt(2)),
-        ))
-        .map_err(|e| draw_err(&e))?;
-    if let (Some(i), Some(v)) = (d.knee_index, d.knee_eps_m) {
-        let knee = RGBColor(176, 74, 20);
-        chart
-            .draw_series(std::iter::once(Circle::new(
-                (i as f64, v),
-                pt(6),
-                knee.stroke_width(pt(2)),
-            )))
-            .map_err(|e| draw_err(&e))?
-            .label(format!("suggested eps {v:.0} m"))
-            .legend(move |(x, y)| Circle::new((x + px(8), y), pt(5), knee.stroke_width(pt(2))));
-    }
-    if let Some(eps) = d.eps_m.filter(|v| v.is_finite() && *v > 0.0) {
-        let c = RGBColor(90, 90, 90);
-        chart
-            .draw_series(std::iter::once(PathElement::new(
-                vec![(0.0, eps), (n as f64, eps)],
-                c.stroke_width(pt(1)),
-            )))
-            .map_err(|e| draw_err(&e))?
-            .label(format!("eps in use {eps:.0} m"))
-            .legend(move |(x, y)| {
-                PathElement::new(vec![(x, y), (x + px(16), y)], c.stroke_width(pt(1)))
-            });
-    }
-    chart
-        .configure_series_labels()
-        .margin(pt(10))
-        .legend_area_size(pt(30))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(180, 180, 180).stroke_width(pt(1)))
-        .label_font(("sans-serif", pf(12.0)))
-        .position(SeriesLabelPosition::UpperRight)
-        .draw()
-        .map_err(|e| draw_err(&e))?;
-    root.present().map_err(|e| draw_err(&e))?;
-    Ok(())
+    crate::plot::draw_k_distance_chart(&root, &d).map_err(|e| match e {
+        PlotError::Data(m) => js_error("bad_options", &m, None),
+        PlotError::Draw(m) => js_error("draw", &m, None),
+    })
 }

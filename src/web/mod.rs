@@ -35,35 +35,6 @@ fn ser() -> serde_wasm_bindgen::Serializer {
     serde_wasm_bindgen::Serializer::json_compatible()
 }
 
-/// Device pixels per CSS pixel for a chart drawn on a canvas with that
-/// many more pixels (1 to 4; 1 when absent): sizes of text, lines and
-/// margins are multiplied by it, so the chart looks the same, only sharper.
-#[derive(Debug, Clone, Copy)]
-pub(crate) struct PixelScale(f64);
-
-impl PixelScale {
-    pub(crate) fn new(scale: Option<f64>) -> PixelScale {
-        PixelScale(
-            scale
-                .filter(|v| v.is_finite())
-                .unwrap_or(1.0)
-                .clamp(1.0, 4.0),
-        )
-    }
-    /// A position or offset in pixels.
-    pub(crate) fn px(self, v: i32) -> i32 {
-        (v as f64 * self.0).round() as i32
-    }
-    /// A size or width in pixels.
-    pub(crate) fn pt(self, v: u32) -> u32 {
-        (v as f64 * self.0).round() as u32
-    }
-    /// A font size.
-    pub(crate) fn font(self, v: f64) -> f64 {
-        v * self.0
-    }
-}
-
 pub(crate) fn to_js<T: Serialize + ?Sized>(v: &T) -> Result<JsValue, JsValue> {
     v.serialize(&ser())
         .map_err(|e| js_error("internal", &e.to_string(), None))
