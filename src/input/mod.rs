@@ -20,6 +20,7 @@ pub mod geojson;
 pub mod layer;
 pub mod text;
 pub mod time;
+pub mod zones;
 
 use crate::error::InputError;
 use serde::{Deserialize, Serialize};

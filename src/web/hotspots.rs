@@ -14,12 +14,12 @@
 //! worker, see TOOLCHAIN.md).
 
 use super::{analysis_error, from_js, js_error, set, to_js, Session};
-use crate::clusters::kdist::kth_distances;
 use crate::clusters::{dbscan, k_distance_plot, DbscanOptions};
 use crate::intensity::{
     kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, GridOptions,
     IntensitySurface, Kernel, SurfaceOptions,
 };
+use crate::privacy::disclosure::{distances_to_kth, surface_disclosure, SurfaceDisclosure};
 use crate::scan::{ScanJob, ScanModel, ScanOptions};
 use crate::study::Study;
 use js_sys::{Float64Array, Int32Array, Object, Uint8Array};
@@ -29,12 +29,6 @@ use wasm_bindgen::prelude::*;
 const KEY_SURFACE: &str = "hotspots.surface";
 const KEY_KDIST5: &str = "hotspots.kdist_privacy";
 const KEY_SCAN: &str = "hotspots.scan";
-
-/// Fewer than this many events within two kernel SDs of an event and its
-/// bump on the surface mostly reflects that one event and a handful of
-/// others. Five is a common small-cell threshold in disclosure control
-/// (common practice \[CP\], no single source).
-const PRIVACY_K: usize = 5;
 
 /// Options for `intensitySurface`.
 #[derive(Debug, Deserialize)]
@@ -82,17 +76,6 @@ struct IsoplethOut<'a> {
 }
 
 #[derive(Serialize)]
-struct PrivacyOut {
-    /// Radius checked: two kernel SDs, metres.
-    radius_m: f64,
-    threshold: usize,
-    /// Events with fewer than `threshold` events (themselves included)
-    /// within `radius_m`.
-    exposed_events: usize,
-    warning: Option<String>,
-}
-
-#[derive(Serialize)]
 struct SurfaceMeta<'a> {
     x0: f64,
     y0: f64,
@@ -118,7 +101,7 @@ struct SurfaceMeta<'a> {
     area_km2: f64,
     notes: &'a [String],
     isopleths: Vec<IsoplethOut<'a>>,
-    privacy: Option<PrivacyOut>,
+    privacy: Option<SurfaceDisclosure>,
 }
 
 fn method_text(m: BandwidthMethod) -> &'static str {
@@ -133,18 +116,11 @@ fn method_text(m: BandwidthMethod) -> &'static str {
 }
 
 impl Session {
-    /// Distance from each event to its `PRIVACY_K`-th nearest (itself
-    /// counted), cached per study.
+    /// [`distances_to_kth`] of the study's events, cached per study.
     fn privacy_kdist(&mut self) -> Result<&Vec<f64>, JsValue> {
         if self.extra_mut::<Vec<f64>>(KEY_KDIST5).is_none() {
             let s = self.study_ref()?;
-            let n = s.events.len();
-            let d = if n >= PRIVACY_K {
-                kth_distances(s.events.x(), s.events.y(), PRIVACY_K)
-                    .map_err(|e| analysis_error(&e))?
-            } else {
-                vec![f64::INFINITY; n]
-            };
+            let d = distances_to_kth(s.events.x(), s.events.y()).map_err(|e| analysis_error(&e))?;
             self.extras.insert(KEY_KDIST5, Box::new(d));
         }
         self.extra_mut::<Vec<f64>>(KEY_KDIST5)
@@ -317,21 +293,7 @@ impl Session {
         let iso = surf.isopleths(&p.isopleths);
         let sd = surf.kernel.sd(surf.bandwidth_m);
         let privacy = if p.privacy_check {
-            let r = 2.0 * sd;
-            let exposed = self.privacy_kdist()?.iter().filter(|&&d| d > r).count();
-            Some(PrivacyOut {
-                radius_m: r,
-                threshold: PRIVACY_K,
-                exposed_events: exposed,
-                warning: (exposed > 0).then(|| {
-                    format!(
-                        "{exposed} event(s) have fewer than {PRIVACY_K} events (themselves \
-                         included) within {r:.0} m, twice the kernel's spread: their bumps on \
-                         this surface can point at single addresses. Use a wider bandwidth \
-                         before showing or sharing it."
-                    )
-                }),
-            })
+            Some(surface_disclosure(self.privacy_kdist()?, sd))
         } else {
             None
         };

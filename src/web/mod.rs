@@ -71,7 +71,7 @@ pub(crate) fn js_error(code: &str, message: &str, at: Option<(u64, Option<String
         .unwrap_or_else(|_| JsValue::from_str(message))
 }
 
-fn input_error(e: &InputError) -> JsValue {
+pub(crate) fn input_error(e: &InputError) -> JsValue {
     js_error(
         e.code(),
         &e.to_string(),
