@@ -154,6 +154,30 @@ pub struct Rejection {
     pub value: String,
 }
 
+/// How many rows were rejected for one reason.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ReasonCount {
+    pub reason: RejectReason,
+    pub reason_text: &'static str,
+    pub count: usize,
+}
+
+/// Rejections counted by reason, in order of first appearance.
+pub fn count_by_reason(rej: &[Rejection]) -> Vec<ReasonCount> {
+    let mut out: Vec<ReasonCount> = Vec::new();
+    for r in rej {
+        match out.iter_mut().find(|c| c.reason == r.reason) {
+            Some(c) => c.count += 1,
+            None => out.push(ReasonCount {
+                reason: r.reason.clone(),
+                reason_text: r.reason.describe(),
+                count: 1,
+            }),
+        }
+    }
+    out
+}
+
 /// The format a file was read as.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 #[serde(tag = "format", rename_all = "snake_case")]

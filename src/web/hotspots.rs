@@ -20,7 +20,7 @@ use crate::intensity::{
     IntensitySurface, Kernel, SurfaceOptions,
 };
 use crate::privacy::disclosure::{distances_to_kth, surface_disclosure, SurfaceDisclosure};
-use crate::scan::{ScanJob, ScanModel, ScanOptions};
+use crate::scan::{ScanJob, ScanModel, ScanOptions, ScanReport};
 use crate::study::Study;
 use js_sys::{Float64Array, Int32Array, Object, Uint8Array};
 use serde::{Deserialize, Serialize};
@@ -104,17 +104,6 @@ struct SurfaceMeta<'a> {
     privacy: Option<SurfaceDisclosure>,
 }
 
-fn method_text(m: BandwidthMethod) -> &'static str {
-    match m {
-        BandwidthMethod::NormalReference => "rule of thumb (normal reference, Scott / Silverman)",
-        BandwidthMethod::LikelihoodCv => "likelihood cross-validation (Loader 1999)",
-        BandwidthMethod::DiggleMse => {
-            "mean-square-error criterion (Diggle 1985; Berman & Diggle 1989)"
-        }
-        BandwidthMethod::Fixed => "fixed by you",
-    }
-}
-
 impl Session {
     /// [`distances_to_kth`] of the study's events, cached per study.
     fn privacy_kdist(&mut self) -> Result<&Vec<f64>, JsValue> {
@@ -187,45 +176,6 @@ impl Default for ScanParams {
             max_secondary: d.max_secondary,
         }
     }
-}
-
-#[derive(Serialize)]
-struct ScanClusterOut {
-    rank: usize,
-    centre_x: f64,
-    centre_y: f64,
-    centre_lon: Option<f64>,
-    centre_lat: Option<f64>,
-    radius_m: f64,
-    regions: usize,
-    observed: u64,
-    expected: f64,
-    relative_risk: f64,
-    population: f64,
-    llr: f64,
-    p_value: f64,
-}
-
-#[derive(Serialize)]
-struct ScanOut {
-    model: ScanModel,
-    model_text: &'static str,
-    centres: crate::scan::ScanCentres,
-    n_sim: usize,
-    seed: u64,
-    max_share: f64,
-    n_regions: usize,
-    n_windows: usize,
-    total_cases: u64,
-    total_population: f64,
-    statistic: f64,
-    p_value: f64,
-    smallest_p: f64,
-    critical_95: Option<f64>,
-    critical_99: Option<f64>,
-    cell_m: Option<f64>,
-    clusters: Vec<ScanClusterOut>,
-    null_maxima: Vec<f64>,
 }
 
 #[wasm_bindgen]
@@ -309,7 +259,7 @@ impl Session {
             bandwidth_m: surf.bandwidth_m,
             kernel_sd_m: sd,
             method: surf.bandwidth.method,
-            method_text: method_text(surf.bandwidth.method),
+            method_text: surf.bandwidth.method.describe(),
             reference_m: surf.bandwidth.reference_m,
             candidates_m: &surf.bandwidth.candidates_m,
             criterion: &surf.bandwidth.criterion,
@@ -525,52 +475,7 @@ impl Session {
             .take_extra::<ScanJob>(KEY_SCAN)
             .ok_or_else(|| js_error("nothing_started", "no scan is running", None))?;
         let r = job.finish();
-        let s = self.study_ref()?;
-        let clusters = r
-            .clusters
-            .iter()
-            .map(|c| {
-                let (lon, lat) = geographic_centre(s, c.centre_x, c.centre_y);
-                ScanClusterOut {
-                    rank: c.rank,
-                    centre_x: c.centre_x,
-                    centre_y: c.centre_y,
-                    centre_lon: lon,
-                    centre_lat: lat,
-                    radius_m: c.radius_m,
-                    regions: c.regions.len(),
-                    observed: c.observed,
-                    expected: c.expected,
-                    relative_risk: c.relative_risk,
-                    population: c.population,
-                    llr: c.llr,
-                    p_value: c.p_value,
-                }
-            })
-            .collect();
-        to_js(&ScanOut {
-            model: r.model,
-            model_text: match r.model {
-                ScanModel::Bernoulli => "cases against controls (Bernoulli)",
-                _ => "events against area (Poisson)",
-            },
-            centres: r.centres,
-            n_sim: r.n_sim,
-            seed: r.seed,
-            max_share: r.max_share,
-            n_regions: r.n_regions,
-            n_windows: r.n_windows,
-            total_cases: r.total_cases,
-            total_population: r.total_population,
-            statistic: r.statistic,
-            p_value: r.p_value,
-            smallest_p: 1.0 / (r.n_sim as f64 + 1.0),
-            critical_95: r.critical_95,
-            critical_99: r.critical_99,
-            cell_m: r.cell_m,
-            clusters,
-            null_maxima: r.null_maxima,
-        })
+        to_js(&ScanReport::new(r, &self.study_ref()?.projection))
     }
 }
 

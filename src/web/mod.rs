@@ -109,67 +109,12 @@ struct AreaOptions {
 }
 
 #[derive(Serialize)]
-struct ReasonCount {
-    reason: input::RejectReason,
-    reason_text: &'static str,
-    count: usize,
-}
-
-#[derive(Serialize)]
 struct RejectionRow<'a> {
     row: u64,
     column: Option<&'a str>,
     reason: &'a input::RejectReason,
     reason_text: &'static str,
     value: &'a str,
-}
-
-#[derive(Serialize)]
-struct StudyReport {
-    projection: crate::projection::Projection,
-    projection_text: String,
-    area_origin: crate::window::WindowOrigin,
-    area_km2: f64,
-    events: usize,
-    controls: Option<usize>,
-    coincident: crate::study::Coincidence,
-    warnings: Vec<String>,
-    events_rows_read: u64,
-    events_rejected: usize,
-    controls_rows_read: u64,
-    controls_rejected: usize,
-}
-
-fn study_report(s: &Study) -> StudyReport {
-    StudyReport {
-        projection: s.projection,
-        projection_text: s.projection.describe(),
-        area_origin: s.window.origin(),
-        area_km2: s.window.area() / 1e6,
-        events: s.events.len(),
-        controls: s.controls.as_ref().map(|c| c.len()),
-        coincident: s.coincident,
-        warnings: s.warnings.clone(),
-        events_rows_read: s.events_rows_read,
-        events_rejected: s.event_rejections.len(),
-        controls_rows_read: s.controls_rows_read,
-        controls_rejected: s.control_rejections.len(),
-    }
-}
-
-fn by_reason(rej: &[Rejection]) -> Vec<ReasonCount> {
-    let mut out: Vec<ReasonCount> = Vec::new();
-    for r in rej {
-        match out.iter_mut().find(|c| c.reason == r.reason) {
-            Some(c) => c.count += 1,
-            None => out.push(ReasonCount {
-                reason: r.reason.clone(),
-                reason_text: r.reason.describe(),
-                count: 1,
-            }),
-        }
-    }
-    out
 }
 
 #[derive(Serialize)]
@@ -188,10 +133,10 @@ struct LoadReport<'a> {
     rows_read: u64,
     accepted: usize,
     rejected: usize,
-    by_reason: Vec<ReasonCount>,
+    by_reason: Vec<input::ReasonCount>,
     categories: &'a [String],
     time_has_clock: bool,
-    study: Option<StudyReport>,
+    study: Option<crate::study::StudyReport>,
     study_error: Option<ErrorSummary>,
 }
 
@@ -292,7 +237,7 @@ impl Session {
                 let _ = set(obj, "rejections", &v);
             }
             let _ = set(obj, "rows_read", &JsValue::from_f64(layer.rows_read as f64));
-            if let Ok(v) = to_js(&by_reason(&layer.rejections)) {
+            if let Ok(v) = to_js(&input::count_by_reason(&layer.rejections)) {
                 let _ = set(obj, "by_reason", &v);
             }
         }
@@ -324,10 +269,10 @@ impl Session {
             rows_read,
             accepted,
             rejected,
-            by_reason: by_reason(rejections),
+            by_reason: input::count_by_reason(rejections),
             categories: &layer.category_names,
             time_has_clock: layer.time_has_clock,
-            study: self.study.as_ref().map(study_report),
+            study: self.study.as_ref().map(Study::report),
             study_error: None,
         };
         to_js(&rep)
@@ -479,7 +424,7 @@ impl Session {
 
     fn study_js(&self) -> Result<JsValue, JsValue> {
         match &self.study {
-            Some(s) => to_js(&study_report(s)),
+            Some(s) => to_js(&s.report()),
             None => Ok(JsValue::NULL),
         }
     }
