@@ -12,6 +12,7 @@
 //! * [`columns`]: header-name detection of x/y, lon/lat, time, category, weight.
 //! * [`time`]: ISO 8601 and day/month/year parsing to days since 1970-01-01.
 //! * [`geojson`]: FeatureCollection of points, and polygon study areas.
+//! * [`zones`]: zones for counting per area (GeoJSON polygons with names and populations).
 //! * [`layer`]: builds a [`RawLayer`] from a table, row by row.
 
 pub mod columns;
