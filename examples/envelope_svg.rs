@@ -1,7 +1,7 @@
 //! Writes an example envelope chart to an SVG file (for eyeballing the
 //! chart): `cargo run --example envelope_svg -- out.svg`.
 use cloister::distance::{simulate_thomas, EnvelopeJob, EnvelopeParams, ThomasParams};
-use cloister::plot::envelope_chart;
+use cloister::plot::{draw_envelope_chart, EnvelopeChartData, EnvelopeChartOptions};
 use cloister::window::Window;
 use plotters::prelude::*;
 
@@ -31,7 +31,12 @@ fn main() {
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (720, 440)).into_drawing_area();
-        envelope_chart(&root, &res).expect("chart");
+        draw_envelope_chart(
+            &root,
+            &EnvelopeChartData::from_result(&res),
+            &EnvelopeChartOptions::default(),
+        )
+        .expect("chart");
     }
     std::fs::write(&out, svg).expect("write");
 }

@@ -44,6 +44,9 @@ pub enum InputErrorKind {
     Mismatch { detail: String },
     /// Every row was rejected.
     NoValidRows { rows_read: u64 },
+    /// An option names something the file does not have (e.g. a zone's
+    /// population property that holds no number).
+    BadOptions { detail: String },
 }
 
 /// A file-level input error: a kind, and where it happened if that is known.
@@ -78,6 +81,7 @@ impl InputError {
             InputErrorKind::BadPolygon { .. } => "bad_polygon",
             InputErrorKind::Mismatch { .. } => "mismatch",
             InputErrorKind::NoValidRows { .. } => "no_valid_rows",
+            InputErrorKind::BadOptions { .. } => "bad_options",
         }
     }
 }
@@ -110,7 +114,9 @@ impl fmt::Display for InputError {
             InputErrorKind::BadJson { detail } => write!(f, "not valid JSON: {detail}"),
             InputErrorKind::BadGeoJson { detail } => write!(f, "not usable GeoJSON: {detail}"),
             InputErrorKind::BadPolygon { detail } => write!(f, "unusable study area: {detail}"),
-            InputErrorKind::Mismatch { detail } => write!(f, "{detail}"),
+            InputErrorKind::Mismatch { detail } | InputErrorKind::BadOptions { detail } => {
+                write!(f, "{detail}")
+            }
             InputErrorKind::NoValidRows { rows_read } => {
                 write!(
                     f,

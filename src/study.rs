@@ -463,6 +463,43 @@ impl Study {
     }
 }
 
+/// What the page shows about a study: projection, area, counts, warnings.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StudyReport {
+    pub projection: Projection,
+    pub projection_text: String,
+    pub area_origin: WindowOrigin,
+    pub area_km2: f64,
+    pub events: usize,
+    pub controls: Option<usize>,
+    pub coincident: Coincidence,
+    pub warnings: Vec<String>,
+    pub events_rows_read: u64,
+    pub events_rejected: usize,
+    pub controls_rows_read: u64,
+    pub controls_rejected: usize,
+}
+
+impl Study {
+    /// The study's [`StudyReport`].
+    pub fn report(&self) -> StudyReport {
+        StudyReport {
+            projection: self.projection,
+            projection_text: self.projection.describe(),
+            area_origin: self.window.origin(),
+            area_km2: self.window.area() / 1e6,
+            events: self.events.len(),
+            controls: self.controls.as_ref().map(|c| c.len()),
+            coincident: self.coincident,
+            warnings: self.warnings.clone(),
+            events_rows_read: self.events_rows_read,
+            events_rejected: self.event_rejections.len(),
+            controls_rows_read: self.controls_rows_read,
+            controls_rejected: self.control_rejections.len(),
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -49,13 +49,13 @@ use std::fmt;
 /// Column name used in rejections about a feature's geometry.
 pub const GEOMETRY_COLUMN: &str = "geometry";
 
-fn bad_geojson(detail: impl Into<String>) -> InputError {
+pub(super) fn bad_geojson(detail: impl Into<String>) -> InputError {
     InputError::new(InputErrorKind::BadGeoJson {
         detail: detail.into(),
     })
 }
 
-fn parse_json(text: &str) -> Result<Json, InputError> {
+pub(super) fn parse_json(text: &str) -> Result<Json, InputError> {
     serde_json::from_str(text).map_err(|e| {
         InputError::new(InputErrorKind::BadJson {
             detail: e.to_string(),
@@ -223,7 +223,7 @@ fn json_kind(v: &Json) -> &'static str {
 }
 
 /// The root object and its `type`.
-fn root_type(root: &Json) -> Result<(&Obj, &str), InputError> {
+pub(super) fn root_type(root: &Json) -> Result<(&Obj, &str), InputError> {
     let obj = root.as_object().ok_or_else(|| {
         bad_geojson(format!(
             "expected a GeoJSON object (FeatureCollection, Feature or geometry), found {}",
@@ -237,14 +237,14 @@ fn root_type(root: &Json) -> Result<(&Obj, &str), InputError> {
     Ok((obj, t))
 }
 
-fn features_of(obj: &Obj) -> Result<&Vec<Json>, InputError> {
+pub(super) fn features_of(obj: &Obj) -> Result<&Vec<Json>, InputError> {
     obj.get("features")
         .and_then(Json::as_array)
         .ok_or_else(|| bad_geojson("a FeatureCollection needs a \"features\" array"))
 }
 
 /// True for the GeoJSON geometry type names.
-fn is_geometry_type(t: &str) -> bool {
+pub(super) fn is_geometry_type(t: &str) -> bool {
     matches!(
         t,
         "Point"
@@ -521,7 +521,10 @@ fn polygon(coords: &Json) -> Result<Vec<Vec<[f64; 2]>>, InputError> {
 }
 
 /// Adds the polygons of one geometry to `out`; null geometries add nothing.
-fn collect_polygons(g: &Json, out: &mut Vec<Vec<Vec<[f64; 2]>>>) -> Result<(), InputError> {
+pub(super) fn collect_polygons(
+    g: &Json,
+    out: &mut Vec<Vec<Vec<[f64; 2]>>>,
+) -> Result<(), InputError> {
     if g.is_null() {
         return Ok(());
     }

@@ -12,6 +12,7 @@
 //! * [`columns`]: header-name detection of x/y, lon/lat, time, category, weight.
 //! * [`time`]: ISO 8601 and day/month/year parsing to days since 1970-01-01.
 //! * [`geojson`]: FeatureCollection of points, and polygon study areas.
+//! * [`zones`]: zones for counting per area (GeoJSON polygons with names and populations).
 //! * [`layer`]: builds a [`RawLayer`] from a table, row by row.
 
 pub mod columns;
@@ -20,6 +21,7 @@ pub mod geojson;
 pub mod layer;
 pub mod text;
 pub mod time;
+pub mod zones;
 
 use crate::error::InputError;
 use serde::{Deserialize, Serialize};
@@ -151,6 +153,30 @@ pub struct Rejection {
     pub reason: RejectReason,
     /// The offending text, cut to at most 60 characters.
     pub value: String,
+}
+
+/// How many rows were rejected for one reason.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ReasonCount {
+    pub reason: RejectReason,
+    pub reason_text: &'static str,
+    pub count: usize,
+}
+
+/// Rejections counted by reason, in order of first appearance.
+pub fn count_by_reason(rej: &[Rejection]) -> Vec<ReasonCount> {
+    let mut out: Vec<ReasonCount> = Vec::new();
+    for r in rej {
+        match out.iter_mut().find(|c| c.reason == r.reason) {
+            Some(c) => c.count += 1,
+            None => out.push(ReasonCount {
+                reason: r.reason.clone(),
+                reason_text: r.reason.describe(),
+                count: 1,
+            }),
+        }
+    }
+    out
 }
 
 /// The format a file was read as.

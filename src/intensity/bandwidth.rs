@@ -65,6 +65,22 @@ pub enum BandwidthMethod {
     Fixed,
 }
 
+impl BandwidthMethod {
+    /// Plain words for the page, with the method's source.
+    pub fn describe(self) -> &'static str {
+        match self {
+            BandwidthMethod::NormalReference => {
+                "rule of thumb (normal reference, Scott / Silverman)"
+            }
+            BandwidthMethod::LikelihoodCv => "likelihood cross-validation (Loader 1999)",
+            BandwidthMethod::DiggleMse => {
+                "mean-square-error criterion (Diggle 1985; Berman & Diggle 1989)"
+            }
+            BandwidthMethod::Fixed => "fixed by you",
+        }
+    }
+}
+
 /// Options for choosing the bandwidth.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(default)]

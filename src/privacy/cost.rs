@@ -17,16 +17,18 @@
 //!   (Silverman/Scott normal reference in 2-D, single isotropic h: METHODS §7
 //!   \[CP\]).
 //!
-//! # Extension point: K/L curves
-//! [`MaskingCost::l_curves`] is empty here. When the distance module lands,
-//! compute L(r) − r with its edge correction on both patterns at the same r
-//! and pass them to [`MaskingCost::attach_l_curves`]; the page then draws the
-//! pair. (Masking by distances up to r_max attenuates clustering at scales up
-//! to about 2·r_max: METHODS §11.)
+//! # K/L curves
+//! [`compare`] leaves [`MaskingCost::l_curves`] empty; [`MaskingCost::add_l_curves`]
+//! fills it with L(r) − r of both patterns (Besag's L with Ripley's isotropic
+//! correction, [`crate::distance::functions`]) on one r grid, the original's,
+//! so the page can draw the pair. (Masking by distances up to r_max
+//! attenuates clustering at scales up to about 2·r_max: METHODS §11.)
 
 use super::bad;
+use crate::distance::functions::{distance_functions, DistanceFunctions, FunctionParams};
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
+use crate::study::Pattern;
 use crate::window::Window;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
@@ -99,6 +101,39 @@ pub struct MaskingCost {
 }
 
 impl MaskingCost {
+    /// Computes L(r) − r of `original` and of the masked points on the
+    /// original's default r grid (isotropic correction) and attaches them.
+    /// Leaves `l_curves` empty when either pattern cannot be analysed (too
+    /// few points, no masked points), as the cost table is still useful.
+    pub fn add_l_curves(
+        &mut self,
+        original: &Pattern,
+        masked_x: &[f64],
+        masked_y: &[f64],
+        window: &Window,
+    ) {
+        let Some(masked) = Pattern::from_xy(masked_x.to_vec(), masked_y.to_vec()) else {
+            return;
+        };
+        let fp = FunctionParams::default();
+        let Ok(o) = distance_functions(original, window, &fp) else {
+            return;
+        };
+        let fp2 = FunctionParams {
+            r_max: Some(o.r_max),
+            ..fp
+        };
+        let Ok(k) = distance_functions(&masked, window, &fp2) else {
+            return;
+        };
+        let lr = |d: &DistanceFunctions| -> Vec<f64> {
+            d.l.iter().zip(&d.r).map(|(l, r)| l - r).collect()
+        };
+        if k.r.len() == o.r.len() {
+            let _ = self.attach_l_curves(o.r.clone(), lr(&o), lr(&k));
+        }
+    }
+
     /// Attaches L(r) − r of both patterns computed elsewhere at the same `r_m`.
     pub fn attach_l_curves(
         &mut self,
@@ -286,6 +321,49 @@ fn surface_shift(
 mod tests {
     use super::*;
     use crate::window::Window;
+
+    #[test]
+    fn l_curves_of_both_patterns_on_one_grid() {
+        use crate::distance::{simulate_thomas, ThomasParams};
+        let w = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+        let p = simulate_thomas(
+            &w,
+            ThomasParams {
+                kappa: 20.0 / 1e6,
+                mu: 10.0,
+                sigma: 25.0,
+            },
+            3,
+        )
+        .unwrap();
+        let area = w.clone();
+        let mut same = compare(p.x(), p.y(), p.x(), p.y(), &area, &CostParams::default()).unwrap();
+        assert!(same.l_curves.is_none());
+        same.add_l_curves(&p, p.x(), p.y(), &w);
+        let c = same.l_curves.as_ref().unwrap();
+        assert_eq!(c.r_m.len(), c.original.len());
+        assert!(c.r_m.len() > 10);
+        assert_eq!(c.max_abs_difference_m, 0.0);
+        // A regular lattice instead of the clusters: L(r) − r drops.
+        let (mut gx, mut gy) = (vec![], vec![]);
+        for i in 0..15 {
+            for j in 0..15 {
+                gx.push(33.0 + 66.0 * i as f64);
+                gy.push(33.0 + 66.0 * j as f64);
+            }
+        }
+        let mut c2 = compare(p.x(), p.y(), &gx, &gy, &area, &CostParams::default()).unwrap();
+        c2.add_l_curves(&p, &gx, &gy, &w);
+        let c2 = c2.l_curves.unwrap();
+        assert_eq!(c2.r_m, c.r_m, "the original's r grid");
+        let peak = |v: &[f64]| v.iter().cloned().fold(f64::MIN, f64::max);
+        assert!(peak(&c2.original) > peak(&c2.masked) + 10.0);
+        assert!(c2.max_abs_difference_m > 10.0);
+        // No masked points: no curves, no error.
+        let mut c3 = compare(p.x(), p.y(), &gx, &gy, &area, &CostParams::default()).unwrap();
+        c3.add_l_curves(&p, &[], &[], &w);
+        assert!(c3.l_curves.is_none());
+    }
 
     #[test]
     fn square_lattice_clark_evans_is_two() {

@@ -21,6 +21,11 @@
 //! * [`cost`]: the same summaries on the original and the masked points, side by
 //!   side (nearest-neighbour distances, Clark–Evans R, centre, spread, how far
 //!   the intensity surface moves).
+//! * [`disclosure`]: whether a kernel surface's bandwidth exposes isolated events.
+//! * [`shared`]: what the sharing tools keep (one masked copy, one table) and
+//!   their summaries; counting a study's events per cell or zone.
+//! * [`report`]: the self-contained HTML report, what it may hold, and the
+//!   cautions.
 //! * [`export`]: CSV and GeoJSON writers with a metadata header, and
 //!   [`export::what_leaves`], a preview of exactly what a file will contain.
 //!
@@ -46,9 +51,12 @@
 
 pub mod aggregate;
 pub mod cost;
+pub mod disclosure;
 pub mod donut;
 pub mod export;
 pub mod kanon;
+pub mod report;
+pub mod shared;
 pub mod suppress;
 
 pub use aggregate::{AggregateParams, Aggregation, CellShape, HexOrientation};

@@ -85,6 +85,16 @@ pub enum ScanModel {
     Poisson,
 }
 
+impl ScanModel {
+    /// Plain words for the model a scan ran (`Auto` resolves before a run).
+    pub fn describe(self) -> &'static str {
+        match self {
+            ScanModel::Bernoulli => "cases against controls (Bernoulli)",
+            _ => "events against area (Poisson)",
+        }
+    }
+}
+
 /// Where windows are centred (see the module docs).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]

@@ -5,8 +5,10 @@
 //! page can show progress and cancel.
 
 pub mod kulldorff;
+pub mod report;
 
 pub use kulldorff::{
     llr_bernoulli, llr_poisson, ScanCentres, ScanCluster, ScanJob, ScanModel, ScanOptions,
     ScanRegions, ScanResult,
 };
+pub use report::{ScanClusterReport, ScanReport};

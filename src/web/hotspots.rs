@@ -14,13 +14,13 @@
 //! worker, see TOOLCHAIN.md).
 
 use super::{analysis_error, from_js, js_error, set, to_js, Session};
-use crate::clusters::kdist::kth_distances;
 use crate::clusters::{dbscan, k_distance_plot, DbscanOptions};
 use crate::intensity::{
     kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, GridOptions,
     IntensitySurface, Kernel, SurfaceOptions,
 };
-use crate::scan::{ScanJob, ScanModel, ScanOptions};
+use crate::privacy::disclosure::{distances_to_kth, surface_disclosure, SurfaceDisclosure};
+use crate::scan::{ScanJob, ScanModel, ScanOptions, ScanReport};
 use crate::study::Study;
 use js_sys::{Float64Array, Int32Array, Object, Uint8Array};
 use serde::{Deserialize, Serialize};
@@ -29,12 +29,6 @@ use wasm_bindgen::prelude::*;
 const KEY_SURFACE: &str = "hotspots.surface";
 const KEY_KDIST5: &str = "hotspots.kdist_privacy";
 const KEY_SCAN: &str = "hotspots.scan";
-
-/// Fewer than this many events within two kernel SDs of an event and its
-/// bump on the surface mostly reflects that one event and a handful of
-/// others. Five is a common small-cell threshold in disclosure control
-/// (common practice \[CP\], no single source).
-const PRIVACY_K: usize = 5;
 
 /// Options for `intensitySurface`.
 #[derive(Debug, Deserialize)]
@@ -82,17 +76,6 @@ struct IsoplethOut<'a> {
 }
 
 #[derive(Serialize)]
-struct PrivacyOut {
-    /// Radius checked: two kernel SDs, metres.
-    radius_m: f64,
-    threshold: usize,
-    /// Events with fewer than `threshold` events (themselves included)
-    /// within `radius_m`.
-    exposed_events: usize,
-    warning: Option<String>,
-}
-
-#[derive(Serialize)]
 struct SurfaceMeta<'a> {
     x0: f64,
     y0: f64,
@@ -118,33 +101,15 @@ struct SurfaceMeta<'a> {
     area_km2: f64,
     notes: &'a [String],
     isopleths: Vec<IsoplethOut<'a>>,
-    privacy: Option<PrivacyOut>,
-}
-
-fn method_text(m: BandwidthMethod) -> &'static str {
-    match m {
-        BandwidthMethod::NormalReference => "rule of thumb (normal reference, Scott / Silverman)",
-        BandwidthMethod::LikelihoodCv => "likelihood cross-validation (Loader 1999)",
-        BandwidthMethod::DiggleMse => {
-            "mean-square-error criterion (Diggle 1985; Berman & Diggle 1989)"
-        }
-        BandwidthMethod::Fixed => "fixed by you",
-    }
+    privacy: Option<SurfaceDisclosure>,
 }
 
 impl Session {
-    /// Distance from each event to its `PRIVACY_K`-th nearest (itself
-    /// counted), cached per study.
+    /// [`distances_to_kth`] of the study's events, cached per study.
     fn privacy_kdist(&mut self) -> Result<&Vec<f64>, JsValue> {
         if self.extra_mut::<Vec<f64>>(KEY_KDIST5).is_none() {
             let s = self.study_ref()?;
-            let n = s.events.len();
-            let d = if n >= PRIVACY_K {
-                kth_distances(s.events.x(), s.events.y(), PRIVACY_K)
-                    .map_err(|e| analysis_error(&e))?
-            } else {
-                vec![f64::INFINITY; n]
-            };
+            let d = distances_to_kth(s.events.x(), s.events.y()).map_err(|e| analysis_error(&e))?;
             self.extras.insert(KEY_KDIST5, Box::new(d));
         }
         self.extra_mut::<Vec<f64>>(KEY_KDIST5)
@@ -213,45 +178,6 @@ impl Default for ScanParams {
     }
 }
 
-#[derive(Serialize)]
-struct ScanClusterOut {
-    rank: usize,
-    centre_x: f64,
-    centre_y: f64,
-    centre_lon: Option<f64>,
-    centre_lat: Option<f64>,
-    radius_m: f64,
-    regions: usize,
-    observed: u64,
-    expected: f64,
-    relative_risk: f64,
-    population: f64,
-    llr: f64,
-    p_value: f64,
-}
-
-#[derive(Serialize)]
-struct ScanOut {
-    model: ScanModel,
-    model_text: &'static str,
-    centres: crate::scan::ScanCentres,
-    n_sim: usize,
-    seed: u64,
-    max_share: f64,
-    n_regions: usize,
-    n_windows: usize,
-    total_cases: u64,
-    total_population: f64,
-    statistic: f64,
-    p_value: f64,
-    smallest_p: f64,
-    critical_95: Option<f64>,
-    critical_99: Option<f64>,
-    cell_m: Option<f64>,
-    clusters: Vec<ScanClusterOut>,
-    null_maxima: Vec<f64>,
-}
-
 #[wasm_bindgen]
 impl Session {
     /// What the hotspot panel needs to know about the loaded data:
@@ -317,21 +243,7 @@ impl Session {
         let iso = surf.isopleths(&p.isopleths);
         let sd = surf.kernel.sd(surf.bandwidth_m);
         let privacy = if p.privacy_check {
-            let r = 2.0 * sd;
-            let exposed = self.privacy_kdist()?.iter().filter(|&&d| d > r).count();
-            Some(PrivacyOut {
-                radius_m: r,
-                threshold: PRIVACY_K,
-                exposed_events: exposed,
-                warning: (exposed > 0).then(|| {
-                    format!(
-                        "{exposed} event(s) have fewer than {PRIVACY_K} events (themselves \
-                         included) within {r:.0} m, twice the kernel's spread: their bumps on \
-                         this surface can point at single addresses. Use a wider bandwidth \
-                         before showing or sharing it."
-                    )
-                }),
-            })
+            Some(surface_disclosure(self.privacy_kdist()?, sd))
         } else {
             None
         };
@@ -347,7 +259,7 @@ impl Session {
             bandwidth_m: surf.bandwidth_m,
             kernel_sd_m: sd,
             method: surf.bandwidth.method,
-            method_text: method_text(surf.bandwidth.method),
+            method_text: surf.bandwidth.method.describe(),
             reference_m: surf.bandwidth.reference_m,
             candidates_m: &surf.bandwidth.candidates_m,
             criterion: &surf.bandwidth.criterion,
@@ -563,175 +475,32 @@ impl Session {
             .take_extra::<ScanJob>(KEY_SCAN)
             .ok_or_else(|| js_error("nothing_started", "no scan is running", None))?;
         let r = job.finish();
-        let s = self.study_ref()?;
-        let clusters = r
-            .clusters
-            .iter()
-            .map(|c| {
-                let (lon, lat) = geographic_centre(s, c.centre_x, c.centre_y);
-                ScanClusterOut {
-                    rank: c.rank,
-                    centre_x: c.centre_x,
-                    centre_y: c.centre_y,
-                    centre_lon: lon,
-                    centre_lat: lat,
-                    radius_m: c.radius_m,
-                    regions: c.regions.len(),
-                    observed: c.observed,
-                    expected: c.expected,
-                    relative_risk: c.relative_risk,
-                    population: c.population,
-                    llr: c.llr,
-                    p_value: c.p_value,
-                }
-            })
-            .collect();
-        to_js(&ScanOut {
-            model: r.model,
-            model_text: match r.model {
-                ScanModel::Bernoulli => "cases against controls (Bernoulli)",
-                _ => "events against area (Poisson)",
-            },
-            centres: r.centres,
-            n_sim: r.n_sim,
-            seed: r.seed,
-            max_share: r.max_share,
-            n_regions: r.n_regions,
-            n_windows: r.n_windows,
-            total_cases: r.total_cases,
-            total_population: r.total_population,
-            statistic: r.statistic,
-            p_value: r.p_value,
-            smallest_p: 1.0 / (r.n_sim as f64 + 1.0),
-            critical_95: r.critical_95,
-            critical_99: r.critical_99,
-            cell_m: r.cell_m,
-            clusters,
-            null_maxima: r.null_maxima,
-        })
+        to_js(&ScanReport::new(r, &self.study_ref()?.projection))
     }
-}
-
-/// Data for [`draw_k_distance_chart`].
-#[derive(Debug, Default, Deserialize)]
-#[serde(default)]
-struct KDistChartData {
-    min_samples: usize,
-    /// Largest first, metres.
-    sorted_desc_m: Vec<f64>,
-    knee_index: Option<usize>,
-    knee_eps_m: Option<f64>,
-    /// The eps currently chosen, metres (drawn as a line).
-    eps_m: Option<f64>,
-    /// Device pixels per CSS pixel ([`super::PixelScale`]).
-    scale: Option<f64>,
 }
 
 /// Draws the sorted k-distance curve on the canvas with id `canvas_id`
-/// (main thread only). `data` is `kDistance`'s answer plus an optional
-/// `eps_m`. Throws when the canvas is missing or the data are empty.
+/// (main thread only) with [`crate::plot::kdistance`]. `data` is
+/// `kDistance`'s answer plus an optional `eps_m` and `scale`. Throws when the
+/// canvas is missing or the data are empty.
 #[wasm_bindgen(js_name = drawKDistanceChart)]
 pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsValue> {
-    use plotters::prelude::*;
-    use plotters_canvas::CanvasBackend;
-    let d: KDistChartData = from_js(data)?;
-    let n = d.sorted_desc_m.len();
-    if n == 0 {
+    use crate::plot::{KDistanceChartData, PlotError};
+    use plotters::prelude::IntoDrawingArea;
+    let d: KDistanceChartData = from_js(data)?;
+    if d.sorted_desc_m.is_empty() {
         return Err(js_error("bad_options", "no k-distances to draw", None));
     }
-    let backend = CanvasBackend::new(canvas_id).ok_or_else(|| {
+    let backend = plotters_canvas::CanvasBackend::new(canvas_id).ok_or_else(|| {
         js_error(
             "no_canvas",
             &format!("no canvas with id \"{canvas_id}\" on the page"),
             None,
         )
     })?;
-    let draw_err = |e: &dyn std::fmt::Display| js_error("draw", &e.to_string(), None);
     let root = backend.into_drawing_area();
-    root.fill(&WHITE).map_err(|e| draw_err(&e))?;
-    let ymax = d
-        .sorted_desc_m
-        .iter()
-        .copied()
-        .filter(|v| v.is_finite())
-        .fold(0.0f64, f64::max)
-        .max(d.eps_m.unwrap_or(0.0))
-        * 1.05;
-    let ymax = if ymax > 0.0 { ymax } else { 1.0 };
-    let sc = super::PixelScale::new(d.scale);
-    let (px, pt, pf) = (|v| sc.px(v), |v| sc.pt(v), |v| sc.font(v));
-    let mut chart = ChartBuilder::on(&root)
-        .margin(pt(8))
-        .x_label_area_size(pt(38))
-        .y_label_area_size(pt(56))
-        .build_cartesian_2d(0f64..(n as f64), 0f64..ymax)
-        .map_err(|e| draw_err(&e))?;
-    let nth = if d.min_samples > 1 {
-        format!("distance to {}th nearest event (m)", d.min_samples - 1)
-    } else {
-        "distance (m)".to_string()
-    };
-    chart
-        .configure_mesh()
-        .bold_line_style(RGBColor(0, 0, 0).mix(0.2).stroke_width(pt(1)))
-        .light_line_style(RGBColor(236, 238, 234).stroke_width(pt(1)))
-        .axis_style(RGBColor(0, 0, 0).stroke_width(pt(1)))
-        .set_all_tick_mark_size(pt(5))
-        .x_desc("events, sorted from the most isolated")
-        .y_desc(nth)
-        .x_label_formatter(&|v| format!("{v:.0}"))
-        .y_label_formatter(&|v| format!("{v:.0}"))
-        .label_style(("sans-serif", pf(12.0)))
-        .axis_desc_style(("sans-serif", pf(13.0)))
-        .draw()
-        .map_err(|e| draw_err(&e))?;
-    // At most ~2 000 vertices: the curve is monotone, so a stride keeps its shape.
-    let stride = (n / 2000).max(1);
-    let line = RGBColor(30, 72, 110);
-    chart
-        .draw_series(LineSeries::new(
-            (0..n)
-                .step_by(stride)
-                .chain(std::iter::once(n - 1))
-                .filter_map(|i| d.sorted_desc_m.get(i).map(|&v| (i as f64, v))),
-            line.stroke_width(pt(2)),
-        ))
-        .map_err(|e| draw_err(&e))?;
-    if let (Some(i), Some(v)) = (d.knee_index, d.knee_eps_m) {
-        let knee = RGBColor(176, 74, 20);
-        chart
-            .draw_series(std::iter::once(Circle::new(
-                (i as f64, v),
-                pt(6),
-                knee.stroke_width(pt(2)),
-            )))
-            .map_err(|e| draw_err(&e))?
-            .label(format!("suggested eps {v:.0} m"))
-            .legend(move |(x, y)| Circle::new((x + px(8), y), pt(5), knee.stroke_width(pt(2))));
-    }
-    if let Some(eps) = d.eps_m.filter(|v| v.is_finite() && *v > 0.0) {
-        let c = RGBColor(90, 90, 90);
-        chart
-            .draw_series(std::iter::once(PathElement::new(
-                vec![(0.0, eps), (n as f64, eps)],
-                c.stroke_width(pt(1)),
-            )))
-            .map_err(|e| draw_err(&e))?
-            .label(format!("eps in use {eps:.0} m"))
-            .legend(move |(x, y)| {
-                PathElement::new(vec![(x, y), (x + px(16), y)], c.stroke_width(pt(1)))
-            });
-    }
-    chart
-        .configure_series_labels()
-        .margin(pt(10))
-        .legend_area_size(pt(30))
-        .background_style(WHITE.mix(0.85))
-        .border_style(RGBColor(180, 180, 180).stroke_width(pt(1)))
-        .label_font(("sans-serif", pf(12.0)))
-        .position(SeriesLabelPosition::UpperRight)
-        .draw()
-        .map_err(|e| draw_err(&e))?;
-    root.present().map_err(|e| draw_err(&e))?;
-    Ok(())
+    crate::plot::draw_k_distance_chart(&root, &d).map_err(|e| match e {
+        PlotError::Data(m) => js_error("bad_options", &m, None),
+        PlotError::Draw(m) => js_error("draw", &m, None),
+    })
 }

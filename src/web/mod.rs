@@ -35,35 +35,6 @@ fn ser() -> serde_wasm_bindgen::Serializer {
     serde_wasm_bindgen::Serializer::json_compatible()
 }
 
-/// Device pixels per CSS pixel for a chart drawn on a canvas with that
-/// many more pixels (1 to 4; 1 when absent): sizes of text, lines and
-/// margins are multiplied by it, so the chart looks the same, only sharper.
-#[derive(Debug, Clone, Copy)]
-pub(crate) struct PixelScale(f64);
-
-impl PixelScale {
-    pub(crate) fn new(scale: Option<f64>) -> PixelScale {
-        PixelScale(
-            scale
-                .filter(|v| v.is_finite())
-                .unwrap_or(1.0)
-                .clamp(1.0, 4.0),
-        )
-    }
-    /// A position or offset in pixels.
-    pub(crate) fn px(self, v: i32) -> i32 {
-        (v as f64 * self.0).round() as i32
-    }
-    /// A size or width in pixels.
-    pub(crate) fn pt(self, v: u32) -> u32 {
-        (v as f64 * self.0).round() as u32
-    }
-    /// A font size.
-    pub(crate) fn font(self, v: f64) -> f64 {
-        v * self.0
-    }
-}
-
 pub(crate) fn to_js<T: Serialize + ?Sized>(v: &T) -> Result<JsValue, JsValue> {
     v.serialize(&ser())
         .map_err(|e| js_error("internal", &e.to_string(), None))
@@ -100,7 +71,7 @@ pub(crate) fn js_error(code: &str, message: &str, at: Option<(u64, Option<String
         .unwrap_or_else(|_| JsValue::from_str(message))
 }
 
-fn input_error(e: &InputError) -> JsValue {
+pub(crate) fn input_error(e: &InputError) -> JsValue {
     js_error(
         e.code(),
         &e.to_string(),
@@ -138,67 +109,12 @@ struct AreaOptions {
 }
 
 #[derive(Serialize)]
-struct ReasonCount {
-    reason: input::RejectReason,
-    reason_text: &'static str,
-    count: usize,
-}
-
-#[derive(Serialize)]
 struct RejectionRow<'a> {
     row: u64,
     column: Option<&'a str>,
     reason: &'a input::RejectReason,
     reason_text: &'static str,
     value: &'a str,
-}
-
-#[derive(Serialize)]
-struct StudyReport {
-    projection: crate::projection::Projection,
-    projection_text: String,
-    area_origin: crate::window::WindowOrigin,
-    area_km2: f64,
-    events: usize,
-    controls: Option<usize>,
-    coincident: crate::study::Coincidence,
-    warnings: Vec<String>,
-    events_rows_read: u64,
-    events_rejected: usize,
-    controls_rows_read: u64,
-    controls_rejected: usize,
-}
-
-fn study_report(s: &Study) -> StudyReport {
-    StudyReport {
-        projection: s.projection,
-        projection_text: s.projection.describe(),
-        area_origin: s.window.origin(),
-        area_km2: s.window.area() / 1e6,
-        events: s.events.len(),
-        controls: s.controls.as_ref().map(|c| c.len()),
-        coincident: s.coincident,
-        warnings: s.warnings.clone(),
-        events_rows_read: s.events_rows_read,
-        events_rejected: s.event_rejections.len(),
-        controls_rows_read: s.controls_rows_read,
-        controls_rejected: s.control_rejections.len(),
-    }
-}
-
-fn by_reason(rej: &[Rejection]) -> Vec<ReasonCount> {
-    let mut out: Vec<ReasonCount> = Vec::new();
-    for r in rej {
-        match out.iter_mut().find(|c| c.reason == r.reason) {
-            Some(c) => c.count += 1,
-            None => out.push(ReasonCount {
-                reason: r.reason.clone(),
-                reason_text: r.reason.describe(),
-                count: 1,
-            }),
-        }
-    }
-    out
 }
 
 #[derive(Serialize)]
@@ -217,10 +133,10 @@ struct LoadReport<'a> {
     rows_read: u64,
     accepted: usize,
     rejected: usize,
-    by_reason: Vec<ReasonCount>,
+    by_reason: Vec<input::ReasonCount>,
     categories: &'a [String],
     time_has_clock: bool,
-    study: Option<StudyReport>,
+    study: Option<crate::study::StudyReport>,
     study_error: Option<ErrorSummary>,
 }
 
@@ -321,7 +237,7 @@ impl Session {
                 let _ = set(obj, "rejections", &v);
             }
             let _ = set(obj, "rows_read", &JsValue::from_f64(layer.rows_read as f64));
-            if let Ok(v) = to_js(&by_reason(&layer.rejections)) {
+            if let Ok(v) = to_js(&input::count_by_reason(&layer.rejections)) {
                 let _ = set(obj, "by_reason", &v);
             }
         }
@@ -353,10 +269,10 @@ impl Session {
             rows_read,
             accepted,
             rejected,
-            by_reason: by_reason(rejections),
+            by_reason: input::count_by_reason(rejections),
             categories: &layer.category_names,
             time_has_clock: layer.time_has_clock,
-            study: self.study.as_ref().map(study_report),
+            study: self.study.as_ref().map(Study::report),
             study_error: None,
         };
         to_js(&rep)
@@ -508,7 +424,7 @@ impl Session {
 
     fn study_js(&self) -> Result<JsValue, JsValue> {
         match &self.study {
-            Some(s) => to_js(&study_report(s)),
+            Some(s) => to_js(&s.report()),
             None => Ok(JsValue::NULL),
         }
     }

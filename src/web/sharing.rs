@@ -39,75 +39,28 @@
 //!   of counts, and a map picture the page draws from masked / aggregated
 //!   layers only.
 
-use super::{analysis_error, from_js, js_error, to_js, Session};
-use crate::error::InputError;
-use crate::input::CoordKind;
-use crate::privacy::aggregate::{aggregate_grid, aggregate_zones, Layout, LineKind, Zone};
+use super::{analysis_error, from_js, input_error, js_error, to_js, Session};
+use crate::input::zones::{read_zones, ZoneOptions};
 use crate::privacy::cost::{compare, CostParams};
 use crate::privacy::export::{export, CoordinateOutput, ExportContent, ExportOptions};
-use crate::privacy::kanon::{kanon_mask, KAnonParams, KBasis, KSummary};
-use crate::privacy::suppress::{suppress, SuppressedTable, SuppressionParams};
-use crate::privacy::{
-    donut_mask, what_leaves, AggregateParams, CellShape, DistanceLaw, DonutParams, ExportFormat,
-    HexOrientation, MaskMethod, MaskedPoints, Spread, Unplaced,
+use crate::privacy::kanon::{kanon_mask, KAnonParams};
+use crate::privacy::report::{
+    report_file, ReportError, ReportFile, ReportHolds, ReportOptions, CAUTIONS,
 };
-use crate::projection::Projection;
+use crate::privacy::shared::{
+    aggregate_summary, count_in_cells, count_in_zones, mask_summary, zones_for_study, KInfo,
+    MaskState, SharingState, TableState,
+};
+use crate::privacy::suppress::{suppress, SuppressionParams};
+use crate::privacy::{
+    donut_mask, what_leaves, CellShape, DistanceLaw, DonutParams, ExportFormat, HexOrientation,
+};
 use crate::study::Study;
 use js_sys::{Float64Array, Object, Reflect, Uint32Array};
-use serde::{Deserialize, Serialize};
-use serde_json::Value;
+use serde::Deserialize;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "sharing";
-
-/// The Content-Security-Policy of the page, repeated in the report so that
-/// it, too, can fetch nothing.
-pub const REPORT_CSP: &str = "default-src 'none'; script-src 'unsafe-inline' 'wasm-unsafe-eval' blob:; worker-src blob:; style-src 'unsafe-inline'; img-src data: blob:; connect-src 'none'";
-
-/// Cautions written into the report and shown in the page.
-pub const CAUTIONS: [&str; 5] = [
-    "Dot maps can identify people: published maps of case locations have been turned back \
-     into home addresses, and lowering the map resolution did not prevent it (Brownstein, \
-     Cassa & Mandl 2006, N Engl J Med 355:1741–1742). Share only masked points or suppressed \
-     counts, never the original locations.",
-    "Masking changes the statistics: nearest-neighbour distances, clustering at distances up \
-     to about twice the largest shift, the intensity surface and any space-time closeness \
-     below that distance differ from those of the true locations (see the cost table).",
-    "Mask once: several independently masked copies of the same points can be averaged back \
-     towards the true locations (Cassa, Wieland & Mandl 2008, Int J Health Geogr 7:45). Keep \
-     this masked copy for every later release.",
-    "Local data-protection law, your organisation's disclosure-control policy and the data \
-     owner's rules prevail over any default in this tool; the threshold of 5 for small counts \
-     is common practice, not a rule from any single source.",
-    "Do not release masked points together with counts that have hidden cells for the same \
-     events: counting the masked points per area gives the hidden counts back, roughly. A \
-     report holds one or the other whenever counts are hidden.",
-];
-
-#[derive(Default)]
-struct SharingState {
-    mask: Option<MaskState>,
-    table: Option<TableState>,
-}
-
-struct MaskState {
-    masked: MaskedPoints,
-    k: Option<KInfo>,
-}
-
-struct KInfo {
-    basis: KBasis,
-    target_k: usize,
-    k: Vec<f64>,
-    summary: Option<KSummary>,
-    below_target: Vec<Unplaced>,
-}
-
-struct TableState {
-    table: SuppressedTable,
-    population_source: Option<&'static str>,
-    zone_names: Option<Vec<String>>,
-}
 
 // ---------- parameters ----------
 
@@ -231,123 +184,13 @@ struct ExportArgs {
     report_holds: Option<ReportHolds>,
 }
 
-/// What a report holds when both masked points and counts exist.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "snake_case")]
-enum ReportHolds {
-    MaskedPoints,
-    Counts,
-    Both,
-}
-
-/// The shared results one report is made from.
-struct ReportView<'a> {
-    mask: Option<&'a MaskState>,
-    table: Option<&'a TableState>,
-}
-
-/// Chooses what goes into the report. Masked points and counts with
-/// hidden cells never go together: counting the masked points per area
-/// would give the hidden counts back.
-fn report_view(st: &SharingState, holds: Option<ReportHolds>) -> Result<ReportView<'_>, JsValue> {
-    let (mask, table) = (st.mask.as_ref(), st.table.as_ref());
-    let hidden = table.is_some_and(|t| t.table.cells.iter().any(|c| c.suppressed));
-    let both = mask.is_some() && table.is_some();
-    let refuse = || {
-        js_error(
-            "choose_report_contents",
-            "the report would hold masked points and counts with hidden cells: counting the \
-             masked points per area would give the hidden counts back. Choose one: \
-             report_holds \"masked_points\" or \"counts\"",
-            None,
-        )
-    };
-    match holds {
-        None | Some(ReportHolds::Both) if both && hidden => Err(refuse()),
-        None | Some(ReportHolds::Both) => Ok(ReportView { mask, table }),
-        Some(ReportHolds::MaskedPoints) if mask.is_none() => Err(js_error(
-            "nothing_to_report",
-            "there are no masked points to report: mask the points first",
-            None,
-        )),
-        Some(ReportHolds::MaskedPoints) => Ok(ReportView { mask, table: None }),
-        Some(ReportHolds::Counts) if table.is_none() => Err(js_error(
-            "nothing_to_report",
-            "there are no counts to report: count the events per area first",
-            None,
-        )),
-        Some(ReportHolds::Counts) => Ok(ReportView { mask: None, table }),
-    }
-}
-
-// ---------- results ----------
-
-#[derive(Serialize)]
-struct UnplacedRow {
-    /// 0-based index into the study's events (the order of `mapLayers`).
-    index: usize,
-    /// Row of the events file (header = row 1).
-    row: Option<u64>,
-    reason: crate::privacy::UnplacedReason,
-    reason_text: String,
-}
-
-#[derive(Serialize)]
-struct MaskSummary<'a> {
-    method: &'static str,
-    settings: &'a MaskMethod,
-    n_input: usize,
-    n_masked: usize,
-    displacement: Option<Spread>,
-    unplaced: Vec<UnplacedRow>,
-    notes: &'a [String],
-    basis: Option<KBasis>,
-    target_k: Option<usize>,
-    k_summary: Option<KSummary>,
-    below_target: Vec<UnplacedRow>,
-    replaced: bool,
-    cautions: [&'static str; 5],
-}
-
-fn unplaced_rows(list: &[Unplaced], study: &Study) -> Vec<UnplacedRow> {
-    list.iter()
-        .map(|u| UnplacedRow {
-            index: u.index,
-            row: study.events.row().get(u.index).copied(),
-            reason: u.reason.clone(),
-            reason_text: u.reason.to_string(),
-        })
-        .collect()
-}
-
 fn set(obj: &Object, key: &str, value: &JsValue) -> Result<(), JsValue> {
     Reflect::set(obj, &JsValue::from_str(key), value).map(|_| ())
 }
 
 fn mask_js(st: &MaskState, study: &Study, replaced: bool) -> Result<JsValue, JsValue> {
     let m = &st.masked;
-    let sum = MaskSummary {
-        method: match m.method {
-            MaskMethod::Donut(_) => "donut",
-            MaskMethod::KAnonymity(_) => "k_anonymity",
-        },
-        settings: &m.method,
-        n_input: m.n_input,
-        n_masked: m.x.len(),
-        displacement: m.displacement,
-        unplaced: unplaced_rows(&m.unplaced, study),
-        notes: &m.notes,
-        basis: st.k.as_ref().map(|k| k.basis),
-        target_k: st.k.as_ref().map(|k| k.target_k),
-        k_summary: st.k.as_ref().and_then(|k| k.summary),
-        below_target: st
-            .k
-            .as_ref()
-            .map(|k| unplaced_rows(&k.below_target, study))
-            .unwrap_or_default(),
-        replaced,
-        cautions: CAUTIONS,
-    };
+    let sum = mask_summary(st, study, replaced);
     let v = to_js(&sum)?;
     let obj: Object = v
         .dyn_into()
@@ -413,675 +256,15 @@ fn created_or_now(c: Option<String>) -> String {
     }
 }
 
-fn study_kind(p: &Projection) -> CoordKind {
-    match *p {
-        Projection::TransverseMercator { .. } => CoordKind::LonLat,
-        Projection::Planar { unit } => CoordKind::Planar { unit },
-    }
-}
-
-fn input_err(e: &InputError) -> JsValue {
-    js_error(
-        e.code(),
-        &e.to_string(),
-        e.at.as_ref().map(|l| (l.row, l.column.clone())),
-    )
-}
-
-/// Reads a zones file: one zone per feature (Polygon / MultiPolygon), named
-/// by `name_prop` (or `name`, `zone`, `id`), projected with the study's map.
-fn read_zones(bytes: &[u8], study: &Study, args: &AggArgs) -> Result<Vec<Zone>, JsValue> {
-    let kind = study_kind(&study.projection);
-    // Whole file first: coordinate kind and a clear message for bad files.
-    let whole = crate::input::read_area(bytes, None).map_err(|e| input_err(&e))?;
-    let file_kind = match (whole.coords, kind) {
-        (CoordKind::Planar { .. }, CoordKind::Planar { unit }) => CoordKind::Planar { unit },
-        (CoordKind::LonLat, CoordKind::Planar { unit }) => CoordKind::Planar { unit },
-        (CoordKind::LonLat, CoordKind::LonLat) => CoordKind::LonLat,
-        (CoordKind::Planar { .. }, CoordKind::LonLat) => {
-            return Err(js_error(
-                "mismatch",
-                "the zones file has planar coordinates but the events are longitude/latitude; \
-                 both must use the same coordinates",
-                None,
-            ))
-        }
-    };
-    let root: Value = serde_json::from_slice(bytes)
-        .map_err(|e| js_error("bad_geojson", &format!("zones file: {e}"), None))?;
-    let features: Vec<Value> = match root.get("type").and_then(Value::as_str) {
-        Some("FeatureCollection") => root
-            .get("features")
-            .and_then(Value::as_array)
-            .cloned()
-            .unwrap_or_default(),
-        Some("Feature") => vec![root.clone()],
-        _ => {
-            vec![serde_json::json!({"type": "Feature", "geometry": root.clone(), "properties": {}})]
-        }
-    };
-    let prop_str = |props: Option<&Value>, key: &str| -> Option<String> {
-        props.and_then(|p| p.get(key)).and_then(|v| match v {
-            Value::String(s) if !s.trim().is_empty() => Some(s.trim().to_string()),
-            Value::Number(n) => Some(n.to_string()),
-            _ => None,
-        })
-    };
-    let mut zones = Vec::new();
-    for (i, f) in features.iter().enumerate() {
-        let props = f.get("properties");
-        let geom = f.get("geometry").cloned().unwrap_or(Value::Null);
-        if geom.is_null() {
-            continue;
-        }
-        let text = serde_json::to_vec(&geom)
-            .map_err(|e| js_error("bad_geojson", &format!("zones file: {e}"), None))?;
-        let area = crate::input::read_area(&text, Some(file_kind))
-            .map_err(|e| input_err(&e.at(i as u64 + 1, Some("geometry"))))?;
-        let polygons: Vec<Vec<Vec<[f64; 2]>>> = area
-            .polygons
-            .iter()
-            .map(|poly| {
-                poly.iter()
-                    .map(|ring| {
-                        ring.iter()
-                            .map(|p| {
-                                let (e, n) = study.projection.forward(p[0], p[1]);
-                                [e, n]
-                            })
-                            .collect()
-                    })
-                    .collect()
-            })
-            .collect();
-        let name = match &args.zone_name_property {
-            Some(k) => prop_str(props, k),
-            None => ["name", "NAME", "Name", "zone", "id"]
-                .iter()
-                .find_map(|k| prop_str(props, k)),
-        }
-        .unwrap_or_else(|| format!("zone {}", i + 1));
-        let pop_key = args.zone_population_property.as_deref();
-        let population = match pop_key {
-            Some(k) => props.and_then(|p| p.get(k)),
-            None => ["population", "pop", "POP"]
-                .iter()
-                .find_map(|k| props.and_then(|p| p.get(*k))),
-        }
-        .and_then(|v| match v {
-            Value::Number(n) => n.as_f64(),
-            Value::String(s) => s.trim().parse::<f64>().ok(),
-            _ => None,
-        });
-        if let (Some(k), None) = (pop_key, population) {
-            return Err(js_error(
-                "bad_options",
-                &format!(
-                    "zone {} (\"{name}\") has no number in its property \"{k}\"",
-                    i + 1
-                ),
-                Some((i as u64 + 1, Some(k.to_string()))),
-            ));
-        }
-        let group = args
-            .zone_group_property
-            .as_deref()
-            .and_then(|k| prop_str(props, k));
-        zones.push(Zone {
-            name,
-            polygons,
-            population,
-            group,
-        });
-    }
-    if zones.is_empty() {
-        return Err(js_error(
-            "bad_geojson",
-            "the zones file holds no polygons",
-            None,
-        ));
-    }
-    Ok(zones)
-}
-
-#[derive(Serialize)]
-struct AggregateSummary<'a> {
-    table: &'a SuppressedTable,
-    population_source: Option<&'static str>,
-    counts_hidden_from: u64,
-    counts_hidden_to: u64,
-    threshold_note: &'static str,
-    largest_shown: Option<u64>,
-    events_counted: u64,
-    cautions: [&'static str; 5],
-}
-
-const THRESHOLD_NOTE: &str =
-    "counts from 1 to 4 hidden by default: common practice, no single source; \
-     some policies hide 1–9 or more";
-
 fn table_js(t: &TableState, total: u64) -> Result<JsValue, JsValue> {
-    let min = t.table.params.min_count.max(1);
-    to_js(&AggregateSummary {
-        table: &t.table,
-        population_source: t.population_source,
-        counts_hidden_from: 1,
-        counts_hidden_to: min - 1,
-        threshold_note: THRESHOLD_NOTE,
-        largest_shown: t.table.cells.iter().filter_map(|c| c.count).max(),
-        events_counted: total,
-        cautions: CAUTIONS,
-    })
+    to_js(&aggregate_summary(t, total))
 }
 
-// ---------- the report ----------
-
-fn esc(s: &str) -> String {
-    let mut o = String::with_capacity(s.len());
-    for c in s.chars() {
-        match c {
-            '&' => o.push_str("&amp;"),
-            '<' => o.push_str("&lt;"),
-            '>' => o.push_str("&gt;"),
-            '"' => o.push_str("&quot;"),
-            '\'' => o.push_str("&#39;"),
-            _ => o.push(c),
-        }
+fn report_error(e: ReportError) -> JsValue {
+    match e {
+        ReportError::Refused { code, message } => js_error(code, &message, None),
+        ReportError::Analysis(e) => analysis_error(&e),
     }
-    o
-}
-
-fn num(v: f64, digits: usize) -> String {
-    if !v.is_finite() {
-        return "—".into();
-    }
-    format!("{v:.digits$}")
-}
-
-fn metres(v: Option<f64>) -> String {
-    v.map_or("—".into(), |v| format!("{} m", num(v, 1)))
-}
-
-fn law_words(l: DistanceLaw) -> &'static str {
-    match l {
-        DistanceLaw::AreaUniform => "even over the ring's area",
-        DistanceLaw::DistanceUniform => "even over distance",
-    }
-}
-
-fn kv(rows: &[(String, String)]) -> String {
-    let mut s = String::from("<table class=\"kv\"><tbody>");
-    for (k, v) in rows {
-        s.push_str(&format!(
-            "<tr><th scope=\"row\">{}</th><td>{}</td></tr>",
-            esc(k),
-            esc(v)
-        ));
-    }
-    s.push_str("</tbody></table>");
-    s
-}
-
-fn settings_rows(m: &MaskMethod) -> Vec<(String, String)> {
-    let mut r = Vec::new();
-    match m {
-        MaskMethod::Donut(d) => {
-            r.push((
-                "Method".into(),
-                "random shift within a ring (donut geomasking, Hampton et al. 2010)".into(),
-            ));
-            r.push(("Smallest shift".into(), metres(Some(d.r_min_m))));
-            r.push(("Largest shift".into(), metres(Some(d.r_max_m))));
-            r.push(("Distance drawn".into(), law_words(d.law).into()));
-            r.push(("Tries per point".into(), d.max_tries.to_string()));
-            r.push(("Design mean shift".into(), metres(Some(d.design_mean_m))));
-            r.push((
-                "Design median shift".into(),
-                metres(Some(d.design_median_m)),
-            ));
-        }
-        MaskMethod::KAnonymity(k) => {
-            r.push((
-                "Method".into(),
-                "shift until at least k addresses are as close (spatial k-anonymity)".into(),
-            ));
-            r.push(("Target k".into(), k.target_k.to_string()));
-            r.push((
-                "k measured against".into(),
-                match k.basis {
-                    KBasis::PopulationLayer => format!(
-                        "a population layer of {} points",
-                        k.population_points.unwrap_or(0)
-                    ),
-                    KBasis::UniformDensity => format!(
-                        "a uniform residential density of {} per km² (expected, not counted)",
-                        k.density_per_km2.map_or("—".into(), |d| num(d, 1))
-                    ),
-                },
-            ));
-            r.push(("Smallest shift asked".into(), metres(Some(k.r_min_m))));
-            if let Some(u) = k.r_min_used_m {
-                r.push(("Smallest shift used".into(), metres(Some(u))));
-            }
-            r.push(("Largest shift".into(), metres(Some(k.r_max_m))));
-            r.push(("Distance drawn".into(), law_words(k.law).into()));
-            r.push(("Area factor".into(), num(k.area_factor, 2)));
-            r.push(("Tries per point".into(), k.max_tries.to_string()));
-            r.push((
-                "Points short of the target".into(),
-                if k.keep_below_target {
-                    "kept at their best location and counted below"
-                } else {
-                    "left out"
-                }
-                .into(),
-            ));
-        }
-    }
-    r.push((
-        "Seed".into(),
-        "not recorded (with it the shifts could be replayed and undone)".into(),
-    ));
-    r
-}
-
-fn spread_row(label: &str, s: &Option<Spread>, unit: &str, digits: usize) -> String {
-    match s {
-        Some(s) => format!(
-            "<tr><th scope=\"row\">{}</th><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
-            esc(label),
-            num(s.min, digits) + unit,
-            num(s.q1, digits) + unit,
-            num(s.median, digits) + unit,
-            num(s.q3, digits) + unit,
-            num(s.max, digits) + unit
-        ),
-        None => format!("<tr><th scope=\"row\">{}</th><td colspan=\"5\">no points</td></tr>", esc(label)),
-    }
-}
-
-/// Points below which the original pattern's summaries are not printed
-/// (with so few points an average distance is nearly a location).
-const REPORT_MIN_ORIGINAL: usize = 5;
-
-fn report_html(
-    study: &Study,
-    st: &ReportView<'_>,
-    args: &ExportArgs,
-    created: &str,
-) -> Result<(String, Vec<String>), JsValue> {
-    let mut sections = Vec::new();
-    let mut body = String::new();
-    let title = args
-        .title
-        .clone()
-        .filter(|t| !t.trim().is_empty())
-        .unwrap_or_else(|| "Shared results".to_string());
-    body.push_str(&format!("<h1>{}</h1>", esc(&title)));
-    body.push_str(&format!(
-        "<p class=\"meta\">Made with Cloister version {} on {}. This report holds no original \
-         locations and no coordinates: only settings, distributions, counts and a map drawn \
-         from masked or aggregated layers.</p>",
-        esc(crate::VERSION),
-        esc(created)
-    ));
-    if let Some(img) = &args.map_image {
-        let ok = img.len() < 30_000_000
-            && img.strip_prefix("data:image/png;base64,").is_some_and(|b| {
-                !b.is_empty()
-                    && b.bytes()
-                        .all(|c| c.is_ascii_alphanumeric() || c == b'+' || c == b'/' || c == b'=')
-            });
-        if !ok {
-            return Err(js_error(
-                "bad_options",
-                "map_image must be a PNG data URL (data:image/png;base64,…)",
-                None,
-            ));
-        }
-        sections.push("map picture".to_string());
-        body.push_str(&format!(
-            "<figure><img alt=\"Map of the shared layers\" src=\"{img}\"><figcaption>Map drawn \
-             from the shared layers only (masked points and/or counts per area); original \
-             points are not in it. The study area outline appears only when it came from a \
-             boundary file.</figcaption></figure>"
-        ));
-    }
-    if let Some(ms) = st.mask {
-        let m = &ms.masked;
-        sections.push("masking settings and results".into());
-        body.push_str("<section><h2>Masked points</h2>");
-        body.push_str(&format!(
-            "<p>{} of {} points were masked and may be shared; {} could not be masked as asked \
-             and are left out of every export.</p>",
-            m.x.len(),
-            m.n_input,
-            m.unplaced.len()
-        ));
-        body.push_str("<h3>Settings</h3>");
-        body.push_str(&kv(&settings_rows(&m.method)));
-        body.push_str(if ms.k.is_some() {
-            "<h3>Achieved shift and k</h3>"
-        } else {
-            "<h3>Achieved shift</h3>"
-        });
-        body.push_str("<table><thead><tr><th></th><th>min</th><th>lower quartile</th><th>median</th><th>upper quartile</th><th>max</th></tr></thead><tbody>");
-        body.push_str(&spread_row("Shift", &m.displacement, " m", 1));
-        body.push_str("</tbody></table>");
-        if let Some(k) = &ms.k {
-            if let Some(s) = &k.summary {
-                body.push_str(&kv(&[
-                    ("Target k".into(), k.target_k.to_string()),
-                    ("Smallest k".into(), num(s.min, 1)),
-                    ("5th percentile of k".into(), num(s.p05, 1)),
-                    ("Median k".into(), num(s.median, 1)),
-                    (
-                        "Share of shared points below the target".into(),
-                        format!("{} %", num(100.0 * s.share_below_target, 1)),
-                    ),
-                ]));
-            }
-        }
-        if !m.unplaced.is_empty() {
-            let mut by: Vec<(String, usize)> = Vec::new();
-            for u in &m.unplaced {
-                let code = serde_json::to_value(&u.reason)
-                    .ok()
-                    .and_then(|v| v.get("code").and_then(Value::as_str).map(str::to_string))
-                    .unwrap_or_default();
-                let words = match code.as_str() {
-                    "no_place_inside_area" => "no shifted place fell inside the study area",
-                    "too_few_population_nearby" => "too few addresses nearby to reach the target",
-                    "target_not_reached" => "the target was not reached within the tries",
-                    _ => "other",
-                };
-                match by.iter_mut().find(|(w, _)| w == words) {
-                    Some(e) => e.1 += 1,
-                    None => by.push((words.to_string(), 1)),
-                }
-            }
-            body.push_str("<h3>Points left out</h3><ul>");
-            for (w, n) in by {
-                body.push_str(&format!("<li>{n}: {}</li>", esc(&w)));
-            }
-            body.push_str("</ul>");
-        }
-        for n in &m.notes {
-            body.push_str(&format!("<p class=\"note\">{}</p>", esc(n)));
-        }
-        // Cost of masking.
-        let cost = compare(
-            study.events.x(),
-            study.events.y(),
-            &m.x,
-            &m.y,
-            &study.window,
-            &CostParams::default(),
-        )
-        .map_err(|e| analysis_error(&e))?;
-        let show_orig = m.n_input >= REPORT_MIN_ORIGINAL;
-        let o = |v: Option<f64>, d: usize, unit: &str| {
-            if show_orig {
-                v.map_or("—".to_string(), |v| num(v, d) + unit)
-            } else {
-                "withheld".to_string()
-            }
-        };
-        let mk = |v: Option<f64>, d: usize, unit: &str| {
-            v.map_or("—".to_string(), |v| num(v, d) + unit)
-        };
-        body.push_str("<h3>What masking costs the analysis</h3><table><thead><tr><th>Summary</th><th>original points</th><th>masked points</th></tr></thead><tbody>");
-        body.push_str(&format!(
-            "<tr><th scope=\"row\">Points</th><td>{}</td><td>{}</td></tr>",
-            cost.original.n, cost.masked.n
-        ));
-        body.push_str(&format!(
-            "<tr><th scope=\"row\">Mean nearest-neighbour distance</th><td>{}</td><td>{}</td></tr>",
-            o(cost.original.mean_nn_m, 1, " m"),
-            mk(cost.masked.mean_nn_m, 1, " m")
-        ));
-        body.push_str(&format!(
-            "<tr><th scope=\"row\">Clark–Evans R</th><td>{}</td><td>{}</td></tr>",
-            o(cost.original.clark_evans_r, 3, ""),
-            mk(cost.masked.clark_evans_r, 3, "")
-        ));
-        body.push_str(&format!(
-            "<tr><th scope=\"row\">Standard distance</th><td>{}</td><td>{}</td></tr>",
-            o(cost.original.standard_distance_m, 1, " m"),
-            mk(cost.masked.standard_distance_m, 1, " m")
-        ));
-        body.push_str(&format!(
-            "<tr><th scope=\"row\">Shift of the mean centre</th><td colspan=\"2\">{}</td></tr>",
-            mk(cost.centre_shift_m, 1, " m")
-        ));
-        if let Some(s) = &cost.surface {
-            body.push_str(&format!(
-                "<tr><th scope=\"row\">Kernel intensity surface (bandwidth {}): largest / mean change, share of the original peak</th><td colspan=\"2\">{} % / {} %</td></tr>",
-                metres(Some(s.bandwidth_m)),
-                num(100.0 * s.max_abs_diff_rel, 1),
-                num(100.0 * s.mean_abs_diff_rel, 1)
-            ));
-        }
-        body.push_str("</tbody></table>");
-        if !show_orig {
-            body.push_str("<p class=\"note\">With fewer than 5 points the original pattern's summaries are withheld: they would come close to giving locations away.</p>");
-        }
-        body.push_str("<p class=\"note\">Mean nearest-neighbour distance and Clark–Evans R = observed mean / (0.5/√(n/area)) after Clark &amp; Evans (1954), without edge correction; the kernel surfaces use one Gaussian bandwidth for both patterns.</p>");
-        body.push_str("</section>");
-    }
-    if let Some(ts) = st.table {
-        let t = &ts.table;
-        sections.push("counts per area with suppression and audit".into());
-        body.push_str("<section><h2>Counts per area</h2>");
-        let layout = match &t.layout {
-            Layout::Grid {
-                shape,
-                cell_size_m,
-                rows,
-                cols,
-                ..
-            } => match shape {
-                CellShape::Square => format!(
-                    "square cells of {} m side, {rows} rows × {cols} columns",
-                    num(*cell_size_m, 0)
-                ),
-                CellShape::Hexagon => format!(
-                    "hexagons of {} m side, {rows} rows × {cols} columns",
-                    num(*cell_size_m, 0)
-                ),
-            },
-            Layout::Zones { zones } => format!("{zones} zones from a file"),
-        };
-        let min = t.params.min_count.max(1);
-        let mut rows = vec![
-            ("Areas".to_string(), layout),
-            (
-                "Counts hidden".to_string(),
-                if min > 1 {
-                    format!(
-                        "1 to {} (threshold {min}; the default 5 is common practice, no single source)",
-                        min - 1
-                    )
-                } else {
-                    "none".into()
-                },
-            ),
-            (
-                "Zeros".to_string(),
-                if t.params.suppress_zeros {
-                    "hidden"
-                } else {
-                    "shown"
-                }
-                .into(),
-            ),
-            (
-                "Cells hidden in all".to_string(),
-                (t.n_primary + t.n_complementary).to_string(),
-            ),
-            (
-                "Of these, hidden so that no hidden count follows from the totals".to_string(),
-                t.n_complementary.to_string(),
-            ),
-            ("Totals withheld".to_string(), t.totals_withheld.to_string()),
-            (
-                "Audit".to_string(),
-                if t.audit.safe {
-                    format!(
-                        "no hidden count can be recovered from the published totals (checked: single totals, linear combinations, bounds{})",
-                        if t.audit.exact.is_some() {
-                            ", exhaustive whole-number search"
-                        } else {
-                            "; the exhaustive search was skipped, table too large"
-                        }
-                    )
-                } else {
-                    "a hidden count may be recoverable: do not publish this table".to_string()
-                },
-            ),
-        ];
-        if let Some(src) = ts.population_source {
-            rows.push((
-                "Rates".to_string(),
-                format!(
-                    "per {} of the population ({src}); shown only for shown counts and a population of at least {}; flagged unreliable below a count of {}",
-                    num(t.params.rate_per, 0),
-                    num(t.params.rate_min_population, 0),
-                    t.params.rate_unreliable_below
-                ),
-            ));
-        }
-        body.push_str(&kv(&rows));
-        for w in &t.warnings {
-            body.push_str(&format!("<p class=\"note\">{}</p>", esc(w)));
-        }
-        let zones = ts.zone_names.is_some();
-        let with_pop = ts.population_source.is_some();
-        let mut listed = 0;
-        let mut items = String::new();
-        for c in &t.cells {
-            if !zones && !c.suppressed && c.count.is_none_or(|v| v == 0) {
-                continue;
-            }
-            listed += 1;
-            let mut line = format!(
-                "<li><span>{}</span> <b>{}</b>",
-                esc(&c.id),
-                c.count.map_or("hidden".to_string(), |v| v.to_string())
-            );
-            if with_pop {
-                line.push_str(&format!(
-                    " <small>pop. {}, rate {}</small>",
-                    c.population.map_or("—".into(), |p| num(p, 0)),
-                    c.rate.map_or("—".into(), |r| {
-                        num(r, 2)
-                            + if c.rate_unreliable {
-                                " (unreliable)"
-                            } else {
-                                ""
-                            }
-                    })
-                ));
-            }
-            line.push_str("</li>");
-            items.push_str(&line);
-        }
-        body.push_str(&format!(
-            "<h3>Count per area</h3><ul class=\"cells{}\">{items}</ul>",
-            if with_pop { " wide" } else { "" }
-        ));
-        if !zones {
-            body.push_str(&format!(
-                "<p class=\"note\">{listed} areas listed; areas not listed have a count of 0. \
-                 Ids are r&lt;row&gt;c&lt;column&gt; of the grid; \"hidden\" marks a suppressed count.</p>"
-            ));
-        }
-        body.push_str("<h3>Published totals</h3><ul class=\"cells\">");
-        for l in &t.lines {
-            let name = match l.kind {
-                LineKind::Grand => "all areas".to_string(),
-                _ => l.name.clone(),
-            };
-            body.push_str(&format!(
-                "<li><span>{}</span> <b>{}</b></li>",
-                esc(&name),
-                l.total.map_or("withheld".to_string(), |v| v.to_string())
-            ));
-        }
-        body.push_str(&format!(
-            "<li><span>outside every area</span> <b>{}</b></li></ul>",
-            t.outside.map_or("hidden".to_string(), |v| v.to_string())
-        ));
-        body.push_str("</section>");
-    }
-    if st.mask.is_none() && st.table.is_none() {
-        return Err(js_error(
-            "nothing_to_report",
-            "mask the points or count them per area first: the report holds only masked or \
-             aggregated results",
-            None,
-        ));
-    }
-    sections.push("cautions".into());
-    body.push_str("<section><h2>Cautions</h2><ul>");
-    let mut cautions: Vec<String> = CAUTIONS.iter().map(|s| s.to_string()).collect();
-    if let Some(ms) = st.mask {
-        let p = what_leaves(
-            &ExportContent::MaskedPoints(&ms.masked),
-            &ExportOptions::default(),
-        );
-        cautions.extend(p.cautions);
-    }
-    if let Some(ts) = st.table {
-        let p = what_leaves(&ExportContent::Table(&ts.table), &ExportOptions::default());
-        cautions.extend(p.cautions);
-    }
-    cautions.dedup();
-    for c in &cautions {
-        body.push_str(&format!("<li>{}</li>", esc(c)));
-    }
-    body.push_str("</ul></section>");
-    let html = format!(
-        "<!doctype html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
-         <meta http-equiv=\"Content-Security-Policy\" content=\"{REPORT_CSP}\">\n\
-         <meta name=\"referrer\" content=\"no-referrer\">\n\
-         <title>{}</title>\n<style>{REPORT_CSS}</style>\n</head>\n<body>\n{body}\n\
-         <footer>Cloister {} · {} · opens offline; print it to PDF from the browser.</footer>\n</body>\n</html>\n",
-        esc(&title),
-        esc(crate::VERSION),
-        esc(created)
-    );
-    Ok((html, sections))
-}
-
-const REPORT_CSS: &str = "body{font-family:system-ui,\"DejaVu Sans\",sans-serif;color:#1c2430;max-width:60rem;margin:1.5rem auto;padding:0 1rem;line-height:1.4;font-size:14px}\
-h1{font-size:1.5rem;margin:0 0 .3rem}h2{font-size:1.15rem;border-bottom:2px solid #1f5d7a;padding-bottom:.15rem;margin-top:1.6rem}h3{font-size:1rem;margin:1rem 0 .3rem}\
-table{border-collapse:collapse;margin:.3rem 0;font-size:.9rem}th,td{border:1px solid #c9d0d8;padding:.15rem .45rem;text-align:left;vertical-align:top}thead th{background:#f2f4f6}\
-table.kv th{background:#f7f8f9;font-weight:600;max-width:22rem}td{font-variant-numeric:tabular-nums}\
-figure{margin:1rem 0}figure img{max-width:100%;border:1px solid #c9d0d8}figcaption{font-size:.85rem;color:#4d5866}\
-.meta,.note,footer{color:#4d5866;font-size:.85rem}footer{margin-top:2rem;border-top:1px solid #c9d0d8;padding-top:.4rem}\
-ul.cells{columns:7 7.5rem;list-style:none;padding:0;margin:.3rem 0;font-size:.85rem;font-variant-numeric:tabular-nums}ul.cells.wide{columns:3 16rem}ul.cells li{break-inside:avoid;padding:.05rem 0}ul.cells span{color:#4d5866}ul.cells small{color:#4d5866}\
-@media print{body{margin:0;max-width:none;font-size:11px}section{break-inside:auto}table,figure{break-inside:avoid}h2{break-after:avoid}}";
-
-#[derive(Serialize)]
-struct ReportPreview {
-    content: &'static str,
-    format: &'static str,
-    fields: Vec<String>,
-    rows: usize,
-    metadata_keys: Vec<String>,
-    contains_original_coordinates: bool,
-    label: Option<String>,
-    points_left_out: usize,
-    cautions: Vec<String>,
-}
-
-#[derive(Serialize)]
-struct ReportFile {
-    text: String,
-    file_name: String,
-    mime: String,
-    preview: ReportPreview,
 }
 
 fn state(s: &Session) -> Option<&SharingState> {
@@ -1176,36 +359,18 @@ impl Session {
     fn report_preview(&self, args: &ExportArgs, created: &str) -> Result<ReportFile, JsValue> {
         let study = self.study_ref()?;
         let empty = SharingState::default();
-        let st = report_view(state(self).unwrap_or(&empty), args.report_holds)?;
-        let (html, sections) = report_html(study, &st, args, created)?;
-        let mut cautions: Vec<String> = CAUTIONS.iter().map(|s| s.to_string()).collect();
-        if let Some(m) = st.mask {
-            cautions.extend(m.masked.notes.iter().cloned());
-        }
-        if let Some(t) = st.table {
-            cautions.extend(t.table.warnings.iter().cloned());
-        }
-        let rows = st.table.map_or(0, |t| t.table.cells.len());
-        Ok(ReportFile {
-            text: html,
-            file_name: "sharing-report.html".into(),
-            mime: "text/html".into(),
-            preview: ReportPreview {
-                content: "report",
-                format: "html",
-                fields: sections,
-                rows,
-                metadata_keys: ["tool", "version", "created"]
-                    .into_iter()
-                    .map(String::from)
-                    .chain(st.mask.map(|_| "masking settings (no seed)".to_string()))
-                    .collect(),
-                contains_original_coordinates: false,
-                label: None,
-                points_left_out: st.mask.map_or(0, |m| m.masked.unplaced.len()),
-                cautions,
-            },
-        })
+        let opts = ReportOptions {
+            title: args.title.as_deref(),
+            map_image: args.map_image.as_deref(),
+        };
+        report_file(
+            study,
+            state(self).unwrap_or(&empty),
+            args.report_holds,
+            &opts,
+            created,
+        )
+        .map_err(report_error)
     }
 }
 
@@ -1333,27 +498,9 @@ impl Session {
             &p,
         )
         .map_err(|e| analysis_error(&e))?;
-        // L(r) − r of both patterns on one r grid (isotropic correction), so
-        // the analyst sees how masking moves the clustering curve.
-        if let Some(masked) = crate::study::Pattern::from_xy(m.masked.x.clone(), m.masked.y.clone())
-        {
-            use crate::distance::functions::{distance_functions, FunctionParams};
-            let fp = FunctionParams::default();
-            if let Ok(o) = distance_functions(&s.events, &s.window, &fp) {
-                let fp2 = FunctionParams {
-                    r_max: Some(o.r_max),
-                    ..fp
-                };
-                if let Ok(k) = distance_functions(&masked, &s.window, &fp2) {
-                    let lr = |d: &crate::distance::functions::DistanceFunctions| -> Vec<f64> {
-                        d.l.iter().zip(&d.r).map(|(l, r)| l - r).collect()
-                    };
-                    if k.r.len() == o.r.len() {
-                        let _ = c.attach_l_curves(o.r.clone(), lr(&o), lr(&k));
-                    }
-                }
-            }
-        }
+        // L(r) − r of both patterns on one r grid, so the analyst sees how
+        // masking moves the clustering curve.
+        c.add_l_curves(&s.events, &m.masked.x, &m.masked.y, &s.window);
         to_js(&c)
     }
 
@@ -1388,7 +535,6 @@ impl Session {
                 None,
             ));
         }
-        let population = s.controls.as_ref().map(|c| (c.x(), c.y()));
         let (agg, pop_source, names) = match a.layout {
             AggLayout::Square | AggLayout::Hexagon => {
                 let size = a.cell_size_m.unwrap_or(1000.0);
@@ -1399,40 +545,15 @@ impl Session {
                         None,
                     ));
                 }
-                let b = s.window.bbox();
-                let origin = [(b[0] / size).floor() * size, (b[1] / size).floor() * size];
-                let p = AggregateParams {
-                    shape: if a.layout == AggLayout::Hexagon {
-                        CellShape::Hexagon
-                    } else {
-                        CellShape::Square
-                    },
-                    cell_size_m: size,
-                    orientation: a.orientation.unwrap_or_default(),
-                    origin: Some(origin),
+                let shape = if a.layout == AggLayout::Hexagon {
+                    CellShape::Hexagon
+                } else {
+                    CellShape::Square
                 };
-                let verts: Vec<[f64; 2]> = s
-                    .window
-                    .polygons()
-                    .iter()
-                    .flatten()
-                    .flatten()
-                    .copied()
-                    .collect();
-                let agg = aggregate_grid(
-                    s.events.x(),
-                    s.events.y(),
-                    &s.window,
-                    &verts,
-                    population,
-                    &p,
-                )
-                .map_err(|e| analysis_error(&e))?;
-                (
-                    agg,
-                    population.map(|_| "points of the population layer"),
-                    None,
-                )
+                let orientation = a.orientation.unwrap_or_default();
+                let (agg, src) =
+                    count_in_cells(s, shape, size, orientation).map_err(|e| analysis_error(&e))?;
+                (agg, src, None)
             }
             AggLayout::Zones => {
                 let bytes = a.zones.as_deref().ok_or_else(|| {
@@ -1442,16 +563,15 @@ impl Session {
                         None,
                     )
                 })?;
-                let zones = read_zones(bytes, s, &a)?;
-                let all_pop = zones.iter().all(|z| z.population.is_some());
-                let names = zones.iter().map(|z| z.name.clone()).collect();
-                let agg = aggregate_zones(s.events.x(), s.events.y(), &zones, population)
-                    .map_err(|e| analysis_error(&e))?;
-                let src = if all_pop {
-                    Some("the zones file")
-                } else {
-                    population.map(|_| "points of the population layer")
+                let opts = ZoneOptions {
+                    name_property: a.zone_name_property.as_deref(),
+                    population_property: a.zone_population_property.as_deref(),
+                    group_property: a.zone_group_property.as_deref(),
                 };
+                let raw = read_zones(bytes, &opts).map_err(|e| input_error(&e))?;
+                let zones = zones_for_study(raw, s).map_err(|e| input_error(&e))?;
+                let (agg, src, names) =
+                    count_in_zones(s, &zones).map_err(|e| analysis_error(&e))?;
                 (agg, src, Some(names))
             }
         };
