@@ -48,6 +48,7 @@ pub mod error;
 pub mod index;
 pub mod input;
 pub mod intensity;
+pub mod params;
 pub mod plot;
 pub mod privacy;
 pub mod projection;

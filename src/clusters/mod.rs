@@ -11,4 +11,4 @@ pub mod hull;
 pub mod kdist;
 
 pub use dbscan::{dbscan, dbscan_xy, ClusterRow, DbscanOptions, DbscanResult};
-pub use kdist::{k_distance_plot, KDistance};
+pub use kdist::{k_distance_plot, KDistance, KDistanceParams};
