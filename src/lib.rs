@@ -39,6 +39,9 @@
 //!   cell and zone counts with small-count and complementary suppression,
 //!   the cost of masking, CSV/GeoJSON exports with a preview of what leaves).
 //! * How is it drawn? → [`plot`] (charts generic over a plotters backend).
+//! * Which options does each analysis take? → [`params`] (names with units,
+//!   defaults, limits and allowed values, in one list per analysis; the
+//!   checks, the JS API's `parameterSpec` and the page's limits read it).
 
 #![forbid(unsafe_code)]
 

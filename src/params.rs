@@ -171,8 +171,8 @@ impl Field {
 
     /// The accepted range in words, e.g. "from 1 to 9999".
     pub fn range_text(&self) -> String {
-        let lo = self.min.map(num);
-        let hi = self.max.map(num);
+        let lo = self.min.map(|v| self.with_unit(v));
+        let hi = self.max.map(|v| self.with_unit(v));
         let mut s = match (lo, hi, self.min_exclusive) {
             (Some(a), Some(b), false) => format!("from {a} to {b}"),
             (Some(a), Some(b), true) => format!("more than {a} and at most {b}"),
@@ -184,10 +184,15 @@ impl Field {
         if self.kind == Kind::Integer {
             s = format!("a whole number {s}");
         }
-        if let Some(u) = self.unit {
-            s = format!("{s} ({u})");
-        }
         s
+    }
+
+    /// A value with this field's unit, e.g. "500 m".
+    pub fn with_unit(&self, v: f64) -> String {
+        match self.unit {
+            Some(u) => format!("{} {u}", num(v)),
+            None => num(v),
+        }
     }
 }
 
@@ -290,7 +295,7 @@ fn check_number(f: &Field, x: f64, extent_m: Option<f64>) -> Result<(), Analysis
     if !(x.is_finite() && low && high && whole) {
         return Err(bad(
             f.name,
-            format!("must be {} (got {})", f.range_text(), num(x)),
+            format!("must be {} (got {})", f.range_text(), f.with_unit(x)),
         ));
     }
     if let (Some(k), Some(e)) = (f.max_extent_factor, extent_m) {
@@ -302,7 +307,7 @@ fn check_number(f: &Field, x: f64, extent_m: Option<f64>) -> Result<(), Analysis
                     num(k),
                     num(e.round()),
                     num((k * e).round()),
-                    num(x)
+                    f.with_unit(x)
                 ),
             ));
         }
@@ -572,11 +577,214 @@ mod tests {
         let f = Field::integer("n_sim", "").range(1.0, 9999.0);
         assert_eq!(f.range_text(), "a whole number from 1 to 9999");
         let f = Field::number("r_max_m", Some("m"), "").above(0.0, None);
-        assert_eq!(f.range_text(), "more than 0 (m)");
+        assert_eq!(f.range_text(), "more than 0 m");
+    }
+
+    use crate::clusters::{DbscanOptions, KDistanceParams};
+    use crate::distance::{ClarkEvansParams, EnvelopeOptions, QuadratParams};
+    use crate::input::{AreaOptions, ReadOptions};
+    use crate::intensity::SurfaceParams;
+    use crate::privacy::aggregate::AggregateOptions;
+    use crate::privacy::cost::CostParams;
+    use crate::privacy::export::ExportRequest;
+    use crate::privacy::{DonutParams, KAnonParams};
+    use crate::scan::ScanOptions;
+    use serde_json::json;
+
+    /// `validate` refuses `v` for field `name`, and the message names it.
+    fn refuses<P: Params>(name: &str, v: Value) {
+        let mut o = serde_json::to_value(P::default()).unwrap();
+        o[name] = v.clone();
+        let p: P = serde_json::from_value(o).unwrap();
+        let e = p
+            .validate()
+            .expect_err(&format!("{}.{name} = {v} refused", P::NAME));
+        let msg = e.to_string();
+        assert!(msg.contains(name), "{msg}");
+    }
+
+    /// `validate` accepts `v` for field `name`.
+    fn accepts<P: Params>(name: &str, v: Value) {
+        let mut o = serde_json::to_value(P::default()).unwrap();
+        o[name] = v.clone();
+        let p: P = serde_json::from_value(o).unwrap();
+        p.validate()
+            .unwrap_or_else(|e| panic!("{}.{name} = {v}: {e}", P::NAME));
     }
 
     #[test]
-    fn every_spec_names_distinct_fields_and_defaults_pass() {
+    fn defaults_are_valid() {
+        ReadOptions::default().validate().unwrap();
+        AreaOptions::default().validate().unwrap();
+        QuadratParams::default().validate().unwrap();
+        ClarkEvansParams::default().validate().unwrap();
+        EnvelopeOptions::default().validate().unwrap();
+        SurfaceParams::default().validate().unwrap();
+        KDistanceParams::default().validate().unwrap();
+        ScanOptions::default().validate().unwrap();
+        DonutParams::default().validate().unwrap();
+        KAnonParams::default().validate().unwrap();
+        CostParams::default().validate().unwrap();
+        AggregateOptions::default().validate().unwrap();
+        ExportRequest::default().validate().unwrap();
+        // DBSCAN has no default radius: it must be chosen.
+        assert!(DbscanOptions::default().validate().is_err());
+    }
+
+    #[test]
+    fn quadrat_and_clark_evans_limits() {
+        refuses::<QuadratParams>("nx", json!(0));
+        refuses::<QuadratParams>("ny", json!(101));
+        accepts::<QuadratParams>("nx", json!(100));
+        refuses::<QuadratParams>("n_sim", json!(10_000));
+        accepts::<QuadratParams>("n_sim", json!(0));
+        refuses::<QuadratParams>("seed", json!(MAX_SEED + 1));
+        refuses::<ClarkEvansParams>("n_sim", json!(10_000));
+        accepts::<ClarkEvansParams>("n_sim", json!(9999));
+    }
+
+    #[test]
+    fn envelope_limits() {
+        refuses::<EnvelopeOptions>("n_sim", json!(0));
+        refuses::<EnvelopeOptions>("n_sim", json!(10_000));
+        refuses::<EnvelopeOptions>("n_steps", json!(1));
+        refuses::<EnvelopeOptions>("n_steps", json!(1001));
+        accepts::<EnvelopeOptions>("n_steps", json!(1000));
+        refuses::<EnvelopeOptions>("alpha", json!(0.0));
+        refuses::<EnvelopeOptions>("alpha", json!(0.6));
+        refuses::<EnvelopeOptions>("r_max_m", json!(0.0));
+        refuses::<EnvelopeOptions>("r_min_m", json!(-1.0));
+        refuses::<EnvelopeOptions>("bandwidth_m", json!(-3.0));
+        accepts::<EnvelopeOptions>("r_max_m", json!(250.0));
+        let o = EnvelopeOptions {
+            r_min_m: Some(300.0),
+            r_max_m: Some(200.0),
+            ..Default::default()
+        };
+        assert!(o.validate().unwrap_err().to_string().contains("r_min_m"));
+        // Lengths are capped at ten times the study area's extent.
+        let o = EnvelopeOptions {
+            r_max_m: Some(20_000.0),
+            ..Default::default()
+        };
+        assert!(o.validate().is_ok());
+        let e = o.validate_in(Some(1000.0)).unwrap_err().to_string();
+        assert!(e.contains("r_max_m") && e.contains("10000 m"), "{e}");
+        // The flat options give the run's parameters and back.
+        let p = o.params();
+        assert_eq!(p.functions.r_max, Some(20_000.0));
+        assert_eq!(EnvelopeOptions::from(&p), o);
+    }
+
+    #[test]
+    fn surface_dbscan_kdistance_scan_limits() {
+        refuses::<SurfaceParams>("cells", json!(1));
+        refuses::<SurfaceParams>("cells", json!(5000));
+        refuses::<SurfaceParams>("candidates", json!(2));
+        refuses::<SurfaceParams>("fixed_m", json!(0.0));
+        refuses::<SurfaceParams>("isopleths", json!([0.5, 1.5]));
+        refuses::<SurfaceParams>("isopleths", json!([0.0]));
+        accepts::<SurfaceParams>("isopleths", json!([1.0]));
+        let fixed = SurfaceParams {
+            method: crate::intensity::BandwidthMethod::Fixed,
+            ..Default::default()
+        };
+        assert!(fixed
+            .validate()
+            .unwrap_err()
+            .to_string()
+            .contains("fixed_m"));
+        let d = DbscanOptions {
+            eps_m: 100.0,
+            ..Default::default()
+        };
+        d.validate().unwrap();
+        let bad = DbscanOptions {
+            min_samples: 0,
+            ..d
+        };
+        assert!(bad
+            .validate()
+            .unwrap_err()
+            .to_string()
+            .contains("min_samples"));
+        let bad = DbscanOptions {
+            eps_m: f64::NAN,
+            ..d
+        };
+        assert!(bad.validate().is_err());
+        refuses::<KDistanceParams>("min_samples", json!(0));
+        refuses::<KDistanceParams>("min_samples", json!(1));
+        refuses::<KDistanceParams>("min_samples", json!(1001));
+        accepts::<KDistanceParams>("min_samples", json!(2));
+        refuses::<ScanOptions>("max_share", json!(0.8));
+        refuses::<ScanOptions>("max_share", json!(0.0));
+        refuses::<ScanOptions>("n_sim", json!(0));
+        refuses::<ScanOptions>("cells_long_side", json!(513));
+    }
+
+    #[test]
+    fn masking_aggregate_export_limits() {
+        refuses::<DonutParams>("r_max_m", json!(0.0));
+        refuses::<DonutParams>("r_min_m", json!(-1.0));
+        refuses::<DonutParams>("max_tries", json!(0));
+        let p = DonutParams {
+            r_min_m: 600.0,
+            r_max_m: 500.0,
+            ..Default::default()
+        };
+        assert!(p.validate().is_err());
+        let p = DonutParams::default();
+        assert!(p.validate_in(Some(40.0)).is_err(), "500 m > 10 × 40 m");
+        assert!(p.validate_in(Some(60.0)).is_ok());
+        refuses::<KAnonParams>("target_k", json!(0));
+        refuses::<KAnonParams>("area_factor", json!(0.5));
+        refuses::<KAnonParams>("density_per_km2", json!(0.0));
+        accepts::<KAnonParams>("density_per_km2", json!(2500.0));
+        refuses::<CostParams>("grid_cells", json!(1));
+        refuses::<CostParams>("bandwidth_m", json!(-1.0));
+        refuses::<AggregateOptions>("cell_size_m", json!(0.0));
+        refuses::<AggregateOptions>("min_count", json!(0));
+        refuses::<AggregateOptions>("rate_per", json!(0.0));
+        refuses::<ExportRequest>("decimals", json!(13));
+        accepts::<ExportRequest>("decimals", json!(0));
+    }
+
+    #[test]
+    fn decode_names_unknown_and_mistyped_options() {
+        let (code, msg) =
+            decode::<DonutParams>(json!({"r_min_m": 50, "r_mxa_m": 250}), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        assert!(msg.contains("\"r_mxa_m\""), "{msg}");
+        assert!(msg.contains("did you mean \"r_max_m\""), "{msg}");
+        assert!(
+            msg.contains("r_min_m, r_max_m, law, seed, max_tries, replace"),
+            "{msg}"
+        );
+        let (code, msg) = decode::<ClarkEvansParams>(json!({"n_sim": 2.5}), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        assert!(msg.contains("\"n_sim\"") && !msg.contains("usize"), "{msg}");
+        let (code, msg) = decode::<ClarkEvansParams>(json!({"n_sim": 10000}), None).unwrap_err();
+        assert_eq!(code, "bad_parameter");
+        assert!(msg.contains("n_sim") && msg.contains("10000"), "{msg}");
+        let (code, msg) =
+            decode::<ReadOptions>(json!({"coords": {"kind": "nonsense"}}), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        assert!(!msg.contains("CoordKind") && !msg.contains("enum"), "{msg}");
+        let (code, _) = decode::<ClarkEvansParams>(json!(5), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        // Session-level keys come back apart.
+        let (p, session) =
+            decode::<DonutParams>(json!({"r_max_m": 400, "replace": true}), None).unwrap();
+        assert_eq!(p.r_max_m, 400.0);
+        assert_eq!(session.get("replace"), Some(&json!(true)));
+        // null gives the defaults.
+        let (p, _) = decode::<ScanOptions>(Value::Null, None).unwrap();
+        assert_eq!(p, ScanOptions::default());
+    }
+
+    #[test]
+    fn every_spec_names_distinct_fields() {
         for s in all() {
             let mut names: Vec<&str> = s.fields.iter().map(|f| f.name).collect();
             names.sort_unstable();

@@ -1086,7 +1086,29 @@
     },
     /** The engine running on the page's own thread (for drawing charts). */
     engine() { return wasm_bindgen; },
+    /** One option of an analysis as the engine describes it (kind, unit,
+     * default, min, max, allowed): the one home of defaults and limits. */
+    param(method, name) {
+      const spec = state.spec && state.spec.find((x) => x.analysis === method);
+      return spec ? spec.fields.find((f) => f.name === name) || null : null;
+    },
   };
+
+  /** Gives every control marked data-param="method.option" the limits of
+   * that option (times data-param-scale, e.g. 100 for a percent), and its
+   * default when the control is empty and has no placeholder. */
+  function applyParameterLimits() {
+    for (const input of document.querySelectorAll('[data-param]')) {
+      const [method, name] = input.dataset.param.split('.');
+      const f = window.Cloister.param(method, name);
+      if (!f) continue;
+      const scale = Number(input.dataset.paramScale || 1);
+      if (f.min !== null) input.min = String(f.min * scale);
+      if (f.max !== null) input.max = String(f.max * scale);
+      if (f.kind === 'integer') input.step = '1';
+      if (input.value === '' && !input.placeholder && typeof f.default === 'number') input.value = String(f.default * scale);
+    }
+  }
 
   async function boot() {
     map = new PointMap($('map'));
@@ -1096,6 +1118,8 @@
       state.module = await WebAssembly.compile(bytes);
       await wasm_bindgen({ module_or_path: state.module });
       $('version').textContent = `version ${wasm_bindgen.version()}`;
+      state.spec = wasm_bindgen.parameterSpec();
+      applyParameterLimits();
       await startWorker();
     } catch (err) {
       showError('The engine could not start', err);

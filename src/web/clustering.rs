@@ -68,7 +68,10 @@ fn no_job() -> JsValue {
 impl Session {
     /// Quadrat counts and the χ² test of CSR.
     #[wasm_bindgen(js_name = quadratTest)]
-    pub fn quadrat_test_js(&self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn quadrat_test_js(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "QuadratTestOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (p, _) = decode::<QuadratParams>(params, self.extent_m())?;
         let s = self.study_ref()?;
         let res = quadrat_test(&s.events, &s.window, &p).map_err(|e| analysis_error(&e))?;
@@ -77,7 +80,10 @@ impl Session {
 
     /// Clark–Evans aggregation index with and without Donnelly's correction.
     #[wasm_bindgen(js_name = clarkEvans)]
-    pub fn clark_evans_js(&self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn clark_evans_js(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "ClarkEvansOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (p, _) = decode::<ClarkEvansParams>(params, self.extent_m())?;
         let s = self.study_ref()?;
         let res = clark_evans(&s.events, &s.window, &p).map_err(|e| analysis_error(&e))?;
@@ -87,7 +93,10 @@ impl Session {
     /// Starts an envelope run: checks the parameters and computes the
     /// observed curve. Returns `{total, distances, seed}`.
     #[wasm_bindgen(js_name = envelopeStart)]
-    pub fn envelope_start(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn envelope_start(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "EnvelopeStartOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (o, _) = decode::<EnvelopeOptions>(params, self.extent_m())?;
         let p = o.params();
         self.extras.remove(KEY);

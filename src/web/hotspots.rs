@@ -207,7 +207,10 @@ impl Session {
     /// `notes`, the percent-volume `isopleths` (polygons in metres) and a
     /// `privacy` count. The surface is kept for `isoplethsGeoJson`.
     #[wasm_bindgen(js_name = intensitySurface)]
-    pub fn intensity_surface(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn intensity_surface(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "IntensitySurfaceOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (p, _) = decode::<SurfaceParams>(params, self.extent_m())?;
         self.extras.remove(KEY_SURFACE);
         let o = p.options();
@@ -321,7 +324,10 @@ impl Session {
     /// `{eps_m, min_samples, use_weights}`. Returns `labels` (Int32Array,
     /// −1 = noise, input order), `core` (Uint8Array), `n_clusters`, `noise`
     /// and the cluster table with hulls (metres).
-    pub fn dbscan(&self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn dbscan(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "DbscanOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (o, _) = decode::<DbscanOptions>(params, self.extent_m())?;
         let s = self.study_ref()?;
         let r = dbscan(&s.events, &o).map_err(|e| analysis_error(&e))?;
@@ -373,7 +379,17 @@ impl Session {
     /// Sorted k-distances for choosing DBSCAN's eps: `{min_samples,
     /// sorted_desc_m (Float64Array), knee_eps_m, knee_index}`.
     #[wasm_bindgen(js_name = kDistance)]
-    pub fn k_distance(&self, min_samples: JsValue) -> Result<JsValue, JsValue> {
+    pub fn k_distance(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "number")] min_samples: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        if min_samples.is_undefined() || min_samples.is_null() {
+            return Err(js_error(
+                "bad_options",
+                "kDistance: give min_samples, DBSCAN's minimum number of events in a neighbourhood",
+                None,
+            ));
+        }
         let opts = Object::new();
         set(&opts, "min_samples", &min_samples)?;
         let (p, _) = decode::<KDistanceParams>(opts.into(), None)?;
@@ -401,7 +417,10 @@ impl Session {
     /// max_secondary}`. Returns `{total}` (replicates to run). A scan already
     /// prepared or running is dropped.
     #[wasm_bindgen(js_name = scanStart)]
-    pub fn scan_start(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn scan_start(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "ScanStartOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         self.extras.remove(KEY_SCAN);
         let (o, _) = decode::<ScanOptions>(params, self.extent_m())?;
         let job = {

@@ -154,7 +154,7 @@ pub(crate) fn decode_with_bytes<P: params::Params>(
 }
 
 /// A JS value as JSON: numbers that are whole become integers (so they
-/// read as counts); `undefined` members are left out (as if absent);
+/// read as counts); `undefined` and `null` members are left out (not given);
 /// typed arrays become lists; NaN, infinities, functions and symbols are
 /// refused with the option's name.
 pub(crate) fn js_to_json(
@@ -217,7 +217,8 @@ pub(crate) fn js_to_json(
             let pair = js_sys::Array::from(&entry);
             let key = pair.get(0).as_string().unwrap_or_default();
             let val = pair.get(1);
-            if val.is_undefined() {
+            // A member left undefined or null counts as not given.
+            if val.is_undefined() || val.is_null() {
                 continue;
             }
             let sub = if depth == 0 {
@@ -249,7 +250,7 @@ fn number_json(f: f64) -> Option<serde_json::Value> {
 /// The analyses' parameters (names, units, defaults, limits, allowed
 /// values): all of them, or those of one method (e.g. `"maskDonut"`).
 /// The page builds its controls from this; see [`crate::params`].
-#[wasm_bindgen(js_name = parameterSpec)]
+#[wasm_bindgen(js_name = parameterSpec, unchecked_return_type = "ParameterSpec | ParameterSpec[]")]
 pub fn parameter_spec(analysis: Option<String>) -> Result<JsValue, JsValue> {
     match analysis {
         None => to_js(&params::all()),
@@ -589,7 +590,11 @@ impl Session {
     /// Reads an events file (CSV or GeoJSON bytes). On failure throws and keeps
     /// what was loaded before.
     #[wasm_bindgen(js_name = loadEvents)]
-    pub fn load_events(&mut self, bytes: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
+    pub fn load_events(
+        &mut self,
+        bytes: &[u8],
+        #[wasm_bindgen(unchecked_param_type = "LoadEventsOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (opts, _) = decode::<ReadOptions>(options, None)?;
         let layer = input::read_points(bytes, &opts).map_err(|e| input_error(&e))?;
         let study = self
@@ -605,7 +610,11 @@ impl Session {
 
     /// Reads a controls / population-at-risk file (same formats as events).
     #[wasm_bindgen(js_name = loadControls)]
-    pub fn load_controls(&mut self, bytes: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
+    pub fn load_controls(
+        &mut self,
+        bytes: &[u8],
+        #[wasm_bindgen(unchecked_param_type = "LoadEventsOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (opts, _) = decode::<ReadOptions>(options, None)?;
         let layer = input::read_points(bytes, &opts).map_err(|e| input_error(&e))?;
         if layer.is_empty() {
@@ -640,7 +649,11 @@ impl Session {
 
     /// Reads a study-area file (GeoJSON Polygon / MultiPolygon).
     #[wasm_bindgen(js_name = loadArea)]
-    pub fn load_area(&mut self, bytes: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
+    pub fn load_area(
+        &mut self,
+        bytes: &[u8],
+        #[wasm_bindgen(unchecked_param_type = "LoadAreaOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (opts, _) = decode::<AreaOptions>(options, None)?;
         let area = input::read_area(bytes, opts.coords).map_err(|e| input_error(&e))?;
         let study = self

@@ -1119,7 +1119,10 @@ impl Session {
 impl Session {
     /// Masks the events with a ring-shaped random shift (donut geomasking).
     #[wasm_bindgen(js_name = maskDonut)]
-    pub fn mask_donut(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn mask_donut(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "MaskDonutOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let given_seed = has_seed(&params);
         let (mut p, session) = decode::<DonutParams>(params, self.extent_m())?;
         let replaced = state(self).is_some_and(|s| s.mask.is_some());
@@ -1137,7 +1140,10 @@ impl Session {
 
     /// Masks the events so each reaches a spatial k-anonymity target.
     #[wasm_bindgen(js_name = maskKAnonymity)]
-    pub fn mask_k_anonymity(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn mask_k_anonymity(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "MaskKAnonymityOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let given_seed = has_seed(&params);
         let (mut p, session) = decode::<KAnonParams>(params, self.extent_m())?;
         let replaced = state(self).is_some_and(|s| s.mask.is_some());
@@ -1214,7 +1220,10 @@ impl Session {
     /// Original vs masked: mean nearest-neighbour distance, Clark–Evans R,
     /// centre shift, standard distance, kernel surface shift.
     #[wasm_bindgen(js_name = maskingCost)]
-    pub fn masking_cost(&self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn masking_cost(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "MaskingCostOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (p, _) = decode::<CostParams>(params, self.extent_m())?;
         let s = self.study_ref()?;
         let m = state(self)
@@ -1255,7 +1264,10 @@ impl Session {
 
     /// Counts the events per cell or zone, suppresses small counts (with
     /// complementary suppression) and audits the result. Kept for export.
-    pub fn aggregate(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn aggregate(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "AggregateOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (mut a, zones) = decode_with_bytes::<AggArgs>(params, "zones", self.extent_m())?;
         a.zones = zones;
         let s = self.study_ref()?;
@@ -1334,7 +1346,11 @@ impl Session {
 
     /// What a file would contain, without writing it.
     #[wasm_bindgen(js_name = exportPreview)]
-    pub fn export_preview(&self, what: &str, options: JsValue) -> Result<JsValue, JsValue> {
+    pub fn export_preview(
+        &self,
+        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (a, _) = decode::<ExportArgs>(options, None)?;
         if what == "report" {
             let created = created_or_now(a.created.clone());
@@ -1352,7 +1368,11 @@ impl Session {
 
     /// Writes a file: `{text, file_name, mime, preview}`.
     #[wasm_bindgen(js_name = exportFile)]
-    pub fn export_file(&self, what: &str, options: JsValue) -> Result<JsValue, JsValue> {
+    pub fn export_file(
+        &self,
+        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
         let (a, _) = decode::<ExportArgs>(options, None)?;
         if what == "report" {
             let created = created_or_now(a.created.clone());
