@@ -1097,8 +1097,10 @@
   /** Gives every control marked data-param="method.option" the limits of
    * that option (times data-param-scale, e.g. 100 for a percent), and its
    * default when the control is empty and has no placeholder. */
-  function applyParameterLimits() {
-    for (const input of document.querySelectorAll('[data-param]')) {
+  function applyParameterLimits(root = document) {
+    const found = [...root.querySelectorAll('[data-param]')];
+    if (root.matches && root.matches('[data-param]')) found.push(root);
+    for (const input of found) {
       const [method, name] = input.dataset.param.split('.');
       const f = window.Cloister.param(method, name);
       if (!f) continue;
@@ -1120,6 +1122,10 @@
       $('version').textContent = `version ${wasm_bindgen.version()}`;
       state.spec = wasm_bindgen.parameterSpec();
       applyParameterLimits();
+      // Panels built later get their limits as they are added.
+      new MutationObserver((changes) => {
+        for (const c of changes) for (const n of c.addedNodes) if (n.nodeType === 1) applyParameterLimits(n);
+      }).observe(document.body, { childList: true, subtree: true });
       await startWorker();
     } catch (err) {
       showError('The engine could not start', err);
