@@ -155,12 +155,7 @@ pub fn clark_evans(
     params: &ClarkEvansParams,
 ) -> Result<ClarkEvansResult, AnalysisError> {
     let region = checked_region(pattern, window)?;
-    if params.n_sim > 9999 {
-        return Err(AnalysisError::BadParameter {
-            name: "n_sim".into(),
-            detail: "must be at most 9999".into(),
-        });
-    }
+    crate::params::Params::validate(params)?;
     let (x, y) = (pattern.x(), pattern.y());
     let n = x.len();
     let nn = nn_distances(x, y, region.area);

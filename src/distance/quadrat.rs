@@ -235,9 +235,7 @@ pub(crate) fn quadrat_in(
     y: &[f64],
     params: &QuadratParams,
 ) -> Result<QuadratResult, AnalysisError> {
-    if params.n_sim > 9999 {
-        return Err(bad("n_sim", "must be at most 9999"));
-    }
+    crate::params::Params::validate(params)?;
     let n = x.len();
     let (anx, any) = auto_grid(region, n);
     let nx = params.nx.unwrap_or(anx);

@@ -108,6 +108,15 @@ impl Default for KAnonParams {
     }
 }
 
+/// What k is measured against (the JS API's `against`, chosen by the
+/// session: the loaded population layer, or `density_per_km2`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Against {
+    Population,
+    Density,
+}
+
 impl crate::params::Params for KAnonParams {
     const NAME: &'static str = "maskKAnonymity";
     fn fields() -> Vec<crate::params::Field> {

@@ -113,7 +113,8 @@ impl Session {
 
     /// Runs up to `k` more simulations; returns how many are done so far.
     #[wasm_bindgen(js_name = envelopeStep)]
-    pub fn envelope_step(&mut self, k: usize) -> Result<usize, JsValue> {
+    pub fn envelope_step(&mut self, k: f64) -> Result<usize, JsValue> {
+        let k = super::count_arg(k, "envelopeStep", "k")?;
         let job = self.extra_mut::<EnvelopeJob>(KEY).ok_or_else(no_job)?;
         Ok(job.run_batch(k.max(1)))
     }

@@ -445,7 +445,8 @@ impl Session {
 
     /// Runs up to `k` more replicates; returns how many are done.
     #[wasm_bindgen(js_name = scanStep)]
-    pub fn scan_step(&mut self, k: usize) -> Result<usize, JsValue> {
+    pub fn scan_step(&mut self, k: f64) -> Result<usize, JsValue> {
+        let k = super::count_arg(k, "scanStep", "k")?;
         let job = self
             .extra_mut::<ScanJob>(KEY_SCAN)
             .ok_or_else(|| js_error("nothing_started", "no scan is running", None))?;

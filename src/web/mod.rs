@@ -247,6 +247,21 @@ fn number_json(f: f64) -> Option<serde_json::Value> {
     serde_json::Number::from_f64(f).map(serde_json::Value::Number)
 }
 
+/// A positional count from JS (a batch size, an offset): a whole number
+/// from 0 to 2^32 − 1, else `{code: "bad_parameter"}` naming it. Without
+/// this, wasm-bindgen would wrap −1 to 4294967295 and read NaN as 0.
+pub(crate) fn count_arg(v: f64, method: &str, name: &str) -> Result<usize, JsValue> {
+    if v.is_finite() && v.fract() == 0.0 && (0.0..=4_294_967_295.0).contains(&v) {
+        Ok(v as usize)
+    } else {
+        Err(js_error(
+            "bad_parameter",
+            &format!("{method}: {name} must be a whole number, 0 or more (got {v})"),
+            None,
+        ))
+    }
+}
+
 /// The analyses' parameters (names, units, defaults, limits, allowed
 /// values): all of them, or those of one method (e.g. `"maskDonut"`).
 /// The page builds its controls from this; see [`crate::params`].
@@ -763,7 +778,9 @@ impl Session {
     }
 
     /// A page of the rejection table: `layer` is `"events"` or `"controls"`.
-    pub fn rejections(&self, layer: &str, offset: usize, limit: usize) -> Result<JsValue, JsValue> {
+    pub fn rejections(&self, layer: &str, offset: f64, limit: f64) -> Result<JsValue, JsValue> {
+        let offset = count_arg(offset, "rejections", "offset")?;
+        let limit = count_arg(limit, "rejections", "limit")?;
         let list: &[Rejection] = match (layer, &self.study) {
             ("events", Some(s)) => &s.event_rejections,
             ("controls", Some(s)) => &s.control_rejections,

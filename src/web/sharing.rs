@@ -49,7 +49,7 @@ use crate::privacy::cost::{compare, CostParams};
 use crate::privacy::export::{
     export, CoordinateOutput, ExportContent, ExportOptions, ExportRequest, ReportHolds,
 };
-use crate::privacy::kanon::{kanon_mask, KAnonParams, KBasis, KSummary};
+use crate::privacy::kanon::{kanon_mask, Against, KAnonParams, KBasis, KSummary};
 use crate::privacy::suppress::{suppress, SuppressedTable};
 use crate::privacy::{
     donut_mask, what_leaves, AggregateParams, CellShape, DistanceLaw, DonutParams, MaskMethod,
@@ -58,7 +58,7 @@ use crate::privacy::{
 use crate::projection::Projection;
 use crate::study::Study;
 use js_sys::{Float64Array, Object, Reflect, Uint32Array};
-use serde::{Deserialize, Serialize};
+use serde::Serialize;
 use serde_json::Value;
 use wasm_bindgen::prelude::*;
 
@@ -121,13 +121,6 @@ struct TableState {
 type AggArgs = AggregateOptions;
 type AggLayout = AggregateLayout;
 type ExportArgs = ExportRequest;
-
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "snake_case")]
-enum Against {
-    Population,
-    Density,
-}
 
 /// The session-level `replace` flag of the mask methods.
 fn replace_flag(session: &serde_json::Map<String, Value>) -> bool {

@@ -194,6 +194,23 @@ test('kDistance checks its one number: 0, negative, fractional and huge values a
   assert.equal(s.kDistance(5).min_samples, 5);
 });
 
+test('batch sizes and page offsets must be whole numbers, 0 or more (no wrap-around of -1)', () => {
+  const s = demo();
+  s.envelopeStart({ n_sim: 5, seed: 1, n_steps: 10 });
+  for (const v of [-1, 1.5, NaN]) {
+    const e = throws(() => s.envelopeStep(v));
+    assert.equal(e.code, 'bad_parameter');
+    assert.match(e.message, /envelopeStep: k must be a whole number/);
+  }
+  assert.equal(s.envelopeStep(2), 2, 'nothing ran on the refused calls');
+  s.scanStart({ n_sim: 5, seed: 1 });
+  assert.equal(throws(() => s.scanStep(-1)).code, 'bad_parameter');
+  assert.equal(s.scanStep(1), 1);
+  assert.equal(throws(() => s.rejections('events', -1, 10)).code, 'bad_parameter');
+  assert.equal(throws(() => s.rejections('events', 0, 2.5)).code, 'bad_parameter');
+  assert.equal(s.rejections('events', 0, 10).offset, 0);
+});
+
 test('drawEnvelopeChart refuses an unknown chart option by name', () => {
   const s = demo();
   s.envelopeStart({ n_sim: 3, seed: 1, n_steps: 10 });
