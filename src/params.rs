@@ -480,6 +480,13 @@ fn split_punct(w: &str) -> (&str, &str) {
     w.split_at(cut)
 }
 
+/// Options handled by the session (fields marked `session`), by name.
+pub type SessionOptions = serde_json::Map<String, Value>;
+
+/// Why options were refused: the error code (`"bad_options"` or
+/// `"bad_parameter"`) and a message naming the option.
+pub type DecodeError = (&'static str, String);
+
 /// Reads the options of `P` from a JSON value: `null` gives the defaults;
 /// an unknown key, a value of the wrong type or out of range gives a
 /// message naming the option. `Err((code, message))` with code
@@ -488,7 +495,7 @@ fn split_punct(w: &str) -> (&str, &str) {
 pub fn decode<P: Params>(
     v: Value,
     extent_m: Option<f64>,
-) -> Result<(P, serde_json::Map<String, Value>), (&'static str, String)> {
+) -> Result<(P, SessionOptions), DecodeError> {
     let mut obj = match v {
         Value::Null => serde_json::Map::new(),
         Value::Object(m) => m,

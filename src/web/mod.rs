@@ -97,7 +97,7 @@ pub(crate) fn from_js<T: serde::de::DeserializeOwned + Default>(v: JsValue) -> R
 pub(crate) fn decode<P: params::Params>(
     v: JsValue,
     extent_m: Option<f64>,
-) -> Result<(P, serde_json::Map<String, serde_json::Value>), JsValue> {
+) -> Result<(P, params::SessionOptions), JsValue> {
     let json = js_to_json(&v, P::NAME, 0)?;
     params::decode::<P>(json, extent_m).map_err(|(code, msg)| js_error(code, &msg, None))
 }
