@@ -68,6 +68,7 @@ build() {
   wasm-bindgen --target no-modules --no-typescript --remove-name-section \
     --remove-producers-section --out-dir www/pkg "$wasm"
   wasm-bindgen --target nodejs --out-dir dist/node "$wasm"
+  node tools/gen-dts.mjs
   step "assembling dist/cloister.html"
   node tools/build-page.mjs
   ls -l dist/cloister.html

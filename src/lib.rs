@@ -39,6 +39,9 @@
 //!   cell and zone counts with small-count and complementary suppression,
 //!   the cost of masking, CSV/GeoJSON exports with a preview of what leaves).
 //! * How is it drawn? → [`plot`] (charts generic over a plotters backend).
+//! * Which options does each analysis take? → [`params`] (names with units,
+//!   defaults, limits and allowed values, in one list per analysis; the
+//!   checks, the JS API's `parameterSpec` and the page's limits read it).
 
 #![forbid(unsafe_code)]
 
@@ -48,6 +51,7 @@ pub mod error;
 pub mod index;
 pub mod input;
 pub mod intensity;
+pub mod params;
 pub mod plot;
 pub mod privacy;
 pub mod projection;

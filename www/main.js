@@ -16,6 +16,7 @@ import { PAGE_SIZE, loadRejections } from './results.js';
 import { map, createMap, renderLegend } from './mapview.js';
 import { CLOISTER_PALETTE } from './map.js';
 import { panelApi } from './panel-api.js';
+import { watchParameterLimits } from './param-limits.js';
 import { mountClustering } from './analyses/clustering.js';
 import { mountHotspots } from './analyses/hotspots.js';
 import { mountSharing } from './analyses/sharing.js';
@@ -112,6 +113,7 @@ async function boot() {
     state.module = await WebAssembly.compile(bytes);
     await wasm_bindgen({ module_or_path: state.module });
     $('version').textContent = `version ${wasm_bindgen.version()}`;
+    watchParameterLimits(wasm_bindgen);
     await startWorker();
   } catch (err) {
     showError('The engine could not start', err);

@@ -3,6 +3,7 @@
 
 import { $, el, fmt, fmtFixed, fmtMetres, plural } from './dom.js';
 import { state } from './state.js';
+import { paramSpec } from './param-limits.js';
 import { setStatus, showError, clearError, act } from './status.js';
 import { call, runJob } from './engine.js';
 import { snapshotListeners } from './results.js';
@@ -45,4 +46,7 @@ export const panelApi = {
   },
   /** The engine running on the page's own thread (for drawing charts). */
   engine() { return wasm_bindgen; },
+  /** One option of an analysis as the engine describes it (kind, unit,
+   * default, min, max, allowed): the one home of defaults and limits. */
+  param(method, name) { return paramSpec(method, name); },
 };

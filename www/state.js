@@ -11,6 +11,8 @@ export const state = {
   progressTimer: 0,
   restarting: false,
   engineReady: null, // a promise while the engine restarts
+  // The analyses' options as the engine describes them (main.js, at start).
+  spec: null,
   // The loaded data (loading.js, columns.js, results.js, recovery.js).
   // Kept file bytes, so options can change and a crashed engine can be refilled.
   events: null, // {bytes, name, options}

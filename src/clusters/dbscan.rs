@@ -35,7 +35,7 @@ use serde::{Deserialize, Serialize};
 
 /// Options for [`dbscan`].
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct DbscanOptions {
     /// Neighbourhood radius in metres (`d ≤ eps_m`). Must be set (> 0); the
     /// k-distance plot ([`super::kdist`]) helps choose it.
@@ -55,6 +55,31 @@ impl Default for DbscanOptions {
         }
     }
 }
+
+impl crate::params::Params for DbscanOptions {
+    const NAME: &'static str = "dbscan";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::{Field, EXTENT_FACTOR};
+        vec![
+            Field::number(
+                "eps_m",
+                Some("m"),
+                "neighbourhood radius (required; the k-distance plot helps choose it)",
+            )
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR),
+            Field::integer(
+                "min_samples",
+                "events in a neighbourhood, itself included, for a core event",
+            )
+            .range(1.0, MAX_MIN_SAMPLES as f64),
+            Field::boolean("use_weights", "count events by their weight"),
+        ]
+    }
+}
+
+/// Largest `min_samples` accepted by [`dbscan`] and the k-distance plot.
+pub const MAX_MIN_SAMPLES: usize = 1000;
 
 /// One row of the cluster table.
 #[derive(Debug, Clone, PartialEq, Serialize)]

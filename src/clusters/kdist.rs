@@ -16,6 +16,32 @@ use crate::error::AnalysisError;
 use crate::index::GridIndex;
 use serde::Serialize;
 
+/// The one parameter of the k-distance plot (`kDistance(min_samples)`).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, serde::Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct KDistanceParams {
+    /// DBSCAN's `min_samples`: the distance to the `(min_samples − 1)`-th
+    /// nearest other event is plotted.
+    pub min_samples: usize,
+}
+
+impl Default for KDistanceParams {
+    fn default() -> Self {
+        KDistanceParams { min_samples: 5 }
+    }
+}
+
+impl crate::params::Params for KDistanceParams {
+    const NAME: &'static str = "kDistance";
+    fn fields() -> Vec<crate::params::Field> {
+        vec![crate::params::Field::integer(
+            "min_samples",
+            "DBSCAN's min_samples: distances to the (min_samples − 1)-th nearest other event",
+        )
+        .range(2.0, super::dbscan::MAX_MIN_SAMPLES as f64)]
+    }
+}
+
 /// The sorted k-distances and a suggested `eps`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct KDistance {

@@ -9,4 +9,4 @@ pub mod dbscan;
 pub mod kdist;
 
 pub use dbscan::{dbscan, dbscan_xy, ClusterRow, DbscanOptions, DbscanResult};
-pub use kdist::{k_distance_plot, KDistance};
+pub use kdist::{k_distance_plot, KDistance, KDistanceParams};

@@ -35,7 +35,7 @@ pub const CLARK_EVANS_SE: f64 = 0.26136;
 
 /// Parameters of the Clark–Evans test.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct ClarkEvansParams {
     /// Simulations for the Monte Carlo p-value (0 to 9999; default 999).
     pub n_sim: usize,
@@ -48,6 +48,21 @@ impl Default for ClarkEvansParams {
             n_sim: 999,
             seed: 1,
         }
+    }
+}
+
+impl crate::params::Params for ClarkEvansParams {
+    const NAME: &'static str = "clarkEvans";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::Field;
+        vec![
+            Field::integer(
+                "n_sim",
+                "simulations for the Monte Carlo p-value (0 = none)",
+            )
+            .range(0.0, 9999.0),
+            Field::seed("seed of the simulations"),
+        ]
     }
 }
 
@@ -148,12 +163,7 @@ pub fn clark_evans(
     params: &ClarkEvansParams,
 ) -> Result<ClarkEvansResult, AnalysisError> {
     let region = checked_region(pattern, window)?;
-    if params.n_sim > 9999 {
-        return Err(AnalysisError::BadParameter {
-            name: "n_sim".into(),
-            detail: "must be at most 9999".into(),
-        });
-    }
+    crate::params::Params::validate(params)?;
     let (x, y) = (pattern.x(), pattern.y());
     let n = x.len();
     let nn = nn_distances(x, y);

@@ -181,19 +181,158 @@ fn simulate_curves(
 }
 
 fn check_params(params: &EnvelopeParams) -> Result<(), AnalysisError> {
-    if !(1..=9999).contains(&params.n_sim) {
-        return Err(AnalysisError::BadParameter {
-            name: "n_sim".into(),
-            detail: "must be between 1 and 9999".into(),
-        });
+    use crate::params::Params;
+    EnvelopeOptions::from(params).validate()
+}
+
+/// The options of an envelope run as the JS API takes them (`envelopeStart`):
+/// flat, with units in the names. The one home of their defaults and
+/// limits; [`EnvelopeOptions::params`] gives the [`EnvelopeParams`] the
+/// job runs with.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct EnvelopeOptions {
+    pub function: SummaryFunction,
+    pub n_sim: usize,
+    pub seed: u64,
+    pub alpha: f64,
+    pub reference: Reference,
+    /// Start of the test interval, m (`None`: 0; h for g).
+    pub r_min_m: Option<f64>,
+    /// Largest distance, m (`None`: the rule of [`FunctionParams`]).
+    pub r_max_m: Option<f64>,
+    pub n_steps: usize,
+    pub correction: Correction,
+    pub nn_correction: NnCorrection,
+    /// Kernel half-width for g, m (`None`: 0.15/√λ̂).
+    pub bandwidth_m: Option<f64>,
+}
+
+impl Default for EnvelopeOptions {
+    fn default() -> Self {
+        EnvelopeOptions::from(&EnvelopeParams::default())
     }
-    if !(params.alpha > 0.0 && params.alpha < 1.0) {
-        return Err(AnalysisError::BadParameter {
-            name: "alpha".into(),
-            detail: "must be between 0 and 1".into(),
-        });
+}
+
+impl From<&EnvelopeParams> for EnvelopeOptions {
+    fn from(p: &EnvelopeParams) -> Self {
+        EnvelopeOptions {
+            function: p.function,
+            n_sim: p.n_sim,
+            seed: p.seed,
+            alpha: p.alpha,
+            reference: p.reference,
+            r_min_m: p.r_min,
+            r_max_m: p.functions.r_max,
+            n_steps: p.functions.n_steps,
+            correction: p.functions.correction,
+            nn_correction: p.functions.nn_correction,
+            bandwidth_m: p.functions.bandwidth,
+        }
     }
-    Ok(())
+}
+
+impl EnvelopeOptions {
+    /// The parameters of the run (fields not set here keep their defaults).
+    pub fn params(&self) -> EnvelopeParams {
+        let d = EnvelopeParams::default();
+        EnvelopeParams {
+            function: self.function,
+            n_sim: self.n_sim,
+            seed: self.seed,
+            alpha: self.alpha,
+            reference: self.reference,
+            r_min: self.r_min_m,
+            functions: FunctionParams {
+                r_max: self.r_max_m,
+                n_steps: self.n_steps,
+                correction: self.correction,
+                nn_correction: self.nn_correction,
+                bandwidth: self.bandwidth_m,
+                ..d.functions
+            },
+        }
+    }
+}
+
+impl crate::params::Params for EnvelopeOptions {
+    const NAME: &'static str = "envelopeStart";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::{Field, EXTENT_FACTOR};
+        vec![
+            Field::choice(
+                "function",
+                &[
+                    "nearest_neighbour",
+                    "empty_space",
+                    "j",
+                    "k",
+                    "l",
+                    "pair_correlation",
+                ],
+                "summary function tested",
+            ),
+            Field::integer("n_sim", "simulations of complete spatial randomness")
+                .range(1.0, 9999.0),
+            Field::seed("seed of the simulations"),
+            Field::number("alpha", None, "level of the global tests").above(0.0, Some(0.5)),
+            Field::choice(
+                "reference",
+                &["theoretical", "simulation_mean"],
+                "reference curve of the global tests",
+            ),
+            Field::number(
+                "r_min_m",
+                Some("m"),
+                "start of the tested distances; empty = 0 (the kernel half-width for g)",
+            )
+            .at_least(0.0)
+            .extent(EXTENT_FACTOR)
+            .optional(),
+            Field::number(
+                "r_max_m",
+                Some("m"),
+                "largest distance; empty = a rule from the study area's shape",
+            )
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR)
+            .optional(),
+            Field::integer("n_steps", "steps from 0 to the largest distance").range(2.0, 1000.0),
+            Field::choice(
+                "correction",
+                &["isotropic", "translation", "border", "none"],
+                "edge correction for K, L and g",
+            ),
+            Field::choice(
+                "nn_correction",
+                &["border", "none"],
+                "edge correction for G, F and J",
+            ),
+            Field::number(
+                "bandwidth_m",
+                Some("m"),
+                "kernel half-width for g; empty = 0.15/√(intensity)",
+            )
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR)
+            .optional(),
+        ]
+    }
+    fn check(&self) -> Result<(), AnalysisError> {
+        if let (Some(a), Some(b)) = (self.r_min_m, self.r_max_m) {
+            if a >= b {
+                return Err(crate::params::bad(
+                    "r_min_m",
+                    format!(
+                        "must be less than r_max_m ({} m; got {} m)",
+                        crate::params::num(b),
+                        crate::params::num(a)
+                    ),
+                ));
+            }
+        }
+        Ok(())
+    }
 }
 
 /// Parameters of an envelope run.

@@ -36,8 +36,8 @@ pub use clark_evans::{
 pub use csr::{simulate_csr, simulate_matern2, simulate_thomas, stream_seed, ThomasParams};
 pub use edge::{Correction, NnCorrection};
 pub use envelope::{
-    envelope, monte_carlo_p, EnvelopeJob, EnvelopeParams, EnvelopeResult, EnvelopeSimulator,
-    GlobalTest, Reference, SimulationShare, SummaryFunction,
+    envelope, monte_carlo_p, EnvelopeJob, EnvelopeOptions, EnvelopeParams, EnvelopeResult,
+    EnvelopeSimulator, GlobalTest, Reference, SimulationShare, SummaryFunction,
 };
 pub use functions::{distance_functions, DistanceFunctions, FunctionParams};
 pub use quadrat::{quadrat_from_counts, quadrat_test, QuadratParams, QuadratResult, QuadratStats};

@@ -41,7 +41,7 @@ use statrs::distribution::{ChiSquared, ContinuousCDF};
 
 /// Parameters of the quadrat test.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct QuadratParams {
     /// Columns (automatic when absent).
     pub nx: Option<usize>,
@@ -60,6 +60,27 @@ impl Default for QuadratParams {
             n_sim: 999,
             seed: 1,
         }
+    }
+}
+
+impl crate::params::Params for QuadratParams {
+    const NAME: &'static str = "quadratTest";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::Field;
+        vec![
+            Field::integer("nx", "columns of the grid; empty = automatic")
+                .range(1.0, 100.0)
+                .optional(),
+            Field::integer("ny", "rows of the grid; empty = automatic")
+                .range(1.0, 100.0)
+                .optional(),
+            Field::integer(
+                "n_sim",
+                "simulations for the Monte Carlo p-value (0 = none)",
+            )
+            .range(0.0, 9999.0),
+            Field::seed("seed of the simulations"),
+        ]
     }
 }
 
@@ -213,9 +234,7 @@ pub(crate) fn quadrat_in(
     y: &[f64],
     params: &QuadratParams,
 ) -> Result<QuadratResult, AnalysisError> {
-    if params.n_sim > 9999 {
-        return Err(bad("n_sim", "must be at most 9999"));
-    }
+    crate::params::Params::validate(params)?;
     let n = x.len();
     let (anx, any) = auto_grid(region, n);
     let nx = params.nx.unwrap_or(anx);

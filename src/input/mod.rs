@@ -76,7 +76,7 @@ pub enum DateOrder {
 /// For GeoJSON points the coordinates come from the geometry and `x`/`y` are
 /// ignored; the other fields name properties.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct ColumnMapping {
     pub x: Option<String>,
     pub y: Option<String>,
@@ -88,7 +88,7 @@ pub struct ColumnMapping {
 /// Options for reading an events or controls file. All fields have defaults,
 /// so JavaScript may pass `{}`.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct ReadOptions {
     /// Column roles; unset roles are detected.
     pub mapping: ColumnMapping,
@@ -100,6 +100,43 @@ pub struct ReadOptions {
     /// Set to `""` to turn off detection of the time column etc. is not needed:
     /// use the mapping. `delimiter`: `None` = detect among `,` `;` tab.
     pub delimiter: Option<char>,
+}
+
+/// Options for a study-area file (`loadArea`).
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct AreaOptions {
+    /// Coordinate system; `None` = detect.
+    pub coords: Option<CoordKind>,
+}
+
+const COORDS_DOC: &str = "coordinate system: {kind: \"lon_lat\"} or {kind: \"planar\", unit: \"metre\" | \"foot\" | \"us_survey_foot\"}; empty = detect";
+
+impl crate::params::Params for ReadOptions {
+    const NAME: &'static str = "loadEvents";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::Field;
+        vec![
+            Field::object(
+                "mapping",
+                "column roles {x, y, time, category, weight}, each a column name; unset roles are detected",
+            ),
+            Field::object("coords", COORDS_DOC).optional(),
+            Field::choice(
+                "date_order",
+                &["day_month_year", "month_day_year", "year_month_day"],
+                "how to read dates written with slashes, dots or dashes",
+            ),
+            Field::text("delimiter", "one character; empty = detect among , ; and tab").optional(),
+        ]
+    }
+}
+
+impl crate::params::Params for AreaOptions {
+    const NAME: &'static str = "loadArea";
+    fn fields() -> Vec<crate::params::Field> {
+        vec![crate::params::Field::object("coords", COORDS_DOC).optional()]
+    }
 }
 
 /// Why one row was not accepted.

@@ -80,6 +80,110 @@ pub struct SurfaceOptions {
     pub use_weights: bool,
 }
 
+/// The options of `intensitySurface` as the JS API takes them: flat, the
+/// one home of their defaults and limits. [`SurfaceParams::options`] gives
+/// the [`SurfaceOptions`] of [`kernel_surface`].
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct SurfaceParams {
+    pub kernel: Kernel,
+    pub method: BandwidthMethod,
+    /// The bandwidth when `method` is `fixed`, metres.
+    pub fixed_m: Option<f64>,
+    /// Candidates tried by the two criteria.
+    pub candidates: usize,
+    pub edge: EdgeCorrection,
+    /// Cells along the longer side of the study area's bounding box.
+    pub cells: usize,
+    pub use_weights: bool,
+    /// Percent-volume fractions for the isopleths.
+    pub isopleths: Vec<f64>,
+    /// Whether to count events that the bandwidth would expose.
+    pub privacy_check: bool,
+}
+
+impl Default for SurfaceParams {
+    fn default() -> Self {
+        let d = SurfaceOptions::default();
+        SurfaceParams {
+            kernel: d.kernel,
+            method: d.bandwidth.method,
+            fixed_m: d.bandwidth.fixed_m,
+            candidates: d.bandwidth.candidates,
+            edge: d.edge,
+            cells: d.grid.cells_long_side,
+            use_weights: d.use_weights,
+            isopleths: vec![0.5, 0.75, 0.95],
+            privacy_check: true,
+        }
+    }
+}
+
+impl SurfaceParams {
+    /// The options of [`kernel_surface`].
+    pub fn options(&self) -> SurfaceOptions {
+        SurfaceOptions {
+            kernel: self.kernel,
+            bandwidth: BandwidthOptions {
+                method: self.method,
+                fixed_m: self.fixed_m,
+                candidates: self.candidates,
+                ..Default::default()
+            },
+            edge: self.edge,
+            grid: GridOptions {
+                cells_long_side: self.cells,
+                cell_m: None,
+            },
+            use_weights: self.use_weights,
+            ..Default::default()
+        }
+    }
+}
+
+impl crate::params::Params for SurfaceParams {
+    const NAME: &'static str = "intensitySurface";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::{Field, EXTENT_FACTOR};
+        vec![
+            Field::choice("kernel", &["gaussian", "quartic"], "kernel shape"),
+            Field::choice(
+                "method",
+                &["normal_reference", "likelihood_cv", "diggle_mse", "fixed"],
+                "how the bandwidth is chosen",
+            ),
+            Field::number("fixed_m", Some("m"), "the bandwidth when method is fixed")
+                .above(0.0, None)
+                .extent(EXTENT_FACTOR)
+                .optional(),
+            Field::integer("candidates", "bandwidths tried by the two criteria").range(3.0, 200.0),
+            Field::choice(
+                "edge",
+                &["none", "uniform", "jones_diggle"],
+                "edge correction",
+            ),
+            Field::integer("cells", "grid cells along the study area's longer side")
+                .range(2.0, grid::MAX_SIDE as f64),
+            Field::boolean("use_weights", "weigh events by their weight column"),
+            Field::numbers("isopleths", "percent-volume fractions of the isopleths")
+                .above(0.0, Some(1.0)),
+            Field::boolean(
+                "privacy_check",
+                "count events whose bump would point at a single address",
+            ),
+        ]
+    }
+    fn check(&self) -> Result<(), AnalysisError> {
+        if self.method == BandwidthMethod::Fixed && self.fixed_m.is_none() {
+            return Err(crate::params::bad(
+                "fixed_m",
+                "a fixed bandwidth needs fixed_m (metres)",
+            ));
+        }
+        Ok(())
+    }
+}
+
 /// A kernel intensity surface and how it was made.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct IntensitySurface {

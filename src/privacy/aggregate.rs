@@ -80,6 +80,138 @@ impl Default for AggregateParams {
     }
 }
 
+/// How `aggregate` lays out its areas.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum AggregateLayout {
+    #[default]
+    Square,
+    Hexagon,
+    Zones,
+}
+
+/// The options of `aggregate` (counts per cell or zone, then suppression)
+/// as the JS API takes them: the one home of their defaults and limits.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct AggregateOptions {
+    pub layout: AggregateLayout,
+    /// Side of a square, or distance between opposite sides of a hexagon, m.
+    pub cell_size_m: f64,
+    pub orientation: HexOrientation,
+    /// The zones file (GeoJSON polygons), for layout `zones`; passed as bytes.
+    #[serde(skip)]
+    pub zones: Option<Vec<u8>>,
+    pub zone_name_property: Option<String>,
+    pub zone_population_property: Option<String>,
+    pub zone_group_property: Option<String>,
+    pub min_count: u64,
+    pub suppress_zeros: bool,
+    pub publish_row_column_totals: bool,
+    pub rate_per: f64,
+    pub rate_min_population: f64,
+    pub rate_unreliable_below: u64,
+}
+
+impl Default for AggregateOptions {
+    fn default() -> Self {
+        let g = AggregateParams::default();
+        let s = super::suppress::SuppressionParams::default();
+        AggregateOptions {
+            layout: AggregateLayout::Square,
+            cell_size_m: g.cell_size_m,
+            orientation: g.orientation,
+            zones: None,
+            zone_name_property: None,
+            zone_population_property: None,
+            zone_group_property: None,
+            min_count: s.min_count,
+            suppress_zeros: s.suppress_zeros,
+            publish_row_column_totals: s.publish_row_column_totals,
+            rate_per: s.rate_per,
+            rate_min_population: s.rate_min_population,
+            rate_unreliable_below: s.rate_unreliable_below,
+        }
+    }
+}
+
+impl AggregateOptions {
+    /// The settings of the suppression step.
+    pub fn suppression(&self) -> super::suppress::SuppressionParams {
+        super::suppress::SuppressionParams {
+            min_count: self.min_count,
+            suppress_zeros: self.suppress_zeros,
+            publish_row_column_totals: self.publish_row_column_totals,
+            rate_per: self.rate_per,
+            rate_min_population: self.rate_min_population,
+            rate_unreliable_below: self.rate_unreliable_below,
+            ..Default::default()
+        }
+    }
+}
+
+impl crate::params::Params for AggregateOptions {
+    const NAME: &'static str = "aggregate";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::{Field, EXTENT_FACTOR};
+        vec![
+            Field::choice(
+                "layout",
+                &["square", "hexagon", "zones"],
+                "cells or the zones of a file",
+            ),
+            Field::number(
+                "cell_size_m",
+                Some("m"),
+                "side of a square; distance between opposite sides of a hexagon",
+            )
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR),
+            Field::choice(
+                "orientation",
+                &["pointy_top", "flat_top"],
+                "orientation of hexagons",
+            ),
+            Field::bytes(
+                "zones",
+                "the zones file (GeoJSON polygons) for layout zones",
+            )
+            .optional(),
+            Field::text(
+                "zone_name_property",
+                "property naming each zone; empty = detect",
+            )
+            .optional(),
+            Field::text(
+                "zone_population_property",
+                "property with each zone's population",
+            )
+            .optional(),
+            Field::text(
+                "zone_group_property",
+                "property grouping zones for published subtotals",
+            )
+            .optional(),
+            Field::integer("min_count", "counts from 1 to min_count − 1 are hidden")
+                .range(1.0, 1000.0),
+            Field::boolean("suppress_zeros", "hide zero counts too"),
+            Field::boolean(
+                "publish_row_column_totals",
+                "publish row and column totals of the grid",
+            ),
+            Field::number("rate_per", None, "rates are given per this many people")
+                .above(0.0, Some(1e9)),
+            Field::number("rate_min_population", None, "no rate below this population")
+                .range(0.0, 1e12),
+            Field::integer(
+                "rate_unreliable_below",
+                "rates from fewer events are marked unreliable",
+            )
+            .range(0.0, 1e6),
+        ]
+    }
+}
+
 /// A zone to count in.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Zone {

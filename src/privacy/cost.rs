@@ -35,7 +35,7 @@ use std::f64::consts::PI;
 
 /// Settings of the comparison.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct CostParams {
     /// Kernel SD per axis, m; `None`: normal-reference rule on the original.
     pub bandwidth_m: Option<f64>,
@@ -49,6 +49,25 @@ impl Default for CostParams {
             bandwidth_m: None,
             grid_cells: 64,
         }
+    }
+}
+
+impl crate::params::Params for CostParams {
+    const NAME: &'static str = "maskingCost";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::{Field, EXTENT_FACTOR};
+        vec![
+            Field::number(
+                "bandwidth_m",
+                Some("m"),
+                "kernel SD per axis of the compared surfaces; empty = rule of thumb on the original points",
+            )
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR)
+            .optional(),
+            Field::integer("grid_cells", "cells along the longer side of the study area")
+                .range(2.0, 1024.0),
+        ]
     }
 }
 

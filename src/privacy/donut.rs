@@ -58,7 +58,7 @@ pub enum DistanceLaw {
 
 /// Settings of a donut run.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct DonutParams {
     pub r_min_m: f64,
     pub r_max_m: f64,
@@ -76,6 +76,44 @@ impl Default for DonutParams {
             seed: 1,
             max_tries: 1000,
         }
+    }
+}
+
+/// Fields shared by the two masking methods.
+pub(crate) fn mask_fields(r_min_default_doc: &'static str) -> Vec<crate::params::Field> {
+    use crate::params::{Field, EXTENT_FACTOR};
+    vec![
+        Field::number("r_min_m", Some("m"), r_min_default_doc)
+            .at_least(0.0)
+            .extent(EXTENT_FACTOR),
+        Field::number("r_max_m", Some("m"), "largest displacement")
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR),
+        Field::choice(
+            "law",
+            &["area_uniform", "distance_uniform"],
+            "how the distance is drawn: uniform over the ring's area, or uniform in distance",
+        ),
+        Field::seed(
+            "seed of the shifts; in the JS API, empty = drawn from the platform's cryptographic generator (never returned)",
+        ),
+        Field::integer("max_tries", "candidates drawn per point before leaving it out")
+            .range(1.0, 100_000.0),
+        Field::boolean(
+            "replace",
+            "replace the kept masked copy (masking again is refused without it: mask once)",
+        )
+        .session(),
+    ]
+}
+
+impl crate::params::Params for DonutParams {
+    const NAME: &'static str = "maskDonut";
+    fn fields() -> Vec<crate::params::Field> {
+        mask_fields("smallest displacement")
+    }
+    fn check(&self) -> Result<(), AnalysisError> {
+        check_radii(self.r_min_m, self.r_max_m, self.max_tries)
     }
 }
 

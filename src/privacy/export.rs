@@ -86,6 +86,75 @@ impl ExportOptions {
     }
 }
 
+/// What a report holds when both masked points and counts exist.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ReportHolds {
+    MaskedPoints,
+    Counts,
+    Both,
+}
+
+/// The options of `exportFile` and `exportPreview` as the JS API takes
+/// them: the one home of their defaults and limits.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct ExportRequest {
+    pub format: Option<ExportFormat>,
+    /// Default: longitude/latitude when the events were, else metres.
+    pub coordinates: Option<CoordinateOutput>,
+    pub decimals: Option<u32>,
+    pub created: Option<String>,
+    pub confirm_unmasked: bool,
+    /// Report only: a PNG as a data URL, drawn by the page from masked /
+    /// aggregated layers.
+    pub map_image: Option<String>,
+    /// Report only: a title line.
+    pub title: Option<String>,
+    /// Report only: which shared results it holds when there are both
+    /// masked points and counts (required when counts are hidden).
+    pub report_holds: Option<ReportHolds>,
+}
+
+impl crate::params::Params for ExportRequest {
+    const NAME: &'static str = "exportFile";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::Field;
+        vec![
+            Field::choice("format", &["csv", "geo_json"], "file format; empty = csv").optional(),
+            Field::choice(
+                "coordinates",
+                &["metres", "lon_lat"],
+                "coordinates written; empty = longitude/latitude when the events were, else metres",
+            )
+            .optional(),
+            Field::integer(
+                "decimals",
+                "decimals written; empty = 1 for metres, 6 for degrees",
+            )
+            .range(0.0, 12.0)
+            .optional(),
+            Field::text("created", "date written in the file; empty = now").optional(),
+            Field::boolean(
+                "confirm_unmasked",
+                "needed to export the unmasked points (labelled for internal use only)",
+            ),
+            Field::text(
+                "map_image",
+                "report only: a PNG data URL of the shared layers",
+            )
+            .optional(),
+            Field::text("title", "report only: a title line").optional(),
+            Field::choice(
+                "report_holds",
+                &["masked_points", "counts", "both"],
+                "report only: which shared results it holds",
+            )
+            .optional(),
+        ]
+    }
+}
+
 /// What to export.
 #[derive(Debug, Clone, Copy)]
 pub enum ExportContent<'a> {

@@ -78,7 +78,7 @@ use std::f64::consts::PI;
 
 /// Settings of a k-anonymity run.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct KAnonParams {
     pub target_k: usize,
     pub r_min_m: f64,
@@ -106,6 +106,60 @@ impl Default for KAnonParams {
             population_contains_events: false,
             keep_below_target: false,
         }
+    }
+}
+
+/// What k is measured against (the JS API's `against`, chosen by the
+/// session: the loaded population layer, or `density_per_km2`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Against {
+    Population,
+    Density,
+}
+
+impl crate::params::Params for KAnonParams {
+    const NAME: &'static str = "maskKAnonymity";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::Field;
+        let mut f = vec![Field::integer(
+            "target_k",
+            "candidate addresses at least as close as the true one",
+        )
+        .range(1.0, 10_000.0)];
+        f.extend(super::donut::mask_fields(
+            "smallest displacement (raised where the target needs more)",
+        ));
+        f.extend([
+            Field::number(
+                "density_per_km2",
+                Some("per km²"),
+                "residential density, when k is measured against density",
+            )
+            .above(0.0, Some(1e6))
+            .optional(),
+            Field::number("area_factor", None, "safety factor on the area the target needs")
+                .range(1.0, 100.0),
+            Field::boolean(
+                "population_contains_events",
+                "the population layer includes the events themselves",
+            ),
+            Field::boolean(
+                "keep_below_target",
+                "keep points that cannot reach the target (marked) instead of leaving them out",
+            ),
+            Field::choice(
+                "against",
+                &["population", "density"],
+                "measure k against the loaded population layer, or a residential density; empty = population when one is loaded",
+            )
+            .optional()
+            .session(),
+        ]);
+        f
+    }
+    fn check(&self) -> Result<(), AnalysisError> {
+        super::donut::check_radii(self.r_min_m, self.r_max_m, self.max_tries)
     }
 }
 

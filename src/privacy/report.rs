@@ -13,7 +13,7 @@ use super::shared::{MaskState, SharingState, TableState};
 use super::{CellShape, DistanceLaw, MaskMethod, Spread};
 use crate::error::AnalysisError;
 use crate::study::Study;
-use serde::{Deserialize, Serialize};
+use serde::Serialize;
 use serde_json::Value;
 use std::fmt;
 
@@ -71,14 +71,9 @@ impl fmt::Display for ReportError {
 
 impl std::error::Error for ReportError {}
 
-/// What a report holds when both masked points and counts exist.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum ReportHolds {
-    MaskedPoints,
-    Counts,
-    Both,
-}
+/// What a report holds when both masked points and counts exist (one
+/// home: the export request's option, [`super::export::ReportHolds`]).
+pub use super::export::ReportHolds;
 
 /// The shared results one report is made from.
 pub struct ReportView<'a> {

@@ -107,7 +107,7 @@ pub enum ScanCentres {
 
 /// Options for the scan.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct ScanOptions {
     pub model: ScanModel,
     pub centres: ScanCentres,
@@ -133,6 +133,32 @@ impl Default for ScanOptions {
             seed: 20_240_601,
             max_secondary: 10,
         }
+    }
+}
+
+impl crate::params::Params for ScanOptions {
+    const NAME: &'static str = "scanStart";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::Field;
+        vec![
+            Field::choice(
+                "model",
+                &["auto", "bernoulli", "poisson"],
+                "auto: cases against controls (Bernoulli) when controls are loaded, else events against area (Poisson)",
+            ),
+            Field::choice(
+                "centres",
+                &["auto", "events", "grid"],
+                "where circles are centred: at events, or at cells of a grid",
+            ),
+            Field::integer("cells_long_side", "grid cells along the longer side for grid regions")
+                .range(2.0, 512.0),
+            Field::number("max_share", None, "largest circle, as a share of the total population")
+                .above(0.0, Some(0.5)),
+            Field::integer("n_sim", "Monte Carlo replicates").range(1.0, 100_000.0),
+            Field::seed("seed of the replicates"),
+            Field::integer("max_secondary", "secondary clusters reported at most").range(0.0, 1000.0),
+        ]
     }
 }
 

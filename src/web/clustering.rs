@@ -8,8 +8,8 @@
 //!   [`crate::distance::clark_evans`].
 //! * `envelopeStart(params) -> {total, distances, seed}`: prepares a Monte Carlo
 //!   envelope run (`function`, `n_sim`, `seed`, `alpha`, `reference`,
-//!   `r_min`, `r_max`, `n_steps`, `correction`, `nn_correction`,
-//!   `bandwidth`); the observed curve is computed here.
+//!   `r_min_m`, `r_max_m`, `n_steps`, `correction`, `nn_correction`,
+//!   `bandwidth_m`; see [`EnvelopeOptions`]); the observed curve is computed here.
 //! * `envelopeStep(k) -> done`: runs up to `k` more simulations.
 //! * `envelopeFinish() -> result`: bands, MAD and DCLF tests and the verdict
 //!   (an [`EnvelopeResult`] with snake_case fields).
@@ -34,132 +34,25 @@
 //! `"km"`, or `"auto"`, default: km when the largest distance is 5 km or
 //! more), `band` (`"global"`, default, or `"pointwise"`).
 
-use super::{analysis_error, from_js, js_error, to_js, Session};
+use super::{analysis_error, decode, from_js, js_error, to_js, Session};
 use crate::distance::{
-    clark_evans, quadrat_test, ClarkEvansParams, Correction, EnvelopeJob, EnvelopeParams,
-    EnvelopeSimulator, NnCorrection, QuadratParams, Reference, SimulationShare, SummaryFunction,
+    clark_evans, quadrat_test, ClarkEvansParams, EnvelopeJob, EnvelopeOptions, EnvelopeSimulator,
+    QuadratParams, SimulationShare,
 };
 use crate::plot::{self, EnvelopeChartData, EnvelopeChartOptions};
 use plotters::prelude::IntoDrawingArea;
-use serde::{Deserialize, Serialize};
+use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "clustering";
 /// A helper worker's simulator (see `envelopeHelperStart`).
 const HELPER_KEY: &str = "clustering-helper";
 
-/// Parameters of `envelopeStart`, flat for JavaScript. Absent fields take
-/// the core's defaults.
-#[derive(Debug, Default, Deserialize)]
-#[serde(default, deny_unknown_fields)]
-struct EnvelopeArgs {
-    function: Option<SummaryFunction>,
-    n_sim: Option<usize>,
-    seed: Option<u64>,
-    alpha: Option<f64>,
-    reference: Option<Reference>,
-    r_min: Option<f64>,
-    r_max: Option<f64>,
-    n_steps: Option<usize>,
-    correction: Option<Correction>,
-    nn_correction: Option<NnCorrection>,
-    bandwidth: Option<f64>,
-}
-
-impl EnvelopeArgs {
-    fn params(self) -> Result<EnvelopeParams, JsValue> {
-        let mut p = EnvelopeParams::default();
-        if let Some(v) = self.function {
-            p.function = v;
-        }
-        if let Some(v) = self.n_sim {
-            p.n_sim = v;
-        }
-        if let Some(v) = self.seed {
-            p.seed = v;
-        }
-        if let Some(v) = self.alpha {
-            p.alpha = v;
-        }
-        if let Some(v) = self.reference {
-            p.reference = v;
-        }
-        p.r_min = self.r_min;
-        for (name, v) in [
-            ("r_min", self.r_min),
-            ("r_max", self.r_max),
-            ("bandwidth", self.bandwidth),
-        ] {
-            if let Some(x) = v {
-                if !(x.is_finite() && x >= 0.0) || (name != "r_min" && x == 0.0) {
-                    return Err(js_error(
-                        "bad_parameter",
-                        &format!("{name} must be a positive number of metres (got {x})"),
-                        None,
-                    ));
-                }
-            }
-        }
-        p.functions.r_max = self.r_max;
-        if let Some(v) = self.n_steps {
-            if !(2..=1000).contains(&v) {
-                return Err(js_error(
-                    "bad_parameter",
-                    &format!("n_steps must be between 2 and 1000 (got {v})"),
-                    None,
-                ));
-            }
-            p.functions.n_steps = v;
-        }
-        if let Some(v) = self.correction {
-            p.functions.correction = v;
-        }
-        if let Some(v) = self.nn_correction {
-            p.functions.nn_correction = v;
-        }
-        p.functions.bandwidth = self.bandwidth;
-        Ok(p)
-    }
-}
-
 #[derive(Serialize)]
 struct Started {
     total: usize,
     distances: usize,
     seed: u64,
-}
-
-/// Names `envelopeStart` understands. serde_wasm_bindgen reads only the
-/// fields a struct declares, so a misspelt option would pass silently
-/// without this check.
-const ENVELOPE_FIELDS: [&str; 11] = [
-    "function",
-    "n_sim",
-    "seed",
-    "alpha",
-    "reference",
-    "r_min",
-    "r_max",
-    "n_steps",
-    "correction",
-    "nn_correction",
-    "bandwidth",
-];
-
-fn reject_unknown(v: &JsValue, known: &[&str]) -> Result<(), JsValue> {
-    if let Some(obj) = v.dyn_ref::<js_sys::Object>() {
-        for key in js_sys::Object::keys(obj).iter() {
-            let k = key.as_string().unwrap_or_default();
-            if !known.contains(&k.as_str()) {
-                return Err(js_error(
-                    "bad_options",
-                    &format!("unknown option \"{k}\" (known: {})", known.join(", ")),
-                    None,
-                ));
-            }
-        }
-    }
-    Ok(())
 }
 
 fn no_job() -> JsValue {
@@ -174,8 +67,11 @@ fn no_job() -> JsValue {
 impl Session {
     /// Quadrat counts and the χ² test of CSR.
     #[wasm_bindgen(js_name = quadratTest)]
-    pub fn quadrat_test_js(&self, params: JsValue) -> Result<JsValue, JsValue> {
-        let p: QuadratParams = from_js(params)?;
+    pub fn quadrat_test_js(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "QuadratTestOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (p, _) = decode::<QuadratParams>(params, self.extent_m())?;
         let s = self.study_ref()?;
         let res = quadrat_test(&s.events, &s.window, &p).map_err(|e| analysis_error(&e))?;
         to_js(&res)
@@ -183,8 +79,11 @@ impl Session {
 
     /// Clark–Evans aggregation index with and without Donnelly's correction.
     #[wasm_bindgen(js_name = clarkEvans)]
-    pub fn clark_evans_js(&self, params: JsValue) -> Result<JsValue, JsValue> {
-        let p: ClarkEvansParams = from_js(params)?;
+    pub fn clark_evans_js(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "ClarkEvansOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (p, _) = decode::<ClarkEvansParams>(params, self.extent_m())?;
         let s = self.study_ref()?;
         let res = clark_evans(&s.events, &s.window, &p).map_err(|e| analysis_error(&e))?;
         to_js(&res)
@@ -193,10 +92,12 @@ impl Session {
     /// Starts an envelope run: checks the parameters and computes the
     /// observed curve. Returns `{total, distances, seed}`.
     #[wasm_bindgen(js_name = envelopeStart)]
-    pub fn envelope_start(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
-        reject_unknown(&params, &ENVELOPE_FIELDS)?;
-        let args: EnvelopeArgs = from_js(params)?;
-        let p = args.params()?;
+    pub fn envelope_start(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "EnvelopeStartOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (o, _) = decode::<EnvelopeOptions>(params, self.extent_m())?;
+        let p = o.params();
         self.extras.remove(KEY);
         let s = self.study_ref()?;
         let job = EnvelopeJob::new(&s.events, &s.window, &p).map_err(|e| analysis_error(&e))?;
@@ -211,7 +112,8 @@ impl Session {
 
     /// Runs up to `k` more simulations; returns how many are done so far.
     #[wasm_bindgen(js_name = envelopeStep)]
-    pub fn envelope_step(&mut self, k: usize) -> Result<usize, JsValue> {
+    pub fn envelope_step(&mut self, k: f64) -> Result<usize, JsValue> {
+        let k = super::count_arg(k, "envelopeStep", "k")?;
         let job = self.extra_mut::<EnvelopeJob>(KEY).ok_or_else(no_job)?;
         Ok(job.run_batch(k.max(1)))
     }
@@ -305,7 +207,6 @@ pub fn draw_envelope_chart(
     }
     let data: EnvelopeChartData = serde_wasm_bindgen::from_value(result)
         .map_err(|e| chart_error(&format!("the result was not understood ({e})")))?;
-    reject_unknown(&options, &["view", "units", "band", "scale"])?;
     let opts: EnvelopeChartOptions = from_js(options)?;
     let backend = plotters_canvas::CanvasBackend::new(canvas_id)
         .ok_or_else(|| chart_error(&format!("there is no canvas with id \"{canvas_id}\"")))?;

@@ -13,59 +13,21 @@
 //! draws with plotters-canvas, which needs the DOM (it cannot run in the
 //! worker, see TOOLCHAIN.md).
 
-use super::{analysis_error, from_js, js_error, set, to_js, Session};
-use crate::clusters::{dbscan, k_distance_plot, DbscanOptions};
+use super::{analysis_error, decode, from_js, js_error, set, to_js, Session};
+use crate::clusters::{dbscan, k_distance_plot, DbscanOptions, KDistanceParams};
 use crate::intensity::{
-    kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, GridOptions,
-    IntensitySurface, Kernel, SurfaceOptions,
+    kernel_surface, BandwidthMethod, EdgeCorrection, IntensitySurface, Kernel, SurfaceParams,
 };
 use crate::privacy::disclosure::{distances_to_kth, surface_disclosure, SurfaceDisclosure};
-use crate::scan::{ScanJob, ScanModel, ScanOptions, ScanReport};
+use crate::scan::{ScanJob, ScanOptions, ScanReport};
 use crate::study::Study;
 use js_sys::{Float64Array, Int32Array, Object, Uint8Array};
-use serde::{Deserialize, Serialize};
+use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 const KEY_SURFACE: &str = "hotspots.surface";
 const KEY_KDIST5: &str = "hotspots.kdist_privacy";
 const KEY_SCAN: &str = "hotspots.scan";
-
-/// Options for `intensitySurface`.
-#[derive(Debug, Deserialize)]
-#[serde(default)]
-struct SurfaceParams {
-    kernel: Kernel,
-    /// `normal_reference`, `likelihood_cv`, `diggle_mse` or `fixed`.
-    method: BandwidthMethod,
-    /// Metres, for `fixed`.
-    fixed_m: Option<f64>,
-    /// Candidates tried by the two criteria.
-    candidates: usize,
-    edge: EdgeCorrection,
-    /// Cells along the longer side of the study area's bounding box.
-    cells: usize,
-    use_weights: bool,
-    /// Percent-volume fractions for the isopleths.
-    isopleths: Vec<f64>,
-    /// Whether to count events that the bandwidth would expose.
-    privacy_check: bool,
-}
-
-impl Default for SurfaceParams {
-    fn default() -> Self {
-        SurfaceParams {
-            kernel: Kernel::Gaussian,
-            method: BandwidthMethod::NormalReference,
-            fixed_m: None,
-            candidates: 20,
-            edge: EdgeCorrection::JonesDiggle,
-            cells: 256,
-            use_weights: false,
-            isopleths: vec![0.5, 0.75, 0.95],
-            privacy_check: true,
-        }
-    }
-}
 
 #[derive(Serialize)]
 struct IsoplethOut<'a> {
@@ -127,15 +89,6 @@ fn geographic_centre(s: &Study, x: f64, y: f64) -> (Option<f64>, Option<f64>) {
     }
 }
 
-/// Options for `dbscan`.
-#[derive(Debug, Default, Deserialize)]
-#[serde(default)]
-struct DbscanParams {
-    eps_m: f64,
-    min_samples: Option<usize>,
-    use_weights: bool,
-}
-
 #[derive(Serialize)]
 struct ClusterOut<'a> {
     id: i32,
@@ -148,34 +101,6 @@ struct ClusterOut<'a> {
     hull_area_km2: f64,
     density_per_km2: Option<f64>,
     hull: &'a [[f64; 2]],
-}
-
-/// Options for `scanStart`.
-#[derive(Debug, Deserialize)]
-#[serde(default)]
-struct ScanParams {
-    /// `auto` (Bernoulli with controls, else Poisson against area),
-    /// `bernoulli` or `poisson`.
-    model: ScanModel,
-    max_share: f64,
-    n_sim: usize,
-    seed: f64,
-    cells_long_side: usize,
-    max_secondary: usize,
-}
-
-impl Default for ScanParams {
-    fn default() -> Self {
-        let d = ScanOptions::default();
-        ScanParams {
-            model: d.model,
-            max_share: d.max_share,
-            n_sim: d.n_sim,
-            seed: d.seed as f64,
-            cells_long_side: d.cells_long_side,
-            max_secondary: d.max_secondary,
-        }
-    }
 }
 
 #[wasm_bindgen]
@@ -208,38 +133,17 @@ impl Session {
     /// `notes`, the percent-volume `isopleths` (polygons in metres) and a
     /// `privacy` count. The surface is kept for `isoplethsGeoJson`.
     #[wasm_bindgen(js_name = intensitySurface)]
-    pub fn intensity_surface(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
-        let p: SurfaceParams = from_js(params)?;
+    pub fn intensity_surface(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "IntensitySurfaceOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (p, _) = decode::<SurfaceParams>(params, self.extent_m())?;
         self.extras.remove(KEY_SURFACE);
-        let o = SurfaceOptions {
-            kernel: p.kernel,
-            bandwidth: BandwidthOptions {
-                method: p.method,
-                fixed_m: p.fixed_m,
-                candidates: p.candidates,
-                ..Default::default()
-            },
-            edge: p.edge,
-            grid: GridOptions {
-                cells_long_side: p.cells,
-                cell_m: None,
-            },
-            use_weights: p.use_weights,
-            ..Default::default()
-        };
+        let o = p.options();
         let surf: IntensitySurface = {
             let s = self.study_ref()?;
             kernel_surface(&s.events, &s.window, &o).map_err(|e| analysis_error(&e))?
         };
-        for &f in &p.isopleths {
-            if !(f > 0.0 && f <= 1.0) {
-                return Err(js_error(
-                    "bad_options",
-                    &format!("isopleth fraction {f} must be more than 0 and at most 1"),
-                    None,
-                ));
-            }
-        }
         let iso = surf.isopleths(&p.isopleths);
         let sd = surf.kernel.sd(surf.bandwidth_m);
         let privacy = if p.privacy_check {
@@ -311,12 +215,15 @@ impl Session {
                     None,
                 )
             })?;
-        if let Some(f) = fractions.iter().find(|f| !(**f > 0.0 && **f <= 1.0)) {
-            return Err(js_error(
-                "bad_options",
-                &format!("isopleth fraction {f} must be more than 0 and at most 1"),
-                None,
-            ));
+        {
+            use crate::params::Params;
+            let check = SurfaceParams {
+                isopleths: fractions.clone(),
+                ..Default::default()
+            };
+            check
+                .validate()
+                .map_err(|e| js_error("bad_options", &format!("isoplethsGeoJson: {e}"), None))?;
         }
         let contours = surf.isopleths(&fractions);
         Ok(crate::intensity::isopleth::to_geojson(&contours, |x, y| {
@@ -329,14 +236,12 @@ impl Session {
     /// `{eps_m, min_samples, use_weights}`. Returns `labels` (Int32Array,
     /// −1 = noise, input order), `core` (Uint8Array), `n_clusters`, `noise`
     /// and the cluster table with hulls (metres).
-    pub fn dbscan(&self, params: JsValue) -> Result<JsValue, JsValue> {
-        let p: DbscanParams = from_js(params)?;
+    pub fn dbscan(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "DbscanOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (o, _) = decode::<DbscanOptions>(params, self.extent_m())?;
         let s = self.study_ref()?;
-        let o = DbscanOptions {
-            eps_m: p.eps_m,
-            min_samples: p.min_samples.unwrap_or(5),
-            use_weights: p.use_weights,
-        };
         let r = dbscan(&s.events, &o).map_err(|e| analysis_error(&e))?;
         #[derive(Serialize)]
         struct Out<'a> {
@@ -371,7 +276,7 @@ impl Session {
             min_samples: r.min_samples,
             n_clusters: r.n_clusters,
             noise: r.noise,
-            weighted: p.use_weights && s.events.weight().is_some(),
+            weighted: o.use_weights && s.events.weight().is_some(),
             clusters,
         })?;
         let obj: &Object = out
@@ -386,9 +291,22 @@ impl Session {
     /// Sorted k-distances for choosing DBSCAN's eps: `{min_samples,
     /// sorted_desc_m (Float64Array), knee_eps_m, knee_index}`.
     #[wasm_bindgen(js_name = kDistance)]
-    pub fn k_distance(&self, min_samples: usize) -> Result<JsValue, JsValue> {
+    pub fn k_distance(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "number")] min_samples: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        if min_samples.is_undefined() || min_samples.is_null() {
+            return Err(js_error(
+                "bad_options",
+                "kDistance: give min_samples, DBSCAN's minimum number of events in a neighbourhood",
+                None,
+            ));
+        }
+        let opts = Object::new();
+        set(&opts, "min_samples", &min_samples)?;
+        let (p, _) = decode::<KDistanceParams>(opts.into(), None)?;
         let s = self.study_ref()?;
-        let k = k_distance_plot(s.events.x(), s.events.y(), min_samples)
+        let k = k_distance_plot(s.events.x(), s.events.y(), p.min_samples)
             .map_err(|e| analysis_error(&e))?;
         let obj = Object::new();
         set(
@@ -411,32 +329,12 @@ impl Session {
     /// max_secondary}`. Returns `{total}` (replicates to run). A scan already
     /// prepared or running is dropped.
     #[wasm_bindgen(js_name = scanStart)]
-    pub fn scan_start(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
+    pub fn scan_start(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "ScanStartOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
         self.extras.remove(KEY_SCAN);
-        let p: ScanParams = from_js(params)?;
-        if !(p.seed.is_finite() && p.seed >= 0.0 && p.seed.fract() == 0.0 && p.seed < 9.007e15) {
-            return Err(js_error(
-                "bad_options",
-                "the seed must be a whole number from 0 to 2^53",
-                None,
-            ));
-        }
-        if p.n_sim == 0 || p.n_sim > 100_000 {
-            return Err(js_error(
-                "bad_options",
-                "replicates must be from 1 to 100 000 (999 is usual)",
-                None,
-            ));
-        }
-        let o = ScanOptions {
-            model: p.model,
-            max_share: p.max_share,
-            n_sim: p.n_sim,
-            seed: p.seed as u64,
-            cells_long_side: p.cells_long_side,
-            max_secondary: p.max_secondary,
-            ..Default::default()
-        };
+        let (o, _) = decode::<ScanOptions>(params, self.extent_m())?;
         let job = {
             let s = self.study_ref()?;
             ScanJob::new(&s.events, s.controls.as_ref(), &s.window, &o)
@@ -459,7 +357,8 @@ impl Session {
 
     /// Runs up to `k` more replicates; returns how many are done.
     #[wasm_bindgen(js_name = scanStep)]
-    pub fn scan_step(&mut self, k: usize) -> Result<usize, JsValue> {
+    pub fn scan_step(&mut self, k: f64) -> Result<usize, JsValue> {
+        let k = super::count_arg(k, "scanStep", "k")?;
         let job = self
             .extra_mut::<ScanJob>(KEY_SCAN)
             .ok_or_else(|| js_error("nothing_started", "no scan is running", None))?;

@@ -18,11 +18,12 @@ mod hotspots;
 mod sharing;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};
-use crate::input::{self, CoordKind, RawArea, RawLayer, ReadOptions, Rejection};
+use crate::input::{self, AreaOptions, CoordKind, RawArea, RawLayer, ReadOptions, Rejection};
+use crate::params;
 use crate::study::{AreaFallback, Study};
 use crate::summary;
 use js_sys::{Float64Array, Object, Reflect, Uint32Array};
-use serde::{Deserialize, Serialize};
+use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 /// The tool's version.
@@ -40,12 +41,221 @@ pub(crate) fn to_js<T: Serialize + ?Sized>(v: &T) -> Result<JsValue, JsValue> {
         .map_err(|e| js_error("internal", &e.to_string(), None))
 }
 
-pub(crate) fn from_js<T: for<'de> Deserialize<'de> + Default>(v: JsValue) -> Result<T, JsValue> {
+/// Reads a JS value that is not an analysis's options (chart options,
+/// chart data) through JSON, so `deny_unknown_fields` holds; `null` or
+/// `undefined` gives the defaults. Errors are in plain words.
+pub(crate) fn from_js<T: serde::de::DeserializeOwned + Default>(v: JsValue) -> Result<T, JsValue> {
     if v.is_undefined() || v.is_null() {
         return Ok(T::default());
     }
-    serde_wasm_bindgen::from_value(v)
-        .map_err(|e| js_error("bad_options", &format!("options not understood: {e}"), None))
+    let json = js_to_json(&v, "options", 0)?;
+    serde_json::from_value(json).map_err(|e| {
+        js_error(
+            "bad_options",
+            &format!(
+                "options not understood: {}",
+                params::plain_words(&e.to_string())
+            ),
+            None,
+        )
+    })
+}
+
+/// Reads the options of an analysis (`P`, see [`crate::params`]): unknown
+/// keys, values of the wrong type and values out of range are thrown as
+/// `{code: "bad_options" | "bad_parameter", message}` naming the option.
+/// Returns the options and the session-level keys (e.g. `replace`).
+pub(crate) fn decode<P: params::Params>(
+    v: JsValue,
+    extent_m: Option<f64>,
+) -> Result<(P, params::SessionOptions), JsValue> {
+    let json = js_to_json(&v, P::NAME, 0)?;
+    params::decode::<P>(json, extent_m).map_err(|(code, msg)| js_error(code, &msg, None))
+}
+
+/// As [`decode`], taking the bytes of a file out of key `bytes_key` first
+/// (a `Uint8Array`, or a plain array of numbers).
+pub(crate) fn decode_with_bytes<P: params::Params>(
+    v: JsValue,
+    bytes_key: &str,
+    extent_m: Option<f64>,
+) -> Result<(P, Option<Vec<u8>>), JsValue> {
+    let Some(obj) = v.dyn_ref::<Object>() else {
+        return decode::<P>(v, extent_m).map(|(p, _)| (p, None));
+    };
+    let raw = Reflect::get(obj, &JsValue::from_str(bytes_key))?;
+    let bytes = if raw.is_undefined() || raw.is_null() {
+        None
+    } else if let Some(a) = raw.dyn_ref::<js_sys::Uint8Array>() {
+        Some(a.to_vec())
+    } else if js_sys::Array::is_array(&raw) {
+        let list: Vec<u8> = js_sys::Array::from(&raw)
+            .iter()
+            .map(|x| {
+                x.as_f64()
+                    .filter(|f| (0.0..=255.0).contains(f) && f.fract() == 0.0)
+            })
+            .map(|x| x.map(|f| f as u8))
+            .collect::<Option<Vec<u8>>>()
+            .ok_or_else(|| {
+                js_error(
+                    "bad_options",
+                    &format!(
+                        "{}: option \"{bytes_key}\" must be the bytes of a file (Uint8Array)",
+                        P::NAME
+                    ),
+                    None,
+                )
+            })?;
+        Some(list)
+    } else {
+        return Err(js_error(
+            "bad_options",
+            &format!(
+                "{}: option \"{bytes_key}\" must be the bytes of a file (Uint8Array)",
+                P::NAME
+            ),
+            None,
+        ));
+    };
+    let rest = Object::assign(&Object::new(), obj);
+    Reflect::delete_property(&rest, &JsValue::from_str(bytes_key))?;
+    let (p, _) = decode::<P>(rest.into(), extent_m)?;
+    Ok((p, bytes))
+}
+
+/// A JS value as JSON: numbers that are whole become integers (so they
+/// read as counts); `undefined` and `null` members are left out (not given);
+/// typed arrays become lists; NaN, infinities, functions and symbols are
+/// refused with the option's name.
+pub(crate) fn js_to_json(
+    v: &JsValue,
+    path: &str,
+    depth: u32,
+) -> Result<serde_json::Value, JsValue> {
+    use serde_json::Value;
+    let refuse = |what: &str| js_error("bad_options", &format!("option \"{path}\": {what}"), None);
+    if depth > 32 {
+        return Err(refuse("nested too deeply"));
+    }
+    if v.is_undefined() || v.is_null() {
+        return Ok(Value::Null);
+    }
+    if let Some(b) = v.as_bool() {
+        return Ok(Value::Bool(b));
+    }
+    if let Some(f) = v.as_f64() {
+        return number_json(f).ok_or_else(|| refuse(&format!("{f} is not a finite number")));
+    }
+    if let Some(s) = v.as_string() {
+        return Ok(Value::String(s));
+    }
+    if v.is_bigint() {
+        let text = js_sys::BigInt::from(v.clone())
+            .to_string(10)
+            .map(String::from)
+            .unwrap_or_default();
+        return text
+            .parse::<u64>()
+            .map(Value::from)
+            .or_else(|_| text.parse::<i64>().map(Value::from))
+            .map_err(|_| refuse("the whole number is too large"));
+    }
+    if js_sys::Array::is_array(v) {
+        let a = js_sys::Array::from(v);
+        let mut out = Vec::with_capacity(a.length() as usize);
+        for (i, x) in a.iter().enumerate() {
+            out.push(js_to_json(&x, &format!("{path}[{i}]"), depth + 1)?);
+        }
+        return Ok(Value::Array(out));
+    }
+    if js_sys::ArrayBuffer::is_view(v) {
+        let values = Float64Array::new(v).to_vec();
+        return values
+            .into_iter()
+            .map(|f| {
+                number_json(f).ok_or_else(|| refuse("holds a value that is not a finite number"))
+            })
+            .collect::<Result<Vec<_>, _>>()
+            .map(Value::Array);
+    }
+    if v.is_function() || v.is_symbol() {
+        return Err(refuse("a function or symbol is not an option value"));
+    }
+    if let Some(obj) = v.dyn_ref::<Object>() {
+        let mut m = serde_json::Map::new();
+        for entry in Object::entries(obj).iter() {
+            let pair = js_sys::Array::from(&entry);
+            let key = pair.get(0).as_string().unwrap_or_default();
+            let val = pair.get(1);
+            // A member left undefined or null counts as not given.
+            if val.is_undefined() || val.is_null() {
+                continue;
+            }
+            let sub = if depth == 0 {
+                key.clone()
+            } else {
+                format!("{path}.{key}")
+            };
+            m.insert(key, js_to_json(&val, &sub, depth + 1)?);
+        }
+        return Ok(Value::Object(m));
+    }
+    Err(refuse("not understood"))
+}
+
+/// A finite number as JSON; whole numbers within 2^53 become integers.
+fn number_json(f: f64) -> Option<serde_json::Value> {
+    if !f.is_finite() {
+        return None;
+    }
+    if f.fract() == 0.0 && f.abs() <= 9_007_199_254_740_991.0 {
+        if f >= 0.0 {
+            return Some(serde_json::Value::from(f as u64));
+        }
+        return Some(serde_json::Value::from(f as i64));
+    }
+    serde_json::Number::from_f64(f).map(serde_json::Value::Number)
+}
+
+/// A positional count from JS (a batch size, an offset): a whole number
+/// from 0 to 2^32 − 1, else `{code: "bad_parameter"}` naming it. Without
+/// this, wasm-bindgen would wrap −1 to 4294967295 and read NaN as 0.
+pub(crate) fn count_arg(v: f64, method: &str, name: &str) -> Result<usize, JsValue> {
+    if v.is_finite() && v.fract() == 0.0 && (0.0..=4_294_967_295.0).contains(&v) {
+        Ok(v as usize)
+    } else {
+        Err(js_error(
+            "bad_parameter",
+            &format!("{method}: {name} must be a whole number, 0 or more (got {v})"),
+            None,
+        ))
+    }
+}
+
+/// The analyses' parameters (names, units, defaults, limits, allowed
+/// values): all of them, or those of one method (e.g. `"maskDonut"`).
+/// The page builds its controls from this; see [`crate::params`].
+#[wasm_bindgen(js_name = parameterSpec, unchecked_return_type = "ParameterSpec | ParameterSpec[]")]
+pub fn parameter_spec(analysis: Option<String>) -> Result<JsValue, JsValue> {
+    match analysis {
+        None => to_js(&params::all()),
+        Some(a) => match params::spec(&a) {
+            Some(s) => to_js(&s),
+            None => Err(js_error(
+                "bad_options",
+                &format!(
+                    "no analysis \"{a}\"; known: {}",
+                    params::all()
+                        .iter()
+                        .map(|s| s.analysis)
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+                None,
+            )),
+        },
+    }
 }
 
 /// Builds the thrown error object.
@@ -99,13 +309,6 @@ fn nothing_loaded(what: &str) -> JsValue {
 
 fn set(obj: &Object, key: &str, value: &JsValue) -> Result<(), JsValue> {
     Reflect::set(obj, &JsValue::from_str(key), value).map(|_| ())
-}
-
-/// Options for a study-area file.
-#[derive(Debug, Default, Deserialize)]
-#[serde(default)]
-struct AreaOptions {
-    coords: Option<CoordKind>,
 }
 
 #[derive(Serialize)]
@@ -216,6 +419,15 @@ impl Session {
             .ok_or_else(|| nothing_loaded("an events file"))
     }
 
+    /// The study area's extent (bounding-box diagonal, metres), for the
+    /// limits of lengths; `None` before anything is loaded.
+    pub(crate) fn extent_m(&self) -> Option<f64> {
+        self.study.as_ref().map(|s| {
+            let b = s.window.bbox();
+            (b[2] - b[0]).hypot(b[3] - b[1])
+        })
+    }
+
     pub(crate) fn study_ref(&self) -> Result<&Study, JsValue> {
         self.study
             .as_ref()
@@ -309,8 +521,12 @@ impl Session {
     /// Reads an events file (CSV or GeoJSON bytes). On failure throws and keeps
     /// what was loaded before.
     #[wasm_bindgen(js_name = loadEvents)]
-    pub fn load_events(&mut self, bytes: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
-        let opts: ReadOptions = from_js(options)?;
+    pub fn load_events(
+        &mut self,
+        bytes: &[u8],
+        #[wasm_bindgen(unchecked_param_type = "LoadEventsOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (opts, _) = decode::<ReadOptions>(options, None)?;
         let layer = input::read_points(bytes, &opts).map_err(|e| input_error(&e))?;
         let study = self
             .build(Some(&layer), self.area.as_ref(), self.controls.as_ref())
@@ -325,8 +541,12 @@ impl Session {
 
     /// Reads a controls / population-at-risk file (same formats as events).
     #[wasm_bindgen(js_name = loadControls)]
-    pub fn load_controls(&mut self, bytes: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
-        let opts: ReadOptions = from_js(options)?;
+    pub fn load_controls(
+        &mut self,
+        bytes: &[u8],
+        #[wasm_bindgen(unchecked_param_type = "LoadEventsOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (opts, _) = decode::<ReadOptions>(options, None)?;
         let layer = input::read_points(bytes, &opts).map_err(|e| input_error(&e))?;
         if layer.is_empty() {
             let e = InputError::new(InputErrorKind::NoValidRows {
@@ -360,8 +580,12 @@ impl Session {
 
     /// Reads a study-area file (GeoJSON Polygon / MultiPolygon).
     #[wasm_bindgen(js_name = loadArea)]
-    pub fn load_area(&mut self, bytes: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
-        let opts: AreaOptions = from_js(options)?;
+    pub fn load_area(
+        &mut self,
+        bytes: &[u8],
+        #[wasm_bindgen(unchecked_param_type = "LoadAreaOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (opts, _) = decode::<AreaOptions>(options, None)?;
         let area = input::read_area(bytes, opts.coords).map_err(|e| input_error(&e))?;
         let study = self
             .build(self.events.as_ref(), Some(&area), self.controls.as_ref())
@@ -470,7 +694,9 @@ impl Session {
     }
 
     /// A page of the rejection table: `layer` is `"events"` or `"controls"`.
-    pub fn rejections(&self, layer: &str, offset: usize, limit: usize) -> Result<JsValue, JsValue> {
+    pub fn rejections(&self, layer: &str, offset: f64, limit: f64) -> Result<JsValue, JsValue> {
+        let offset = count_arg(offset, "rejections", "offset")?;
+        let limit = count_arg(limit, "rejections", "limit")?;
         let list: &[Rejection] = match (layer, &self.study) {
             ("events", Some(s)) => &s.event_rejections,
             ("controls", Some(s)) => &s.control_rejections,

@@ -39,149 +39,52 @@
 //!   of counts, and a map picture the page draws from masked / aggregated
 //!   layers only.
 
-use super::{analysis_error, from_js, input_error, js_error, to_js, Session};
+use super::{analysis_error, decode, decode_with_bytes, input_error, js_error, to_js, Session};
 use crate::input::zones::{read_zones, ZoneOptions};
+use crate::privacy::aggregate::{AggregateLayout, AggregateOptions};
 use crate::privacy::cost::{compare, CostParams};
-use crate::privacy::export::{export, CoordinateOutput, ExportContent, ExportOptions};
-use crate::privacy::kanon::{kanon_mask, KAnonParams};
-use crate::privacy::report::{
-    report_file, ReportError, ReportFile, ReportHolds, ReportOptions, CAUTIONS,
+use crate::privacy::export::{
+    export, CoordinateOutput, ExportContent, ExportOptions, ExportRequest,
 };
+use crate::privacy::kanon::{kanon_mask, Against, KAnonParams};
+use crate::privacy::report::{report_file, ReportError, ReportFile, ReportOptions, CAUTIONS};
 use crate::privacy::shared::{
     aggregate_summary, count_in_cells, count_in_zones, mask_summary, zones_for_study, KInfo,
     MaskState, SharingState, TableState,
 };
-use crate::privacy::suppress::{suppress, SuppressionParams};
-use crate::privacy::{
-    donut_mask, what_leaves, CellShape, DistanceLaw, DonutParams, ExportFormat, HexOrientation,
-};
+use crate::privacy::suppress::suppress;
+use crate::privacy::{donut_mask, what_leaves, CellShape, DonutParams};
 use crate::study::Study;
 use js_sys::{Float64Array, Object, Reflect, Uint32Array};
-use serde::Deserialize;
+use serde_json::Value;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "sharing";
 
 // ---------- parameters ----------
 
-#[derive(Debug, Default, Deserialize)]
-#[serde(default, deny_unknown_fields)]
-struct DonutArgs {
-    r_min_m: Option<f64>,
-    r_max_m: Option<f64>,
-    law: Option<DistanceLaw>,
-    max_tries: Option<u32>,
-    seed: Option<u64>,
-    replace: bool,
+// The options of the sharing methods live in the core, with their
+// defaults and limits: [`DonutParams`], [`KAnonParams`], [`CostParams`],
+// [`AggregateOptions`] and [`ExportRequest`] (see `crate::params`).
+type AggArgs = AggregateOptions;
+type AggLayout = AggregateLayout;
+type ExportArgs = ExportRequest;
+
+/// The session-level `replace` flag of the mask methods.
+fn replace_flag(session: &serde_json::Map<String, Value>) -> bool {
+    session
+        .get("replace")
+        .and_then(Value::as_bool)
+        .unwrap_or(false)
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "snake_case")]
-enum Against {
-    Population,
-    Density,
-}
-
-#[derive(Debug, Default, Deserialize)]
-#[serde(default, deny_unknown_fields)]
-struct KArgs {
-    target_k: Option<usize>,
-    r_min_m: Option<f64>,
-    r_max_m: Option<f64>,
-    law: Option<DistanceLaw>,
-    max_tries: Option<u32>,
-    seed: Option<u64>,
-    replace: bool,
-    against: Option<Against>,
-    density_per_km2: Option<f64>,
-    area_factor: Option<f64>,
-    population_contains_events: Option<bool>,
-    keep_below_target: Option<bool>,
-}
-
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
-#[serde(rename_all = "snake_case")]
-enum AggLayout {
-    #[default]
-    Square,
-    Hexagon,
-    Zones,
-}
-
-#[derive(Debug, Default, Deserialize)]
-#[serde(default, deny_unknown_fields)]
-struct AggArgs {
-    layout: AggLayout,
-    cell_size_m: Option<f64>,
-    orientation: Option<HexOrientation>,
-    #[serde(with = "serde_bytes_opt")]
-    zones: Option<Vec<u8>>,
-    zone_name_property: Option<String>,
-    zone_population_property: Option<String>,
-    zone_group_property: Option<String>,
-    min_count: Option<u64>,
-    suppress_zeros: Option<bool>,
-    publish_row_column_totals: Option<bool>,
-    rate_per: Option<f64>,
-    rate_min_population: Option<f64>,
-    rate_unreliable_below: Option<u64>,
-}
-
-/// Zone file bytes arrive as a Uint8Array (or a plain array of numbers).
-mod serde_bytes_opt {
-    use serde::de::{Deserializer, Error, SeqAccess, Visitor};
-
-    struct V;
-    impl<'de> Visitor<'de> for V {
-        type Value = Option<Vec<u8>>;
-        fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
-            f.write_str("the bytes of a file (Uint8Array)")
-        }
-        fn visit_none<E: Error>(self) -> Result<Self::Value, E> {
-            Ok(None)
-        }
-        fn visit_unit<E: Error>(self) -> Result<Self::Value, E> {
-            Ok(None)
-        }
-        fn visit_some<D: Deserializer<'de>>(self, d: D) -> Result<Self::Value, D::Error> {
-            d.deserialize_byte_buf(V)
-        }
-        fn visit_bytes<E: Error>(self, v: &[u8]) -> Result<Self::Value, E> {
-            Ok(Some(v.to_vec()))
-        }
-        fn visit_byte_buf<E: Error>(self, v: Vec<u8>) -> Result<Self::Value, E> {
-            Ok(Some(v))
-        }
-        fn visit_seq<A: SeqAccess<'de>>(self, mut a: A) -> Result<Self::Value, A::Error> {
-            let mut out = Vec::new();
-            while let Some(b) = a.next_element::<u8>()? {
-                out.push(b);
-            }
-            Ok(Some(out))
-        }
-    }
-
-    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<Option<Vec<u8>>, D::Error> {
-        d.deserialize_option(V)
-    }
-}
-
-#[derive(Debug, Default, Deserialize)]
-#[serde(default, deny_unknown_fields)]
-struct ExportArgs {
-    format: Option<ExportFormat>,
-    coordinates: Option<CoordinateOutput>,
-    decimals: Option<u32>,
-    created: Option<String>,
-    confirm_unmasked: bool,
-    /// Report only: a PNG as a data URL, drawn by the page from masked /
-    /// aggregated layers.
-    map_image: Option<String>,
-    /// Report only: a title line.
-    title: Option<String>,
-    /// Report only: which shared results it holds when there are both
-    /// masked points and counts (required when counts are hidden).
-    report_holds: Option<ReportHolds>,
+/// Whether the caller gave a `seed` (without one, the mask methods draw
+/// one from the platform's cryptographic generator; it is never returned).
+fn has_seed(options: &JsValue) -> bool {
+    options.dyn_ref::<Object>().is_some_and(|o| {
+        Reflect::get(o, &JsValue::from_str("seed"))
+            .is_ok_and(|v| !(v.is_undefined() || v.is_null()))
+    })
 }
 
 fn set(obj: &Object, key: &str, value: &JsValue) -> Result<(), JsValue> {
@@ -378,24 +281,19 @@ impl Session {
 impl Session {
     /// Masks the events with a ring-shaped random shift (donut geomasking).
     #[wasm_bindgen(js_name = maskDonut)]
-    pub fn mask_donut(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
-        let a: DonutArgs = from_js(params)?;
+    pub fn mask_donut(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "MaskDonutOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let given_seed = has_seed(&params);
+        let (mut p, session) = decode::<DonutParams>(params, self.extent_m())?;
         let replaced = state(self).is_some_and(|s| s.mask.is_some());
-        if replaced && !a.replace {
+        if replaced && !replace_flag(&session) {
             return Err(already_masked());
         }
-        let d = DonutParams::default();
-        let seed = match a.seed {
-            Some(s) => s,
-            None => secure_seed()?,
-        };
-        let p = DonutParams {
-            r_min_m: a.r_min_m.unwrap_or(d.r_min_m),
-            r_max_m: a.r_max_m.unwrap_or(d.r_max_m),
-            law: a.law.unwrap_or(d.law),
-            seed,
-            max_tries: a.max_tries.unwrap_or(d.max_tries),
-        };
+        if !given_seed {
+            p.seed = secure_seed()?;
+        }
         let s = self.study_ref()?;
         let masked = donut_mask(s.events.x(), s.events.y(), &s.window, &p)
             .map_err(|e| analysis_error(&e))?;
@@ -404,19 +302,34 @@ impl Session {
 
     /// Masks the events so each reaches a spatial k-anonymity target.
     #[wasm_bindgen(js_name = maskKAnonymity)]
-    pub fn mask_k_anonymity(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
-        let a: KArgs = from_js(params)?;
+    pub fn mask_k_anonymity(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "MaskKAnonymityOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let given_seed = has_seed(&params);
+        let (mut p, session) = decode::<KAnonParams>(params, self.extent_m())?;
         let replaced = state(self).is_some_and(|s| s.mask.is_some());
-        if replaced && !a.replace {
+        if replaced && !replace_flag(&session) {
             return Err(already_masked());
         }
-        let d = KAnonParams::default();
-        let seed = match a.seed {
-            Some(s) => s,
-            None => secure_seed()?,
+        if !given_seed {
+            p.seed = secure_seed()?;
+        }
+        let against: Option<Against> = match session.get("against") {
+            Some(v) => serde_json::from_value(v.clone()).map_err(|e| {
+                js_error(
+                    "bad_options",
+                    &format!(
+                        "maskKAnonymity: option \"against\": {}",
+                        crate::params::plain_words(&e.to_string())
+                    ),
+                    None,
+                )
+            })?,
+            None => None,
         };
         let s = self.study_ref()?;
-        let against = a.against.unwrap_or(if s.controls.is_some() {
+        let against = against.unwrap_or(if s.controls.is_some() {
             Against::Population
         } else {
             Against::Density
@@ -435,23 +348,9 @@ impl Session {
             },
             Against::Density => None,
         };
-        let p = KAnonParams {
-            target_k: a.target_k.unwrap_or(d.target_k),
-            r_min_m: a.r_min_m.unwrap_or(d.r_min_m),
-            r_max_m: a.r_max_m.unwrap_or(d.r_max_m),
-            law: a.law.unwrap_or(d.law),
-            seed,
-            max_tries: a.max_tries.unwrap_or(d.max_tries),
-            density_per_km2: match against {
-                Against::Density => a.density_per_km2,
-                Against::Population => None,
-            },
-            area_factor: a.area_factor.unwrap_or(d.area_factor),
-            population_contains_events: a
-                .population_contains_events
-                .unwrap_or(d.population_contains_events),
-            keep_below_target: a.keep_below_target.unwrap_or(d.keep_below_target),
-        };
+        if against == Against::Population {
+            p.density_per_km2 = None;
+        }
         let r = kanon_mask(s.events.x(), s.events.y(), population, &s.window, &p)
             .map_err(|e| analysis_error(&e))?;
         let k = KInfo {
@@ -483,8 +382,11 @@ impl Session {
     /// Original vs masked: mean nearest-neighbour distance, Clark–Evans R,
     /// centre shift, standard distance, kernel surface shift.
     #[wasm_bindgen(js_name = maskingCost)]
-    pub fn masking_cost(&self, params: JsValue) -> Result<JsValue, JsValue> {
-        let p: CostParams = from_js(params)?;
+    pub fn masking_cost(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "MaskingCostOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (p, _) = decode::<CostParams>(params, self.extent_m())?;
         let s = self.study_ref()?;
         let m = state(self)
             .and_then(|st| st.mask.as_ref())
@@ -506,51 +408,23 @@ impl Session {
 
     /// Counts the events per cell or zone, suppresses small counts (with
     /// complementary suppression) and audits the result. Kept for export.
-    pub fn aggregate(&mut self, params: JsValue) -> Result<JsValue, JsValue> {
-        let a: AggArgs = from_js(params)?;
+    pub fn aggregate(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "AggregateOptions")] params: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (mut a, zones) = decode_with_bytes::<AggArgs>(params, "zones", self.extent_m())?;
+        a.zones = zones;
         let s = self.study_ref()?;
-        let sd = SuppressionParams::default();
-        let sp = SuppressionParams {
-            min_count: a.min_count.unwrap_or(sd.min_count),
-            suppress_zeros: a.suppress_zeros.unwrap_or(sd.suppress_zeros),
-            publish_row_column_totals: a
-                .publish_row_column_totals
-                .unwrap_or(sd.publish_row_column_totals),
-            rate_per: a.rate_per.unwrap_or(sd.rate_per),
-            rate_min_population: a.rate_min_population.unwrap_or(sd.rate_min_population),
-            rate_unreliable_below: a.rate_unreliable_below.unwrap_or(sd.rate_unreliable_below),
-            exact_audit_budget: sd.exact_audit_budget,
-        };
-        if sp.min_count < 1 {
-            return Err(js_error(
-                "bad_parameter",
-                "the suppression threshold must be at least 1",
-                None,
-            ));
-        }
-        if !(sp.rate_per.is_finite() && sp.rate_per > 0.0) {
-            return Err(js_error(
-                "bad_parameter",
-                "rate per must be a number > 0",
-                None,
-            ));
-        }
+        let sp = a.suppression();
         let (agg, pop_source, names) = match a.layout {
             AggLayout::Square | AggLayout::Hexagon => {
-                let size = a.cell_size_m.unwrap_or(1000.0);
-                if !(size.is_finite() && size > 0.0) {
-                    return Err(js_error(
-                        "bad_parameter",
-                        "the cell size must be a number > 0 (metres)",
-                        None,
-                    ));
-                }
+                let size = a.cell_size_m;
                 let shape = if a.layout == AggLayout::Hexagon {
                     CellShape::Hexagon
                 } else {
                     CellShape::Square
                 };
-                let orientation = a.orientation.unwrap_or_default();
+                let orientation = a.orientation;
                 let (agg, src) =
                     count_in_cells(s, shape, size, orientation).map_err(|e| analysis_error(&e))?;
                 (agg, src, None)
@@ -589,8 +463,12 @@ impl Session {
 
     /// What a file would contain, without writing it.
     #[wasm_bindgen(js_name = exportPreview)]
-    pub fn export_preview(&self, what: &str, options: JsValue) -> Result<JsValue, JsValue> {
-        let a: ExportArgs = from_js(options)?;
+    pub fn export_preview(
+        &self,
+        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (a, _) = decode::<ExportArgs>(options, None)?;
         if what == "report" {
             let created = created_or_now(a.created.clone());
             return to_js(&self.report_preview(&a, &created)?.preview);
@@ -607,8 +485,12 @@ impl Session {
 
     /// Writes a file: `{text, file_name, mime, preview}`.
     #[wasm_bindgen(js_name = exportFile)]
-    pub fn export_file(&self, what: &str, options: JsValue) -> Result<JsValue, JsValue> {
-        let a: ExportArgs = from_js(options)?;
+    pub fn export_file(
+        &self,
+        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (a, _) = decode::<ExportArgs>(options, None)?;
         if what == "report" {
             let created = created_or_now(a.created.clone());
             return to_js(&self.report_preview(&a, &created)?);

@@ -263,7 +263,7 @@ test('scan: starting again drops a half-run job; finishing twice is refused', ()
   // Bad options are refused with a message.
   assert.equal(throws(() => s.scanStart({ max_share: 0.8 })).code, 'bad_parameter');
   assert.equal(throws(() => s.scanStart({ seed: -1 })).code, 'bad_options');
-  assert.equal(throws(() => s.scanStart({ n_sim: 0 })).code, 'bad_options');
+  assert.equal(throws(() => s.scanStart({ n_sim: 0 })).code, 'bad_parameter');
 });
 
 test('nothing loaded: every hotspot method says so', () => {

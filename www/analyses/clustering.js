@@ -37,7 +37,6 @@ export function mountClustering(C) {
     border: 'uses only events (or places) farther from the edge than the distance',
     none: 'no correction: values near the edge are too low',
   };
-  const MAX_SEED = Number.MAX_SAFE_INTEGER;
 
   const state = {
     job: null, // {cancel} while a run is going
@@ -66,7 +65,7 @@ export function mountClustering(C) {
     el('div', { class: 'clu-grid' },
       field('Function', select('clu-function', FUNCTIONS, 'l'), ' '),
       field('Edge correction', el('select', { id: 'clu-correction' }), ' '),
-      field('Simulations', el('input', { type: 'number', id: 'clu-nsim', value: 199, min: 1, max: 9999, step: 1 }), '199 is usual; 999 or more for a smaller p'),
+      field('Simulations', el('input', { type: 'number', id: 'clu-nsim', 'data-param': 'envelopeStart.n_sim' }), '199 is usual; 999 or more for a smaller p'),
       el('fieldset', { class: 'clu-field clu-kind', role: 'radiogroup' },
         el('legend', null, 'Band on the chart'),
         el('label', null, el('input', { type: 'radio', name: 'clu-kind', value: 'global', id: 'clu-kind-global', checked: true }), ' global test band'),
@@ -96,15 +95,15 @@ export function mountClustering(C) {
   const quadBox = el('fieldset', { class: 'clu-box', id: 'clu-quad-box' },
     el('legend', null, 'Counts in a grid of cells (quadrat test)'),
     el('div', { class: 'clu-grid' },
-      field('Columns', el('input', { type: 'number', id: 'clu-nx', min: 1, max: 100, step: 1, placeholder: 'automatic' })),
-      field('Rows', el('input', { type: 'number', id: 'clu-ny', min: 1, max: 100, step: 1, placeholder: 'automatic' })),
-      field('Simulations', el('input', { type: 'number', id: 'clu-quad-nsim', value: 999, min: 0, max: 9999, step: 1 }))),
+      field('Columns', el('input', { type: 'number', id: 'clu-nx', 'data-param': 'quadratTest.nx', placeholder: 'automatic' })),
+      field('Rows', el('input', { type: 'number', id: 'clu-ny', 'data-param': 'quadratTest.ny', placeholder: 'automatic' })),
+      field('Simulations', el('input', { type: 'number', id: 'clu-quad-nsim', 'data-param': 'quadratTest.n_sim' }))),
     el('div', { class: 'clu-actions' }, el('button', { type: 'button', id: 'clu-quad-run', disabled: true }, 'Count and test')),
     el('div', { id: 'clu-quad-result', class: 'clu-result' }));
   const ceBox = el('fieldset', { class: 'clu-box', id: 'clu-ce-box' },
     el('legend', null, 'Nearest-neighbour ratio (Clark\u2013Evans)'),
     el('div', { class: 'clu-grid' },
-      field('Simulations', el('input', { type: 'number', id: 'clu-ce-nsim', value: 999, min: 0, max: 9999, step: 1 }))),
+      field('Simulations', el('input', { type: 'number', id: 'clu-ce-nsim', 'data-param': 'clarkEvans.n_sim' }))),
     el('div', { class: 'clu-actions' }, el('button', { type: 'button', id: 'clu-ce-run', disabled: true }, 'Compute')),
     el('div', { id: 'clu-ce-result', class: 'clu-result' }));
   body.append(el('div', { class: 'clu-pair' }, quadBox, ceBox));
@@ -120,13 +119,17 @@ export function mountClustering(C) {
 
   function readSeed() {
     const s = $('clu-seed').value.trim();
-    if (!/^\d{1,16}$/.test(s) || Number(s) > MAX_SEED) {
-      throw { code: 'bad_parameter', message: `the seed must be a whole number from 0 to ${MAX_SEED}` };
+    const maxSeed = C.param('envelopeStart', 'seed').max;
+    if (!/^\d{1,16}$/.test(s) || Number(s) > maxSeed) {
+      throw { code: 'bad_parameter', message: `the seed must be a whole number from 0 to ${maxSeed}` };
     }
     return Number(s);
   }
 
-  function readInt(id, lo, hi, what) {
+  /** A whole number within the control's limits (set from the engine's parameterSpec). */
+  function readInt(id, what) {
+    const lo = Number($(id).min);
+    const hi = Number($(id).max);
     const v = Number($(id).value);
     if (!Number.isInteger(v) || v < lo || v > hi) throw { code: 'bad_parameter', message: `${what} must be a whole number from ${lo} to ${hi}` };
     return v;
@@ -182,7 +185,7 @@ export function mountClustering(C) {
     try {
       if ($('clu-fresh').checked) newSeed();
       const f = $('clu-function').value;
-      params = { function: f, n_sim: readInt('clu-nsim', 1, 9999, 'the number of simulations'), seed: readSeed() };
+      params = { function: f, n_sim: readInt('clu-nsim', 'the number of simulations'), seed: readSeed() };
       if (PAIR_FUNCTIONS.has(f)) params.correction = $('clu-correction').value;
       else params.nn_correction = $('clu-correction').value;
     } catch (err) {
@@ -340,9 +343,9 @@ export function mountClustering(C) {
     const out = $('clu-quad-result');
     let p;
     try {
-      p = { n_sim: readInt('clu-quad-nsim', 0, 9999, 'the number of simulations'), seed: randomSeed() };
+      p = { n_sim: readInt('clu-quad-nsim', 'the number of simulations'), seed: randomSeed() };
       for (const [id, key] of [['clu-nx', 'nx'], ['clu-ny', 'ny']]) {
-        if ($(id).value.trim() !== '') p[key] = readInt(id, 1, 100, key === 'nx' ? 'the number of columns' : 'the number of rows');
+        if ($(id).value.trim() !== '') p[key] = readInt(id, key === 'nx' ? 'the number of columns' : 'the number of rows');
       }
     } catch (err) {
       showError('Could not run the quadrat test', err);
@@ -377,7 +380,7 @@ export function mountClustering(C) {
     const out = $('clu-ce-result');
     let p;
     try {
-      p = { n_sim: readInt('clu-ce-nsim', 0, 9999, 'the number of simulations'), seed: randomSeed() };
+      p = { n_sim: readInt('clu-ce-nsim', 'the number of simulations'), seed: randomSeed() };
     } catch (err) {
       showError('Could not compute the Clark\u2013Evans ratio', err);
       return;

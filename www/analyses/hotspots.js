@@ -254,7 +254,7 @@ export function mountHotspots(C) {
 
   // ---------- 2. density clusters ----------
 
-  const minIn = input('hs-min', { type: 'number', min: '2', step: '1', value: '8' });
+  const minIn = input('hs-min', { type: 'number', value: '8', 'data-param': 'kDistance.min_samples' });
   const epsIn = input('hs-eps', { type: 'number', min: '1', step: 'any', placeholder: 'see chart' });
   const kdistBtn = el('button', { type: 'button', id: 'hs-kdist-run', class: 'quiet', disabled: true }, 'Show the distance chart');
   const knee = el('button', { type: 'button', id: 'hs-use-knee', class: 'linklike', hidden: true }, '');
@@ -376,8 +376,8 @@ export function mountHotspots(C) {
   // ---------- 3. scan for excess ----------
 
   const modelText = el('p', { id: 'hs-scan-model', class: 'hint' });
-  const shareIn = input('hs-share', { type: 'number', min: '1', max: '50', step: 'any', value: '50' });
-  const simIn = input('hs-sims', { type: 'number', min: '1', max: '100000', step: '1', value: '999' });
+  const shareIn = input('hs-share', { type: 'number', step: 'any', 'data-param': 'scanStart.max_share', 'data-param-scale': '100' });
+  const simIn = input('hs-sims', { type: 'number', 'data-param': 'scanStart.n_sim' });
   const seedIn = input('hs-seed', { type: 'number', min: '0', step: '1' });
   const seedBtn = el('button', { type: 'button', class: 'linklike', id: 'hs-new-seed' }, 'new seed');
   const scanBtn = el('button', { type: 'button', id: 'hs-scan-run', disabled: true }, 'Run the scan');
@@ -428,9 +428,12 @@ export function mountHotspots(C) {
     const share = Number(shareIn.value);
     const nSim = Math.round(Number(simIn.value));
     const seed = Number(seedIn.value);
-    if (!(share > 0 && share <= 50)) { C.showError('Cannot run the scan', { message: 'the largest circle must hold more than 0 and at most 50 % of the population.' }); return; }
-    if (!(nSim >= 1 && nSim <= 100000)) { C.showError('Cannot run the scan', { message: 'replicates must be from 1 to 100 000 (999 is usual).' }); return; }
-    if (!(Number.isInteger(seed) && seed >= 0 && seed <= Number.MAX_SAFE_INTEGER)) { C.showError('Cannot run the scan', { message: 'the seed must be a whole number, 0 or more.' }); return; }
+    const lim = (n) => C.param('scanStart', n);
+    const maxPct = lim('max_share').max * 100;
+    const [simLo, simHi] = [lim('n_sim').min, lim('n_sim').max];
+    if (!(share > 0 && share <= maxPct)) { C.showError('Cannot run the scan', { message: `the largest circle must hold more than 0 and at most ${maxPct} % of the population.` }); return; }
+    if (!(nSim >= simLo && nSim <= simHi)) { C.showError('Cannot run the scan', { message: `replicates must be from ${fmt(simLo)} to ${fmt(simHi)} (999 is usual).` }); return; }
+    if (!(Number.isInteger(seed) && seed >= 0 && seed <= lim('seed').max)) { C.showError('Cannot run the scan', { message: 'the seed must be a whole number, 0 or more.' }); return; }
     const params = { max_share: share / 100, n_sim: nSim, seed };
     scanBtn.disabled = true;
     cancelBtn.disabled = false;

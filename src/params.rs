@@ -1,0 +1,814 @@
+//! One home for every analysis's parameters: their names, units, defaults,
+//! limits and allowed values.
+//!
+//! Each analysis keeps its parameters in one struct beside its code (for
+//! example [`crate::privacy::DonutParams`]) that derives `Default`,
+//! `Serialize` and `Deserialize` with `#[serde(default,
+//! deny_unknown_fields)]`, and implements [`Params`]: a list of [`Field`]s
+//! saying what each parameter means and which values it accepts. The
+//! checks ([`Params::validate`]), the page's form limits and the JS API's
+//! answer to `parameterSpec(name)` all read that one list, so a limit is
+//! written once.
+//!
+//! Rules every field follows:
+//! * Names carry their unit: `_m` for metres, `_km2` for square kilometres,
+//!   `_per_km2` for densities; counts, fractions and choices have none.
+//! * Numbers must be finite; a range is inclusive unless `min_exclusive`.
+//! * A length may also be capped at a multiple of the study area's extent
+//!   (the diagonal of its bounding box), checked when the study is known
+//!   ([`Params::validate_in`]).
+
+use crate::error::AnalysisError;
+use serde::de::DeserializeOwned;
+use serde::Serialize;
+use serde_json::Value;
+
+/// What kind of value a parameter takes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Kind {
+    /// Any finite number (see `min`, `max`).
+    Number,
+    /// A whole number.
+    Integer,
+    Boolean,
+    /// One of `allowed`.
+    Choice,
+    Text,
+    /// A list of numbers, each in `min..=max`.
+    Numbers,
+    /// An object with its own fields (described in `doc`).
+    Object,
+    /// The bytes of a file (`Uint8Array`).
+    Bytes,
+}
+
+/// One parameter: what it is and which values it accepts.
+#[derive(Debug, Clone, Serialize)]
+pub struct Field {
+    pub name: &'static str,
+    pub kind: Kind,
+    /// Unit of a number (`"m"`, `"km²"`, …); `None` for counts and fractions.
+    pub unit: Option<&'static str>,
+    /// The default (filled in from the struct's `Default` by [`spec`]).
+    pub default: Value,
+    pub min: Option<f64>,
+    pub max: Option<f64>,
+    /// The value must be more than `min` (not equal to it).
+    pub min_exclusive: bool,
+    /// At most this many times the study area's extent (bounding-box diagonal).
+    pub max_extent_factor: Option<f64>,
+    /// Values of a choice.
+    pub allowed: &'static [&'static str],
+    /// May be left empty (`null`): then chosen automatically (see `doc`).
+    pub optional: bool,
+    /// Handled by the session, not passed to the analysis.
+    pub session: bool,
+    pub doc: &'static str,
+}
+
+impl Field {
+    fn new(name: &'static str, kind: Kind, doc: &'static str) -> Field {
+        Field {
+            name,
+            kind,
+            unit: None,
+            default: Value::Null,
+            min: None,
+            max: None,
+            min_exclusive: false,
+            max_extent_factor: None,
+            allowed: &[],
+            optional: false,
+            session: false,
+            doc,
+        }
+    }
+    /// A number (metres when `unit` is `"m"`).
+    pub fn number(name: &'static str, unit: Option<&'static str>, doc: &'static str) -> Field {
+        Field {
+            unit,
+            ..Field::new(name, Kind::Number, doc)
+        }
+    }
+    pub fn integer(name: &'static str, doc: &'static str) -> Field {
+        Field::new(name, Kind::Integer, doc)
+    }
+    pub fn boolean(name: &'static str, doc: &'static str) -> Field {
+        Field::new(name, Kind::Boolean, doc)
+    }
+    pub fn text(name: &'static str, doc: &'static str) -> Field {
+        Field::new(name, Kind::Text, doc)
+    }
+    pub fn object(name: &'static str, doc: &'static str) -> Field {
+        Field::new(name, Kind::Object, doc)
+    }
+    pub fn bytes(name: &'static str, doc: &'static str) -> Field {
+        Field::new(name, Kind::Bytes, doc)
+    }
+    pub fn numbers(name: &'static str, doc: &'static str) -> Field {
+        Field::new(name, Kind::Numbers, doc)
+    }
+    pub fn choice(
+        name: &'static str,
+        allowed: &'static [&'static str],
+        doc: &'static str,
+    ) -> Field {
+        Field {
+            allowed,
+            ..Field::new(name, Kind::Choice, doc)
+        }
+    }
+    /// A seed: a whole number from 0 to 2^53 − 1 (what a JS number holds exactly).
+    pub fn seed(doc: &'static str) -> Field {
+        Field::integer("seed", doc).range(0.0, MAX_SEED as f64)
+    }
+    /// `min..=max`.
+    pub fn range(self, min: f64, max: f64) -> Field {
+        Field {
+            min: Some(min),
+            max: Some(max),
+            ..self
+        }
+    }
+    /// At least `min`.
+    pub fn at_least(self, min: f64) -> Field {
+        Field {
+            min: Some(min),
+            ..self
+        }
+    }
+    /// More than `min` (and at most `max` when given).
+    pub fn above(self, min: f64, max: Option<f64>) -> Field {
+        Field {
+            min: Some(min),
+            max,
+            min_exclusive: true,
+            ..self
+        }
+    }
+    /// At most `factor` times the study area's extent.
+    pub fn extent(self, factor: f64) -> Field {
+        Field {
+            max_extent_factor: Some(factor),
+            ..self
+        }
+    }
+    /// May be empty (automatic).
+    pub fn optional(self) -> Field {
+        Field {
+            optional: true,
+            ..self
+        }
+    }
+    /// Handled by the session (not a parameter of the computation).
+    pub fn session(self) -> Field {
+        Field {
+            session: true,
+            ..self
+        }
+    }
+
+    /// The accepted range in words, e.g. "from 1 to 9999".
+    pub fn range_text(&self) -> String {
+        let lo = self.min.map(|v| self.with_unit(v));
+        let hi = self.max.map(|v| self.with_unit(v));
+        let mut s = match (lo, hi, self.min_exclusive) {
+            (Some(a), Some(b), false) => format!("from {a} to {b}"),
+            (Some(a), Some(b), true) => format!("more than {a} and at most {b}"),
+            (Some(a), None, false) => format!("{a} or more"),
+            (Some(a), None, true) => format!("more than {a}"),
+            (None, Some(b), _) => format!("at most {b}"),
+            (None, None, _) => "a finite number".to_string(),
+        };
+        if self.kind == Kind::Integer {
+            s = format!("a whole number {s}");
+        }
+        s
+    }
+
+    /// A value with this field's unit, e.g. "500 m".
+    pub fn with_unit(&self, v: f64) -> String {
+        match self.unit {
+            Some(u) => format!("{} {u}", num(v)),
+            None => num(v),
+        }
+    }
+}
+
+/// Largest seed accepted: 2^53 − 1, the largest whole number a JS number
+/// holds exactly.
+pub const MAX_SEED: u64 = (1 << 53) - 1;
+
+/// Longest side of the study area's extent allowed for lengths that carry
+/// `extent(f)`, as the factor used by most analyses: a radius or bandwidth
+/// ten times the study area's diagonal covers everything many times over.
+pub const EXTENT_FACTOR: f64 = 10.0;
+
+/// A number for messages: whole numbers without decimals.
+pub fn num(v: f64) -> String {
+    if v.fract() == 0.0 && v.abs() < 1e15 {
+        format!("{v:.0}")
+    } else {
+        format!("{v}")
+    }
+}
+
+/// A parameter of an analysis: the struct that holds them, its field list
+/// and its checks.
+pub trait Params: Serialize + DeserializeOwned + Default {
+    /// The analysis, as the JS method that takes these options (e.g. `"maskDonut"`).
+    const NAME: &'static str;
+
+    /// Every field, in the order of the struct, plus any option handled by
+    /// the session (marked `session`).
+    fn fields() -> Vec<Field>;
+
+    /// Checks that involve more than one field (e.g. `r_min_m < r_max_m`).
+    fn check(&self) -> Result<(), AnalysisError> {
+        Ok(())
+    }
+
+    /// Checks every field against its range, then [`Params::check`].
+    fn validate(&self) -> Result<(), AnalysisError> {
+        self.validate_in(None)
+    }
+
+    /// As [`Params::validate`], also capping lengths at a multiple of the
+    /// study area's extent (`extent_m`, the bounding-box diagonal).
+    fn validate_in(&self, extent_m: Option<f64>) -> Result<(), AnalysisError> {
+        let v = serde_json::to_value(self).map_err(|e| bad("parameters", e.to_string()))?;
+        for f in Self::fields().iter().filter(|f| !f.session) {
+            check_field(f, v.get(f.name).unwrap_or(&Value::Null), extent_m)?;
+        }
+        self.check()
+    }
+}
+
+/// The error for one parameter.
+pub fn bad(name: &str, detail: impl Into<String>) -> AnalysisError {
+    AnalysisError::BadParameter {
+        name: name.to_string(),
+        detail: detail.into(),
+    }
+}
+
+fn check_field(f: &Field, v: &Value, extent_m: Option<f64>) -> Result<(), AnalysisError> {
+    match (f.kind, v) {
+        (_, Value::Null) if f.optional => Ok(()),
+        (Kind::Number | Kind::Integer, Value::Null) => Err(bad(
+            f.name,
+            format!(
+                "must be {} (got a value that is not a finite number)",
+                f.range_text()
+            ),
+        )),
+        (Kind::Number | Kind::Integer, Value::Number(n)) => {
+            check_number(f, n.as_f64().unwrap_or(f64::NAN), extent_m)
+        }
+        (Kind::Numbers, Value::Array(list)) => {
+            for x in list {
+                match x.as_f64() {
+                    Some(x) => check_number(f, x, extent_m)?,
+                    None => {
+                        return Err(bad(
+                            f.name,
+                            format!("each value must be {}", f.range_text()),
+                        ))
+                    }
+                }
+            }
+            Ok(())
+        }
+        _ => Ok(()),
+    }
+}
+
+fn check_number(f: &Field, x: f64, extent_m: Option<f64>) -> Result<(), AnalysisError> {
+    let low = match f.min {
+        Some(m) if f.min_exclusive => x > m,
+        Some(m) => x >= m,
+        None => true,
+    };
+    let high = f.max.is_none_or(|m| x <= m);
+    let whole = f.kind != Kind::Integer || x.fract() == 0.0;
+    if !(x.is_finite() && low && high && whole) {
+        return Err(bad(
+            f.name,
+            format!("must be {} (got {})", f.range_text(), f.with_unit(x)),
+        ));
+    }
+    if let (Some(k), Some(e)) = (f.max_extent_factor, extent_m) {
+        if e > 0.0 && e.is_finite() && x > k * e {
+            return Err(bad(
+                f.name,
+                format!(
+                    "must be at most {} times the study area's extent of {} m, so at most {} m (got {})",
+                    num(k),
+                    num(e.round()),
+                    num((k * e).round()),
+                    f.with_unit(x)
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// The description of one analysis's parameters, with defaults.
+#[derive(Debug, Clone, Serialize)]
+pub struct Spec {
+    pub analysis: &'static str,
+    pub fields: Vec<Field>,
+}
+
+/// The fields of `P` with their defaults filled in from `P::default()`.
+pub fn spec_of<P: Params>() -> Spec {
+    let d = serde_json::to_value(P::default()).unwrap_or(Value::Null);
+    let fields = P::fields()
+        .into_iter()
+        .map(|mut f| {
+            if let Some(v) = d.get(f.name) {
+                f.default = v.clone();
+            }
+            f
+        })
+        .collect();
+    Spec {
+        analysis: P::NAME,
+        fields,
+    }
+}
+
+/// Every analysis's parameters, by the JS method that takes them.
+pub fn all() -> Vec<Spec> {
+    use crate::{clusters, distance, input, intensity, privacy, scan};
+    vec![
+        spec_of::<input::ReadOptions>(),
+        spec_of::<input::AreaOptions>(),
+        spec_of::<distance::QuadratParams>(),
+        spec_of::<distance::ClarkEvansParams>(),
+        spec_of::<distance::EnvelopeOptions>(),
+        spec_of::<intensity::SurfaceParams>(),
+        spec_of::<clusters::DbscanOptions>(),
+        spec_of::<clusters::KDistanceParams>(),
+        spec_of::<scan::ScanOptions>(),
+        spec_of::<privacy::DonutParams>(),
+        spec_of::<privacy::KAnonParams>(),
+        spec_of::<privacy::cost::CostParams>(),
+        spec_of::<privacy::aggregate::AggregateOptions>(),
+        spec_of::<privacy::export::ExportRequest>(),
+    ]
+}
+
+/// The parameters of one analysis (by its JS method name; `loadControls`
+/// is `loadEvents`, `exportPreview` is `exportFile`).
+pub fn spec(analysis: &str) -> Option<Spec> {
+    let name = match analysis {
+        "loadControls" => "loadEvents",
+        "exportPreview" => "exportFile",
+        other => other,
+    };
+    all().into_iter().find(|s| s.analysis == name)
+}
+
+/// Edit distance, for "did you mean" in messages about unknown names.
+pub fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, &cb) in b.iter().enumerate() {
+            let sub = prev[j] + usize::from(ca != cb);
+            cur[j + 1] = sub.min(prev[j + 1] + 1).min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+/// The message for an option `key` that `P` does not know: names the key,
+/// suggests the nearest name and lists the valid ones.
+pub fn unknown_option<P: Params>(key: &str) -> String {
+    let names: Vec<&str> = P::fields().iter().map(|f| f.name).collect();
+    let near = names
+        .iter()
+        .map(|n| (edit_distance(key, n), *n))
+        .filter(|(d, _)| *d <= 2)
+        .min();
+    let hint = match near {
+        Some((_, n)) => format!(" (did you mean \"{n}\"?)"),
+        None => String::new(),
+    };
+    format!(
+        "{}: unknown option \"{key}\"{hint}; valid options: {}",
+        P::NAME,
+        names.join(", ")
+    )
+}
+
+/// Rewrites a message of the deserializer in plain words: no Rust type
+/// names (`usize`, `f64`, `struct Foo`, `internally tagged enum Bar`).
+pub fn plain_words(msg: &str) -> String {
+    let mut out = String::with_capacity(msg.len());
+    let words: Vec<&str> = msg.split(' ').collect();
+    let mut i = 0;
+    while i < words.len() {
+        let w = words[i];
+        let (core, tail) = split_punct(w);
+        let next = words.get(i + 1).copied();
+        let replaced: Option<(String, usize)> = match core {
+            "internally" | "adjacently" if next == Some("tagged") => {
+                let after = words.get(i + 3).map(|s| split_punct(s).1).unwrap_or("");
+                Some((format!("one of the allowed kinds{after}"), 4))
+            }
+            "untagged" if next == Some("enum") => {
+                let after = words.get(i + 2).map(|s| split_punct(s).1).unwrap_or("");
+                Some((format!("one of the allowed kinds{after}"), 3))
+            }
+            "enum" if next.is_some() => {
+                let after = next.map(|s| split_punct(s).1).unwrap_or("");
+                Some((format!("one of the allowed values{after}"), 2))
+            }
+            "struct" if next.is_some() => {
+                let after = next.map(|s| split_punct(s).1).unwrap_or("");
+                Some((format!("an object{after}"), 2))
+            }
+            "usize" | "u64" | "u32" | "u16" | "u8" => {
+                Some((format!("a whole number, 0 or more{tail}"), 1))
+            }
+            "i64" | "i32" | "i16" | "i8" | "isize" => Some((format!("a whole number{tail}"), 1)),
+            "f64" | "f32" => Some((format!("a number{tail}"), 1)),
+            "char" => Some((format!("a single character{tail}"), 1)),
+            "variant" if next.is_some_and(|n| n.starts_with("identifier")) => {
+                Some(("a choice".to_string(), 2))
+            }
+            "field" if next.is_some_and(|n| n.starts_with("identifier")) => {
+                Some(("an option name".to_string(), 2))
+            }
+            "field" => Some((format!("option{tail}"), 1)),
+            "variant" => Some((format!("value{tail}"), 1)),
+            "sequence" => Some((format!("a list{tail}"), 1)),
+            "map" => Some((format!("an object{tail}"), 1)),
+            _ => None,
+        };
+        if !out.is_empty() {
+            out.push(' ');
+        }
+        match replaced {
+            Some((text, used)) => {
+                out.push_str(&text);
+                i += used;
+            }
+            None => {
+                out.push_str(w);
+                i += 1;
+            }
+        }
+    }
+    out.replace('`', "\"")
+}
+
+/// Splits trailing punctuation (`,` `.` `;` `)`) from a word.
+fn split_punct(w: &str) -> (&str, &str) {
+    let cut = w
+        .char_indices()
+        .rev()
+        .take_while(|(_, c)| matches!(c, ',' | '.' | ';' | ')'))
+        .last()
+        .map_or(w.len(), |(i, _)| i);
+    w.split_at(cut)
+}
+
+/// Options handled by the session (fields marked `session`), by name.
+pub type SessionOptions = serde_json::Map<String, Value>;
+
+/// Why options were refused: the error code (`"bad_options"` or
+/// `"bad_parameter"`) and a message naming the option.
+pub type DecodeError = (&'static str, String);
+
+/// Reads the options of `P` from a JSON value: `null` gives the defaults;
+/// an unknown key, a value of the wrong type or out of range gives a
+/// message naming the option. `Err((code, message))` with code
+/// `"bad_options"` (not understood) or `"bad_parameter"` (out of range).
+/// Keys in `session` fields are returned apart, not passed to `P`.
+pub fn decode<P: Params>(
+    v: Value,
+    extent_m: Option<f64>,
+) -> Result<(P, SessionOptions), DecodeError> {
+    let mut obj = match v {
+        Value::Null => serde_json::Map::new(),
+        Value::Object(m) => m,
+        _ => {
+            return Err((
+                "bad_options",
+                format!("{}: the options must be an object, such as {{}}", P::NAME),
+            ))
+        }
+    };
+    let fields = P::fields();
+    if let Some(k) = obj
+        .keys()
+        .find(|k| !fields.iter().any(|f| f.name == k.as_str()))
+    {
+        return Err(("bad_options", unknown_option::<P>(k)));
+    }
+    let mut session = serde_json::Map::new();
+    for f in fields.iter().filter(|f| f.session) {
+        if let Some(v) = obj.remove(f.name) {
+            session.insert(f.name.to_string(), v);
+        }
+    }
+    let p: P = match serde_json::from_value(Value::Object(obj.clone())) {
+        Ok(p) => p,
+        Err(e) => {
+            // Name the option: try each key alone over the defaults.
+            let base = serde_json::to_value(P::default()).unwrap_or(Value::Null);
+            for (k, v) in &obj {
+                let mut one = base.clone();
+                if let Some(m) = one.as_object_mut() {
+                    m.insert(k.clone(), v.clone());
+                }
+                if let Err(e1) = serde_json::from_value::<P>(one) {
+                    return Err((
+                        "bad_options",
+                        format!(
+                            "{}: option \"{k}\": {}",
+                            P::NAME,
+                            plain_words(&e1.to_string())
+                        ),
+                    ));
+                }
+            }
+            return Err((
+                "bad_options",
+                format!("{}: {}", P::NAME, plain_words(&e.to_string())),
+            ));
+        }
+    };
+    p.validate_in(extent_m)
+        .map_err(|e| ("bad_parameter", format!("{}: {e}", P::NAME)))?;
+    Ok((p, session))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn plain_words_hides_type_names() {
+        let m = plain_words("invalid type: floating point `2.5`, expected usize");
+        assert_eq!(
+            m,
+            "invalid type: floating point \"2.5\", expected a whole number, 0 or more"
+        );
+        let m = plain_words("expected internally tagged enum CoordKind");
+        assert_eq!(m, "expected one of the allowed kinds");
+        let m = plain_words("invalid type: string \"x\", expected struct ColumnMapping");
+        assert_eq!(m, "invalid type: string \"x\", expected an object");
+        let m = plain_words("unknown variant `ripley`, expected one of `k`, `l`");
+        assert_eq!(m, "unknown value \"ripley\", expected one of \"k\", \"l\"");
+        assert!(!plain_words("invalid type: null, expected f64").contains("f64"));
+    }
+
+    #[test]
+    fn edit_distance_counts_edits() {
+        assert_eq!(edit_distance("r_mxa_m", "r_max_m"), 2);
+        assert_eq!(edit_distance("kernal", "kernel"), 1);
+        assert_eq!(edit_distance("", "abc"), 3);
+        assert_eq!(edit_distance("same", "same"), 0);
+    }
+
+    #[test]
+    fn range_text_reads_well() {
+        let f = Field::integer("n_sim", "").range(1.0, 9999.0);
+        assert_eq!(f.range_text(), "a whole number from 1 to 9999");
+        let f = Field::number("r_max_m", Some("m"), "").above(0.0, None);
+        assert_eq!(f.range_text(), "more than 0 m");
+    }
+
+    use crate::clusters::{DbscanOptions, KDistanceParams};
+    use crate::distance::{ClarkEvansParams, EnvelopeOptions, QuadratParams};
+    use crate::input::{AreaOptions, ReadOptions};
+    use crate::intensity::SurfaceParams;
+    use crate::privacy::aggregate::AggregateOptions;
+    use crate::privacy::cost::CostParams;
+    use crate::privacy::export::ExportRequest;
+    use crate::privacy::{DonutParams, KAnonParams};
+    use crate::scan::ScanOptions;
+    use serde_json::json;
+
+    /// `validate` refuses `v` for field `name`, and the message names it.
+    fn refuses<P: Params>(name: &str, v: Value) {
+        let mut o = serde_json::to_value(P::default()).unwrap();
+        o[name] = v.clone();
+        let p: P = serde_json::from_value(o).unwrap();
+        let e = p
+            .validate()
+            .expect_err(&format!("{}.{name} = {v} refused", P::NAME));
+        let msg = e.to_string();
+        assert!(msg.contains(name), "{msg}");
+    }
+
+    /// `validate` accepts `v` for field `name`.
+    fn accepts<P: Params>(name: &str, v: Value) {
+        let mut o = serde_json::to_value(P::default()).unwrap();
+        o[name] = v.clone();
+        let p: P = serde_json::from_value(o).unwrap();
+        p.validate()
+            .unwrap_or_else(|e| panic!("{}.{name} = {v}: {e}", P::NAME));
+    }
+
+    #[test]
+    fn defaults_are_valid() {
+        ReadOptions::default().validate().unwrap();
+        AreaOptions::default().validate().unwrap();
+        QuadratParams::default().validate().unwrap();
+        ClarkEvansParams::default().validate().unwrap();
+        EnvelopeOptions::default().validate().unwrap();
+        SurfaceParams::default().validate().unwrap();
+        KDistanceParams::default().validate().unwrap();
+        ScanOptions::default().validate().unwrap();
+        DonutParams::default().validate().unwrap();
+        KAnonParams::default().validate().unwrap();
+        CostParams::default().validate().unwrap();
+        AggregateOptions::default().validate().unwrap();
+        ExportRequest::default().validate().unwrap();
+        // DBSCAN has no default radius: it must be chosen.
+        assert!(DbscanOptions::default().validate().is_err());
+    }
+
+    #[test]
+    fn quadrat_and_clark_evans_limits() {
+        refuses::<QuadratParams>("nx", json!(0));
+        refuses::<QuadratParams>("ny", json!(101));
+        accepts::<QuadratParams>("nx", json!(100));
+        refuses::<QuadratParams>("n_sim", json!(10_000));
+        accepts::<QuadratParams>("n_sim", json!(0));
+        refuses::<QuadratParams>("seed", json!(MAX_SEED + 1));
+        refuses::<ClarkEvansParams>("n_sim", json!(10_000));
+        accepts::<ClarkEvansParams>("n_sim", json!(9999));
+    }
+
+    #[test]
+    fn envelope_limits() {
+        refuses::<EnvelopeOptions>("n_sim", json!(0));
+        refuses::<EnvelopeOptions>("n_sim", json!(10_000));
+        refuses::<EnvelopeOptions>("n_steps", json!(1));
+        refuses::<EnvelopeOptions>("n_steps", json!(1001));
+        accepts::<EnvelopeOptions>("n_steps", json!(1000));
+        refuses::<EnvelopeOptions>("alpha", json!(0.0));
+        refuses::<EnvelopeOptions>("alpha", json!(0.6));
+        refuses::<EnvelopeOptions>("r_max_m", json!(0.0));
+        refuses::<EnvelopeOptions>("r_min_m", json!(-1.0));
+        refuses::<EnvelopeOptions>("bandwidth_m", json!(-3.0));
+        accepts::<EnvelopeOptions>("r_max_m", json!(250.0));
+        let o = EnvelopeOptions {
+            r_min_m: Some(300.0),
+            r_max_m: Some(200.0),
+            ..Default::default()
+        };
+        assert!(o.validate().unwrap_err().to_string().contains("r_min_m"));
+        // Lengths are capped at ten times the study area's extent.
+        let o = EnvelopeOptions {
+            r_max_m: Some(20_000.0),
+            ..Default::default()
+        };
+        assert!(o.validate().is_ok());
+        let e = o.validate_in(Some(1000.0)).unwrap_err().to_string();
+        assert!(e.contains("r_max_m") && e.contains("10000 m"), "{e}");
+        // The flat options give the run's parameters and back.
+        let p = o.params();
+        assert_eq!(p.functions.r_max, Some(20_000.0));
+        assert_eq!(EnvelopeOptions::from(&p), o);
+    }
+
+    #[test]
+    fn surface_dbscan_kdistance_scan_limits() {
+        refuses::<SurfaceParams>("cells", json!(1));
+        refuses::<SurfaceParams>("cells", json!(5000));
+        refuses::<SurfaceParams>("candidates", json!(2));
+        refuses::<SurfaceParams>("fixed_m", json!(0.0));
+        refuses::<SurfaceParams>("isopleths", json!([0.5, 1.5]));
+        refuses::<SurfaceParams>("isopleths", json!([0.0]));
+        accepts::<SurfaceParams>("isopleths", json!([1.0]));
+        let fixed = SurfaceParams {
+            method: crate::intensity::BandwidthMethod::Fixed,
+            ..Default::default()
+        };
+        assert!(fixed
+            .validate()
+            .unwrap_err()
+            .to_string()
+            .contains("fixed_m"));
+        let d = DbscanOptions {
+            eps_m: 100.0,
+            ..Default::default()
+        };
+        d.validate().unwrap();
+        let bad = DbscanOptions {
+            min_samples: 0,
+            ..d
+        };
+        assert!(bad
+            .validate()
+            .unwrap_err()
+            .to_string()
+            .contains("min_samples"));
+        let bad = DbscanOptions {
+            eps_m: f64::NAN,
+            ..d
+        };
+        assert!(bad.validate().is_err());
+        refuses::<KDistanceParams>("min_samples", json!(0));
+        refuses::<KDistanceParams>("min_samples", json!(1));
+        refuses::<KDistanceParams>("min_samples", json!(1001));
+        accepts::<KDistanceParams>("min_samples", json!(2));
+        refuses::<ScanOptions>("max_share", json!(0.8));
+        refuses::<ScanOptions>("max_share", json!(0.0));
+        refuses::<ScanOptions>("n_sim", json!(0));
+        refuses::<ScanOptions>("cells_long_side", json!(513));
+    }
+
+    #[test]
+    fn masking_aggregate_export_limits() {
+        refuses::<DonutParams>("r_max_m", json!(0.0));
+        refuses::<DonutParams>("r_min_m", json!(-1.0));
+        refuses::<DonutParams>("max_tries", json!(0));
+        let p = DonutParams {
+            r_min_m: 600.0,
+            r_max_m: 500.0,
+            ..Default::default()
+        };
+        assert!(p.validate().is_err());
+        let p = DonutParams::default();
+        assert!(p.validate_in(Some(40.0)).is_err(), "500 m > 10 × 40 m");
+        assert!(p.validate_in(Some(60.0)).is_ok());
+        refuses::<KAnonParams>("target_k", json!(0));
+        refuses::<KAnonParams>("area_factor", json!(0.5));
+        refuses::<KAnonParams>("density_per_km2", json!(0.0));
+        accepts::<KAnonParams>("density_per_km2", json!(2500.0));
+        refuses::<CostParams>("grid_cells", json!(1));
+        refuses::<CostParams>("bandwidth_m", json!(-1.0));
+        refuses::<AggregateOptions>("cell_size_m", json!(0.0));
+        refuses::<AggregateOptions>("min_count", json!(0));
+        refuses::<AggregateOptions>("rate_per", json!(0.0));
+        refuses::<ExportRequest>("decimals", json!(13));
+        accepts::<ExportRequest>("decimals", json!(0));
+    }
+
+    #[test]
+    fn decode_names_unknown_and_mistyped_options() {
+        let (code, msg) =
+            decode::<DonutParams>(json!({"r_min_m": 50, "r_mxa_m": 250}), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        assert!(msg.contains("\"r_mxa_m\""), "{msg}");
+        assert!(msg.contains("did you mean \"r_max_m\""), "{msg}");
+        assert!(
+            msg.contains("r_min_m, r_max_m, law, seed, max_tries, replace"),
+            "{msg}"
+        );
+        let (code, msg) = decode::<ClarkEvansParams>(json!({"n_sim": 2.5}), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        assert!(msg.contains("\"n_sim\"") && !msg.contains("usize"), "{msg}");
+        let (code, msg) = decode::<ClarkEvansParams>(json!({"n_sim": 10000}), None).unwrap_err();
+        assert_eq!(code, "bad_parameter");
+        assert!(msg.contains("n_sim") && msg.contains("10000"), "{msg}");
+        let (code, msg) =
+            decode::<ReadOptions>(json!({"coords": {"kind": "nonsense"}}), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        assert!(!msg.contains("CoordKind") && !msg.contains("enum"), "{msg}");
+        let (code, _) = decode::<ClarkEvansParams>(json!(5), None).unwrap_err();
+        assert_eq!(code, "bad_options");
+        // Session-level keys come back apart.
+        let (p, session) =
+            decode::<DonutParams>(json!({"r_max_m": 400, "replace": true}), None).unwrap();
+        assert_eq!(p.r_max_m, 400.0);
+        assert_eq!(session.get("replace"), Some(&json!(true)));
+        // null gives the defaults.
+        let (p, _) = decode::<ScanOptions>(Value::Null, None).unwrap();
+        assert_eq!(p, ScanOptions::default());
+    }
+
+    #[test]
+    fn every_spec_names_distinct_fields() {
+        for s in all() {
+            let mut names: Vec<&str> = s.fields.iter().map(|f| f.name).collect();
+            names.sort_unstable();
+            let n = names.len();
+            names.dedup();
+            assert_eq!(n, names.len(), "{} repeats a field", s.analysis);
+            for f in &s.fields {
+                if let (Some(lo), Some(hi)) = (f.min, f.max) {
+                    assert!(lo <= hi, "{}.{}", s.analysis, f.name);
+                }
+                if f.kind == Kind::Choice {
+                    assert!(!f.allowed.is_empty(), "{}.{}", s.analysis, f.name);
+                }
+            }
+        }
+        assert!(spec("maskDonut").is_some());
+        assert!(spec("loadControls").is_some());
+        assert!(spec("noSuchAnalysis").is_none());
+    }
+}

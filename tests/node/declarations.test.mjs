@@ -1,0 +1,55 @@
+// The typed declarations of dist/node (cloister.d.ts): every method that
+// takes options names an options interface instead of `any`, and each
+// interface holds exactly the options parameterSpec() lists, with the
+// allowed values of choices as string literals.
+// Run: node --test tests/node/
+import { test } from 'node:test';
+import assert from 'node:assert/strict';
+import { readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+
+const require = createRequire(import.meta.url);
+const { parameterSpec } = require('../../dist/node/cloister.js');
+const dts = readFileSync(new URL('../../dist/node/cloister.d.ts', import.meta.url), 'utf8');
+
+const METHODS = {
+  loadEvents: 'LoadEventsOptions', loadControls: 'LoadEventsOptions', loadArea: 'LoadAreaOptions',
+  quadratTest: 'QuadratTestOptions', clarkEvans: 'ClarkEvansOptions', envelopeStart: 'EnvelopeStartOptions',
+  intensitySurface: 'IntensitySurfaceOptions', dbscan: 'DbscanOptions', scanStart: 'ScanStartOptions',
+  maskDonut: 'MaskDonutOptions', maskKAnonymity: 'MaskKAnonymityOptions', maskingCost: 'MaskingCostOptions',
+  aggregate: 'AggregateOptions', exportPreview: 'ExportFileOptions', exportFile: 'ExportFileOptions',
+};
+
+/** The body of `export interface name { … }`. */
+function body(name) {
+  const start = dts.indexOf(`export interface ${name} {`);
+  assert.ok(start >= 0, `interface ${name} declared`);
+  return dts.slice(start, dts.indexOf('\n}', start));
+}
+
+test('each method that takes options names its options interface, not any', () => {
+  for (const [method, type] of Object.entries(METHODS)) {
+    const line = dts.split('\n').find((l) => l.trim().startsWith(`${method}(`));
+    assert.ok(line, `${method} declared`);
+    assert.ok(line.includes(`: ${type})`), `${method}: ${line.trim()}`);
+  }
+  assert.match(dts, /kDistance\(min_samples: number\)/);
+  assert.match(dts, /parameterSpec\(analysis\?: string \| null\): ParameterSpec \| ParameterSpec\[\]/);
+});
+
+test('each options interface lists exactly the options of parameterSpec, choices as literals', () => {
+  for (const spec of parameterSpec()) {
+    const name = `${spec.analysis[0].toUpperCase()}${spec.analysis.slice(1)}Options`;
+    const b = body(name);
+    const declared = [...b.matchAll(/^ {2}(\w+)\?:/gm)].map((m) => m[1]);
+    assert.deepEqual(declared, spec.fields.map((f) => f.name), name);
+    for (const f of spec.fields) {
+      const line = b.split('\n').find((l) => l.trim().startsWith(`${f.name}?:`));
+      if (f.kind === 'choice') for (const a of f.allowed) assert.ok(line.includes(`'${a}'`), `${name}.${f.name}: ${a}`);
+      if (f.kind === 'number' || f.kind === 'integer') assert.match(line, /: number( \| null)?;$/, `${name}.${f.name}`);
+      if (f.kind === 'boolean') assert.match(line, /: boolean;$/, `${name}.${f.name}`);
+    }
+  }
+  // The unit and range are in the documentation of a length.
+  assert.match(body('MaskDonutOptions'), /largest displacement Unit: m\. Range: > 0, ≤ 10 × the study area's extent\. Default: 500\./);
+});

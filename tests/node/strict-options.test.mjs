@@ -1,0 +1,261 @@
+// Strict options through the JS API (dist/node): every Session method that
+// takes options refuses a misspelt key with {code: 'bad_options'} naming the
+// key and listing the valid ones, and never runs with a silent default;
+// values out of range are refused with a message naming the option, its
+// value and the range. parameterSpec() is the one list behind both.
+// Run: node --test tests/node/
+import { test } from 'node:test';
+import assert from 'node:assert/strict';
+import { readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+
+const require = createRequire(import.meta.url);
+const cloister = require('../../dist/node/cloister.js');
+const { Session, parameterSpec, drawEnvelopeChart } = cloister;
+const root = new URL('../../', import.meta.url);
+const file = (p) => new Uint8Array(readFileSync(new URL(p, root)));
+
+function demo() {
+  const s = new Session();
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  s.loadControls(file('demo-data/population.csv'), {});
+  return s;
+}
+
+function throws(fn) {
+  try { fn(); } catch (e) { return e; }
+  assert.fail('expected an error to be thrown');
+}
+
+// No Rust type names in what the user reads.
+const RUST_WORDS = /\b(usize|u64|u32|u8|i32|i64|f64|f32|struct|enum|CoordKind|Option<|Vec<)\b/;
+
+function assertPlain(e) {
+  assert.equal(typeof e.message, 'string');
+  assert.doesNotMatch(e.message, RUST_WORDS, e.message);
+}
+
+/** The misspelt key is named, and the valid names are listed. */
+function assertUnknown(e, key, valid) {
+  assert.equal(e.code, 'bad_options', `${key}: ${e.message}`);
+  assert.ok(e.message.includes(`"${key}"`), `message names "${key}": ${e.message}`);
+  for (const v of valid) assert.ok(e.message.includes(v), `message lists ${v}: ${e.message}`);
+  assertPlain(e);
+}
+
+/** Out of range: the option and its value are named. */
+function assertRange(e, name, value) {
+  assert.equal(e.code, 'bad_parameter', `${name}=${value}: ${e.code} ${e.message}`);
+  assert.ok(e.message.includes(name), `message names ${name}: ${e.message}`);
+  assert.ok(e.message.includes(String(value)), `message gives the value ${value}: ${e.message}`);
+  assertPlain(e);
+}
+
+// Each method that takes options: how to call it with given options, a
+// misspelt key, and names the message must list.
+const CASES = {
+  loadEvents: { call: (s, o) => s.loadEvents(file('demo-data/cases.csv'), o), bad: { date_ordre: 'day_month_year' }, key: 'date_ordre', valid: ['date_order', 'mapping', 'coords'] },
+  loadControls: { call: (s, o) => s.loadControls(file('demo-data/population.csv'), o), bad: { mappng: {} }, key: 'mappng', valid: ['mapping'] },
+  loadArea: { call: (s, o) => s.loadArea(file('demo-data/town-boundary.geojson'), o), bad: { coord: { kind: 'lon_lat' } }, key: 'coord', valid: ['coords'] },
+  quadratTest: { call: (s, o) => s.quadratTest(o), bad: { n_x: 4 }, key: 'n_x', valid: ['nx', 'ny', 'n_sim', 'seed'] },
+  clarkEvans: { call: (s, o) => s.clarkEvans(o), bad: { nsim: 0 }, key: 'nsim', valid: ['n_sim', 'seed'] },
+  envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
+  intensitySurface: { call: (s, o) => s.intensitySurface(o), bad: { kernal: 'quartic' }, key: 'kernal', valid: ['kernel', 'method', 'fixed_m'] },
+  dbscan: { call: (s, o) => s.dbscan(o), bad: { eps_m: 150, minsamples: 8 }, key: 'minsamples', valid: ['eps_m', 'min_samples', 'use_weights'] },
+  scanStart: { call: (s, o) => s.scanStart(o), bad: { n_sims: 9 }, key: 'n_sims', valid: ['n_sim', 'max_share', 'seed'] },
+  maskDonut: { call: (s, o) => s.maskDonut(o), bad: { r_min_m: 50, r_mxa_m: 250 }, key: 'r_mxa_m', valid: ['r_min_m', 'r_max_m', 'law', 'replace'] },
+  maskKAnonymity: { call: (s, o) => s.maskKAnonymity(o), bad: { target: 10 }, key: 'target', valid: ['target_k', 'against', 'r_max_m'] },
+  maskingCost: { call: (s, o) => s.maskingCost(o), bad: { bandwidth: 100 }, key: 'bandwidth', valid: ['bandwidth_m', 'grid_cells'], needsMask: true },
+  aggregate: { call: (s, o) => s.aggregate(o), bad: { cell_size: 250 }, key: 'cell_size', valid: ['cell_size_m', 'layout', 'min_count'] },
+  exportPreview: { call: (s, o) => s.exportPreview('masked_points', o), bad: { formt: 'csv' }, key: 'formt', valid: ['format', 'coordinates', 'decimals'], needsMask: true },
+  exportFile: { call: (s, o) => s.exportFile('masked_points', o), bad: { confirm_unmaskd: true }, key: 'confirm_unmaskd', valid: ['confirm_unmasked', 'format'], needsMask: true },
+};
+
+// Session methods that take no options object (positional arguments only,
+// checked below where they are numbers).
+const NO_OPTIONS = new Set([
+  'constructor', 'free', 'clearControls', 'clearArea', 'setAreaFallback', 'study', 'summary',
+  'mapLayers', 'rejections', 'envelopeStep', 'envelopeFinish', 'envelopeShare', 'envelopeHelperStart',
+  'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
+  'scanFinish', 'maskResult', 'sharingCautions',
+]);
+
+test('every Session method is either listed as taking options here or as taking none', () => {
+  const names = Object.getOwnPropertyNames(Session.prototype).filter((n) => typeof Session.prototype[n] === 'function' && !n.startsWith('__'));
+  for (const n of names) {
+    assert.ok(n in CASES || NO_OPTIONS.has(n), `Session.${n} is new: add it to CASES (takes options) or NO_OPTIONS`);
+  }
+  for (const n of Object.keys(CASES)) assert.ok(names.includes(n), `Session.${n} exists`);
+});
+
+for (const [name, c] of Object.entries(CASES)) {
+  test(`${name}: a misspelt option is refused, naming it and the valid ones`, () => {
+    const s = demo();
+    if (c.needsMask) s.maskDonut({ seed: 5 });
+    const before = s.maskResult();
+    const e = throws(() => c.call(s, c.bad));
+    assertUnknown(e, c.key, c.valid);
+    // Nothing was run or kept with a default in the misspelt option's place.
+    assert.deepEqual(s.maskResult(), before);
+    assert.equal(s.summary().n_events, 1500);
+  });
+}
+
+test('a misspelt key close to a valid one gets a suggestion', () => {
+  const s = demo();
+  const e = throws(() => s.maskDonut({ r_min_m: 50, r_mxa_m: 250 }));
+  assert.match(e.message, /did you mean "r_max_m"/);
+  assert.equal(s.maskResult(), null, 'no mask was made with the default maximum');
+  const k = throws(() => s.intensitySurface({ kernal: 'quartic' }));
+  assert.match(k.message, /did you mean "kernel"/);
+});
+
+test('options that are not an object, or hold values of the wrong type, are refused in plain words', () => {
+  const s = demo();
+  for (const [f, what] of [
+    [() => s.clarkEvans(5), 'clarkEvans'],
+    [() => s.clarkEvans({ n_sim: 'many' }), 'n_sim'],
+    [() => s.clarkEvans({ n_sim: 2.5 }), 'n_sim'],
+    [() => s.envelopeStart({ function: 'ripley' }), 'function'],
+    [() => s.maskDonut({ law: 'gaussian', seed: 1 }), 'law'],
+    [() => s.loadEvents(file('demo-data/cases.csv'), { coords: { kind: 'nonsense' } }), 'coords'],
+    [() => s.loadEvents(file('demo-data/cases.csv'), { mapping: { lon: 'x' } }), 'lon'],
+    [() => s.dbscan({ eps_m: NaN }), 'eps_m'],
+    [() => s.maskDonut({ r_max_m: Infinity, seed: 1 }), 'r_max_m'],
+  ]) {
+    const e = throws(f);
+    assert.equal(e.code, 'bad_options', e.message);
+    assert.ok(e.message.includes(what), `${what}: ${e.message}`);
+    assertPlain(e);
+  }
+  assert.equal(s.maskResult(), null);
+});
+
+test('values out of range are refused with the option, its value and the range', () => {
+  const s = demo();
+  assertRange(throws(() => s.quadratTest({ nx: 0 })), 'nx', 0);
+  assertRange(throws(() => s.quadratTest({ n_sim: 10000 })), 'n_sim', 10000);
+  // A negative count is not even a count: refused as not understood, by name.
+  const neg = throws(() => s.clarkEvans({ n_sim: -1 }));
+  assert.equal(neg.code, 'bad_options');
+  assert.match(neg.message, /n_sim.*-1/);
+  assertPlain(neg);
+  assertRange(throws(() => s.envelopeStart({ n_steps: 1 })), 'n_steps', 1);
+  assertRange(throws(() => s.envelopeStart({ n_sim: 0 })), 'n_sim', 0);
+  assertRange(throws(() => s.envelopeStart({ alpha: 0 })), 'alpha', 0);
+  assertRange(throws(() => s.envelopeStart({ r_max_m: 1e9 })), 'r_max_m', 1000000000);
+  assertRange(throws(() => s.envelopeStart({ r_min_m: 500, r_max_m: 400 })), 'r_min_m', 500);
+  assertRange(throws(() => s.envelopeStart({ bandwidth_m: -3 })), 'bandwidth_m', -3);
+  assertRange(throws(() => s.intensitySurface({ cells: 1 })), 'cells', 1);
+  assertRange(throws(() => s.intensitySurface({ candidates: 2 })), 'candidates', 2);
+  assertRange(throws(() => s.intensitySurface({ method: 'fixed', fixed_m: -1 })), 'fixed_m', -1);
+  assertRange(throws(() => s.intensitySurface({ isopleths: [0.5, 1.5] })), 'isopleths', 1.5);
+  assertRange(throws(() => s.dbscan({ eps_m: 0 })), 'eps_m', 0);
+  assertRange(throws(() => s.dbscan({ eps_m: 100, min_samples: 0 })), 'min_samples', 0);
+  assertRange(throws(() => s.scanStart({ max_share: 0.8 })), 'max_share', 0.8);
+  assertRange(throws(() => s.scanStart({ n_sim: 0 })), 'n_sim', 0);
+  assertRange(throws(() => s.maskDonut({ r_max_m: 1e9, seed: 1 })), 'r_max_m', 1000000000);
+  assertRange(throws(() => s.maskDonut({ r_max_m: -5, seed: 1 })), 'r_max_m', -5);
+  assertRange(throws(() => s.maskDonut({ max_tries: 0, seed: 1 })), 'max_tries', 0);
+  assertRange(throws(() => s.maskKAnonymity({ target_k: 0, seed: 1 })), 'target_k', 0);
+  assertRange(throws(() => s.maskKAnonymity({ area_factor: 0.5, seed: 1 })), 'area_factor', 0.5);
+  assert.equal(s.maskResult(), null, 'no mask was made by a refused call');
+  s.maskDonut({ seed: 2 });
+  assertRange(throws(() => s.maskingCost({ grid_cells: 1 })), 'grid_cells', 1);
+  assertRange(throws(() => s.maskingCost({ bandwidth_m: 0 })), 'bandwidth_m', 0);
+  assertRange(throws(() => s.aggregate({ cell_size_m: 0 })), 'cell_size_m', 0);
+  assertRange(throws(() => s.aggregate({ min_count: 0 })), 'min_count', 0);
+  assertRange(throws(() => s.exportPreview('masked_points', { decimals: 99 })), 'decimals', 99);
+  // The range is stated in the message.
+  assert.match(throws(() => s.clarkEvans({ n_sim: 10000 })).message, /from 0 to 9999/);
+  assert.match(throws(() => s.maskDonut({ r_max_m: 1e9, seed: 1, replace: true })).message, /times the study area's extent/);
+});
+
+test('kDistance checks its one number: 0, negative, fractional and huge values are refused', () => {
+  const s = demo();
+  for (const v of [0, 1, 1e6]) {
+    const e = throws(() => s.kDistance(v));
+    assertRange(e, 'min_samples', v);
+    assert.doesNotMatch(e.message, /4294967295/);
+  }
+  for (const v of [-1, 1.5]) {
+    const e = throws(() => s.kDistance(v));
+    assert.equal(e.code, 'bad_options', e.message);
+    assert.ok(e.message.includes('min_samples') && e.message.includes(String(v)), e.message);
+    assert.doesNotMatch(e.message, /4294967295/);
+    assertPlain(e);
+  }
+  for (const v of ['five', NaN, undefined]) {
+    const e = throws(() => s.kDistance(v));
+    assert.ok(e.code === 'bad_options' || e.code === 'bad_parameter', `${v}: ${e.code}`);
+    assertPlain(e);
+  }
+  assert.equal(s.kDistance(5).min_samples, 5);
+});
+
+test('batch sizes and page offsets must be whole numbers, 0 or more (no wrap-around of -1)', () => {
+  const s = demo();
+  s.envelopeStart({ n_sim: 5, seed: 1, n_steps: 10 });
+  for (const v of [-1, 1.5, NaN]) {
+    const e = throws(() => s.envelopeStep(v));
+    assert.equal(e.code, 'bad_parameter');
+    assert.match(e.message, /envelopeStep: k must be a whole number/);
+  }
+  assert.equal(s.envelopeStep(2), 2, 'nothing ran on the refused calls');
+  s.scanStart({ n_sim: 5, seed: 1 });
+  assert.equal(throws(() => s.scanStep(-1)).code, 'bad_parameter');
+  assert.equal(s.scanStep(1), 1);
+  assert.equal(throws(() => s.rejections('events', -1, 10)).code, 'bad_parameter');
+  assert.equal(throws(() => s.rejections('events', 0, 2.5)).code, 'bad_parameter');
+  assert.equal(s.rejections('events', 0, 10).offset, 0);
+});
+
+test('drawEnvelopeChart refuses an unknown chart option by name', () => {
+  const s = demo();
+  s.envelopeStart({ n_sim: 3, seed: 1, n_steps: 10 });
+  s.envelopeStep(3);
+  const res = s.envelopeFinish();
+  const e = throws(() => drawEnvelopeChart('no-such-canvas', res, { colour: 'red' }));
+  assert.equal(e.code, 'bad_options');
+  assert.ok(e.message.includes('"colour"'), e.message);
+  assertPlain(e);
+});
+
+test('parameterSpec: one list of names, units, defaults and limits, matching what the methods do', () => {
+  const all = parameterSpec();
+  const names = all.map((x) => x.analysis);
+  for (const n of ['loadEvents', 'loadArea', 'quadratTest', 'clarkEvans', 'envelopeStart', 'intensitySurface', 'dbscan', 'kDistance', 'scanStart', 'maskDonut', 'maskKAnonymity', 'maskingCost', 'aggregate', 'exportFile']) {
+    assert.ok(names.includes(n), n);
+  }
+  // Every key a misspelt-key message lists is in the spec, and back.
+  const s = demo();
+  for (const [name, c] of Object.entries(CASES)) {
+    const spec = parameterSpec(name);
+    if (c.needsMask && !s.maskResult()) s.maskDonut({ seed: 9 });
+    const msg = throws(() => c.call(s, c.bad)).message;
+    for (const f of spec.fields) assert.ok(msg.includes(f.name), `${name}: ${f.name} listed`);
+  }
+  // Units are in the names: every field in metres ends in _m, and back.
+  for (const sp of all) {
+    for (const f of sp.fields) {
+      if (f.unit === 'm') assert.match(f.name, /_m$/, `${sp.analysis}.${f.name}`);
+      if (/_m$/.test(f.name)) assert.equal(f.unit, 'm', `${sp.analysis}.${f.name}`);
+      if (f.kind === 'choice') assert.ok(f.allowed.length > 0);
+      if (f.min !== null && f.max !== null) assert.ok(f.min <= f.max);
+    }
+  }
+  // Defaults are the ones the methods use.
+  const field = (a, n) => parameterSpec(a).fields.find((f) => f.name === n);
+  assert.equal(field('clarkEvans', 'n_sim').default, 999);
+  assert.equal(s.clarkEvans({ n_sim: field('clarkEvans', 'n_sim').default }).n_sim, 999);
+  const env = s.envelopeStart({ n_sim: 2 });
+  assert.equal(env.distances, field('envelopeStart', 'n_steps').default + 1);
+  assert.equal(field('maskDonut', 'r_max_m').default, 500);
+  assert.equal(field('aggregate', 'cell_size_m').default, 1000);
+  // The limits are the ones the methods enforce: max passes, max + 1 fails.
+  const nsim = field('quadratTest', 'n_sim');
+  assert.equal(s.quadratTest({ n_sim: 0 }).n_sim, 0);
+  assert.equal(throws(() => s.quadratTest({ n_sim: nsim.max + 1 })).code, 'bad_parameter');
+  assert.equal(throws(() => parameterSpec('noSuchMethod')).code, 'bad_options');
+});
