@@ -5,4 +5,4 @@
 #   power:  500 Thomas and 500 Matérn II datasets, 199 simulations, >= 95 % rejected
 # Run from the repository root.
 set -e
-cargo test --release --test clustering -- --ignored --nocapture
+cargo test --release --test distance -- --ignored --nocapture

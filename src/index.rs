@@ -942,7 +942,7 @@ mod tests {
         g.for_each_within(1.0, 1.0, f64::NAN, |_, _| panic!("none"));
     }
 
-    /// Closed form (METHODS §3; STYLE closed-form list): on a k×k square
+    /// Closed form (docs/methods.md#clark-evans): on a k×k square
     /// lattice with spacing d every nearest-neighbour distance is d, and
     /// every interior point has exactly 4 neighbours at distance d.
     #[test]
@@ -967,7 +967,7 @@ mod tests {
         (x, y)
     }
 
-    /// Oracle test against an O(n²) loop on 500 seeded points (STYLE.md §3.9).
+    /// Oracle test against an O(n²) loop on 500 seeded points.
     #[test]
     fn test_pairs_match_brute_force() {
         let (x, y) = random_unit_points(500, 17);

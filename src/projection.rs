@@ -20,7 +20,7 @@
 //! The inverse uses the βⱼ series and Newton's method for τ from τ′
 //! (Karney 2011, eqs. 19–21). The coefficients αⱼ, βⱼ are Karney's eqs. 35–36
 //! (typed from the paper's series; the reference check against pyproj in
-//! `tests/reference_checks.rs` agrees to well below 1 mm at 300 km).
+//! `tests/projection.rs` agrees to well below 1 mm at 300 km).
 //!
 //! # Accuracy of distances
 //! With k₀ = 1 on the central meridian, the point scale factor grows roughly

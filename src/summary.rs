@@ -376,7 +376,7 @@ mod tests {
     /// Closed form: a k×k lattice with spacing d at ((i+½)d, (j+½)d) has mean
     /// centre (kd/2, kd/2), per-axis variance d²(k²−1)/12 (discrete uniform),
     /// so SD = d·√((k²−1)/6) and a circular ellipse of semi-axes d·√((k²−1)/12);
-    /// every NN distance is d (METHODS §3 lattice check).
+    /// every NN distance is d (docs/methods.md#clark-evans lattice check).
     #[test]
     fn test_square_lattice_summary() {
         let (k, d) = (20usize, 50.0);

@@ -1,5 +1,5 @@
 //! Outside checks of the privacy module: published designs and check values
-//! (Hampton et al. 2010; METHODS §11), and reference values written by the
+//! (Hampton et al. 2010; docs/methods.md#privacy), and reference values written by the
 //! committed scripts in tests/reference/ (scipy.stats.kstwo / kstest,
 //! scipy.spatial.cKDTree, scipy.optimize.linprog).
 
@@ -198,7 +198,7 @@ fn ks_statistic_matches_scipy_kstest() {
 
 #[test]
 fn design_and_r_min_check_values() {
-    // METHODS §11 [C] and scipy quadrature (donut_reference.py): means 300.000
+    // docs/methods.md#privacy [C] and scipy quadrature (donut_reference.py): means 300.000
     // vs 344.444, medians 300 vs 360.555 for (100, 500) m (Hampton et al. 2010
     // design); r_min = √(k/(πD)) = 126.16 m for D = 1000/km², k = 50; tripled
     // area (Allshouse et al. 2010) 218.51 m.
@@ -226,7 +226,7 @@ fn design_and_r_min_check_values() {
 #[test]
 fn kanon_reference_set_reaches_target_or_says_exactly_why_not() {
     // Reference set from tests/reference/kanon_reference.py (cKDTree counts).
-    // Spatial k: METHODS §11 operational definition; layer without the events'
+    // Spatial k: docs/methods.md#privacy operational definition; layer without the events'
     // own addresses, so k = 1 + #{h : ‖h − x′‖ ≤ ‖x − x′‖}.
     let r = reference("kanon_reference.json");
     let rings: Vec<Vec<[f64; 2]>> = r["window"]
@@ -868,7 +868,7 @@ fn zones_rates_and_group_totals() {
         .unwrap()
         .iter()
         .all(|r| r.hi != Some(r.lo)));
-    // Rates per 1000 (common practice thresholds, METHODS §11 [CP]): shown only
+    // Rates per 1000 (common practice thresholds, docs/methods.md#privacy [CP]): shown only
     // for shown counts with population ≥ 100; unreliable below 20 events.
     let rates: Vec<Option<f64>> = t.cells.iter().map(|c| c.rate).collect();
     assert_eq!(

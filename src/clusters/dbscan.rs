@@ -4,7 +4,7 @@
 //! discovering clusters in large spatial databases with noise", Proc. KDD-96,
 //! AAAI Press, 226–231; revisited by Schubert et al. (2017), ACM TODS 42(3):19.
 //!
-//! The labels are those of `sklearn.cluster.DBSCAN` (METHODS §8, checked
+//! The labels are those of `sklearn.cluster.DBSCAN` (docs/methods.md#dbscan, checked
 //! against scikit-learn 1.9.1 in `tests/reference/dbscan_reference.py`):
 //! * the neighbourhood of a point holds every point at distance `d ≤ eps`
 //!   (tested as `dx² + dy² ≤ eps²`), **the point itself included**;
@@ -266,7 +266,7 @@ mod tests {
 
     #[test]
     fn db10_border_point_goes_to_first_cluster_grown() {
-        // METHODS §8 fixture DB10 [C: sklearn 1.9.1], eps = 1, min_samples = 4.
+        // docs/methods.md#dbscan fixture DB10 [C: sklearn 1.9.1], eps = 1, min_samples = 4.
         let mut pts: Vec<(f64, f64)> = A.to_vec();
         pts.push(P);
         pts.extend(B);
@@ -293,7 +293,7 @@ mod tests {
 
     #[test]
     fn boundary_is_inclusive() {
-        // METHODS §8 [C]: two points exactly 1 apart.
+        // docs/methods.md#dbscan [C]: two points exactly 1 apart.
         let pts = [(0.0, 0.0), (1.0, 0.0)];
         assert_eq!(run(&pts, 1.0, 2).0, vec![0, 0]);
         assert_eq!(run(&pts, 0.999999, 2).0, vec![-1, -1]);
@@ -301,7 +301,7 @@ mod tests {
 
     #[test]
     fn min_samples_one_makes_singletons() {
-        // METHODS §8 [C]: every point is core.
+        // docs/methods.md#dbscan [C]: every point is core.
         let pts = [(0.0, 0.0), (10.0, 0.0), (0.5, 0.0)];
         assert_eq!(run(&pts, 1.0, 1).0, vec![0, 1, 0]);
     }

@@ -7,8 +7,8 @@
 //! with normal p-values. R < 1: clustered; R > 1: regular.
 //!
 //! **Donnelly (1978)** edge-corrected mean and variance for a window of
-//! area A and perimeter P (holes included) [constants from memory, METHODS
-//! §3; checked there by simulation in the unit square]:
+//! area A and perimeter P (holes included) [constants from memory,
+//! docs/methods.md#clark-evans; checked there by simulation in the unit square]:
 //! E[r̄] = 0.5·√(A/n) + (0.0514 + 0.041/√n)·P/n,
 //! Var[r̄] = 0.0703·A/n² + 0.037·P·√(A/n⁵).
 //! Donnelly simulated rectangles; for other polygons it is an extrapolation
@@ -121,7 +121,7 @@ fn stats(mean: f64, expected: f64, se: f64) -> ClarkEvansStats {
 /// (naive, Donnelly).
 ///
 /// # Examples
-/// METHODS §3: n = 100, A = 1, P = 4, r̄_A = 0.04 → R = 0.8, z = −3.8261.
+/// docs/methods.md#clark-evans: n = 100, A = 1, P = 4, r̄_A = 0.04 → R = 0.8, z = −3.8261.
 /// ```
 /// # use cloister::distance::clark_evans_from_mean;
 /// let (naive, donnelly) = clark_evans_from_mean(0.04, 100, 1.0, 4.0);
@@ -219,7 +219,7 @@ pub fn clark_evans(
 mod tests {
     use super::*;
 
-    /// 0.26136 = √((4 − π)/(4π)) = 0.2613616 (METHODS §3) and the CSR mean
+    /// 0.26136 = √((4 − π)/(4π)) = 0.2613616 (docs/methods.md#clark-evans) and the CSR mean
     /// 1/(2√λ) has constant 0.5.
     #[test]
     fn test_constants() {
@@ -230,7 +230,7 @@ mod tests {
         assert!((naive.expected_m - 0.5 / 100f64.sqrt()).abs() < 1e-15);
     }
 
-    /// METHODS §3 check values: n = 100, A = 1, P = 4, r̄_A = 0.04.
+    /// docs/methods.md#clark-evans check values: n = 100, A = 1, P = 4, r̄_A = 0.04.
     #[test]
     fn test_check_values() {
         let (naive, don) = clark_evans_from_mean(0.04, 100, 1.0, 4.0);
@@ -245,7 +245,7 @@ mod tests {
         assert!((don.z + 4.1890).abs() < 5e-5);
     }
 
-    /// F12 (Appendix A): mean NN = 0.158227, naive R = 1.096229.
+    /// F12 (docs/methods.md#fixtures): mean NN = 0.158227, naive R = 1.096229.
     #[test]
     fn test_f12_mean_nn() {
         let (x, y) = crate::distance::functions::tests::f12();

@@ -4,8 +4,8 @@
 //! Tests of CSR condition on the observed number of events: the null
 //! patterns are **binomial** processes (n independent uniform points in the
 //! window), which makes the Monte Carlo test exact with no nuisance
-//! parameter (Besag & Diggle 1977, Applied Statistics 26:327–333; METHODS
-//! §1). Points are drawn by rejection from the bounding box with an
+//! parameter (Besag & Diggle 1977, Applied Statistics 26:327–333;
+//! docs/methods.md#csr). Points are drawn by rejection from the bounding box with an
 //! even–odd point-in-polygon test, so holes are excluded.
 //!
 //! Every simulation `j` of a run gets its own generator, seeded from the run
@@ -197,7 +197,7 @@ mod tests {
     use super::*;
     use crate::window::tests::wh;
 
-    /// METHODS §1 check values for WH: mean (5, 5), nothing in the hole,
+    /// docs/methods.md#csr check values for WH: mean (5, 5), nothing in the hole,
     /// P(x < 2) = 20/96; tolerance 4 standard errors (2×10⁵ draws).
     #[test]
     fn test_csr_in_window_with_hole() {

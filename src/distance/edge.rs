@@ -27,7 +27,7 @@
 //! **Weight cap.** Isotropic and translation weights are capped at
 //! [`FunctionParams::weight_cap`](super::FunctionParams) (default 4, the
 //! largest isotropic weight in a rectangle for r up to ¼ of the shorter
-//! side, reached at a corner: METHODS §4.1 suggests capping at about 4
+//! side, reached at a corner: docs/methods.md#distance-functions suggests capping at about 4
 //! [common practice]). The number of pair weights that hit the cap is
 //! reported.
 
@@ -603,7 +603,7 @@ mod tests {
     use super::*;
     use crate::window::tests::{unit_square, wh};
 
-    /// METHODS §4.3 single-weight checks (translation).
+    /// docs/methods.md#distance-functions single-weight checks (translation).
     #[test]
     fn test_translation_single_weights() {
         let mut c = 0;
@@ -727,7 +727,7 @@ mod tests {
 
     #[test]
     fn test_arc_inside_single_weights() {
-        // METHODS §4.3 single-weight checks: unit square, x = (0.1, 0.2),
+        // docs/methods.md#distance-functions single-weight checks: unit square, x = (0.1, 0.2),
         // r = 0.3: inside arc length 0.79210827 (analytic; shapely 0.79210829).
         let w = unit_square();
         let near = w.edges_near(0.1, 0.2, 0.3);

@@ -17,11 +17,11 @@
 //!     memory]): T = ∫_I (Ĥ(r) − H₀(r))² dr by the trapezoid rule.
 //!   - p = (1 + #{j: T_j ≥ T_obs})/(m + 1) (Barnard 1963; Hope 1968;
 //!     Besag & Diggle 1977), ties counted against the data (conservative).
-//! * **Reference curve H₀**: the CSR curve by default (METHODS §5: use the
+//! * **Reference curve H₀**: the CSR curve by default (docs/methods.md#envelopes: use the
 //!   theoretical value when known). Optionally the mean of all m + 1
 //!   curves, data included, which keeps data and simulations exchangeable
 //!   (one of the options listed by Baddeley et al. 2014, Ecol Monogr
-//!   84:477–489, via METHODS §5).
+//!   84:477–489, via docs/methods.md#envelopes).
 //! * **Global band** matching the MAD test: H₀(r) ± T_(k), T_(k) the k-th
 //!   largest simulated MAD statistic, k = ⌊α(m+1)⌋. The observed curve
 //!   leaves this band (strictly) somewhere on I if and only if the MAD test
@@ -796,7 +796,7 @@ mod tests {
     use super::*;
     use crate::window::tests::unit_square;
 
-    /// METHODS §5 check values: simulated 1..99, T_obs = 100 → 0.01,
+    /// docs/methods.md#envelopes check values: simulated 1..99, T_obs = 100 → 0.01,
     /// 95 (a tie) → 0.06, 0.5 → 1.0.
     #[test]
     fn test_monte_carlo_p_check_values() {
@@ -806,7 +806,7 @@ mod tests {
         assert!((monte_carlo_p(0.5, &sims) - 1.0).abs() < 1e-15);
     }
 
-    /// Critical rank k = ⌊α(m+1)⌋ (METHODS §5): m = 99 → 5th largest.
+    /// Critical rank k = ⌊α(m+1)⌋ (docs/methods.md#envelopes): m = 99 → 5th largest.
     #[test]
     fn test_global_band_rank() {
         let sims: Vec<f64> = (1..=99).map(|v| v as f64).collect();

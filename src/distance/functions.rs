@@ -1,15 +1,15 @@
 //! The distance functions G, F, J, K, L and the pair correlation g over a
 //! grid of distances.
 //!
-//! # Definitions and estimators (METHODS §4)
+//! # Definitions and estimators (docs/methods.md#distance-functions)
 //! * **K** (Ripley 1976, 1977 [from memory]):
 //!   K̂(r) = |W| / (n(n−1)) · Σ_{i≠j} 1{d_ij ≤ r}·e_ij. The n(n−1)
 //!   normalisation is used (unbiased for λ² under Poisson, and K̂ is
 //!   unbiased for πr² under binomial CSR with the isotropic or translation
-//!   correction; METHODS §1 [derived]). With the **border** correction
+//!   correction; docs/methods.md#csr [derived]). With the **border** correction
 //!   K̂_B(r) = |W|/(n−1) · Σ_i 1{b_i ≥ r}·#{j ≠ i: d_ij ≤ r} / #{i: b_i ≥ r},
 //!   i.e. λ̂ = (n−1)/|W| in place of n/|W|, consistent with the n(n−1)
-//!   normalisation (the METHODS §4.3 table uses n/|W|; values differ by the
+//!   normalisation (the docs/methods.md#distance-functions table uses n/|W|; values differ by the
 //!   factor n/(n−1)).
 //! * **L** = √(K/π) (Besag 1977 [from memory]); CSR: L(r) = r.
 //! * **g** (pair correlation): ĝ(r) = |W| / (2πr·n(n−1)) ·
@@ -22,12 +22,12 @@
 //!   Ĝ(r) = #{i: d_i ≤ r, b_i ≥ r} / #{i: b_i ≥ r}. Kaplan–Meier and
 //!   Hanisch estimators are not implemented.
 //! * **F** (empty space) on a regular grid of test locations u_k in W (cell
-//!   centres, spacing r_max/50 [common practice, METHODS §4.1], widened so
+//!   centres, spacing r_max/50 [common practice, docs/methods.md#distance-functions], widened so
 //!   at most 65,536 grid nodes cover the bounding box):
 //!   F̂(r) = #{k: e_k ≤ r, b_k ≥ r} / #{k: b_k ≥ r}.
 //! * **J** = (1 − Ĝ)/(1 − F̂) (van Lieshout & Baddeley 1996), reported only
 //!   where F̂ < 0.9 (NaN elsewhere) because it is noisy near F̂ = 1 [common
-//!   practice, METHODS §4.1].
+//!   practice, docs/methods.md#distance-functions].
 //! * CSR curves: K = πr², L = r, g = 1, G = F = 1 − exp(−λ̂πr²) (exact
 //!   under Poisson; binomial differences negligible for n ≳ 50), J = 1.
 //!
@@ -1197,7 +1197,7 @@ pub(crate) mod tests {
         f: false,
     };
 
-    /// Fixture F12 (METHODS Appendix A).
+    /// Fixture F12 (docs/methods.md#fixtures).
     pub fn f12() -> (Vec<f64>, Vec<f64>) {
         let p = [
             (0.10, 0.20),
@@ -1232,7 +1232,7 @@ pub(crate) mod tests {
         distance_functions_in(unit_square(), &x, &y, &p).unwrap().k
     }
 
-    /// METHODS §4.3 F12 table: K none / translation / isotropic / border at
+    /// docs/methods.md#distance-functions F12 table: K none / translation / isotropic / border at
     /// r = 0.10, 0.15, 0.20, 0.25 (values [C] there, 6 decimals).
     #[test]
     fn test_f12_k_table() {
@@ -1259,12 +1259,12 @@ pub(crate) mod tests {
                 );
             }
         }
-        // L_iso(0.10) = 0.138894; L_iso(0.25) = 0.171926 (METHODS §4.3).
+        // L_iso(0.10) = 0.138894; L_iso(0.25) = 0.171926 (docs/methods.md#distance-functions).
         let l = l_from_k(&k_at(Correction::Isotropic));
         assert!((l[2] - 0.138894).abs() < 1e-6 && (l[5] - 0.171926).abs() < 1e-6);
     }
 
-    /// METHODS §4.3: G, F, J on F12 with border correction, F on the
+    /// docs/methods.md#distance-functions: G, F, J on F12 with border correction, F on the
     /// 201×201 lattice linspace(0, 1, 201)² (as in methods-checks/part6.py).
     #[test]
     fn test_f12_gfj() {

@@ -1,6 +1,6 @@
 //! Quadrat counts and the χ² test of CSR, clipped to the study area.
 //!
-//! # Method (METHODS §2; Greig-Smith 1952, Cressie 1993 [from memory];
+//! # Method (docs/methods.md#quadrat; Greig-Smith 1952, Cressie 1993 [from memory];
 //! Diggle 2013)
 //! A grid of nx × ny equal rectangles covers the bounding box of the study
 //! area. Each cell Q_i is clipped to the area: a_i = |Q_i ∩ W| is computed
@@ -147,7 +147,7 @@ fn chi_square(counts: &[f64], expected: &[f64]) -> f64 {
 /// proportions matter). Cells with zero area are not allowed here.
 ///
 /// # Examples
-/// The 3×3 example of METHODS §2 (X² = 13.6 on 8 df, upper p = 0.09281):
+/// The 3×3 example of docs/methods.md#quadrat (X² = 13.6 on 8 df, upper p = 0.09281):
 /// ```
 /// # use cloister::distance::quadrat_from_counts;
 /// let s = quadrat_from_counts(&[3, 5, 2, 8, 7, 5, 1, 4, 10], &[1.0; 9]).unwrap();
@@ -360,7 +360,7 @@ mod tests {
     use super::*;
     use crate::window::tests::wh;
 
-    /// Q9 (METHODS §2 / Appendix A; scipy.stats.chisquare): X² = 13.6,
+    /// Q9 (docs/methods.md#quadrat, #fixtures; scipy.stats.chisquare): X² = 13.6,
     /// df = 8, upper 0.09281, lower 0.90719, two-sided 0.18561, VMR 1.7.
     #[test]
     fn test_q9_check_values() {
@@ -374,7 +374,7 @@ mod tests {
         assert!((8.0 * s.dispersion_index - s.chi_square).abs() < 1e-12);
     }
 
-    /// Unequal areas (METHODS §2): a = (1,2,3,4), counts (4,6,5,15):
+    /// Unequal areas (docs/methods.md#quadrat): a = (1,2,3,4), counts (4,6,5,15):
     /// E = (3,6,9,12), X² = 2.8611, df = 3, p = 0.41354.
     #[test]
     fn test_unequal_areas_check_values() {
@@ -411,8 +411,8 @@ mod tests {
         assert!(p > 0.0 && p <= 1.0);
     }
 
-    /// Under binomial CSR with equal cells E[X²] = k − 1 exactly (METHODS
-    /// §2 [derived; checked there by simulation]); the Monte Carlo draws
+    /// Under binomial CSR with equal cells E[X²] = k − 1 exactly (docs/methods.md#quadrat
+    /// [derived; checked there by simulation]); the Monte Carlo draws
     /// must reproduce it. Mean over 4000 draws within 4 SE (Var X² ≈ 2(k−1)).
     #[test]
     fn test_mc_mean_chi_square() {

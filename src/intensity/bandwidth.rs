@@ -6,8 +6,8 @@
 //!   Wiley; Silverman 1986, *Density Estimation for Statistics and Data
 //!   Analysis*, Chapman & Hall — the two coincide in two dimensions):
 //!   `σ = σ̂·n^(−1/6)` with the single isotropic scale
-//!   `σ̂ = √((s_x² + s_y²)/2)` (sample variances, divisor n − 1; METHODS §7
-//!   \[CP\]). For the quartic kernel the radius with the same spread,
+//!   `σ̂ = √((s_x² + s_y²)/2)` (sample variances, divisor n − 1;
+//!   docs/methods.md#kernel \[CP\]). For the quartic kernel the radius with the same spread,
 //!   `2√2·σ`, is returned.
 //! * **Likelihood cross-validation** (Loader 1999, *Local Regression and
 //!   Likelihood*, Springer \[M\]): maximise
@@ -18,11 +18,11 @@
 //!   for events whose neighbours contribute less than twice their own binned
 //!   term). An event with no neighbour within 6 SD contributes
 //!   `ln k_h(d_nn)` (its nearest neighbour alone) rather than `ln 0`; with the
-//!   Jones–Diggle correction `∫_W λ̂ = n` (METHODS §7 \[D\]); with none it is
+//!   Jones–Diggle correction `∫_W λ̂ = n` (docs/methods.md#kernel \[D\]); with none it is
 //!   `Σ_j e_h(x_j)`; with the uniform correction it is the grid integral of
 //!   the corrected surface.
 //! * **Diggle (1985) / Berman & Diggle (1989) MSE criterion** (JRSS-B
-//!   51:81–92 \[M\]), in the form of METHODS §7 for a Gaussian kernel of SD σ:
+//!   51:81–92 \[M\]), in the form of docs/methods.md#kernel for a Gaussian kernel of SD σ:
 //!   `M̂(σ) = |W|/(4πσ²n) + |W|/(n(n−1))·Σ_{i≠j} e_ij[φ_{√2σ}(d_ij) − 2φ_σ(d_ij)]`
 //!   with the translation edge weight `e_ij = |W|/|W ∩ (W + x_i − x_j)|`, the
 //!   denominator taken from the set covariance of the grid mask (by FFT).
@@ -32,7 +32,7 @@
 //!   summed lag by lag, O(cells·log cells) instead of O(n²).
 //!   Minimised over the ladder. Under complete spatial randomness the
 //!   criterion keeps falling as σ grows, so when the minimum is at the
-//!   largest candidate this returns **no finite optimum** (as METHODS says)
+//!   largest candidate this returns **no finite optimum** (as docs/methods.md#kernel says)
 //!   instead of the end of the ladder. For the quartic kernel the optimum σ
 //!   is converted to the radius `2√2·σ`.
 //! * **Fixed**: the caller's value.

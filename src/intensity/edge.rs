@@ -14,7 +14,7 @@
 //! sum over the whole lattice (so
 //! `e_h = 1` wherever the whole stencil is inside); `e_h(x_i)` at events is the
 //! bilinear interpolation of that grid (quadrature at cell resolution,
-//! METHODS §7 \[CP\]). The boundary is therefore resolved to one cell.
+//! docs/methods.md#kernel \[CP\]). The boundary is therefore resolved to one cell.
 
 use super::fft::{convolve, Stencil};
 use serde::{Deserialize, Serialize};

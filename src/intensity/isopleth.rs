@@ -1,6 +1,6 @@
 //! Contours of a surface as closed polygons, and percent-volume isopleths.
 //!
-//! * **Percent-volume level** (METHODS §7 \[CP\]): the level `c_p` with
+//! * **Percent-volume level** (docs/methods.md#kernel \[CP\]): the level `c_p` with
 //!   `∫_{λ̂ ≥ c_p} λ̂ = p·∫_W λ̂`. On the grid: sort the cells in the area by
 //!   value, highest first, accumulate value × cell area and stop at the
 //!   fraction `p`; `c_p` is the value of the cell where the sum reaches it.

@@ -1,6 +1,6 @@
 //! Smoothing kernels in two dimensions, each integrating to 1 over the plane.
 //!
-//! **What "bandwidth" means differs by kernel, on purpose, as in METHODS §7:**
+//! **What "bandwidth" means differs by kernel, on purpose, as in docs/methods.md#kernel:**
 //! * [`Kernel::Gaussian`]: `h` is the standard deviation per axis,
 //!   `k_h(u) = exp(−|u|²/(2h²)) / (2πh²)`, so `k_h(0) = 0.15915494/h²`.
 //! * [`Kernel::Quartic`] (biweight): `h` is the support radius,
@@ -154,7 +154,7 @@ mod tests {
 
     #[test]
     fn peak_values_match_methods_constants() {
-        // METHODS §7 [C]: Gaussian k(0) = 0.15915494/h², quartic k(0) = 0.95492966/h².
+        // docs/methods.md#kernel [C]: Gaussian k(0) = 0.15915494/h², quartic k(0) = 0.95492966/h².
         let h = 3.0;
         assert!((Kernel::Gaussian.value(0.0, h) * h * h - 0.15915494).abs() < 1e-8);
         assert!((Kernel::Quartic.value(0.0, h) * h * h - 0.95492966).abs() < 1e-8);
@@ -163,14 +163,14 @@ mod tests {
 
     #[test]
     fn kernels_integrate_to_one() {
-        // METHODS §7 [C]: each kernel integrates to 1.
+        // docs/methods.md#kernel [C]: each kernel integrates to 1.
         assert!((mass(Kernel::Gaussian, 1.7) - 1.0).abs() < 1e-6);
         assert!((mass(Kernel::Quartic, 1.7) - 1.0).abs() < 1e-4);
     }
 
     #[test]
     fn quartic_axis_variance_is_h2_over_8() {
-        // METHODS §7 [C]: per-axis variance h²/8, so h = 2√2·σ.
+        // docs/methods.md#kernel [C]: per-axis variance h²/8, so h = 2√2·σ.
         let h: f64 = 2.0;
         let step = h / 400.0;
         let n = (h / step).ceil() as i64;

@@ -27,7 +27,7 @@
 //! largest error 2.8 × 10⁻³ of the peak, total absolute error 9 × 10⁻⁴ of
 //! the total; the same for the quartic kernel. Tests hold it under 1 % of
 //! the peak (`binned_matches_exact`, and against scikit-learn in
-//! `tests/reference_hotspots.rs`).
+//! `tests/intensity.rs`).
 //!
 //! # Grid
 //! Cells whose centre is outside the study area are masked (value 0, mask

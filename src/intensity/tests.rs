@@ -1,7 +1,7 @@
 use super::*;
 use rand::RngExt;
 
-/// F5 (METHODS Appendix A): five points in the unit square, Gaussian σ = 0.1.
+/// F5 (docs/methods.md#fixtures): five points in the unit square, Gaussian σ = 0.1.
 const F5: [(f64, f64); 5] = [
     (0.05, 0.05),
     (0.5, 0.5),
@@ -38,7 +38,7 @@ fn rel(a: f64, b: f64) -> f64 {
 
 #[test]
 fn f5_fixture_integrals_and_values() {
-    // METHODS §7 check values on F5 [C] (methods-checks/part4.py, trapezoid
+    // docs/methods.md#kernel check values on F5 [C] (methods-checks/part4.py, trapezoid
     // rule on an 801² grid with exact e(u) from normal CDFs):
     //   ∫_W λ̂: raw 3.98814, uniform 4.86796, Jones–Diggle 4.99998 (= n);
     //   λ̂(0.05, 0.05): raw 15.91549, uniform 33.28763, Jones–Diggle 33.28763.
@@ -69,7 +69,7 @@ fn f5_fixture_integrals_and_values() {
 }
 
 fn window_with_hole() -> Window {
-    // Appendix A fixture WH scaled to metres: [0, 10 km]² minus [4, 6 km]².
+    // Fixture WH (docs/methods.md#fixtures) scaled to metres: [0, 10 km]² minus [4, 6 km]².
     Window::from_polygons(
         vec![vec![
             vec![
@@ -92,7 +92,7 @@ fn window_with_hole() -> Window {
 
 #[test]
 fn jones_diggle_integrates_to_n_in_a_window_with_a_hole() {
-    // METHODS §7 [D]: ∫_W λ̂_JD = n exactly; on the grid up to quadrature.
+    // docs/methods.md#kernel [D]: ∫_W λ̂_JD = n exactly; on the grid up to quadrature.
     let region = window_with_hole();
     let mut rng = crate::rng::rng_from_seed(21);
     let (x, y) = region.sample_uniform(300, &mut rng);
@@ -188,7 +188,7 @@ fn binned_matches_exact() {
 
 #[test]
 fn one_point_peak_and_mass() {
-    // STYLE §3.8 / METHODS §7: one point peaks at 1/(2πh²) and the surface
+    // docs/methods.md#kernel: one point peaks at 1/(2πh²) and the surface
     // sums (× cell area) to 1 when the window is large.
     let region = Window::rectangle(-5000.0, -5000.0, 5000.0, 5000.0).unwrap();
     let h = 250.0;
@@ -214,7 +214,7 @@ fn one_point_peak_and_mass() {
 
 #[test]
 fn isopleths_of_a_bivariate_normal() {
-    // METHODS §7 [C]: for N(0, σ²I) the p % isopleth is the circle of radius
+    // docs/methods.md#kernel [C]: for N(0, σ²I) the p % isopleth is the circle of radius
     // σ√(−2 ln(1−p)): 50 % → 1.177410σ (area 4.35517σ²), 75 % → 1.665109σ,
     // 95 % → 2.447747σ (area 18.82274σ²); the level is (1−p)·peak.
     let sigma = 100.0;
@@ -299,7 +299,7 @@ fn contours_have_holes_and_export_as_geojson() {
 
 #[test]
 fn normal_reference_factors() {
-    // METHODS §7 [C]: n^(−1/6) = 0.5 (n = 64), 0.464159 (n = 100),
+    // docs/methods.md#kernel [C]: n^(−1/6) = 0.5 (n = 64), 0.464159 (n = 100),
     // 0.316228 (n = 1000). Points with s_x = s_y = s known exactly: ±1 pairs.
     for (n, f) in [(64, 0.5), (100, 0.464159), (1000, 0.316228)] {
         let x: Vec<f64> = (0..n)
@@ -372,7 +372,7 @@ fn gauss_pair(rng: &mut crate::rng::Rng) -> (f64, f64) {
 
 #[test]
 fn diggle_criterion_on_csr_and_thomas() {
-    // METHODS §7 [C]: under CSR (n = 200) the argmin sat at the largest grid
+    // docs/methods.md#kernel [C]: under CSR (n = 200) the argmin sat at the largest grid
     // value in 97 % of simulations → "no finite optimum". With our ladder
     // (0.1 to 2 × the normal-reference σ) it was 15 of these 20 seeded runs;
     // the other five had a shallow minimum near the top of the ladder (seen
@@ -396,7 +396,7 @@ fn diggle_criterion_on_csr_and_thomas() {
         }
     }
     assert!(none >= 13, "{none} of 20 CSR runs had no finite optimum");
-    // Thomas(κ = 25, μ = 8, σ = 0.02): METHODS §7 [C] optimum σ* = 0.01774
+    // Thomas(κ = 25, μ = 8, σ = 0.02): docs/methods.md#kernel [C] optimum σ* = 0.01774
     // (closed form), median of the empirical argmin over 200 torus runs 0.0175.
     // Ours (unit square, translation correction, 15 runs): median within
     // [0.012, 0.026], a loose band for 15 runs on a 20-step ladder.
@@ -604,7 +604,7 @@ fn narrow_bandwidth_binned_surface_keeps_the_event_count() {
     // Regression: a Gaussian bandwidth below one grid cell (20 m against
     // 50 m cells) made the sampled kernel sum to about 1.11 per event, so the
     // surface held 11 % more events than there are. With Jones–Diggle
-    // correction ∫_W λ̂ = n (METHODS §7 [D]) must hold whatever the bandwidth.
+    // correction ∫_W λ̂ = n (docs/methods.md#kernel [D]) must hold whatever the bandwidth.
     let region = window_with_hole();
     let mut rng = crate::rng::rng_from_seed(22);
     let (x, y) = region.sample_uniform(300, &mut rng);

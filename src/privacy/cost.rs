@@ -9,20 +9,20 @@
 //! * Mean centre and its shift; standard distance √(Σ‖xᵢ − x̄‖²/n)
 //!   (divisor n) and its change.
 //! * How far the intensity surface moves: a Gaussian kernel estimate
-//!   (METHODS §7; bandwidth = per-axis SD h, no edge correction, truncated at
+//!   (docs/methods.md#kernel; bandwidth = per-axis SD h, no edge correction, truncated at
 //!   4h) on a coarse grid over the study area for both patterns with the same
 //!   bandwidth; reported as the largest and the mean absolute difference over
 //!   cells inside the area, divided by the original surface's peak.
 //!   Default h: σ̂·n^(−1/6) with σ̂ = √((s_x² + s_y²)/2) of the original
-//!   (Silverman/Scott normal reference in 2-D, single isotropic h: METHODS §7
-//!   \[CP\]).
+//!   (Silverman/Scott normal reference in 2-D, single isotropic h:
+//!   docs/methods.md#kernel \[CP\]).
 //!
 //! # K/L curves
 //! [`compare`] leaves [`MaskingCost::l_curves`] empty; [`MaskingCost::add_l_curves`]
 //! fills it with L(r) − r of both patterns (Besag's L with Ripley's isotropic
 //! correction, [`crate::distance::functions`]) on one r grid, the original's,
 //! so the page can draw the pair. (Masking by distances up to r_max
-//! attenuates clustering at scales up to about 2·r_max: METHODS §11.)
+//! attenuates clustering at scales up to about 2·r_max: docs/methods.md#privacy.)
 
 use super::bad;
 use crate::distance::functions::{distance_functions, DistanceFunctions, FunctionParams};
@@ -386,7 +386,7 @@ mod tests {
 
     #[test]
     fn square_lattice_clark_evans_is_two() {
-        // Clark & Evans (1954); METHODS §3 [C]: a k×k lattice with spacing d at
+        // Clark & Evans (1954); docs/methods.md#clark-evans [C]: a k×k lattice with spacing d at
         // (i+½)d in a square of side k·d has every NN distance d, λ = 1/d², R = 2.
         let (k, d) = (10usize, 50.0);
         let mut x = vec![];
@@ -422,7 +422,7 @@ mod tests {
 
     #[test]
     fn one_point_kernel_peak() {
-        // METHODS §7 [C]: a Gaussian kernel peaks at 1/(2πh²).
+        // docs/methods.md#kernel [C]: a Gaussian kernel peaks at 1/(2πh²).
         let g = GridIndex::new(&[0.0], &[0.0]);
         assert!((gaussian_intensity(&g, 0.0, 0.0, 10.0) - 0.15915494 / 100.0).abs() < 1e-10);
     }

@@ -10,7 +10,7 @@
 //! # Parameters ([`DonutParams`])
 //! * `r_min_m`, `r_max_m`: minimum and maximum displacement in metres,
 //!   `0 ≤ r_min_m ≤ r_max_m`, `r_max_m > 0`. The defaults (100 m, 500 m) are the
-//!   worked example of METHODS §11, not a recommendation: pick `r_min_m` from
+//!   worked example of docs/methods.md#privacy, not a recommendation: pick `r_min_m` from
 //!   the residential density (see [`super::kanon::r_min_for_k`]).
 //! * `law`: how the distance is drawn ([`DistanceLaw`]); default uniform in the
 //!   annulus area, so masked points are spread evenly over the ring.
@@ -52,7 +52,7 @@ pub enum DistanceLaw {
     #[default]
     AreaUniform,
     /// Uniform in distance: d ~ U(r_min, r_max), the common description of
-    /// the method (METHODS §11 \[M\]). Mean for (100, 500) m: 300 m.
+    /// the method (docs/methods.md#privacy \[M\]). Mean for (100, 500) m: 300 m.
     DistanceUniform,
 }
 
@@ -287,7 +287,7 @@ mod tests {
 
     #[test]
     fn design_check_values_methods_s11() {
-        // METHODS §11 [C] check for (100, 500) m, Hampton et al. 2010 design.
+        // docs/methods.md#privacy [C] check for (100, 500) m, Hampton et al. 2010 design.
         let (a, b) = (100.0, 500.0);
         assert!((design_mean(DistanceLaw::DistanceUniform, a, b) - 300.000).abs() < 5e-4);
         assert!((design_mean(DistanceLaw::AreaUniform, a, b) - 344.444).abs() < 5e-4);

@@ -11,7 +11,7 @@
 //!
 //! Every file starts with metadata: tool, version, the date the caller
 //! passes in, what the file holds, the coordinate form, the settings, and
-//! cautions. The settings never include the seed (METHODS §11 "record the
+//! cautions. The settings never include the seed (docs/methods.md#privacy "record the
 //! masking parameters (not the seeds)"): with the seed and this tool anyone
 //! could replay the random displacements and subtract them.
 //!

@@ -1,7 +1,7 @@
 //! Masking to a spatial k-anonymity target.
 //!
-//! Spatial k-anonymity of a masked point x′ whose true location is x (METHODS
-//! §11 operational definition \[M/CP\], after Sweeney 2002 and its spatial use
+//! Spatial k-anonymity of a masked point x′ whose true location is x (docs/methods.md#privacy
+//!  operational definition \[M/CP\], after Sweeney 2002 and its spatial use
 //! in Hampton et al. 2010):
 //!
 //! k = #{candidate addresses h : ‖h − x′‖ ≤ ‖x − x′‖},
@@ -196,7 +196,7 @@ pub struct KAnonSettings {
 pub struct KSummary {
     pub n: usize,
     pub min: f64,
-    /// 5th percentile (type 7), reported because METHODS §11 asks for it.
+    /// 5th percentile (type 7), reported because docs/methods.md#privacy asks for it.
     pub p05: f64,
     pub median: f64,
     /// Share of exported points with k below the target (0 unless
@@ -217,7 +217,7 @@ pub struct KAnonReport {
     pub below_target: Vec<Unplaced>,
 }
 
-/// r_min = √(k/(π·D)) for a uniform density `density_per_km2` (METHODS §11;
+/// r_min = √(k/(π·D)) for a uniform density `density_per_km2` (docs/methods.md#privacy;
 /// D = 1000/km², k = 50 → 126.16 m).
 ///
 /// ```
@@ -511,7 +511,7 @@ mod tests {
 
     #[test]
     fn r_min_check_values_methods_s11() {
-        // METHODS §11 [C]: D = 1000/km², k = 50 → 126.16 m; Allshouse et al.
+        // docs/methods.md#privacy [C]: D = 1000/km², k = 50 → 126.16 m; Allshouse et al.
         // (2010) tripled area → × √3 = 218.51 m.
         assert!((r_min_for_k(50.0, 1000.0) - 126.16).abs() < 0.005);
         assert!((r_min_for_k(150.0, 1000.0) - 218.51).abs() < 0.005);

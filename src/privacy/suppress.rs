@@ -2,7 +2,7 @@
 //!
 //! # Primary suppression
 //! Counts from 1 to `min_count − 1` are hidden (default `min_count` = 5, i.e.
-//! counts 1–4: common practice, no single source; METHODS §11 \[CP\]). Zeros are
+//! counts 1–4: common practice, no single source; docs/methods.md#privacy \[CP\]). Zeros are
 //! shown unless `suppress_zeros`.
 //!
 //! # Complementary (secondary) suppression
@@ -51,10 +51,10 @@
 //! # Rates
 //! rate = count / population × `rate_per`. A rate is shown only when its
 //! count is shown and the population is ≥ `rate_min_population` (default 100:
-//! small denominators give unstable rates; METHODS §11 \[CP\]). A shown rate is
+//! small denominators give unstable rates; docs/methods.md#privacy \[CP\]). A shown rate is
 //! flagged unreliable when its count is below `rate_unreliable_below`
-//! (default 20: relative SE of a Poisson count 1/√n = 22.4 % at n = 20; METHODS
-//! §11 \[CP\]).
+//! (default 20: relative SE of a Poisson count 1/√n = 22.4 % at n = 20;
+//!  docs/methods.md#privacy \[CP\]).
 
 use super::aggregate::{Aggregation, Layout, LineKind};
 use serde::{Deserialize, Serialize};

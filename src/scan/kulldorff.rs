@@ -16,7 +16,7 @@
 //!
 //! # Windows
 //! A window is centred on a region and grows through the regions sorted by
-//! distance from it; regions at tied distances enter together (METHODS §9
+//! distance from it; regions at tied distances enter together (docs/methods.md#scan
 //! \[CP\]). A window includes a region when the region's location lies in the
 //! circle. Growth stops before the window's population exceeds `max_share`
 //! of the total (default 50 %). The window set is enumerated once and reused
@@ -36,9 +36,9 @@
 //!   locations and `Grid` otherwise.
 //!
 //! # Statistic
-//! Log-likelihood ratios for raised risk only (METHODS §9, 0·ln 0 = 0):
+//! Log-likelihood ratios for raised risk only (docs/methods.md#scan, 0·ln 0 = 0):
 //! * Poisson: `LLR = c·ln(c/E) + (C−c)·ln((C−c)/(C−E))` if `c > E`, else 0;
-//! * Bernoulli: the binomial LLR of METHODS §9 if `c/n > (C−c)/(N−n)`, else 0.
+//! * Bernoulli: the binomial LLR of docs/methods.md#scan if `c/n > (C−c)/(N−n)`, else 0.
 //!
 //! The test statistic is the largest LLR over all windows; its window is the
 //! **most likely cluster**. Monte Carlo p-value (Kulldorff 1997; Abrams,
@@ -48,7 +48,7 @@
 //!
 //! **Secondary clusters**: for each centre its best window; these are taken
 //! in decreasing LLR order and kept when they share **no region** with a
-//! cluster already reported (METHODS §9 \[M/CP\]). Their p-values use the same
+//! cluster already reported (docs/methods.md#scan \[M/CP\]). Their p-values use the same
 //! null distribution of the maximum, so they are conservative.
 //!
 //! # Replicates in batches
@@ -239,7 +239,7 @@ fn xlogx(a: f64, b: f64) -> f64 {
     }
 }
 
-/// Poisson LLR for raised risk (METHODS §9): `c` observed, `e` expected,
+/// Poisson LLR for raised risk (docs/methods.md#scan): `c` observed, `e` expected,
 /// `total` cases in all. 0 unless `c > e`.
 pub fn llr_poisson(c: f64, e: f64, total: f64) -> f64 {
     if c <= e || e <= 0.0 {
@@ -248,7 +248,7 @@ pub fn llr_poisson(c: f64, e: f64, total: f64) -> f64 {
     xlogx(c, e) + xlogx(total - c, total - e)
 }
 
-/// Bernoulli LLR for raised risk (METHODS §9): `c` cases among `n` in the
+/// Bernoulli LLR for raised risk (docs/methods.md#scan): `c` cases among `n` in the
 /// window, `cases` among `total` in all. 0 unless `c/n > (C−c)/(N−n)`.
 pub fn llr_bernoulli(c: f64, n: f64, cases: f64, total: f64) -> f64 {
     if n <= 0.0 || n >= total || c / n <= (cases - c) / (total - n) {

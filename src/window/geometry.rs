@@ -163,7 +163,7 @@ fn intersect_axis(p: [f64; 2], q: [f64; 2], axis: usize, bound: f64) -> [f64; 2]
 mod tests {
     use crate::window::{Window, WindowOrigin};
 
-    /// Fixture WH (METHODS Appendix A): [0,10]² minus [4,6]².
+    /// Fixture WH (docs/methods.md#fixtures): [0,10]² minus [4,6]².
     fn wh() -> Window {
         Window::from_polygons(
             vec![vec![

@@ -23,9 +23,9 @@
 //!   (`1e-12 ×` the larger of the bounding box's longer side and its largest
 //!   absolute coordinate) of any edge counts as on the boundary, hence
 //!   inside; this makes rounded coordinates that lie on an edge behave the
-//!   same way in data and simulations (METHODS §1, "boundary counts as
+//!   same way in data and simulations (docs/methods.md#csr, "boundary counts as
 //!   inside"), also for large planar coordinates such as UTM northings.
-//! * The perimeter includes the boundaries of holes (METHODS §0).
+//! * The perimeter includes the boundaries of holes (docs/methods.md#conventions).
 //! * Checked: every corner of a hole lies inside or on its outer ring.
 //!   Not checked: self-intersecting rings, holes that cross their outer ring
 //!   between corners or overlap each other, and overlapping polygons (RFC 7946
@@ -244,7 +244,7 @@ impl EdgeGrid {
 /// A study area: polygons with holes, in metres.
 ///
 /// # Examples
-/// The square [0, 10]² with the hole [4, 6]² (METHODS §1): area 96, the
+/// The square [0, 10]² with the hole [4, 6]² (docs/methods.md#csr): area 96, the
 /// hole is outside, its edge is inside.
 /// ```
 /// use cloister::window::{Window, WindowOrigin};
@@ -734,7 +734,7 @@ impl Window {
     /// `n` independent uniform points in the window (binomial process).
     ///
     /// # Algorithm
-    /// Rejection sampling (METHODS §1): a proposal uniform on the bounding
+    /// Rejection sampling (docs/methods.md#csr): a proposal uniform on the bounding
     /// box is kept when [`Window::contains`] is true; kept points are then
     /// uniform on the window. Two draws per proposal (x then y), so a seed
     /// gives the same points in every analysis that simulates. The number
@@ -762,7 +762,7 @@ pub(crate) mod tests {
         Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap()
     }
 
-    /// METHODS §1 / Appendix A "WH": [0,10]² minus the hole [4,6]².
+    /// docs/methods.md#fixtures "WH": [0,10]² minus the hole [4,6]².
     pub fn wh() -> Window {
         Window::from_polygons(
             vec![vec![
@@ -979,7 +979,7 @@ pub(crate) mod tests {
         assert!(w.boundary_distance(f64::NAN, 0.0).is_nan());
     }
 
-    /// METHODS §1 check values: |W| = 96, mean (5, 5), none in the hole,
+    /// docs/methods.md#csr check values: |W| = 96, mean (5, 5), none in the hole,
     /// P(x < 2) = 20/96; tolerance 4 standard errors.
     #[test]
     fn test_sample_uniform_in_window_with_hole() {
@@ -1056,7 +1056,7 @@ pub(crate) mod tests {
 
     #[test]
     fn test_region_area_perimeter_hole() {
-        // |W| = 100 − 4 = 96 and P = 40 + 8 (hole included), METHODS §1 / Appendix A WH.
+        // |W| = 100 − 4 = 96 and P = 40 + 8 (hole included), docs/methods.md#fixtures WH.
         let w = wh();
         assert!((w.area() - 96.0).abs() < 1e-12);
         assert!((w.perimeter() - 48.0).abs() < 1e-12);

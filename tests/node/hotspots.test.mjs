@@ -46,7 +46,7 @@ test('surface: with Jones–Diggle edge correction it integrates to n (Jones 199
   for (const kernel of ['gaussian', 'quartic']) {
     const r = s.intensitySurface({ kernel, method: 'fixed', fixed_m: 400, edge: 'jones_diggle' });
     // Each event keeps exactly one unit of mass inside the area; the grid
-    // quadrature resolves the boundary to one cell (METHODS §7).
+    // quadrature resolves the boundary to one cell (docs/methods.md#kernel).
     assert.ok(Math.abs(r.integral_events - 1500) / 1500 < 5e-3, `${kernel}: ${r.integral_events}`);
     // The same integral recomputed here from the returned grid (values per km², cells in km²).
     let sum = 0;
@@ -276,7 +276,7 @@ test('nothing loaded: every hotspot method says so', () => {
 test('MSE criterion on random events: "no finite optimum" is said, not the end of the range', () => {
   // 400 events uniform in a 5 km square (seeded LCG): under complete spatial
   // randomness the Diggle / Berman–Diggle criterion keeps falling as the
-  // bandwidth grows (METHODS §7), so no bandwidth may be reported.
+  // bandwidth grows (docs/methods.md#kernel), so no bandwidth may be reported.
   let st = 2n;
   const next = () => { st = (st * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn; return Number(st >> 11n) / 2 ** 53; };
   let csv = 'x,y\n';

@@ -127,7 +127,7 @@ test('k-anonymity against the demo population: every shared point reaches k (rec
   assert.equal(r.basis, 'population_layer');
   assert.ok(r.n_masked > 0 && r.unplaced.length > 0, 'these settings must give both outcomes');
   // k = #{population points h : |h − x'| ≤ |x − x'|} + 1 (the true address
-  // itself; the population layer does not hold the cases), METHODS §11.
+  // itself; the population layer does not hold the cases), docs/methods.md#privacy.
   const countWithin = (x, y, d) => {
     let c = 0;
     for (let h = 0; h < pop.length; h += 2) if (Math.sqrt((pop[h] - x) ** 2 + (pop[h + 1] - y) ** 2) <= d) c++;
@@ -167,7 +167,7 @@ test('k-anonymity against the demo population: every shared point reaches k (rec
   assert.ok(r.k_summary.min >= target);
 });
 
-test('k-anonymity with a typed density: smallest shift √(k/(πD)) = 126.16 m for D = 1000/km², k = 50 (METHODS §11)', () => {
+test('k-anonymity with a typed density: smallest shift √(k/(πD)) = 126.16 m for D = 1000/km², k = 50 (docs/methods.md#privacy)', () => {
   const s = demo({ controls: false });
   const r = s.maskKAnonymity({ target_k: 50, r_max_m: 500, against: 'density', density_per_km2: 1000, seed: SEED });
   assert.equal(r.basis, 'uniform_density');

@@ -7,12 +7,12 @@ Contents (all inputs invented; seed below):
 * `isotropic`: for ~200 seeded (point, r) pairs on an invented polygon with a
   hole, the length of the circle of radius r about the point that lies inside
   the polygon: `Point(x).buffer(r, quad_segs=1024).exterior.intersection(W).length`
-  (METHODS §4.1; the 4096-gon approximation is ~1e-7 relative below the circle).
+  (docs/methods.md#distance-functions; the 4096-gon approximation is ~1e-7 relative below the circle).
 * `translation`: for ~60 seeded shifts v, the set covariance
   `W.intersection(shapely.affinity.translate(W, dx, dy)).area` and the
   translation weight |W| / that area (Ohser & Stoyan 1981).
 * `chi2`: scipy.stats.chi2.sf / .cdf at several (x, df); the quadrat check
-  values of METHODS §2 via scipy.stats.chisquare (Q9, equal cells) and via the
+  values of docs/methods.md#quadrat via scipy.stats.chisquare (Q9, equal cells) and via the
   direct formula with expected counts proportional to area (unequal cells).
 * `normal`: scipy.stats.norm.cdf / .sf at several z (Clark–Evans p-values).
 * `calibration`: scipy.stats.binom.interval(0.99, 200, 0.05): the central 99 %

@@ -1,4 +1,4 @@
-"""Reference DBSCAN labels for tests/reference_hotspots.rs (module `dbscan`).
+"""Reference DBSCAN labels for tests/clusters.rs.
 
 Writes dbscan_reference.json next to this script: for each case, the points,
 eps, min_samples, optional sample weights, and sklearn.cluster.DBSCAN's
@@ -33,7 +33,7 @@ def add(name, X, eps, min_samples, weights=None):
     })
 
 
-# DB10 (METHODS section 8) in its three orders.
+# DB10 (docs/methods.md#dbscan) in its three orders.
 A = [(-0.5, 0), (-0.5, 0.5), (0, 0.5), (0, 0)]
 B = [(1.8, 0), (1.8, 0.5), (2.3, 0), (2.3, 0.5)]
 p = [(0.9, 0)]

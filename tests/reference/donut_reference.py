@@ -10,10 +10,10 @@ Contents
   scipy.stats.kstest computes for them against the exact CDF of each donut
   design, so the Rust KS implementation is checked on the same numbers.
 * design: mean and median of the displacement distance for (100, 500) m
-  by numerical integration / root finding with scipy (METHODS §11 check
+  by numerical integration / root finding with scipy (docs/methods.md#privacy check
   values: 300.000 vs 344.444 and 300 vs 360.555; Hampton et al. 2010 design).
-* r_min: sqrt(k / (pi D)) for D = 1000 per km^2, k = 50 (126.16 m, METHODS
-  §11) and with the Allshouse et al. (2010) tripled area (218.51 m).
+* r_min: sqrt(k / (pi D)) for D = 1000 per km^2, k = 50 (126.16 m,
+  docs/methods.md#privacy) and with the Allshouse et al. (2010) tripled area (218.51 m).
 """
 
 import json

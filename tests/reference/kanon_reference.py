@@ -9,13 +9,13 @@ north-east corner), and invented events: 60 near addresses plus 3 in the
 empty corner. Seeded numpy generator, so the file is reproducible.
 
 For each event it records, with scipy.spatial.cKDTree (distances d <= r, as
-METHODS §0 rule 3):
+docs/methods.md#conventions rule 3):
 * n_within_2rmax: population points within 2 * r_max. With the event's own
   address counted once (the layer holds no event addresses), an event with
   n_within_2rmax + 1 < target_k cannot reach the target at any masked location
   within r_max: every address h with |h - x'| <= |x - x'| = d lies within 2d
   of x (triangle inequality). These are `provably_unreachable`.
-* best_k_on_grid: the largest spatial k (METHODS §11 operational definition,
+* best_k_on_grid: the largest spatial k (docs/methods.md#privacy operational definition,
   k = 1 + #{h : |h - x'| <= |x - x'|}) over a polar grid of candidate masked
   locations (72 directions x 30 distances in (0, r_max), inside the area and
   out of the lake). best_k_on_grid >= target_k proves the event reachable

@@ -1,4 +1,4 @@
-"""Reference kernel intensities for tests/reference_hotspots.rs (module `kde`).
+"""Reference kernel intensities for tests/intensity.rs.
 
 Writes kde_reference.json next to this script. Invented data: 150 events drawn
 with numpy's default_rng(20240611) in a 2000 m x 1200 m rectangle, one third of

@@ -6,7 +6,7 @@ fn close(a: f64, b: f64, tol: f64) -> bool {
 
 #[test]
 fn llr_check_values() {
-    // METHODS §9 [C] (shared/methods-checks/part3.py).
+    // docs/methods.md#scan [C] (a numerical check kept outside the repository).
     assert!(close(llr_poisson(30.0, 15.0, 200.0), 6.419659, 5e-7));
     assert_eq!(llr_poisson(10.0, 15.0, 200.0), 0.0);
     assert!(close(
@@ -36,7 +36,7 @@ fn llr_by_hand() {
 }
 
 fn s25() -> ScanRegions {
-    // METHODS Appendix A, fixture S25.
+    // docs/methods.md#fixtures, fixture S25.
     let cases = [
         4, 3, 5, 4, 2, 3, 12, 14, 4, 5, 5, 11, 9, 3, 4, 4, 3, 4, 5, 3, 2, 4, 3, 5, 4,
     ];
@@ -50,10 +50,10 @@ fn s25() -> ScanRegions {
 
 #[test]
 fn s25_fixture() {
-    // METHODS §9 check values on S25 [C]: 127 windows; most likely cluster
+    // docs/methods.md#scan check values on S25 [C]: 127 windows; most likely cluster
     // centre 7, radius 1, regions {2,6,7,8,12}, c = 44, E = 25,
     // LLR = 7.805404, RR = 2.1728; Monte Carlo p (m = 999) about 0.003,
-    // tested loosely (p < 0.02) as METHODS advises.
+    // tested loosely (p < 0.02) as docs/methods.md#scan advises.
     let o = ScanOptions {
         n_sim: 999,
         seed: 2024,
@@ -74,7 +74,7 @@ fn s25_fixture() {
     assert!(close(mlc.llr, 7.805404, 5e-7));
     assert!(close(mlc.relative_risk, 2.1728, 5e-5));
     assert!(r.p_value < 0.02, "p = {}", r.p_value);
-    // METHODS: the null 95th percentile is about 5.09 (seed-dependent).
+    // docs/methods.md#scan: the null 95th percentile is about 5.09 (seed-dependent).
     let c95 = r.critical_95.unwrap();
     assert!((4.0..6.5).contains(&c95), "{c95}");
     // Secondary clusters share no region with earlier ones.

@@ -1,15 +1,15 @@
 //! Clustering tests (src/distance/) against published check values, reference
 //! libraries and known statistical properties.
 //!
-//! Sources beside each check: METHODS = /work/shared/METHODS.md (project
-//! reference sheet, its sections and Appendix A fixtures); JSON reference
+//! Sources beside each check: docs/methods.md (the methods, their primary
+//! sources and the test fixtures, #fixtures); JSON reference
 //! values come from `tests/reference/clustering_reference.py` (shapely, scipy).
 //!
 //! Statistical tests use seeded simulation and a tolerance of 4 Monte Carlo
-//! standard errors (METHODS §0 rule 2b). The calibration and power checks run
+//! standard errors (docs/methods.md#conventions rule 2b). The calibration and power checks run
 //! small versions (n ≈ 60–100 points, 19 or 39 simulations, 200 or 100
 //! datasets) so CI stays within a minute or so; `#[ignore]`d heavier versions
-//! run with `cargo test --release --test clustering -- --ignored`.
+//! run with `cargo test --release --test distance -- --ignored`.
 
 use cloister::distance::edge::{inside_arc_length, isotropic_weight_at, TranslationWeights};
 use cloister::distance::{
@@ -27,7 +27,7 @@ fn unit_square() -> Window {
     Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap()
 }
 
-/// Fixture WH (METHODS Appendix A): [0,10]² minus [4,6]².
+/// Fixture WH (docs/methods.md#fixtures): [0,10]² minus [4,6]².
 fn wh() -> Window {
     Window::from_polygons(
         vec![vec![
@@ -39,7 +39,7 @@ fn wh() -> Window {
     .unwrap()
 }
 
-/// Fixture F12 (METHODS Appendix A).
+/// Fixture F12 (docs/methods.md#fixtures).
 fn f12() -> Pattern {
     let p = [
         (0.10, 0.20),
@@ -89,7 +89,7 @@ fn reference_window(r: &Value) -> Window {
 mod fixtures {
     use super::*;
 
-    /// METHODS §4.3, F12 table (r = 0.10 … 0.25) through the public API.
+    /// docs/methods.md#distance-functions, F12 table (r = 0.10 … 0.25) through the public API.
     #[test]
     fn test_f12_k_l_g_public_api() {
         let w = unit_square();
@@ -120,7 +120,7 @@ mod fixtures {
         assert_eq!(iso.nn_correction, NnCorrection::Border);
     }
 
-    /// METHODS §4.3 single-weight checks.
+    /// docs/methods.md#distance-functions single-weight checks.
     #[test]
     fn test_single_weights() {
         // Isotropic, unit square, x = (0.1, 0.2), r = 0.3: arc 0.79210827, e = 2.37966913.
@@ -139,7 +139,7 @@ mod fixtures {
         assert!((t.weight(1.0, 0.0) - 1.14285714).abs() < 1.2e-3);
     }
 
-    /// METHODS §3 check values and constants; F12 mean NN and naive R.
+    /// docs/methods.md#clark-evans check values and constants; F12 mean NN and naive R.
     #[test]
     fn test_clark_evans_check_values() {
         let (naive, don) = clark_evans_from_mean(0.04, 100, 1.0, 4.0);
@@ -164,7 +164,7 @@ mod fixtures {
         assert!(p > 0.0 && p <= 1.0);
     }
 
-    /// METHODS §5: simulated 1..99 → p = 0.01, 0.06 (tie), 1.0.
+    /// docs/methods.md#envelopes: simulated 1..99 → p = 0.01, 0.06 (tie), 1.0.
     #[test]
     fn test_monte_carlo_p_check_values() {
         let sims: Vec<f64> = (1..=99).map(f64::from).collect();
@@ -173,7 +173,7 @@ mod fixtures {
         assert!((monte_carlo_p(0.5, &sims) - 1.0).abs() < 1e-15);
     }
 
-    /// Q9 and the unequal-area example (METHODS §2) against scipy
+    /// Q9 and the unequal-area example (docs/methods.md#quadrat) against scipy
     /// (clustering_reference.json: scipy.stats.chisquare / chi2).
     #[test]
     fn test_quadrat_against_scipy() {
@@ -187,7 +187,7 @@ mod fixtures {
         let s = quadrat_from_counts(&[4, 6, 5, 15], &[1.0, 2.0, 3.0, 4.0]).unwrap();
         assert!((s.chi_square - f(&u["statistic"])).abs() < 1e-12);
         assert!((s.p_upper - f(&u["p_upper"])).abs() < 1e-12);
-        // METHODS §2 printed values.
+        // docs/methods.md#quadrat printed values.
         assert!((s.p_upper - 0.41354).abs() < 5e-6);
     }
 
@@ -298,7 +298,7 @@ mod simulation {
     }
 
     /// Binomial CSR, n = 30, unit square: mean K̂_iso and K̂_trans ≈ πr²
-    /// within 4 MC SE (METHODS §1 [derived], checked there by simulation).
+    /// within 4 MC SE (docs/methods.md#csr [derived], checked there by simulation).
     /// Also on WH (a window with a hole), isotropic.
     #[test]
     fn test_csr_mean_k_is_pi_r2() {
@@ -341,7 +341,7 @@ mod simulation {
     /// whose whole disc b(x, r) lies inside W count, and for each of them
     /// P(nearest event within r) = 1 − (1 − πr²/|W|)^(n−1) for G (the other
     /// n − 1 events) and 1 − (1 − πr²/|W|)^n for F [derived; the Poisson
-    /// limit is 1 − exp(−λπr²), METHODS §4]. F̂'s denominator (fixed test
+    /// limit is 1 − exp(−λπr²), docs/methods.md#distance-functions]. F̂'s denominator (fixed test
     /// locations) is not random, so E F̂ is exactly that for any grid; Ĝ is
     /// a ratio with a random denominator, whose bias is far below the
     /// Monte Carlo error here. Tolerance 4 MC SE.
@@ -389,9 +389,9 @@ mod simulation {
 
     /// Thomas process (Thomas 1949; closed form as in Diggle 2013, *Statistical
     /// Analysis of Spatial and Spatio-Temporal Point Patterns*, 3rd ed., CRC;
-    /// METHODS §4.2): κ = 25, μ = 8, σ = 0.02. The closed form reproduces the
-    /// METHODS table; the mean of K̂_iso rescaled to the true λ (K̂·n(n−1)/λ²,
-    /// |W| = 1, to avoid the ratio bias METHODS §4.2 warns about) matches it
+    /// docs/methods.md#distance-functions): κ = 25, μ = 8, σ = 0.02. The closed form reproduces the
+    /// docs/methods.md#distance-functions table; the mean of K̂_iso rescaled to the true λ (K̂·n(n−1)/λ²,
+    /// |W| = 1, to avoid the ratio bias docs/methods.md#distance-functions warns about) matches it
     /// within 4 MC SE over 300 seeded patterns in the unit square.
     #[test]
     fn test_thomas_k_matches_closed_form() {
