@@ -44,13 +44,21 @@ async function loadEventsInner(bytes, name, options, { refreshAfter = true, fres
     setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used.`);
     return true;
   } catch (err) {
-    if (err && err.code === 'engine_stopped') return false;
-    showError(`Could not read ${name}`, err);
-    offerColumns('events', bytes, name, options, err);
-    const kept = state.events ? `Kept the previous events: ${state.events.name}.` : 'No events loaded.';
-    setStatus(state.pendingFile ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
-    return false;
+    return pointsNotRead('events', bytes, name, options, err);
   }
+}
+
+/** After a file of points (layer 'events' or 'controls') could not be read:
+ * the error, the column editor when the coordinates were not found, and a
+ * status line saying what is still loaded. Returns false. */
+function pointsNotRead(layer, bytes, name, options, err) {
+  if (err && err.code === 'engine_stopped') return false;
+  showError(`Could not read ${name}`, err);
+  offerColumns(layer, bytes, name, options, err);
+  const kept = state[layer] ? `Kept the previous ${layer}: ${state[layer].name}.` : `No ${layer} loaded.`;
+  const waiting = state.pendingFile && state.pendingFile.layer === layer;
+  setStatus(waiting ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
+  return false;
 }
 
 export async function loadArea(bytes, name, { refreshAfter = true } = {}) {
@@ -105,12 +113,7 @@ export async function loadControls(bytes, name, { refreshAfter = true, options =
     setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used as controls.`);
     return true;
   } catch (err) {
-    if (err && err.code === 'engine_stopped') return false;
-    showError(`Could not read ${name}`, err);
-    offerColumns('controls', bytes, name, opts, err);
-    const kept = state.controls ? `Kept the previous controls: ${state.controls.name}.` : 'No controls loaded.';
-    setStatus(state.pendingFile && state.pendingFile.layer === 'controls' ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
-    return false;
+    return pointsNotRead('controls', bytes, name, opts, err);
   }
 }
 
