@@ -274,6 +274,26 @@ impl Projection {
         }
     }
 
+    /// [`Projection::forward`] for polygons (rings of `[x, y]`), vertex by
+    /// vertex: the one place a boundary or a zone file is projected.
+    pub fn forward_polygons(&self, polygons: &[Vec<Vec<[f64; 2]>>]) -> Vec<Vec<Vec<[f64; 2]>>> {
+        polygons
+            .iter()
+            .map(|poly| {
+                poly.iter()
+                    .map(|ring| {
+                        ring.iter()
+                            .map(|p| {
+                                let (e, n) = self.forward(p[0], p[1]);
+                                [e, n]
+                            })
+                            .collect()
+                    })
+                    .collect()
+            })
+            .collect()
+    }
+
     /// [`Projection::forward`] for many points at once; the origin's
     /// northing is computed once, which halves the cost per point.
     pub fn forward_many(&self, x: &[f64], y: &[f64]) -> (Vec<f64>, Vec<f64>) {

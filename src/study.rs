@@ -335,22 +335,7 @@ impl Study {
         let mut projected_events = None;
         let window = match area {
             Some(a) => {
-                let polys = a
-                    .polygons
-                    .iter()
-                    .map(|poly| {
-                        poly.iter()
-                            .map(|ring| {
-                                ring.iter()
-                                    .map(|p| {
-                                        let (e, n) = projection.forward(p[0], p[1]);
-                                        [e, n]
-                                    })
-                                    .collect()
-                            })
-                            .collect()
-                    })
-                    .collect();
+                let polys = projection.forward_polygons(&a.polygons);
                 Window::from_polygons(polys, WindowOrigin::File)?
             }
             None => {

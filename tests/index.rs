@@ -3,11 +3,8 @@
 //! The JSON file in `tests/reference/` is written by the committed Python
 //! script `tests/reference/index_reference.py`, which says what it computes and with which seed.
 
-use serde_json::Value;
-
-fn f(v: &Value) -> f64 {
-    v.as_f64().expect("number in reference JSON")
-}
+mod common;
+use common::f;
 
 /// Grid index against scipy's cKDTree, see `index_reference.py`.
 mod index {

@@ -4,15 +4,8 @@
 //! script `tests/reference/kde_reference.py` (versions pinned in `tests/reference/requirements.txt`),
 //! which says how the invented data were drawn.
 
-use serde_json::Value;
-
-fn nums(v: &Value) -> Vec<f64> {
-    v.as_array()
-        .unwrap()
-        .iter()
-        .map(|x| x.as_f64().unwrap())
-        .collect()
-}
+mod common;
+use common::nums;
 
 /// Kernel intensity against sklearn.neighbors.KernelDensity,
 /// scipy.stats.gaussian_kde (isotropic bandwidth) and

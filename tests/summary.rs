@@ -3,11 +3,8 @@
 //! The JSON file in `tests/reference/` is written by the committed Python
 //! script `tests/reference/summary_reference.py`, which says what it computes and with which seed.
 
-use serde_json::Value;
-
-fn f(v: &Value) -> f64 {
-    v.as_f64().expect("number in reference JSON")
-}
+mod common;
+use common::f;
 
 /// Summary statistics against numpy / scipy, see `summary_reference.py`.
 mod summary {

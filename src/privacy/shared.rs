@@ -222,22 +222,7 @@ pub fn zones_for_study(raw: RawZones, study: &Study) -> Result<Vec<Zone>, InputE
         .into_iter()
         .map(|z| Zone {
             name: z.name,
-            polygons: z
-                .polygons
-                .iter()
-                .map(|poly| {
-                    poly.iter()
-                        .map(|ring| {
-                            ring.iter()
-                                .map(|p| {
-                                    let (e, n) = proj.forward(p[0], p[1]);
-                                    [e, n]
-                                })
-                                .collect()
-                        })
-                        .collect()
-                })
-                .collect(),
+            polygons: proj.forward_polygons(&z.polygons),
             population: z.population,
             group: z.group,
         })

@@ -184,6 +184,27 @@ impl Session {
         self.extras.insert(KEY, Box::new(st));
     }
 
+    /// The options of a mask method, the session-level keys, and whether a
+    /// kept mask will be replaced (refused unless `replace: true`). Without
+    /// a `seed`, one is drawn from the platform's cryptographic generator
+    /// and set with `set_seed`; it is never returned.
+    fn mask_options<P: crate::params::Params>(
+        &self,
+        params: JsValue,
+        set_seed: impl FnOnce(&mut P, u64),
+    ) -> Result<(P, crate::params::SessionOptions, bool), JsValue> {
+        let given_seed = has_seed(&params);
+        let (mut p, session) = decode::<P>(params, self.extent_m())?;
+        let replaced = state(self).is_some_and(|s| s.mask.is_some());
+        if replaced && !replace_flag(&session) {
+            return Err(already_masked());
+        }
+        if !given_seed {
+            set_seed(&mut p, secure_seed()?);
+        }
+        Ok((p, session, replaced))
+    }
+
     fn keep_mask(&mut self, st: MaskState, replaced: bool) -> Result<JsValue, JsValue> {
         self.with_sharing(|s| s.mask = Some(st));
         let study = self.study_ref()?;
@@ -285,15 +306,7 @@ impl Session {
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "MaskDonutOptions")] params: JsValue,
     ) -> Result<JsValue, JsValue> {
-        let given_seed = has_seed(&params);
-        let (mut p, session) = decode::<DonutParams>(params, self.extent_m())?;
-        let replaced = state(self).is_some_and(|s| s.mask.is_some());
-        if replaced && !replace_flag(&session) {
-            return Err(already_masked());
-        }
-        if !given_seed {
-            p.seed = secure_seed()?;
-        }
+        let (p, _, replaced) = self.mask_options::<DonutParams>(params, |p, seed| p.seed = seed)?;
         let s = self.study_ref()?;
         let masked = donut_mask(s.events.x(), s.events.y(), &s.window, &p)
             .map_err(|e| analysis_error(&e))?;
@@ -306,15 +319,8 @@ impl Session {
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "MaskKAnonymityOptions")] params: JsValue,
     ) -> Result<JsValue, JsValue> {
-        let given_seed = has_seed(&params);
-        let (mut p, session) = decode::<KAnonParams>(params, self.extent_m())?;
-        let replaced = state(self).is_some_and(|s| s.mask.is_some());
-        if replaced && !replace_flag(&session) {
-            return Err(already_masked());
-        }
-        if !given_seed {
-            p.seed = secure_seed()?;
-        }
+        let (mut p, session, replaced) =
+            self.mask_options::<KAnonParams>(params, |p, seed| p.seed = seed)?;
         let against: Option<Against> = match session.get("against") {
             Some(v) => serde_json::from_value(v.clone()).map_err(|e| {
                 js_error(
