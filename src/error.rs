@@ -44,6 +44,10 @@ pub enum InputErrorKind {
     Mismatch { detail: String },
     /// Every row was rejected.
     NoValidRows { rows_read: u64 },
+    /// The rows were readable but every event lies outside the loaded study
+    /// area: most likely the area belongs to other data (another place, or
+    /// other coordinates). `outside` events were readable.
+    AllOutsideArea { rows_read: u64, outside: u64 },
     /// An option names something the file does not have (e.g. a zone's
     /// population property that holds no number).
     BadOptions { detail: String },
@@ -81,6 +85,7 @@ impl InputError {
             InputErrorKind::BadPolygon { .. } => "bad_polygon",
             InputErrorKind::Mismatch { .. } => "mismatch",
             InputErrorKind::NoValidRows { .. } => "no_valid_rows",
+            InputErrorKind::AllOutsideArea { .. } => "outside_study_area",
             InputErrorKind::BadOptions { .. } => "bad_options",
         }
     }
@@ -121,6 +126,16 @@ impl fmt::Display for InputError {
                 write!(
                     f,
                     "none of the {rows_read} rows could be used (see the rejected rows)"
+                )
+            }
+            InputErrorKind::AllOutsideArea { rows_read, outside } => {
+                let plural = if *outside == 1 { "event" } else { "events" };
+                write!(
+                    f,
+                    "all {outside} readable {plural} (of {rows_read} rows) lie outside the \
+                     study area that is loaded now, so the area probably belongs to other \
+                     data (another place, or other coordinates). Remove that study area to \
+                     use these events, or load the boundary that belongs to them"
                 )
             }
         }

@@ -389,15 +389,26 @@ impl Study {
         // 4. Place events and controls.
         let (ev, event_rejections, kept) =
             place_layer(events, &projection, &window, projected_events);
-        if ev.is_empty() {
-            return Err(InputError::new(InputErrorKind::NoValidRows {
-                rows_read: events.rows_read,
-            }));
-        }
         let outside = event_rejections
             .iter()
             .filter(|r| r.reason == RejectReason::OutsideStudyArea)
             .count();
+        if ev.is_empty() {
+            // Readable events, all outside a loaded boundary: say that, not
+            // "no rows could be used" (the reasons would list only the few
+            // unreadable rows).
+            let kind = if outside > 0 && area.is_some() {
+                InputErrorKind::AllOutsideArea {
+                    rows_read: events.rows_read,
+                    outside: outside as u64,
+                }
+            } else {
+                InputErrorKind::NoValidRows {
+                    rows_read: events.rows_read,
+                }
+            };
+            return Err(InputError::new(kind));
+        }
         if outside > 0 {
             warnings.push(format!(
                 "{outside} event(s) lie outside the study area (or inside one of its holes) and \
@@ -622,11 +633,19 @@ mod tests {
     }
 
     #[test]
-    fn test_no_valid_rows_when_all_outside() {
+    fn test_all_outside_the_area_says_so() {
         let ev = layer(METRE, &[(20.0, 20.0), (30.0, 30.0)]);
         let area = square_area(METRE, 0.0, 0.0, 10.0, false);
         let e = Study::build(&ev, Some(&area), None, AreaFallback::ConvexHull).unwrap_err();
-        assert_eq!(e.kind, InputErrorKind::NoValidRows { rows_read: 3 });
+        assert_eq!(
+            e.kind,
+            InputErrorKind::AllOutsideArea {
+                rows_read: 3,
+                outside: 2
+            }
+        );
+        assert_eq!(e.code(), "outside_study_area");
+        assert!(e.to_string().contains("all 2 readable events (of 3 rows) lie outside"));
     }
 
     #[test]

@@ -4,7 +4,7 @@
 
 import { $, decodeBase64, fmt, plural } from './dom.js';
 import { state } from './state.js';
-import { setStatus, showError, clearError } from './status.js';
+import { setStatus, showError, showAction, clearError } from './status.js';
 import { call } from './engine.js';
 import { currentOptions, offerColumns, showMapping } from './columns.js';
 import { refresh } from './results.js';
@@ -42,10 +42,55 @@ async function loadEventsInner(bytes, name, options, { refreshAfter = true, fres
     if (report.study_error) showError('The events were read, but the study could not be set up', report.study_error);
     if (refreshAfter) await refresh(!fresh);
     setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used.`);
+    warnIfMostlyOutside(name, report, bytes, options);
     return true;
   } catch (err) {
+    if (err && err.code === 'outside_study_area' && state.area && state.areaMode === 'file') {
+      offerToDropArea(bytes, name, options, err);
+      return false;
+    }
     return pointsNotRead('events', bytes, name, options, err);
   }
+}
+
+/** Share of the new events' readable rows outside the loaded study area
+ * above which the page says so and offers to drop the area. */
+const OUTSIDE_SHARE_WARN = 0.5;
+
+/** New events that (all or mostly) lie outside the loaded study area: say so
+ * plainly and offer to drop that area and read the events without it. */
+function offerToDropArea(bytes, name, options, err) {
+  const area = state.area ? state.area.name : 'the study area';
+  showError(`${name} does not fit the study area ${area}`, err);
+  showAction('Drop that study area and use these events', async () => {
+    clearError();
+    try {
+      await call('clearArea');
+    } catch (e) {
+      if (!(e && e.code === 'engine_stopped')) showError('Could not remove the study area', e);
+      return;
+    }
+    state.area = null;
+    state.areaMode = 'convex_hull';
+    state.reports.area = null;
+    $('area-file').value = '';
+    renderAreaMode();
+    await loadEvents(bytes, name, options);
+  });
+  if (err && err.code) setStatus(state.events ? `Kept the previous events: ${state.events.name}.` : 'No events loaded.');
+}
+
+/** After a successful load: most events outside the loaded area. */
+function warnIfMostlyOutside(name, report, bytes, options) {
+  if (!(state.area && state.areaMode === 'file' && report)) return;
+  const out = (report.by_reason || []).find((r) => r.reason === 'outside_study_area');
+  const readable = Number(report.accepted) + (out ? Number(out.count) : 0);
+  if (!out || readable === 0 || out.count / readable <= OUTSIDE_SHARE_WARN) return;
+  offerToDropArea(bytes, name, options, {
+    message: `${fmt(out.count)} of its ${fmt(readable)} readable events lie outside ${state.area.name} and were left out. ` +
+      'If the study area belongs to other data, drop it; until then the events inside it are in use.',
+  });
+  setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used; most lie outside the study area.`);
 }
 
 /** After a file of points (layer 'events' or 'controls') could not be read:
@@ -76,7 +121,7 @@ export async function loadArea(bytes, name, { refreshAfter = true } = {}) {
     return true;
   } catch (err) {
     if (err && err.code === 'engine_stopped') return false;
-    if (err && err.code === 'no_valid_rows') {
+    if (err && (err.code === 'no_valid_rows' || err.code === 'outside_study_area')) {
       showError(`Could not use ${name} as the study area`, {
         message: 'none of the events lies inside it. Check that the boundary and the events describe the same place in the same coordinates.',
       });
@@ -177,12 +222,41 @@ export async function loadDemo() {
     return;
   }
   setStatus('Loading the demo…');
+  // The demo replaces the whole session: the user's own files (and their
+  // study area) must not mix with it.
+  if (!(await forgetAll())) return;
   // Stop at the first failure: its message stays on screen.
   if (area && !(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
   if (!(await loadEvents(cases, 'cases.csv (demo)', {}, { refreshAfter: false }))) return;
   if (pop && !(await loadControls(pop, 'population.csv (demo)', { refreshAfter: false }))) return;
   await refresh(false);
   setStatus(`Demo loaded: ${statusCounts()}.`);
+}
+
+/** Empties the engine's session and the page's record of loaded files, so
+ * what is loaded next starts from nothing. Returns false if the engine
+ * could not be reached (the error is shown). */
+export async function forgetAll() {
+  try {
+    await call('clearAll');
+  } catch (err) {
+    if (!(err && err.code === 'engine_stopped')) showError('Could not start afresh', err);
+    return false;
+  }
+  state.events = null;
+  state.area = null;
+  state.controls = null;
+  state.pendingFile = null;
+  state.reports = { events: null, controls: null, area: null };
+  state.areaMode = 'convex_hull';
+  state.mapLayer = 'events';
+  for (const id of ['events-name', 'controls-name', 'area-name']) $(id).textContent = '';
+  for (const id of ['events-file', 'controls-file', 'area-file']) $(id).value = '';
+  $('show-controls').disabled = true;
+  $('controls-clear').disabled = true;
+  showMapping();
+  renderAreaMode();
+  return true;
 }
 
 export async function loadProblems() {

@@ -25,7 +25,18 @@ export function showError(context, err) {
   }
   if (rows.length > 5) list.append(el('li', null, `…and ${fmt(rows.length - 5)} more`));
   list.hidden = rows.length === 0;
+  $('error-action').hidden = true;
+  $('error-action').onclick = null;
   $('error-banner').hidden = false;
+}
+
+/** A button in the error banner that offers the way out (shown with the
+ * message most recently given to showError). */
+export function showAction(label, fn) {
+  const b = $('error-action');
+  b.textContent = label;
+  b.hidden = false;
+  b.onclick = act(fn);
 }
 
 export function clearError() {
@@ -33,6 +44,8 @@ export function clearError() {
   $('error-text').textContent = '';
   $('error-rows').replaceChildren();
   $('error-rows').hidden = true;
+  $('error-action').hidden = true;
+  $('error-action').onclick = null;
 }
 
 /** Runs user actions one after another (the engine answers one request at

@@ -567,6 +567,14 @@ impl Session {
         }
     }
 
+    /// Forgets everything: events, study area, controls, the area choice and
+    /// every analysis's kept state (masks, surfaces, jobs). Loading the demo
+    /// starts from here, so it never mixes with the user's own files.
+    #[wasm_bindgen(js_name = clearAll)]
+    pub fn clear_all(&mut self) {
+        *self = Session::new();
+    }
+
     /// Drops the controls layer.
     #[wasm_bindgen(js_name = clearControls)]
     pub fn clear_controls(&mut self) -> Result<JsValue, JsValue> {
