@@ -1,4 +1,4 @@
-// ---- Results of the methods (tools/result-types.d.ts, appended by tools/gen-dts.mjs) ----
+// ---- Results of the methods, and the arguments that are not options (tools/result-types.d.ts, appended by tools/gen-dts.mjs) ----
 // Each method of Session names its result type with `unchecked_return_type`
 // in src/web/. tests/node/result-types.test.mjs calls every method on the
 // demo files and checks that each result has exactly these keys and types,
@@ -773,4 +773,39 @@ export interface ReportFile {
   file_name: string;
   mime: string;
   preview: ReportPreview;
+}
+
+// ---- Arguments that are not an analysis's options ----
+
+/** The window used without a study-area file (`setAreaFallback`). */
+export type AreaFallback = 'convex_hull' | 'bounding_box';
+
+/** A layer of points (`rejections`). */
+export type LayerName = 'events' | 'controls';
+
+/** What `exportPreview` and `exportFile` write; "report" gives the HTML report. */
+export type ExportWhat = 'masked_points' | 'aggregates' | 'report' | 'unmasked_points';
+
+/** How `drawEnvelopeChart` draws; every key optional, an unknown key throws. */
+export interface EnvelopeChartOptions {
+  /** "centred": L(r) − r or K(r) − πr², CSR at 0 (default); "function": the function itself. */
+  view?: 'centred' | 'function';
+  /** Axis unit; "auto" (default) gives km from 5 km. */
+  units?: 'auto' | 'm' | 'km';
+  /** "global" (default): the band of the test; "pointwise": not a test. */
+  band?: 'global' | 'pointwise';
+  /** Device pixels per CSS pixel. */
+  scale?: number | null;
+}
+
+/** What `drawKDistanceChart` draws: `kDistance`'s answer plus the eps in use. */
+export interface KDistanceChartData {
+  min_samples?: number;
+  sorted_desc_m: Float64Array | number[];
+  knee_index?: number | null;
+  knee_eps_m?: number | null;
+  /** The eps chosen, metres (drawn as a line). */
+  eps_m?: number | null;
+  /** Device pixels per CSS pixel. */
+  scale?: number | null;
 }

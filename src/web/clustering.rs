@@ -199,8 +199,8 @@ fn chart_error(detail: &str) -> JsValue {
 #[wasm_bindgen(js_name = drawEnvelopeChart, unchecked_return_type = "EnvelopeChartLabels")]
 pub fn draw_envelope_chart(
     canvas_id: &str,
-    result: JsValue,
-    options: JsValue,
+    #[wasm_bindgen(unchecked_param_type = "EnvelopeResult")] result: JsValue,
+    #[wasm_bindgen(unchecked_param_type = "EnvelopeChartOptions | null")] options: JsValue,
 ) -> Result<JsValue, JsValue> {
     if result.is_undefined() || result.is_null() {
         return Err(chart_error("there is no result to draw"));

@@ -384,7 +384,10 @@ impl Session {
 /// `kDistance`'s answer plus an optional `eps_m` and `scale`. Throws when the
 /// canvas is missing or the data are empty.
 #[wasm_bindgen(js_name = drawKDistanceChart)]
-pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsValue> {
+pub fn draw_k_distance_chart(
+    canvas_id: &str,
+    #[wasm_bindgen(unchecked_param_type = "KDistanceChartData")] data: JsValue,
+) -> Result<(), JsValue> {
     use crate::plot::{KDistanceChartData, PlotError};
     use plotters::prelude::IntoDrawingArea;
     let d: KDistanceChartData = from_js(data)?;

@@ -609,7 +609,10 @@ impl Session {
     /// Chooses the window used without a study-area file:
     /// `"convex_hull"` or `"bounding_box"`.
     #[wasm_bindgen(js_name = setAreaFallback, unchecked_return_type = "StudyReport | null")]
-    pub fn set_area_fallback(&mut self, kind: &str) -> Result<JsValue, JsValue> {
+    pub fn set_area_fallback(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "AreaFallback")] kind: &str,
+    ) -> Result<JsValue, JsValue> {
         let fallback = match kind {
             "convex_hull" => AreaFallback::ConvexHull,
             "bounding_box" => AreaFallback::BoundingBox,
@@ -697,7 +700,12 @@ impl Session {
 
     /// A page of the rejection table: `layer` is `"events"` or `"controls"`.
     #[wasm_bindgen(unchecked_return_type = "RejectionPage")]
-    pub fn rejections(&self, layer: &str, offset: f64, limit: f64) -> Result<JsValue, JsValue> {
+    pub fn rejections(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "LayerName")] layer: &str,
+        offset: f64,
+        limit: f64,
+    ) -> Result<JsValue, JsValue> {
         let offset = count_arg(offset, "rejections", "offset")?;
         let limit = count_arg(limit, "rejections", "limit")?;
         let list: &[Rejection] = match (layer, &self.study) {

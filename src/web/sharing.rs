@@ -466,7 +466,7 @@ impl Session {
     #[wasm_bindgen(js_name = exportPreview, unchecked_return_type = "ExportPreview | ReportPreview")]
     pub fn export_preview(
         &self,
-        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportWhat")] what: &str,
         #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
     ) -> Result<JsValue, JsValue> {
         let (a, _) = decode::<ExportArgs>(options, None)?;
@@ -488,7 +488,7 @@ impl Session {
     #[wasm_bindgen(js_name = exportFile, unchecked_return_type = "ExportedFile | ReportFile")]
     pub fn export_file(
         &self,
-        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportWhat")] what: &str,
         #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
     ) -> Result<JsValue, JsValue> {
         let (a, _) = decode::<ExportArgs>(options, None)?;

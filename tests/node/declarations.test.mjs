@@ -66,16 +66,20 @@ function tscPath() {
   }
 }
 
-test('cloister.d.ts is valid TypeScript (tsc --noEmit --strict)', (t) => {
+test('cloister.d.ts is valid TypeScript, and a script using it type-checks (tsc --noEmit --strict)', (t) => {
   const tsc = tscPath();
   if (!tsc) {
     t.skip('typescript is not installed; ./build.sh test installs it from package-lock.json');
     return;
   }
-  const file = fileURLToPath(new URL('../../dist/node/cloister.d.ts', import.meta.url));
+  const file = (p) => fileURLToPath(new URL(p, import.meta.url));
   // Declaration files are checked too (skipLibCheck off); the lib gives
-  // Symbol.dispose, which wasm-bindgen declares on Session.
+  // Symbol.dispose, which wasm-bindgen declares on Session. types/usage.ts
+  // calls the API as a script would, and its @ts-expect-error lines must be
+  // errors (a misspelt layer, an unknown export, a result that may be null).
   const r = spawnSync(process.execPath, [tsc, '--noEmit', '--strict', '--skipLibCheck', 'false',
-    '--target', 'es2022', '--lib', 'es2022,esnext.disposable', file], { encoding: 'utf8' });
+    '--target', 'es2022', '--lib', 'es2022,esnext.disposable', '--module', 'nodenext',
+    '--moduleResolution', 'nodenext', file('../../dist/node/cloister.d.ts'), file('types/usage.ts')],
+  { encoding: 'utf8' });
   assert.equal(r.status, 0, `tsc found problems:\n${r.stdout}${r.stderr}`);
 });

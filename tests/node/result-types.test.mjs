@@ -118,10 +118,24 @@ export function parseType(text) {
 
 /** Return types of `export class Session` methods and free functions. */
 export function parseSignatures(text) {
+  return Object.fromEntries(Object.entries(parseFullSignatures(text)).map(([n, s]) => [n, s.ret]));
+}
+
+/** `{ name: { params: [{ name, type }], ret } }` of the methods and free functions. */
+export function parseFullSignatures(text) {
   const sigs = {};
-  const cls = text.slice(text.indexOf('export class Session {'), text.indexOf('\n}', text.indexOf('export class Session {')));
-  for (const m of cls.matchAll(/^ {4}(\w+)\((.*)\): (.+);$/gm)) sigs[m[1]] = m[3];
-  for (const m of text.matchAll(/^export function (\w+)\((.*)\): (.+);$/gm)) sigs[m[1]] = m[3];
+  const read = (m) => {
+    const params = m[2].trim() ? splitTop(m[2], ',').map((p) => {
+      const q = /^\s*(\w+)\??:\s*([\s\S]+)$/.exec(p);
+      if (!q) throw new Error(`${m[1]}: cannot read parameter "${p}"`);
+      return { name: q[1], type: q[2].trim() };
+    }) : [];
+    sigs[m[1]] = { params, ret: m[3] };
+  };
+  const at = text.indexOf('export class Session {');
+  const cls = text.slice(at, text.indexOf('\n}', at));
+  for (const m of cls.matchAll(/^ {4}(\w+)\((.*)\): (.+);$/gm)) read(m);
+  for (const m of text.matchAll(/^export function (\w+)\((.*)\): (.+);$/gm)) read(m);
   return sigs;
 }
 
@@ -194,6 +208,7 @@ export function check(value, type, decls, path = 'result', used = new Set()) {
 
 const decls = parseDeclarations(dts);
 const sigs = parseSignatures(dts);
+const fullSigs = parseFullSignatures(dts);
 // Need a canvas (the page's main thread): declared, not callable in Node.
 const NOT_IN_NODE = new Set(['drawEnvelopeChart', 'drawKDistanceChart']);
 const LIFECYCLE = new Set(['free', 'constructor']);
@@ -226,10 +241,17 @@ test('the checker itself: exact keys, nullability, typed-array classes, unions, 
   assert.throws(() => parseType('Record<string, number>'), /unsupported/);
 });
 
-test('dist/node/cloister.d.ts holds tools/result-types.d.ts unchanged, and no method returns any', () => {
+test('dist/node/cloister.d.ts holds tools/result-types.d.ts unchanged, and nothing is any', () => {
   assert.ok(dts.includes(resultSource), 'gen-dts.mjs appends the result types');
   const untyped = Object.entries(sigs).filter(([, r]) => /\bany\b/.test(r)).map(([n]) => n);
   assert.deepEqual(untyped, [], 'methods still returning any');
+  const anyParams = Object.entries(fullSigs).flatMap(([n, s]) => s.params.filter((p) => /\bany\b/.test(p.type)).map((p) => `${n}(${p.name})`));
+  assert.deepEqual(anyParams, [], 'parameters still typed any');
+  // Choices passed as text are literal unions.
+  assert.equal(fullSigs.rejections.params[0].type, 'LayerName');
+  assert.equal(fullSigs.setAreaFallback.params[0].type, 'AreaFallback');
+  assert.equal(fullSigs.exportFile.params[0].type, 'ExportWhat');
+  assert.equal(fullSigs.drawEnvelopeChart.params[1].type, 'EnvelopeResult');
   // Every return type parses and names only declared types.
   for (const [name, ret] of Object.entries(sigs)) {
     const walk = (t) => {
@@ -241,23 +263,28 @@ test('dist/node/cloister.d.ts holds tools/result-types.d.ts unchanged, and no me
   }
 });
 
-test('every result declaration is reachable from a method, every method is called', () => {
+test('every declaration is reachable from a method, every method is called', () => {
   const called = new Set(calls().map((c) => c.method));
   const missing = Object.keys(sigs).filter((n) => !called.has(n) && !NOT_IN_NODE.has(n) && !LIFECYCLE.has(n));
   assert.deepEqual(missing, [], 'methods the scenario does not call');
   // Declarations of the results file are all reachable from some method's return type.
+  const own = parseDeclarations(resultSource);
   const reach = new Set();
+  // Descends into this file's declarations only (the option interfaces use wider syntax).
   const visit = (t) => {
-    if (t.k === 'name' && decls[t.n] && !reach.has(t.n)) {
+    if (t.k === 'name' && own[t.n] && !reach.has(t.n)) {
       reach.add(t.n);
       const d = decls[t.n];
       if (d.kind === 'alias') visit(d.type);
       else d.members.forEach((m) => visit(m.type));
     } else if (t.of) [].concat(t.of).forEach(visit);
   };
-  Object.values(sigs).forEach((r) => visit(parseType(r)));
-  const orphans = Object.keys(parseDeclarations(resultSource)).filter((n) => !reach.has(n));
-  assert.deepEqual(orphans, [], 'result types no method returns');
+  for (const s of Object.values(fullSigs)) {
+    visit(parseType(s.ret));
+    for (const p of s.params) visit(parseType(p.type));
+  }
+  const orphans = Object.keys(own).filter((n) => !reach.has(n));
+  assert.deepEqual(orphans, [], 'types of tools/result-types.d.ts that no method takes or returns');
 });
 
 test('every result has exactly the declared keys and types (demo files, small settings)', () => {
