@@ -7,7 +7,8 @@
 // longitude/latitude with its boundary and population (so optional
 // longitude/latitude fields are filled), the same events on a planar grid
 // without a boundary or population (so they are null), and the file with
-// spoiled rows (so rejection rows are present).
+// spoiled rows (so rejection rows are present); masks are also run where
+// events cannot be placed, so each reason for leaving one out is met.
 import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 
@@ -65,6 +66,9 @@ export function runScenario() {
   record('maskingCost', 'donut', s.maskingCost({ grid_cells: 32 }));
   record('maskKAnonymity', 'population', s.maskKAnonymity({ target_k: 10, r_max_m: 300, seed: 5, replace: true }));
   record('maskKAnonymity', 'density', s.maskKAnonymity({ target_k: 10, r_max_m: 300, against: 'density', density_per_km2: 800, seed: 6, replace: true }));
+  record('maskDonut', 'rings outside the area, one try', s.maskDonut({ r_min_m: 3000, r_max_m: 3500, max_tries: 1, seed: 10, replace: true }));
+  record('maskKAnonymity', 'too few addresses nearby', s.maskKAnonymity({ target_k: 500, r_max_m: 50, seed: 11, replace: true }));
+  record('maskKAnonymity', 'kept below target', s.maskKAnonymity({ target_k: 10, r_max_m: 300, seed: 5, keep_below_target: true, replace: true }));
   record('maskingCost', 'k-anonymity', s.maskingCost({ grid_cells: 32 }));
   record('aggregate', 'square', s.aggregate({ layout: 'square', cell_size_m: 800 }));
   record('aggregate', 'hexagon', s.aggregate({ layout: 'hexagon', cell_size_m: 600, min_count: 10 }));
@@ -113,6 +117,17 @@ export function runScenario() {
   record('loadEvents', 'with problems', b.loadEvents(file('demo-data/cases-with-problems.csv'), {}));
   record('rejections', 'with problems', b.rejections('events', 0, 100));
   b.free();
+
+  // 4. Events as GeoJSON points (the first rows of the demo, rewritten).
+  const rows = readFileSync(new URL('demo-data/cases.csv', root), 'utf8').split(/\r?\n/).slice(1, 41);
+  const features = rows.map((l) => l.split(',')).map(([id, lon, lat, day, category]) => ({
+    type: 'Feature', properties: { case_id: id, onset_date: day, category },
+    geometry: { type: 'Point', coordinates: [Number(lon), Number(lat)] },
+  }));
+  const gj = new cloister.Session();
+  record('loadEvents', 'GeoJSON points', gj.loadEvents(
+    new TextEncoder().encode(JSON.stringify({ type: 'FeatureCollection', features })), {}));
+  gj.free();
 
   record('parameterSpec', 'all', cloister.parameterSpec());
   record('parameterSpec', 'one', cloister.parameterSpec('maskDonut'));

@@ -287,7 +287,7 @@ test('every declaration is reachable from a method, every method is called', () 
   assert.deepEqual(orphans, [], 'types of tools/result-types.d.ts that no method takes or returns');
 });
 
-test('every result has exactly the declared keys and types (demo files, small settings)', () => {
+test('every result has exactly the declared keys and types (demo files, small settings)', (t) => {
   const used = new Set();
   const problems = [];
   for (const { method, label, value } of calls()) {
@@ -299,7 +299,21 @@ test('every result has exactly the declared keys and types (demo files, small se
   // The calls reach the nested declarations, not only the top ones.
   for (const n of ['Projection', 'ProjectionPlanar', 'ProjectionTransverseMercator', 'SourceFormatCsv', 'Ellipse',
     'Verdict', 'Isopleth', 'SurfaceDisclosure', 'DbscanCluster', 'ScanCluster', 'KAnonymitySettings', 'DonutSettings',
-    'UnplacedTargetNotReached', 'TableLayoutGrid', 'TableLayoutZones', 'CurvePair', 'ReportPreview', 'ExportPreview']) {
+    'UnplacedTargetNotReached', 'UnplacedNoPlace', 'UnplacedTooFewPopulation', 'SourceFormatGeoJson',
+    'TableLayoutGrid', 'TableLayoutZones', 'CurvePair', 'ReportPreview', 'ExportPreview']) {
     assert.ok(used.has(n), `a result was checked against ${n}`);
   }
+  // Shapes the demo files do not produce (e.g. rare reasons an event is left
+  // out of a masked copy), named so a reader knows what was not seen.
+  const returned = new Set();
+  const visit = (ty) => {
+    const d = ty.k === 'name' ? parseDeclarations(resultSource)[ty.n] : null;
+    if (d && !returned.has(ty.n)) {
+      returned.add(ty.n);
+      if (d.kind === 'alias') visit(d.type); else d.members.forEach((m) => visit(m.type));
+    } else if (ty.of) [].concat(ty.of).forEach(visit);
+  };
+  Object.values(sigs).forEach((r) => visit(parseType(r)));
+  const unseen = [...returned].filter((n) => !used.has(n));
+  t.diagnostic(`declared result types no result met in this run: ${unseen.join(', ') || 'none'}`);
 });
