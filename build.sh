@@ -9,7 +9,8 @@
 # Everything it needs is installed here on first use: the wasm32 target
 # (rustup), wasm-bindgen-cli pinned to the crate's exact wasm-bindgen version,
 # the npm packages from package-lock.json (esbuild bundles the page's scripts;
-# playwright-core drives the browser tests), and for tests Debian chromium and
+# playwright-core drives the browser tests; typescript checks the Node API's
+# declarations), and for tests Debian chromium and
 # the Python reference libraries from tests/reference/requirements.txt.
 set -euo pipefail
 cd "$(dirname "$0")"
@@ -32,10 +33,12 @@ need_wasm_toolchain() {
   fi
 }
 
-# esbuild (bundles the page's modules) and playwright-core (browser tests),
-# both pinned in package-lock.json.
+# esbuild (bundles the page's modules), playwright-core (browser tests) and
+# typescript (checks dist/node/cloister.d.ts in the Node tests), all pinned
+# in package-lock.json.
 need_npm_packages() {
-  if [ ! -d node_modules/esbuild ] || [ ! -d node_modules/playwright-core ]; then
+  if [ ! -d node_modules/esbuild ] || [ ! -d node_modules/playwright-core ] \
+    || [ ! -d node_modules/typescript ]; then
     step "installing npm packages from package-lock.json"
     npm ci --no-audit --no-fund
   fi

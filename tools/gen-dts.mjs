@@ -1,4 +1,4 @@
-// Writes the option types of the JS API into dist/node/cloister.d.ts.
+// Writes the option and result types of the JS API into dist/node/cloister.d.ts.
 //
 // wasm-bindgen declares each method's options under a name (e.g.
 // `maskDonut(params: MaskDonutOptions)`, set with `unchecked_param_type`
@@ -6,6 +6,11 @@
 // parameterSpec() (src/params.rs and the struct beside each analysis), so
 // the types, the checks and the page's limits come from one list. Each
 // field carries its unit, range and default as documentation.
+//
+// The result types (what each method returns, named on the method with
+// `unchecked_return_type` in src/web/) are written by hand in
+// tools/result-types.d.ts and appended here; tests/node/result-types.test.mjs
+// calls every method and checks each result against them, key by key.
 // Run by ./build.sh after wasm-bindgen: node tools/gen-dts.mjs
 import { readFileSync, writeFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
@@ -79,7 +84,9 @@ export function declarations() {
 }
 
 const MARK = '// ---- Options of the analyses';
+const results = readFileSync(new URL('tools/result-types.d.ts', root), 'utf8');
 let dts = readFileSync(dtsPath, 'utf8');
 if (dts.includes(MARK)) dts = dts.slice(0, dts.indexOf(MARK)).trimEnd() + '\n';
-writeFileSync(dtsPath, dts + declarations());
-console.log(`wrote option types for ${parameterSpec().length} analyses into dist/node/cloister.d.ts`);
+writeFileSync(dtsPath, `${dts}${declarations()}\n${results}`);
+const nResults = [...results.matchAll(/^export (interface|type) /gm)].length;
+console.log(`wrote option types for ${parameterSpec().length} analyses and ${nResults} result types into dist/node/cloister.d.ts`);

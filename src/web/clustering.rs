@@ -66,7 +66,7 @@ fn no_job() -> JsValue {
 #[wasm_bindgen]
 impl Session {
     /// Quadrat counts and the χ² test of CSR.
-    #[wasm_bindgen(js_name = quadratTest)]
+    #[wasm_bindgen(js_name = quadratTest, unchecked_return_type = "QuadratResult")]
     pub fn quadrat_test_js(
         &self,
         #[wasm_bindgen(unchecked_param_type = "QuadratTestOptions")] params: JsValue,
@@ -78,7 +78,7 @@ impl Session {
     }
 
     /// Clark–Evans aggregation index with and without Donnelly's correction.
-    #[wasm_bindgen(js_name = clarkEvans)]
+    #[wasm_bindgen(js_name = clarkEvans, unchecked_return_type = "ClarkEvansResult")]
     pub fn clark_evans_js(
         &self,
         #[wasm_bindgen(unchecked_param_type = "ClarkEvansOptions")] params: JsValue,
@@ -91,7 +91,7 @@ impl Session {
 
     /// Starts an envelope run: checks the parameters and computes the
     /// observed curve. Returns `{total, distances, seed}`.
-    #[wasm_bindgen(js_name = envelopeStart)]
+    #[wasm_bindgen(js_name = envelopeStart, unchecked_return_type = "EnvelopeStarted")]
     pub fn envelope_start(
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "EnvelopeStartOptions")] params: JsValue,
@@ -176,7 +176,7 @@ impl Session {
     }
 
     /// Finishes the run: bands, global tests and the verdict.
-    #[wasm_bindgen(js_name = envelopeFinish)]
+    #[wasm_bindgen(js_name = envelopeFinish, unchecked_return_type = "EnvelopeResult")]
     pub fn envelope_finish(&mut self) -> Result<JsValue, JsValue> {
         let job = self.take_extra::<EnvelopeJob>(KEY).ok_or_else(no_job)?;
         to_js(&job.finish())
@@ -196,11 +196,11 @@ fn chart_error(detail: &str) -> JsValue {
 /// Draws an envelope result on the `<canvas>` with id `canvas_id` (main
 /// thread only) with [`crate::plot::envelope`]. Returns `{x_label, y_label,
 /// units, band_label}`.
-#[wasm_bindgen(js_name = drawEnvelopeChart)]
+#[wasm_bindgen(js_name = drawEnvelopeChart, unchecked_return_type = "EnvelopeChartLabels")]
 pub fn draw_envelope_chart(
     canvas_id: &str,
-    result: JsValue,
-    options: JsValue,
+    #[wasm_bindgen(unchecked_param_type = "EnvelopeResult")] result: JsValue,
+    #[wasm_bindgen(unchecked_param_type = "EnvelopeChartOptions | null")] options: JsValue,
 ) -> Result<JsValue, JsValue> {
     if result.is_undefined() || result.is_null() {
         return Err(chart_error("there is no result to draw"));

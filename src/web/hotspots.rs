@@ -107,7 +107,7 @@ struct ClusterOut<'a> {
 impl Session {
     /// What the hotspot panel needs to know about the loaded data:
     /// `{n_events, has_weights, has_controls, geographic}`.
-    #[wasm_bindgen(js_name = hotspotsInfo)]
+    #[wasm_bindgen(js_name = hotspotsInfo, unchecked_return_type = "HotspotsInfo")]
     pub fn hotspots_info(&self) -> Result<JsValue, JsValue> {
         #[derive(Serialize)]
         struct Info {
@@ -132,7 +132,7 @@ impl Session {
     /// metres and how it was chosen, `max_per_km2`, `integral_events`,
     /// `notes`, the percent-volume `isopleths` (polygons in metres) and a
     /// `privacy` count. The surface is kept for `isoplethsGeoJson`.
-    #[wasm_bindgen(js_name = intensitySurface)]
+    #[wasm_bindgen(js_name = intensitySurface, unchecked_return_type = "IntensitySurfaceResult")]
     pub fn intensity_surface(
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "IntensitySurfaceOptions")] params: JsValue,
@@ -236,6 +236,7 @@ impl Session {
     /// `{eps_m, min_samples, use_weights}`. Returns `labels` (Int32Array,
     /// −1 = noise, input order), `core` (Uint8Array), `n_clusters`, `noise`
     /// and the cluster table with hulls (metres).
+    #[wasm_bindgen(unchecked_return_type = "DbscanResult")]
     pub fn dbscan(
         &self,
         #[wasm_bindgen(unchecked_param_type = "DbscanOptions")] params: JsValue,
@@ -290,7 +291,7 @@ impl Session {
 
     /// Sorted k-distances for choosing DBSCAN's eps: `{min_samples,
     /// sorted_desc_m (Float64Array), knee_eps_m, knee_index}`.
-    #[wasm_bindgen(js_name = kDistance)]
+    #[wasm_bindgen(js_name = kDistance, unchecked_return_type = "KDistanceResult")]
     pub fn k_distance(
         &self,
         #[wasm_bindgen(unchecked_param_type = "number")] min_samples: JsValue,
@@ -328,7 +329,7 @@ impl Session {
     /// options `{model, max_share, n_sim, seed, cells_long_side,
     /// max_secondary}`. Returns `{total}` (replicates to run). A scan already
     /// prepared or running is dropped.
-    #[wasm_bindgen(js_name = scanStart)]
+    #[wasm_bindgen(js_name = scanStart, unchecked_return_type = "ScanStarted")]
     pub fn scan_start(
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "ScanStartOptions")] params: JsValue,
@@ -368,7 +369,7 @@ impl Session {
     /// Runs any replicates left and returns the result: the most likely
     /// cluster and secondary clusters (centre, radius, observed, expected,
     /// relative risk, p), the test statistic and its Monte Carlo p-value.
-    #[wasm_bindgen(js_name = scanFinish)]
+    #[wasm_bindgen(js_name = scanFinish, unchecked_return_type = "ScanResult")]
     pub fn scan_finish(&mut self) -> Result<JsValue, JsValue> {
         let job = self
             .take_extra::<ScanJob>(KEY_SCAN)
@@ -383,7 +384,10 @@ impl Session {
 /// `kDistance`'s answer plus an optional `eps_m` and `scale`. Throws when the
 /// canvas is missing or the data are empty.
 #[wasm_bindgen(js_name = drawKDistanceChart)]
-pub fn draw_k_distance_chart(canvas_id: &str, data: JsValue) -> Result<(), JsValue> {
+pub fn draw_k_distance_chart(
+    canvas_id: &str,
+    #[wasm_bindgen(unchecked_param_type = "KDistanceChartData")] data: JsValue,
+) -> Result<(), JsValue> {
     use crate::plot::{KDistanceChartData, PlotError};
     use plotters::prelude::IntoDrawingArea;
     let d: KDistanceChartData = from_js(data)?;

@@ -520,7 +520,7 @@ impl Session {
 
     /// Reads an events file (CSV or GeoJSON bytes). On failure throws and keeps
     /// what was loaded before.
-    #[wasm_bindgen(js_name = loadEvents)]
+    #[wasm_bindgen(js_name = loadEvents, unchecked_return_type = "LoadReport")]
     pub fn load_events(
         &mut self,
         bytes: &[u8],
@@ -540,7 +540,7 @@ impl Session {
     }
 
     /// Reads a controls / population-at-risk file (same formats as events).
-    #[wasm_bindgen(js_name = loadControls)]
+    #[wasm_bindgen(js_name = loadControls, unchecked_return_type = "LoadReport")]
     pub fn load_controls(
         &mut self,
         bytes: &[u8],
@@ -576,7 +576,7 @@ impl Session {
     }
 
     /// Drops the controls layer.
-    #[wasm_bindgen(js_name = clearControls)]
+    #[wasm_bindgen(js_name = clearControls, unchecked_return_type = "StudyReport | null")]
     pub fn clear_controls(&mut self) -> Result<JsValue, JsValue> {
         let study = self
             .build(self.events.as_ref(), self.area.as_ref(), None)
@@ -587,7 +587,7 @@ impl Session {
     }
 
     /// Reads a study-area file (GeoJSON Polygon / MultiPolygon).
-    #[wasm_bindgen(js_name = loadArea)]
+    #[wasm_bindgen(js_name = loadArea, unchecked_return_type = "StudyReport | null")]
     pub fn load_area(
         &mut self,
         bytes: &[u8],
@@ -604,7 +604,7 @@ impl Session {
     }
 
     /// Drops the study-area file; the fallback window is used instead.
-    #[wasm_bindgen(js_name = clearArea)]
+    #[wasm_bindgen(js_name = clearArea, unchecked_return_type = "StudyReport | null")]
     pub fn clear_area(&mut self) -> Result<JsValue, JsValue> {
         let study = self
             .build(self.events.as_ref(), None, self.controls.as_ref())
@@ -616,8 +616,11 @@ impl Session {
 
     /// Chooses the window used without a study-area file:
     /// `"convex_hull"` or `"bounding_box"`.
-    #[wasm_bindgen(js_name = setAreaFallback)]
-    pub fn set_area_fallback(&mut self, kind: &str) -> Result<JsValue, JsValue> {
+    #[wasm_bindgen(js_name = setAreaFallback, unchecked_return_type = "StudyReport | null")]
+    pub fn set_area_fallback(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "AreaFallback")] kind: &str,
+    ) -> Result<JsValue, JsValue> {
         let fallback = match kind {
             "convex_hull" => AreaFallback::ConvexHull,
             "bounding_box" => AreaFallback::BoundingBox,
@@ -650,6 +653,7 @@ impl Session {
     }
 
     /// The current study (projection, area, counts, warnings), or null.
+    #[wasm_bindgen(unchecked_return_type = "StudyReport | null")]
     pub fn study(&self) -> Result<JsValue, JsValue> {
         self.study_js()
     }
@@ -662,12 +666,13 @@ impl Session {
     }
 
     /// Descriptive summary of the events.
+    #[wasm_bindgen(unchecked_return_type = "Summary")]
     pub fn summary(&mut self) -> Result<JsValue, JsValue> {
         to_js(self.summary_ref()?)
     }
 
     /// Geometry for the map, in planar metres.
-    #[wasm_bindgen(js_name = mapLayers)]
+    #[wasm_bindgen(js_name = mapLayers, unchecked_return_type = "MapLayers")]
     pub fn map_layers(&mut self) -> Result<JsValue, JsValue> {
         let (ring, centre) = {
             let sm = self.summary_ref()?;
@@ -702,7 +707,13 @@ impl Session {
     }
 
     /// A page of the rejection table: `layer` is `"events"` or `"controls"`.
-    pub fn rejections(&self, layer: &str, offset: f64, limit: f64) -> Result<JsValue, JsValue> {
+    #[wasm_bindgen(unchecked_return_type = "RejectionPage")]
+    pub fn rejections(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "LayerName")] layer: &str,
+        offset: f64,
+        limit: f64,
+    ) -> Result<JsValue, JsValue> {
         let offset = count_arg(offset, "rejections", "offset")?;
         let limit = count_arg(limit, "rejections", "limit")?;
         let list: &[Rejection] = match (layer, &self.study) {

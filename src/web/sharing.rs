@@ -301,7 +301,7 @@ impl Session {
 #[wasm_bindgen]
 impl Session {
     /// Masks the events with a ring-shaped random shift (donut geomasking).
-    #[wasm_bindgen(js_name = maskDonut)]
+    #[wasm_bindgen(js_name = maskDonut, unchecked_return_type = "MaskResult")]
     pub fn mask_donut(
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "MaskDonutOptions")] params: JsValue,
@@ -314,7 +314,7 @@ impl Session {
     }
 
     /// Masks the events so each reaches a spatial k-anonymity target.
-    #[wasm_bindgen(js_name = maskKAnonymity)]
+    #[wasm_bindgen(js_name = maskKAnonymity, unchecked_return_type = "MaskResult")]
     pub fn mask_k_anonymity(
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "MaskKAnonymityOptions")] params: JsValue,
@@ -376,7 +376,7 @@ impl Session {
     }
 
     /// The kept masked copy, or null.
-    #[wasm_bindgen(js_name = maskResult)]
+    #[wasm_bindgen(js_name = maskResult, unchecked_return_type = "MaskResult | null")]
     pub fn mask_result(&self) -> Result<JsValue, JsValue> {
         let study = self.study_ref()?;
         match state(self).and_then(|s| s.mask.as_ref()) {
@@ -387,7 +387,7 @@ impl Session {
 
     /// Original vs masked: mean nearest-neighbour distance, Clark–Evans R,
     /// centre shift, standard distance, kernel surface shift.
-    #[wasm_bindgen(js_name = maskingCost)]
+    #[wasm_bindgen(js_name = maskingCost, unchecked_return_type = "MaskingCost")]
     pub fn masking_cost(
         &self,
         #[wasm_bindgen(unchecked_param_type = "MaskingCostOptions")] params: JsValue,
@@ -414,6 +414,7 @@ impl Session {
 
     /// Counts the events per cell or zone, suppresses small counts (with
     /// complementary suppression) and audits the result. Kept for export.
+    #[wasm_bindgen(unchecked_return_type = "AggregateResult")]
     pub fn aggregate(
         &mut self,
         #[wasm_bindgen(unchecked_param_type = "AggregateOptions")] params: JsValue,
@@ -468,10 +469,10 @@ impl Session {
     }
 
     /// What a file would contain, without writing it.
-    #[wasm_bindgen(js_name = exportPreview)]
+    #[wasm_bindgen(js_name = exportPreview, unchecked_return_type = "ExportPreview | ReportPreview")]
     pub fn export_preview(
         &self,
-        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportWhat")] what: &str,
         #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
     ) -> Result<JsValue, JsValue> {
         let (a, _) = decode::<ExportArgs>(options, None)?;
@@ -490,10 +491,10 @@ impl Session {
     }
 
     /// Writes a file: `{text, file_name, mime, preview}`.
-    #[wasm_bindgen(js_name = exportFile)]
+    #[wasm_bindgen(js_name = exportFile, unchecked_return_type = "ExportedFile | ReportFile")]
     pub fn export_file(
         &self,
-        what: &str,
+        #[wasm_bindgen(unchecked_param_type = "ExportWhat")] what: &str,
         #[wasm_bindgen(unchecked_param_type = "ExportFileOptions")] options: JsValue,
     ) -> Result<JsValue, JsValue> {
         let (a, _) = decode::<ExportArgs>(options, None)?;
@@ -516,7 +517,7 @@ impl Session {
     }
 
     /// The cautions the page shows beside the sharing tools.
-    #[wasm_bindgen(js_name = sharingCautions)]
+    #[wasm_bindgen(js_name = sharingCautions, unchecked_return_type = "string[]")]
     pub fn sharing_cautions(&self) -> Result<JsValue, JsValue> {
         to_js(&CAUTIONS)
     }

@@ -1,12 +1,15 @@
 // The typed declarations of dist/node (cloister.d.ts): every method that
 // takes options names an options interface instead of `any`, and each
 // interface holds exactly the options parameterSpec() lists, with the
-// allowed values of choices as string literals.
+// allowed values of choices as string literals. The whole file is valid
+// TypeScript: the TypeScript compiler pinned in package-lock.json checks it.
 // Run: node --test tests/node/
 import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
+import { spawnSync } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
 
 const require = createRequire(import.meta.url);
 const { parameterSpec } = require('../../dist/node/cloister.js');
@@ -52,4 +55,31 @@ test('each options interface lists exactly the options of parameterSpec, choices
   }
   // The unit and range are in the documentation of a length.
   assert.match(body('MaskDonutOptions'), /largest displacement Unit: m\. Range: > 0, ≤ 10 × the study area's extent\. Default: 500\./);
+});
+
+/** The pinned compiler's entry point, or null when it is not installed. */
+function tscPath() {
+  try {
+    return require.resolve('typescript/bin/tsc');
+  } catch {
+    return null;
+  }
+}
+
+test('cloister.d.ts is valid TypeScript, and a script using it type-checks (tsc --noEmit --strict)', (t) => {
+  const tsc = tscPath();
+  if (!tsc) {
+    t.skip('typescript is not installed; ./build.sh test installs it from package-lock.json');
+    return;
+  }
+  const file = (p) => fileURLToPath(new URL(p, import.meta.url));
+  // Declaration files are checked too (skipLibCheck off); the lib gives
+  // Symbol.dispose, which wasm-bindgen declares on Session. types/usage.ts
+  // calls the API as a script would, and its @ts-expect-error lines must be
+  // errors (a misspelt layer, an unknown export, a result that may be null).
+  const r = spawnSync(process.execPath, [tsc, '--noEmit', '--strict', '--skipLibCheck', 'false',
+    '--target', 'es2022', '--lib', 'es2022,esnext.disposable', '--module', 'nodenext',
+    '--moduleResolution', 'nodenext', file('../../dist/node/cloister.d.ts'), file('types/usage.ts')],
+  { encoding: 'utf8' });
+  assert.equal(r.status, 0, `tsc found problems:\n${r.stdout}${r.stderr}`);
 });

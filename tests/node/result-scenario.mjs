@@ -1,0 +1,136 @@
+// Calls every method of dist/node that returns an object, on the demo files
+// with small settings, and hands back what each call returned, so
+// result-types.test.mjs can hold each value against the type that
+// dist/node/cloister.d.ts declares for that method.
+//
+// Three sessions cover the shapes a result can take: the demo in
+// longitude/latitude with its boundary and population (so optional
+// longitude/latitude fields are filled), the same events on a planar grid
+// without a boundary or population (so they are null), and the file with
+// spoiled rows (so rejection rows are present); masks are also run where
+// events cannot be placed, so each reason for leaving one out is met.
+import { readFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+
+const require = createRequire(import.meta.url);
+const cloister = require('../../dist/node/cloister.js');
+const root = new URL('../../', import.meta.url);
+const file = (p) => new Uint8Array(readFileSync(new URL(p, root)));
+const CREATED = '2026-01-01';
+
+/**
+ * Runs the calls; returns `[{ method, label, value }]` in call order.
+ * `method` is the name declared in the .d.ts (a Session method or a free
+ * function); `label` says which call it was.
+ */
+export function runScenario() {
+  const out = [];
+  const record = (method, label, value) => { out.push({ method, label, value }); return value; };
+
+  // 1. Longitude/latitude, boundary file, population.
+  const s = new cloister.Session();
+  record('study', 'nothing loaded', s.study());
+  record('loadEvents', 'cases.csv', s.loadEvents(file('demo-data/cases.csv'), {}));
+  record('study', 'events, hull', s.study());
+  record('loadArea', 'boundary', s.loadArea(file('demo-data/town-boundary.geojson'), {}));
+  record('loadControls', 'population', s.loadControls(file('demo-data/population.csv'), {}));
+  record('summary', 'lon/lat, controls', s.summary());
+  record('mapLayers', 'lon/lat, controls', s.mapLayers());
+  record('rejections', 'events, none', s.rejections('events', 0, 10));
+  record('hotspotsInfo', 'lon/lat', s.hotspotsInfo());
+  record('quadratTest', 'small', s.quadratTest({ nx: 4, ny: 4, n_sim: 19, seed: 1 }));
+  record('quadratTest', 'no simulations', s.quadratTest({ nx: 3, ny: 3, n_sim: 0 }));
+  record('clarkEvans', 'small', s.clarkEvans({ n_sim: 19, seed: 1 }));
+  record('clarkEvans', 'no simulations', s.clarkEvans({ n_sim: 0 }));
+  const started = record('envelopeStart', 'L, 19 sims', s.envelopeStart({ n_sim: 19, seed: 1, n_steps: 12 }));
+  record('envelopeStep', 'first 4', s.envelopeStep(4));
+  record('envelopeShare', '', s.envelopeShare());
+  const curves = record('envelopeSimulate', '4..8', s.envelopeSimulate(4, 8));
+  record('envelopeAdd', '4..8', s.envelopeAdd(4, curves));
+  s.envelopeStep(started.total);
+  record('envelopeFinish', 'L', s.envelopeFinish());
+  const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
+  s.envelopeStep(g.total);
+  record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());
+  record('intensitySurface', 'coarse', s.intensitySurface({ cells: 48 }));
+  record('isoplethsGeoJson', '50 %', s.isoplethsGeoJson([0.5]));
+  record('intensitySurface', 'no privacy check', s.intensitySurface({ cells: 32, privacy_check: false, method: 'fixed', fixed_m: 300 }));
+  record('dbscan', 'eps 150', s.dbscan({ eps_m: 150, min_samples: 8 }));
+  record('kDistance', 'k 5', s.kDistance(5));
+  const scan = record('scanStart', 'small', s.scanStart({ n_sim: 19, seed: 3, cells_long_side: 12 }));
+  record('scanStep', 'all', s.scanStep(scan.total));
+  record('scanFinish', 'with controls', s.scanFinish());
+  record('maskResult', 'nothing masked', s.maskResult());
+  record('maskDonut', 'donut', s.maskDonut({ r_min_m: 100, r_max_m: 400, seed: 4 }));
+  record('maskResult', 'donut kept', s.maskResult());
+  record('maskingCost', 'donut', s.maskingCost({ grid_cells: 32 }));
+  record('maskKAnonymity', 'population', s.maskKAnonymity({ target_k: 10, r_max_m: 300, seed: 5, replace: true }));
+  record('maskKAnonymity', 'density', s.maskKAnonymity({ target_k: 10, r_max_m: 300, against: 'density', density_per_km2: 800, seed: 6, replace: true }));
+  record('maskDonut', 'rings outside the area, one try', s.maskDonut({ r_min_m: 3000, r_max_m: 3500, max_tries: 1, seed: 10, replace: true }));
+  record('maskKAnonymity', 'too few addresses nearby', s.maskKAnonymity({ target_k: 500, r_max_m: 50, seed: 11, replace: true }));
+  record('maskKAnonymity', 'kept below target', s.maskKAnonymity({ target_k: 10, r_max_m: 300, seed: 5, keep_below_target: true, replace: true }));
+  record('maskingCost', 'k-anonymity', s.maskingCost({ grid_cells: 32 }));
+  record('aggregate', 'square', s.aggregate({ layout: 'square', cell_size_m: 800 }));
+  record('aggregate', 'hexagon', s.aggregate({ layout: 'hexagon', cell_size_m: 600, min_count: 10 }));
+  record('aggregate', 'zones', s.aggregate({ layout: 'zones', zones: file('demo-data/town-boundary.geojson') }));
+  record('exportPreview', 'masked csv', s.exportPreview('masked_points', { format: 'csv' }));
+  record('exportPreview', 'aggregates', s.exportPreview('aggregates', {}));
+  record('exportPreview', 'unmasked', s.exportPreview('unmasked_points', { coordinates: 'metres' }));
+  record('exportPreview', 'report', s.exportPreview('report', { report_holds: 'counts', created: CREATED }));
+  record('exportFile', 'masked geojson', s.exportFile('masked_points', { format: 'geo_json', created: CREATED }));
+  record('exportFile', 'aggregates csv', s.exportFile('aggregates', { format: 'csv', created: CREATED }));
+  record('exportFile', 'report', s.exportFile('report', { report_holds: 'masked_points', created: CREATED }));
+  record('sharingCautions', '', s.sharingCautions());
+  record('clearControls', '', s.clearControls());
+  record('setAreaFallback', 'bounding box', s.setAreaFallback('bounding_box'));
+  record('clearArea', '', s.clearArea());
+  s.free();
+
+  // 2. Planar grid, no boundary, no population.
+  const p = new cloister.Session();
+  record('loadEvents', 'planar', p.loadEvents(file('demo-data/cases-projected.csv'),
+    { coords: { kind: 'planar', unit: 'metre' } }));
+  record('summary', 'planar', p.summary());
+  record('mapLayers', 'planar', p.mapLayers());
+  record('hotspotsInfo', 'planar', p.hotspotsInfo());
+  record('dbscan', 'planar', p.dbscan({ eps_m: 150, min_samples: 8 }));
+  record('dbscan', 'nothing found', p.dbscan({ eps_m: 1, min_samples: 50 }));
+  const ps = p.scanStart({ n_sim: 9, seed: 7, cells_long_side: 10 });
+  p.scanStep(ps.total);
+  record('scanFinish', 'planar, no controls', p.scanFinish());
+  record('intensitySurface', 'planar', p.intensitySurface({ cells: 32 }));
+  record('maskDonut', 'planar', p.maskDonut({ r_min_m: 50, r_max_m: 200, seed: 8 }));
+  record('aggregate', 'planar', p.aggregate({ layout: 'square', cell_size_m: 1000 }));
+  record('exportFile', 'planar masked csv', p.exportFile('masked_points', { format: 'csv', created: CREATED }));
+  record('rejections', 'controls, none loaded', p.rejections('controls', 0, 5));
+
+  // A helper worker's session: simulates parts of a shared envelope run.
+  const run = p.envelopeStart({ n_sim: 4, seed: 9, n_steps: 8 });
+  const h = new cloister.Session();
+  record('envelopeHelperStart', '', h.envelopeHelperStart(p.envelopeShare()));
+  record('envelopeSimulate', 'helper', h.envelopeSimulate(0, run.total));
+  h.free();
+  p.free();
+
+  // 3. Rows spoiled on purpose.
+  const b = new cloister.Session();
+  record('loadEvents', 'with problems', b.loadEvents(file('demo-data/cases-with-problems.csv'), {}));
+  record('rejections', 'with problems', b.rejections('events', 0, 100));
+  b.free();
+
+  // 4. Events as GeoJSON points (the first rows of the demo, rewritten).
+  const rows = readFileSync(new URL('demo-data/cases.csv', root), 'utf8').split(/\r?\n/).slice(1, 41);
+  const features = rows.map((l) => l.split(',')).map(([id, lon, lat, day, category]) => ({
+    type: 'Feature', properties: { case_id: id, onset_date: day, category },
+    geometry: { type: 'Point', coordinates: [Number(lon), Number(lat)] },
+  }));
+  const gj = new cloister.Session();
+  record('loadEvents', 'GeoJSON points', gj.loadEvents(
+    new TextEncoder().encode(JSON.stringify({ type: 'FeatureCollection', features })), {}));
+  gj.free();
+
+  record('parameterSpec', 'all', cloister.parameterSpec());
+  record('parameterSpec', 'one', cloister.parameterSpec('maskDonut'));
+  record('version', '', cloister.version());
+  return out;
+}

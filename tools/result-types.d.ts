@@ -1,0 +1,811 @@
+// ---- Results of the methods, and the arguments that are not options (tools/result-types.d.ts, appended by tools/gen-dts.mjs) ----
+// Each method of Session names its result type with `unchecked_return_type`
+// in src/web/. tests/node/result-types.test.mjs calls every method on the
+// demo files and checks that each result has exactly these keys and types,
+// so a field added, removed or renamed in the Rust result structs fails the
+// tests until this file follows. Lengths are metres (`_m`), areas km² (`_km2`)
+// unless a name says otherwise; `[number, number]` is an (x, y) or
+// (longitude, latitude) pair.
+
+/** Unit of planar input coordinates. */
+export type LengthUnit = 'metre' | 'foot' | 'us_survey_foot';
+
+/** How input coordinates became metres. */
+export type Projection = ProjectionTransverseMercator | ProjectionPlanar;
+
+/** Transverse Mercator centred on the data (input in longitude/latitude). */
+export interface ProjectionTransverseMercator {
+  kind: 'transverse_mercator';
+  lon0: number;
+  lat0: number;
+}
+
+/** Input already planar, scaled by its unit. */
+export interface ProjectionPlanar {
+  kind: 'planar';
+  unit: LengthUnit;
+}
+
+/** What the coordinates of a file are. */
+export type CoordKind = CoordKindLonLat | CoordKindPlanar;
+
+export interface CoordKindLonLat {
+  kind: 'lon_lat';
+}
+
+export interface CoordKindPlanar {
+  kind: 'planar';
+  unit: LengthUnit;
+}
+
+/** Where the study area came from. */
+export type WindowOrigin = 'file' | 'convex_hull' | 'bounding_box';
+
+/** Events sharing a location with another event. */
+export interface Coincidence {
+  locations: number;
+  events: number;
+  largest: number;
+}
+
+/** What `study()` and the area methods return: projection, area, counts, warnings. */
+export interface StudyReport {
+  projection: Projection;
+  projection_text: string;
+  area_origin: WindowOrigin;
+  area_km2: number;
+  events: number;
+  controls: number | null;
+  coincident: Coincidence;
+  warnings: string[];
+  events_rows_read: number;
+  events_rejected: number;
+  controls_rows_read: number;
+  controls_rejected: number;
+}
+
+/** The format a file was read as. */
+export type SourceFormat = SourceFormatCsv | SourceFormatGeoJson;
+
+export interface SourceFormatCsv {
+  format: 'csv';
+  delimiter: string;
+  decimal_comma: boolean;
+}
+
+export interface SourceFormatGeoJson {
+  format: 'geo_json';
+}
+
+/** Column roles as used, by header name (null: no such column). */
+export interface ResolvedMapping {
+  x: string | null;
+  y: string | null;
+  time: string | null;
+  category: string | null;
+  weight: string | null;
+}
+
+/** Why a row was not accepted. */
+export type RejectReason =
+  | 'empty'
+  | 'not_a_number'
+  | 'latitude_out_of_range'
+  | 'longitude_out_of_range'
+  | 'outside_study_area'
+  | 'bad_time'
+  | 'bad_weight'
+  | 'too_few_fields'
+  | 'bad_geometry';
+
+/** Rows rejected for one reason. */
+export interface ReasonCount {
+  reason: RejectReason;
+  reason_text: string;
+  count: number;
+}
+
+/** An error in short, where a result carries one. */
+export interface ErrorSummary {
+  code: string;
+  message: string;
+}
+
+/** What `loadEvents` and `loadControls` return. */
+export interface LoadReport {
+  layer: 'events' | 'controls';
+  format: SourceFormat | null;
+  columns: string[];
+  mapping: ResolvedMapping | null;
+  coords: CoordKind;
+  rows_read: number;
+  accepted: number;
+  rejected: number;
+  by_reason: ReasonCount[];
+  categories: string[];
+  time_has_clock: boolean;
+  study: StudyReport | null;
+  study_error: ErrorSummary | null;
+}
+
+/** One rejected row (row 1 is a CSV header; GeoJSON rows are feature numbers). */
+export interface RejectionRow {
+  row: number;
+  column: string | null;
+  reason: RejectReason;
+  reason_text: string;
+  value: string;
+}
+
+/** A page of the rejection table (`rejections`). */
+export interface RejectionPage {
+  total: number;
+  offset: number;
+  rows: RejectionRow[];
+}
+
+/** Rows read, accepted and rejected for one layer. */
+export interface LayerCounts {
+  rows_read: number;
+  accepted: number;
+  rejected: number;
+}
+
+export interface MeanCentre {
+  x_m: number;
+  y_m: number;
+  lon: number | null;
+  lat: number | null;
+}
+
+/** The standard deviational ellipse (one SD along each axis). */
+export interface Ellipse {
+  centre_x_m: number;
+  centre_y_m: number;
+  major_axis_angle_deg: number;
+  semi_major_m: number;
+  semi_minor_m: number;
+  outline_m: [number, number][];
+  outline_lonlat: [number, number][] | null;
+}
+
+/** Nearest-neighbour distances, metres. */
+export interface NnSummary {
+  min: number;
+  median: number;
+  mean: number;
+  max: number;
+}
+
+export interface TimeSpan {
+  first: string;
+  last: string;
+  span_days: number;
+  n_with_time: number;
+}
+
+export interface CategoryCount {
+  name: string;
+  count: number;
+}
+
+/** The descriptive summary (`summary`). */
+export interface Summary {
+  n_events: number;
+  n_controls: number | null;
+  events: LayerCounts;
+  controls: LayerCounts | null;
+  projection: string;
+  window_origin: WindowOrigin;
+  window_area_km2: number;
+  intensity_per_km2: number;
+  mean_centre: MeanCentre;
+  standard_distance_m: number;
+  ellipse: Ellipse | null;
+  nearest_neighbour_m: NnSummary | null;
+  time_span: TimeSpan | null;
+  categories: CategoryCount[];
+  coincident: Coincidence;
+  warnings: string[];
+}
+
+/** Geometry for the map in planar metres (`mapLayers`); points as x, y, x, y, … */
+export interface MapLayers {
+  events: Float64Array;
+  event_category: Uint32Array | null;
+  category_names: string[];
+  controls: Float64Array | null;
+  /** Polygons, each a list of rings (outer first), each a list of points. */
+  area: [number, number][][][];
+  bbox: [number, number, number, number];
+  ellipse: [number, number][];
+  mean_centre: [number, number];
+}
+
+// ---- Is it clustered? ----
+
+/** One quadrat (kept when it overlaps the study area). */
+export interface QuadratCell {
+  ix: number;
+  iy: number;
+  bounds: [number, number, number, number];
+  area_m2: number;
+  count: number;
+  expected: number;
+}
+
+export interface QuadratStats {
+  chi_square: number;
+  df: number;
+  p_upper: number;
+  p_lower: number;
+  p_two_sided: number;
+  expected: number[];
+  dispersion_index: number;
+  cells_below_5: number;
+}
+
+/** `quadratTest`: Monte Carlo p-values are null when `n_sim` is 0. */
+export interface QuadratResult {
+  nx: number;
+  ny: number;
+  cell_width_m: number;
+  cell_height_m: number;
+  cells: QuadratCell[];
+  n: number;
+  stats: QuadratStats;
+  p_mc_upper: number | null;
+  p_mc_lower: number | null;
+  p_mc_two_sided: number | null;
+  n_sim: number;
+  seed: number;
+  warnings: string[];
+}
+
+export interface ClarkEvansStats {
+  expected_m: number;
+  se_m: number;
+  r: number;
+  z: number;
+  p_two_sided: number;
+  p_clustered: number;
+  p_regular: number;
+}
+
+/** `clarkEvans`: Monte Carlo p-values are null when `n_sim` is 0. */
+export interface ClarkEvansResult {
+  n: number;
+  area_m2: number;
+  perimeter_m: number;
+  mean_nn_m: number;
+  naive: ClarkEvansStats;
+  donnelly: ClarkEvansStats;
+  p_mc_two_sided: number | null;
+  p_mc_clustered: number | null;
+  p_mc_regular: number | null;
+  n_sim: number;
+  seed: number;
+  coincident_events: number;
+  warnings: string[];
+}
+
+/** `envelopeStart`: simulations to run and distances on the curve. */
+export interface EnvelopeStarted {
+  total: number;
+  distances: number;
+  seed: number;
+}
+
+export interface GlobalTest {
+  statistic: number;
+  p_value: number;
+  at_least_as_extreme: number;
+  critical: number;
+  rejects: boolean;
+}
+
+export interface DistanceRange {
+  from_m: number;
+  to_m: number;
+  departure: 'clustered' | 'regular';
+}
+
+/** The plain-language answer. */
+export interface Verdict {
+  outcome: 'clustered' | 'regular' | 'mixed' | 'consistent_with_csr';
+  ranges: DistanceRange[];
+  text: string;
+  caveats: string[];
+}
+
+/** `envelopeFinish`: curves on the `r` grid, bands, global tests and verdict. */
+export interface EnvelopeResult {
+  function: 'nearest_neighbour' | 'empty_space' | 'j' | 'k' | 'l' | 'pair_correlation';
+  label: string;
+  r: number[];
+  observed: number[];
+  theoretical: number[];
+  reference: 'theoretical' | 'simulation_mean';
+  reference_curve: number[];
+  sim_mean: number[];
+  pointwise_lo: number[];
+  pointwise_hi: number[];
+  pointwise_label: string;
+  global_lo: number[];
+  global_hi: number[];
+  test_r_min: number;
+  test_r_max: number;
+  mad: GlobalTest;
+  dclf: GlobalTest;
+  alpha: number;
+  k_rank: number;
+  n_sim: number;
+  seed: number;
+  n: number;
+  correction: 'isotropic' | 'translation' | 'border' | 'none';
+  nn_correction: 'border' | 'none';
+  r_max_rule: string;
+  bandwidth_m: number;
+  capped_weights: number;
+  warnings: string[];
+  verdict: Verdict;
+}
+
+/** What `drawEnvelopeChart` drew (page only: it needs a canvas). */
+export interface EnvelopeChartLabels {
+  x_label: string;
+  y_label: string;
+  units: string;
+  band_label: string;
+}
+
+// ---- Where is it dense? ----
+
+/** `hotspotsInfo`. */
+export interface HotspotsInfo {
+  n_events: number;
+  has_weights: boolean;
+  has_controls: boolean;
+  geographic: boolean;
+}
+
+/** One percent-volume isopleth; polygons in planar metres. */
+export interface Isopleth {
+  percent: number | null;
+  level_per_km2: number;
+  area_km2: number;
+  polygons: [number, number][][][];
+}
+
+/** How many events a surface's peaks could single out. */
+export interface SurfaceDisclosure {
+  radius_m: number;
+  threshold: number;
+  exposed_events: number;
+  warning: string | null;
+}
+
+/** `intensitySurface`: grid row-major, row 0 at the south. */
+export interface IntensitySurfaceResult {
+  x0: number;
+  y0: number;
+  cell_m: number;
+  nx: number;
+  ny: number;
+  kernel: 'gaussian' | 'quartic';
+  bandwidth_m: number;
+  kernel_sd_m: number;
+  method: 'normal_reference' | 'likelihood_cv' | 'diggle_mse' | 'fixed';
+  method_text: string;
+  reference_m: number | null;
+  candidates_m: number[];
+  criterion: (number | null)[];
+  bandwidth_note: string | null;
+  edge: 'none' | 'uniform' | 'jones_diggle';
+  n_events: number;
+  total_weight: number;
+  weighted: boolean;
+  integral_events: number;
+  max_per_km2: number;
+  area_km2: number;
+  notes: string[];
+  isopleths: Isopleth[];
+  privacy: SurfaceDisclosure | null;
+  /** Events per km², nx × ny. */
+  values: Float64Array;
+  /** 1 inside the study area. */
+  mask: Uint8Array;
+}
+
+/** One DBSCAN cluster; centre_lon/lat are null for planar input. */
+export interface DbscanCluster {
+  id: number;
+  members: number;
+  core_members: number;
+  centre_x: number;
+  centre_y: number;
+  centre_lon: number | null;
+  centre_lat: number | null;
+  hull_area_km2: number;
+  density_per_km2: number | null;
+  hull: [number, number][];
+}
+
+/** `dbscan`: labels in input order, −1 = noise. */
+export interface DbscanResult {
+  eps_m: number;
+  min_samples: number;
+  n_clusters: number;
+  noise: number;
+  weighted: boolean;
+  clusters: DbscanCluster[];
+  labels: Int32Array;
+  core: Uint8Array;
+}
+
+/** `kDistance`: sorted distances to the k-th neighbour and the knee. */
+export interface KDistanceResult {
+  min_samples: number;
+  sorted_desc_m: Float64Array;
+  knee_eps_m: number | null;
+  knee_index: number | null;
+}
+
+/** `scanStart`. */
+export interface ScanStarted {
+  total: number;
+  n_windows: number;
+  n_regions: number;
+}
+
+/** One scan cluster (rank 1 = most likely). */
+export interface ScanCluster {
+  rank: number;
+  centre_x: number;
+  centre_y: number;
+  centre_lon: number | null;
+  centre_lat: number | null;
+  radius_m: number;
+  regions: number;
+  observed: number;
+  expected: number;
+  relative_risk: number;
+  population: number;
+  llr: number;
+  p_value: number;
+}
+
+/** `scanFinish`. */
+export interface ScanResult {
+  model: 'auto' | 'bernoulli' | 'poisson';
+  model_text: string;
+  centres: 'auto' | 'events' | 'grid';
+  n_sim: number;
+  seed: number;
+  max_share: number;
+  n_regions: number;
+  n_windows: number;
+  total_cases: number;
+  total_population: number;
+  statistic: number;
+  p_value: number;
+  smallest_p: number;
+  critical_95: number | null;
+  critical_99: number | null;
+  cell_m: number | null;
+  clusters: ScanCluster[];
+  null_maxima: number[];
+}
+
+// ---- Sharing safely ----
+
+export type DistanceLaw = 'area_uniform' | 'distance_uniform';
+
+export interface DonutSettings {
+  method: 'donut';
+  r_min_m: number;
+  r_max_m: number;
+  law: DistanceLaw;
+  max_tries: number;
+  design_mean_m: number;
+  design_median_m: number;
+}
+
+export interface KAnonymitySettings {
+  method: 'k_anonymity';
+  target_k: number;
+  basis: KBasis;
+  r_min_m: number;
+  r_max_m: number;
+  law: DistanceLaw;
+  max_tries: number;
+  density_per_km2: number | null;
+  area_factor: number;
+  population_points: number | null;
+  population_contains_events: boolean;
+  keep_below_target: boolean;
+  r_min_used_m: number | null;
+}
+
+export type KBasis = 'population_layer' | 'uniform_density';
+
+/** Five-number summary plus mean and count. */
+export interface Spread {
+  n: number;
+  min: number;
+  q1: number;
+  median: number;
+  q3: number;
+  max: number;
+  mean: number;
+}
+
+export type UnplacedReason = UnplacedNoPlace | UnplacedTooFewPopulation | UnplacedTargetNotReached;
+
+export interface UnplacedNoPlace {
+  code: 'no_place_inside_area';
+  tries: number;
+}
+
+export interface UnplacedTooFewPopulation {
+  code: 'too_few_population_nearby';
+  found: number;
+  needed: number;
+  radius_m: number;
+}
+
+export interface UnplacedTargetNotReached {
+  code: 'target_not_reached';
+  tries: number;
+  best_k: number;
+  target_k: number;
+}
+
+/** An event left out of the masked copy, or below the k target. */
+export interface UnplacedRow {
+  index: number;
+  row: number | null;
+  reason: UnplacedReason;
+  reason_text: string;
+}
+
+export interface KSummary {
+  n: number;
+  min: number;
+  p05: number;
+  median: number;
+  share_below_target: number;
+}
+
+/** `maskDonut`, `maskKAnonymity`, `maskResult`: the masked copy the session keeps. */
+export interface MaskResult {
+  method: 'donut' | 'k_anonymity';
+  settings: DonutSettings | KAnonymitySettings;
+  n_input: number;
+  n_masked: number;
+  displacement: Spread | null;
+  unplaced: UnplacedRow[];
+  notes: string[];
+  basis: KBasis | null;
+  target_k: number | null;
+  k_summary: KSummary | null;
+  below_target: UnplacedRow[];
+  replaced: boolean;
+  cautions: string[];
+  /** Masked points as x, y, x, y, … (planar metres). */
+  masked: Float64Array;
+  /** Index of each masked point's original event. */
+  source: Uint32Array;
+  displacement_m: Float64Array;
+  /** k reached by each masked point (k-anonymity only). */
+  k: Float64Array | null;
+}
+
+export interface PatternSummary {
+  n: number;
+  mean_nn_m: number | null;
+  clark_evans_r: number | null;
+  centre: [number, number] | null;
+  standard_distance_m: number | null;
+}
+
+export interface SurfaceShift {
+  bandwidth_m: number;
+  cell_m: number;
+  nx: number;
+  ny: number;
+  cells_inside: number;
+  peak_original: number;
+  max_abs_diff_rel: number;
+  mean_abs_diff_rel: number;
+}
+
+/** L(r) − r of the original and masked points on one r grid. */
+export interface CurvePair {
+  r_m: number[];
+  original: number[];
+  masked: number[];
+  max_abs_difference_m: number;
+}
+
+/** `maskingCost`: original vs masked. */
+export interface MaskingCost {
+  original: PatternSummary;
+  masked: PatternSummary;
+  mean_nn_change_m: number | null;
+  clark_evans_change: number | null;
+  centre_shift_m: number | null;
+  standard_distance_change_m: number | null;
+  surface: SurfaceShift | null;
+  l_curves: CurvePair | null;
+}
+
+export type TableLayout = TableLayoutGrid | TableLayoutZones;
+
+export interface TableLayoutGrid {
+  layout: 'grid';
+  shape: 'square' | 'hexagon';
+  orientation: 'pointy_top' | 'flat_top' | null;
+  cell_size_m: number;
+  origin: [number, number];
+  rows: number;
+  cols: number;
+}
+
+export interface TableLayoutZones {
+  layout: 'zones';
+  zones: number;
+}
+
+export interface SuppressionParams {
+  min_count: number;
+  suppress_zeros: boolean;
+  publish_row_column_totals: boolean;
+  rate_per: number;
+  rate_min_population: number;
+  rate_unreliable_below: number;
+  exact_audit_budget: number;
+}
+
+/** One cell or zone; `count` is null when hidden. */
+export interface TableCell {
+  id: string;
+  row: number | null;
+  col: number | null;
+  geometry: [number, number][][][];
+  count: number | null;
+  suppressed: boolean;
+  hidden: 'primary' | 'complementary' | null;
+  population: number | null;
+  rate: number | null;
+  rate_unreliable: boolean;
+  in_area: boolean;
+}
+
+/** A row, column, group or grand total over cells (indices into `cells`). */
+export interface TableLine {
+  name: string;
+  kind: 'row' | 'column' | 'group' | 'grand';
+  cells: number[];
+  total: number | null;
+}
+
+export interface CellRange {
+  cell: number;
+  lo: number;
+  hi: number | null;
+}
+
+/** What an attacker could recover from the published table. */
+export interface AuditReport {
+  lower: number;
+  lines_with_one_hidden: number[];
+  determined_by_linear_algebra: number[];
+  pinned_by_bounds: number[];
+  exact: CellRange[] | null;
+  exact_recoverable: number[];
+  exact_skipped: string | null;
+  safe: boolean;
+}
+
+export interface SuppressedTable {
+  layout: TableLayout;
+  params: SuppressionParams;
+  cells: TableCell[];
+  lines: TableLine[];
+  outside: number | null;
+  n_primary: number;
+  n_complementary: number;
+  totals_withheld: number;
+  audit: AuditReport;
+  warnings: string[];
+}
+
+/** `aggregate`: the suppressed, audited table the session keeps for export. */
+export interface AggregateResult {
+  table: SuppressedTable;
+  population_source: string | null;
+  counts_hidden_from: number;
+  counts_hidden_to: number;
+  threshold_note: string;
+  largest_shown: number | null;
+  events_counted: number;
+  cautions: string[];
+}
+
+/** Exactly what a points or counts file would hold. */
+export interface ExportPreview {
+  content: string;
+  format: 'csv' | 'geo_json';
+  fields: string[];
+  rows: number;
+  metadata_keys: string[];
+  contains_original_coordinates: boolean;
+  label: string | null;
+  points_left_out: number;
+  cautions: string[];
+}
+
+/** What the HTML report would hold (`what` = "report"). */
+export interface ReportPreview {
+  content: string;
+  format: 'html';
+  fields: string[];
+  rows: number;
+  metadata_keys: string[];
+  contains_original_coordinates: boolean;
+  label: string | null;
+  points_left_out: number;
+  cautions: string[];
+}
+
+/** A points or counts file. */
+export interface ExportedFile {
+  text: string;
+  file_name: string;
+  mime: string;
+  preview: ExportPreview;
+}
+
+/** The HTML report file. */
+export interface ReportFile {
+  text: string;
+  file_name: string;
+  mime: string;
+  preview: ReportPreview;
+}
+
+// ---- Arguments that are not an analysis's options ----
+
+/** The window used without a study-area file (`setAreaFallback`). */
+export type AreaFallback = 'convex_hull' | 'bounding_box';
+
+/** A layer of points (`rejections`). */
+export type LayerName = 'events' | 'controls';
+
+/** What `exportPreview` and `exportFile` write; "report" gives the HTML report. */
+export type ExportWhat = 'masked_points' | 'aggregates' | 'report' | 'unmasked_points';
+
+/** How `drawEnvelopeChart` draws; every key optional, an unknown key throws. */
+export interface EnvelopeChartOptions {
+  /** "centred": L(r) − r or K(r) − πr², CSR at 0 (default); "function": the function itself. */
+  view?: 'centred' | 'function';
+  /** Axis unit; "auto" (default) gives km from 5 km. */
+  units?: 'auto' | 'm' | 'km';
+  /** "global" (default): the band of the test; "pointwise": not a test. */
+  band?: 'global' | 'pointwise';
+  /** Device pixels per CSS pixel. */
+  scale?: number | null;
+}
+
+/** What `drawKDistanceChart` draws: `kDistance`'s answer plus the eps in use. */
+export interface KDistanceChartData {
+  min_samples?: number;
+  sorted_desc_m: Float64Array | number[];
+  knee_index?: number | null;
+  knee_eps_m?: number | null;
+  /** The eps chosen, metres (drawn as a line). */
+  eps_m?: number | null;
+  /** Device pixels per CSS pixel. */
+  scale?: number | null;
+}
