@@ -9,8 +9,47 @@ import { $ } from './dom.js';
 import { state } from './state.js';
 
 const PROGRESS_DELAY_MS = 500;
+/** A job told to stop that has not stopped after this long is stopped by
+ * restarting the engine, so Cancel always takes effect within half a second. */
+const HARD_CANCEL_MS = 300;
 
 let stoppedHandler = null;
+let cancelHandler = null;
+
+/** Sets fn(), called to stop work that cannot be stopped politely: it must
+ * end every outstanding request (restart the engine). */
+export function onHardCancel(fn) {
+  cancelHandler = fn;
+}
+
+/** What the user is waiting for, in words, by engine method. */
+const WORK_NAMES = {
+  loadEvents: 'reading the events', loadControls: 'reading the controls', loadArea: 'reading the study area',
+  snapshot: 'summarising', summary: 'summarising', mapLayers: 'preparing the map', runJob: 'running simulations',
+  quadratTest: 'testing counts in cells', clarkEvans: 'computing the nearest-neighbour ratio',
+  intensitySurface: 'computing the surface', kDistance: 'computing neighbour distances', dbscan: 'looking for clusters',
+  maskDonut: 'masking', maskKAnonymity: 'masking', maskingCost: 'measuring what masking changed',
+  aggregate: 'counting per area', exportFile: 'writing the file', exportPreview: 'checking the file',
+};
+
+function workText() {
+  const first = state.pending.values().next().value;
+  if (!first) return '';
+  const secs = Math.round((performance.now() - first.t0) / 1000);
+  const what = WORK_NAMES[first.method] || 'working';
+  return `Working: ${what}${secs >= 2 ? ` (${secs} s)` : ''}…`;
+}
+
+let busyTicker = 0;
+function showBusy(on) {
+  $('busy').hidden = !on;
+  clearInterval(busyTicker);
+  busyTicker = 0;
+  if (on) {
+    $('busy-text').textContent = workText();
+    busyTicker = setInterval(() => { $('busy-text').textContent = workText(); }, 1000);
+  }
+}
 
 /** Sets fn(reason), called when the wasm instance traps or the worker dies. */
 export function onEngineStopped(fn) {
@@ -26,12 +65,16 @@ function updateProgress() {
   if (busy && !state.progressTimer && $('progress').hidden) {
     state.progressTimer = setTimeout(() => {
       state.progressTimer = 0;
-      if (state.pending.size > 0) $('progress').hidden = false;
+      if (state.pending.size > 0 && !onlyInit()) {
+        $('progress').hidden = false;
+        showBusy(true);
+      }
     }, PROGRESS_DELAY_MS);
   } else if (!busy) {
     clearTimeout(state.progressTimer);
     state.progressTimer = 0;
     $('progress').hidden = true;
+    showBusy(false);
   }
   document.body.dataset.busy = busy ? '1' : '0';
 }
@@ -57,12 +100,17 @@ export function startWorker() {
   return post('init', [state.module, `${glue}\n;\n${body}`]);
 }
 
+function onlyInit() {
+  for (const p of state.pending.values()) if (p.method !== 'init') return false;
+  return true;
+}
+
 /** Sends one request to the worker now. */
 export function post(method, args, onProgress, onId) {
   return new Promise((resolve, reject) => {
     const id = state.nextId++;
     if (onId) onId(id);
-    state.pending.set(id, { resolve, reject, method, onProgress });
+    state.pending.set(id, { resolve, reject, method, onProgress, t0: performance.now() });
     updateProgress();
     try {
       state.worker.postMessage({ id, method, args });
@@ -81,8 +129,11 @@ export async function call(method, ...args) {
 }
 
 /** Runs a long job in the worker ({start, step, finish, params}: Session
- * method names). Returns {promise, cancel}; onProgress({done, total}) is
- * called after every batch. A cancelled job rejects with code 'cancelled'. */
+ * method names; optional confirm_above_ms). Returns {promise, cancel,
+ * resume}; onProgress({done, total, ...}) is called after every batch, the
+ * first time with start_ms and estimate_ms, and with waiting: true when the
+ * job waits for resume() because its estimate is above confirm_above_ms.
+ * A cancelled job rejects with code 'cancelled'. */
 export function runJob(spec, onProgress) {
   let jobId = null;
   let cancelled = false;
@@ -92,9 +143,37 @@ export function runJob(spec, onProgress) {
   })();
   const cancel = () => {
     cancelled = true;
-    if (jobId !== null && state.worker) state.worker.postMessage({ id: -1, method: 'cancel', args: [jobId] });
+    if (jobId !== null && state.worker) softCancel(jobId);
   };
-  return { promise, cancel };
+  /** Lets a job that waits for confirmation (spec.confirm_above_ms) go on. */
+  const resume = () => {
+    if (jobId !== null && state.worker) state.worker.postMessage({ id: -1, method: 'resume', args: [jobId] });
+  };
+  return { promise, cancel, resume };
+}
+
+/** Asks the worker to stop job `id` between batches; if it has not stopped
+ * HARD_CANCEL_MS later (one step can be long on a large pattern), the engine
+ * is restarted. */
+function softCancel(id) {
+  state.worker.postMessage({ id: -1, method: 'cancel', args: [id] });
+  setTimeout(() => { if (state.pending.has(id)) hardCancel(); }, HARD_CANCEL_MS);
+}
+
+function hardCancel() {
+  if (cancelHandler && !state.restarting) cancelHandler();
+}
+
+/** Stops whatever the engine is doing (the Cancel button beside the progress
+ * bar): jobs are asked to stop, anything else ends by a restart. */
+export function cancelAll() {
+  if (state.restarting || state.pending.size === 0 || onlyInit()) return;
+  const methods = [...state.pending.values()].map((p) => p.method);
+  if (methods.every((m) => m === 'runJob')) {
+    for (const [id, p] of state.pending) if (p.method === 'runJob') softCancel(id);
+  } else {
+    hardCancel();
+  }
 }
 
 function onWorkerMessage(worker, msg) {
@@ -114,11 +193,13 @@ function onWorkerMessage(worker, msg) {
   }
 }
 
-export function stopWorker() {
+/** Ends the worker (and the helper workers it started) at once; every
+ * outstanding request is rejected with `error` (default: engine_stopped). */
+export function stopWorker(error = { code: 'engine_stopped', message: 'The engine stopped.' }) {
   const old = state.worker;
   state.worker = null;
   if (old) old.terminate();
-  for (const [, p] of state.pending) p.reject({ code: 'engine_stopped', message: 'The engine stopped.' });
+  for (const [, p] of state.pending) p.reject(error);
   state.pending.clear();
   updateProgress();
 }

@@ -8,8 +8,8 @@
 import { $, decodeBase64 } from './dom.js';
 import { state } from './state.js';
 import { setStatus, showError, clearError, act } from './status.js';
-import { startWorker, onEngineStopped } from './engine.js';
-import { restartEngine } from './recovery.js';
+import { startWorker, onEngineStopped, onHardCancel, cancelAll } from './engine.js';
+import { restartEngine, cancelByRestart } from './recovery.js';
 import { loadEvents, loadArea, loadControls, clearControls, setAreaMode, loadDemo, loadProblems, mappingChanged, readFile, renderAreaMode } from './loading.js';
 import { showMapping } from './columns.js';
 import { PAGE_SIZE, loadRejections } from './results.js';
@@ -65,6 +65,8 @@ function wire() {
   wireFileInput('events-file', 'events-drop', (bytes, name) => loadEvents(bytes, name, {}));
   wireFileInput('area-file', 'area-drop', (bytes, name) => loadArea(bytes, name));
   wireFileInput('controls-file', 'controls-drop', (bytes, name) => loadControls(bytes, name));
+  // Not through act(): Cancel must not wait behind the work it stops.
+  $('busy-cancel').addEventListener('click', cancelAll);
   $('demo-button').addEventListener('click', act(loadDemo));
   $('problems-button').addEventListener('click', act(loadProblems));
   $('map-layer').addEventListener('change', () => {
@@ -138,6 +140,7 @@ function mountPanels() {
 }
 
 onEngineStopped(restartEngine);
+onHardCancel(cancelByRestart);
 
 window.addEventListener('error', (e) => showError('Unexpected problem in the page', { message: e.message }));
 window.addEventListener('unhandledrejection', (e) => showError('Unexpected problem in the page', e.reason));

@@ -22,7 +22,11 @@ export const panelApi = {
   fmtMetres,
   plural,
   setStatus,
-  showError,
+  /** Shows an error; a request the user cancelled is not one. */
+  showError(context, err) {
+    if (err && err.code === 'cancelled') setStatus('Cancelled.');
+    else showError(context, err);
+  },
   clearError,
   act,
   /** Registers fn(snap) to run after every change of loaded data. */

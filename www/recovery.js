@@ -12,11 +12,22 @@ import { refresh } from './results.js';
 /** The wasm instance trapped or the worker died: start a fresh one and
  * read the kept files into it again. Requests made meanwhile wait. */
 export function restartEngine(reason) {
+  restart(reason, false);
+}
+
+/** Cancel that could not wait for the engine to stop by itself: end the
+ * worker now (every request ends as 'cancelled'), start a fresh one and
+ * read the kept files into it again. */
+export function cancelByRestart() {
+  restart(null, true);
+}
+
+function restart(reason, cancelled) {
   if (state.restarting) return;
   state.restarting = true;
-  stopWorker();
+  stopWorker(cancelled ? { code: 'cancelled', message: 'Cancelled.' } : undefined);
   const why = reason ? ` (Technical detail: ${reason}.)` : '';
-  setStatus('The engine stopped unexpectedly; restarting it…');
+  setStatus(cancelled ? 'Cancelled. Restoring your files in a fresh engine…' : 'The engine stopped unexpectedly; restarting it…');
   let rebuilt = true;
   state.engineReady = (async () => {
     try {
@@ -44,7 +55,11 @@ export function restartEngine(reason) {
       for (const id of ['events-name', 'controls-name']) if (!state[id.split('-')[0]]) $(id).textContent = '';
       await refresh(true);
       const hadFiles = !!(state.events || state.area || state.controls);
-      if (rebuilt && !hadFiles) {
+      if (cancelled && rebuilt) {
+        setStatus(hadFiles
+          ? 'Cancelled. Your files are loaded again; results computed before (masks, surfaces) need to be made again.'
+          : 'Cancelled.');
+      } else if (rebuilt && !hadFiles) {
         showError('The engine stopped unexpectedly and was restarted', { message: `the last request could not be completed.${why}` });
         setStatus('Engine restarted.');
       } else if (rebuilt) {

@@ -51,12 +51,17 @@ export function clearError() {
 /** Runs user actions one after another (the engine answers one request at
  * a time anyway) and counts finished actions in body[data-done] for tests. */
 let queue = Promise.resolve();
+let running = 0;
 export function act(fn) {
   return (...args) => {
+    // Never queue silently: say that this waits for the work in progress.
+    if (running > 0) setStatus('Waiting: this starts when the current work is done (Cancel stops that).');
+    running++;
     queue = queue
       .then(() => fn(...args))
-      .catch((err) => showError('Unexpected problem in the page', err))
+      .catch((err) => { if (!(err && err.code === 'cancelled')) showError('Unexpected problem in the page', err); })
       .finally(() => {
+        running--;
         document.body.dataset.done = String(Number(document.body.dataset.done || 0) + 1);
       });
     return queue;

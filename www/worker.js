@@ -33,10 +33,8 @@ function runJob(id, spec) {
   for (const m of [start, step, finish]) {
     if (!isSessionMethod(m)) throw { code: 'unknown_method', message: `Unknown job step "${m}".` };
   }
-  const info = session[start](params ?? {});
-  const total = Number(info && info.total);
-  const job = { cancelled: false };
-  jobs.set(id, job);
+  const job = { cancelled: false, waiting: false, go: null };
+  const { total } = startJob(id, spec, job, 1);
   let k = 1;
   let done = 0;
   const tick = () => {
@@ -59,8 +57,36 @@ function runJob(id, spec) {
       endFailed(id, err);
     }
   };
-  self.postMessage({ id, progress: { done: 0, total } });
-  setTimeout(tick, 0);
+  begin(id, job, total, tick);
+}
+
+/** Runs a job's `start` step and times it. When the spec sets
+ * `confirm_above_ms` and the run would take longer (the start step computes
+ * the observed curve, which costs about one simulation: estimate = its time
+ * × simulations / workers), the job waits for 'resume' (or 'cancel') before
+ * it simulates. Returns {total}. */
+function startJob(id, spec, job, workers) {
+  const t0 = performance.now();
+  const info = session[spec.start](spec.params ?? {});
+  const startMs = performance.now() - t0;
+  const total = Number(info && info.total);
+  jobs.set(id, job);
+  const estimateMs = (startMs * total) / Math.max(1, workers);
+  const limit = Number(spec.confirm_above_ms);
+  job.first = { done: 0, total, start_ms: startMs, estimate_ms: estimateMs, workers };
+  if (limit > 0 && estimateMs > limit) {
+    job.waiting = true;
+    job.first.waiting = true;
+  }
+  return { total };
+}
+
+/** Reports the first progress (with the estimate) and starts the ticks, or
+ * waits for 'resume' when the job asked to be confirmed. */
+function begin(id, job, total, tick) {
+  self.postMessage({ id, progress: job.first });
+  if (job.waiting) job.go = () => setTimeout(tick, 0);
+  else setTimeout(tick, 0);
 }
 
 /** The three ways a job ends: each forgets the job and answers the page. */
@@ -108,10 +134,8 @@ function runParallelJob(id, spec) {
   for (const m of [start, finish, parallel.share, parallel.simulate, parallel.add]) {
     if (!isSessionMethod(m)) throw { code: 'unknown_method', message: `Unknown job step "${m}".` };
   }
-  const info = session[start](params ?? {});
-  const total = Number(info && info.total);
-  const job = { cancelled: false, helpers: [] };
-  jobs.set(id, job);
+  const job = { cancelled: false, waiting: false, go: null, helpers: [] };
+  const { total } = startJob(id, spec, job, 1 + helperCount());
   let next = 0;
   let done = 0;
   let k = 1;
@@ -136,8 +160,10 @@ function runParallelJob(id, spec) {
     for (const h of job.helpers) h.stop();
     job.helpers = [];
   };
-  const share = session[parallel.share]();
-  for (let i = 0; i < helperCount(); i++) startHelper(job, share, parallel, take, (from, curves) => ready.set(from, curves), (piece) => returned.push(piece));
+  const startHelpers = () => {
+    const share = session[parallel.share]();
+    for (let i = 0; i < helperCount(); i++) startHelper(job, share, parallel, take, (from, curves) => ready.set(from, curves), (piece) => returned.push(piece));
+  };
 
   const tick = () => {
     try {
@@ -170,8 +196,7 @@ function runParallelJob(id, spec) {
       endFailed(id, err);
     }
   };
-  self.postMessage({ id, progress: { done: 0, total } });
-  setTimeout(tick, 0);
+  begin(id, job, total, () => { if (!job.cancelled) startHelpers(); tick(); });
 }
 
 /** Starts one helper worker that takes pieces until none are left. */
@@ -354,7 +379,15 @@ self.onmessage = (event) => {
       result = snapshot();
     } else if (method === 'cancel') {
       const job = jobs.get(args[0]);
-      if (job) job.cancelled = true;
+      if (job) {
+        job.cancelled = true;
+        // A job waiting for confirmation has no tick to notice.
+        if (job.waiting) { job.waiting = false; endCancelled(args[0]); }
+      }
+      result = Boolean(job);
+    } else if (method === 'resume') {
+      const job = jobs.get(args[0]);
+      if (job && job.waiting && job.go) { job.waiting = false; job.go(); }
       result = Boolean(job);
     } else if (method === 'runJob') {
       if (args[0] && args[0].parallel && helperCount() > 0) runParallelJob(id, args[0]);

@@ -137,3 +137,44 @@ test('column mapping and declared units change what is read', () => {
   const bad = throws(() => s.setAreaFallback('circle'));
   assert.equal(bad.code, 'bad_options');
 });
+
+test('events that all lie outside the loaded study area: their own error, and nothing lost', () => {
+  const s = new Session();
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  // The same events moved two degrees east: readable, all outside the area.
+  const text = new TextDecoder().decode(file('demo-data/cases.csv'));
+  const lines = text.trim().split(/\r?\n/);
+  const head = lines[0].split(',');
+  const lon = head.findIndex((h) => /lon/i.test(h));
+  assert.ok(lon >= 0, 'the demo has a longitude column');
+  const moved = [lines[0], ...lines.slice(1).map((l) => {
+    const f = l.split(',');
+    f[lon] = String(Number(f[lon]) + 2);
+    return f.join(',');
+  })].join('\n');
+  const e = throws(() => s.loadEvents(new TextEncoder().encode(moved), {}));
+  assert.equal(e.code, 'outside_study_area');
+  assert.match(e.message, /all 1500 readable events .* lie outside the study area/);
+  assert.match(e.message, /Remove that study area/);
+  assert.equal(s.summary().n_events, 1500, 'the previous events are still loaded');
+  // Without the area the same file loads.
+  s.clearArea();
+  assert.equal(s.loadEvents(new TextEncoder().encode(moved), {}).accepted, 1500);
+});
+
+test('clearAll forgets the events, the study area, the controls and kept results', () => {
+  const s = new Session();
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  s.loadControls(file('demo-data/population.csv'), {});
+  s.maskDonut({ r_min_m: 50, r_max_m: 200, seed: 1 });
+  assert.notEqual(s.maskResult(), null);
+  s.clearAll();
+  assert.equal(s.study(), null);
+  assert.throws(() => s.summary(), (e) => e.code === 'nothing_loaded');
+  assert.equal(s.mapLayers().events, null);
+  // Events elsewhere now load with the hull as their area (no old boundary in the way).
+  const r = s.loadEvents(new TextEncoder().encode('x,y\n500000,200000\n500100,200050\n500040,200120\n'), { coords: { kind: 'planar', unit: 'metre' } });
+  assert.equal(r.accepted, 3);
+});

@@ -84,6 +84,7 @@ export function runScenario() {
   record('clearControls', '', s.clearControls());
   record('setAreaFallback', 'bounding box', s.setAreaFallback('bounding_box'));
   record('clearArea', '', s.clearArea());
+  record('clearAll', '', s.clearAll());
   s.free();
 
   // 2. Planar grid, no boundary, no population.

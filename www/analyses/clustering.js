@@ -5,6 +5,10 @@
  * plotters on a canvas. Files are saved by the browser from a Blob. */
 
 /** Adds the panel to the page; C is the page's panel API (www/panel-api.js). */
+/** A run whose estimate (one curve's time × simulations / workers) is above
+ * this asks before it simulates, and offers the faster settings. */
+const CONFIRM_ABOVE_MS = 20000;
+
 export function mountClustering(C) {
   const { el, fmt, fmtMetres, call, runJob, act, setStatus, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
@@ -77,6 +81,13 @@ export function mountClustering(C) {
       el('button', { type: 'button', id: 'clu-cancel', class: 'quiet', disabled: true }, 'Cancel'),
       el('progress', { id: 'clu-progress', max: 1, value: 0, hidden: true }),
       el('span', { id: 'clu-progress-text', class: 'hint', 'aria-live': 'polite' })),
+    el('div', { id: 'clu-estimate', class: 'estimate', role: 'alert', hidden: true },
+      el('p', { id: 'clu-estimate-text' }),
+      el('p', { class: 'hint' }, 'Faster: fewer simulations (39 gives a rough answer, 99 or 199 is usual), ' +
+        'a smaller largest distance, or the border correction for K, L and g.'),
+      el('div', { class: 'buttons' },
+        el('button', { type: 'button', id: 'clu-estimate-go' }, 'Run it'),
+        el('button', { type: 'button', id: 'clu-estimate-stop', class: 'quiet' }, 'Stop and change the settings'))),
     el('div', { id: 'clu-env-result', class: 'clu-result', hidden: true },
       el('div', { class: 'clu-grid clu-view' },
         field('Show', select('clu-view', [['centred', 'difference from chance'], ['function', 'the function itself']], 'centred')),
@@ -202,8 +213,17 @@ export function mountClustering(C) {
     // progress report comes after the observed pattern is computed).
     let t0 = null;
     let d0 = 0;
-    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, ({ done, total, workers }) => {
+    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, confirm_above_ms: CONFIRM_ABOVE_MS, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, ({ done, total, workers, waiting, estimate_ms: est, start_ms: one }) => {
       if (token !== state.runToken) return;
+      if (waiting) {
+        $('clu-estimate-text').textContent = `This run will take about ${duration(est)}: one curve took ${duration(one)} ` +
+          `with ${fmt(C.snapshot() && C.snapshot().study ? C.snapshot().study.events : 0)} events, and ${fmt(total)} simulations follow` +
+          `${workers > 1 ? ` on ${fmt(workers)} workers` : ''}.`;
+        $('clu-estimate').hidden = false;
+        $('clu-progress-text').textContent = 'Waiting for your answer…';
+        return;
+      }
+      $('clu-estimate').hidden = true;
       $('clu-progress').max = total;
       $('clu-progress').value = done;
       const now = performance.now();
@@ -242,7 +262,16 @@ export function mountClustering(C) {
   }
 
   function cancel() {
+    $('clu-estimate').hidden = true;
     if (state.job) state.job.cancel();
+  }
+
+  /** A time in words: "40 s", "about 4 min", "about 2 h". */
+  function duration(ms) {
+    const s = ms / 1000;
+    if (s < 90) return `${fmt(Math.max(1, Math.round(s)))} s`;
+    if (s < 5400) return `about ${fmt(Math.round(s / 60))} min`;
+    return `about ${fmt(Math.round(s / 360) / 10)} h`;
   }
 
   function chartOptions() {
@@ -417,6 +446,8 @@ export function mountClustering(C) {
   $('clu-seed').addEventListener('input', () => { $('clu-fresh').checked = false; });
   $('clu-run').addEventListener('click', () => { run(); });
   $('clu-cancel').addEventListener('click', cancel);
+  $('clu-estimate-go').addEventListener('click', () => { $('clu-estimate').hidden = true; if (state.job) state.job.resume(); });
+  $('clu-estimate-stop').addEventListener('click', cancel);
   for (const id of ['clu-view', 'clu-units', 'clu-kind-global', 'clu-kind-pointwise']) $(id).addEventListener('change', drawChart);
   $('clu-csv').addEventListener('click', act(saveCsv));
   $('clu-png').addEventListener('click', act(savePng));
