@@ -227,7 +227,7 @@ export function mountHotspots(C) {
       C.setStatus(`Intensity surface drawn: bandwidth ${fmtMetres(meta.bandwidth_m)}.`);
     } catch (err) {
       setBusy(part1, 'error');
-      if (err && err.code === 'engine_stopped') return;
+      if (err && (err.code === 'engine_stopped' || err.code === 'cancelled')) return;
       state.surface = null;
       drawOverlays();
       const why = /no finite optimum/i.test(String(err && err.message)) ? ' The criterion keeps improving as the bandwidth grows, as it does when events are spread at random: there is no best bandwidth to report. Choose one yourself (fixed) or use another method.' : '';

@@ -1,0 +1,127 @@
+// The demo and one's own files replace each other cleanly; Cancel stops any
+// work within half a second, also one long step on a large pattern; a long
+// envelope run says how long it will take before it starts.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { join } from 'node:path';
+import { launch, openPage, loadDemo, act, settle, summaryNumber, FIXTURES, OUT } from './helpers.mjs';
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+/** A seeded file of n uniform points in a 20 km × 10 km rectangle (metres). */
+function uniformCsv(n, seed = 12345) {
+  let s = seed;
+  const rnd = () => { s = (Math.imul(s, 1103515245) + 12345) >>> 0; return s / 2 ** 32; };
+  const lines = ['x,y'];
+  for (let i = 0; i < n; i++) lines.push(`${(rnd() * 20000).toFixed(1)},${(rnd() * 10000).toFixed(1)}`);
+  return Buffer.from(lines.join('\n'));
+}
+
+test('own events after the demo: said plainly, the demo area can be dropped; the demo after own events replaces them', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  // A small planar file of another place: every point lies outside the demo's boundary.
+  await act(page, () => page.setInputFiles('#events-file', join(FIXTURES, 'user-points.csv')));
+  assert.equal(await page.isVisible('#error-banner'), true);
+  const text = await page.textContent('#error-text');
+  assert.match(text, /does not fit the study area/);
+  assert.match(text, /lie outside the study area that is loaded now/);
+  assert.doesNotMatch(text, /none of the .* rows could be used/);
+  assert.equal(await summaryNumber(page, 'n_events'), 1500, 'the demo is still loaded');
+  assert.equal(await page.isVisible('#error-action'), true);
+  assert.match(await page.textContent('#error-action'), /Drop that study area/);
+  await page.screenshot({ path: join(OUT, 'switch-outside-area.png') });
+  await act(page, () => page.click('#error-action'));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'n_events'), 9);
+  assert.match(await page.textContent('#events-name'), /user-points\.csv/);
+  assert.equal(await page.isChecked('#area-mode-hull'), true);
+  // And the demo again, straight after: it replaces the whole session.
+  await loadDemo(page);
+  assert.equal(await summaryNumber(page, 'n_events'), 1500);
+  assert.match(await page.textContent('#events-name'), /cases\.csv \(demo\)/);
+  assert.match(await page.textContent('#area-name'), /town-boundary/);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('own events (planar) first, then the demo: the demo loads', async () => {
+  const { page, log } = await openPage(browser);
+  await act(page, () => page.setInputFiles('#events-file', join(FIXTURES, 'user-points.csv')));
+  assert.equal(await summaryNumber(page, 'n_events'), 9);
+  await loadDemo(page);
+  assert.equal(await summaryNumber(page, 'n_events'), 1500);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.deepEqual(log.pageErrors, []);
+});
+
+/** Clicks the Cancel beside the progress bar once it shows, and returns the
+ * milliseconds from the click until the work has stopped. */
+async function cancelAndTime(page) {
+  await page.waitForSelector('#busy-cancel', { state: 'visible', timeout: 60000 });
+  return page.evaluate(() => new Promise((resolve) => {
+    const t0 = performance.now();
+    document.getElementById('busy-cancel').click();
+    // Stopped: the status line says so (the engine may then take a moment
+    // to read the files again, which is not the work that was cancelled).
+    const poll = () => {
+      if (/cancelled/i.test(document.getElementById('status').textContent)) resolve(performance.now() - t0);
+      else setTimeout(poll, 5);
+    };
+    poll();
+  }));
+}
+
+test('Cancel stops a long single step (bandwidth cross-validation, 200,000 events) within half a second', async () => {
+  const { page, log } = await openPage(browser);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: uniformCsv(200000) }));
+  assert.equal(await summaryNumber(page, 'n_events'), 200000);
+  await page.selectOption('#hs-method', 'likelihood_cv');
+  await page.click('#hs-surface-run');
+  await page.waitForSelector('#busy', { state: 'visible', timeout: 60000 });
+  assert.match(await page.textContent('#busy-text'), /computing the surface/);
+  await page.screenshot({ path: join(OUT, 'cancel-busy.png') });
+  const ms = await cancelAndTime(page);
+  assert.ok(ms < 500, `Cancel took ${ms.toFixed(0)} ms`);
+  // The engine comes back with the same events, and answers again.
+  await page.waitForFunction(() => /Cancelled/.test(document.getElementById('status').textContent), null, { timeout: 120000 });
+  await settle(page);
+  assert.equal(await summaryNumber(page, 'n_events'), 200000);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('a long envelope run asks first, with the faster settings; Cancel there and while it runs stops it', async () => {
+  const { page, log } = await openPage(browser);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: uniformCsv(60000, 777) }));
+  await page.fill('#clu-nsim', '999');
+  await page.click('#clu-run');
+  await page.waitForSelector('#clu-estimate', { state: 'visible', timeout: 120000 });
+  const text = await page.textContent('#clu-estimate-text');
+  assert.match(text, /This run will take (about \d+ (min|h)|\d+ s): one curve took/);
+  assert.match(await page.textContent('#clu-estimate'), /fewer simulations/);
+  await page.screenshot({ path: join(OUT, 'envelope-estimate.png') });
+  await page.click('#clu-estimate-stop');
+  await page.waitForFunction(() => document.getElementById('clu-progress-text').textContent === 'Cancelled.', null, { timeout: 5000 });
+  // Run it anyway, then stop it while it simulates.
+  await settle(page);
+  await page.click('#clu-run');
+  await page.waitForSelector('#clu-estimate', { state: 'visible', timeout: 120000 });
+  await page.click('#clu-estimate-go');
+  await page.waitForFunction(() => Number(document.getElementById('clu-progress').value) >= 1 || document.body.dataset.busy === '1', null, { timeout: 120000 });
+  const ms = await page.evaluate(() => new Promise((resolve) => {
+    const t0 = performance.now();
+    document.getElementById('clu-cancel').click();
+    // Stopped: the status line says so (the engine may then take a moment
+    // to read the files again, which is not the work that was cancelled).
+    const poll = () => {
+      if (/cancelled/i.test(document.getElementById('status').textContent)) resolve(performance.now() - t0);
+      else setTimeout(poll, 5);
+    };
+    poll();
+  }));
+  assert.ok(ms < 500, `Cancel took ${ms.toFixed(0)} ms`);
+  await page.waitForFunction(() => document.getElementById('clu-progress-text').textContent === 'Cancelled.', null, { timeout: 5000 });
+  assert.deepEqual(log.pageErrors, []);
+});
