@@ -271,7 +271,7 @@ export class PointMap {
 
     const colours = this.eventColours();
     const cat = L.event_category || null;
-    if (total <= 20000) {
+    if (total <= DENSE_ABOVE) {
       this.lastDrawn = this.drawSquaresPath(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H);
     } else {
       this.lastDrawn = this.drawSquaresImage(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H);
@@ -384,36 +384,73 @@ export class PointMap {
     return { events: drawnEvents, controls: drawnControls };
   }
 
-  /** Many points: one pass over an ImageData buffer instead of canvas calls. */
+  /** Many points (above 20,000): the map is cut into squares of one dot's
+   * size, and each square holding events is painted once, in the colour of
+   * its most frequent category, more opaque the more events it holds
+   * (opacity 0.3 for one event up to 1 at the 99th percentile of the counts,
+   * on a log scale), so dense places stand out instead of merging into one
+   * solid area. Controls are drawn under them as plain squares. */
   drawSquaresImage(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H) {
     const img = ctx.getImageData(0, 0, W, H);
     const px = new Uint32Array(img.data.buffer);
-    const packed = colours.map(packColour);
     const ctlColour = packColour(CLOISTER_PALETTE.control);
     let drawnControls = 0;
     let drawnEvents = 0;
-    const put = (x, y, s, c) => {
-      const x0 = Math.max(0, Math.round(x - s / 2));
-      const y0 = Math.max(0, Math.round(y - s / 2));
-      const x1 = Math.min(W, x0 + s);
-      const y1 = Math.min(H, y0 + s);
-      if (x1 <= x0 || y1 <= y0) return false;
-      for (let yy = y0; yy < y1; yy++) {
-        const row = yy * W;
-        for (let xx = x0; xx < x1; xx++) px[row + xx] = c;
-      }
-      return true;
-    };
     if (ctl) {
       for (let i = 0; i + 1 < ctl.length; i += 2) {
-        if (put(ox + ctl[i] * k, oy - ctl[i + 1] * k, ctlSize, ctlColour)) drawnControls++;
+        if (fillSquare(px, W, H, ox + ctl[i] * k, oy - ctl[i + 1] * k, ctlSize, ctlColour)) drawnControls++;
       }
     }
+    const bw = Math.ceil(W / size);
+    const bh = Math.ceil(H / size);
+    const nc = Math.max(1, colours.length);
+    const counts = new Uint32Array(bw * bh);
+    const byCat = nc > 1 ? new Uint32Array(bw * bh * nc) : null;
     for (let i = 0, j = 0; i + 1 < ev.length; i += 2, j++) {
-      const c = cat && packed.length > 1 ? packed[Math.min(cat[j], packed.length - 1)] : packed[0];
-      if (put(ox + ev[i] * k, oy - ev[i + 1] * k, size, c)) drawnEvents++;
+      const x = ox + ev[i] * k;
+      const y = oy - ev[i + 1] * k;
+      if (!(x >= 0 && x < W && y >= 0 && y < H)) continue;
+      const b = Math.floor(y / size) * bw + Math.floor(x / size);
+      counts[b]++;
+      if (byCat) byCat[b * nc + Math.min(cat ? cat[j] : 0, nc - 1)]++;
+      drawnEvents++;
+    }
+    const filled = [];
+    for (let b = 0; b < counts.length; b++) if (counts[b] > 0) filled.push(counts[b]);
+    if (filled.length === 0) {
+      ctx.putImageData(img, 0, 0);
+      return { events: 0, controls: drawnControls };
+    }
+    filled.sort((a, b) => a - b);
+    const top = Math.max(2, filled[Math.min(filled.length - 1, Math.floor(filled.length * 0.99))]);
+    const rgb = colours.map((h) => [parseInt(h.slice(1, 3), 16), parseInt(h.slice(3, 5), 16), parseInt(h.slice(5, 7), 16)]);
+    const bytes = img.data;
+    for (let by = 0; by < bh; by++) {
+      for (let bx = 0; bx < bw; bx++) {
+        const b = by * bw + bx;
+        const c = counts[b];
+        if (c === 0) continue;
+        let ci = 0;
+        if (byCat) {
+          for (let q = 1; q < nc; q++) if (byCat[b * nc + q] > byCat[b * nc + ci]) ci = q;
+        }
+        const a = Math.min(1, DENSE_MIN_ALPHA + (1 - DENSE_MIN_ALPHA) * Math.log1p(c - 1) / Math.log1p(top - 1));
+        const [r, g, bl] = rgb[ci] || rgb[0];
+        const y1 = Math.min(H, (by + 1) * size);
+        const x1 = Math.min(W, (bx + 1) * size);
+        for (let yy = by * size; yy < y1; yy++) {
+          for (let xx = bx * size; xx < x1; xx++) {
+            const o = (yy * W + xx) * 4;
+            bytes[o] = Math.round(bytes[o] * (1 - a) + r * a);
+            bytes[o + 1] = Math.round(bytes[o + 1] * (1 - a) + g * a);
+            bytes[o + 2] = Math.round(bytes[o + 2] * (1 - a) + bl * a);
+            bytes[o + 3] = 255;
+          }
+        }
+      }
     }
     ctx.putImageData(img, 0, 0);
+    this.shadedTop = top;
     return { events: drawnEvents, controls: drawnControls };
   }
 
@@ -466,6 +503,27 @@ function formatLength(v) {
 }
 
 /** '#rrggbb' → 0xAABBGGRR (little-endian RGBA bytes in a Uint32Array). */
+/** Above this many points (events and controls) the map shades squares by
+ * how many events they hold instead of drawing each dot. */
+export const DENSE_ABOVE = 20000;
+
+/** Opacity of a dot square holding one event when dense layers are shaded. */
+const DENSE_MIN_ALPHA = 0.3;
+
+/** Fills a size×size square centred on (x, y) in a packed RGBA buffer. */
+function fillSquare(px, W, H, x, y, s, c) {
+  const x0 = Math.max(0, Math.round(x - s / 2));
+  const y0 = Math.max(0, Math.round(y - s / 2));
+  const x1 = Math.min(W, x0 + s);
+  const y1 = Math.min(H, y0 + s);
+  if (x1 <= x0 || y1 <= y0) return false;
+  for (let yy = y0; yy < y1; yy++) {
+    const row = yy * W;
+    for (let xx = x0; xx < x1; xx++) px[row + xx] = c;
+  }
+  return true;
+}
+
 function packColour(hex) {
   const r = parseInt(hex.slice(1, 3), 16);
   const g = parseInt(hex.slice(3, 5), 16);

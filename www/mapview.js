@@ -2,7 +2,7 @@
 
 import { $, el, fmt } from './dom.js';
 import { state } from './state.js';
-import { PointMap, CLOISTER_PALETTE } from './map.js';
+import { PointMap, CLOISTER_PALETTE, DENSE_ABOVE } from './map.js';
 
 /** The map; null until createMap() runs (at start, before any file is read). */
 export let map = null;
@@ -37,6 +37,10 @@ export function renderLegend(layers) {
   } else if (!baseHidden) {
     ul.append(el('li', null, swatch('dot', CLOISTER_PALETTE.single), 'Events'));
   }
+  if (!baseHidden && (layers.events.length >> 1) > DENSE_ABOVE) {
+    ul.append(el('li', { id: 'legend-dense' }, swatch('dense', CLOISTER_PALETTE.single),
+      'Many events: a paler square holds one event, a stronger one more (strongest: the busiest 1 %)'));
+  }
   if (!baseHidden && layers.controls && layers.controls.length > 0 && map.showControls) {
     ul.append(el('li', null, swatch('control', CLOISTER_PALETTE.control), 'Controls (population at risk)'));
   }
@@ -56,6 +60,8 @@ export function renderLegend(layers) {
 
 function swatch(kind, colour) {
   const s = el('span', { class: `sw ${kind}`, 'aria-hidden': 'true' });
-  if (colour) s.style.background = colour;
+  // The shaded squares: from one event (opacity 0.3) to the busiest.
+  if (colour && kind === 'dense') s.style.background = `linear-gradient(90deg, ${colour}4d, ${colour})`;
+  else if (colour) s.style.background = colour;
   return s;
 }

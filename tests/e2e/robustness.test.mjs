@@ -33,10 +33,21 @@ test('200,000 events load and are drawn', async () => {
   await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: Buffer.from(lines.join('\n')) }));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
   assert.equal(await summaryNumber(page, 'n_events'), 200000);
+  // 200,000 uniform points: the map is shaded by how many events each dot
+  // square holds, not one solid area of the event colour (which it was).
   const pal = await palette(page);
   const census = await canvasCensus(page, [pal.single]);
-  // 200,000 uniform points over the map: most of the drawn area is covered.
-  assert.ok(census.counts[0] > census.total * 0.2, `event pixels ${census.counts[0]} of ${census.total}`);
+  assert.ok(census.notBackground > census.total * 0.2, `drawn pixels ${census.notBackground} of ${census.total}`);
+  assert.ok(census.counts[0] < census.notBackground * 0.5, `solid event colour on ${census.counts[0]} of ${census.notBackground} drawn pixels`);
+  const shades = await page.evaluate(() => {
+    const c = document.getElementById('map');
+    const d = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;
+    const seen = new Set();
+    for (let i = 0; i < d.length; i += 4) seen.add((d[i] << 16) | (d[i + 1] << 8) | d[i + 2]);
+    return seen.size;
+  });
+  assert.ok(shades > 8, `only ${shades} colours on the map`);
+  assert.match(await page.textContent('#legend'), /a paler square holds one event/);
   assert.deepEqual(log.pageErrors, []);
 });
 
