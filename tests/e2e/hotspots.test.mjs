@@ -150,16 +150,22 @@ test('scan: circles and table; a long scan is cancelled and a new one runs', asy
   await page.waitForFunction(() => document.getElementById('hs-scan').dataset.state === 'done', null, { timeout: 120000 });
   const rows = await page.$$eval('#hs-scan-table tbody tr', (trs) => trs.map((tr) => Array.from(tr.cells).map((td) => td.textContent.trim())));
   assert.ok(rows.length >= 3);
-  assert.match(rows[0][0], /most likely/);
-  // The most likely circle is at a planted cluster and p is the smallest 99 replicates allow.
+  assert.match(rows[0][0], /strongest/);
+  // Next circles are listed only when they could matter (two or more events, p < 0.5).
+  for (const r of rows.slice(1)) {
+    assert.match(r[0], /^next \d+$/);
+    assert.ok(Number(r[3]) >= 2 && Number(r[6]) < 0.5, `listed next circle ${r.join(' | ')}`);
+  }
+  assert.match(await page.textContent('#hs-scan-out'), /Listed: next circles with at least two events inside and p below 0\.5/);
+  // The strongest circle is at a planted cluster and p is the smallest 99 chance runs allow.
   const [lon, lat] = rows[0][1].split(',').map((t) => parseFloat(t));
   const near = truth.clusters.map((c) => metresApart(lon, lat, c.centre_lonlat.longitude, c.centre_lonlat.latitude));
-  assert.ok(Math.min(...near) < 600, `most likely circle ${Math.round(Math.min(...near))} m from a planted centre`);
+  assert.ok(Math.min(...near) < 600, `strongest circle ${Math.round(Math.min(...near))} m from a planted centre`);
   assert.equal(Number(rows[0][6]), 0.01);
   assert.match(await page.textContent('#hs-scan-out dd[data-key="scan-seed"]'), /seed 7\b/);
   await mapPixels(page, 'circles');
   assert.ok(await changed(page, 'beforeCircles', 'circles') > 100, 'circles drawn');
-  assert.match(await page.textContent('#legend'), /most likely circle/);
+  assert.match(await page.textContent('#legend'), /strongest circle/);
   assert.match(await page.textContent('#hs-scan'), /A cluster is not a cause/);
   await page.locator('#hotspots').screenshot({ path: join(outDir(), 'hotspots-section.png') });
   await page.locator('#map-panel').screenshot({ path: join(outDir(), 'hotspots-scan-map.png') });
@@ -167,7 +173,7 @@ test('scan: circles and table; a long scan is cancelled and a new one runs', asy
   // New data clear the old answers.
   await act(page, () => page.click('#controls-clear'));
   assert.equal(await page.locator('#hs-scan-table').count(), 0, 'scan table cleared');
-  assert.doesNotMatch(await page.textContent('#legend'), /most likely circle/);
+  assert.doesNotMatch(await page.textContent('#legend'), /strongest circle/);
   assert.match(await page.textContent('#hs-scan-model'), /Poisson/);
   assert.deepEqual(log.pageErrors, []);
   assert.deepEqual(log.consoleErrors, []);

@@ -6,6 +6,10 @@
  * draws and explains. Uses only the panel API it is given (www/README.md). */
 
 /** Adds the panel to the page; C is the page's panel API (www/panel-api.js). */
+/** Next circles of the scan with a p-value at or above this are not listed
+ * (they are what chance gives anyway); the engine's result keeps them all. */
+const NEXT_P_MAX = 0.5;
+
 export function mountHotspots(C) {
   const { el, fmt, fmtMetres } = C;
 
@@ -66,7 +70,7 @@ export function mountHotspots(C) {
   }
   function fmtP(p, nSim) {
     const floor = 1 / (nSim + 1);
-    if (p <= floor + 1e-12) return `${fmt(p, 3)} (the smallest possible with ${fmt(nSim)} replicates)`;
+    if (p <= floor + 1e-12) return `${fmt(p, 3)} (the smallest possible with ${fmt(nSim)} chance runs)`;
     return fmt(p, 3);
   }
   function setBusy(node, busy) {
@@ -396,11 +400,11 @@ export function mountHotspots(C) {
 
   const part3 = el('div', { class: 'hs-part', id: 'hs-scan' },
     el('h3', null, '3. Is any excess more than chance? (scan, Kulldorff 1997)'),
-    el('p', { class: 'hint' }, 'Circles of every size up to a limit are centred across the study area; for each, the events inside are compared with those expected. The circle with the strongest excess is tested against the same search repeated on data made by chance alone (replicates).'),
+    el('p', { class: 'hint' }, 'Circles of every size up to a limit are centred across the study area; for each, the events inside are compared with those expected. The circle with the strongest excess is then held against the same search repeated on patterns made by chance alone (chance runs). The test is the circular scan statistic of Kulldorff (1997); its log-likelihood ratio measures how strong an excess is.'),
     modelText,
     el('div', { class: 'hs-form' },
-      field('Largest circle', el('span', { class: 'hs-inline' }, shareIn, el('span', { class: 'hint' }, '% of the population (or area)'))),
-      field('Replicates', simIn),
+      field('Biggest circle may hold', el('span', { class: 'hs-inline' }, shareIn, el('span', { class: 'hint' }, '% of the people at risk (of the area without a population file)'))),
+      field('Chance runs', simIn, '999 is usual; each is a full search on a chance pattern'),
       field('Seed', el('span', { class: 'hs-inline' }, seedIn, seedBtn), 'The same seed and settings give the same answer.')),
     el('div', { class: 'hs-buttons' }, scanBtn, cancelBtn, bar, barText),
     scanOut,
@@ -432,7 +436,7 @@ export function mountHotspots(C) {
     const maxPct = lim('max_share').max * 100;
     const [simLo, simHi] = [lim('n_sim').min, lim('n_sim').max];
     if (!(share > 0 && share <= maxPct)) { C.showError('Cannot run the scan', { message: `the largest circle must hold more than 0 and at most ${maxPct} % of the population.` }); return; }
-    if (!(nSim >= simLo && nSim <= simHi)) { C.showError('Cannot run the scan', { message: `replicates must be from ${fmt(simLo)} to ${fmt(simHi)} (999 is usual).` }); return; }
+    if (!(nSim >= simLo && nSim <= simHi)) { C.showError('Cannot run the scan', { message: `chance runs must be from ${fmt(simLo)} to ${fmt(simHi)} (999 is usual).` }); return; }
     if (!(Number.isInteger(seed) && seed >= 0 && seed <= lim('seed').max)) { C.showError('Cannot run the scan', { message: 'the seed must be a whole number, 0 or more.' }); return; }
     const params = { max_share: share / 100, n_sim: nSim, seed };
     scanBtn.disabled = true;
@@ -449,7 +453,7 @@ export function mountHotspots(C) {
       if (state.job !== job) return;
       const done = num(p.done), total = num(p.total);
       bar.value = total > 0 ? done / total : 0;
-      barText.textContent = `${fmt(done)} of ${fmt(total)} replicates`;
+      barText.textContent = `${fmt(done)} of ${fmt(total)} chance runs`;
     });
     state.job = job;
     try {
@@ -489,14 +493,18 @@ export function mountHotspots(C) {
     const add = (t, v, key) => dl.append(el('dt', null, t), el('dd', key ? { 'data-key': key } : null, v));
     add('Model', r.model_text);
     add('Regions and circles', `${fmt(r.n_regions)} ${r.centres === 'grid' ? `grid cells of ${fmtMetres(r.cell_m)}` : 'locations'}, ${fmt(r.n_windows)} circles`);
-    add('Strongest excess', clusters.length ? `log-likelihood ratio ${fmt(r.statistic, 4)}, p = ${fmtP(num(r.p_value), nSim)}` : 'no circle holds more than expected', 'scan-p');
-    add('Replicates, seed', `${fmt(nSim)}, seed ${String(r.seed)}`, 'scan-seed');
+    add('Strongest excess', clusters.length ? `strength ${fmt(r.statistic, 4)} (log-likelihood ratio), p = ${fmtP(num(r.p_value), nSim)}` : 'no circle holds more than expected', 'scan-p');
+    add('Chance runs, seed', `${fmt(nSim)}, seed ${String(r.seed)}`, 'scan-seed');
     scanOut.append(dl);
     if (!clusters.length) return;
+    // Next circles are listed only when they could matter: at least two
+    // events inside and a p-value below NEXT_P_MAX (the engine returns all).
+    const shown = clusters.filter((c, i) => i === 0 || (num(c.observed) >= 2 && num(c.p_value) < NEXT_P_MAX));
+    const left = clusters.length - shown.length;
     const tb = el('tbody');
-    for (const c of clusters) {
+    for (const c of shown) {
       tb.append(el('tr', { class: num(c.p_value) < 0.05 ? 'sig' : null },
-        el('td', null, num(c.rank) === 0 ? 'most likely' : `secondary ${num(c.rank)}`),
+        el('td', null, num(c.rank) === 0 ? 'strongest' : `next ${num(c.rank)}`),
         el('td', null, place(c.centre_x, c.centre_y, c.centre_lon, c.centre_lat)),
         el('td', { class: 'n' }, fmtMetres(c.radius_m)),
         el('td', { class: 'n' }, fmt(c.observed)),
@@ -507,10 +515,10 @@ export function mountHotspots(C) {
     scanOut.append(el('div', { class: 'table-scroll hs-table' }, el('table', { class: 'small', id: 'hs-scan-table' },
       el('thead', null, el('tr', null,
         el('th', { scope: 'col' }, 'Circle'), el('th', { scope: 'col' }, 'Centre'), el('th', { scope: 'col', class: 'n' }, 'Radius'),
-        el('th', { scope: 'col', class: 'n' }, 'Observed'), el('th', { scope: 'col', class: 'n' }, 'Expected'),
-        el('th', { scope: 'col', class: 'n' }, 'Relative risk'), el('th', { scope: 'col', class: 'n' }, 'p'))), tb)));
+        el('th', { scope: 'col', class: 'n' }, 'Events inside'), el('th', { scope: 'col', class: 'n' }, 'Expected inside'),
+        el('th', { scope: 'col', class: 'n', title: 'risk inside the circle divided by risk outside it (relative risk)' }, 'Ratio'), el('th', { scope: 'col', class: 'n' }, 'p'))), tb)));
     scanOut.append(el('p', { class: 'hint' },
-      `p = (1 + replicates whose strongest circle beats this one) / (${fmt(nSim)} + 1), so ${fmt(1 / (nSim + 1), 3)} is the smallest possible. Secondary circles share no region with a stronger one; their p-values use the same yardstick and are conservative. `,
+      `p = (1 + chance runs whose strongest circle beats this one) / (${fmt(nSim)} + 1), so ${fmt(1 / (nSim + 1), 3)} is the smallest possible. Next circles share no place with a stronger one; their p-values use the same yardstick and are conservative. Listed: next circles with at least two events inside and p below ${NEXT_P_MAX}${left > 0 ? ` (${fmt(left)} more found, left out)` : ''}. `,
       r.centres === 'grid' ? `Events were counted in grid cells of ${fmtMetres(r.cell_m)}; a circle passes through the centres of its outermost cells (radius 0 m: one cell).` : ''));
     drawOverlays();
   }
@@ -612,8 +620,8 @@ export function mountHotspots(C) {
         }
         ctx.setLineDash([]);
       }, [
-        { label: 'Scan: most likely circle', colour: SCAN_MAIN, kind: 'line' },
-        { label: 'Scan: secondary circles with p < 0.05 (dashed)', colour: SCAN_OTHER, kind: 'line' },
+        { label: 'Scan: strongest circle', colour: SCAN_MAIN, kind: 'line' },
+        { label: 'Scan: next circles with p < 0.05 (dashed)', colour: SCAN_OTHER, kind: 'line' },
       ]);
     } else {
       C.setOverlay('hotspots-scan', null);
