@@ -4,6 +4,7 @@
 import { $, el, fmt, fmtFixed, fmtMetres, plural } from './dom.js';
 import { state } from './state.js';
 import { paramSpec } from './param-limits.js';
+import { term } from './glossary.js';
 import { setStatus, showError, clearError, act } from './status.js';
 import { call, runJob } from './engine.js';
 import { snapshotListeners } from './results.js';
@@ -29,6 +30,8 @@ export const panelApi = {
   },
   clearError,
   act,
+  /** A trade term with its plain-words explanation behind a "?" (glossary.js). */
+  term,
   /** Registers fn(snap) to run after every change of loaded data. */
   onSnapshot(fn) { snapshotListeners.push(fn); if (state.snap) fn(state.snap); },
   /** The last snapshot (study, summary, layers), or null. */

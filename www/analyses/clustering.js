@@ -326,11 +326,11 @@ export function mountClustering(C) {
     const corr = PAIR_FUNCTIONS.has(res.function) ? res.correction : res.nn_correction;
     dl($('clu-details'), [
       ['Function', `${res.label}, ${fmt(res.n)} events`],
-      ['Maximum-deviation test', `${pEq(mad.p_value)} (${fmt(mad.at_least_as_extreme)} of ${fmt(res.n_sim)} simulations at least as extreme)`, 'mad_p'],
-      ['Integrated-deviation test (DCLF)', pEq(dclf.p_value), 'dclf_p'],
+      [C.term('mad', 'Maximum-deviation test'), `${pEq(mad.p_value)} (${fmt(mad.at_least_as_extreme)} of ${fmt(res.n_sim)} simulations at least as extreme)`, 'mad_p'],
+      [C.term('dclf', 'Integrated-deviation test (DCLF)'), pEq(dclf.p_value), 'dclf_p'],
       ['Distances tested', `${fmtMetres(res.test_r_min)} to ${fmtMetres(res.test_r_max)}`],
       ['Largest distance', res.r_max_rule],
-      ['Edge correction', String(corr)],
+      ['Edge correction', ['isotropic', 'translation', 'border'].includes(String(corr)) ? C.term(String(corr), String(corr)) : String(corr)],
       ['Simulations', fmt(res.n_sim)],
       ['Seed', String(res.seed), 'seed'],
       ['Smallest possible p', fmt(1 / (res.n_sim + 1), 3)],
@@ -395,7 +395,7 @@ export function mountClustering(C) {
       ['Chi-square', `${fmt(s.chi_square, 5)} on ${fmt(s.df)} degrees of freedom`, 'chi_square'],
       ['p (chi-square)', `${pText(s.p_two_sided)} two-sided; ${pText(s.p_upper)} for clustering, ${pText(s.p_lower)} for regularity`, 'p'],
       ['p (simulated)', res.p_mc_two_sided === null ? 'not computed (0 simulations)' : `${pText(res.p_mc_two_sided)} two-sided; ${pText(res.p_mc_upper)} for clustering (${fmt(res.n_sim)} simulations, seed ${res.seed})`, 'p_mc'],
-      ['Variance / mean of counts', `${fmt(s.dispersion_index, 4)} (about 1 under chance; above 1 clustered, below 1 regular)`, 'dispersion'],
+      [C.term('dispersion', 'Variance / mean of counts'), `${fmt(s.dispersion_index, 4)} (about 1 under chance; above 1 clustered, below 1 regular)`, 'dispersion'],
     ]);
     const notes = [];
     if (s.cells_below_5 > 0) notes.push(`${fmt(s.cells_below_5)} of ${fmt(s.expected.length)} cells expect fewer than 5 events: the chi-square p is unreliable, use the simulated p.`);
@@ -426,7 +426,7 @@ export function mountClustering(C) {
     const d = el('dl', { class: 'clu-dl' });
     dl(d, [
       ['Mean nearest-neighbour distance', `${fmtMetres(res.mean_nn_m)} (${fmt(res.n)} events)`, 'mean_nn'],
-      ['With edge correction (Donnelly)', line(res.donnelly), 'donnelly'],
+      [C.term('donnelly', 'With edge correction (Donnelly)'), line(res.donnelly), 'donnelly'],
       ['Without edge correction', line(res.naive), 'naive'],
       ['p (simulated in this area)', res.p_mc_two_sided === null ? 'not computed (0 simulations)' : `${pText(res.p_mc_two_sided)} two-sided; ${pText(res.p_mc_clustered)} for clustering (${fmt(res.n_sim)} simulations, seed ${res.seed})`, 'p_mc'],
     ]);

@@ -171,7 +171,7 @@ export function mountHotspots(C) {
     add('Surface holds', `${fmt(meta.integral_events, 5)} events over ${fmt(meta.area_km2, 4)} km²`, 'integral');
     add('Peak', `${fmt(meta.max_per_km2, 3)} events per km²`, 'peak');
     add('Grid', `${fmt(meta.nx)} × ${fmt(meta.ny)} cells of ${fmtMetres(meta.cell_m)}`);
-    add('Edge correction', meta.edge === 'none' ? 'none (the surface sags near the boundary)' : 'Jones–Diggle');
+    add('Edge correction', meta.edge === 'none' ? 'none (the surface sags near the boundary)' : C.term('jones_diggle', 'Jones–Diggle'));
     surfaceOut.append(dl);
     const priv = meta.privacy;
     if (priv && priv.warning) {
@@ -271,7 +271,7 @@ export function mountHotspots(C) {
     el('p', { class: 'hint' }, 'An event with at least "min points" events (itself included) within "reach" is a core event; core events within reach of each other form one cluster, and events within reach of a core join it. Everything else is noise. Method of Ester, Kriegel, Sander & Xu (1996).'),
     el('div', { class: 'hs-form' },
       field('Min points', minIn),
-      field('Reach (eps)', el('span', { class: 'hs-inline' }, epsIn, el('span', { class: 'hint' }, 'm')))),
+      field(C.term('eps', 'Reach (eps)'), el('span', { class: 'hs-inline' }, epsIn, el('span', { class: 'hint' }, 'm')))),
     el('div', { class: 'hs-buttons' }, kdistBtn, knee, dbBtn),
     chart,
     el('p', { class: 'hint', id: 'hs-kdist-help', hidden: true }, 'Each event\u2019s distance to its (min points − 1)-th nearest neighbour, largest first. Where the curve bends, isolated events give way to grouped ones: a reach near the bend is a starting point, not an answer.'),
@@ -413,9 +413,9 @@ export function mountHotspots(C) {
   function renderModel() {
     const info = state.info;
     if (!info) { modelText.textContent = ''; return; }
-    modelText.textContent = info.has_controls
-      ? 'Model: cases against the population-at-risk file (Bernoulli). Expected counts come from the controls in each circle.'
-      : 'Model: events against area (Poisson). With no population file every km² is assumed to hold the same risk, so a crowded district looks like an excess. Load a population file to compare with where people are.';
+    modelText.replaceChildren(...(info.has_controls
+      ? ['Model: cases against the population-at-risk file (', C.term('bernoulli', 'Bernoulli'), '). Expected counts come from the controls in each circle.']
+      : ['Model: events against area (', C.term('poisson', 'Poisson'), '). With no population file every km² is assumed to hold the same risk, so a crowded district looks like an excess. Load a population file to compare with where people are.']));
   }
 
   scanBtn.addEventListener('click', () => runScan());
@@ -493,7 +493,7 @@ export function mountHotspots(C) {
     const add = (t, v, key) => dl.append(el('dt', null, t), el('dd', key ? { 'data-key': key } : null, v));
     add('Model', r.model_text);
     add('Regions and circles', `${fmt(r.n_regions)} ${r.centres === 'grid' ? `grid cells of ${fmtMetres(r.cell_m)}` : 'locations'}, ${fmt(r.n_windows)} circles`);
-    add('Strongest excess', clusters.length ? `strength ${fmt(r.statistic, 4)} (log-likelihood ratio), p = ${fmtP(num(r.p_value), nSim)}` : 'no circle holds more than expected', 'scan-p');
+    add('Strongest excess', clusters.length ? el('span', null, `strength ${fmt(r.statistic, 4)} (`, C.term('llr', 'log-likelihood ratio'), `), p = ${fmtP(num(r.p_value), nSim)}`) : 'no circle holds more than expected', 'scan-p');
     add('Chance runs, seed', `${fmt(nSim)}, seed ${String(r.seed)}`, 'scan-seed');
     scanOut.append(dl);
     if (!clusters.length) return;
