@@ -47,14 +47,22 @@ pub struct Verdict {
     pub caveats: Vec<String>,
 }
 
+/// A distance as the page's tables write it: no trailing zeros ("0 m", not
+/// "0.000 m").
 fn fmt_m(v: f64) -> String {
-    if v >= 100.0 {
-        format!("{v:.0} m")
+    let text = if v >= 100.0 {
+        format!("{v:.0}")
     } else if v >= 1.0 {
-        format!("{v:.1} m")
+        format!("{v:.1}")
     } else {
-        format!("{v:.3} m")
-    }
+        format!("{v:.3}")
+    };
+    let text = if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    };
+    format!("{text} m")
 }
 
 fn fmt_p(p: f64) -> String {
@@ -196,7 +204,7 @@ pub(crate) fn verdict_for(
 
 #[cfg(test)]
 mod tests {
-    use super::plain_list;
+    use super::{fmt_m, plain_list};
 
     #[test]
     fn test_plain_list() {
@@ -208,5 +216,14 @@ mod tests {
             "45 m to 1.1 km and about 1.2 km"
         );
         assert_eq!(plain_list(&s(&["a", "b", "c"])), "a, b and c");
+    }
+
+    #[test]
+    fn distances_written_without_trailing_zeros() {
+        assert_eq!(fmt_m(0.0), "0 m");
+        assert_eq!(fmt_m(0.25), "0.25 m");
+        assert_eq!(fmt_m(12.0), "12 m");
+        assert_eq!(fmt_m(12.34), "12.3 m");
+        assert_eq!(fmt_m(250.4), "250 m");
     }
 }
