@@ -88,3 +88,12 @@ export function errorText(err) {
   }
   return msg;
 }
+
+/** The one pattern of the page's downloads (the engine names its exports the
+ * same way): cloister-<what>-<today>[-seed<seed>].<ext>, today in local time. */
+export function downloadName(what, ext, seed) {
+  const d = new Date();
+  const day = `${d.getFullYear()}-${String(d.getMonth() + 1).padStart(2, '0')}-${String(d.getDate()).padStart(2, '0')}`;
+  const s = seed === undefined || seed === null ? '' : `-seed${seed}`;
+  return `cloister-${what}-${day}${s}.${ext}`;
+}

@@ -1,7 +1,7 @@
 /* What an analysis panel (www/analyses/*.js) may use of the page; each
  * panel's mount function receives this object. See www/README.md. */
 
-import { $, el, fmt, fmtFixed, fmtMetres, plural } from './dom.js';
+import { $, el, fmt, fmtFixed, fmtMetres, plural, downloadName } from './dom.js';
 import { state } from './state.js';
 import { paramSpec } from './param-limits.js';
 import { term } from './glossary.js';
@@ -22,6 +22,7 @@ export const panelApi = {
   fmtFixed,
   fmtMetres,
   plural,
+  downloadName,
   setStatus,
   /** Shows an error; a request the user cancelled is not one. */
   showError(context, err) {

@@ -155,6 +155,26 @@ impl crate::params::Params for ExportRequest {
     }
 }
 
+/// The one pattern of every file the tool writes: `cloister-<what>-<date>.<ext>`,
+/// the date being the first ten characters of `created` when they are a
+/// date (YYYY-MM-DD), else left out. (The page names its own downloads the
+/// same way, adding `-seed<seed>` where a seed makes the file reproducible.)
+pub fn download_name(what: &str, created: &str, ext: &str) -> String {
+    let date = created.get(..10).filter(|d| {
+        let b = d.as_bytes();
+        b.len() == 10
+            && b[4] == b'-'
+            && b[7] == b'-'
+            && b.iter()
+                .enumerate()
+                .all(|(i, c)| i == 4 || i == 7 || c.is_ascii_digit())
+    });
+    match date {
+        Some(d) => format!("cloister-{what}-{d}.{ext}"),
+        None => format!("cloister-{what}.{ext}"),
+    }
+}
+
 /// What to export.
 #[derive(Debug, Clone, Copy)]
 pub enum ExportContent<'a> {
@@ -586,7 +606,7 @@ pub fn export(
     };
     Ok(ExportFile {
         text,
-        file_name: format!("{stem}.{ext}"),
+        file_name: download_name(stem, &opts.created, ext),
         mime: mime.into(),
         preview,
     })
@@ -656,4 +676,22 @@ fn table_csv(
         t.outside.is_none()
     ));
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::download_name;
+
+    #[test]
+    fn download_names_follow_one_pattern() {
+        assert_eq!(
+            download_name("masked-points", "2026-03-04T10:00:00Z", "csv"),
+            "cloister-masked-points-2026-03-04.csv"
+        );
+        assert_eq!(download_name("report", "", "html"), "cloister-report.html");
+        assert_eq!(
+            download_name("report", "not a date", "html"),
+            "cloister-report.html"
+        );
+    }
 }

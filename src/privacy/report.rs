@@ -654,7 +654,7 @@ pub fn report_file(
     let rows = st.table.map_or(0, |t| t.table.cells.len());
     Ok(ReportFile {
         text: html,
-        file_name: "sharing-report.html".into(),
+        file_name: super::export::download_name("sharing-report", created, "html"),
         mime: "text/html".into(),
         preview: ReportPreview {
             content: "report",
@@ -781,7 +781,7 @@ mod tests {
             assert!(html.contains(&esc(c)), "caution missing: {c}");
         }
         assert!(html.contains("Clark–Evans R") && !html.contains("Counts hidden"));
-        assert_eq!(f.file_name, "sharing-report.html");
+        assert_eq!(f.file_name, "cloister-sharing-report-2026-01-02.html");
         assert_eq!(f.mime, "text/html");
         assert_eq!(
             f.preview.fields,

@@ -84,7 +84,7 @@ test('envelope run on the demo: chart drawn, verdict "clustered", CSV and PNG sa
   const [csvDl] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#clu-csv'))]);
   const csvPath = join(out, 'clustering-envelope.csv');
   await csvDl.saveAs(csvPath);
-  assert.match(csvDl.suggestedFilename(), /^cloister-envelope-k-19sims-seed777\.csv$/);
+  assert.match(csvDl.suggestedFilename(), /^cloister-envelope-k-19sims-\d{4}-\d{2}-\d{2}-seed777\.csv$/);
   const lines = readFileSync(csvPath, 'utf8').trim().split(/\r?\n/);
   assert.equal(lines[0], 'r_m,observed,csr,global_low,global_high,pointwise_low,pointwise_high,simulation_mean');
   assert.equal(lines.length, 52, '51 distances + header');

@@ -72,7 +72,7 @@ test('surface on the map, isopleths exported; DBSCAN hulls and table', async () 
 
   // Export: a download made in the page, valid GeoJSON with polygons in lon/lat.
   const [download] = await Promise.all([page.waitForEvent('download'), page.click('#hs-export')]);
-  assert.equal(download.suggestedFilename(), 'hotspot-isopleths.geojson');
+  assert.match(download.suggestedFilename(), /^cloister-isopleths-\d{4}-\d{2}-\d{2}\.geojson$/);
   const gj = JSON.parse(readFileSync(await download.path(), 'utf8'));
   assert.equal(gj.type, 'FeatureCollection');
   assert.equal(gj.features.length, 3);

@@ -136,7 +136,7 @@ test('mask, count, preview and save: the report opens offline with no request an
   assert.match(preview, /Masking seed\s*not written/);
   await page.locator('#sharing').screenshot({ path: join(out, 'sharing-panel.png') });
   const [dl] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#share-save'))]);
-  assert.equal(dl.suggestedFilename(), 'sharing-report.html');
+  assert.match(dl.suggestedFilename(), /^cloister-sharing-report-\d{4}-\d{2}-\d{2}\.html$/);
   const reportPath = join(out, 'sharing-report.html');
   await dl.saveAs(reportPath);
 

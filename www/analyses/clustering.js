@@ -348,21 +348,21 @@ export function mountClustering(C) {
     return lines.join('\r\n') + '\r\n';
   }
 
-  const baseName = (res) => `cloister-envelope-${res.function}-${res.n_sim}sims-seed${res.seed}`;
+  const fileName = (res, ext) => C.downloadName(`envelope-${res.function}-${res.n_sim}sims`, ext, res.seed);
 
   function saveCsv() {
     const res = state.result;
     if (!res) return;
-    download(new Blob([csvText(res)], { type: 'text/csv;charset=utf-8' }), `${baseName(res)}.csv`);
-    setStatus(`Saved ${baseName(res)}.csv.`);
+    download(new Blob([csvText(res)], { type: 'text/csv;charset=utf-8' }), fileName(res, 'csv'));
+    setStatus(`Saved ${fileName(res, 'csv')}.`);
   }
 
   async function savePng() {
     const res = state.result;
     if (!res) return;
     const blob = await new Promise((resolve, reject) => $('clu-chart').toBlob((b) => (b ? resolve(b) : reject({ message: 'the picture could not be made' })), 'image/png'));
-    download(blob, `${baseName(res)}.png`);
-    setStatus(`Saved ${baseName(res)}.png.`);
+    download(blob, fileName(res, 'png'));
+    setStatus(`Saved ${fileName(res, 'png')}.`);
   }
 
   // ---------- quadrat and Clark–Evans ----------

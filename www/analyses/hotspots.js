@@ -245,12 +245,13 @@ export function mountHotspots(C) {
       const text = await C.call('isoplethsGeoJson', [0.5, 0.75, 0.95]);
       const blob = new Blob([text], { type: 'application/geo+json' });
       const url = URL.createObjectURL(blob);
-      const a = el('a', { href: url, download: 'hotspot-isopleths.geojson' });
+      const name = C.downloadName('isopleths', 'geojson');
+      const a = el('a', { href: url, download: name });
       document.body.append(a);
       a.click();
       a.remove();
       setTimeout(() => URL.revokeObjectURL(url), 10000);
-      C.setStatus('Isopleths saved as hotspot-isopleths.geojson (made on this computer; nothing was sent).');
+      C.setStatus(`Isopleths saved as ${name} (made on this computer; nothing was sent).`);
     } catch (err) {
       C.showError('Could not export the isopleths', err);
     }

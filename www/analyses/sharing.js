@@ -635,8 +635,9 @@ export function mountSharing(C) {
     ctx.drawImage(map, 0, 0);
     drawLegend(ctx, legend, 12, map.height + 8, lh);
     const blob = await new Promise((resolve, reject) => out.toBlob((b) => (b ? resolve(b) : reject({ message: 'the picture could not be made' })), 'image/png'));
-    download(blob, 'cloister-shared-map.png');
-    setStatus('Saved cloister-shared-map.png.');
+    const name = C.downloadName('shared-map', 'png');
+    download(blob, name);
+    setStatus(`Saved ${name}.`);
   }
 
   function drawLegend(ctx, items, x, y, lh) {
