@@ -397,9 +397,8 @@ export function mountClustering(C) {
       ['p (simulated)', res.p_mc_two_sided === null ? 'not computed (0 simulations)' : `${pText(res.p_mc_two_sided)} two-sided; ${pText(res.p_mc_upper)} for clustering (${fmt(res.n_sim)} simulations, seed ${res.seed})`, 'p_mc'],
       [C.term('dispersion', 'Variance / mean of counts'), `${fmt(s.dispersion_index, 4)} (about 1 under chance; above 1 clustered, below 1 regular)`, 'dispersion'],
     ]);
-    const notes = [];
-    if (s.cells_below_5 > 0) notes.push(`${fmt(s.cells_below_5)} of ${fmt(s.expected.length)} cells expect fewer than 5 events: the chi-square p is unreliable, use the simulated p.`);
-    for (const w of res.warnings || []) if (!notes.includes(w)) notes.push(w);
+    // The engine's warnings say it once (the small-expected-count warning among them).
+    const notes = Array.from(res.warnings || []);
     out.replaceChildren(d, notes.length ? el('ul', { class: 'clu-warnings', id: 'clu-quad-warnings' }, ...notes.map((n) => el('li', null, n))) : '');
     out.dataset.ready = '1';
   }
