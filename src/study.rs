@@ -236,7 +236,11 @@ fn place_layer(
             xs.push(e);
             ys.push(no);
         } else {
-            let mut value = format!("{}, {}", layer.x[i], layer.y[i]);
+            // Say which number is which (a swapped pair is a common cause).
+            let mut value = match layer.coords {
+                CoordKind::LonLat => format!("lon {}, lat {}", layer.x[i], layer.y[i]),
+                CoordKind::Planar { .. } => format!("x {}, y {}", layer.x[i], layer.y[i]),
+            };
             if value.chars().count() > 60 {
                 value = value.chars().take(60).collect();
             }
@@ -565,7 +569,7 @@ mod tests {
         let out = &s.event_rejections[1];
         assert_eq!(out.reason, RejectReason::OutsideStudyArea);
         assert_eq!(out.column, None);
-        assert_eq!(out.value, "5, 5");
+        assert_eq!(out.value, "x 5, y 5", "which number is which");
         assert_eq!(
             s.events.len() + s.event_rejections.len(),
             s.events_rows_read as usize
