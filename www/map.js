@@ -68,10 +68,19 @@ export class PointMap {
     this.redraw();
   }
 
-  /** Legend entries of all overlays. */
+  /** The overlay that hides everything else (the sharing view's "only what
+   * would be shared"), or null: while it is set no other layer or overlay is
+   * drawn or listed, so a picture of the map holds only what it shows. */
+  exclusiveOverlay() {
+    for (const [name, o] of this.overlays || []) if (o.legend.some((item) => item.hidesBase)) return name;
+    return null;
+  }
+
+  /** Legend entries of the overlays that are drawn. */
   overlayLegend() {
+    const only = this.exclusiveOverlay();
     const out = [];
-    for (const [, o] of this.overlays || []) out.push(...o.legend);
+    for (const [name, o] of this.overlays || []) if (!only || name === only) out.push(...o.legend);
     return out;
   }
 
@@ -326,7 +335,9 @@ export class PointMap {
     // Analysis overlays (surfaces, clusters, circles, masked points), in the
     // order they were added; each draws in device pixels.
     const geo = { toX: (x) => ox + x * k, toY: (y) => oy - y * k, k, dpr, W, H };
+    const only = this.exclusiveOverlay();
     for (const [name, o] of this.overlays) {
+      if (only && name !== only) continue;
       ctx.save();
       try { o.draw(ctx, geo); } catch (err) { console.error(`overlay ${name}:`, err); }
       ctx.restore();

@@ -71,9 +71,15 @@ test('mask, count, preview and save: the report opens offline with no request an
   assert.equal(await page.isDisabled('[data-export="map_png:png"]'), true);
   const baseItems = await page.$$eval('#legend li', (lis) => lis.filter((li) => li.querySelector('.sw.dot, .sw.control, .sw.centre, .sw.ellipse')).map((li) => li.textContent));
   assert.ok(baseItems.length > 0, 'the original layers are in the legend');
+  // A hotspot overlay drawn from the original points (DBSCAN hulls).
+  await page.fill('#hs-eps', '150');
+  await act(page, () => page.click('#hs-dbscan-run'));
+  assert.match(await page.textContent('#legend'), /Density clusters/);
   await page.check('#share-only');
   await frame(page);
   await frame(page);
+  // While only what would be shared is drawn, other overlays are neither drawn nor listed.
+  assert.doesNotMatch(await page.textContent('#legend'), /Density clusters/);
   const onlyShared = await canvasCensus(page, ['#1b1b1b', ...pal.categories, pal.control]);
   assert.ok(onlyShared.counts[0] > 200, 'masked circles still drawn');
   assert.equal(onlyShared.counts.slice(1).reduce((a, b) => a + b, 0), 0, 'no original point or control pixel left on the map');
