@@ -622,7 +622,7 @@ export function mountHotspots(C) {
         ctx.setLineDash([]);
       }, [
         { label: 'Scan: strongest circle', colour: SCAN_MAIN, kind: 'line' },
-        { label: 'Scan: next circles with p < 0.05 (dashed)', colour: SCAN_OTHER, kind: 'line' },
+        { label: 'Scan: next circles with p < 0.05', colour: SCAN_OTHER, kind: 'dash' },
       ]);
     } else {
       C.setOverlay('hotspots-scan', null);
