@@ -75,7 +75,7 @@ const CASES = {
 // Session methods that take no options object (positional arguments only,
 // checked below where they are numbers).
 const NO_OPTIONS = new Set([
-  'constructor', 'free', 'clearControls', 'clearArea', 'setAreaFallback', 'study', 'summary',
+  'constructor', 'free', 'clearAll', 'clearControls', 'clearArea', 'setAreaFallback', 'study', 'summary',
   'mapLayers', 'rejections', 'envelopeStep', 'envelopeFinish', 'envelopeShare', 'envelopeHelperStart',
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
   'scanFinish', 'maskResult', 'sharingCautions',
