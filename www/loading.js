@@ -18,6 +18,17 @@ function loadDone() {
   document.body.dataset.loads = String(Number(document.body.dataset.loads || 0) + 1);
 }
 
+/** An events file the user chose (input or drop). While the demo is open it
+ * is closed first, so one's own events never mix with the demo's study area
+ * and population. */
+export async function loadOwnEvents(bytes, name) {
+  if (state.demo) {
+    if (!(await forgetAll())) return false;
+    await refresh(false);
+  }
+  return loadEvents(bytes, name, {});
+}
+
 export async function loadEvents(bytes, name, options, opts = {}) {
   try {
     return await loadEventsInner(bytes, name, options, opts);
@@ -45,7 +56,9 @@ async function loadEventsInner(bytes, name, options, { refreshAfter = true, fres
     warnIfMostlyOutside(name, report, bytes, options);
     return true;
   } catch (err) {
-    if (err && err.code === 'outside_study_area' && state.area && state.areaMode === 'file') {
+    // Events that cannot go with the loaded study area (all outside it, or
+    // in other coordinates): offer to drop the area.
+    if (err && (err.code === 'outside_study_area' || err.code === 'mismatch') && state.area && state.areaMode === 'file') {
       offerToDropArea(bytes, name, options, err);
       return false;
     }
@@ -225,6 +238,7 @@ export async function loadDemo() {
   // The demo replaces the whole session: the user's own files (and their
   // study area) must not mix with it.
   if (!(await forgetAll())) return;
+  state.demo = true;
   // Stop at the first failure: its message stays on screen.
   if (area && !(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
   if (!(await loadEvents(cases, 'cases.csv (demo)', {}, { refreshAfter: false }))) return;
@@ -250,6 +264,7 @@ export async function forgetAll() {
   state.reports = { events: null, controls: null, area: null };
   state.areaMode = 'convex_hull';
   state.mapLayer = 'events';
+  state.demo = false;
   for (const id of ['events-name', 'controls-name', 'area-name']) $(id).textContent = '';
   for (const id of ['events-file', 'controls-file', 'area-file']) $(id).value = '';
   $('show-controls').disabled = true;
@@ -264,9 +279,10 @@ export async function loadProblems() {
   const bytes = demoBytes('demo-problems');
   const area = demoBytes('demo-area');
   if (!bytes) return;
-  if (area && !(state.area && state.area.name === 'town-boundary.geojson (demo)' && state.areaMode === 'file')) {
-    if (!(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
-  }
+  // Like the demo, it replaces whatever was loaded.
+  if (!(await forgetAll())) return;
+  state.demo = true;
+  if (area && !(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
   if (!(await loadEvents(bytes, 'cases-with-problems.csv (demo)', {}, { refreshAfter: false }))) return;
   await refresh(false);
   setStatus(`Loaded a file with problems: ${statusCounts()}. See "Rows not used" under Data quality.`);

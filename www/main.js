@@ -10,7 +10,7 @@ import { state } from './state.js';
 import { setStatus, showError, clearError, act } from './status.js';
 import { startWorker, onEngineStopped, onHardCancel, cancelAll } from './engine.js';
 import { restartEngine, cancelByRestart } from './recovery.js';
-import { loadEvents, loadArea, loadControls, clearControls, setAreaMode, loadDemo, loadProblems, mappingChanged, readFile, renderAreaMode } from './loading.js';
+import { loadOwnEvents, loadArea, loadControls, clearControls, setAreaMode, loadDemo, loadProblems, mappingChanged, readFile, renderAreaMode } from './loading.js';
 import { showMapping } from './columns.js';
 import { PAGE_SIZE, loadRejections } from './results.js';
 import { map, createMap, renderLegend } from './mapview.js';
@@ -62,7 +62,7 @@ function wire() {
   window.addEventListener('dragover', (e) => e.preventDefault());
   window.addEventListener('drop', (e) => e.preventDefault());
 
-  wireFileInput('events-file', 'events-drop', (bytes, name) => loadEvents(bytes, name, {}));
+  wireFileInput('events-file', 'events-drop', (bytes, name) => loadOwnEvents(bytes, name));
   wireFileInput('area-file', 'area-drop', (bytes, name) => loadArea(bytes, name));
   wireFileInput('controls-file', 'controls-drop', (bytes, name) => loadControls(bytes, name));
   // Not through act(): Cancel must not wait behind the work it stops.

@@ -21,6 +21,7 @@ export const state = {
   area: null, // {bytes, name}
   areaMode: 'convex_hull',
   controls: null, // {bytes, name}
+  demo: false, // the demo is what is loaded (loading one's own events closes it)
   reports: { events: null, controls: null, area: null },
   snap: null,
   rej: { layer: 'events', offset: 0, total: 0 },

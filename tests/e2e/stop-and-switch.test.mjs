@@ -4,7 +4,8 @@
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
-import { launch, openPage, loadDemo, act, settle, summaryNumber, FIXTURES, OUT } from './helpers.mjs';
+import { readFileSync } from 'node:fs';
+import { launch, openPage, loadDemo, act, settle, summaryNumber, FIXTURES, OUT, DEMO_DIR } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
@@ -19,24 +20,37 @@ function uniformCsv(n, seed = 12345) {
   return Buffer.from(lines.join('\n'));
 }
 
-test('own events after the demo: said plainly, the demo area can be dropped; the demo after own events replaces them', async () => {
+test('own events after the demo close the demo; events outside one\'s own study area are said plainly, and the area can be dropped', async () => {
   const { page, log } = await openPage(browser);
   await loadDemo(page);
-  // A small planar file of another place: every point lies outside the demo's boundary.
+  // One's own (planar) file after the demo: the demo's area and population go with it.
   await act(page, () => page.setInputFiles('#events-file', join(FIXTURES, 'user-points.csv')));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'n_events'), 9);
+  assert.equal(await page.textContent('#area-name'), '');
+  assert.equal(await page.textContent('#controls-name'), '');
+  // One's own lon/lat events and boundary, then events of another place: all outside it.
+  const lines = readFileSync(join(DEMO_DIR, 'cases.csv'), 'utf8').trim().split(/\r?\n/);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'cases.csv', mimeType: 'text/csv', buffer: Buffer.from(lines.join('\n')) }));
+  await act(page, () => page.setInputFiles('#area-file', { name: 'my-area.geojson', mimeType: 'application/geo+json', buffer: readFileSync(join(DEMO_DIR, 'town-boundary.geojson')) }));
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  assert.equal(await summaryNumber(page, 'n_events'), 1500);
+  const lon = lines[0].split(',').indexOf('longitude');
+  const moved = [lines[0], ...lines.slice(1).map((l) => { const f = l.split(','); f[lon] = String(Number(f[lon]) + 2); return f.join(','); })].join('\n');
+  await act(page, () => page.setInputFiles('#events-file', { name: 'elsewhere.csv', mimeType: 'text/csv', buffer: Buffer.from(moved) }));
   assert.equal(await page.isVisible('#error-banner'), true);
   const text = await page.textContent('#error-text');
-  assert.match(text, /does not fit the study area/);
+  assert.match(text, /elsewhere\.csv does not fit the study area my-area\.geojson/);
   assert.match(text, /lie outside the study area that is loaded now/);
   assert.doesNotMatch(text, /none of the .* rows could be used/);
-  assert.equal(await summaryNumber(page, 'n_events'), 1500, 'the demo is still loaded');
+  assert.equal(await summaryNumber(page, 'n_events'), 1500, 'the previous events are still loaded');
   assert.equal(await page.isVisible('#error-action'), true);
   assert.match(await page.textContent('#error-action'), /Drop that study area/);
   await page.screenshot({ path: join(OUT, 'switch-outside-area.png') });
   await act(page, () => page.click('#error-action'));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
-  assert.equal(await summaryNumber(page, 'n_events'), 9);
-  assert.match(await page.textContent('#events-name'), /user-points\.csv/);
+  assert.equal(await summaryNumber(page, 'n_events'), 1500);
+  assert.match(await page.textContent('#events-name'), /elsewhere\.csv/);
   assert.equal(await page.isChecked('#area-mode-hull'), true);
   // And the demo again, straight after: it replaces the whole session.
   await loadDemo(page);

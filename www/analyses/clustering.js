@@ -216,7 +216,7 @@ export function mountClustering(C) {
     const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, confirm_above_ms: CONFIRM_ABOVE_MS, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, ({ done, total, workers, waiting, estimate_ms: est, start_ms: one }) => {
       if (token !== state.runToken) return;
       if (waiting) {
-        $('clu-estimate-text').textContent = `This run will take about ${duration(est)}: one curve took ${duration(one)} ` +
+        $('clu-estimate-text').textContent = `This run will take ${duration(est)}: one curve took ${duration(one)} ` +
           `with ${fmt(C.snapshot() && C.snapshot().study ? C.snapshot().study.events : 0)} events, and ${fmt(total)} simulations follow` +
           `${workers > 1 ? ` on ${fmt(workers)} workers` : ''}.`;
         $('clu-estimate').hidden = false;
