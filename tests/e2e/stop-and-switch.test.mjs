@@ -95,6 +95,10 @@ test('Cancel stops a long single step (bandwidth cross-validation, 200,000 event
   await page.click('#hs-surface-run');
   await page.waitForSelector('#busy', { state: 'visible', timeout: 60000 });
   assert.match(await page.textContent('#busy-text'), /computing the surface/);
+  // The working line stays in view wherever the page is scrolled.
+  assert.equal(await page.locator('#busy-cancel').isVisible(), true);
+  const box = await page.locator('#busy-cancel').boundingBox();
+  assert.ok(box && box.y >= 0 && box.y < 80, `Cancel at y = ${box && box.y}`);
   await page.screenshot({ path: join(OUT, 'cancel-busy.png') });
   const ms = await cancelAndTime(page);
   assert.ok(ms < 500, `Cancel took ${ms.toFixed(0)} ms`);

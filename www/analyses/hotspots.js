@@ -50,6 +50,11 @@ export function mountHotspots(C) {
     const id = inner ? inner.id : null;
     return el('div', { class: 'hs-field' }, el('label', { for: id }, label), control, hint ? el('span', { class: 'hint' }, hint) : null);
   }
+  /** A field on a row of its own, so a long choice is not cut off. */
+  function wide(node) {
+    node.classList.add('hs-wide');
+    return node;
+  }
   function input(id, attrs) {
     return el('input', { id, ...attrs });
   }
@@ -112,7 +117,7 @@ export function mountHotspots(C) {
     el('div', { class: 'hs-form' },
       field('Kernel', kernelSel),
       kernelHint,
-      field('Bandwidth', el('span', { class: 'hs-inline' }, methodSel, fixedIn, el('span', { class: 'hint' }, 'm'))),
+      wide(field('Bandwidth', el('span', { class: 'hs-inline' }, methodSel, fixedIn, el('span', { class: 'hint' }, 'm')))),
       field('Grid cells', cellsSel, 'along the area\u2019s longer side; more when the bandwidth is small'),
       el('label', { class: 'check' }, edgeBox, ' Correct for the edge of the study area (Jones–Diggle: every event keeps its whole mound inside)'),
       el('label', { class: 'check', id: 'hs-weights-label' }, weightBox, ' Weight each event by its count column')),
