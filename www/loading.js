@@ -22,11 +22,12 @@ function loadDone() {
  * is closed first, so one's own events never mix with the demo's study area
  * and population. */
 export async function loadOwnEvents(bytes, name) {
-  if (state.demo) {
-    if (!(await forgetAll())) return false;
-    await refresh(false);
+  if (!state.demo) return loadEvents(bytes, name, {});
+  try {
+    return await loadEventsInner(bytes, name, {}, { afresh: true });
+  } finally {
+    loadDone();
   }
-  return loadEvents(bytes, name, {});
 }
 
 export async function loadEvents(bytes, name, options, opts = {}) {
@@ -37,10 +38,13 @@ export async function loadEvents(bytes, name, options, opts = {}) {
   }
 }
 
-async function loadEventsInner(bytes, name, options, { refreshAfter = true, fresh = true } = {}) {
+async function loadEventsInner(bytes, name, options, { refreshAfter = true, fresh = true, afresh = false } = {}) {
   setStatus(`Reading ${name}…`);
   try {
-    const report = await call('loadEvents', bytes, options);
+    // afresh: the engine reads the file into an empty session and keeps it
+    // only if that worked, so a bad file leaves the demo as it was.
+    const report = await call(afresh ? 'loadEventsAfresh' : 'loadEvents', bytes, options);
+    if (afresh) forgetPage();
     state.events = { bytes, name, options };
     if (state.pendingFile && state.pendingFile.layer === 'events') state.pendingFile = null;
     if (fresh) state.mapLayer = 'events';
@@ -257,6 +261,12 @@ export async function forgetAll() {
     if (!(err && err.code === 'engine_stopped')) showError('Could not start afresh', err);
     return false;
   }
+  forgetPage();
+  return true;
+}
+
+/** The page's side of forgetting everything (the engine's is clearAll). */
+function forgetPage() {
   state.events = null;
   state.area = null;
   state.controls = null;
@@ -271,7 +281,6 @@ export async function forgetAll() {
   $('controls-clear').disabled = true;
   showMapping();
   renderAreaMode();
-  return true;
 }
 
 export async function loadProblems() {

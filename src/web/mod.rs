@@ -539,6 +539,22 @@ impl Session {
         }
     }
 
+    /// Reads an events file that replaces everything loaded (events, study
+    /// area, controls, results), as when one's own file follows the demo:
+    /// the file is read into a fresh session, which takes this one's place
+    /// only if the reading succeeded; on failure nothing changes.
+    #[wasm_bindgen(js_name = loadEventsAfresh, unchecked_return_type = "LoadReport")]
+    pub fn load_events_afresh(
+        &mut self,
+        bytes: &[u8],
+        #[wasm_bindgen(unchecked_param_type = "LoadEventsOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let mut fresh = Session::new();
+        let report = fresh.load_events(bytes, options)?;
+        *self = fresh;
+        Ok(report)
+    }
+
     /// Reads a controls / population-at-risk file (same formats as events).
     #[wasm_bindgen(js_name = loadControls, unchecked_return_type = "LoadReport")]
     pub fn load_controls(

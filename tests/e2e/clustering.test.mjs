@@ -130,6 +130,9 @@ test('a long run can be cancelled and the page recovers', async () => {
   await loadDemo(page);
   await page.fill('#clu-nsim', '9999');
   await page.click('#clu-run');
+  // So many simulations take long: the page asks first (the estimate), then runs.
+  await page.waitForSelector('#clu-estimate', { state: 'visible', timeout: 60000 });
+  await page.click('#clu-estimate-go');
   await page.waitForFunction(() => Number(document.getElementById('clu-progress').value) > 0, null, { timeout: 60000 });
   assert.equal(await page.getAttribute('#clustering-body', 'data-run'), 'running');
   assert.equal(await page.isDisabled('#clu-run'), true);

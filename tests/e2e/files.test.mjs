@@ -78,7 +78,9 @@ test('the file with problems lists its rejected rows, and rows read = used + not
     const [, column, reason, value] = shown[i];
     const single = /^[a-z_]+$/.test(e.column) ? e.column : '—';
     assert.equal(column, single, `column of row ${e.row}`);
-    if (e.column !== '(row)') assert.equal(value, e.value === '' ? '(empty)' : e.value, `value of row ${e.row}`);
+    // Rows outside the study area name their numbers (longitude first).
+    const want = e.stage === 'study area' ? `lon ${e.value.split(', ')[0]}, lat ${e.value.split(', ')[1]}` : e.value;
+    if (e.column !== '(row)') assert.equal(value, e.value === '' ? '(empty)' : want, `value of row ${e.row}`);
     assert.equal(/outside the study area/.test(reason), e.stage === 'study area', `reason of row ${e.row}: ${reason}`);
   }
   const range = await page.textContent('#rej-range');

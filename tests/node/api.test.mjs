@@ -177,3 +177,20 @@ test('clearAll forgets the events, the study area, the controls and kept results
   const r = s.loadEvents(new TextEncoder().encode('x,y\n500000,200000\n500100,200050\n500040,200120\n'), { coords: { kind: 'planar', unit: 'metre' } });
   assert.equal(r.accepted, 3);
 });
+
+test('loadEventsAfresh replaces everything only when the file reads', () => {
+  const s = new Session();
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  s.loadControls(file('demo-data/population.csv'), {});
+  // A bad file: nothing changes.
+  assert.throws(() => s.loadEventsAfresh(new Uint8Array([0x89, 0x50, 0x4e, 0x47, 0, 0, 1, 2]), {}), (e) => e.code === 'binary');
+  assert.equal(s.summary().n_events, 1500);
+  assert.ok(s.study().controls > 0, 'the population is still loaded');
+  assert.equal(s.study().area_origin, 'file');
+  // A planar file that would not fit the lon/lat boundary: read alone, without it.
+  const r = s.loadEventsAfresh(new TextEncoder().encode('x,y\n500000,200000\n500100,200050\n500040,200120\n'), { coords: { kind: 'planar', unit: 'metre' } });
+  assert.equal(r.accepted, 3);
+  assert.equal(s.study().area_origin, 'convex_hull');
+  assert.equal(s.study().controls, null);
+});

@@ -84,6 +84,7 @@ export function runScenario() {
   record('clearControls', '', s.clearControls());
   record('setAreaFallback', 'bounding box', s.setAreaFallback('bounding_box'));
   record('clearArea', '', s.clearArea());
+  record('loadEventsAfresh', 'cases.csv', s.loadEventsAfresh(file('demo-data/cases.csv'), {}));
   record('clearAll', '', s.clearAll());
   s.free();
 

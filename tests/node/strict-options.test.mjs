@@ -56,6 +56,7 @@ function assertRange(e, name, value) {
 // misspelt key, and names the message must list.
 const CASES = {
   loadEvents: { call: (s, o) => s.loadEvents(file('demo-data/cases.csv'), o), bad: { date_ordre: 'day_month_year' }, key: 'date_ordre', valid: ['date_order', 'mapping', 'coords'] },
+  loadEventsAfresh: { call: (s, o) => s.loadEventsAfresh(file('demo-data/cases.csv'), o), bad: { date_ordre: 'day_month_year' }, key: 'date_ordre', valid: ['date_order', 'mapping', 'coords'] },
   loadControls: { call: (s, o) => s.loadControls(file('demo-data/population.csv'), o), bad: { mappng: {} }, key: 'mappng', valid: ['mapping'] },
   loadArea: { call: (s, o) => s.loadArea(file('demo-data/town-boundary.geojson'), o), bad: { coord: { kind: 'lon_lat' } }, key: 'coord', valid: ['coords'] },
   quadratTest: { call: (s, o) => s.quadratTest(o), bad: { n_x: 4 }, key: 'n_x', valid: ['nx', 'ny', 'n_sim', 'seed'] },
