@@ -56,7 +56,7 @@ function assertRange(e, name, value) {
 // misspelt key, and names the message must list.
 const CASES = {
   loadEvents: { call: (s, o) => s.loadEvents(file('demo-data/cases.csv'), o), bad: { date_ordre: 'day_month_year' }, key: 'date_ordre', valid: ['date_order', 'mapping', 'coords'] },
-  loadEventsAfresh: { call: (s, o) => s.loadEventsAfresh(file('demo-data/cases.csv'), o), bad: { date_ordre: 'day_month_year' }, key: 'date_ordre', valid: ['date_order', 'mapping', 'coords'] },
+  loadEventsAfresh: { spec: 'loadEvents', call: (s, o) => s.loadEventsAfresh(file('demo-data/cases.csv'), o), bad: { date_ordre: 'day_month_year' }, key: 'date_ordre', valid: ['date_order', 'mapping', 'coords'] },
   loadControls: { call: (s, o) => s.loadControls(file('demo-data/population.csv'), o), bad: { mappng: {} }, key: 'mappng', valid: ['mapping'] },
   loadArea: { call: (s, o) => s.loadArea(file('demo-data/town-boundary.geojson'), o), bad: { coord: { kind: 'lon_lat' } }, key: 'coord', valid: ['coords'] },
   quadratTest: { call: (s, o) => s.quadratTest(o), bad: { n_x: 4 }, key: 'n_x', valid: ['nx', 'ny', 'n_sim', 'seed'] },
@@ -232,7 +232,7 @@ test('parameterSpec: one list of names, units, defaults and limits, matching wha
   // Every key a misspelt-key message lists is in the spec, and back.
   const s = demo();
   for (const [name, c] of Object.entries(CASES)) {
-    const spec = parameterSpec(name);
+    const spec = parameterSpec(c.spec || name);
     if (c.needsMask && !s.maskResult()) s.maskDonut({ seed: 9 });
     const msg = throws(() => c.call(s, c.bad)).message;
     for (const f of spec.fields) assert.ok(msg.includes(f.name), `${name}: ${f.name} listed`);
