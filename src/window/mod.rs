@@ -39,7 +39,10 @@
 //! O(all edges). Windows with at most 64 edges use a single band.
 
 pub mod geometry;
+mod grid;
 pub mod hull;
+
+use grid::EdgeGrid;
 
 pub use hull::convex_hull;
 
@@ -78,169 +81,6 @@ impl Edge {
     }
 }
 
-/// Edges grouped by horizontal band (compressed rows: the edges of band `k`
-/// are `items[start[k]..start[k + 1]]`, copies in increasing edge order so
-/// that one band is contiguous in memory).
-#[derive(Debug, Clone, PartialEq)]
-struct Bands {
-    y0: f64,
-    h: f64,
-    start: Vec<u32>,
-    items: Vec<Edge>,
-}
-
-impl Bands {
-    fn count(&self) -> usize {
-        self.start.len() - 1
-    }
-    fn band_of(&self, y: f64) -> usize {
-        let k = ((y - self.y0) / self.h).floor();
-        if k.is_nan() || k < 0.0 {
-            0
-        } else {
-            (k as usize).min(self.count() - 1)
-        }
-    }
-}
-
-/// Edges bucketed in a square grid for distance queries: the edges whose
-/// bounding box meets cell c are `idx[start[c]..start[c + 1]]`; edges whose
-/// box would cover more than 16 cells are kept in `long` and always scanned.
-#[derive(Debug, Clone, PartialEq)]
-struct EdgeGrid {
-    x0: f64,
-    y0: f64,
-    cell: f64,
-    nx: usize,
-    ny: usize,
-    start: Vec<u32>,
-    idx: Vec<u32>,
-    long: Vec<u32>,
-}
-
-impl EdgeGrid {
-    fn build(edges: &[Edge], bbox: [f64; 4]) -> Option<EdgeGrid> {
-        if edges.len() <= 64 {
-            return None;
-        }
-        let (w, h) = (bbox[2] - bbox[0], bbox[3] - bbox[1]);
-        let cell = (w * h / edges.len() as f64).sqrt().max(w.max(h) / 4096.0);
-        let nx = ((w / cell).floor() as usize + 1).min(4096);
-        let ny = ((h / cell).floor() as usize + 1).min(4096);
-        let mut g = EdgeGrid {
-            x0: bbox[0],
-            y0: bbox[1],
-            cell,
-            nx,
-            ny,
-            start: vec![0; nx * ny + 1],
-            idx: Vec::new(),
-            long: Vec::new(),
-        };
-        let mut spans = Vec::with_capacity(edges.len());
-        for (i, e) in edges.iter().enumerate() {
-            let (cx0, cx1) = (g.col(e.a[0].min(e.b[0])), g.col(e.a[0].max(e.b[0])));
-            let (cy0, cy1) = (g.row(e.a[1].min(e.b[1])), g.row(e.a[1].max(e.b[1])));
-            if (cx1 - cx0 + 1) * (cy1 - cy0 + 1) > 16 {
-                g.long.push(i as u32);
-                spans.push(None);
-                continue;
-            }
-            for cy in cy0..=cy1 {
-                for cx in cx0..=cx1 {
-                    g.start[cy * nx + cx + 1] += 1;
-                }
-            }
-            spans.push(Some((cx0, cx1, cy0, cy1)));
-        }
-        for c in 0..nx * ny {
-            g.start[c + 1] += g.start[c];
-        }
-        let mut fill: Vec<u32> = g.start[..nx * ny].to_vec();
-        g.idx = vec![0; g.start[nx * ny] as usize];
-        for (i, sp) in spans.iter().enumerate() {
-            if let Some((cx0, cx1, cy0, cy1)) = *sp {
-                for cy in cy0..=cy1 {
-                    for cx in cx0..=cx1 {
-                        let f = &mut fill[cy * nx + cx];
-                        g.idx[*f as usize] = i as u32;
-                        *f += 1;
-                    }
-                }
-            }
-        }
-        Some(g)
-    }
-    fn col(&self, x: f64) -> usize {
-        crate::index::cell_coord(x, self.x0, self.cell, self.nx)
-    }
-    fn row(&self, y: f64) -> usize {
-        crate::index::cell_coord(y, self.y0, self.cell, self.ny)
-    }
-    /// Smallest squared distance from (x, y) to any edge: long edges first,
-    /// then rings of cells around the point's cell until no unvisited cell
-    /// can hold a closer edge.
-    fn min_dist2(&self, edges: &[Edge], x: f64, y: f64) -> f64 {
-        let mut best = f64::INFINITY;
-        for &i in &self.long {
-            let e = &edges[i as usize];
-            best = best.min(seg_dist2(x, y, e.a, e.b));
-        }
-        let (cx, cy) = (self.col(x) as isize, self.row(y) as isize);
-        let (nx, ny) = (self.nx as isize, self.ny as isize);
-        let visit = |ix: isize, iy: isize, best: &mut f64| {
-            let c = iy as usize * self.nx + ix as usize;
-            for &i in &self.idx[self.start[c] as usize..self.start[c + 1] as usize] {
-                let e = &edges[i as usize];
-                let d2 = seg_dist2(x, y, e.a, e.b);
-                if d2 < *best {
-                    *best = d2;
-                }
-            }
-        };
-        let mut rho: isize = 0;
-        loop {
-            let (ylo, yhi) = ((cy - rho).max(0), (cy + rho).min(ny - 1));
-            let (xlo, xhi) = ((cx - rho).max(0), (cx + rho).min(nx - 1));
-            for iy in ylo..=yhi {
-                if iy == cy - rho || iy == cy + rho {
-                    for ix in xlo..=xhi {
-                        visit(ix, iy, &mut best);
-                    }
-                } else {
-                    if cx - rho >= 0 {
-                        visit(cx - rho, iy, &mut best);
-                    }
-                    if rho > 0 && cx + rho < nx {
-                        visit(cx + rho, iy, &mut best);
-                    }
-                }
-            }
-            let mut bound = f64::INFINITY;
-            if cx - rho > 0 {
-                bound = bound.min(x - (self.x0 + (cx - rho) as f64 * self.cell));
-            }
-            if cx + rho < nx - 1 {
-                bound = bound.min(self.x0 + (cx + rho + 1) as f64 * self.cell - x);
-            }
-            if cy - rho > 0 {
-                bound = bound.min(y - (self.y0 + (cy - rho) as f64 * self.cell));
-            }
-            if cy + rho < ny - 1 {
-                bound = bound.min(self.y0 + (cy + rho + 1) as f64 * self.cell - y);
-            }
-            if bound == f64::INFINITY {
-                return best;
-            }
-            let bound = bound.max(0.0);
-            if best <= bound * bound {
-                return best;
-            }
-            rho += 1;
-        }
-    }
-}
-
 /// A study area: polygons with holes, in metres.
 ///
 /// # Examples
@@ -265,10 +105,8 @@ pub struct Window {
     polygons: Vec<Vec<Vec<[f64; 2]>>>,
     origin: WindowOrigin,
     edges: Vec<Edge>,
-    bands: Bands,
-    /// Grid of edges for distance and near-edge queries (`None` for ≤ 64
-    /// edges, which are scanned).
-    grid: Option<EdgeGrid>,
+    /// Grid of edges for containment, distance and near-edge queries.
+    grid: EdgeGrid,
     /// `Some([x0, y0, x1, y1])` when the window is one axis-aligned rectangle.
     rect: Option<[f64; 4]>,
     area: f64,
@@ -458,42 +296,7 @@ impl Window {
         let extent = (bbox[2] - bbox[0]).max(bbox[3] - bbox[1]);
         let magnitude = bbox.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
         let tol = 1e-12 * extent.max(magnitude);
-        let nb = if edges.len() <= 64 {
-            1
-        } else {
-            (edges.len() / 2).clamp(1, 1 << 16)
-        };
-        let h = ((bbox[3] - bbox[1]) / nb as f64).max(f64::MIN_POSITIVE);
-        let mut bands = Bands {
-            y0: bbox[1],
-            h,
-            start: vec![0; nb + 1],
-            items: Vec::new(),
-        };
-        let span = |bands: &Bands, e: &Edge| {
-            let lo = bands.band_of(e.a[1].min(e.b[1]) - tol);
-            let hi = bands.band_of(e.a[1].max(e.b[1]) + tol);
-            (lo, hi)
-        };
-        for e in &edges {
-            let (lo, hi) = span(&bands, e);
-            for k in lo..=hi {
-                bands.start[k + 1] += 1;
-            }
-        }
-        for k in 0..nb {
-            bands.start[k + 1] += bands.start[k];
-        }
-        let mut fill: Vec<u32> = bands.start[..nb].to_vec();
-        bands.items = vec![edges[0]; bands.start[nb] as usize];
-        for e in &edges {
-            let (lo, hi) = span(&bands, e);
-            for f in &mut fill[lo..=hi] {
-                bands.items[*f as usize] = *e;
-                *f += 1;
-            }
-        }
-        let grid = EdgeGrid::build(&edges, bbox);
+        let grid = EdgeGrid::build(&edges, bbox, tol);
         // One ring of four axis-parallel edges that fills its bounding box.
         let rect = if polygons.len() == 1 && polygons[0].len() == 1 && edges.len() == 4 {
             let axis = edges.iter().all(|e| e.a[0] == e.b[0] || e.a[1] == e.b[1]);
@@ -506,7 +309,6 @@ impl Window {
             polygons,
             origin,
             edges,
-            bands,
             grid,
             rect,
             area,
@@ -611,37 +413,7 @@ impl Window {
         if !(x >= b[0] - t && x <= b[2] + t && y >= b[1] - t && y <= b[3] + t) {
             return false;
         }
-        let k = self.bands.band_of(y);
-        let list =
-            &self.bands.items[self.bands.start[k] as usize..self.bands.start[k + 1] as usize];
-        let t2 = t * t;
-        let mut poly = u32::MAX;
-        let mut odd = false;
-        for e in list {
-            if e.poly != poly {
-                if odd {
-                    return true;
-                }
-                poly = e.poly;
-                odd = false;
-            }
-            let (a, bb) = (e.a, e.b);
-            if x >= a[0].min(bb[0]) - t
-                && x <= a[0].max(bb[0]) + t
-                && y >= a[1].min(bb[1]) - t
-                && y <= a[1].max(bb[1]) + t
-                && seg_dist2(x, y, a, bb) <= t2
-            {
-                return true;
-            }
-            if (a[1] > y) != (bb[1] > y) {
-                let xi = a[0] + (y - a[1]) * (bb[0] - a[0]) / (bb[1] - a[1]);
-                if x < xi {
-                    odd = !odd;
-                }
-            }
-        }
-        odd
+        self.grid.contains(&self.edges, x, y, t)
     }
     /// Distance to the nearest boundary (outer rings and holes), whether the
     /// point is inside or outside; NaN for a non-finite point. Windows with
@@ -650,17 +422,7 @@ impl Window {
         if !(x.is_finite() && y.is_finite()) {
             return f64::NAN;
         }
-        if let Some(g) = &self.grid {
-            return g.min_dist2(&self.edges, x, y).sqrt();
-        }
-        let mut best = f64::INFINITY;
-        for e in &self.edges {
-            let d2 = seg_dist2(x, y, e.a, e.b);
-            if d2 < best {
-                best = d2;
-            }
-        }
-        best.sqrt()
+        self.grid.min_dist2(&self.edges, x, y).sqrt()
     }
     /// All boundary edges (outer rings and holes), directed so that the
     /// inside is on their left; indices are stable (ring order).
@@ -681,40 +443,7 @@ impl Window {
     /// edges a circle of radius r about the point can cross. Uses the edge
     /// grid when the window has more than 64 edges.
     pub fn edges_near(&self, x: f64, y: f64, r: f64) -> Vec<u32> {
-        let r2 = r * r;
-        let mut out = Vec::new();
-        match &self.grid {
-            None => {
-                for (k, e) in self.edges.iter().enumerate() {
-                    if e.distance_sq(x, y) <= r2 {
-                        out.push(k as u32);
-                    }
-                }
-                return out;
-            }
-            Some(g) => {
-                for &k in &g.long {
-                    if self.edges[k as usize].distance_sq(x, y) <= r2 {
-                        out.push(k);
-                    }
-                }
-                let (cx0, cx1) = (g.col(x - r), g.col(x + r));
-                let (cy0, cy1) = (g.row(y - r), g.row(y + r));
-                for cy in cy0..=cy1 {
-                    for cx in cx0..=cx1 {
-                        let c = cy * g.nx + cx;
-                        for &k in &g.idx[g.start[c] as usize..g.start[c + 1] as usize] {
-                            if self.edges[k as usize].distance_sq(x, y) <= r2 {
-                                out.push(k);
-                            }
-                        }
-                    }
-                }
-            }
-        }
-        out.sort_unstable();
-        out.dedup();
-        out
+        self.grid.edges_near(&self.edges, x, y, r)
     }
     /// One uniform point in the window: proposals uniform on the bounding
     /// box, kept when [`Window::contains`] is true (every proposal is kept
@@ -933,7 +662,7 @@ pub(crate) mod tests {
             })
             .collect();
         let w = Window::from_polygons(vec![vec![ring]], WindowOrigin::File).unwrap();
-        assert!(w.bands.count() > 1);
+        assert!(w.grid.nx * w.grid.ny > 1);
         let want = n as f64 / 2.0 * (2.0 * std::f64::consts::PI / n as f64).sin();
         assert!((w.area() - want).abs() < 1e-12);
         let mut rng = rng_from_seed(7);
@@ -964,7 +693,7 @@ pub(crate) mod tests {
             .collect();
         let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
         let w = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
-        assert!(w.grid.is_some());
+        assert!(w.grid.nx * w.grid.ny > 1);
         let edges = w.edges();
         let mut rng = rng_from_seed(5);
         for _ in 0..5000 {
@@ -1142,7 +871,7 @@ pub(crate) mod tests {
             .collect();
         let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
         let big = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
-        assert!(big.grid.is_some() && wh().grid.is_none());
+        assert!(big.grid.nx * big.grid.ny > 4 && wh().grid.nx * wh().grid.ny <= 4);
         let mut rng = rng_from_seed(6);
         for w in [big, wh()] {
             let [x0, y0, x1, y1] = w.bbox();
@@ -1171,6 +900,93 @@ pub(crate) mod tests {
             let (lx, ly) = (-dy / len * 0.01, dx / len * 0.01);
             assert!(w.contains(mx + lx, my + ly));
             assert!(!w.contains(mx - lx, my - ly));
+        }
+    }
+
+    /// A saw-tooth outline: base [0, n] at y = 0, then n teeth of height h
+    /// (apex at y = h, valleys at y = 1). Area n·(1 + (h − 1)/2).
+    pub fn saw_tooth(n: usize, h: f64) -> Vec<[f64; 2]> {
+        let mut r = vec![[0.0, 0.0], [n as f64, 0.0]];
+        for k in (0..n).rev() {
+            r.push([k as f64 + 1.0, 1.0]);
+            r.push([k as f64 + 0.5, h]);
+        }
+        r.push([0.0, 1.0]);
+        r
+    }
+
+    /// Even-odd over every edge, with the boundary tolerance: the plain ray
+    /// test the grid must agree with.
+    fn scan_contains(w: &Window, x: f64, y: f64) -> bool {
+        let t = w.boundary_tolerance();
+        let mut odd = false;
+        for e in w.edges() {
+            if e.distance_sq(x, y) <= t * t {
+                return true;
+            }
+            let (a, b) = (e.a, e.b);
+            if (a[1] > y) != (b[1] > y) && x < a[0] + (y - a[1]) * (b[0] - a[0]) / (b[1] - a[1]) {
+                odd = !odd;
+            }
+        }
+        odd
+    }
+
+    /// The grid's containment agrees with a scan of every edge on a
+    /// saw-tooth (long thin teeth, integer and half-integer corners) and on
+    /// the wiggly hole, at random points and at points on the integer and
+    /// half-integer lattice (through corners and along grid-aligned lines).
+    #[test]
+    fn test_grid_contains_matches_scan() {
+        let teeth =
+            Window::from_polygons(vec![vec![saw_tooth(300, 40.0)]], WindowOrigin::File).unwrap();
+        assert_eq!(teeth.area(), 300.0 * (1.0 + 39.0 / 2.0));
+        let hole: Vec<[f64; 2]> = (0..300)
+            .map(|k| {
+                let t = 2.0 * std::f64::consts::PI * k as f64 / 300.0;
+                let r = 200.0 * (1.0 + 0.2 * (11.0 * t).sin());
+                [500.0 + r * t.cos(), 300.0 + r * t.sin()]
+            })
+            .collect();
+        let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
+        let wiggly = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
+        let mut rng = rng_from_seed(11);
+        for w in [teeth, wiggly, wh()] {
+            let [x0, y0, x1, y1] = w.bbox();
+            for _ in 0..20000 {
+                let x = x0 - 1.0 + (x1 - x0 + 2.0) * rng.random::<f64>();
+                let y = y0 - 1.0 + (y1 - y0 + 2.0) * rng.random::<f64>();
+                assert_eq!(w.contains(x, y), scan_contains(&w, x, y), "({x}, {y})");
+            }
+            let (mut x, step) = (x0.floor() - 1.0, ((x1 - x0) / 400.0).max(0.5));
+            while x <= x1 + 1.0 {
+                let mut y = y0.floor() - 1.0;
+                while y <= y1 + 1.0 {
+                    assert_eq!(w.contains(x, y), scan_contains(&w, x, y), "({x}, {y})");
+                    y += 0.5;
+                }
+                x += step.round().max(0.5);
+            }
+        }
+    }
+
+    /// A 10,000-tooth saw-tooth (20,003 corners) builds with O(edges)
+    /// entries in its grid (the former horizontal bands listed every tooth
+    /// in almost every band: 2·10⁸ entries) and answers like a scan.
+    #[test]
+    fn test_saw_tooth_grid_is_linear() {
+        let w =
+            Window::from_polygons(vec![vec![saw_tooth(10_000, 10.0)]], WindowOrigin::File).unwrap();
+        let n = w.edges().len();
+        assert_eq!(n, 20_003);
+        assert!(w.grid.idx.len() <= 12 * n, "{} entries", w.grid.idx.len());
+        assert!(w.grid.nx * w.grid.ny <= 4 * n + 200);
+        assert_eq!(w.area(), 10_000.0 * 5.5);
+        let mut rng = rng_from_seed(12);
+        for _ in 0..2000 {
+            let x = -1.0 + 10_002.0 * rng.random::<f64>();
+            let y = -1.0 + 12.0 * rng.random::<f64>();
+            assert_eq!(w.contains(x, y), scan_contains(&w, x, y), "({x}, {y})");
         }
     }
 }
