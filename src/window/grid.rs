@@ -99,6 +99,10 @@ impl EdgeGrid {
         g
     }
 
+    pub fn heap_bytes(&self) -> usize {
+        4 * (self.start.capacity() + self.idx.capacity()) + self.corner_in.capacity()
+    }
+
     pub fn col(&self, x: f64) -> usize {
         crate::index::cell_coord(x, self.x0, self.cell, self.nx)
     }

@@ -41,6 +41,7 @@
 pub mod geometry;
 mod grid;
 pub mod hull;
+mod valid;
 
 use grid::EdgeGrid;
 
@@ -114,6 +115,30 @@ pub struct Window {
     bbox: [f64; 4],
     /// Distance below which a point counts as on the boundary.
     tol: f64,
+    /// What was repaired on loading (overlapping parts merged), for the
+    /// study's warnings.
+    notes: Vec<String>,
+}
+
+/// Union of polygons (`geo`'s boolean operations, i_overlay), as cleaned
+/// closed rings.
+fn union(polys: &[Vec<Vec<[f64; 2]>>]) -> Vec<Vec<Vec<[f64; 2]>>> {
+    let ls = |r: &Vec<[f64; 2]>| -> geo::LineString<f64> {
+        r.iter().map(|p| geo::Coord { x: p[0], y: p[1] }).collect()
+    };
+    let gp: Vec<geo::Polygon<f64>> = polys
+        .iter()
+        .map(|p| geo::Polygon::new(ls(&p[0]), p[1..].iter().map(ls).collect()))
+        .collect();
+    let u = geo::unary_union(&gp);
+    u.0.iter()
+        .map(|p| {
+            std::iter::once(p.exterior())
+                .chain(p.interiors())
+                .map(|r| r.0.iter().map(|c| [c.x, c.y]).collect())
+                .collect()
+        })
+        .collect()
 }
 
 fn bad(detail: String) -> InputError {
@@ -159,11 +184,18 @@ fn seg_dist2(x: f64, y: f64, a: [f64; 2], b: [f64; 2]) -> f64 {
     ex * ex + ey * ey
 }
 
+/// Most corners a study area may have (all rings together): five times the
+/// 10⁶ corners of the most detailed real boundaries; a window this size
+/// holds about 0.5 GB (`examples/bench_window.rs` measures 101 MB per
+/// million corners).
+pub const MAX_CORNERS: usize = 5_000_000;
+
 /// Cleans one ring: finite check, consecutive duplicates (and the closing
-/// vertex) dropped, at least 3 distinct vertices, non-zero area. Returns the
-/// open ring and its doubled signed area.
+/// vertex) dropped, at least 3 distinct vertices. Returns the open ring and
+/// its doubled signed area (possibly zero: checked later, after crossings,
+/// so that a bow-tie is reported as crossing itself).
 fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), InputError> {
-    let mut out: Vec<[f64; 2]> = Vec::with_capacity(ring.len());
+    let mut out: Vec<[f64; 2]> = Vec::with_capacity(ring.len() + 1);
     for (k, p) in ring.iter().enumerate() {
         if !(p[0].is_finite() && p[1].is_finite()) {
             return Err(bad(format!(
@@ -190,54 +222,121 @@ fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), Inp
         )));
     }
     let a2 = signed_area2(&out);
+    Ok((out, a2))
+}
+
+/// Whether a ring's doubled signed area is zero for its size.
+fn flat(ring: &[[f64; 2]], a2: f64) -> bool {
     let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
-    for p in &out {
+    for p in ring {
         x0 = x0.min(p[0]);
         y0 = y0.min(p[1]);
         x1 = x1.max(p[0]);
         y1 = y1.max(p[1]);
     }
     let diag2 = (x1 - x0).powi(2) + (y1 - y0).powi(2);
-    if a2.is_nan() || a2.abs() <= 1e-12 * diag2 {
-        return Err(bad(format!(
-            "{what} has zero area (its corners lie on one line)"
-        )));
-    }
-    Ok((out, a2))
+    a2.is_nan() || a2.abs() <= 1e-12 * diag2
 }
+
+/// Whether all corners lie on one line (up to rounding).
+fn collinear(ring: &[[f64; 2]]) -> bool {
+    let p0 = ring[0];
+    let d2 = |p: &[f64; 2]| (p[0] - p0[0]).powi(2) + (p[1] - p0[1]).powi(2);
+    let pf = *ring
+        .iter()
+        .max_by(|a, b| d2(a).total_cmp(&d2(b)))
+        .unwrap_or(&p0);
+    let (ux, uy) = (pf[0] - p0[0], pf[1] - p0[1]);
+    let len2 = ux * ux + uy * uy;
+    ring.iter()
+        .all(|p| (ux * (p[1] - p0[1]) - uy * (p[0] - p0[0])).abs() <= 1e-12 * len2)
+}
+
+/// Plain coordinates of a point, for messages about a window built
+/// directly in metres.
+fn plain_place(p: [f64; 2]) -> String {
+    format!("({}, {})", p[0], p[1])
+}
+
+type Polys = Vec<Vec<Vec<[f64; 2]>>>;
 
 impl Window {
     /// Builds a window from polygons (exterior ring first, then holes; rings
-    /// need not be closed). Fails on fewer than 3 distinct vertices, zero area
-    /// or non-finite coordinates.
-    pub fn from_polygons(
-        polygons: Vec<Vec<Vec<[f64; 2]>>>,
+    /// need not be closed). Fails on fewer than 3 distinct vertices, zero area,
+    /// non-finite coordinates, more than [`MAX_CORNERS`] corners, and rings
+    /// that cross themselves or each other (OGC Simple Features validity,
+    /// checked on the edge grid in about O(V log V)); overlapping
+    /// polygons are merged (their union) with a note ([`Window::notes`]).
+    pub fn from_polygons(polygons: Polys, origin: WindowOrigin) -> Result<Window, InputError> {
+        Window::from_polygons_placed(polygons, origin, &plain_place)
+    }
+
+    /// [`Window::from_polygons`], with `place` writing a point (in metres)
+    /// in the user's own coordinates for messages (e.g. back to lon/lat).
+    pub fn from_polygons_placed(
+        polygons: Polys,
         origin: WindowOrigin,
+        place: &dyn Fn([f64; 2]) -> String,
+    ) -> Result<Window, InputError> {
+        let corners: usize = polygons.iter().flatten().map(|r| r.len()).sum();
+        if corners > MAX_CORNERS {
+            return Err(bad(format!(
+                "the study area has {corners} corners; at most {MAX_CORNERS} are accepted \
+                 (simplify the boundary first)"
+            )));
+        }
+        Window::checked(polygons, origin, place, true)
+    }
+
+    fn checked(
+        polygons: Polys,
+        origin: WindowOrigin,
+        place: &dyn Fn([f64; 2]) -> String,
+        may_merge: bool,
     ) -> Result<Window, InputError> {
         if polygons.is_empty() {
             return Err(bad("the study area contains no polygon".to_string()));
         }
         let many = polygons.len() > 1;
-        let mut clean: Vec<Vec<Vec<[f64; 2]>>> = Vec::with_capacity(polygons.len());
-        let mut area = 0.0;
-        for (pi, poly) in polygons.iter().enumerate() {
-            let pname = if many {
+        let pname = |pi: usize| {
+            if many {
                 format!("polygon {}", pi + 1)
             } else {
                 "the polygon".into()
-            };
+            }
+        };
+        let rname = |pi: usize, ri: usize| {
+            if ri == 0 {
+                format!("{}, outer ring", pname(pi))
+            } else {
+                format!("{}, hole {ri}", pname(pi))
+            }
+        };
+        let mut clean: Polys = Vec::with_capacity(polygons.len());
+        let mut flats: Vec<(usize, usize)> = Vec::new();
+        let mut rings_tab: Vec<(valid::RingId, usize, usize)> = Vec::new();
+        let mut edges: Vec<Edge> = Vec::new();
+        let mut bbox = [f64::MAX, f64::MAX, f64::MIN, f64::MIN];
+        let mut parea_all = Vec::with_capacity(polygons.len());
+        for (pi, poly) in polygons.iter().enumerate() {
             if poly.is_empty() {
-                return Err(bad(format!("{pname} has no rings")));
+                return Err(bad(format!("{} has no rings", pname(pi))));
             }
             let mut rings = Vec::with_capacity(poly.len());
             let mut parea = 0.0;
             for (ri, ring) in poly.iter().enumerate() {
-                let what = if ri == 0 {
-                    format!("{pname}, outer ring")
-                } else {
-                    format!("{pname}, hole {ri}")
-                };
-                let (mut r, a2) = clean_ring(ring, &what)?;
+                let (mut r, a2) = clean_ring(ring, &rname(pi, ri))?;
+                if flat(&r, a2) {
+                    if collinear(&r) {
+                        return Err(bad(format!(
+                            "{} has zero area (its corners lie on one line)",
+                            rname(pi, ri)
+                        )));
+                    }
+                    // Zero area from lobes that cancel (a bow-tie): the
+                    // crossing is reported below.
+                    flats.push((pi, ri));
+                }
                 // Exterior counter-clockwise, holes clockwise.
                 if (ri == 0) != (a2 > 0.0) {
                     r.reverse();
@@ -248,10 +347,69 @@ impl Window {
                     -a2.abs() / 2.0
                 };
                 r.push(r[0]);
+                rings_tab.push((
+                    valid::RingId { poly: pi, ring: ri },
+                    edges.len(),
+                    r.len() - 1,
+                ));
+                for w in r.windows(2) {
+                    edges.push(Edge {
+                        a: w[0],
+                        b: w[1],
+                        poly: pi as u32,
+                    });
+                    bbox = [
+                        bbox[0].min(w[0][0]),
+                        bbox[1].min(w[0][1]),
+                        bbox[2].max(w[0][0]),
+                        bbox[3].max(w[0][1]),
+                    ];
+                }
                 rings.push(r);
             }
+            parea_all.push(parea);
+            clean.push(rings);
+        }
+        // Crossings first, so that a bow-tie is called what it is.
+        let grid = EdgeGrid::build(&edges, bbox, 0.0);
+        let (within, between) = valid::first_crossings(&edges, &rings_tab, &grid);
+        drop(grid);
+        drop(edges);
+        let crossing = |c: valid::Crossing| {
+            let what = if c.a == c.b {
+                format!("{} crosses itself", rname(c.a.poly, c.a.ring))
+            } else {
+                let other = if c.b.ring == 0 {
+                    "its outer ring".to_string()
+                } else {
+                    format!("its hole {}", c.b.ring)
+                };
+                format!("{} and {other} cross", rname(c.a.poly, c.a.ring))
+            };
+            bad(format!(
+                "{what} at about {}; a boundary must not cross itself or another ring of its \
+                 polygon, nor run back along itself. Correct the file (e.g. with a GIS's \
+                 geometry check) and load it again",
+                place(c.at)
+            ))
+        };
+        if let Some(c) = within.filter(|c| c.a == c.b) {
+            return Err(crossing(c));
+        }
+        if let Some(&(pi, ri)) = flats.first() {
+            return Err(bad(format!(
+                "{} has zero area (its parts cancel out)",
+                rname(pi, ri)
+            )));
+        }
+        let mut area = 0.0;
+        for (pi, rings) in clean.iter().enumerate() {
+            let parea = parea_all[pi];
             if parea.is_nan() || parea <= 0.0 {
-                return Err(bad(format!("{pname}: its holes cover all of its area")));
+                return Err(bad(format!(
+                    "{}: its holes cover all of its area",
+                    pname(pi)
+                )));
             }
             if rings.len() > 1 {
                 // Every corner of every hole must be inside (or on) the outer ring.
@@ -259,14 +417,73 @@ impl Window {
                 for (hi, hole) in rings.iter().enumerate().skip(1) {
                     if let Some(p) = hole.iter().find(|p| !outer.contains(p[0], p[1])) {
                         return Err(bad(format!(
-                            "{pname}, hole {hi}: its corner ({}, {}) lies outside the outer ring",
-                            p[0], p[1]
+                            "{}, hole {hi}: its corner {} lies outside the outer ring",
+                            pname(pi),
+                            place(*p)
                         )));
                     }
                 }
             }
             area += parea;
-            clean.push(rings);
+        }
+        if let Some(c) = within {
+            return Err(crossing(c));
+        }
+        // Overlapping parts: a crossing or a shared stretch of boundary
+        // between two polygons, or one polygon inside another (tested at
+        // its first corner).
+        let mut overlap = between.map(|c| (c.a.poly, c.b.poly, c.at));
+        if overlap.is_none() && many {
+            let boxes: Vec<[f64; 4]> = clean
+                .iter()
+                .map(|p| {
+                    p[0].iter()
+                        .fold([f64::MAX, f64::MAX, f64::MIN, f64::MIN], |b, q| {
+                            [b[0].min(q[0]), b[1].min(q[1]), b[2].max(q[0]), b[3].max(q[1])]
+                        })
+                })
+                .collect();
+            'outer: for (pi, p) in clean.iter().enumerate() {
+                let v = p[0][0];
+                for (qi, q) in clean.iter().enumerate() {
+                    let b = boxes[qi];
+                    if qi != pi
+                        && v[0] >= b[0]
+                        && v[0] <= b[2]
+                        && v[1] >= b[1]
+                        && v[1] <= b[3]
+                        && valid::in_ring(&q[0], v[0], v[1])
+                        && !q[1..].iter().any(|h| valid::in_ring(h, v[0], v[1]))
+                    {
+                        overlap = Some((pi.min(qi), pi.max(qi), v));
+                        break 'outer;
+                    }
+                }
+            }
+        }
+        if let Some((pa, pb, at)) = overlap {
+            if !may_merge {
+                return Err(bad(format!(
+                    "polygons {} and {} overlap at about {} and could not be merged",
+                    pa + 1,
+                    pb + 1,
+                    place(at)
+                )));
+            }
+            let mut w = Window::checked(union(&clean), origin, place, false)?;
+            if w.area < area * (1.0 - 1e-9) {
+                w.notes.push(format!(
+                    "Parts of the study area overlap (polygons {} and {}, at about {}). They \
+                     were merged into one area (their union) so that no ground is counted \
+                     twice: the area is {:.6} km² instead of the {:.6} km² the parts add up to.",
+                    pa + 1,
+                    pb + 1,
+                    place(at),
+                    w.area / 1e6,
+                    area / 1e6
+                ));
+                return Ok(w);
+            }
         }
         Ok(Self::assemble(clean, origin, area))
     }
@@ -315,6 +532,7 @@ impl Window {
             perimeter,
             bbox,
             tol,
+            notes: Vec::new(),
         }
     }
 
@@ -428,6 +646,23 @@ impl Window {
     /// inside is on their left; indices are stable (ring order).
     pub fn edges(&self) -> &[Edge] {
         &self.edges
+    }
+    /// Bytes the window holds on the heap (rings, edges and the edge grid),
+    /// for the memory figures of `examples/bench_window.rs`.
+    pub fn heap_bytes(&self) -> usize {
+        let rings: usize = self
+            .polygons
+            .iter()
+            .map(|p| p.iter().map(|r| r.capacity() * 16).sum::<usize>())
+            .sum();
+        rings
+            + self.edges.capacity() * std::mem::size_of::<Edge>()
+            + self.grid.heap_bytes()
+    }
+    /// What was repaired when the window was built (overlapping parts
+    /// merged), in plain words.
+    pub fn notes(&self) -> &[String] {
+        &self.notes
     }
     /// Boundary edges as segments.
     pub fn segments(&self) -> impl Iterator<Item = ([f64; 2], [f64; 2])> + '_ {
