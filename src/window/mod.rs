@@ -439,7 +439,12 @@ impl Window {
                 .map(|p| {
                     p[0].iter()
                         .fold([f64::MAX, f64::MAX, f64::MIN, f64::MIN], |b, q| {
-                            [b[0].min(q[0]), b[1].min(q[1]), b[2].max(q[0]), b[3].max(q[1])]
+                            [
+                                b[0].min(q[0]),
+                                b[1].min(q[1]),
+                                b[2].max(q[0]),
+                                b[3].max(q[1]),
+                            ]
                         })
                 })
                 .collect();
@@ -655,9 +660,7 @@ impl Window {
             .iter()
             .map(|p| p.iter().map(|r| r.capacity() * 16).sum::<usize>())
             .sum();
-        rings
-            + self.edges.capacity() * std::mem::size_of::<Edge>()
-            + self.grid.heap_bytes()
+        rings + self.edges.capacity() * std::mem::size_of::<Edge>() + self.grid.heap_bytes()
     }
     /// What was repaired when the window was built (overlapping parts
     /// merged), in plain words.

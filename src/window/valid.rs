@@ -63,7 +63,10 @@ fn meet(p: &Edge, q: &Edge) -> Option<[f64; 2]> {
     let (o3, o4) = (orient(q.a, q.b, p.a), orient(q.a, q.b, p.b));
     if o1 * o2 < 0 && o3 * o4 < 0 {
         // Proper crossing.
-        let (d1, d2) = ([p.b[0] - p.a[0], p.b[1] - p.a[1]], [q.b[0] - q.a[0], q.b[1] - q.a[1]]);
+        let (d1, d2) = (
+            [p.b[0] - p.a[0], p.b[1] - p.a[1]],
+            [q.b[0] - q.a[0], q.b[1] - q.a[1]],
+        );
         let den = d1[0] * d2[1] - d1[1] * d2[0];
         let t = ((q.a[0] - p.a[0]) * d2[1] - (q.a[1] - p.a[1]) * d2[0]) / den;
         return Some([p.a[0] + t * d1[0], p.a[1] + t * d1[1]]);
@@ -79,7 +82,15 @@ fn meet(p: &Edge, q: &Edge) -> Option<[f64; 2]> {
         let (qlo, qhi) = (q.a[axis].min(q.b[axis]), q.a[axis].max(q.b[axis]));
         let (lo, hi) = (plo.max(qlo), phi.min(qhi));
         if hi > lo {
-            let s = if p.a[axis] == lo { p.a } else if p.b[axis] == lo { p.b } else if q.a[axis] == lo { q.a } else { q.b };
+            let s = if p.a[axis] == lo {
+                p.a
+            } else if p.b[axis] == lo {
+                p.b
+            } else if q.a[axis] == lo {
+                q.a
+            } else {
+                q.b
+            };
             return Some(s);
         }
     }
