@@ -374,7 +374,7 @@ impl Projection {
         } else {
             (pm[0] - pa[0]).hypot(pm[1] - pa[1])
         };
-        if !(off > DENSIFY_TOLERANCE_M) || depth >= 30 {
+        if off.is_nan() || off <= DENSIFY_TOLERANCE_M || depth >= 30 {
             return;
         }
         self.halve(at, t0, tm, pa, pm, depth + 1, out);

@@ -26,17 +26,23 @@
 //!   same way in data and simulations (docs/methods.md#csr, "boundary counts as
 //!   inside"), also for large planar coordinates such as UTM northings.
 //! * The perimeter includes the boundaries of holes (docs/methods.md#conventions).
-//! * Checked: every corner of a hole lies inside or on its outer ring.
-//!   Not checked: self-intersecting rings, holes that cross their outer ring
-//!   between corners or overlap each other, and overlapping polygons (RFC 7946
-//!   GeoJSON forbids all of these). Overlapping polygons would have their
-//!   overlap counted twice in [`Window::area`].
+//! * Checked (OGC Simple Features validity, see `valid.rs`): no ring
+//!   crosses itself or another ring of its polygon (refused, with the
+//!   place), every corner of a hole lies inside or on its outer ring, and
+//!   polygons do not overlap (overlapping polygons are replaced by their
+//!   union, with a note in [`Window::notes`]). At most [`MAX_CORNERS`]
+//!   corners.
+//! * Containment is even-odd over all rings of all polygons, which is the
+//!   union of the polygons once overlaps are merged.
 //!
 //! # Speed
-//! The edges are kept in horizontal bands (an edge is listed in every band
-//! its y-range meets). A containment test looks only at the edges of the
-//! band holding the point, so it costs O(edges per band) instead of
-//! O(all edges). Windows with at most 64 edges use a single band.
+//! The edges are listed in one grid of square cells (`grid.rs`), each edge
+//! only in the cells its segment passes through, with the inside/outside
+//! state of one corner of every cell. Containment, distance to the boundary
+//! and the edges near a point look only at nearby cells. Building costs
+//! O(V log V) time and O(V) memory for V corners, also for long thin teeth
+//! (`cargo run --release --example bench_window`: 10⁶ corners in about a
+//! second and 100 MB).
 
 pub mod geometry;
 mod grid;
@@ -636,7 +642,8 @@ impl Window {
         if !(x >= b[0] - t && x <= b[2] + t && y >= b[1] - t && y <= b[3] + t) {
             return false;
         }
-        self.grid.contains(&self.edges, x, y, t)
+        // A rectangle is its box (with the tolerance): nothing more to test.
+        self.rect.is_some() || self.grid.contains(&self.edges, x, y, t)
     }
     /// Distance to the nearest boundary (outer rings and holes), whether the
     /// point is inside or outside; NaN for a non-finite point. Windows with
