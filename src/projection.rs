@@ -37,6 +37,14 @@
 use crate::input::{CoordKind, LengthUnit};
 use serde::Serialize;
 
+/// Longest piece (in degrees of longitude or latitude) a lon/lat boundary
+/// edge is projected in before the tolerance test, see
+/// [`Projection::forward_polygons`].
+pub const DENSIFY_MAX_DEGREES: f64 = 1.0;
+/// Largest distance (m) allowed between the projected midpoint of a lon/lat
+/// boundary piece and the straight projected piece.
+pub const DENSIFY_TOLERANCE_M: f64 = 0.1;
+
 /// WGS 84 semi-major axis in metres.
 const WGS84_A: f64 = 6_378_137.0;
 /// WGS 84 flattening.
@@ -274,24 +282,104 @@ impl Projection {
         }
     }
 
-    /// [`Projection::forward`] for polygons (rings of `[x, y]`), vertex by
-    /// vertex: the one place a boundary or a zone file is projected.
+    /// [`Projection::forward`] for polygons (rings of `[x, y]`): the one
+    /// place a boundary or a zone file is projected.
+    ///
+    /// Planar input is scaled vertex by vertex. Longitude/latitude rings are
+    /// first densified: a GeoJSON edge is a straight line in longitude and
+    /// latitude (RFC 7946, §3.1.1), which the transverse Mercator bends (a
+    /// parallel curves toward the pole), so each edge is cut into pieces of at
+    /// most [`DENSIFY_MAX_DEGREES`] and then halved, by linear interpolation
+    /// in lon/lat, until the projected midpoint of every piece lies within
+    /// [`DENSIFY_TOLERANCE_M`] of the straight projected piece. Rings are
+    /// returned closed.
     pub fn forward_polygons(&self, polygons: &[Vec<Vec<[f64; 2]>>]) -> Vec<Vec<Vec<[f64; 2]>>> {
         polygons
             .iter()
             .map(|poly| {
                 poly.iter()
-                    .map(|ring| {
-                        ring.iter()
+                    .map(|ring| match self {
+                        Projection::Planar { .. } => ring
+                            .iter()
                             .map(|p| {
                                 let (e, n) = self.forward(p[0], p[1]);
                                 [e, n]
                             })
-                            .collect()
+                            .collect(),
+                        Projection::TransverseMercator { .. } => self.densified(ring),
                     })
                     .collect()
             })
             .collect()
+    }
+
+    /// One lon/lat ring, densified and projected (see [`Projection::forward_polygons`]).
+    fn densified(&self, ring: &[[f64; 2]]) -> Vec<[f64; 2]> {
+        let fwd = |p: [f64; 2]| {
+            let (e, n) = self.forward(p[0], p[1]);
+            [e, n]
+        };
+        let mut out = Vec::with_capacity(ring.len() + 8);
+        if ring.is_empty() {
+            return out;
+        }
+        let mut pts: Vec<[f64; 2]> = ring.to_vec();
+        if pts.first() != pts.last() {
+            pts.push(pts[0]);
+        }
+        out.push(fwd(pts[0]));
+        for w in pts.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let dlon = wrap_degrees(b[0] - a[0]);
+            let dlat = b[1] - a[1];
+            let at = |t: f64| [a[0] + t * dlon, a[1] + t * dlat];
+            let pieces = (dlon.abs().max(dlat.abs()) / DENSIFY_MAX_DEGREES)
+                .ceil()
+                .max(1.0);
+            let pieces = pieces.min(1e6) as usize;
+            let mut pa = out[out.len() - 1];
+            for k in 1..=pieces {
+                let (t0, t1) = ((k - 1) as f64 / pieces as f64, k as f64 / pieces as f64);
+                let pb = if k == pieces { fwd(b) } else { fwd(at(t1)) };
+                self.halve(&at, t0, t1, pa, pb, 0, &mut out);
+                out.push(pb);
+                pa = pb;
+            }
+        }
+        out
+    }
+
+    /// Adds the interior points of the piece t0..t1 (projected ends pa, pb),
+    /// halving while the projected midpoint is off the chord by more than
+    /// the tolerance (at most 30 halvings).
+    #[allow(clippy::too_many_arguments)]
+    fn halve(
+        &self,
+        at: &dyn Fn(f64) -> [f64; 2],
+        t0: f64,
+        t1: f64,
+        pa: [f64; 2],
+        pb: [f64; 2],
+        depth: u32,
+        out: &mut Vec<[f64; 2]>,
+    ) {
+        let tm = 0.5 * (t0 + t1);
+        let m = at(tm);
+        let (e, n) = self.forward(m[0], m[1]);
+        let pm = [e, n];
+        let (dx, dy) = (pb[0] - pa[0], pb[1] - pa[1]);
+        let len = dx.hypot(dy);
+        let off = if len > 0.0 {
+            ((pm[0] - pa[0]) * dy - (pm[1] - pa[1]) * dx).abs() / len
+        } else {
+            (pm[0] - pa[0]).hypot(pm[1] - pa[1])
+        };
+        if off.is_nan() || off <= DENSIFY_TOLERANCE_M || depth >= 30 {
+            return;
+        }
+        self.halve(at, t0, tm, pa, pm, depth + 1, out);
+        out.push(pm);
+        self.halve(at, tm, t1, pm, pb, depth + 1, out);
     }
 
     /// [`Projection::forward`] for many points at once; the origin's

@@ -334,13 +334,46 @@ impl Study {
         };
         let projection = Projection::for_data(kind, cx, cy);
         let mut warnings = Vec::new();
+        if let (Some(a), true) = (area, projection.is_geographic()) {
+            let reach = a
+                .polygons
+                .iter()
+                .flatten()
+                .flatten()
+                .map(|p| ((p[0] - cx + 180.0).rem_euclid(360.0) - 180.0).abs())
+                .fold(0.0_f64, f64::max);
+            if reach > MAX_LON_FROM_CENTRE {
+                return Err(InputError::new(InputErrorKind::BadPolygon {
+                    detail: format!(
+                        "the study area reaches {reach:.1}° of longitude from its centre \
+                         (longitude {cx:.4}); one flat map (a transverse Mercator) can hold at \
+                         most {MAX_LON_FROM_CENTRE}° either side, and is already far off well \
+                         before that. Split the area, or give it and the events in a projected \
+                         coordinate system suited to it"
+                    ),
+                }));
+            }
+        }
 
         // 3. Window.
         let mut projected_events = None;
         let window = match area {
             Some(a) => {
                 let polys = projection.forward_polygons(&a.polygons);
-                Window::from_polygons(polys, WindowOrigin::File)?
+                let place = |p: [f64; 2]| {
+                    let (x, y) = projection.inverse(p[0], p[1]);
+                    if projection.is_geographic() {
+                        format!("longitude {x:.6}, latitude {y:.6}")
+                    } else {
+                        format!("({x}, {y})")
+                    }
+                };
+                let w = Window::from_polygons_placed(polys, WindowOrigin::File, &place)?;
+                warnings.extend(w.notes().iter().cloned());
+                if projection.is_geographic() {
+                    warnings.extend(large_area_warning(&a.polygons, w.area()));
+                }
+                w
             }
             None => {
                 let (px, py) = projection.forward_many(&events.x, &events.y);
@@ -461,6 +494,69 @@ impl Study {
             warnings,
         })
     }
+}
+
+/// Farthest a lon/lat study area may reach from its central meridian, in
+/// degrees of longitude: beyond it the study area is refused (a cap around
+/// a pole, or a band around the globe, cannot be flattened by one
+/// transverse Mercator, which is singular 90° from its central meridian).
+pub const MAX_LON_FROM_CENTRE: f64 = 60.0;
+
+/// Largest relative difference between the planar area of a lon/lat study
+/// area and its area on the WGS 84 ellipsoid before a warning is given.
+pub const AREA_ERROR_WARN: f64 = 0.001;
+
+/// For a lon/lat study area: a warning when its area in metres (one
+/// transverse Mercator) differs from its area on the ellipsoid by more than
+/// [`AREA_ERROR_WARN`]. The ellipsoidal area is Karney's (2013, "Algorithms
+/// for geodesics", J. Geodesy 87:43–55) polygon area through `geo`'s
+/// `GeodesicArea`, on the rings cut into pieces of at most 0.01° so that
+/// geodesic pieces follow the straight lon/lat edges of GeoJSON.
+fn large_area_warning(polygons: &[Vec<Vec<[f64; 2]>>], planar: f64) -> Option<String> {
+    use geo::GeodesicArea;
+    let ring = |r: &Vec<[f64; 2]>| -> geo::LineString<f64> {
+        let mut pts: Vec<geo::Coord<f64>> = Vec::with_capacity(r.len());
+        for w in r.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let n = ((b[0] - a[0]).abs().max((b[1] - a[1]).abs()) / 0.01)
+                .ceil()
+                .clamp(1.0, 1e5) as usize;
+            for k in 0..n {
+                let t = k as f64 / n as f64;
+                pts.push(geo::Coord {
+                    x: a[0] + t * (b[0] - a[0]),
+                    y: a[1] + t * (b[1] - a[1]),
+                });
+            }
+        }
+        if let Some(l) = r.last() {
+            pts.push(geo::Coord { x: l[0], y: l[1] });
+        }
+        let mut ls = geo::LineString(pts);
+        ls.close();
+        ls
+    };
+    let mut ellipsoid = 0.0;
+    for p in polygons {
+        if p.is_empty() {
+            continue;
+        }
+        let g = geo::Polygon::new(ring(&p[0]), p[1..].iter().map(ring).collect());
+        ellipsoid += g.geodesic_area_unsigned();
+    }
+    let rel = (planar - ellipsoid) / ellipsoid;
+    (rel.is_finite() && rel.abs() > AREA_ERROR_WARN).then(|| {
+        format!(
+            "The study area is too large for one flat map: its area in metres is {:.2} % \
+             {} than on the Earth's surface ({:.1} km² against {:.1} km²), and distances and \
+             inside/outside near its far edges are distorted as well. Split it into smaller \
+             areas, or give it (and the events) in a projected coordinate system suited to it.",
+            rel.abs() * 100.0,
+            if rel > 0.0 { "larger" } else { "smaller" },
+            planar / 1e6,
+            ellipsoid / 1e6
+        )
+    })
 }
 
 /// What the page shows about a study: projection, area, counts, warnings.

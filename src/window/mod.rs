@@ -26,20 +26,30 @@
 //!   same way in data and simulations (docs/methods.md#csr, "boundary counts as
 //!   inside"), also for large planar coordinates such as UTM northings.
 //! * The perimeter includes the boundaries of holes (docs/methods.md#conventions).
-//! * Checked: every corner of a hole lies inside or on its outer ring.
-//!   Not checked: self-intersecting rings, holes that cross their outer ring
-//!   between corners or overlap each other, and overlapping polygons (RFC 7946
-//!   GeoJSON forbids all of these). Overlapping polygons would have their
-//!   overlap counted twice in [`Window::area`].
+//! * Checked (OGC Simple Features validity, see `valid.rs`): no ring
+//!   crosses itself or another ring of its polygon (refused, with the
+//!   place), every corner of a hole lies inside or on its outer ring, and
+//!   polygons do not overlap (overlapping polygons are replaced by their
+//!   union, with a note in [`Window::notes`]). At most [`MAX_CORNERS`]
+//!   corners.
+//! * Containment is even-odd over all rings of all polygons, which is the
+//!   union of the polygons once overlaps are merged.
 //!
 //! # Speed
-//! The edges are kept in horizontal bands (an edge is listed in every band
-//! its y-range meets). A containment test looks only at the edges of the
-//! band holding the point, so it costs O(edges per band) instead of
-//! O(all edges). Windows with at most 64 edges use a single band.
+//! The edges are listed in one grid of square cells (`grid.rs`), each edge
+//! only in the cells its segment passes through, with the inside/outside
+//! state of one corner of every cell. Containment, distance to the boundary
+//! and the edges near a point look only at nearby cells. Building costs
+//! O(V log V) time and O(V) memory for V corners, also for long thin teeth
+//! (`cargo run --release --example bench_window`: 10⁶ corners in about a
+//! second or two and about 100 MB).
 
 pub mod geometry;
+mod grid;
 pub mod hull;
+mod valid;
+
+use grid::EdgeGrid;
 
 pub use hull::convex_hull;
 
@@ -78,169 +88,6 @@ impl Edge {
     }
 }
 
-/// Edges grouped by horizontal band (compressed rows: the edges of band `k`
-/// are `items[start[k]..start[k + 1]]`, copies in increasing edge order so
-/// that one band is contiguous in memory).
-#[derive(Debug, Clone, PartialEq)]
-struct Bands {
-    y0: f64,
-    h: f64,
-    start: Vec<u32>,
-    items: Vec<Edge>,
-}
-
-impl Bands {
-    fn count(&self) -> usize {
-        self.start.len() - 1
-    }
-    fn band_of(&self, y: f64) -> usize {
-        let k = ((y - self.y0) / self.h).floor();
-        if k.is_nan() || k < 0.0 {
-            0
-        } else {
-            (k as usize).min(self.count() - 1)
-        }
-    }
-}
-
-/// Edges bucketed in a square grid for distance queries: the edges whose
-/// bounding box meets cell c are `idx[start[c]..start[c + 1]]`; edges whose
-/// box would cover more than 16 cells are kept in `long` and always scanned.
-#[derive(Debug, Clone, PartialEq)]
-struct EdgeGrid {
-    x0: f64,
-    y0: f64,
-    cell: f64,
-    nx: usize,
-    ny: usize,
-    start: Vec<u32>,
-    idx: Vec<u32>,
-    long: Vec<u32>,
-}
-
-impl EdgeGrid {
-    fn build(edges: &[Edge], bbox: [f64; 4]) -> Option<EdgeGrid> {
-        if edges.len() <= 64 {
-            return None;
-        }
-        let (w, h) = (bbox[2] - bbox[0], bbox[3] - bbox[1]);
-        let cell = (w * h / edges.len() as f64).sqrt().max(w.max(h) / 4096.0);
-        let nx = ((w / cell).floor() as usize + 1).min(4096);
-        let ny = ((h / cell).floor() as usize + 1).min(4096);
-        let mut g = EdgeGrid {
-            x0: bbox[0],
-            y0: bbox[1],
-            cell,
-            nx,
-            ny,
-            start: vec![0; nx * ny + 1],
-            idx: Vec::new(),
-            long: Vec::new(),
-        };
-        let mut spans = Vec::with_capacity(edges.len());
-        for (i, e) in edges.iter().enumerate() {
-            let (cx0, cx1) = (g.col(e.a[0].min(e.b[0])), g.col(e.a[0].max(e.b[0])));
-            let (cy0, cy1) = (g.row(e.a[1].min(e.b[1])), g.row(e.a[1].max(e.b[1])));
-            if (cx1 - cx0 + 1) * (cy1 - cy0 + 1) > 16 {
-                g.long.push(i as u32);
-                spans.push(None);
-                continue;
-            }
-            for cy in cy0..=cy1 {
-                for cx in cx0..=cx1 {
-                    g.start[cy * nx + cx + 1] += 1;
-                }
-            }
-            spans.push(Some((cx0, cx1, cy0, cy1)));
-        }
-        for c in 0..nx * ny {
-            g.start[c + 1] += g.start[c];
-        }
-        let mut fill: Vec<u32> = g.start[..nx * ny].to_vec();
-        g.idx = vec![0; g.start[nx * ny] as usize];
-        for (i, sp) in spans.iter().enumerate() {
-            if let Some((cx0, cx1, cy0, cy1)) = *sp {
-                for cy in cy0..=cy1 {
-                    for cx in cx0..=cx1 {
-                        let f = &mut fill[cy * nx + cx];
-                        g.idx[*f as usize] = i as u32;
-                        *f += 1;
-                    }
-                }
-            }
-        }
-        Some(g)
-    }
-    fn col(&self, x: f64) -> usize {
-        crate::index::cell_coord(x, self.x0, self.cell, self.nx)
-    }
-    fn row(&self, y: f64) -> usize {
-        crate::index::cell_coord(y, self.y0, self.cell, self.ny)
-    }
-    /// Smallest squared distance from (x, y) to any edge: long edges first,
-    /// then rings of cells around the point's cell until no unvisited cell
-    /// can hold a closer edge.
-    fn min_dist2(&self, edges: &[Edge], x: f64, y: f64) -> f64 {
-        let mut best = f64::INFINITY;
-        for &i in &self.long {
-            let e = &edges[i as usize];
-            best = best.min(seg_dist2(x, y, e.a, e.b));
-        }
-        let (cx, cy) = (self.col(x) as isize, self.row(y) as isize);
-        let (nx, ny) = (self.nx as isize, self.ny as isize);
-        let visit = |ix: isize, iy: isize, best: &mut f64| {
-            let c = iy as usize * self.nx + ix as usize;
-            for &i in &self.idx[self.start[c] as usize..self.start[c + 1] as usize] {
-                let e = &edges[i as usize];
-                let d2 = seg_dist2(x, y, e.a, e.b);
-                if d2 < *best {
-                    *best = d2;
-                }
-            }
-        };
-        let mut rho: isize = 0;
-        loop {
-            let (ylo, yhi) = ((cy - rho).max(0), (cy + rho).min(ny - 1));
-            let (xlo, xhi) = ((cx - rho).max(0), (cx + rho).min(nx - 1));
-            for iy in ylo..=yhi {
-                if iy == cy - rho || iy == cy + rho {
-                    for ix in xlo..=xhi {
-                        visit(ix, iy, &mut best);
-                    }
-                } else {
-                    if cx - rho >= 0 {
-                        visit(cx - rho, iy, &mut best);
-                    }
-                    if rho > 0 && cx + rho < nx {
-                        visit(cx + rho, iy, &mut best);
-                    }
-                }
-            }
-            let mut bound = f64::INFINITY;
-            if cx - rho > 0 {
-                bound = bound.min(x - (self.x0 + (cx - rho) as f64 * self.cell));
-            }
-            if cx + rho < nx - 1 {
-                bound = bound.min(self.x0 + (cx + rho + 1) as f64 * self.cell - x);
-            }
-            if cy - rho > 0 {
-                bound = bound.min(y - (self.y0 + (cy - rho) as f64 * self.cell));
-            }
-            if cy + rho < ny - 1 {
-                bound = bound.min(self.y0 + (cy + rho + 1) as f64 * self.cell - y);
-            }
-            if bound == f64::INFINITY {
-                return best;
-            }
-            let bound = bound.max(0.0);
-            if best <= bound * bound {
-                return best;
-            }
-            rho += 1;
-        }
-    }
-}
-
 /// A study area: polygons with holes, in metres.
 ///
 /// # Examples
@@ -265,10 +112,8 @@ pub struct Window {
     polygons: Vec<Vec<Vec<[f64; 2]>>>,
     origin: WindowOrigin,
     edges: Vec<Edge>,
-    bands: Bands,
-    /// Grid of edges for distance and near-edge queries (`None` for ≤ 64
-    /// edges, which are scanned).
-    grid: Option<EdgeGrid>,
+    /// Grid of edges for containment, distance and near-edge queries.
+    grid: EdgeGrid,
     /// `Some([x0, y0, x1, y1])` when the window is one axis-aligned rectangle.
     rect: Option<[f64; 4]>,
     area: f64,
@@ -276,6 +121,30 @@ pub struct Window {
     bbox: [f64; 4],
     /// Distance below which a point counts as on the boundary.
     tol: f64,
+    /// What was repaired on loading (overlapping parts merged), for the
+    /// study's warnings.
+    notes: Vec<String>,
+}
+
+/// Union of polygons (`geo`'s boolean operations, i_overlay), as cleaned
+/// closed rings.
+fn union(polys: &[Vec<Vec<[f64; 2]>>]) -> Vec<Vec<Vec<[f64; 2]>>> {
+    let ls = |r: &Vec<[f64; 2]>| -> geo::LineString<f64> {
+        r.iter().map(|p| geo::Coord { x: p[0], y: p[1] }).collect()
+    };
+    let gp: Vec<geo::Polygon<f64>> = polys
+        .iter()
+        .map(|p| geo::Polygon::new(ls(&p[0]), p[1..].iter().map(ls).collect()))
+        .collect();
+    let u = geo::unary_union(&gp);
+    u.0.iter()
+        .map(|p| {
+            std::iter::once(p.exterior())
+                .chain(p.interiors())
+                .map(|r| r.0.iter().map(|c| [c.x, c.y]).collect())
+                .collect()
+        })
+        .collect()
 }
 
 fn bad(detail: String) -> InputError {
@@ -321,11 +190,18 @@ fn seg_dist2(x: f64, y: f64, a: [f64; 2], b: [f64; 2]) -> f64 {
     ex * ex + ey * ey
 }
 
+/// Most corners a study area may have (all rings together): five times the
+/// 10⁶ corners of the most detailed real boundaries; a window this size
+/// holds about 0.5 GB (`examples/bench_window.rs` measures 101 MB per
+/// million corners).
+pub const MAX_CORNERS: usize = 5_000_000;
+
 /// Cleans one ring: finite check, consecutive duplicates (and the closing
-/// vertex) dropped, at least 3 distinct vertices, non-zero area. Returns the
-/// open ring and its doubled signed area.
+/// vertex) dropped, at least 3 distinct vertices. Returns the open ring and
+/// its doubled signed area (possibly zero: checked later, after crossings,
+/// so that a bow-tie is reported as crossing itself).
 fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), InputError> {
-    let mut out: Vec<[f64; 2]> = Vec::with_capacity(ring.len());
+    let mut out: Vec<[f64; 2]> = Vec::with_capacity(ring.len() + 1);
     for (k, p) in ring.iter().enumerate() {
         if !(p[0].is_finite() && p[1].is_finite()) {
             return Err(bad(format!(
@@ -352,54 +228,121 @@ fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), Inp
         )));
     }
     let a2 = signed_area2(&out);
+    Ok((out, a2))
+}
+
+/// Whether a ring's doubled signed area is zero for its size.
+fn flat(ring: &[[f64; 2]], a2: f64) -> bool {
     let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
-    for p in &out {
+    for p in ring {
         x0 = x0.min(p[0]);
         y0 = y0.min(p[1]);
         x1 = x1.max(p[0]);
         y1 = y1.max(p[1]);
     }
     let diag2 = (x1 - x0).powi(2) + (y1 - y0).powi(2);
-    if a2.is_nan() || a2.abs() <= 1e-12 * diag2 {
-        return Err(bad(format!(
-            "{what} has zero area (its corners lie on one line)"
-        )));
-    }
-    Ok((out, a2))
+    a2.is_nan() || a2.abs() <= 1e-12 * diag2
 }
+
+/// Whether all corners lie on one line (up to rounding).
+fn collinear(ring: &[[f64; 2]]) -> bool {
+    let p0 = ring[0];
+    let d2 = |p: &[f64; 2]| (p[0] - p0[0]).powi(2) + (p[1] - p0[1]).powi(2);
+    let pf = *ring
+        .iter()
+        .max_by(|a, b| d2(a).total_cmp(&d2(b)))
+        .unwrap_or(&p0);
+    let (ux, uy) = (pf[0] - p0[0], pf[1] - p0[1]);
+    let len2 = ux * ux + uy * uy;
+    ring.iter()
+        .all(|p| (ux * (p[1] - p0[1]) - uy * (p[0] - p0[0])).abs() <= 1e-12 * len2)
+}
+
+/// Plain coordinates of a point, for messages about a window built
+/// directly in metres.
+fn plain_place(p: [f64; 2]) -> String {
+    format!("({}, {})", p[0], p[1])
+}
+
+type Polys = Vec<Vec<Vec<[f64; 2]>>>;
 
 impl Window {
     /// Builds a window from polygons (exterior ring first, then holes; rings
-    /// need not be closed). Fails on fewer than 3 distinct vertices, zero area
-    /// or non-finite coordinates.
-    pub fn from_polygons(
-        polygons: Vec<Vec<Vec<[f64; 2]>>>,
+    /// need not be closed). Fails on fewer than 3 distinct vertices, zero area,
+    /// non-finite coordinates, more than [`MAX_CORNERS`] corners, and rings
+    /// that cross themselves or each other (OGC Simple Features validity,
+    /// checked on the edge grid in about O(V log V)); overlapping
+    /// polygons are merged (their union) with a note ([`Window::notes`]).
+    pub fn from_polygons(polygons: Polys, origin: WindowOrigin) -> Result<Window, InputError> {
+        Window::from_polygons_placed(polygons, origin, &plain_place)
+    }
+
+    /// [`Window::from_polygons`], with `place` writing a point (in metres)
+    /// in the user's own coordinates for messages (e.g. back to lon/lat).
+    pub fn from_polygons_placed(
+        polygons: Polys,
         origin: WindowOrigin,
+        place: &dyn Fn([f64; 2]) -> String,
+    ) -> Result<Window, InputError> {
+        let corners: usize = polygons.iter().flatten().map(|r| r.len()).sum();
+        if corners > MAX_CORNERS {
+            return Err(bad(format!(
+                "the study area has {corners} corners; at most {MAX_CORNERS} are accepted \
+                 (simplify the boundary first)"
+            )));
+        }
+        Window::checked(polygons, origin, place, true)
+    }
+
+    fn checked(
+        polygons: Polys,
+        origin: WindowOrigin,
+        place: &dyn Fn([f64; 2]) -> String,
+        may_merge: bool,
     ) -> Result<Window, InputError> {
         if polygons.is_empty() {
             return Err(bad("the study area contains no polygon".to_string()));
         }
         let many = polygons.len() > 1;
-        let mut clean: Vec<Vec<Vec<[f64; 2]>>> = Vec::with_capacity(polygons.len());
-        let mut area = 0.0;
-        for (pi, poly) in polygons.iter().enumerate() {
-            let pname = if many {
+        let pname = |pi: usize| {
+            if many {
                 format!("polygon {}", pi + 1)
             } else {
                 "the polygon".into()
-            };
+            }
+        };
+        let rname = |pi: usize, ri: usize| {
+            if ri == 0 {
+                format!("{}, outer ring", pname(pi))
+            } else {
+                format!("{}, hole {ri}", pname(pi))
+            }
+        };
+        let mut clean: Polys = Vec::with_capacity(polygons.len());
+        let mut flats: Vec<(usize, usize)> = Vec::new();
+        let mut rings_tab: Vec<(valid::RingId, usize, usize)> = Vec::new();
+        let mut edges: Vec<Edge> = Vec::new();
+        let mut bbox = [f64::MAX, f64::MAX, f64::MIN, f64::MIN];
+        let mut parea_all = Vec::with_capacity(polygons.len());
+        for (pi, poly) in polygons.iter().enumerate() {
             if poly.is_empty() {
-                return Err(bad(format!("{pname} has no rings")));
+                return Err(bad(format!("{} has no rings", pname(pi))));
             }
             let mut rings = Vec::with_capacity(poly.len());
             let mut parea = 0.0;
             for (ri, ring) in poly.iter().enumerate() {
-                let what = if ri == 0 {
-                    format!("{pname}, outer ring")
-                } else {
-                    format!("{pname}, hole {ri}")
-                };
-                let (mut r, a2) = clean_ring(ring, &what)?;
+                let (mut r, a2) = clean_ring(ring, &rname(pi, ri))?;
+                if flat(&r, a2) {
+                    if collinear(&r) {
+                        return Err(bad(format!(
+                            "{} has zero area (its corners lie on one line)",
+                            rname(pi, ri)
+                        )));
+                    }
+                    // Zero area from lobes that cancel (a bow-tie): the
+                    // crossing is reported below.
+                    flats.push((pi, ri));
+                }
                 // Exterior counter-clockwise, holes clockwise.
                 if (ri == 0) != (a2 > 0.0) {
                     r.reverse();
@@ -410,10 +353,69 @@ impl Window {
                     -a2.abs() / 2.0
                 };
                 r.push(r[0]);
+                rings_tab.push((
+                    valid::RingId { poly: pi, ring: ri },
+                    edges.len(),
+                    r.len() - 1,
+                ));
+                for w in r.windows(2) {
+                    edges.push(Edge {
+                        a: w[0],
+                        b: w[1],
+                        poly: pi as u32,
+                    });
+                    bbox = [
+                        bbox[0].min(w[0][0]),
+                        bbox[1].min(w[0][1]),
+                        bbox[2].max(w[0][0]),
+                        bbox[3].max(w[0][1]),
+                    ];
+                }
                 rings.push(r);
             }
+            parea_all.push(parea);
+            clean.push(rings);
+        }
+        // Crossings first, so that a bow-tie is called what it is.
+        let grid = EdgeGrid::build(&edges, bbox, 0.0);
+        let (within, between) = valid::first_crossings(&edges, &rings_tab, &grid);
+        drop(grid);
+        drop(edges);
+        let crossing = |c: valid::Crossing| {
+            let what = if c.a == c.b {
+                format!("{} crosses itself", rname(c.a.poly, c.a.ring))
+            } else {
+                let other = if c.b.ring == 0 {
+                    "its outer ring".to_string()
+                } else {
+                    format!("its hole {}", c.b.ring)
+                };
+                format!("{} and {other} cross", rname(c.a.poly, c.a.ring))
+            };
+            bad(format!(
+                "{what} at about {}; a boundary must not cross itself or another ring of its \
+                 polygon, nor run back along itself. Correct the file (e.g. with a GIS's \
+                 geometry check) and load it again",
+                place(c.at)
+            ))
+        };
+        if let Some(c) = within.filter(|c| c.a == c.b) {
+            return Err(crossing(c));
+        }
+        if let Some(&(pi, ri)) = flats.first() {
+            return Err(bad(format!(
+                "{} has zero area (its parts cancel out)",
+                rname(pi, ri)
+            )));
+        }
+        let mut area = 0.0;
+        for (pi, rings) in clean.iter().enumerate() {
+            let parea = parea_all[pi];
             if parea.is_nan() || parea <= 0.0 {
-                return Err(bad(format!("{pname}: its holes cover all of its area")));
+                return Err(bad(format!(
+                    "{}: its holes cover all of its area",
+                    pname(pi)
+                )));
             }
             if rings.len() > 1 {
                 // Every corner of every hole must be inside (or on) the outer ring.
@@ -421,14 +423,78 @@ impl Window {
                 for (hi, hole) in rings.iter().enumerate().skip(1) {
                     if let Some(p) = hole.iter().find(|p| !outer.contains(p[0], p[1])) {
                         return Err(bad(format!(
-                            "{pname}, hole {hi}: its corner ({}, {}) lies outside the outer ring",
-                            p[0], p[1]
+                            "{}, hole {hi}: its corner {} lies outside the outer ring",
+                            pname(pi),
+                            place(*p)
                         )));
                     }
                 }
             }
             area += parea;
-            clean.push(rings);
+        }
+        if let Some(c) = within {
+            return Err(crossing(c));
+        }
+        // Overlapping parts: a crossing or a shared stretch of boundary
+        // between two polygons, or one polygon inside another (tested at
+        // its first corner).
+        let mut overlap = between.map(|c| (c.a.poly, c.b.poly, c.at));
+        if overlap.is_none() && many {
+            let boxes: Vec<[f64; 4]> = clean
+                .iter()
+                .map(|p| {
+                    p[0].iter()
+                        .fold([f64::MAX, f64::MAX, f64::MIN, f64::MIN], |b, q| {
+                            [
+                                b[0].min(q[0]),
+                                b[1].min(q[1]),
+                                b[2].max(q[0]),
+                                b[3].max(q[1]),
+                            ]
+                        })
+                })
+                .collect();
+            'outer: for (pi, p) in clean.iter().enumerate() {
+                let v = p[0][0];
+                for (qi, q) in clean.iter().enumerate() {
+                    let b = boxes[qi];
+                    if qi != pi
+                        && v[0] >= b[0]
+                        && v[0] <= b[2]
+                        && v[1] >= b[1]
+                        && v[1] <= b[3]
+                        && valid::in_ring(&q[0], v[0], v[1])
+                        && !q[1..].iter().any(|h| valid::in_ring(h, v[0], v[1]))
+                    {
+                        overlap = Some((pi.min(qi), pi.max(qi), v));
+                        break 'outer;
+                    }
+                }
+            }
+        }
+        if let Some((pa, pb, at)) = overlap {
+            if !may_merge {
+                return Err(bad(format!(
+                    "polygons {} and {} overlap at about {} and could not be merged",
+                    pa + 1,
+                    pb + 1,
+                    place(at)
+                )));
+            }
+            let mut w = Window::checked(union(&clean), origin, place, false)?;
+            if w.area < area * (1.0 - 1e-9) {
+                w.notes.push(format!(
+                    "Parts of the study area overlap (polygons {} and {}, at about {}). They \
+                     were merged into one area (their union) so that no ground is counted \
+                     twice: the area is {:.6} km² instead of the {:.6} km² the parts add up to.",
+                    pa + 1,
+                    pb + 1,
+                    place(at),
+                    w.area / 1e6,
+                    area / 1e6
+                ));
+                return Ok(w);
+            }
         }
         Ok(Self::assemble(clean, origin, area))
     }
@@ -458,42 +524,7 @@ impl Window {
         let extent = (bbox[2] - bbox[0]).max(bbox[3] - bbox[1]);
         let magnitude = bbox.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
         let tol = 1e-12 * extent.max(magnitude);
-        let nb = if edges.len() <= 64 {
-            1
-        } else {
-            (edges.len() / 2).clamp(1, 1 << 16)
-        };
-        let h = ((bbox[3] - bbox[1]) / nb as f64).max(f64::MIN_POSITIVE);
-        let mut bands = Bands {
-            y0: bbox[1],
-            h,
-            start: vec![0; nb + 1],
-            items: Vec::new(),
-        };
-        let span = |bands: &Bands, e: &Edge| {
-            let lo = bands.band_of(e.a[1].min(e.b[1]) - tol);
-            let hi = bands.band_of(e.a[1].max(e.b[1]) + tol);
-            (lo, hi)
-        };
-        for e in &edges {
-            let (lo, hi) = span(&bands, e);
-            for k in lo..=hi {
-                bands.start[k + 1] += 1;
-            }
-        }
-        for k in 0..nb {
-            bands.start[k + 1] += bands.start[k];
-        }
-        let mut fill: Vec<u32> = bands.start[..nb].to_vec();
-        bands.items = vec![edges[0]; bands.start[nb] as usize];
-        for e in &edges {
-            let (lo, hi) = span(&bands, e);
-            for f in &mut fill[lo..=hi] {
-                bands.items[*f as usize] = *e;
-                *f += 1;
-            }
-        }
-        let grid = EdgeGrid::build(&edges, bbox);
+        let grid = EdgeGrid::build(&edges, bbox, tol);
         // One ring of four axis-parallel edges that fills its bounding box.
         let rect = if polygons.len() == 1 && polygons[0].len() == 1 && edges.len() == 4 {
             let axis = edges.iter().all(|e| e.a[0] == e.b[0] || e.a[1] == e.b[1]);
@@ -506,13 +537,13 @@ impl Window {
             polygons,
             origin,
             edges,
-            bands,
             grid,
             rect,
             area,
             perimeter,
             bbox,
             tol,
+            notes: Vec::new(),
         }
     }
 
@@ -597,13 +628,13 @@ impl Window {
     /// Inside or on the boundary. Non-finite points are outside.
     ///
     /// This is the crate's one point-in-polygon test, written by hand (even-
-    /// odd crossings over the edges of the point's horizontal band, with the
-    /// boundary tolerance) rather than `geo`'s `Intersects`, because the
-    /// bands pay on detailed boundaries: `cargo run --release --example
-    /// bench_window` measured 200,000 points against a 1200-edge window in
-    /// 23 ms here against 635 ms with `geo` (27× faster); on an 8-edge
-    /// window the two were level (12 vs 11 ms) and on a rectangle ours took
-    /// half the time (4 vs 8 ms).
+    /// odd crossings over the edges of the point's grid cell, from a cell
+    /// corner whose state is stored, with the boundary tolerance) rather
+    /// than `geo`'s `Intersects`, because the grid pays on detailed
+    /// boundaries: `cargo run --release --example bench_window` measured
+    /// 200,000 points against a 1200-edge window in 14 ms against 804 ms
+    /// with `geo`, and 0.1–1.7 µs per point on saw-tooth outlines of 10⁴ to
+    /// 10⁶ corners (shared machine, load average 6–8).
     pub fn contains(&self, x: f64, y: f64) -> bool {
         let t = self.tol;
         let b = self.bbox;
@@ -611,61 +642,37 @@ impl Window {
         if !(x >= b[0] - t && x <= b[2] + t && y >= b[1] - t && y <= b[3] + t) {
             return false;
         }
-        let k = self.bands.band_of(y);
-        let list =
-            &self.bands.items[self.bands.start[k] as usize..self.bands.start[k + 1] as usize];
-        let t2 = t * t;
-        let mut poly = u32::MAX;
-        let mut odd = false;
-        for e in list {
-            if e.poly != poly {
-                if odd {
-                    return true;
-                }
-                poly = e.poly;
-                odd = false;
-            }
-            let (a, bb) = (e.a, e.b);
-            if x >= a[0].min(bb[0]) - t
-                && x <= a[0].max(bb[0]) + t
-                && y >= a[1].min(bb[1]) - t
-                && y <= a[1].max(bb[1]) + t
-                && seg_dist2(x, y, a, bb) <= t2
-            {
-                return true;
-            }
-            if (a[1] > y) != (bb[1] > y) {
-                let xi = a[0] + (y - a[1]) * (bb[0] - a[0]) / (bb[1] - a[1]);
-                if x < xi {
-                    odd = !odd;
-                }
-            }
-        }
-        odd
+        // A rectangle is its box (with the tolerance): nothing more to test.
+        self.rect.is_some() || self.grid.contains(&self.edges, x, y, t)
     }
     /// Distance to the nearest boundary (outer rings and holes), whether the
     /// point is inside or outside; NaN for a non-finite point. Windows with
-    /// more than 64 edges search a grid of edges outward from the point.
+    /// Searches the edge grid outward from the point.
     pub fn boundary_distance(&self, x: f64, y: f64) -> f64 {
         if !(x.is_finite() && y.is_finite()) {
             return f64::NAN;
         }
-        if let Some(g) = &self.grid {
-            return g.min_dist2(&self.edges, x, y).sqrt();
-        }
-        let mut best = f64::INFINITY;
-        for e in &self.edges {
-            let d2 = seg_dist2(x, y, e.a, e.b);
-            if d2 < best {
-                best = d2;
-            }
-        }
-        best.sqrt()
+        self.grid.min_dist2(&self.edges, x, y).sqrt()
     }
     /// All boundary edges (outer rings and holes), directed so that the
     /// inside is on their left; indices are stable (ring order).
     pub fn edges(&self) -> &[Edge] {
         &self.edges
+    }
+    /// Bytes the window holds on the heap (rings, edges and the edge grid),
+    /// for the memory figures of `examples/bench_window.rs`.
+    pub fn heap_bytes(&self) -> usize {
+        let rings: usize = self
+            .polygons
+            .iter()
+            .map(|p| p.iter().map(|r| r.capacity() * 16).sum::<usize>())
+            .sum();
+        rings + self.edges.capacity() * std::mem::size_of::<Edge>() + self.grid.heap_bytes()
+    }
+    /// What was repaired when the window was built (overlapping parts
+    /// merged), in plain words.
+    pub fn notes(&self) -> &[String] {
+        &self.notes
     }
     /// Boundary edges as segments.
     pub fn segments(&self) -> impl Iterator<Item = ([f64; 2], [f64; 2])> + '_ {
@@ -678,43 +685,10 @@ impl Window {
         self.rect
     }
     /// Indices (sorted) of the edges within distance `r` of (x, y): the
-    /// edges a circle of radius r about the point can cross. Uses the edge
-    /// grid when the window has more than 64 edges.
+    /// edges a circle of radius r about the point can cross, from the edge
+    /// grid.
     pub fn edges_near(&self, x: f64, y: f64, r: f64) -> Vec<u32> {
-        let r2 = r * r;
-        let mut out = Vec::new();
-        match &self.grid {
-            None => {
-                for (k, e) in self.edges.iter().enumerate() {
-                    if e.distance_sq(x, y) <= r2 {
-                        out.push(k as u32);
-                    }
-                }
-                return out;
-            }
-            Some(g) => {
-                for &k in &g.long {
-                    if self.edges[k as usize].distance_sq(x, y) <= r2 {
-                        out.push(k);
-                    }
-                }
-                let (cx0, cx1) = (g.col(x - r), g.col(x + r));
-                let (cy0, cy1) = (g.row(y - r), g.row(y + r));
-                for cy in cy0..=cy1 {
-                    for cx in cx0..=cx1 {
-                        let c = cy * g.nx + cx;
-                        for &k in &g.idx[g.start[c] as usize..g.start[c + 1] as usize] {
-                            if self.edges[k as usize].distance_sq(x, y) <= r2 {
-                                out.push(k);
-                            }
-                        }
-                    }
-                }
-            }
-        }
-        out.sort_unstable();
-        out.dedup();
-        out
+        self.grid.edges_near(&self.edges, x, y, r)
     }
     /// One uniform point in the window: proposals uniform on the bounding
     /// box, kept when [`Window::contains`] is true (every proposal is kept
@@ -933,7 +907,7 @@ pub(crate) mod tests {
             })
             .collect();
         let w = Window::from_polygons(vec![vec![ring]], WindowOrigin::File).unwrap();
-        assert!(w.bands.count() > 1);
+        assert!(w.grid.nx * w.grid.ny > 1);
         let want = n as f64 / 2.0 * (2.0 * std::f64::consts::PI / n as f64).sin();
         assert!((w.area() - want).abs() < 1e-12);
         let mut rng = rng_from_seed(7);
@@ -964,7 +938,7 @@ pub(crate) mod tests {
             .collect();
         let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
         let w = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
-        assert!(w.grid.is_some());
+        assert!(w.grid.nx * w.grid.ny > 1);
         let edges = w.edges();
         let mut rng = rng_from_seed(5);
         for _ in 0..5000 {
@@ -1142,7 +1116,7 @@ pub(crate) mod tests {
             .collect();
         let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
         let big = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
-        assert!(big.grid.is_some() && wh().grid.is_none());
+        assert!(big.grid.nx * big.grid.ny > 4 && wh().grid.nx * wh().grid.ny <= 4);
         let mut rng = rng_from_seed(6);
         for w in [big, wh()] {
             let [x0, y0, x1, y1] = w.bbox();
@@ -1171,6 +1145,93 @@ pub(crate) mod tests {
             let (lx, ly) = (-dy / len * 0.01, dx / len * 0.01);
             assert!(w.contains(mx + lx, my + ly));
             assert!(!w.contains(mx - lx, my - ly));
+        }
+    }
+
+    /// A saw-tooth outline: base [0, n] at y = 0, then n teeth of height h
+    /// (apex at y = h, valleys at y = 1). Area n·(1 + (h − 1)/2).
+    pub fn saw_tooth(n: usize, h: f64) -> Vec<[f64; 2]> {
+        let mut r = vec![[0.0, 0.0], [n as f64, 0.0]];
+        for k in (0..n).rev() {
+            r.push([k as f64 + 1.0, 1.0]);
+            r.push([k as f64 + 0.5, h]);
+        }
+        r.push([0.0, 1.0]);
+        r
+    }
+
+    /// Even-odd over every edge, with the boundary tolerance: the plain ray
+    /// test the grid must agree with.
+    fn scan_contains(w: &Window, x: f64, y: f64) -> bool {
+        let t = w.boundary_tolerance();
+        let mut odd = false;
+        for e in w.edges() {
+            if e.distance_sq(x, y) <= t * t {
+                return true;
+            }
+            let (a, b) = (e.a, e.b);
+            if (a[1] > y) != (b[1] > y) && x < a[0] + (y - a[1]) * (b[0] - a[0]) / (b[1] - a[1]) {
+                odd = !odd;
+            }
+        }
+        odd
+    }
+
+    /// The grid's containment agrees with a scan of every edge on a
+    /// saw-tooth (long thin teeth, integer and half-integer corners) and on
+    /// the wiggly hole, at random points and at points on the integer and
+    /// half-integer lattice (through corners and along grid-aligned lines).
+    #[test]
+    fn test_grid_contains_matches_scan() {
+        let teeth =
+            Window::from_polygons(vec![vec![saw_tooth(300, 40.0)]], WindowOrigin::File).unwrap();
+        assert_eq!(teeth.area(), 300.0 * (1.0 + 39.0 / 2.0));
+        let hole: Vec<[f64; 2]> = (0..300)
+            .map(|k| {
+                let t = 2.0 * std::f64::consts::PI * k as f64 / 300.0;
+                let r = 200.0 * (1.0 + 0.2 * (11.0 * t).sin());
+                [500.0 + r * t.cos(), 300.0 + r * t.sin()]
+            })
+            .collect();
+        let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
+        let wiggly = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
+        let mut rng = rng_from_seed(11);
+        for w in [teeth, wiggly, wh()] {
+            let [x0, y0, x1, y1] = w.bbox();
+            for _ in 0..20000 {
+                let x = x0 - 1.0 + (x1 - x0 + 2.0) * rng.random::<f64>();
+                let y = y0 - 1.0 + (y1 - y0 + 2.0) * rng.random::<f64>();
+                assert_eq!(w.contains(x, y), scan_contains(&w, x, y), "({x}, {y})");
+            }
+            let (mut x, step) = (x0.floor() - 1.0, ((x1 - x0) / 400.0).max(0.5));
+            while x <= x1 + 1.0 {
+                let mut y = y0.floor() - 1.0;
+                while y <= y1 + 1.0 {
+                    assert_eq!(w.contains(x, y), scan_contains(&w, x, y), "({x}, {y})");
+                    y += 0.5;
+                }
+                x += step.round().max(0.5);
+            }
+        }
+    }
+
+    /// A 10,000-tooth saw-tooth (20,003 corners) builds with O(edges)
+    /// entries in its grid (the former horizontal bands listed every tooth
+    /// in almost every band: 2·10⁸ entries) and answers like a scan.
+    #[test]
+    fn test_saw_tooth_grid_is_linear() {
+        let w =
+            Window::from_polygons(vec![vec![saw_tooth(10_000, 10.0)]], WindowOrigin::File).unwrap();
+        let n = w.edges().len();
+        assert_eq!(n, 20_003);
+        assert!(w.grid.idx.len() <= 12 * n, "{} entries", w.grid.idx.len());
+        assert!(w.grid.nx * w.grid.ny <= 4 * n + 200);
+        assert_eq!(w.area(), 10_000.0 * 5.5);
+        let mut rng = rng_from_seed(12);
+        for _ in 0..2000 {
+            let x = -1.0 + 10_002.0 * rng.random::<f64>();
+            let y = -1.0 + 12.0 * rng.random::<f64>();
+            assert_eq!(w.contains(x, y), scan_contains(&w, x, y), "({x}, {y})");
         }
     }
 }
