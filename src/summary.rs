@@ -493,8 +493,11 @@ mod tests {
             weight: None,
             row: vec![1, 2, 3, 4, 5],
             rejections: vec![],
+            incomplete: vec![],
             rows_read: 5,
             time_has_clock: false,
+            date_order: None,
+            encoding: crate::input::text::Encoding::Utf8,
         };
         let st = Study::build(&layer, None, None, AreaFallback::BoundingBox).unwrap();
         let s = summarise(&st);
