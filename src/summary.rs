@@ -522,7 +522,9 @@ mod tests {
             }
         );
         assert_eq!(s.window_origin, WindowOrigin::BoundingBox);
-        assert_eq!(s.warnings.len(), 1);
+        // The drawn-around-the-points warning, and the event without a time.
+        assert_eq!(s.warnings.len(), 2);
+        assert!(s.warnings[1].starts_with("1 event(s) have no usable date"));
     }
 
     #[test]

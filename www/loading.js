@@ -39,6 +39,7 @@ async function loadEventsInner(bytes, name, options, { refreshAfter = true, fres
     }
     showMapping();
     renderFileLine('events-name', name, report);
+    renderRejectedBanner(report);
     if (report.study_error) showError('The events were read, but the study could not be set up', report.study_error);
     if (refreshAfter) await refresh(!fresh);
     setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used.`);
@@ -53,12 +54,24 @@ async function loadEventsInner(bytes, name, options, { refreshAfter = true, fres
  * status line saying what is still loaded. Returns false. */
 function pointsNotRead(layer, bytes, name, options, err) {
   if (err && err.code === 'engine_stopped') return false;
-  showError(`Could not read ${name}`, err);
-  offerColumns(layer, bytes, name, options, err);
+  // Coordinate columns not found: the column editor opens with the file's
+  // column names (a question, not a red error).
+  const asked = offerColumns(layer, bytes, name, options, err);
+  if (asked) clearError();
+  else showError(`Could not read ${name}`, err);
   const kept = state[layer] ? `Kept the previous ${layer}: ${state[layer].name}.` : `No ${layer} loaded.`;
   const waiting = state.pendingFile && state.pendingFile.layer === layer;
-  setStatus(waiting ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
+  const why = asked && err && err.message ? ` (${err.message})` : '';
+  setStatus(waiting ? `Choose the coordinate columns of ${name} below${why}. ${kept}` : kept);
   return false;
+}
+
+/** A warning when many rows of the events could not be used (the share and
+ * its threshold come from the engine's load report). */
+function renderRejectedBanner(report) {
+  const b = $('rejected-banner');
+  b.hidden = !(report && report.many_rejected);
+  b.textContent = report && report.many_rejected ? report.many_rejected_text : '';
 }
 
 export async function loadArea(bytes, name, { refreshAfter = true } = {}) {
@@ -270,7 +283,10 @@ export async function mappingChanged() {
 
 function renderFileLine(id, name, report) {
   const rows = report ? `: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used` : '';
-  $(id).textContent = `${name}${rows}`;
+  // Name the text encoding when it is not plain UTF-8.
+  const enc = report && report.encoding && report.encoding !== 'utf8' ? ` (${report.encoding_name})` : '';
+  const kept = report && report.incomplete_count > 0 ? `; ${plural(report.incomplete_count, 'value', 'values')} left out (see Data quality)` : '';
+  $(id).textContent = `${name}${enc}${rows}${kept}`;
 }
 
 export function renderAreaMode() {

@@ -156,6 +156,18 @@ function renderQuality(snap) {
       for (const r of reasons) ul.append(el('li', null, `${r.reason_text || r.reason}: ${fmt(r.count)}`));
       box.append(ul);
     }
+    // Rows kept with an optional value left out (an unreadable date or weight).
+    const incomplete = Array.from(report.incomplete || []);
+    if (report.incomplete_count > 0) {
+      const list = el('ul', { class: 'reasons', 'data-incomplete': key });
+      for (const r of incomplete) {
+        const value = r.value === '' || r.value === null || r.value === undefined ? '(empty)' : r.value;
+        list.append(el('li', null, `row ${fmt(r.row)}, ${r.column ?? '—'}: ${r.reason_text || r.reason} (${value})`));
+      }
+      const more = report.incomplete_count > incomplete.length ? ` (first ${fmt(incomplete.length)} listed)` : '';
+      box.append(el('details', { class: 'incomplete' },
+        el('summary', null, `Kept, with a value left out: ${fmt(report.incomplete_count)}${more}`), list));
+    }
   };
   layerLine('Events', 'events', state.reports.events,
     study ? { read: study.events_rows_read, used: study.events, rejected: study.events_rejected } : null);

@@ -343,3 +343,54 @@ pub fn read_area(bytes: &[u8], coords: Option<CoordKind>) -> Result<RawArea, Inp
     let text = text::decode(bytes)?;
     geojson::read_area(&text.text, coords)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every way of getting the read options wrong gives a message in plain
+    /// words: it names the option and never a Rust type.
+    #[test]
+    fn option_errors_are_plain_words() {
+        let bad = [
+            r#"{"coords": "lon_lat"}"#,
+            r#"{"coords": {"kind": "planar"}}"#,
+            r#"{"coords": {"kind": "planar", "unit": "inch"}}"#,
+            r#"{"coords": {"kind": "polar"}}"#,
+            r#"{"coords": {"unit": "metre"}}"#,
+            r#"{"coords": 3}"#,
+            r#"{"date_order": "sideways"}"#,
+            r#"{"date_order": 1}"#,
+            r#"{"mapping": "x"}"#,
+            r#"{"mapping": {"x": 3}}"#,
+            r#"{"mapping": {"z": "a"}}"#,
+            r#"{"delimiter": "ab"}"#,
+            r#"{"delimiter": 5}"#,
+        ];
+        let types = [
+            "CoordKind",
+            "LengthUnit",
+            "DateOrder",
+            "ColumnMapping",
+            "ReadOptions",
+            "enum",
+            "struct",
+            "char",
+            "Option",
+            "String",
+        ];
+        for text in bad {
+            let v: serde_json::Value = serde_json::from_str(text).unwrap();
+            let (code, msg) = crate::params::decode::<ReadOptions>(v, None).unwrap_err();
+            assert_eq!(code, "bad_options", "{text}");
+            let words: Vec<&str> = msg.split(|c: char| !c.is_alphanumeric()).collect();
+            for t in types {
+                assert!(!words.contains(&t) && !msg.contains('`'), "{text}: {msg}");
+            }
+        }
+        // A wrong kind of coordinates says what is allowed.
+        let v = serde_json::json!({"coords": "lon_lat"});
+        let (_, msg) = crate::params::decode::<ReadOptions>(v, None).unwrap_err();
+        assert!(msg.contains("{kind: \"lon_lat\"}"), "{msg}");
+    }
+}

@@ -45,9 +45,10 @@ test('when the coordinate columns are not found, choosing them reads the file', 
   // Column names no detector could guess.
   const csv = 'site,first_ft,second_ft,kind\na,1000,2000,p\nb,1500,2100,q\nc,1200,2600,p\nd,1900,2300,q\n';
   await act(page, () => page.setInputFiles('#events-file', { name: 'odd-names.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) }));
-  // The engine says which columns it lacks; the editor offers the header's names.
-  assert.equal(await page.isVisible('#error-banner'), true);
-  assert.match(await page.textContent('#error-text'), /odd-names\.csv/);
+  // Not a red error but a question: the editor offers the header's names,
+  // and the status line says what is missing.
+  assert.equal(await page.isVisible('#error-banner'), false);
+  assert.match(await page.textContent('#status'), /Choose the coordinate columns of odd-names\.csv below/);
   assert.match(await page.textContent('#mapping-hint'), /choose the x and y columns/);
   const options = await page.$$eval('#map-x option', (os) => os.map((o) => o.value));
   assert.deepEqual(options, ['', 'site', 'first_ft', 'second_ft', 'kind']);
