@@ -31,7 +31,7 @@ test('a Windows-1252 file is decoded and the encoding is named', () => {
 
 test('the date order is detected, asked about, or taken as given', () => {
   const s = new Session();
-  const csv = (dates) => utf8(`x,y,date\n${dates.map((d, i) => `${i},${(i * 7) % 5},${d}`).join('\n')}\n`);
+  const csv = (dates) => utf8(`x,y,date\n${dates.map((d, i) => `${i},${(i * i * 3) % 7},${d}`).join('\n')}\n`);
   const mdy = s.loadEvents(csv(['03/04/2025', '04/23/2025', '05/01/2025']), {});
   assert.equal(mdy.date_order.used, 'month_day_year');
   assert.equal(mdy.date_order.source, 'detected');
@@ -90,6 +90,6 @@ test('option errors are in plain words, without type names', () => {
   for (const o of bad) {
     const e = throws(() => s.loadEvents(utf8('x,y\n1,2\n'), o));
     assert.equal(e.code, 'bad_options', JSON.stringify(o));
-    assert.doesNotMatch(e.message, /CoordKind|LengthUnit|DateOrder|ColumnMapping|ReadOptions|enum|struct|char|Option<|String/, e.message);
+    assert.doesNotMatch(e.message, /\b(CoordKind|LengthUnit|DateOrder|ColumnMapping|ReadOptions|enum|struct|char|String|Option)\b|`/, e.message);
   }
 });
