@@ -7,7 +7,7 @@ import { state } from './state.js';
 import { setStatus, showError, clearError } from './status.js';
 import { call } from './engine.js';
 import { currentOptions, offerColumns, showMapping } from './columns.js';
-import { refresh } from './results.js';
+import { refresh, fileLineText } from './results.js';
 
 export async function readFile(file) {
   return new Uint8Array(await file.arrayBuffer());
@@ -282,11 +282,7 @@ export async function mappingChanged() {
 }
 
 function renderFileLine(id, name, report) {
-  const rows = report ? `: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used` : '';
-  // Name the text encoding when it is not plain UTF-8.
-  const enc = report && report.encoding && report.encoding !== 'utf8' ? ` (${report.encoding_name})` : '';
-  const kept = report && report.incomplete_count > 0 ? `; ${plural(report.incomplete_count, 'value', 'values')} left out (see Data quality)` : '';
-  $(id).textContent = `${name}${enc}${rows}${kept}`;
+  $(id).textContent = fileLineText(name, report, report ? report.accepted : NaN, report ? report.rows_read : 0);
 }
 
 export function renderAreaMode() {

@@ -43,13 +43,23 @@ export async function refresh(keepView) {
   await loadRejections();
 }
 
+/** The text under a points file's input: its name, the text encoding when
+ * it is not plain UTF-8, how many rows are in use, and how many values were
+ * left out of rows that are kept. */
+export function fileLineText(name, report, used, read) {
+  const enc = report && report.encoding && report.encoding !== 'utf8' ? ` (${report.encoding_name})` : '';
+  if (!Number.isFinite(num(used))) return `${name}${enc}`;
+  const left = report && report.incomplete_count > 0 ? `; ${plural(report.incomplete_count, 'value', 'values')} left out (see Data quality)` : '';
+  return `${name}${enc}: ${fmt(used)} of ${plural(read, 'row', 'rows')} used${left}`;
+}
+
 /** The line under each file input: file name and how many rows are in use now. */
 function renderFileLines(study) {
   const line = (id, kept, report, used, read) => {
     if (!kept) return;
     const u = study && used !== null && used !== undefined ? used : report && report.accepted;
     const r = study && read !== null && read !== undefined ? read : report && report.rows_read;
-    $(id).textContent = Number.isFinite(num(u)) ? `${kept.name}: ${fmt(u)} of ${plural(r, 'row', 'rows')} used` : kept.name;
+    $(id).textContent = fileLineText(kept.name, report, u, r);
   };
   line('events-name', state.events, state.reports.events, study && study.events, study && study.events_rows_read);
   line('controls-name', state.controls, state.reports.controls, study && study.controls, study && study.controls_rows_read);
