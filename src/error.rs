@@ -25,7 +25,8 @@ pub enum InputErrorKind {
     Empty,
     /// The bytes do not look like text (NUL bytes or control characters).
     Binary,
-    /// The text is not valid UTF-8.
+    /// The text is not valid UTF-8, nor UTF-16 with a BOM, nor plain Windows-1252
+    /// (see `input::text::decode`).
     NotUtf8 { byte_offset: usize },
     /// Not a CSV table we can use (e.g. a single column, no data rows).
     NotATable { detail: String },
@@ -109,8 +110,8 @@ impl fmt::Display for InputError {
             }
             InputErrorKind::NotUtf8 { byte_offset } => write!(
                 f,
-                "the file is not UTF-8 text (first bad byte at offset {byte_offset}); \
-                 save it as UTF-8 and try again"
+                "the file is not readable as UTF-8, UTF-16 or Windows-1252 text (first bad \
+                 byte at offset {byte_offset}); save it as UTF-8 and try again"
             ),
             InputErrorKind::NotATable { detail } => write!(f, "not a usable table: {detail}"),
             InputErrorKind::MissingColumns { detail, available } => {

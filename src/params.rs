@@ -530,13 +530,17 @@ pub fn decode<P: Params>(
                     m.insert(k.clone(), v.clone());
                 }
                 if let Err(e1) = serde_json::from_value::<P>(one) {
+                    let mut words = plain_words(&e1.to_string());
+                    // "one of the allowed kinds" alone does not say which:
+                    // add the option's own description.
+                    if words.contains("one of the allowed kinds") {
+                        if let Some(f) = fields.iter().find(|f| f.name == k.as_str()) {
+                            words = format!("{words} ({})", f.doc);
+                        }
+                    }
                     return Err((
                         "bad_options",
-                        format!(
-                            "{}: option \"{k}\": {}",
-                            P::NAME,
-                            plain_words(&e1.to_string())
-                        ),
+                        format!("{}: option \"{k}\": {words}", P::NAME),
                     ));
                 }
             }

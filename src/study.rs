@@ -22,6 +22,15 @@ pub enum AreaFallback {
 }
 
 /// A validated set of points in metres: finite coordinates, inside the window.
+///
+/// **Missing optional values.** A point whose time or weight cell was empty
+/// or unreadable is kept (it takes part in every spatial analysis) and holds
+/// **NaN** in [`Pattern::time`] / [`Pattern::weight`]. Analyses that need the
+/// value handle it: the time summary counts only finite times
+/// (`n_with_time`); weighted analyses take [`Pattern::weights_or_zero`], so
+/// such a point counts 0 (adds nothing to a density or to a neighbour's
+/// count) and never silently 1. Categories have no missing value: an empty
+/// cell is the category "(blank)".
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Pattern {
     x: Vec<f64>,
@@ -93,9 +102,34 @@ impl Pattern {
     pub fn y(&self) -> &[f64] {
         &self.y
     }
-    /// Days since 1970-01-01T00:00Z.
+    /// Days since 1970-01-01T00:00Z; NaN where the point has no usable time.
     pub fn time(&self) -> Option<&[f64]> {
         self.time.as_deref()
+    }
+    /// Points without a usable time (0 without a time column).
+    pub fn missing_time(&self) -> usize {
+        self.time
+            .as_ref()
+            .map_or(0, |t| t.iter().filter(|v| !v.is_finite()).count())
+    }
+    /// Points without a usable weight (0 without a weight column).
+    pub fn missing_weight(&self) -> usize {
+        self.weight
+            .as_ref()
+            .map_or(0, |w| w.iter().filter(|v| !v.is_finite()).count())
+    }
+    /// The weights for a weighted analysis: a point without a usable weight
+    /// counts 0 (see the type's documentation). `None` without a weight column.
+    pub fn weights_or_zero(&self) -> Option<std::borrow::Cow<'_, [f64]>> {
+        let w = self.weight.as_deref()?;
+        if w.iter().all(|v| v.is_finite()) {
+            return Some(std::borrow::Cow::Borrowed(w));
+        }
+        Some(std::borrow::Cow::Owned(
+            w.iter()
+                .map(|&v| if v.is_finite() { v } else { 0.0 })
+                .collect(),
+        ))
     }
     pub fn category(&self) -> Option<&[u32]> {
         self.category.as_deref()
@@ -103,6 +137,8 @@ impl Pattern {
     pub fn category_names(&self) -> &[String] {
         &self.category_names
     }
+    /// Weights as read; NaN where the point has no usable weight (weighted
+    /// analyses use [`Pattern::weights_or_zero`]).
     pub fn weight(&self) -> Option<&[f64]> {
         self.weight.as_deref()
     }
@@ -452,6 +488,22 @@ impl Study {
                  were left out; they are listed with the rejected rows."
             ));
         }
+        let no_time = ev.missing_time();
+        if no_time > 0 {
+            warnings.push(format!(
+                "{no_time} event(s) have no usable date: left out of the time analyses (the time \
+                 span); they stay in the spatial analyses. They are listed with the rows that \
+                 have a value left out."
+            ));
+        }
+        let no_weight = ev.missing_weight();
+        if no_weight > 0 {
+            warnings.push(format!(
+                "{no_weight} event(s) have no usable weight: they count 0 in weighted analyses \
+                 (not 1) and 1 in unweighted ones. They are listed with the rows that have a \
+                 value left out."
+            ));
+        }
         let (ctrl, control_rejections, controls_rows_read) = match controls {
             Some(c) => {
                 let (p, rej, _) = place_layer(c, &projection, &window, None);
@@ -574,6 +626,9 @@ pub struct StudyReport {
     pub events_rejected: usize,
     pub controls_rows_read: u64,
     pub controls_rejected: usize,
+    /// Events kept without a usable time / weight (see [`Pattern`]).
+    pub events_without_time: usize,
+    pub events_without_weight: usize,
 }
 
 impl Study {
@@ -592,6 +647,8 @@ impl Study {
             events_rejected: self.event_rejections.len(),
             controls_rows_read: self.controls_rows_read,
             controls_rejected: self.control_rejections.len(),
+            events_without_time: self.events.missing_time(),
+            events_without_weight: self.events.missing_weight(),
         }
     }
 }
@@ -627,8 +684,11 @@ mod tests {
                 reason: RejectReason::NotANumber,
                 value: "abc".into(),
             }],
+            incomplete: vec![],
             rows_read: pts.len() as u64 + 1,
             time_has_clock: false,
+            date_order: None,
+            encoding: crate::input::text::Encoding::Utf8,
         }
     }
 

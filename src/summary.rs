@@ -493,8 +493,11 @@ mod tests {
             weight: None,
             row: vec![1, 2, 3, 4, 5],
             rejections: vec![],
+            incomplete: vec![],
             rows_read: 5,
             time_has_clock: false,
+            date_order: None,
+            encoding: crate::input::text::Encoding::Utf8,
         };
         let st = Study::build(&layer, None, None, AreaFallback::BoundingBox).unwrap();
         let s = summarise(&st);
@@ -519,7 +522,9 @@ mod tests {
             }
         );
         assert_eq!(s.window_origin, WindowOrigin::BoundingBox);
-        assert_eq!(s.warnings.len(), 1);
+        // The drawn-around-the-points warning, and the event without a time.
+        assert_eq!(s.warnings.len(), 2);
+        assert!(s.warnings[1].starts_with("1 event(s) have no usable date"));
     }
 
     #[test]

@@ -6,11 +6,14 @@
 //! 2025-03-04 = day 20151, the value Python's `datetime` gives in
 //! tests/reference/time_reference.json).
 
+use cloister::input::text::Encoding;
+use cloister::input::time::OrderSource;
 use cloister::input::{
     read_area, read_points, ColumnMapping, CoordKind, DateOrder, LengthUnit, RawLayer, ReadOptions,
     RejectReason, SourceFormat,
 };
 use cloister::rng::rng_from_seed;
+use cloister::study::{AreaFallback, Study};
 use cloister::{InputError, InputErrorKind};
 use rand::RngExt;
 
@@ -27,6 +30,13 @@ fn fail(bytes: &[u8]) -> InputError {
 
 fn rejections(l: &RawLayer) -> Vec<(u64, Option<String>, RejectReason, String)> {
     l.rejections
+        .iter()
+        .map(|r| (r.row, r.column.clone(), r.reason.clone(), r.value.clone()))
+        .collect()
+}
+
+fn incomplete(l: &RawLayer) -> Vec<(u64, Option<String>, RejectReason, String)> {
+    l.incomplete
         .iter()
         .map(|r| (r.row, r.column.clone(), r.reason.clone(), r.value.clone()))
         .collect()
@@ -88,10 +98,44 @@ fn png_header_is_binary() {
 
 #[test]
 fn non_utf8_bytes() {
-    // "x,y,name\n1,2,M" is 14 bytes; 0xFC (ü in Latin-1) is byte 14.
-    let e = fail(b"x,y,name\n1,2,M\xFCller\n");
-    assert_eq!(e.kind, InputErrorKind::NotUtf8 { byte_offset: 14 });
-    assert!(e.to_string().contains("offset 14"), "{e}");
+    // Valid UTF-8 ("é" = C3 A9) and a stray byte: a damaged UTF-8 file is
+    // refused, not guessed. "x,y,name\n1,2,caf" is 16 bytes, then C3 A9
+    // (16, 17), "\n1,2,M" (18..=23), and 0xFC at byte 24.
+    let e = fail(b"x,y,name\n1,2,caf\xC3\xA9\n1,2,M\xFCller\n");
+    assert_eq!(e.kind, InputErrorKind::NotUtf8 { byte_offset: 24 });
+    assert!(e.to_string().contains("offset 24"), "{e}");
+}
+
+#[test]
+fn windows_1252_file_is_decoded_and_named() {
+    // Bytes as Windows-1252 writes them (CP1252.TXT): E4 = ä, E9 = é,
+    // DF = ß, D6 = Ö; a German export with semicolons and decimal commas.
+    let bytes = b"Breite;L\xE4nge;Kategorie\n48,1;11,5;K\xE4se\n48,2;11,6;Caf\xE9\n48,3;11,7;Stra\xDFe\n48,4;11,8;\xD6l\n";
+    let l = read_points(bytes, &ReadOptions::default()).unwrap();
+    check_invariants(&l);
+    assert_eq!(l.encoding, Encoding::Windows1252);
+    assert_eq!(l.encoding.name(), "Windows-1252 (Western European)");
+    assert_eq!(l.columns, vec!["Breite", "Länge", "Kategorie"]);
+    assert_eq!(l.category_names, vec!["Käse", "Café", "Straße", "Öl"]);
+    assert_eq!(l.coords, CoordKind::LonLat);
+    assert_eq!(l.x, vec![11.5, 11.6, 11.7, 11.8]);
+}
+
+#[test]
+fn utf16_and_utf8_bom_files_are_read() {
+    // "Unicode text" from a spreadsheet: UTF-16 LE with a BOM, tab-separated.
+    let text = "x\ty\tType\n1\t2\tÉcole\n";
+    let mut bytes = vec![0xFF, 0xFE];
+    bytes.extend(text.encode_utf16().flat_map(|u| u.to_le_bytes()));
+    let l = read_points(&bytes, &ReadOptions::default()).unwrap();
+    assert_eq!(l.encoding, Encoding::Utf16Le);
+    assert_eq!(
+        (l.x.clone(), l.category_names.clone()),
+        (vec![1.0], vec!["École".to_string()])
+    );
+    let l = read("\u{FEFF}x,y\n1,2\n");
+    assert_eq!(l.encoding, Encoding::Utf8Bom);
+    assert_eq!(read("x,y\n1,2\n").encoding, Encoding::Utf8);
 }
 
 #[test]
@@ -191,11 +235,16 @@ fn wrong_types() {
         vec![
             r(2, "y", RejectReason::NotANumber, "abc"),
             r(3, "x", RejectReason::NotANumber, "true"),
-            r(4, "count", RejectReason::BadWeight, "many"),
         ]
     );
-    assert_eq!(l.row, vec![5]);
-    assert_eq!(l.weight, Some(vec![3.0]));
+    // A weight that is not a number keeps the row, without a weight.
+    assert_eq!(
+        incomplete(&l),
+        vec![r(4, "count", RejectReason::BadWeight, "many")]
+    );
+    assert_eq!(l.row, vec![4, 5]);
+    let w = l.weight.clone().unwrap();
+    assert!(w[0].is_nan() && w[1] == 3.0);
 }
 
 #[test]
@@ -217,18 +266,28 @@ fn huge_numbers_and_nan() {
 
 #[test]
 fn empty_cells_and_short_rows() {
-    let l = read("x,y,date\n,2,2025-03-04\n1, ,2025-03-04\n1,2,\n1,2\n1,2,2025-03-04,extra\n");
+    let l = read("x,y,date\n,2,2025-03-04\n1, ,2025-03-04\n1,2,\n1,2\n1,2,2025-03-04,extra\n1,2,2025-03-04\n");
     check_invariants(&l);
+    // A row with more fields than the header is listed like one with fewer.
     assert_eq!(
         rejections(&l),
         vec![
             r(2, "x", RejectReason::Empty, ""),
             r(3, "y", RejectReason::Empty, " "),
-            r(4, "date", RejectReason::Empty, ""),
             (5, None, RejectReason::TooFewFields, "1,2".to_string()),
+            (
+                6,
+                None,
+                RejectReason::TooManyFields,
+                "1,2,2025-03-04,extra".to_string()
+            ),
         ]
     );
-    assert_eq!(l.row, vec![6]);
+    // The empty date keeps row 4, without a time.
+    assert_eq!(incomplete(&l), vec![r(4, "date", RejectReason::Empty, "")]);
+    assert_eq!(l.row, vec![4, 7]);
+    let t = l.time.clone().unwrap();
+    assert!(t[0].is_nan() && t[1] == MARCH_4_2025);
 }
 
 #[test]
@@ -328,8 +387,10 @@ fn bad_dates() {
         "x,y,date\n1,1,2025-02-29\n1,1,31/04/2025\n1,1,2024-02-29\n1,1,13/13/2025\n1,1,2025-03-04 25:00\n1,1,soon\n",
     );
     check_invariants(&l);
+    // Unreadable dates keep their rows (spatially) and are listed.
+    assert!(l.rejections.is_empty());
     assert_eq!(
-        rejections(&l),
+        incomplete(&l),
         vec![
             r(2, "date", RejectReason::BadTime, "2025-02-29"),
             r(3, "date", RejectReason::BadTime, "31/04/2025"),
@@ -339,19 +400,29 @@ fn bad_dates() {
         ]
     );
     // 2024 is a leap year: 2024-02-29 is day 19782 (Python datetime reference).
-    assert_eq!(l.time, Some(vec![19782.0]));
+    let t = l.time.clone().unwrap();
+    assert_eq!(t.len(), 6);
+    assert_eq!(
+        t.iter()
+            .filter(|v| v.is_finite())
+            .copied()
+            .collect::<Vec<_>>(),
+        vec![19782.0]
+    );
+    assert_eq!(l.missing_time(), 5);
 }
 
 #[test]
 fn month_first_dates() {
     let opts = ReadOptions {
-        date_order: DateOrder::MonthDayYear,
+        date_order: Some(DateOrder::MonthDayYear),
         ..Default::default()
     };
     let l = read_points(b"x,y,date\n1,1,03/04/2025\n1,1,31/04/2025\n", &opts).unwrap();
-    assert_eq!(l.time, Some(vec![MARCH_4_2025]));
+    assert_eq!(l.time.as_ref().unwrap()[0], MARCH_4_2025);
+    assert!(l.time.as_ref().unwrap()[1].is_nan());
     assert_eq!(
-        rejections(&l),
+        incomplete(&l),
         vec![r(3, "date", RejectReason::BadTime, "31/04/2025")]
     );
 }
@@ -387,8 +458,11 @@ fn every_row_rejected_still_reads() {
 #[test]
 fn rejection_messages_read_well() {
     // Comma-delimited, so a quoted "12,5" is not a number (and gets a hint).
+    // Rows not used and values left out read the same way, in row order.
     let l = read("x,y,weight,date\n1,\"12,5\",1,2025-01-01\n1,1,-3,2025-01-01\n1,1,1,2025-02-30\n1,1,1,\n1,1\n");
-    let msgs: Vec<String> = l.rejections.iter().map(|r| r.to_string()).collect();
+    let mut all: Vec<_> = l.rejections.iter().chain(&l.incomplete).collect();
+    all.sort_by_key(|r| r.row);
+    let msgs: Vec<String> = all.iter().map(|r| r.to_string()).collect();
     assert_eq!(
         msgs,
         vec![
@@ -416,21 +490,219 @@ fn geojson_rejections() {
         rejections(&l),
         vec![
             r(2, "geometry", RejectReason::BadGeometry, "null geometry"),
-            r(3, "date", RejectReason::BadTime, "31/04/2025"),
             r(4, "geometry", RejectReason::BadGeometry, "Polygon"),
         ]
     );
-    assert_eq!(l.time, Some(vec![MARCH_4_2025]));
+    assert_eq!(
+        incomplete(&l),
+        vec![r(3, "date", RejectReason::BadTime, "31/04/2025")]
+    );
+    assert_eq!(l.time.as_ref().unwrap()[0], MARCH_4_2025);
+    assert!(l.time.as_ref().unwrap()[1].is_nan());
     assert_eq!(l.format, SourceFormat::GeoJson);
+}
+
+// ------------------------------------------------------------ date order
+
+/// 2025-04-23 as days since 1970-01-01: 2025-03-04 is day 20151 (Python
+/// datetime reference above); March has 31 days, so 4 March + 50 days.
+const APRIL_23_2025: f64 = MARCH_4_2025 + 50.0;
+
+#[test]
+fn month_day_year_file_is_detected() {
+    // Rows 2 and 3 fit both orders; row 4's 23 can only be a day, and it is
+    // in the second place, so the file is month/day/year.
+    let l = read("x,y,date\n1,1,03/04/2025\n1,1,04/03/2025\n1,1,04/23/2025\n");
+    check_invariants(&l);
+    let d = l.date_order.clone().unwrap();
+    assert_eq!(
+        (d.used, d.source, d.ambiguous),
+        (DateOrder::MonthDayYear, OrderSource::Detected, false)
+    );
+    assert!(
+        d.text
+            .contains("04/23/2025 on row 4 can only be month/day/year"),
+        "{}",
+        d.text
+    );
+    // 03/04/2025 read month first is 4 March; 04/23/2025 is 23 April.
+    assert_eq!(
+        l.time,
+        Some(vec![MARCH_4_2025, MARCH_4_2025 + 30.0, APRIL_23_2025])
+    );
+    assert!(l.rejections.is_empty() && l.incomplete.is_empty());
+}
+
+#[test]
+fn day_month_year_file_is_detected() {
+    let l = read("x,y,date\n1,1,04/03/2025\n1,1,23.04.2025\n");
+    let d = l.date_order.clone().unwrap();
+    assert_eq!(
+        (d.used, d.source),
+        (DateOrder::DayMonthYear, OrderSource::Detected)
+    );
+    assert!(
+        d.text
+            .contains("23.04.2025 on row 3 can only be day/month/year"),
+        "{}",
+        d.text
+    );
+    assert_eq!(l.time, Some(vec![MARCH_4_2025, APRIL_23_2025]));
+}
+
+#[test]
+fn ambiguous_file_raises_the_question() {
+    let l = read("x,y,date\n1,1,04/03/2025\n1,1,05/05/2025\n1,1,2025-06-01\n");
+    let d = l.date_order.clone().unwrap();
+    assert_eq!(
+        (d.used, d.source, d.ambiguous),
+        (DateOrder::DayMonthYear, OrderSource::Ambiguous, true)
+    );
+    let ex = d.example.unwrap();
+    assert_eq!((ex.row, ex.value.as_str()), (2, "04/03/2025"));
+    assert_eq!(
+        (ex.day_month_year.as_str(), ex.month_day_year.as_str()),
+        ("2025-03-04", "2025-04-03")
+    );
+    // Only ISO dates: nothing to ask.
+    let l = read("x,y,date\n1,1,2025-03-04\n");
+    assert!(!l.date_order.unwrap().ambiguous);
+}
+
+#[test]
+fn explicit_date_order_wins() {
+    let opts = ReadOptions {
+        date_order: Some(DateOrder::DayMonthYear),
+        ..Default::default()
+    };
+    // The data say month/day/year, the user says day/month/year: the user
+    // wins, and 04/23/2025 (no month 23) is listed as unreadable.
+    let l = read_points(b"x,y,date\n1,1,03/04/2025\n1,1,04/23/2025\n", &opts).unwrap();
+    let d = l.date_order.clone().unwrap();
+    assert_eq!(
+        (d.used, d.source, d.ambiguous),
+        (DateOrder::DayMonthYear, OrderSource::Given, false)
+    );
+    assert_eq!(l.time.as_ref().unwrap()[0], MARCH_4_2025 + 30.0); // 3 April: 27 days of March left, then 3
+    assert_eq!(
+        incomplete(&l),
+        vec![r(3, "date", RejectReason::BadTime, "04/23/2025")]
+    );
+}
+
+#[test]
+fn contradictory_dates_are_said_and_listed() {
+    let l = read("x,y,date\n1,1,23/04/2025\n1,1,24/04/2025\n1,1,04/25/2025\n");
+    let d = l.date_order.clone().unwrap();
+    assert_eq!(
+        (d.used, d.source),
+        (DateOrder::DayMonthYear, OrderSource::Contradictory)
+    );
+    assert!(d.text.contains("do not agree"), "{}", d.text);
+    assert_eq!(
+        incomplete(&l),
+        vec![r(4, "date", RejectReason::BadTime, "04/25/2025")]
+    );
+    assert_eq!(l.len(), 3);
+}
+
+// ------------------------------------------- optional values keep the row
+
+#[test]
+fn blank_date_is_kept_spatially_and_counted() {
+    let l = read("x,y,date,weight\n0,0,2025-03-04,1\n10,0,,2\n0,10,2025-03-04,\n10,10,2025-03-05,x\n5,5,2025-03-06,3\n");
+    check_invariants(&l);
+    assert!(l.rejections.is_empty());
+    assert_eq!((l.len(), l.missing_time(), l.missing_weight()), (5, 1, 2));
+    let s = Study::build(&l, None, None, AreaFallback::BoundingBox).unwrap();
+    // All five events are in the spatial layer.
+    assert_eq!(s.events.len(), 5);
+    assert_eq!(s.events.x(), &[0.0, 10.0, 0.0, 10.0, 5.0]);
+    let rep = s.report();
+    assert_eq!((rep.events_without_time, rep.events_without_weight), (1, 2));
+    assert!(
+        rep.warnings
+            .iter()
+            .any(|w| w.contains("1 event(s) have no usable date: left out of the time analyses")),
+        "{:?}",
+        rep.warnings
+    );
+    assert!(
+        rep.warnings
+            .iter()
+            .any(|w| w.contains("2 event(s) have no usable weight: they count 0")),
+        "{:?}",
+        rep.warnings
+    );
+    // Weighted analyses see 0, never a silent 1.
+    assert_eq!(
+        s.events.weights_or_zero().unwrap().as_ref(),
+        &[1.0, 2.0, 0.0, 0.0, 3.0]
+    );
+    // The time summary counts only the events with a date.
+    let sm = cloister::summary::summarise(&s);
+    assert_eq!(sm.time_span.unwrap().n_with_time, 4);
+}
+
+// ---------------------------------------------------- headers in languages
+
+#[test]
+fn german_french_spanish_headers_are_mapped() {
+    let cases = [
+        (
+            "Breite;Länge;Meldedatum;Kategorie;Anzahl\n48,1;11,5;04.03.2025;a;2\n",
+            "Länge",
+            "Breite",
+            "Meldedatum",
+            "Kategorie",
+            "Anzahl",
+        ),
+        (
+            "Latitude;Longitude;Date de déclaration;Catégorie;Poids\n48,1;11,5;04/03/2025;a;2\n",
+            "Longitude",
+            "Latitude",
+            "Date de déclaration",
+            "Catégorie",
+            "Poids",
+        ),
+        (
+            "Latitud,Longitud,Fecha,Tipo,Casos\n48.1,11.5,04/03/2025,a,2\n",
+            "Longitud",
+            "Latitud",
+            "Fecha",
+            "Tipo",
+            "Casos",
+        ),
+    ];
+    for (text, x, y, t, c, w) in cases {
+        let l = read(text);
+        check_invariants(&l);
+        assert_eq!(l.coords, CoordKind::LonLat, "{text}");
+        let m = &l.mapping;
+        assert_eq!(
+            (
+                m.x.as_deref(),
+                m.y.as_deref(),
+                m.time.as_deref(),
+                m.category.as_deref(),
+                m.weight.as_deref()
+            ),
+            (Some(x), Some(y), Some(t), Some(c), Some(w)),
+        );
+        assert_eq!((l.x.clone(), l.y.clone()), (vec![11.5], vec![48.1]));
+        assert_eq!(l.time, Some(vec![MARCH_4_2025]));
+        assert_eq!(l.weight, Some(vec![2.0]));
+    }
 }
 
 // -------------------------------------------------------- never a panic
 
 fn random_options(rng: &mut cloister::rng::Rng) -> ReadOptions {
-    let date_order = match rng.random_range(0..3) {
-        0 => DateOrder::DayMonthYear,
-        1 => DateOrder::MonthDayYear,
-        _ => DateOrder::YearMonthDay,
+    let date_order = match rng.random_range(0..4) {
+        0 => Some(DateOrder::DayMonthYear),
+        1 => Some(DateOrder::MonthDayYear),
+        2 => Some(DateOrder::YearMonthDay),
+        _ => None,
     };
     let coords = match rng.random_range(0..3) {
         0 => None,

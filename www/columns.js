@@ -16,7 +16,33 @@ export function currentOptions() {
   }
   const kind = $('map-coords').value;
   const coords = kind === 'lon_lat' ? { kind: 'lon_lat' } : { kind: 'planar', unit: kind };
-  return { mapping, coords, date_order: $('map-date').value };
+  const order = $('map-date').value;
+  // Empty = let the engine detect the order from the dates.
+  return order === '' ? { mapping, coords } : { mapping, coords, date_order: order };
+}
+
+/** The date order the engine used and why; when the dates cannot tell,
+ * a question with one example read both ways (the user's answer re-reads
+ * the file through the date-order control). */
+function renderDateOrder(report, given) {
+  const info = report && report.date_order;
+  $('date-order-text').hidden = !info;
+  $('date-order-text').textContent = info ? `Dates: ${info.text}.` : '';
+  const ask = !!(report && report.date_order_ambiguous && !given && info && info.example);
+  $('date-question').hidden = !ask;
+  if (!ask) return;
+  const ex = info.example;
+  $('date-question-text').textContent = `Are the dates day/month/year or month/day/year? The file cannot tell: every date has day and month both 12 or less. Row ${ex.row} holds ${ex.value}.`;
+  const answer = (id, order, label, iso) => {
+    const b = $(id);
+    b.textContent = `${label}: ${ex.value} is ${iso}`;
+    b.onclick = () => {
+      $('map-date').value = order;
+      $('map-date').dispatchEvent(new Event('change'));
+    };
+  };
+  answer('date-dmy', 'day_month_year', 'Day first', ex.day_month_year);
+  answer('date-mdy', 'month_day_year', 'Month first', ex.month_day_year);
 }
 
 export function renderMapping(report, pending = false) {
@@ -48,7 +74,8 @@ export function renderMapping(report, pending = false) {
   $('map-coords').value = coords.kind === 'planar' ? coords.unit || 'metre' : 'lon_lat';
   const kept = state.mapLayer === 'controls' ? state.controls : state.events;
   const opts = pending && state.pendingFile ? state.pendingFile.options : kept ? kept.options : {};
-  $('map-date').value = (opts && opts.date_order) || 'day_month_year';
+  $('map-date').value = (opts && opts.date_order) || '';
+  renderDateOrder(pending ? null : report, !!(opts && opts.date_order));
   // The controls always use the events' kind of coordinates.
   $('map-coords').disabled = state.mapLayer === 'controls';
   if (pending) return;
@@ -58,6 +85,7 @@ export function renderMapping(report, pending = false) {
     const d = fmtInfo.delimiter === '\t' ? 'tab' : fmtInfo.delimiter === ';' ? 'semicolon' : fmtInfo.delimiter === ',' ? 'comma' : `"${fmtInfo.delimiter}"`;
     how = `Table separated by ${d}${fmtInfo.decimal_comma ? ', decimal comma' : ''}`;
   }
+  if (report.encoding_name) how += `, text in ${report.encoding_name}`;
   $('mapping-hint').textContent = `${how}. Change a choice to read the file again.`;
 }
 
@@ -85,17 +113,24 @@ function renderPendingMapping(columns, name, options) {
 }
 
 /** After a failed read: if the coordinate columns were not found in a table,
- * keep the bytes and let the user choose the columns in the editor. */
+ * keep the bytes and let the user choose the columns in the editor. The
+ * engine's error carries the header's names as it decoded them (any
+ * encoding); the page's own reading of the first line is the fallback.
+ * Returns true when the editor is offered. */
 export function offerColumns(layer, bytes, name, options, err) {
   const wasPending = state.pendingFile && state.pendingFile.layer === layer && state.pendingFile.bytes === bytes;
-  const columns = err && (err.code === 'missing_columns' || wasPending) ? headerColumns(bytes) : [];
+  const fromEngine = err && err.code === 'missing_columns' && Array.isArray(err.columns) ? err.columns : null;
+  const columns = fromEngine || (err && (err.code === 'missing_columns' || wasPending) ? headerColumns(bytes) : []);
+  let offered = false;
   if (columns.length > 1) {
-    state.pendingFile = { layer, bytes, name, options };
+    state.pendingFile = { layer, bytes, name, options, columns };
     state.mapLayer = layer;
+    offered = true;
   } else if (wasPending) {
     state.pendingFile = null;
   }
   showMapping();
+  return offered && !!err && err.code === 'missing_columns';
 }
 
 /** Shows the column editor for the file chosen in it (events or controls). */
@@ -107,7 +142,7 @@ export function showMapping() {
   $('map-layer').value = state.mapLayer;
   const p = state.pendingFile;
   if (p && p.layer === state.mapLayer) {
-    const columns = headerColumns(p.bytes);
+    const columns = p.columns || headerColumns(p.bytes);
     renderPendingMapping(columns, p.name, p.options);
   } else {
     renderMapping(state.reports[state.mapLayer]);

@@ -7,7 +7,7 @@ import { state } from './state.js';
 import { setStatus, showError, showAction, clearError } from './status.js';
 import { call } from './engine.js';
 import { currentOptions, offerColumns, showMapping } from './columns.js';
-import { refresh } from './results.js';
+import { refresh, fileLineText } from './results.js';
 
 export async function readFile(file) {
   return new Uint8Array(await file.arrayBuffer());
@@ -54,6 +54,7 @@ async function loadEventsInner(bytes, name, options, { refreshAfter = true, fres
     }
     showMapping();
     renderFileLine('events-name', name, report);
+    renderRejectedBanner(report);
     if (report.study_error) showError('The events were read, but the study could not be set up', report.study_error);
     if (refreshAfter) await refresh(!fresh);
     setStatus(`${name}: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used.`);
@@ -115,12 +116,24 @@ function warnIfMostlyOutside(name, report, bytes, options) {
  * status line saying what is still loaded. Returns false. */
 function pointsNotRead(layer, bytes, name, options, err) {
   if (err && err.code === 'engine_stopped') return false;
-  showError(`Could not read ${name}`, err);
-  offerColumns(layer, bytes, name, options, err);
+  // Coordinate columns not found: the column editor opens with the file's
+  // column names (a question, not a red error).
+  const asked = offerColumns(layer, bytes, name, options, err);
+  if (asked) clearError();
+  else showError(`Could not read ${name}`, err);
   const kept = state[layer] ? `Kept the previous ${layer}: ${state[layer].name}.` : `No ${layer} loaded.`;
   const waiting = state.pendingFile && state.pendingFile.layer === layer;
-  setStatus(waiting ? `Choose the coordinate columns of ${name}. ${kept}` : kept);
+  const why = asked && err && err.message ? ` (${err.message})` : '';
+  setStatus(waiting ? `Choose the coordinate columns of ${name} below${why}. ${kept}` : kept);
   return false;
+}
+
+/** A warning when many rows of the events could not be used (the share and
+ * its threshold come from the engine's load report). */
+function renderRejectedBanner(report) {
+  const b = $('rejected-banner');
+  b.hidden = !(report && report.many_rejected);
+  b.textContent = report && report.many_rejected ? report.many_rejected_text : '';
 }
 
 export async function loadArea(bytes, name, { refreshAfter = true } = {}) {
@@ -368,8 +381,7 @@ export async function mappingChanged() {
 }
 
 function renderFileLine(id, name, report) {
-  const rows = report ? `: ${fmt(report.accepted)} of ${plural(report.rows_read, 'row', 'rows')} used` : '';
-  $(id).textContent = `${name}${rows}`;
+  $(id).textContent = fileLineText(name, report, report ? report.accepted : NaN, report ? report.rows_read : 0);
 }
 
 export function renderAreaMode() {

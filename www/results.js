@@ -43,13 +43,23 @@ export async function refresh(keepView) {
   await loadRejections();
 }
 
+/** The text under a points file's input: its name, the text encoding when
+ * it is not plain UTF-8, how many rows are in use, and how many values were
+ * left out of rows that are kept. */
+export function fileLineText(name, report, used, read) {
+  const enc = report && report.encoding && report.encoding !== 'utf8' ? ` (${report.encoding_name})` : '';
+  if (!Number.isFinite(num(used))) return `${name}${enc}`;
+  const left = report && report.incomplete_count > 0 ? `; ${plural(report.incomplete_count, 'value', 'values')} left out (see Data quality)` : '';
+  return `${name}${enc}: ${fmt(used)} of ${plural(read, 'row', 'rows')} used${left}`;
+}
+
 /** The line under each file input: file name and how many rows are in use now. */
 function renderFileLines(study) {
   const line = (id, kept, report, used, read) => {
     if (!kept) return;
     const u = study && used !== null && used !== undefined ? used : report && report.accepted;
     const r = study && read !== null && read !== undefined ? read : report && report.rows_read;
-    $(id).textContent = Number.isFinite(num(u)) ? `${kept.name}: ${fmt(u)} of ${plural(r, 'row', 'rows')} used` : kept.name;
+    $(id).textContent = fileLineText(kept.name, report, u, r);
   };
   line('events-name', state.events, state.reports.events, study && study.events, study && study.events_rows_read);
   line('controls-name', state.controls, state.reports.controls, study && study.controls, study && study.controls_rows_read);
@@ -155,6 +165,18 @@ function renderQuality(snap) {
       const ul = el('ul', { class: 'reasons' });
       for (const r of reasons) ul.append(el('li', null, `${r.reason_text || r.reason}: ${fmt(r.count)}`));
       box.append(ul);
+    }
+    // Rows kept with an optional value left out (an unreadable date or weight).
+    const incomplete = Array.from(report.incomplete || []);
+    if (report.incomplete_count > 0) {
+      const list = el('ul', { class: 'reasons', 'data-incomplete': key });
+      for (const r of incomplete) {
+        const value = r.value === '' || r.value === null || r.value === undefined ? '(empty)' : r.value;
+        list.append(el('li', null, `row ${fmt(r.row)}, ${r.column ?? '—'}: ${r.reason_text || r.reason} (${value})`));
+      }
+      const more = report.incomplete_count > incomplete.length ? ` (first ${fmt(incomplete.length)} listed)` : '';
+      box.append(el('details', { class: 'incomplete' },
+        el('summary', null, `Kept, with a value left out: ${fmt(report.incomplete_count)}${more}`), list));
     }
   };
   layerLine('Events', 'events', state.reports.events,

@@ -116,12 +116,14 @@ pub struct DbscanResult {
 
 /// DBSCAN on a pattern (see the module docs).
 pub fn dbscan(pattern: &Pattern, o: &DbscanOptions) -> Result<DbscanResult, AnalysisError> {
+    // A point without a usable weight counts 0 (see `Pattern`): it adds
+    // nothing to any neighbour count but still gets a label.
     let w = if o.use_weights {
-        pattern.weight()
+        pattern.weights_or_zero()
     } else {
         None
     };
-    dbscan_xy(pattern.x(), pattern.y(), w, o)
+    dbscan_xy(pattern.x(), pattern.y(), w.as_deref(), o)
 }
 
 /// DBSCAN on bare coordinates in metres.

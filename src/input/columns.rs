@@ -1,8 +1,21 @@
 //! Detects column roles from header names.
 //!
-//! Header names are compared after [`normalize`]: lower case, anything in
-//! brackets dropped (so `Easting (m)` matches `easting`), and only letters and
-//! digits kept (so `Lon_DD`, `lon dd` and `lon-dd` all become `londd`).
+//! Header names are compared after [`normalize`]: lower case, accents and
+//! other marks taken off Latin letters (`Länge` → `lange`, `Fälle` →
+//! `falle`, `Szerokość` → `szerokosc`; `ß` → `ss`, `æ` → `ae`, `ø` → `o`),
+//! anything in brackets dropped (so `Easting (m)` matches `easting`), and
+//! only letters and digits kept (so `Lon_DD`, `lon dd` and `lon-dd` all
+//! become `londd`).
+//!
+//! **Languages.** Besides English, the lists hold the usual header words of
+//! German, French, Spanish, Italian, Portuguese, Dutch, Polish, Swedish,
+//! Danish and Norwegian for each role (e.g. `Breite`/`Länge`, `latitud`,
+//! `Meldedatum`, `fecha`, `Kategorie`, `Anzahl`). Words that often name an
+//! identifier (`Nummer`, `numero`, `nombre`) are left out of the weight
+//! names on purpose: a record number read as a weight would be wrong
+//! silently. A coordinate column is only detected as one of a pair, so a
+//! word that can also mean "length" or "width" (`Länge`, `lengte`, `breedte`)
+//! is used only when its partner is there too.
 //!
 //! Each role has a list of accepted names, tried in list order: the first name
 //! that some header matches wins, and within one name the leftmost header.
@@ -29,6 +42,18 @@ pub const X_NAMES: &[&str] = &[
     "xcoord",
     "xcoordinate",
     "coordx",
+    // de
+    "rechtswert",
+    "ostwert",
+    "xkoordinate",
+    // fr, es, it, pt
+    "coordonneex",
+    "coordenadax",
+    "coordinatax",
+    // nl, pl, sv/da/no
+    "xcoordinaat",
+    "wspolrzednax",
+    "xkoordinat",
 ];
 
 /// Planar y names (after [`normalize`]): y, northing, north and variants.
@@ -40,6 +65,18 @@ pub const Y_NAMES: &[&str] = &[
     "ycoord",
     "ycoordinate",
     "coordy",
+    // de
+    "hochwert",
+    "nordwert",
+    "ykoordinate",
+    // fr, es, it, pt
+    "coordonneey",
+    "coordenaday",
+    "coordinatay",
+    // nl, pl, sv/da/no
+    "ycoordinaat",
+    "wspolrzednay",
+    "ykoordinat",
 ];
 
 /// Longitude names (after [`normalize`]). `decimallongitude` is the Darwin Core term.
@@ -52,10 +89,55 @@ pub const LON_NAMES: &[&str] = &[
     "lngdd",
     "longdd",
     "decimallongitude",
+    // de (Länge, Laenge, Längengrad, geogr. Länge)
+    "lange",
+    "laenge",
+    "langengrad",
+    "laengengrad",
+    "geogrlange",
+    // es, sv (longitud), it
+    "longitud",
+    "longitudine",
+    // nl
+    "lengtegraad",
+    "lengte",
+    // pl (długość, długość geograficzna)
+    "dlugosc",
+    "dlugoscgeograficzna",
+    // sv (längd, längdgrad), da (længdegrad, længde), no (lengdegrad, lengde)
+    "langd",
+    "langdgrad",
+    "laengdegrad",
+    "laengde",
+    "lengdegrad",
+    "lengde",
 ];
 
 /// Latitude names (after [`normalize`]). `decimallatitude` is the Darwin Core term.
-pub const LAT_NAMES: &[&str] = &["lat", "latitude", "latdd", "decimallatitude"];
+pub const LAT_NAMES: &[&str] = &[
+    "lat",
+    "latitude",
+    "latdd",
+    "decimallatitude",
+    // de (Breite, Breitengrad, geogr. Breite)
+    "breite",
+    "breitengrad",
+    "geogrbreite",
+    // es, sv (latitud), it
+    "latitud",
+    "latitudine",
+    // nl
+    "breedtegraad",
+    "breedte",
+    // pl (szerokość, szerokość geograficzna)
+    "szerokosc",
+    "szerokoscgeograficzna",
+    // sv (bredd, breddgrad), da/no (breddegrad, bredde)
+    "bredd",
+    "breddgrad",
+    "breddegrad",
+    "bredde",
+];
 
 /// Time names (after [`normalize`]), most specific first: a combined
 /// date-time column is preferred to a date, and a date to a bare "time".
@@ -72,17 +154,131 @@ pub const TIME_NAMES: &[&str] = &[
     "reporteddate",
     "datereported",
     "time",
+    // de: Datum, Meldedatum, Erkrankungsdatum, Tatzeit, Zeitpunkt, Zeit, Uhrzeit
+    "datumzeit",
+    "zeitstempel",
+    "datum",
+    "meldedatum",
+    "erkrankungsdatum",
+    "tatdatum",
+    "tatzeit",
+    "zeitpunkt",
+    "zeit",
+    "uhrzeit",
+    // fr: date et heure, date de déclaration, heure
+    "dateheure",
+    "datedeclaration",
+    "datededeclaration",
+    "heure",
+    // es / pt: fecha, fecha y hora, data e hora, hora
+    "fechahora",
+    "fechayhora",
+    "fecha",
+    "fechadenotificacion",
+    "datahora",
+    "dataehora",
+    "hora",
+    // it: data, data e ora, ora
+    "dataora",
+    "data",
+    "datasegnalazione",
+    "ora",
+    // nl: datum (above), meldingsdatum, tijdstip, tijd
+    "meldingsdatum",
+    "tijdstip",
+    "tijd",
+    // pl: data (above), data zgłoszenia, czas
+    "datazgloszenia",
+    "czas",
+    // sv/da/no: datum (above), dato, tidpunkt, tidspunkt, tid
+    "dato",
+    "tidpunkt",
+    "tidspunkt",
+    "tid",
 ];
 
 /// Category names (after [`normalize`]).
 pub const CATEGORY_NAMES: &[&str] = &[
-    "category", "type", "class", "group", "kind", "cat", "species",
+    "category",
+    "type",
+    "class",
+    "group",
+    "kind",
+    "cat",
+    "species",
+    // de
+    "kategorie",
+    "typ",
+    "art",
+    "klasse",
+    "gruppe",
+    // fr
+    "categorie",
+    "classe",
+    "groupe",
+    // es / it / pt
+    "categoria",
+    "tipo",
+    "clase",
+    "grupo",
+    "gruppo",
+    // nl
+    "soort",
+    "groep",
+    // pl
+    "kategoria",
+    "rodzaj",
+    "klasa",
+    "grupa",
+    // sv / da / no
+    "kategori",
+    "klass",
+    "grupp",
 ];
 
 /// Weight names (after [`normalize`]).
-pub const WEIGHT_NAMES: &[&str] = &["weight", "count", "n", "cases", "ncases", "wt"];
+pub const WEIGHT_NAMES: &[&str] = &[
+    "weight",
+    "count",
+    "n",
+    "cases",
+    "ncases",
+    "wt",
+    // de
+    "gewicht",
+    "anzahl",
+    "falle",
+    "faelle",
+    "fallzahl",
+    // fr
+    "poids",
+    "cas",
+    "nombredecas",
+    // es / pt
+    "peso",
+    "cantidad",
+    "casos",
+    "quantidade",
+    // it
+    "casi",
+    "conteggio",
+    // nl
+    "aantal",
+    "gevallen",
+    // pl
+    "waga",
+    "liczba",
+    "przypadki",
+    // sv / da / no
+    "vikt",
+    "antal",
+    "vaegt",
+    "vekt",
+    "antall",
+];
 
-/// Lower case, bracketed parts removed, letters and digits only.
+/// Lower case, accents folded ([`fold_latin`]), bracketed parts removed,
+/// letters and digits only.
 pub fn normalize(name: &str) -> String {
     let mut out = String::with_capacity(name.len());
     let mut depth = 0u32;
@@ -90,11 +286,43 @@ pub fn normalize(name: &str) -> String {
         match c {
             '(' | '[' | '{' => depth += 1,
             ')' | ']' | '}' => depth = depth.saturating_sub(1),
-            c if depth == 0 && c.is_alphanumeric() => out.extend(c.to_lowercase()),
+            c if depth == 0 && c.is_alphanumeric() => {
+                for l in c.to_lowercase() {
+                    match fold_latin(l) {
+                        Some(f) => out.push_str(f),
+                        None => out.push(l),
+                    }
+                }
+            }
             _ => {}
         }
     }
     out
+}
+
+/// The plain letters for a lower-case accented Latin letter of the European
+/// languages above (`ä` → `a`, `ß` → `ss`, `æ` → `ae`, `ł` → `l`), or `None`.
+pub fn fold_latin(c: char) -> Option<&'static str> {
+    Some(match c {
+        'à' | 'á' | 'â' | 'ã' | 'ä' | 'å' | 'ą' | 'ā' => "a",
+        'æ' => "ae",
+        'ç' | 'ć' | 'č' => "c",
+        'ď' | 'đ' => "d",
+        'è' | 'é' | 'ê' | 'ë' | 'ę' | 'ě' | 'ē' => "e",
+        'ì' | 'í' | 'î' | 'ï' | 'ī' => "i",
+        'ł' => "l",
+        'ñ' | 'ń' | 'ň' => "n",
+        'ò' | 'ó' | 'ô' | 'õ' | 'ö' | 'ø' | 'ō' | 'ő' => "o",
+        'œ' => "oe",
+        'ř' => "r",
+        'ś' | 'š' => "s",
+        'ß' => "ss",
+        'ť' => "t",
+        'ù' | 'ú' | 'û' | 'ü' | 'ů' | 'ū' | 'ű' => "u",
+        'ý' | 'ÿ' => "y",
+        'ź' | 'ż' | 'ž' => "z",
+        _ => return None,
+    })
 }
 
 /// Index of the first header (by `names` priority, then left to right) whose
@@ -325,6 +553,105 @@ mod tests {
         assert_eq!(normalize("Easting (m)"), "easting");
         assert_eq!(normalize("Date-Time [UTC]"), "datetime");
         assert_eq!(normalize("X"), "x");
+        // Accents and marks fold to plain letters.
+        assert_eq!(normalize("Länge"), "lange");
+        assert_eq!(normalize("Fälle"), "falle");
+        assert_eq!(normalize("Szerokość geograficzna"), "szerokoscgeograficzna");
+        assert_eq!(normalize("Straße"), "strasse");
+        assert_eq!(normalize("Længdegrad"), "laengdegrad");
+        assert_eq!(normalize("Catégorie"), "categorie");
+        assert_eq!(normalize("DŁUGOŚĆ"), "dlugosc");
+    }
+
+    #[test]
+    fn european_headers() {
+        let roles = |names: &[&str]| {
+            let hs = h(names);
+            let xy = resolve_xy(&hs, &Default::default(), None).unwrap();
+            let a = resolve_attributes(&hs, &Default::default(), &[xy.x, xy.y]).unwrap();
+            (
+                xy.x,
+                xy.y,
+                xy.coords,
+                a.time.map(|r| r.index),
+                a.category.map(|r| r.index),
+                a.weight.map(|r| r.index),
+            )
+        };
+        let ll = CoordKind::LonLat;
+        // German, French, Spanish, Italian, Portuguese, Dutch, Polish, Swedish, Danish.
+        let cases: [(&[&str], (usize, usize)); 9] = [
+            (
+                &["Breite", "Länge", "Meldedatum", "Kategorie", "Anzahl"],
+                (1, 0),
+            ),
+            (
+                &["Latitude", "Longitude", "Date", "Catégorie", "Poids"],
+                (1, 0),
+            ),
+            (&["Latitud", "Longitud", "Fecha", "Tipo", "Casos"], (1, 0)),
+            (
+                &["Latitudine", "Longitudine", "Data", "Categoria", "Peso"],
+                (1, 0),
+            ),
+            (
+                &[
+                    "Latitude",
+                    "Longitude",
+                    "Data e hora",
+                    "Grupo",
+                    "Quantidade",
+                ],
+                (1, 0),
+            ),
+            (
+                &[
+                    "Breedtegraad",
+                    "Lengtegraad",
+                    "Meldingsdatum",
+                    "Soort",
+                    "Aantal",
+                ],
+                (1, 0),
+            ),
+            (
+                &[
+                    "Szerokość",
+                    "Długość",
+                    "Data zgłoszenia",
+                    "Rodzaj",
+                    "Liczba",
+                ],
+                (1, 0),
+            ),
+            (
+                &["Breddgrad", "Längdgrad", "Datum", "Kategori", "Antal"],
+                (1, 0),
+            ),
+            (
+                &["Breddegrad", "Længdegrad", "Dato", "Gruppe", "Antal"],
+                (1, 0),
+            ),
+        ];
+        for (names, (x, y)) in cases {
+            assert_eq!(
+                roles(names),
+                (x, y, ll, Some(2), Some(3), Some(4)),
+                "{names:?}"
+            );
+        }
+        // Planar German grid names.
+        let hs = h(&["Rechtswert", "Hochwert"]);
+        let r = resolve_xy(&hs, &Default::default(), None).unwrap();
+        assert_eq!((r.x, r.y), (0, 1));
+        // An identifier column is not a weight.
+        let hs = h(&["x", "y", "Nummer", "Numero"]);
+        assert_eq!(
+            resolve_attributes(&hs, &Default::default(), &[0, 1])
+                .unwrap()
+                .weight,
+            None
+        );
     }
 
     #[test]

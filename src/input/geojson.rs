@@ -35,7 +35,7 @@
 use super::columns::{self, AttrRole};
 use super::layer::{keep_if_readable, range_problem, weight_value, Builder};
 use super::text::cut_value;
-use super::time::parse_time;
+use super::time::{parse_time, readable_any_order, OrderDetector};
 use super::{
     CoordKind, LengthUnit, RawArea, RawLayer, ReadOptions, RejectReason, ResolvedMapping,
     SourceFormat,
@@ -363,7 +363,7 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
         }
     }
     let attrs = columns::resolve_attributes(&columns, &opts.mapping, &[])?;
-    let order = opts.date_order;
+    let given_order = opts.date_order;
     let sample = &feats[..feats.len().min(super::layer::SAMPLE_RECORDS)];
     let sample_texts = |r: Option<AttrRole>| -> Vec<String> {
         let Some(r) = r else { return Vec::new() };
@@ -376,8 +376,23 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
     };
     let times = sample_texts(attrs.time);
     let time_role = keep_if_readable(attrs.time, times.iter().map(String::as_str), |s| {
-        parse_time(s, order).is_some()
+        readable_any_order(s, given_order)
     });
+    // Date order from every feature's time text, unless given.
+    let date_order = time_role.map(|r| {
+        let mut det = OrderDetector::default();
+        if given_order.is_none() {
+            for (i, f) in feats.iter().enumerate() {
+                if let Some(Json::String(s)) = f.properties.and_then(|p| p.get(&columns[r.index])) {
+                    det.add(i as u64 + 1, s);
+                }
+            }
+        }
+        det.finish(given_order)
+    });
+    let order = date_order
+        .as_ref()
+        .map_or(super::DateOrder::DayMonthYear, |d| d.used);
     let weights = sample_texts(attrs.weight);
     let weight_role = keep_if_readable(attrs.weight, weights.iter().map(String::as_str), |s| {
         weight_value(s, false, &mut String::new()).is_some()
@@ -446,6 +461,7 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
         let cat_text = attrs
             .category
             .map(|r| prop_text(f.properties, &columns[r.index]));
+        let mut noted = false;
         for p in points_of(f.geometry) {
             b.rows_read += 1;
             let (x, y) = match p {
@@ -466,23 +482,21 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
                 b.reject(row, Some(GEOMETRY_COLUMN), reason, &v.to_string());
                 continue;
             }
-            let mut t = (0.0, false);
+            // An unusable time or weight keeps the point (NaN), noted
+            // once per feature.
+            let first_point = !noted;
+            noted = true;
+            let mut t = (f64::NAN, false);
             match &time {
                 Some(Ok(p)) => t = (p.days, p.has_clock),
-                Some(Err((col, reason, v))) => {
-                    b.reject(row, Some(col), reason.clone(), v);
-                    continue;
-                }
-                None => {}
+                Some(Err((col, reason, v))) if first_point => b.note(row, col, reason.clone(), v),
+                _ => {}
             }
-            let mut w = 1.0;
+            let mut w = f64::NAN;
             match &weight {
                 Some(Ok(v)) => w = *v,
-                Some(Err((col, reason, v))) => {
-                    b.reject(row, Some(col), reason.clone(), v);
-                    continue;
-                }
-                None => {}
+                Some(Err((col, reason, v))) if first_point => b.note(row, col, reason.clone(), v),
+                _ => {}
             }
             let cat = match &cat_text {
                 Some(c) => b.category_id(c.as_deref().unwrap_or("")),
@@ -491,6 +505,7 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
             b.accept(row, x, y, t, cat, w);
         }
     }
+    b.date_order = date_order;
     Ok(b.finish(SourceFormat::GeoJson, columns, mapping, coords))
 }
 
@@ -729,23 +744,34 @@ mod tests {
             {"type":"Feature","geometry":{"type":"Point","coordinates":[1,2]},"properties":{"date":"2025-01-01","weight":-2}},
             {"type":"Feature","geometry":{"type":"Point","coordinates":[1,2]},"properties":{"date":"2025-01-01","weight":0}}
         ]}"#);
-        let r: Vec<_> = l
-            .rejections
-            .iter()
-            .map(|r| (r.row, r.column.as_deref(), &r.reason, r.value.as_str()))
-            .collect();
+        let list =
+            |v: &[crate::input::Rejection]| -> Vec<(u64, Option<String>, RejectReason, String)> {
+                v.iter()
+                    .map(|r| (r.row, r.column.clone(), r.reason.clone(), r.value.clone()))
+                    .collect()
+            };
+        let e =
+            |row, col: &str, reason, v: &str| (row, Some(col.to_string()), reason, v.to_string());
+        // Bad geometry removes the feature; a bad date or weight keeps it
+        // (NaN) and is listed as incomplete.
         assert_eq!(
-            r,
+            list(&l.rejections),
             vec![
-                (1, Some("geometry"), &RejectReason::NotANumber, "1"),
-                (2, Some("geometry"), &RejectReason::BadGeometry, "[1]"),
-                (3, Some("date"), &RejectReason::BadTime, "2025-02-29"),
-                (4, Some("date"), &RejectReason::BadTime, "20250101"),
-                (5, Some("date"), &RejectReason::Empty, ""),
-                (6, Some("weight"), &RejectReason::BadWeight, "-2"),
+                e(1, "geometry", RejectReason::NotANumber, "1"),
+                e(2, "geometry", RejectReason::BadGeometry, "[1]"),
             ]
         );
-        assert_eq!(l.row, vec![7]);
+        assert_eq!(
+            list(&l.incomplete),
+            vec![
+                e(3, "date", RejectReason::BadTime, "2025-02-29"),
+                e(4, "date", RejectReason::BadTime, "20250101"),
+                e(5, "date", RejectReason::Empty, ""),
+                e(6, "weight", RejectReason::BadWeight, "-2"),
+            ]
+        );
+        assert_eq!(l.row, vec![3, 4, 5, 6, 7]);
+        assert_eq!((l.missing_time(), l.missing_weight()), (3, 1));
     }
 
     #[test]

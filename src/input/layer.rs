@@ -8,10 +8,20 @@
 //!
 //! Each non-blank data record is either accepted or gets exactly one
 //! [`Rejection`]: the first problem found, checking in this order:
-//! fewer fields than the header, x, y, time, weight. Records that are blank
-//! (or whose fields are all empty, like `;;;`) are skipped and not counted.
-//! The category is never a reason to reject: an empty one becomes
-//! [`BLANK_CATEGORY`].
+//! fewer fields than the header, more non-empty fields than the header
+//! (extra fields that are all empty, as left by a trailing delimiter, are
+//! ignored), x, y. Records that are blank (or whose fields are all empty,
+//! like `;;;`) are skipped and not counted.
+//!
+//! **Optional values never remove a row.** An empty or unreadable time, or
+//! an empty, non-numeric or negative weight, leaves the row in the layer
+//! (so in every spatial analysis) with NaN for that value, and one entry in
+//! `incomplete` naming the row, column and reason. The category is never a
+//! problem: an empty one becomes [`BLANK_CATEGORY`].
+//!
+//! **Date order**: unless the caller gives `date_order`, every value of the
+//! time column is looked at first ([`OrderDetector`]) and the order that no
+//! value contradicts is used; the layer's `date_order` says which and why.
 //!
 //! Two choices made here, beyond the format itself:
 //! * **Decimal comma** is used when the delimiter is `;` or tab and, among
@@ -25,7 +35,7 @@
 use super::columns::{self, AttrRole, AttrRoles};
 use super::csv::{self, DecimalMark, Reader};
 use super::text::cut_value;
-use super::time::parse_time;
+use super::time::{parse_time, readable_any_order, DateOrderReport, OrderDetector};
 use super::{
     CoordKind, RawLayer, ReadOptions, RejectReason, Rejection, ResolvedMapping, SourceFormat,
 };
@@ -52,8 +62,10 @@ pub(crate) struct Builder {
     pub weight: Option<Vec<f64>>,
     pub row: Vec<u64>,
     pub rejections: Vec<Rejection>,
+    pub incomplete: Vec<Rejection>,
     pub rows_read: u64,
     pub time_has_clock: bool,
+    pub date_order: Option<DateOrderReport>,
 }
 
 impl Builder {
@@ -68,8 +80,10 @@ impl Builder {
             weight: weight.then(Vec::new),
             row: Vec::new(),
             rejections: Vec::new(),
+            incomplete: Vec::new(),
             rows_read: 0,
             time_has_clock: false,
+            date_order: None,
         }
     }
 
@@ -97,6 +111,16 @@ impl Builder {
         });
     }
 
+    /// Notes an optional value of an accepted row that could not be used.
+    pub fn note(&mut self, row: u64, column: &str, reason: RejectReason, value: &str) {
+        self.incomplete.push(Rejection {
+            row,
+            column: Some(column.to_string()),
+            reason,
+            value: cut_value(value),
+        });
+    }
+
     /// Index of a category label, adding it in first-seen order.
     pub fn category_id(&mut self, label: &str) -> u32 {
         let label = label.trim();
@@ -114,8 +138,9 @@ impl Builder {
         id
     }
 
-    /// Adds an accepted point; `t` is (days, has clock time). Attribute
-    /// values are ignored for attributes the layer does not carry.
+    /// Adds an accepted point; `t` is (days, has clock time), NaN days for
+    /// no usable time; `w` is NaN for no usable weight. Attribute values are
+    /// ignored for attributes the layer does not carry.
     pub fn accept(&mut self, row: u64, x: f64, y: f64, t: (f64, bool), cat: u32, w: f64) {
         let (t, clock) = t;
         self.x.push(x);
@@ -157,8 +182,11 @@ impl Builder {
             weight: self.weight,
             row: self.row,
             rejections: self.rejections,
+            incomplete: self.incomplete,
             rows_read: self.rows_read,
             time_has_clock: self.time_has_clock,
+            date_order: self.date_order,
+            encoding: super::text::Encoding::Utf8,
         }
     }
 }
@@ -338,11 +366,11 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         }
         comma > 0 && comma >= point
     };
-    let order = opts.date_order;
+    let given_order = opts.date_order;
     let mut buf = String::new();
     let attrs = AttrRoles {
         time: keep_if_readable(attrs.time, cells_of(&sample, attrs.time), |s| {
-            parse_time(s, order).is_some()
+            readable_any_order(s, given_order)
         }),
         category: attrs.category,
         weight: keep_if_readable(attrs.weight, cells_of(&sample, attrs.weight), |s| {
@@ -350,6 +378,24 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         }),
     };
     drop(sample);
+
+    // 4b. Date order: from every value of the time column unless given.
+    let date_order = attrs.time.map(|r| {
+        let mut det = OrderDetector::default();
+        if given_order.is_none() {
+            let mut rd = reader.clone();
+            let mut f = Vec::new();
+            while let Some(Ok(info)) = rd.read_into(&mut f) {
+                if let Some(cell) = f.get(r.index).filter(|_| !info.blank) {
+                    det.add(info.row, cell);
+                }
+            }
+        }
+        det.finish(given_order)
+    });
+    let order = date_order
+        .as_ref()
+        .map_or(super::DateOrder::DayMonthYear, |d| d.used);
 
     // 5. Read every record.
     let name = |r: Option<AttrRole>| r.map(|r| headers[r.index].clone());
@@ -386,6 +432,11 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
             b.reject(row, None, RejectReason::TooFewFields, raw);
             continue;
         }
+        if fields[width..].iter().any(|f| !f.trim().is_empty()) {
+            let raw = &text[info.span.clone()];
+            b.reject(row, None, RejectReason::TooManyFields, raw);
+            continue;
+        }
         let mut coord = |i: usize, is_x: bool, b: &mut Builder| -> Option<f64> {
             let cell = fields[i].as_ref();
             let col = if is_x { xname } else { yname };
@@ -409,35 +460,29 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         let Some(y) = coord(yi, false, &mut b) else {
             continue;
         };
-        let mut t = (0.0, false);
+        let mut t = (f64::NAN, false);
         if let Some(r) = attrs.time {
             let cell = fields[r.index].as_ref();
             let col = headers[r.index].as_str();
             if cell.trim().is_empty() {
-                b.reject(row, Some(col), RejectReason::Empty, cell);
-                continue;
-            }
-            match parse_time(cell, order) {
-                Some(p) => t = (p.days, p.has_clock),
-                None => {
-                    b.reject(row, Some(col), RejectReason::BadTime, cell);
-                    continue;
+                b.note(row, col, RejectReason::Empty, cell);
+            } else {
+                match parse_time(cell, order) {
+                    Some(p) => t = (p.days, p.has_clock),
+                    None => b.note(row, col, RejectReason::BadTime, cell),
                 }
             }
         }
-        let mut w = 1.0;
+        let mut w = f64::NAN;
         if let Some(r) = attrs.weight {
             let cell = fields[r.index].as_ref();
             let col = headers[r.index].as_str();
             if cell.trim().is_empty() {
-                b.reject(row, Some(col), RejectReason::Empty, cell);
-                continue;
-            }
-            match weight_value(cell, decimal_comma, &mut buf) {
-                Some(v) => w = v,
-                None => {
-                    b.reject(row, Some(col), RejectReason::BadWeight, cell);
-                    continue;
+                b.note(row, col, RejectReason::Empty, cell);
+            } else {
+                match weight_value(cell, decimal_comma, &mut buf) {
+                    Some(v) => w = v,
+                    None => b.note(row, col, RejectReason::BadWeight, cell),
                 }
             }
         }
@@ -447,6 +492,7 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         };
         b.accept(row, x, y, t, cat, w);
     }
+    b.date_order = date_order;
     let format = SourceFormat::Csv {
         delimiter: delim as char,
         decimal_comma,
@@ -495,6 +541,11 @@ impl fmt::Display for Rejection {
             RejectReason::TooFewFields => {
                 write!(f, "fewer fields than the header row (\"{v}\")")
             }
+            RejectReason::TooManyFields => write!(
+                f,
+                "more fields than the header row, so its values may be shifted (\"{v}\"); \
+                 quote a text that holds the delimiter"
+            ),
             RejectReason::BadGeometry => write!(f, "no usable point geometry ({v})"),
         }
     }
@@ -551,9 +602,25 @@ mod tests {
         assert!(l.time.is_none() && l.category.is_none() && l.weight.is_none());
     }
 
+    fn incomplete(l: &RawLayer) -> Vec<(u64, Option<&str>, RejectReason, &str)> {
+        l.incomplete
+            .iter()
+            .map(|r| {
+                (
+                    r.row,
+                    r.column.as_deref(),
+                    r.reason.clone(),
+                    r.value.as_str(),
+                )
+            })
+            .collect()
+    }
+
     #[test]
     fn one_rejection_per_row_in_column_order() {
-        // Row 2: x empty and y bad: x is reported. Row 3: y bad, time bad: y.
+        // Row 2: x empty and y bad: x is reported. Row 3: y bad, time bad: y
+        // (and the time is not noted: the row is not used at all). Row 4:
+        // bad time only: kept without a time.
         let l = read("x,y,date\n,abc,nope\n1,abc,nope\n1,2,nope\n1,2,2025-01-01\n");
         invariant(&l);
         assert_eq!(
@@ -561,10 +628,15 @@ mod tests {
             vec![
                 (2, Some("x"), RejectReason::Empty, ""),
                 (3, Some("y"), RejectReason::NotANumber, "abc"),
-                (4, Some("date"), RejectReason::BadTime, "nope"),
             ]
         );
-        assert_eq!(l.row, vec![5]);
+        assert_eq!(
+            incomplete(&l),
+            vec![(4, Some("date"), RejectReason::BadTime, "nope")]
+        );
+        assert_eq!(l.row, vec![4, 5]);
+        let t = l.time.as_ref().unwrap();
+        assert!(t[0].is_nan() && t[1] == 20089.0); // 2025-01-01 (Python datetime: day 20089)
     }
 
     #[test]
@@ -572,10 +644,15 @@ mod tests {
         let l = read("x,y,type,count\n0,0,b,1\n0,0,a,2.5\n0,0,,0\n0,0,b,-1\n0,0,a,lots\n");
         invariant(&l);
         assert_eq!(l.category_names, vec!["b", "a", BLANK_CATEGORY]);
-        assert_eq!(l.category, Some(vec![0, 1, 2]));
-        assert_eq!(l.weight, Some(vec![1.0, 2.5, 0.0]));
+        assert_eq!(l.category, Some(vec![0, 1, 2, 0, 1]));
+        // Bad weights keep the row, with NaN (never a silent 1).
+        let w = l.weight.as_ref().unwrap();
+        assert_eq!(&w[..3], &[1.0, 2.5, 0.0]);
+        assert!(w[3].is_nan() && w[4].is_nan());
+        assert_eq!(l.missing_weight(), 2);
+        assert!(l.rejections.is_empty());
         assert_eq!(
-            rej(&l),
+            incomplete(&l),
             vec![
                 (5, Some("count"), RejectReason::BadWeight, "-1"),
                 (6, Some("count"), RejectReason::BadWeight, "lots"),
@@ -599,9 +676,10 @@ mod tests {
         };
         let l = from_csv("x,y,reported\n1,2,yes\n", &opts).unwrap();
         assert_eq!(
-            rej(&l),
+            incomplete(&l),
             vec![(2, Some("reported"), RejectReason::BadTime, "yes")]
         );
+        assert_eq!((l.len(), l.missing_time()), (1, 1));
     }
 
     #[test]
@@ -613,11 +691,11 @@ mod tests {
         assert_eq!(l.time, Some(vec![1.5]));
         assert!(l.time_has_clock);
         // A clock time on a rejected row does not count.
-        let l = read("x,y,datetime,count\n1,2,1970-01-02T12:00Z,-1\n1,2,1970-01-02,1\n");
+        let l = read("x,y,datetime,count\nabc,2,1970-01-02T12:00Z,1\n1,2,1970-01-02,1\n");
         assert_eq!(l.time, Some(vec![1.0]));
         assert!(!l.time_has_clock);
         let opts = ReadOptions {
-            date_order: DateOrder::MonthDayYear,
+            date_order: Some(DateOrder::MonthDayYear),
             ..Default::default()
         };
         let l = from_csv("x,y,date\n1,2,01/02/1970\n", &opts).unwrap();
@@ -663,10 +741,37 @@ mod tests {
 
     #[test]
     fn short_rows_and_extra_fields() {
-        let l = read("x,y,type\n1,2\n1,2,a,extra,more\n");
+        // Fewer fields and more non-empty fields are both listed; empty extra
+        // fields (trailing delimiters) are not a problem.
+        let l = read("x,y,type\n1,2\n1,2,a,extra,more\n1,2,b,,\n");
         invariant(&l);
-        assert_eq!(rej(&l), vec![(2, None, RejectReason::TooFewFields, "1,2")]);
-        assert_eq!(l.len(), 1);
+        assert_eq!(
+            rej(&l),
+            vec![
+                (2, None, RejectReason::TooFewFields, "1,2"),
+                (3, None, RejectReason::TooManyFields, "1,2,a,extra,more"),
+            ]
+        );
+        assert_eq!(l.row, vec![4]);
+        assert!(l.rejections[1]
+            .to_string()
+            .contains("more fields than the header"));
+    }
+
+    #[test]
+    fn date_order_detected_from_all_rows() {
+        // The only telling value is past the 200 sampled rows.
+        let mut text = String::from("x,y,date\n");
+        for _ in 0..250 {
+            text.push_str("1,2,03/04/2025\n");
+        }
+        text.push_str("1,2,04/23/2025\n");
+        let l = read(&text);
+        let d = l.date_order.as_ref().unwrap();
+        assert_eq!((d.used, d.ambiguous), (DateOrder::MonthDayYear, false));
+        assert!(d.text.contains("04/23/2025 on row 252"), "{}", d.text);
+        assert_eq!(l.time.as_ref().unwrap()[0], 20151.0); // 4 March 2025
+        assert!(l.incomplete.is_empty());
     }
 
     #[test]

@@ -8,9 +8,12 @@
 //!
 //! Submodules:
 //! * [`text`]: byte-level checks (empty, binary, UTF-8, BOM) and format sniffing.
+//! * [`text`] also decodes UTF-8 (with or without BOM), UTF-16 with a BOM and
+//!   Windows-1252, and says which it used.
 //! * [`csv`]: delimiter detection, quoted fields, decimal comma.
 //! * [`columns`]: header-name detection of x/y, lon/lat, time, category, weight.
-//! * [`time`]: ISO 8601 and day/month/year parsing to days since 1970-01-01.
+//! * [`time`]: ISO 8601 and day/month/year parsing to days since 1970-01-01,
+//!   and detection of the day/month order from the values.
 //! * [`geojson`]: FeatureCollection of points, and polygon study areas.
 //! * [`zones`]: zones for counting per area (GeoJSON polygons with names and populations).
 //! * [`layer`]: builds a [`RawLayer`] from a table, row by row.
@@ -95,8 +98,10 @@ pub struct ReadOptions {
     /// Coordinate system; `None` = detect (lon/lat names or ranges → LonLat,
     /// otherwise planar metres).
     pub coords: Option<CoordKind>,
-    /// How to read slash dates.
-    pub date_order: DateOrder,
+    /// How to read dates written with day and month (`03/04/2025`). `None`
+    /// = detect from the values (see [`time::OrderDetector`]); a given
+    /// order always wins.
+    pub date_order: Option<DateOrder>,
     /// Set to `""` to turn off detection of the time column etc. is not needed:
     /// use the mapping. `delimiter`: `None` = detect among `,` `;` tab.
     pub delimiter: Option<char>,
@@ -125,8 +130,9 @@ impl crate::params::Params for ReadOptions {
             Field::choice(
                 "date_order",
                 &["day_month_year", "month_day_year", "year_month_day"],
-                "how to read dates written with slashes, dots or dashes",
-            ),
+                "how to read dates written with slashes, dots or dashes; empty = detect from the values",
+            )
+            .optional(),
             Field::text("delimiter", "one character; empty = detect among , ; and tab").optional(),
         ]
     }
@@ -159,6 +165,9 @@ pub enum RejectReason {
     BadWeight,
     /// The record has fewer fields than the header.
     TooFewFields,
+    /// The record has more non-empty fields than the header (its values may
+    /// be shifted, e.g. by an unquoted delimiter inside a text).
+    TooManyFields,
     /// A GeoJSON feature without a usable point geometry.
     BadGeometry,
 }
@@ -175,6 +184,7 @@ impl RejectReason {
             RejectReason::BadTime => "unreadable date/time",
             RejectReason::BadWeight => "weight must be a number ≥ 0",
             RejectReason::TooFewFields => "fewer fields than the header",
+            RejectReason::TooManyFields => "more fields than the header",
             RejectReason::BadGeometry => "no usable point geometry",
         }
     }
@@ -250,19 +260,32 @@ pub struct RawLayer {
     /// y (or latitude) of each accepted point, in the file's unit.
     pub y: Vec<f64>,
     /// Days since 1970-01-01T00:00Z (fractional), if a time column is used.
+    /// **NaN marks a point without a usable time** (empty or unreadable
+    /// cell): the point is kept for the spatial analyses and listed in
+    /// `incomplete`.
     pub time: Option<Vec<f64>>,
     /// Index into `category_names`, if a category column is used.
     pub category: Option<Vec<u32>>,
     pub category_names: Vec<String>,
-    /// Weight / count, if a weight column is used.
+    /// Weight / count, if a weight column is used. **NaN marks a point
+    /// without a usable weight** (empty, not a number, or negative): kept
+    /// for the unweighted analyses, weight 0 in weighted ones (see
+    /// `crate::study::Pattern::weight`), listed in `incomplete`.
     pub weight: Option<Vec<f64>>,
     /// Source row of each accepted point (same numbering as rejections).
     pub row: Vec<u64>,
     pub rejections: Vec<Rejection>,
+    /// Accepted rows with an optional value (time, weight) that could not be
+    /// used: the row is kept, the value is NaN. One entry per cell.
+    pub incomplete: Vec<Rejection>,
     /// Data rows (or features) read, not counting the header.
     pub rows_read: u64,
     /// Whether any time value carried a clock time (else dates only).
     pub time_has_clock: bool,
+    /// How dates were read, if a time column is used.
+    pub date_order: Option<time::DateOrderReport>,
+    /// The text encoding the file was read with.
+    pub encoding: text::Encoding,
 }
 
 impl RawLayer {
@@ -273,7 +296,24 @@ impl RawLayer {
     pub fn is_empty(&self) -> bool {
         self.x.is_empty()
     }
+    /// Accepted points without a usable time (0 without a time column).
+    pub fn missing_time(&self) -> usize {
+        self.time
+            .as_ref()
+            .map_or(0, |t| t.iter().filter(|v| v.is_nan()).count())
+    }
+    /// Accepted points without a usable weight (0 without a weight column).
+    pub fn missing_weight(&self) -> usize {
+        self.weight
+            .as_ref()
+            .map_or(0, |w| w.iter().filter(|v| v.is_nan()).count())
+    }
 }
+
+/// Share of rejected rows above which the page shows a warning banner
+/// (10 %; a judgement call: beyond it the data left may no longer stand
+/// for what was recorded).
+pub const MANY_REJECTED_SHARE: f64 = 0.10;
 
 /// A study area as read: polygons with holes, in the file's coordinates.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -287,16 +327,70 @@ pub struct RawArea {
 
 /// Reads an events or controls file (CSV or GeoJSON, sniffed from content).
 pub fn read_points(bytes: &[u8], opts: &ReadOptions) -> Result<RawLayer, InputError> {
-    let text = text::decode(bytes)?;
-    match text::sniff(text) {
+    let decoded = text::decode(bytes)?;
+    let text = decoded.text.as_ref();
+    let mut layer = match text::sniff(text) {
         text::Format::Json => geojson::read_points(text, opts),
         text::Format::Delimited => layer::from_csv(text, opts),
-    }
+    }?;
+    layer.encoding = decoded.encoding;
+    Ok(layer)
 }
 
 /// Reads a study-area file (GeoJSON Polygon / MultiPolygon, Feature or
 /// FeatureCollection of them). `coords` overrides detection.
 pub fn read_area(bytes: &[u8], coords: Option<CoordKind>) -> Result<RawArea, InputError> {
     let text = text::decode(bytes)?;
-    geojson::read_area(text, coords)
+    geojson::read_area(&text.text, coords)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every way of getting the read options wrong gives a message in plain
+    /// words: it names the option and never a Rust type.
+    #[test]
+    fn option_errors_are_plain_words() {
+        let bad = [
+            r#"{"coords": "lon_lat"}"#,
+            r#"{"coords": {"kind": "planar"}}"#,
+            r#"{"coords": {"kind": "planar", "unit": "inch"}}"#,
+            r#"{"coords": {"kind": "polar"}}"#,
+            r#"{"coords": {"unit": "metre"}}"#,
+            r#"{"coords": 3}"#,
+            r#"{"date_order": "sideways"}"#,
+            r#"{"date_order": 1}"#,
+            r#"{"mapping": "x"}"#,
+            r#"{"mapping": {"x": 3}}"#,
+            r#"{"mapping": {"z": "a"}}"#,
+            r#"{"delimiter": "ab"}"#,
+            r#"{"delimiter": 5}"#,
+        ];
+        let types = [
+            "CoordKind",
+            "LengthUnit",
+            "DateOrder",
+            "ColumnMapping",
+            "ReadOptions",
+            "enum",
+            "struct",
+            "char",
+            "Option",
+            "String",
+        ];
+        for text in bad {
+            let v: serde_json::Value = serde_json::from_str(text).unwrap();
+            let (code, msg) = crate::params::decode::<ReadOptions>(v, None).unwrap_err();
+            assert_eq!(code, "bad_options", "{text}");
+            let words: Vec<&str> = msg.split(|c: char| !c.is_alphanumeric()).collect();
+            for t in types {
+                assert!(!words.contains(&t) && !msg.contains('`'), "{text}: {msg}");
+            }
+        }
+        // A wrong kind of coordinates says what is allowed.
+        let v = serde_json::json!({"coords": "lon_lat"});
+        let (_, msg) = crate::params::decode::<ReadOptions>(v, None).unwrap_err();
+        assert!(msg.contains("{kind: \"lon_lat\"}"), "{msg}");
+    }
 }

@@ -1,16 +1,70 @@
-//! Byte-level checks and format sniffing.
+//! Byte-level checks, text encodings and format sniffing.
 //!
 //! Order of the checks in [`decode`], each giving a file-level [`InputError`]:
 //! 1. no bytes at all → `Empty`;
-//! 2. a UTF-16 or UTF-32 byte-order mark → `NotUtf8 { byte_offset: 0 }` (the
-//!    message asks the user to save as UTF-8, which is the fix);
-//! 3. a NUL byte, or more than 1 % control characters (and at least 3), in the
+//! 2. a UTF-32 byte-order mark → `NotUtf8 { byte_offset: 0 }` (the message
+//!    asks the user to save as UTF-8, which is the fix);
+//! 3. a UTF-16 byte-order mark (little or big endian, as spreadsheet programs
+//!    write "Unicode text") → decoded as UTF-16; an odd number of bytes or an
+//!    unpaired surrogate → `NotUtf8` at that byte;
+//! 4. a NUL byte, or more than 1 % control characters (and at least 3), in the
 //!    first 8 KiB → `Binary` (an image, a spreadsheet workbook, a zip ...);
-//! 4. invalid UTF-8 → `NotUtf8` with the offset of the first bad byte,
-//!    counted in the file as given (a leading BOM included);
-//! 5. only whitespace after the optional UTF-8 BOM → `Empty`.
+//! 5. valid UTF-8 (after an optional UTF-8 BOM) → used as it is;
+//! 6. not UTF-8, and no valid UTF-8 multi-byte sequence anywhere → read as
+//!    **Windows-1252** (a superset of the printable part of ISO 8859-1
+//!    "Latin-1", the usual encoding of spreadsheet exports on Western
+//!    European Windows systems; table from the Unicode Consortium's mapping
+//!    file `CP1252.TXT`, with the five unassigned bytes 0x81, 0x8D, 0x8F,
+//!    0x90, 0x9D kept as the C1 control characters of the same number, as the
+//!    WHATWG Encoding Standard does);
+//! 7. not UTF-8 but holding valid multi-byte UTF-8 too (a UTF-8 file with a
+//!    damaged byte, or two encodings mixed) → `NotUtf8` with the offset of
+//!    the first bad byte, counted in the file as given (a leading BOM
+//!    included): guessing would garble the valid part;
+//! 8. only whitespace after the optional BOM → `Empty`.
+//!
+//! The encoding used is returned with the text ([`Encoding`]) and named in
+//! the load report.
 
 use crate::error::{InputError, InputErrorKind};
+use serde::Serialize;
+use std::borrow::Cow;
+
+/// The text encoding a file was read with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Encoding {
+    /// UTF-8 without a byte-order mark.
+    Utf8,
+    /// UTF-8 with a byte-order mark.
+    Utf8Bom,
+    /// UTF-16, little endian, with a byte-order mark.
+    Utf16Le,
+    /// UTF-16, big endian, with a byte-order mark.
+    Utf16Be,
+    /// Windows-1252 (Western European; covers Latin-1's letters).
+    Windows1252,
+}
+
+impl Encoding {
+    /// The name shown to the user.
+    pub fn name(self) -> &'static str {
+        match self {
+            Encoding::Utf8 => "UTF-8",
+            Encoding::Utf8Bom => "UTF-8 with byte-order mark",
+            Encoding::Utf16Le => "UTF-16 (little endian)",
+            Encoding::Utf16Be => "UTF-16 (big endian)",
+            Encoding::Windows1252 => "Windows-1252 (Western European)",
+        }
+    }
+}
+
+/// The text of a file and the encoding it was read with.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Decoded<'a> {
+    pub text: Cow<'a, str>,
+    pub encoding: Encoding,
+}
 
 /// What a file's text looks like.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -26,34 +80,95 @@ pub const BINARY_SNIFF_BYTES: usize = 8 * 1024;
 
 const UTF8_BOM: &[u8] = &[0xEF, 0xBB, 0xBF];
 
-/// Checks the bytes are non-empty UTF-8 text (stripping a BOM) and returns the text.
-pub fn decode(bytes: &[u8]) -> Result<&str, InputError> {
+/// Windows-1252 bytes 0x80–0x9F (Unicode's CP1252.TXT; unassigned bytes
+/// map to the C1 control of the same number).
+const CP1252_HIGH: [char; 32] = [
+    '\u{20AC}', '\u{0081}', '\u{201A}', '\u{0192}', '\u{201E}', '\u{2026}', '\u{2020}', '\u{2021}',
+    '\u{02C6}', '\u{2030}', '\u{0160}', '\u{2039}', '\u{0152}', '\u{008D}', '\u{017D}', '\u{008F}',
+    '\u{0090}', '\u{2018}', '\u{2019}', '\u{201C}', '\u{201D}', '\u{2022}', '\u{2013}', '\u{2014}',
+    '\u{02DC}', '\u{2122}', '\u{0161}', '\u{203A}', '\u{0153}', '\u{009D}', '\u{017E}', '\u{0178}',
+];
+
+/// One Windows-1252 byte as a character.
+pub fn cp1252_char(b: u8) -> char {
+    match b {
+        0x80..=0x9F => CP1252_HIGH[(b - 0x80) as usize],
+        _ => b as char,
+    }
+}
+
+fn not_text(byte_offset: usize) -> InputError {
+    InputError::new(InputErrorKind::NotUtf8 { byte_offset })
+}
+
+/// Decodes UTF-16 code units (after the BOM, `skip` bytes in).
+fn decode_utf16(body: &[u8], big_endian: bool, skip: usize) -> Result<String, InputError> {
+    if body.len() % 2 == 1 {
+        return Err(not_text(skip + body.len() - 1));
+    }
+    let units = body.chunks_exact(2).map(|p| {
+        if big_endian {
+            u16::from_be_bytes([p[0], p[1]])
+        } else {
+            u16::from_le_bytes([p[0], p[1]])
+        }
+    });
+    let mut out = String::with_capacity(body.len() / 2);
+    let mut offset = skip;
+    for r in char::decode_utf16(units) {
+        match r {
+            Ok(c) => {
+                out.push(c);
+                offset += c.len_utf16() * 2;
+            }
+            Err(_) => return Err(not_text(offset)),
+        }
+    }
+    Ok(out)
+}
+
+/// Checks the bytes are non-empty text and returns it with its encoding
+/// (see the module documentation for the order of the checks).
+pub fn decode(bytes: &[u8]) -> Result<Decoded<'_>, InputError> {
     if bytes.is_empty() {
         return Err(InputError::new(InputErrorKind::Empty));
     }
-    // UTF-32 LE starts with FF FE 00 00, so it is caught by the UTF-16 LE test too.
-    if bytes.starts_with(&[0xFF, 0xFE])
-        || bytes.starts_with(&[0xFE, 0xFF])
-        || bytes.starts_with(&[0x00, 0x00, 0xFE, 0xFF])
-    {
-        return Err(InputError::new(InputErrorKind::NotUtf8 { byte_offset: 0 }));
-    }
-    if looks_binary(&bytes[..bytes.len().min(BINARY_SNIFF_BYTES)]) {
-        return Err(InputError::new(InputErrorKind::Binary));
-    }
-    let (body, skipped) = match bytes.strip_prefix(UTF8_BOM) {
-        Some(rest) => (rest, UTF8_BOM.len()),
-        None => (bytes, 0),
-    };
-    let text = std::str::from_utf8(body).map_err(|e| {
-        InputError::new(InputErrorKind::NotUtf8 {
-            byte_offset: skipped + e.valid_up_to(),
-        })
-    })?;
+    let (text, encoding): (Cow<str>, Encoding) =
+        if bytes.starts_with(&[0xFF, 0xFE, 0, 0]) || bytes.starts_with(&[0x00, 0x00, 0xFE, 0xFF]) {
+            return Err(not_text(0));
+        } else if let Some(body) = bytes.strip_prefix(&[0xFF, 0xFE]) {
+            (Cow::Owned(decode_utf16(body, false, 2)?), Encoding::Utf16Le)
+        } else if let Some(body) = bytes.strip_prefix(&[0xFE, 0xFF]) {
+            (Cow::Owned(decode_utf16(body, true, 2)?), Encoding::Utf16Be)
+        } else {
+            if looks_binary(&bytes[..bytes.len().min(BINARY_SNIFF_BYTES)]) {
+                return Err(InputError::new(InputErrorKind::Binary));
+            }
+            let (body, skipped) = match bytes.strip_prefix(UTF8_BOM) {
+                Some(rest) => (rest, UTF8_BOM.len()),
+                None => (bytes, 0),
+            };
+            match std::str::from_utf8(body) {
+                Ok(t) if skipped > 0 => (Cow::Borrowed(t), Encoding::Utf8Bom),
+                Ok(t) => (Cow::Borrowed(t), Encoding::Utf8),
+                Err(e) => {
+                    let any_multibyte = body
+                        .utf8_chunks()
+                        .any(|c| c.valid().bytes().any(|b| b >= 0x80));
+                    if skipped > 0 || any_multibyte {
+                        return Err(not_text(skipped + e.valid_up_to()));
+                    }
+                    (
+                        Cow::Owned(body.iter().map(|&b| cp1252_char(b)).collect()),
+                        Encoding::Windows1252,
+                    )
+                }
+            }
+        };
     if text.trim().is_empty() {
         return Err(InputError::new(InputErrorKind::Empty));
     }
-    Ok(text)
+    Ok(Decoded { text, encoding })
 }
 
 /// True when the sample holds a NUL byte, or more than 1 % (and at least 3)
@@ -114,7 +229,9 @@ mod tests {
 
     #[test]
     fn bom_is_stripped() {
-        assert_eq!(decode(b"\xEF\xBB\xBFx;y\n").unwrap(), "x;y\n");
+        let d = decode(b"\xEF\xBB\xBFx;y\n").unwrap();
+        assert_eq!((d.text.as_ref(), d.encoding), ("x;y\n", Encoding::Utf8Bom));
+        assert_eq!(decode(b"x;y\n").unwrap().encoding, Encoding::Utf8);
     }
 
     #[test]
@@ -137,12 +254,24 @@ mod tests {
     }
 
     #[test]
-    fn latin1_is_not_utf8_with_offset() {
+    fn windows_1252_is_decoded() {
+        // Latin-1 / Windows-1252 bytes: E9 = é, DF = ß, 80 = € (CP1252.TXT).
+        let d = decode(b"x,y,name\n1,2,caf\xE9 Stra\xDFe \x80\n").unwrap();
+        assert_eq!(d.encoding, Encoding::Windows1252);
+        assert_eq!(d.text, "x,y,name\n1,2,café Straße €\n");
+        assert_eq!(cp1252_char(0x9F), 'Ÿ');
+        assert_eq!(cp1252_char(0x81), '\u{81}');
+        assert_eq!(cp1252_char(b'a'), 'a');
+    }
+
+    #[test]
+    fn damaged_utf8_is_refused_with_offset() {
+        // Valid UTF-8 "é" (C3 A9) and then a lone FF: not guessed as 1252.
         assert_eq!(
-            kind(b"x,y,name\n1,2,caf\xE9\n"),
-            InputErrorKind::NotUtf8 { byte_offset: 16 }
+            kind(b"x,y,name\n1,2,caf\xC3\xA9\n1,2,\xFF\n"),
+            InputErrorKind::NotUtf8 { byte_offset: 23 }
         );
-        // The offset counts the BOM too.
+        // After a UTF-8 BOM the offset counts the BOM too.
         assert_eq!(
             kind(b"\xEF\xBB\xBFab\xFF"),
             InputErrorKind::NotUtf8 { byte_offset: 5 }
@@ -150,9 +279,26 @@ mod tests {
     }
 
     #[test]
-    fn utf16_is_reported_as_not_utf8() {
+    fn utf16_with_bom_is_decoded() {
+        let le = decode(b"\xFF\xFEx\x00,\x00y\x00\n\x00").unwrap();
         assert_eq!(
-            kind(b"\xFF\xFEx\x00,\x00y\x00"),
+            (le.text.as_ref(), le.encoding),
+            ("x,y\n", Encoding::Utf16Le)
+        );
+        let be = decode(b"\xFE\xFF\x00x\x00,\x00\xE9").unwrap();
+        assert_eq!((be.text.as_ref(), be.encoding), ("x,é", Encoding::Utf16Be));
+        // An odd byte count and an unpaired surrogate are refused at the bad byte.
+        assert_eq!(
+            kind(b"\xFF\xFEx\x00,"),
+            InputErrorKind::NotUtf8 { byte_offset: 4 }
+        );
+        assert_eq!(
+            kind(b"\xFF\xFEx\x00\x00\xD8y\x00"),
+            InputErrorKind::NotUtf8 { byte_offset: 4 }
+        );
+        // UTF-32 is still refused.
+        assert_eq!(
+            kind(b"\xFF\xFE\x00\x00x\x00\x00\x00"),
             InputErrorKind::NotUtf8 { byte_offset: 0 }
         );
     }

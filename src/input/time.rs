@@ -22,6 +22,7 @@
 //! for the proleptic Gregorian calendar.
 
 use super::DateOrder;
+use serde::Serialize;
 
 /// A time value read from a cell.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -308,6 +309,217 @@ fn parse_clock(c: &mut Cur) -> Option<f64> {
     Some((hour * 3600 + minute * 60 - offset) as f64 + second)
 }
 
+/// What one cell says about the order of day and month.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum OrderHint {
+    /// Year first, unreadable, or the same date either way (e.g. 05/05/2025).
+    Neutral,
+    /// Readable only as day/month/year (e.g. 23/04/2025).
+    DayFirstOnly,
+    /// Readable only as month/day/year (e.g. 04/23/2025).
+    MonthFirstOnly,
+    /// A different valid date under each order (e.g. 03/04/2025).
+    Either,
+}
+
+/// Which of day/month/year and month/day/year a cell allows.
+pub fn order_hint(text: &str) -> OrderHint {
+    let d = parse_time(text, DateOrder::DayMonthYear);
+    let m = parse_time(text, DateOrder::MonthDayYear);
+    match (d, m) {
+        (Some(a), Some(b)) if a.days != b.days => OrderHint::Either,
+        (Some(_), None) => OrderHint::DayFirstOnly,
+        (None, Some(_)) => OrderHint::MonthFirstOnly,
+        _ => OrderHint::Neutral,
+    }
+}
+
+/// True if the cell is a date under any order (used to decide whether a
+/// detected time column holds dates at all).
+pub fn readable_any_order(text: &str, given: Option<DateOrder>) -> bool {
+    match given {
+        Some(o) => parse_time(text, o).is_some(),
+        None => {
+            parse_time(text, DateOrder::DayMonthYear).is_some()
+                || parse_time(text, DateOrder::MonthDayYear).is_some()
+        }
+    }
+}
+
+/// How the date order of a layer was settled.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum OrderSource {
+    /// The user chose it (`date_order` option).
+    Given,
+    /// Some value fits only one order, and none fits only the other.
+    Detected,
+    /// Every date written day-and-month fits both orders: day/month/year was
+    /// used, and the page asks.
+    Ambiguous,
+    /// Some values fit only one order and others only the other.
+    Contradictory,
+    /// No date is written with day and month in question (e.g. all ISO
+    /// 8601 `2025-03-04`, or no readable date at all).
+    NotNeeded,
+}
+
+/// A date shown both ways, for the page's question.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct OrderExample {
+    pub row: u64,
+    pub value: String,
+    /// The value read as day/month/year, as `YYYY-MM-DD`.
+    pub day_month_year: String,
+    /// The value read as month/day/year, as `YYYY-MM-DD`.
+    pub month_day_year: String,
+}
+
+/// The date order used for a layer and why, for the load report.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct DateOrderReport {
+    pub used: DateOrder,
+    pub source: OrderSource,
+    /// True when the data cannot tell the order (the page asks the user).
+    pub ambiguous: bool,
+    /// One sentence: which order and why.
+    pub text: String,
+    /// For an ambiguous file: a value read both ways.
+    pub example: Option<OrderExample>,
+}
+
+/// Looks at every value of a time column and settles the date order:
+/// a value that fits only one order (a first field above 12 rules out
+/// month/day/year, a second field above 12 rules out day/month/year, a day
+/// that does not exist in that month rules out that reading) decides it,
+/// unless other values fit only the other order.
+#[derive(Debug, Clone, Default)]
+pub struct OrderDetector {
+    day_first: usize,
+    month_first: usize,
+    first_day_first: Option<(u64, String)>,
+    first_month_first: Option<(u64, String)>,
+    first_either: Option<(u64, String)>,
+}
+
+fn order_words(o: DateOrder) -> &'static str {
+    match o {
+        DateOrder::DayMonthYear => "day/month/year",
+        DateOrder::MonthDayYear => "month/day/year",
+        DateOrder::YearMonthDay => "year/month/day",
+    }
+}
+
+impl OrderDetector {
+    /// Adds the cell on spreadsheet row `row`.
+    pub fn add(&mut self, row: u64, text: &str) {
+        let keep = |slot: &mut Option<(u64, String)>| {
+            if slot.is_none() {
+                *slot = Some((row, super::text::cut_value(text.trim())));
+            }
+        };
+        match order_hint(text) {
+            OrderHint::Neutral => {}
+            OrderHint::DayFirstOnly => {
+                self.day_first += 1;
+                keep(&mut self.first_day_first);
+            }
+            OrderHint::MonthFirstOnly => {
+                self.month_first += 1;
+                keep(&mut self.first_month_first);
+            }
+            OrderHint::Either => keep(&mut self.first_either),
+        }
+    }
+
+    /// The order to use: `given` always wins; otherwise what the values say.
+    pub fn finish(self, given: Option<DateOrder>) -> DateOrderReport {
+        const DMY: DateOrder = DateOrder::DayMonthYear;
+        const MDY: DateOrder = DateOrder::MonthDayYear;
+        let report = |used, source, text: String| DateOrderReport {
+            used,
+            source,
+            ambiguous: source == OrderSource::Ambiguous,
+            text,
+            example: None,
+        };
+        if let Some(o) = given {
+            return report(
+                o,
+                OrderSource::Given,
+                format!("{}, as chosen", order_words(o)),
+            );
+        }
+        match (&self.first_day_first, &self.first_month_first) {
+            (Some((r, v)), None) => report(
+                DMY,
+                OrderSource::Detected,
+                format!(
+                    "day/month/year, detected: a value {v} on row {r} can only be day/month/year"
+                ),
+            ),
+            (None, Some((r, v))) => report(
+                MDY,
+                OrderSource::Detected,
+                format!(
+                    "month/day/year, detected: a value {v} on row {r} can only be month/day/year"
+                ),
+            ),
+            (Some((rd, vd)), Some((rm, vm))) => {
+                // More values decide; a tie keeps day/month/year.
+                let used = if self.month_first > self.day_first {
+                    MDY
+                } else {
+                    DMY
+                };
+                let (fit, misfit) = if used == MDY {
+                    (self.month_first, self.day_first)
+                } else {
+                    (self.day_first, self.month_first)
+                };
+                report(
+                    used,
+                    OrderSource::Contradictory,
+                    format!(
+ "the dates do not agree: {vd} on row {rd} can only be day/month/year but {vm} on row {rm} can only be month/day/year. Read as {} ({fit} dates fit only this order); the {misfit} that fit only the other have no usable date and are listed",
+                        order_words(used)
+                    ),
+                )
+            }
+            (None, None) => match &self.first_either {
+                Some((r, v)) => {
+                    let both = |o| {
+                        parse_time(v, o)
+                            .map_or_else(|| "?".to_string(), |t| format_days(t.days, false))
+                    };
+                    DateOrderReport {
+                        example: Some(OrderExample {
+                            row: *r,
+                            value: v.clone(),
+                            day_month_year: both(DMY),
+                            month_day_year: both(MDY),
+                        }),
+                        ..report(
+                            DMY,
+                            OrderSource::Ambiguous,
+                            format!(
+                                "ambiguous: every date has day and month both 12 or less (e.g. {v} \
+                                 on row {r}), so the file cannot tell the order; read as \
+                                 day/month/year. Choose the order if that is wrong"
+                            ),
+                        )
+                    }
+                }
+                None => report(
+                    DMY,
+                    OrderSource::NotNeeded,
+                    "not in question: no date has its day and month in doubt".to_string(),
+                ),
+            },
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -410,6 +622,55 @@ mod tests {
         // 13/01/2025 is only valid day-first.
         assert!(parse_time("13/01/2025", DMY).is_some());
         assert_eq!(parse_time("13/01/2025", DateOrder::MonthDayYear), None);
+    }
+
+    #[test]
+    fn order_detection() {
+        let detect = |cells: &[&str], given| {
+            let mut d = OrderDetector::default();
+            for (i, c) in cells.iter().enumerate() {
+                d.add(i as u64 + 2, c);
+            }
+            d.finish(given)
+        };
+        // A first field of 23 can only be a day.
+        let r = detect(&["03/04/2025", "2025-01-01", "23/04/2025"], None);
+        assert_eq!((r.used, r.source), (DMY, OrderSource::Detected));
+        assert!(r.text.contains("23/04/2025 on row 4"), "{}", r.text);
+        // A second field of 23 can only be a day: month first.
+        let r = detect(&["03/04/2025", "04/23/2025"], None);
+        assert_eq!(r.used, DateOrder::MonthDayYear);
+        // 31/04 does not exist day-first, 04/31 does not either: no evidence;
+        // 02/30/2025 is impossible month-first, 30/02/2025 impossible day-first.
+        assert_eq!(order_hint("31/04/2025"), OrderHint::Neutral);
+        assert_eq!(order_hint("05/05/2025"), OrderHint::Neutral);
+        assert_eq!(order_hint("2025-03-04"), OrderHint::Neutral);
+        // All ambiguous: a question with an example read both ways.
+        let r = detect(&["03/04/2025", "05/05/2025", "2025-06-01"], None);
+        assert_eq!(
+            (r.used, r.source, r.ambiguous),
+            (DMY, OrderSource::Ambiguous, true)
+        );
+        let ex = r.example.unwrap();
+        assert_eq!((ex.row, ex.value.as_str()), (2, "03/04/2025"));
+        assert_eq!(ex.day_month_year, "2025-04-03");
+        assert_eq!(ex.month_day_year, "2025-03-04");
+        // The user's choice wins over the data.
+        let r = detect(&["23/04/2025"], Some(DateOrder::MonthDayYear));
+        assert_eq!(
+            (r.used, r.source, r.ambiguous),
+            (DateOrder::MonthDayYear, OrderSource::Given, false)
+        );
+        // Both contradicted: the larger group wins, and it is said.
+        let r = detect(&["04/23/2025", "04/24/2025", "23/04/2025"], None);
+        assert_eq!(
+            (r.used, r.source),
+            (DateOrder::MonthDayYear, OrderSource::Contradictory)
+        );
+        assert!(r.text.contains("do not agree"), "{}", r.text);
+        // Only ISO dates: not in question.
+        let r = detect(&["2025-03-04"], None);
+        assert_eq!((r.source, r.ambiguous), (OrderSource::NotNeeded, false));
     }
 
     #[test]

@@ -69,7 +69,7 @@ fn prop_num(v: &Json) -> Option<f64> {
 
 /// Reads a zones file. Errors carry the 1-based feature number as their row.
 pub fn read_zones(bytes: &[u8], opts: &ZoneOptions<'_>) -> Result<RawZones, InputError> {
-    let root = parse_json(decode(bytes)?)?;
+    let root = parse_json(&decode(bytes)?.text)?;
     let (obj, t) = root_type(&root)?;
     let features: Vec<&Json> = match t {
         "FeatureCollection" => features_of(obj)?.iter().collect(),

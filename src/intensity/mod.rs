@@ -226,12 +226,25 @@ pub fn kernel_surface(
     window: &Window,
     o: &SurfaceOptions,
 ) -> Result<IntensitySurface, AnalysisError> {
+    // A point without a usable weight counts 0 (see `Pattern`), and the
+    // result says how many.
     let w = if o.use_weights {
-        pattern.weight()
+        pattern.weights_or_zero()
     } else {
         None
     };
-    kernel_surface_in(pattern.x(), pattern.y(), w, window, o)
+    let mut out = kernel_surface_in(pattern.x(), pattern.y(), w.as_deref(), window, o)?;
+    let missing = if o.use_weights {
+        pattern.missing_weight()
+    } else {
+        0
+    };
+    if missing > 0 {
+        out.notes.push(format!(
+            "{missing} event(s) have no usable weight and count 0 in this weighted surface."
+        ));
+    }
+    Ok(out)
 }
 
 /// The bandwidth alone, chosen as [`kernel_surface`] would choose it (for

@@ -282,11 +282,19 @@ pub(crate) fn js_error(code: &str, message: &str, at: Option<(u64, Option<String
 }
 
 pub(crate) fn input_error(e: &InputError) -> JsValue {
-    js_error(
+    let err = js_error(
         e.code(),
         &e.to_string(),
         e.at.as_ref().map(|l| (l.row, l.column.clone())),
-    )
+    );
+    // The header's names, decoded as the file was, so the page can offer
+    // them in the column editor.
+    if let InputErrorKind::MissingColumns { available, .. } = &e.kind {
+        if let (Some(obj), Ok(v)) = (err.dyn_ref::<Object>(), to_js(available)) {
+            let _ = set(obj, "columns", &v);
+        }
+    }
+    err
 }
 
 pub(crate) fn analysis_error(e: &AnalysisError) -> JsValue {
@@ -339,6 +347,22 @@ struct LoadReport<'a> {
     by_reason: Vec<input::ReasonCount>,
     categories: &'a [String],
     time_has_clock: bool,
+    /// The text encoding used (`utf8`, `utf8_bom`, `utf16_le`, `utf16_be`,
+    /// `windows1252`) and its name for people.
+    encoding: input::text::Encoding,
+    encoding_name: &'static str,
+    /// How dates were read (order, why), if there is a time column.
+    date_order: Option<&'a input::time::DateOrderReport>,
+    /// True when the data cannot tell day/month from month/day: the page asks.
+    date_order_ambiguous: bool,
+    /// Rows kept with an optional value left out (first 200), and how many.
+    incomplete: Vec<RejectionRow<'a>>,
+    incomplete_count: usize,
+    /// Rejected rows as a share of the rows read, and whether it is above
+    /// `input::MANY_REJECTED_SHARE` (the page then shows a banner).
+    rejected_share: f64,
+    many_rejected: bool,
+    many_rejected_text: Option<String>,
     study: Option<crate::study::StudyReport>,
     study_error: Option<ErrorSummary>,
 }
@@ -472,6 +496,12 @@ impl Session {
             (Some(s), "controls") => &s.control_rejections,
             _ => &layer.rejections,
         };
+        let rejected_share = if rows_read > 0 {
+            rejected as f64 / rows_read as f64
+        } else {
+            0.0
+        };
+        let many_rejected = rejected_share > input::MANY_REJECTED_SHARE;
         let rep = LoadReport {
             layer: which,
             format: Some(&layer.format),
@@ -484,6 +514,29 @@ impl Session {
             by_reason: input::count_by_reason(rejections),
             categories: &layer.category_names,
             time_has_clock: layer.time_has_clock,
+            encoding: layer.encoding,
+            encoding_name: layer.encoding.name(),
+            date_order: layer.date_order.as_ref(),
+            date_order_ambiguous: layer.date_order.as_ref().is_some_and(|d| d.ambiguous),
+            incomplete: layer
+                .incomplete
+                .iter()
+                .take(200)
+                .map(rejection_row)
+                .collect(),
+            incomplete_count: layer.incomplete.len(),
+            rejected_share,
+            many_rejected,
+            many_rejected_text: many_rejected.then(|| {
+                format!(
+                    "{} of {} rows ({:.0} %) could not be used. With this many rows left out, \
+                     the points left may not stand for what was recorded: check the rows not \
+                     used (Data quality) before reading any result.",
+                    rejected,
+                    rows_read,
+                    rejected_share * 100.0
+                )
+            }),
             study: self.study.as_ref().map(Study::report),
             study_error: None,
         };

@@ -138,6 +138,8 @@ export function outDir() {
  * every event and population point lies inside the study area, so n equals
  * the row counts; the problems file lists its spoiled rows.
  */
+const optionalColumn = (p) => p.column === 'onset_date' || p.column === 'count';
+
 export function demoFacts() {
   const path = join(DEMO_DIR, 'planted-truth.json');
   assert.ok(existsSync(path), `missing ${path}`);
@@ -146,7 +148,13 @@ export function demoFacts() {
     cases: { rows: truth.cases.n, in_area: truth.cases.n, categories: ['respiratory', 'enteric'] },
     population: { rows: truth.population.n, in_area: truth.population.n },
     area_km2: truth.window.net_area_km2,
-    // cases-with-problems.csv: rows 2–41 are 40 records (README), the spoiled ones listed in truth.problems.
-    problems: { rows: 40, rejected: truth.problems },
+    // cases-with-problems.csv: rows 2–41 are 40 records (README), the spoiled ones listed in
+    // truth.problems. A spoiled optional value (the date or the count) keeps its row as a
+    // point without that value; the other spoiled rows are not used.
+    problems: {
+      rows: 40,
+      rejected: truth.problems.filter((p) => !optionalColumn(p)),
+      incomplete: truth.problems.filter(optionalColumn),
+    },
   };
 }

@@ -56,9 +56,10 @@ test('when the coordinate columns are not found, choosing them reads the file', 
   // Column names no detector could guess.
   const csv = 'site,first_ft,second_ft,kind\na,1000,2000,p\nb,1500,2100,q\nc,1200,2600,p\nd,1900,2300,q\n';
   await act(page, () => page.setInputFiles('#events-file', { name: 'odd-names.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) }));
-  // The engine says which columns it lacks; the editor offers the header's names.
-  assert.equal(await page.isVisible('#error-banner'), true);
-  assert.match(await page.textContent('#error-text'), /odd-names\.csv/);
+  // Not a red error but a question: the editor offers the header's names,
+  // and the status line says what is missing.
+  assert.equal(await page.isVisible('#error-banner'), false);
+  assert.match(await page.textContent('#status'), /Choose the coordinate columns of odd-names\.csv below/);
   assert.match(await page.textContent('#mapping-hint'), /choose the x and y columns/);
   const options = await page.$$eval('#map-x option', (os) => os.map((o) => o.value));
   assert.deepEqual(options, ['', 'site', 'first_ft', 'second_ft', 'kind']);
@@ -186,7 +187,9 @@ test('the column editor also serves the controls file', async () => {
   assert.equal(await page.isHidden('#map-layer'), true, 'no file choice with only events');
   const ctl = 'place,p_east,p_north,when\nq,2,2,not-a-date\nr,5,4,2025-01-02\ns,4,6,2025-01-03\n';
   await act(page, () => page.setInputFiles('#controls-file', { name: 'odd-controls.csv', mimeType: 'text/csv', buffer: Buffer.from(ctl) }));
-  assert.equal(await page.isVisible('#error-banner'), true, 'columns not found');
+  // Columns not found: a question in the editor, not a red error.
+  assert.equal(await page.isVisible('#error-banner'), false, 'columns not found');
+  assert.match(await page.textContent('#status'), /Choose the coordinate columns of odd-controls\.csv/);
   assert.equal(await page.inputValue('#map-layer'), 'controls');
   assert.match(await page.textContent('#mapping-hint'), /odd-controls\.csv/);
   assert.equal(await page.isDisabled('#map-coords'), true, 'controls follow the events\' coordinates');
@@ -194,10 +197,12 @@ test('the column editor also serves the controls file', async () => {
   await act(page, () => page.selectOption('#map-y', 'p_north'));
   assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
   assert.equal(await summaryNumber(page, 'n_controls'), 3);
-  // Using the time column re-reads the controls: the bad date costs a row; off again, it is back.
+  // Using the time column re-reads the controls: the bad date keeps its row
+  // (a value left out, said on the file line); off again, nothing is left out.
   await act(page, () => page.selectOption('#map-time', 'when'));
-  assert.equal(await summaryNumber(page, 'n_controls'), 2);
-  assert.deepEqual(await qualityCounts(page, 'controls'), { read: 3, used: 2, rejected: 1 });
+  assert.equal(await summaryNumber(page, 'n_controls'), 3);
+  assert.deepEqual(await qualityCounts(page, 'controls'), { read: 3, used: 3, rejected: 0 });
+  assert.match(await page.textContent('#controls-name'), /1 value left out/);
   await act(page, () => page.selectOption('#map-time', ''));
   assert.equal(await summaryNumber(page, 'n_controls'), 3);
   assert.deepEqual(await qualityCounts(page, 'controls'), { read: 3, used: 3, rejected: 0 });

@@ -87,10 +87,18 @@ test('problems file: the documented rows are rejected with their reasons', () =>
   const got = page.rows.map((r) => [r.row, r.reason]);
   assert.deepEqual(got, [
     [4, 'empty'], [7, 'not_a_number'], [9, 'latitude_out_of_range'],
-    [12, 'longitude_out_of_range'], [15, 'not_a_number'], [18, 'bad_time'],
-    [21, 'bad_time'], [24, 'bad_time'], [27, 'too_few_fields'], [30, 'bad_weight'],
+    [12, 'longitude_out_of_range'], [15, 'not_a_number'],
+    [27, 'too_few_fields'],
     [34, 'outside_study_area'], [38, 'outside_study_area'],
   ]);
+  // A spoiled date or count keeps the row as a point without that value.
+  assert.deepEqual(rep.incomplete.map((r) => [r.row, r.column, r.reason]), [
+    [18, 'onset_date', 'bad_time'], [21, 'onset_date', 'bad_time'],
+    [24, 'onset_date', 'bad_time'], [30, 'count', 'bad_weight'],
+  ]);
+  assert.equal(rep.incomplete_count, 4);
+  assert.equal(rep.study.events_without_time, 3);
+  assert.equal(rep.study.events_without_weight, 1);
   assert.equal(page.rows[0].column, 'longitude');
   assert.equal(page.rows[1].column, 'latitude');
 });
