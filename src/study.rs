@@ -296,6 +296,105 @@ fn place_layer(
     )
 }
 
+/// Events that are far from all the others, found before the projection
+/// and the fallback study area are chosen (a stray point would stretch
+/// both). The rule works on the distances from the median centre
+/// (coordinate-wise median; in longitude/latitude measured on a local
+/// equirectangular approximation, which is ample for the purpose). A point
+/// is far when it lies both beyond Tukey's far-out fence Q3 + 3·(Q3 − Q1)
+/// on those distances (Tukey 1977, *Exploratory Data Analysis*,
+/// Addison-Wesley) and beyond a gap: the first place, past the median, where
+/// the sorted distances jump by more than [`FAR_GAP`] times. Coordinate
+/// errors (a placeholder, exchanged axes, a dropped digit) put a point
+/// hundreds of times farther out than the rest; an honest sparse scatter
+/// around a dense centre has no such gap and is never cut, nor is a group
+/// of more than [`FAR_MAX_SHARE`] of the events (a second place).
+/// Longitude/latitude (0, 0) beyond the fence is a
+/// [`RejectReason::ZeroPlaceholder`]; a point beyond it that would lie
+/// inside it with latitude and longitude exchanged is a
+/// [`RejectReason::SwappedLatLon`]. Needs at least [`FAR_MIN_EVENTS`] events.
+/// Returns one entry per event: `None` to keep it.
+pub fn far_points(layer: &RawLayer) -> Vec<Option<RejectReason>> {
+    let n = layer.len();
+    let mut out = vec![None; n];
+    if n < FAR_MIN_EVENTS {
+        return out;
+    }
+    let median = |mut v: Vec<f64>| {
+        v.sort_by(f64::total_cmp);
+        let m = v.len() / 2;
+        if v.len() % 2 == 1 {
+            v[m]
+        } else {
+            0.5 * (v[m - 1] + v[m])
+        }
+    };
+    let mx = median(layer.x.clone());
+    let my = median(layer.y.clone());
+    let geographic = layer.coords == CoordKind::LonLat;
+    let kx = if geographic {
+        my.to_radians().cos().max(0.01)
+    } else {
+        1.0
+    };
+    let dist = |x: f64, y: f64| {
+        let dx = if geographic {
+            (x - mx + 180.0).rem_euclid(360.0) - 180.0
+        } else {
+            x - mx
+        };
+        (dx * kx).hypot(y - my)
+    };
+    let d: Vec<f64> = (0..n).map(|i| dist(layer.x[i], layer.y[i])).collect();
+    let mut sorted = d.clone();
+    sorted.sort_by(f64::total_cmp);
+    let q = |p: f64| sorted[((p * (n - 1) as f64).round() as usize).min(n - 1)];
+    let (q1, q3) = (q(0.25), q(0.75));
+    let tukey = q3 + 3.0 * (q3 - q1);
+    // The gap: the first step, past the median, where the sorted distances
+    // jump by more than FAR_GAP times; everything after it is cut off from
+    // the rest. Without such a gap nothing is far, however sparse.
+    let mut gap = f64::INFINITY;
+    for k in (n / 2).max(1)..n {
+        if sorted[k - 1] > 0.0 && sorted[k] > FAR_GAP * sorted[k - 1] {
+            gap = sorted[k - 1];
+            break;
+        }
+    }
+    let fence = tukey.max(gap);
+    if !(fence > 0.0 && fence.is_finite()) {
+        return out;
+    }
+    let beyond = d.iter().filter(|&&x| x > fence).count();
+    if beyond as f64 > FAR_MAX_SHARE * n as f64 {
+        return out;
+    }
+    for i in 0..n {
+        if d[i] <= fence {
+            continue;
+        }
+        let (x, y) = (layer.x[i], layer.y[i]);
+        out[i] = Some(if geographic && x == 0.0 && y == 0.0 {
+            RejectReason::ZeroPlaceholder
+        } else if geographic && y.abs() <= 180.0 && x.abs() <= 90.0 && dist(y, x) <= fence {
+            RejectReason::SwappedLatLon
+        } else {
+            RejectReason::FarFromOthers
+        });
+    }
+    out
+}
+
+/// Events needed before [`far_points`] judges any of them.
+pub const FAR_MIN_EVENTS: usize = 20;
+/// How many times farther out than the next event a point must be to be cut
+/// off by a gap (a judgement call \[CP\], no single source: coordinate
+/// errors are usually hundreds of times farther out).
+pub const FAR_GAP: f64 = 20.0;
+/// At most this share of the events can be judged far: more than that beyond
+/// a gap is a second place, not a handful of errors (a judgement call \[CP\]).
+pub const FAR_MAX_SHARE: f64 = 0.1;
+
 impl Study {
     /// Projects and validates the layers together.
     ///
@@ -353,6 +452,31 @@ impl Study {
                 rows_read: events.rows_read,
             }));
         }
+        let mut warnings = Vec::new();
+
+        // 1b. Without a study-area file, events far from all the others would
+        // stretch the area drawn around them: list them as not used (unless
+        // the user keeps them).
+        let without_far;
+        let events = if area.is_none() && !events.keep_far_points {
+            let far = far_points(events);
+            let k = far.iter().filter(|r| r.is_some()).count();
+            if k > 0 {
+                warnings.push(format!(
+                    "{k} event(s) lie far from all the others (suspected coordinate errors: \
+                     placeholders at 0, 0, latitude and longitude exchanged, typing slips) and \
+                     were left out of the area drawn around the events; they are listed with \
+                     the rows not used. Keep them with the option to keep far-off points if \
+                     they are real."
+                ));
+                without_far = events.without(&far);
+                &without_far
+            } else {
+                events
+            }
+        } else {
+            events
+        };
 
         // 2. Projection centre.
         let (cx, cy) = match area {
@@ -369,7 +493,6 @@ impl Study {
             ),
         };
         let projection = Projection::for_data(kind, cx, cy);
-        let mut warnings = Vec::new();
         if let (Some(a), true) = (area, projection.is_geographic()) {
             let reach = a
                 .polygons
@@ -689,6 +812,7 @@ mod tests {
             time_has_clock: false,
             date_order: None,
             encoding: crate::input::text::Encoding::Utf8,
+            keep_far_points: false,
         }
     }
 
@@ -805,7 +929,9 @@ mod tests {
             }
         );
         assert_eq!(e.code(), "outside_study_area");
-        assert!(e.to_string().contains("all 2 readable events (of 3 rows) lie outside"));
+        assert!(e
+            .to_string()
+            .contains("all 2 readable events (of 3 rows) lie outside"));
     }
 
     #[test]
@@ -881,5 +1007,105 @@ mod tests {
         let s = Study::build(&ev, None, None, AreaFallback::BoundingBox).unwrap();
         assert!((s.window.area() - 100.0 * 200.0 * 0.3048 * 0.3048).abs() < 1e-9);
         assert_eq!(s.events.x()[1], 200.0 * 0.3048);
+    }
+
+    /// Seeded events around (lon −32.0, lat −41.5), about ±0.02° (a town).
+    fn town(n: usize) -> Vec<(f64, f64)> {
+        let mut rng = crate::rng::rng_from_seed(5);
+        use rand::RngExt;
+        (0..n)
+            .map(|_| {
+                (
+                    -32.0 + 0.04 * (rng.random::<f64>() - 0.5),
+                    -41.5 + 0.04 * (rng.random::<f64>() - 0.5),
+                )
+            })
+            .collect()
+    }
+
+    #[test]
+    fn far_points_are_named_by_what_they_probably_are() {
+        let mut pts = town(60);
+        pts.push((0.0, 0.0)); // placeholder
+        pts.push((-41.51, -32.01)); // latitude and longitude exchanged
+        pts.push((-3.2, -41.5)); // a dropped digit
+        let ev = layer(CoordKind::LonLat, &pts);
+        let far = far_points(&ev);
+        assert!(
+            far[..60].iter().all(Option::is_none),
+            "no town event flagged"
+        );
+        assert_eq!(far[60], Some(RejectReason::ZeroPlaceholder));
+        assert_eq!(far[61], Some(RejectReason::SwappedLatLon));
+        assert_eq!(far[62], Some(RejectReason::FarFromOthers));
+        // Without a study-area file they are left out, listed, and the hull is the town's.
+        let s = Study::build(&ev, None, None, AreaFallback::ConvexHull).unwrap();
+        assert_eq!(s.events.len(), 60);
+        let reasons: Vec<&RejectReason> = s
+            .event_rejections
+            .iter()
+            .filter(|r| r.column.is_none())
+            .map(|r| &r.reason)
+            .collect();
+        assert_eq!(reasons.len(), 3);
+        assert!(
+            s.window.area() < 4.0e6 * 4.0,
+            "hull of the town, not of the world: {}",
+            s.window.area()
+        );
+        assert!(s
+            .warnings
+            .iter()
+            .any(|w| w.contains("3 event(s) lie far from all the others")));
+        let zero = s
+            .event_rejections
+            .iter()
+            .find(|r| r.reason == RejectReason::ZeroPlaceholder)
+            .unwrap();
+        assert_eq!(zero.value, "lon 0, lat 0");
+        // Kept on request.
+        let mut keep = ev.clone();
+        keep.keep_far_points = true;
+        let s = Study::build(&keep, None, None, AreaFallback::ConvexHull).unwrap();
+        assert_eq!(s.events.len(), 63);
+    }
+
+    #[test]
+    fn honest_spread_is_not_cut() {
+        // Uniform events in a square, and a clustered pattern with a sparse
+        // scatter around it: nothing is far out.
+        let mut rng = crate::rng::rng_from_seed(9);
+        use rand::RngExt;
+        let uni: Vec<(f64, f64)> = (0..500)
+            .map(|_| (1000.0 * rng.random::<f64>(), 1000.0 * rng.random::<f64>()))
+            .collect();
+        assert!(far_points(&layer(METRE, &uni)).iter().all(Option::is_none));
+        let mut clus: Vec<(f64, f64)> = (0..400)
+            .map(|_| {
+                (
+                    500.0 + 20.0 * rng.random::<f64>(),
+                    500.0 + 20.0 * rng.random::<f64>(),
+                )
+            })
+            .collect();
+        clus.extend((0..40).map(|_| (1000.0 * rng.random::<f64>(), 1000.0 * rng.random::<f64>())));
+        let far = far_points(&layer(METRE, &clus));
+        assert!(
+            far.iter().all(Option::is_none),
+            "{:?}",
+            far.iter().filter(|r| r.is_some()).count()
+        );
+        // A second place (a fifth of the events, 50 km off) is not an error.
+        let mut two = town(100);
+        two.extend(town(25).into_iter().map(|(x, y)| (x + 0.6, y)));
+        assert!(far_points(&layer(CoordKind::LonLat, &two))
+            .iter()
+            .all(Option::is_none));
+        // Too few events to judge.
+        assert!(
+            far_points(&layer(METRE, &[(0.0, 0.0), (1.0, 0.0), (1e9, 1e9)]))
+                .iter()
+                .all(Option::is_none)
+        );
     }
 }

@@ -498,6 +498,7 @@ mod tests {
             time_has_clock: false,
             date_order: None,
             encoding: crate::input::text::Encoding::Utf8,
+            keep_far_points: false,
         };
         let st = Study::build(&layer, None, None, AreaFallback::BoundingBox).unwrap();
         let s = summarise(&st);

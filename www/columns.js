@@ -18,7 +18,9 @@ export function currentOptions() {
   const coords = kind === 'lon_lat' ? { kind: 'lon_lat' } : { kind: 'planar', unit: kind };
   const order = $('map-date').value;
   // Empty = let the engine detect the order from the dates.
-  return order === '' ? { mapping, coords } : { mapping, coords, date_order: order };
+  const o = order === '' ? { mapping, coords } : { mapping, coords, date_order: order };
+  if ($('map-keep-far').checked) o.keep_far_points = true;
+  return o;
 }
 
 /** The date order the engine used and why; when the dates cannot tell,

@@ -73,7 +73,7 @@ function wire() {
     state.mapLayer = $('map-layer').value;
     showMapping();
   });
-  for (const id of ['map-x', 'map-y', 'map-time', 'map-category', 'map-weight', 'map-coords', 'map-date']) {
+  for (const id of ['map-x', 'map-y', 'map-time', 'map-category', 'map-weight', 'map-coords', 'map-date', 'map-keep-far']) {
     $(id).addEventListener('change', act(mappingChanged));
   }
   for (const input of document.querySelectorAll('input[name=area-mode]')) {

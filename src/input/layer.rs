@@ -187,6 +187,7 @@ impl Builder {
             time_has_clock: self.time_has_clock,
             date_order: self.date_order,
             encoding: super::text::Encoding::Utf8,
+            keep_far_points: false,
         }
     }
 }
@@ -547,6 +548,21 @@ impl fmt::Display for Rejection {
                  quote a text that holds the delimiter"
             ),
             RejectReason::BadGeometry => write!(f, "no usable point geometry ({v})"),
+            RejectReason::ZeroPlaceholder => write!(
+                f,
+                "the point is at longitude 0, latitude 0, far from the other events: \
+                 usually a placeholder for a missing location"
+            ),
+            RejectReason::SwappedLatLon => write!(
+                f,
+                "the point ({v}) is far from the other events but lies among them with \
+                 latitude and longitude exchanged"
+            ),
+            RejectReason::FarFromOthers => write!(
+                f,
+                "the point ({v}) is far from all the other events (a typing or geocoding \
+                 error?); keep such points with the option to keep far-off points"
+            ),
         }
     }
 }

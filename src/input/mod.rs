@@ -105,6 +105,10 @@ pub struct ReadOptions {
     /// Set to `""` to turn off detection of the time column etc. is not needed:
     /// use the mapping. `delimiter`: `None` = detect among `,` `;` tab.
     pub delimiter: Option<char>,
+    /// Keep events far from all the others (suspected coordinate errors,
+    /// see [`crate::study`]) when no study-area file is given. Default:
+    /// they are listed as not used, each with its reason.
+    pub keep_far_points: bool,
 }
 
 /// Options for a study-area file (`loadArea`).
@@ -134,6 +138,10 @@ impl crate::params::Params for ReadOptions {
             )
             .optional(),
             Field::text("delimiter", "one character; empty = detect among , ; and tab").optional(),
+            Field::boolean(
+                "keep_far_points",
+                "keep events far from all the others (suspected coordinate errors) when no study area is given",
+            ),
         ]
     }
 }
@@ -170,6 +178,15 @@ pub enum RejectReason {
     TooManyFields,
     /// A GeoJSON feature without a usable point geometry.
     BadGeometry,
+    /// (0, 0) in longitude/latitude, far from the other events: a common
+    /// placeholder for a missing location.
+    ZeroPlaceholder,
+    /// Far from the other events, and near them with latitude and longitude
+    /// exchanged.
+    SwappedLatLon,
+    /// Far from all the other events (Tukey's far-out fence on the distances
+    /// from their median centre): a suspected coordinate error.
+    FarFromOthers,
 }
 
 impl RejectReason {
@@ -186,6 +203,9 @@ impl RejectReason {
             RejectReason::TooFewFields => "fewer fields than the header",
             RejectReason::TooManyFields => "more fields than the header",
             RejectReason::BadGeometry => "no usable point geometry",
+            RejectReason::ZeroPlaceholder => "(0, 0): a placeholder for a missing location?",
+            RejectReason::SwappedLatLon => "latitude and longitude exchanged?",
+            RejectReason::FarFromOthers => "far from all other events: a coordinate error?",
         }
     }
 }
@@ -286,6 +306,8 @@ pub struct RawLayer {
     pub date_order: Option<time::DateOrderReport>,
     /// The text encoding the file was read with.
     pub encoding: text::Encoding,
+    /// From [`ReadOptions::keep_far_points`].
+    pub keep_far_points: bool,
 }
 
 impl RawLayer {
@@ -296,6 +318,46 @@ impl RawLayer {
     pub fn is_empty(&self) -> bool {
         self.x.is_empty()
     }
+    /// The layer without the points marked in `drop` (one entry per point),
+    /// which become rejections with the given reason and their coordinates
+    /// as the value.
+    pub fn without(&self, drop: &[Option<RejectReason>]) -> RawLayer {
+        let keep: Vec<usize> = (0..self.len()).filter(|&i| drop[i].is_none()).collect();
+        let pick = |v: &Vec<f64>| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+        let mut out = self.clone();
+        out.x = pick(&self.x);
+        out.y = pick(&self.y);
+        out.time = self.time.as_ref().map(pick);
+        out.weight = self.weight.as_ref().map(pick);
+        out.category = self
+            .category
+            .as_ref()
+            .map(|c| keep.iter().map(|&i| c[i]).collect());
+        out.row = keep.iter().map(|&i| self.row[i]).collect();
+        let dropped_rows: Vec<u64> = (0..self.len())
+            .filter(|&i| drop[i].is_some())
+            .map(|i| self.row[i])
+            .collect();
+        out.incomplete
+            .retain(|r| dropped_rows.binary_search(&r.row).is_err());
+        for (i, reason) in drop.iter().enumerate() {
+            if let Some(reason) = reason {
+                let value = match self.coords {
+                    CoordKind::LonLat => format!("lon {}, lat {}", self.x[i], self.y[i]),
+                    CoordKind::Planar { .. } => format!("x {}, y {}", self.x[i], self.y[i]),
+                };
+                out.rejections.push(Rejection {
+                    row: self.row[i],
+                    column: None,
+                    reason: reason.clone(),
+                    value,
+                });
+            }
+        }
+        out.rejections.sort_by_key(|r| r.row);
+        out
+    }
+
     /// Accepted points without a usable time (0 without a time column).
     pub fn missing_time(&self) -> usize {
         self.time
@@ -334,6 +396,7 @@ pub fn read_points(bytes: &[u8], opts: &ReadOptions) -> Result<RawLayer, InputEr
         text::Format::Delimited => layer::from_csv(text, opts),
     }?;
     layer.encoding = decoded.encoding;
+    layer.keep_far_points = opts.keep_far_points;
     Ok(layer)
 }
 
