@@ -96,7 +96,11 @@ export type RejectReason =
   | 'bad_time'
   | 'bad_weight'
   | 'too_few_fields'
-  | 'bad_geometry';
+  | 'too_many_fields'
+  | 'bad_geometry'
+  | 'zero_placeholder'
+  | 'swapped_lat_lon'
+  | 'far_from_others';
 
 /** Rows rejected for one reason. */
 export interface ReasonCount {
