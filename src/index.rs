@@ -176,6 +176,16 @@ impl Locations {
             if r.is_empty() {
                 continue;
             }
+            if r.len() == 1 {
+                let s = r.start;
+                loc.x.push(g.xs[s]);
+                loc.y.push(g.ys[s]);
+                loc.first_id.push(g.id[s]);
+                loc.of_slot[s] = (loc.x.len() - 1) as u32;
+                loc.slots.push(s as u32);
+                loc.off.push(loc.slots.len() as u32);
+                continue;
+            }
             order.clear();
             order.extend(r);
             if order.len() > 1 {
@@ -475,7 +485,7 @@ impl GridIndex {
 
     /// Ring search over the distinct locations around (qx, qy), skipping
     /// location `skip` (use `usize::MAX` for none). Returns the number of
-    /// cells visited.
+    /// locations examined.
     fn search<B: Sink>(&self, qx: f64, qy: f64, skip: usize, best: &mut B) -> usize {
         let loc = self.locations();
         let (cx, cy) = (self.col(qx) as isize, self.row(qy) as isize);
@@ -486,8 +496,9 @@ impl GridIndex {
             let (ylo, yhi) = ((cy - rho).max(0), (cy + rho).min(ny - 1));
             let (xlo, xhi) = ((cx - rho).max(0), (cx + rho).min(nx - 1));
             let mut visit = |ix: isize, iy: isize| {
-                visited += 1;
-                for l in loc.cell(iy as usize * self.nx + ix as usize) {
+                let ls = loc.cell(iy as usize * self.nx + ix as usize);
+                visited += ls.len();
+                for l in ls {
                     if l == skip {
                         continue;
                     }
@@ -647,14 +658,23 @@ impl GridIndex {
         b.0.sqrt()
     }
 
-    /// Cells visited by the nearest-neighbour search from point i (test
-    /// support for the work done on stacked events).
+    /// Candidates (locations) examined by the k-th nearest-neighbour
+    /// search from point i, as [`GridIndex::kth_nn_distances`] runs it
+    /// (test support for the work done on stacked events).
     #[cfg(test)]
-    fn cells_visited_from(&self, i: usize) -> usize {
+    fn candidates_examined(&self, i: usize, k: usize) -> usize {
         let s = self.id.iter().position(|&j| j as usize == i).unwrap();
         let loc = self.locations();
         let l = loc.of_slot[s] as usize;
-        let mut b = BestD(f64::INFINITY);
+        let m = loc.mult(l);
+        if m > k {
+            return 0;
+        }
+        let mut b = Kth {
+            k: k - (m - 1),
+            total: 0,
+            items: Vec::new(),
+        };
         self.search(loc.x[l], loc.y[l], l, &mut b)
     }
 
@@ -983,6 +1003,99 @@ mod tests {
         g.for_each_pair_within(0.0, |_, _, _| zero_pairs += 1);
         // 99 duplicated pairs + point 0 six times: C(6,2) = 15.
         assert_eq!(zero_pairs, 99 + 15);
+    }
+
+    /// Events geocoded to a few addresses: the index keeps each address
+    /// once with its multiplicity, and every k-NN distance, nearest
+    /// neighbour and pair still matches brute force.
+    #[test]
+    fn test_stacked_points_are_one_location_each() {
+        let mut rng = rng_from_seed(21);
+        let (mut x, mut y) = random_points(150, SEED_1);
+        let addr = [(100.0, 50.0), (400.5, 250.25), (999.0, 1.0)];
+        let mult = [40, 7, 2];
+        for _ in 0..49 {
+            // Interleaved with the others, in a seeded order.
+            let a = (rng.random::<f64>() * 3.0) as usize;
+            x.push(addr[a].0);
+            y.push(addr[a].1);
+        }
+        for (a, &m) in mult.iter().enumerate() {
+            let have = x.iter().zip(&y).filter(|p| (*p.0, *p.1) == addr[a]).count();
+            for _ in have..m {
+                x.push(addr[a].0);
+                y.push(addr[a].1);
+            }
+        }
+        let g = GridIndex::new(&x, &y);
+        let m = g.multiplicities();
+        let at = |a: usize| (0..x.len()).filter(|&i| (x[i], y[i]) == addr[a]).count();
+        for a in 0..3 {
+            let i = (0..x.len()).find(|&i| (x[i], y[i]) == addr[a]).unwrap();
+            assert_eq!(m[i], at(a));
+        }
+        let stacked: usize = (0..3).map(at).sum();
+        assert_eq!(g.distinct_locations(), x.len() - stacked + 3);
+        check_against_brute(&x, &y);
+        for k in [5, at(0) - 1, at(0), at(0) + 3] {
+            let got = g.kth_nn_distances(k).unwrap();
+            for (i, &gi) in got.iter().enumerate() {
+                assert_eq!(gi, brute_sorted(&x, &y, i)[k - 1], "k={k} i={i}");
+            }
+        }
+        let nn = g.nn_distances().unwrap();
+        for s in 0..x.len() {
+            let i = g.id[s] as usize;
+            assert_eq!(g.nearest_distance(x[i], y[i], s), nn[i]);
+        }
+        let mut within = Vec::new();
+        g.for_each_within(addr[1].0, addr[1].1, 30.0, |j, _| within.push(j));
+        assert!(within.len() >= at(1));
+    }
+
+    /// A k-NN query from a stack of m events examines each nearby address
+    /// once, not the m events: with k = m (so the search must leave the
+    /// stack) it looks at a few dozen locations, not thousands.
+    #[test]
+    fn test_knn_on_a_stack_visits_one_cell() {
+        let (mut x, mut y) = random_points(300, SEED_2);
+        x.extend(std::iter::repeat_n(250.0, 5000));
+        y.extend(std::iter::repeat_n(125.0, 5000));
+        let g = GridIndex::new(&x, &y);
+        assert_eq!(g.distinct_locations(), 301);
+        assert_eq!(g.multiplicities()[300], 5000);
+        assert_eq!(g.candidates_examined(300, 4999), 0);
+        let seen = g.candidates_examined(300, 5000);
+        assert!((1..=60).contains(&seen), "{seen} candidates");
+        let d = g.kth_nn_distances(4999).unwrap();
+        assert!(d[300..].iter().all(|&v| v == 0.0));
+        let d = g.kth_nn_distances(5000).unwrap();
+        assert_eq!(d[300], brute_sorted(&x, &y, 300)[4999]);
+        assert!(d[300] > 0.0);
+        let nn = g.nearest_neighbours().unwrap();
+        assert_eq!(nn[300], (301, 0.0));
+        assert_eq!(nn[5299], (300, 0.0));
+        assert_eq!(g.nearest(250.0, 125.0), Some((300, 0.0)));
+    }
+
+    /// Densely packed distinct points (100,000 per m²) and a stack inside
+    /// them: exact against brute force.
+    #[test]
+    fn test_dense_square_matches_brute_force() {
+        let mut rng = rng_from_seed(33);
+        let (mut x, mut y): (Vec<f64>, Vec<f64>) = (0..700)
+            .map(|_| {
+                (
+                    500.0 + rng.random::<f64>() * 0.08,
+                    500.0 + rng.random::<f64>() * 0.08,
+                )
+            })
+            .unzip();
+        for _ in 0..60 {
+            x.push(x[3]);
+            y.push(y[3]);
+        }
+        check_against_brute(&x, &y);
     }
 
     #[test]

@@ -286,10 +286,13 @@ pub fn dbscan_labels(
             let mut s = if tight[c] { cell_w[c] } else { 0.0 };
             if !(can_stop && s >= need) {
                 block(c % nx, c / nx, &mut |run| {
-                    for b in run {
-                        if tight[c] && own.contains(&b) {
-                            continue;
-                        }
+                    // A tight cell's own locations are already counted.
+                    let (r1, r2) = if tight[c] && run.contains(&own.start) {
+                        (run.start..own.start, own.end..run.end)
+                    } else {
+                        (run, 0..0)
+                    };
+                    for b in r1.chain(r2) {
                         if d2(a, b) <= eps2 {
                             s += lw[b];
                             if can_stop && s >= need {
@@ -318,28 +321,65 @@ pub fn dbscan_labels(
             p[ra.max(rb)] = ra.min(rb) as u32;
         }
     };
+    let first_core = |c: usize| loc.cell(c).find(|&l| core[l]);
     for c in 0..nx * ny {
         let own = loc.cell(c);
-        let mut cores = own.clone().filter(|&l| core[l]);
-        let Some(first) = cores.next() else { continue };
+        let Some(first) = first_core(c) else { continue };
         if tight[c] {
-            for l in cores {
+            for l in own.clone().filter(|&l| core[l]) {
                 union(&mut parent, first, l);
             }
-        }
-        for a in own.clone().filter(|&l| core[l]) {
-            block(c % nx, c / nx, &mut |run| {
-                for b in run {
-                    // Each unordered pair once; tight cells are joined above.
-                    if b <= a || !core[b] || (tight[c] && own.contains(&b)) {
-                        continue;
-                    }
-                    if find(&mut parent, a) != find(&mut parent, b) && d2(a, b) <= eps2 {
+        } else {
+            for a in own.clone().filter(|&l| core[l]) {
+                for b in a + 1..own.end {
+                    if core[b] && find(&mut parent, a) != find(&mut parent, b) && d2(a, b) <= eps2 {
                         union(&mut parent, a, b);
                     }
                 }
-                true
-            });
+            }
+        }
+        // Later cells of the block (each unordered pair of cells once).
+        let (cx, cy) = (c % nx, c / nx);
+        for (k, oy) in (-reach..=reach).enumerate() {
+            let row = cy as isize + oy;
+            if row < cy as isize || row >= ny as isize {
+                continue;
+            }
+            let lo = (cx as isize - spans[k]).max(0) as usize;
+            let hi = (cx as isize + spans[k]).min(nx as isize - 1) as usize;
+            for col in lo..=hi {
+                let b = row as usize * nx + col;
+                if b <= c {
+                    continue;
+                }
+                let Some(bfirst) = first_core(b) else {
+                    continue;
+                };
+                if tight[c] && tight[b] {
+                    // One component on each side: any one pair within eps joins them.
+                    if find(&mut parent, first) == find(&mut parent, bfirst) {
+                        continue;
+                    }
+                    let joined = own
+                        .clone()
+                        .filter(|&l| core[l])
+                        .any(|a| loc.cell(b).any(|t| core[t] && d2(a, t) <= eps2));
+                    if joined {
+                        union(&mut parent, first, bfirst);
+                    }
+                } else {
+                    for a in own.clone().filter(|&l| core[l]) {
+                        for t in loc.cell(b) {
+                            if core[t]
+                                && find(&mut parent, a) != find(&mut parent, t)
+                                && d2(a, t) <= eps2
+                            {
+                                union(&mut parent, a, t);
+                            }
+                        }
+                    }
+                }
+            }
         }
     }
     // Location of each event, input order.
