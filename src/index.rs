@@ -44,19 +44,27 @@
 //! keep their order of summation, hence their values bit for bit.
 //!
 //! # Coincident points
-//! Thousands of events geocoded to one address are stored today as
-//! thousands of slots in one cell. The API is written so they can later be
-//! stored once with a multiplicity without changing it: callers receive
-//! original indices (or slots mapped through `id`), never positions in the
-//! input, so a slot could carry a run of original indices instead of one
-//! (`id` becoming an offset table), with counts multiplied by the run's
-//! length and the pair loops emitting the run's C(m, 2) internal pairs at
-//! distance 0.
+//! Thousands of events geocoded to one address keep one slot each (the pair
+//! loops and K/g see every event), but the nearest-neighbour searches
+//! (`kth_nn_distances`, `nn_distances`, `nearest_neighbours`, `nearest`,
+//! the G/F distances) run on a second table over the same cells: the
+//! *distinct locations*, each once with its multiplicity m and its events'
+//! slots (an offset table, O(n) memory, built on first use). The k-th
+//! nearest distance is computed once per location: with m > k it is 0 at
+//! once; otherwise the m − 1 others count as k-th candidates at distance 0
+//! and the ring search over locations counts each location m times. The
+//! distances are those of the per-event search bit for bit (the same
+//! coordinates enter the same expression). DBSCAN works on the locations
+//! too ([`crate::clusters::dbscan`]). [`GridIndex::distinct_locations`] and
+//! [`GridIndex::multiplicities`] expose the grouping.
 //!
 //! # Notes
-//! Building is O(n); a nearest-neighbour query is O(1) expected for points
-//! spread over an area, and pair enumeration is O(n + #pairs). Clustered data
-//! (many points in few cells) degrades towards O(n²) only within clusters.
+//! Building is O(n) (the location table O(n log m) for cells of m events);
+//! a nearest-neighbour query is O(1) expected for points spread over an
+//! area, and pair enumeration is O(n + #pairs). Stacked events cost one
+//! location each. Distinct points packed much more densely than the rest of
+//! the bounding box (a tight cloud plus a far outlier) still crowd a few
+//! cells and degrade towards O(m²) within them.
 //! Non-finite coordinates are not expected (a [`crate::study::Pattern`] has
 //! none); if present they are left out of the bounding box and never count
 //! as near anything.
@@ -320,7 +328,7 @@ impl Sink for Kth {
     #[inline]
     fn offer(&mut self, d2: f64, l: usize, loc: &Locations) {
         // NaN and anything beyond the current k-th are rejected.
-        if !(d2 <= self.worst()) {
+        if d2.is_nan() || d2 > self.worst() {
             return;
         }
         let m = loc.mult(l);
@@ -1030,8 +1038,8 @@ mod tests {
         let g = GridIndex::new(&x, &y);
         let m = g.multiplicities();
         let at = |a: usize| (0..x.len()).filter(|&i| (x[i], y[i]) == addr[a]).count();
-        for a in 0..3 {
-            let i = (0..x.len()).find(|&i| (x[i], y[i]) == addr[a]).unwrap();
+        for (a, &p) in addr.iter().enumerate() {
+            let i = (0..x.len()).find(|&i| (x[i], y[i]) == p).unwrap();
             assert_eq!(m[i], at(a));
         }
         let stacked: usize = (0..3).map(at).sum();

@@ -163,8 +163,8 @@ mod knee {
         let mut found = Vec::new();
         for c in 0..3 {
             let mut count: HashMap<i32, usize> = HashMap::new();
-            for i in c * 150..(c + 1) * 150 {
-                *count.entry(labels[i]).or_default() += 1;
+            for &l in &labels[c * 150..(c + 1) * 150] {
+                *count.entry(l).or_default() += 1;
             }
             let (&l, &m) = count.iter().max_by_key(|e| *e.1).unwrap();
             assert!(

@@ -22,10 +22,11 @@
 //!
 //! # Complexity
 //! Points are indexed in the shared [`crate::index::GridIndex`] with cells of
-//! side `eps`; each neighbourhood query scans a 3 × 3 block of cells.
-//! Neighbourhoods are counted in one pass and recomputed for core points
-//! during growth, so memory stays O(n) however dense the data. Worst case
-//! (everything within eps) O(n²) time.
+//! side eps/√2 and handled as distinct locations with multiplicities (see
+//! [`dbscan_labels`]): events at one address cost one location, a cell whose
+//! points all lie within eps of each other is counted at once, and sums stop
+//! at `min_samples`. Memory O(n). Worst case (many distinct points in cells
+//! that are not within eps of each other but close) O(n²) distance checks.
 
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
@@ -331,8 +332,8 @@ pub fn dbscan_labels(
             }
         } else {
             for a in own.clone().filter(|&l| core[l]) {
-                for b in a + 1..own.end {
-                    if core[b] && find(&mut parent, a) != find(&mut parent, b) && d2(a, b) <= eps2 {
+                for (b, &cb) in core.iter().enumerate().take(own.end).skip(a + 1) {
+                    if cb && find(&mut parent, a) != find(&mut parent, b) && d2(a, b) <= eps2 {
                         union(&mut parent, a, b);
                     }
                 }
