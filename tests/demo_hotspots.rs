@@ -148,7 +148,7 @@ fn dbscan_finds_the_gaussian_cluster() {
 /// The suggested reach (Kneedle on log k-distance) with the page's default
 /// min_samples (8) must not merge the town into one cluster: at most 60 %
 /// of the events in the largest cluster (the previous chord heuristic gave
-/// 517 m and put 1,454 of 1,500 events in one cluster).
+/// 517 m and put 1,456 of 1,500 events in one cluster).
 #[test]
 fn suggested_reach_does_not_merge_the_town() {
     let s = study();
