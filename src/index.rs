@@ -44,19 +44,27 @@
 //! keep their order of summation, hence their values bit for bit.
 //!
 //! # Coincident points
-//! Thousands of events geocoded to one address are stored today as
-//! thousands of slots in one cell. The API is written so they can later be
-//! stored once with a multiplicity without changing it: callers receive
-//! original indices (or slots mapped through `id`), never positions in the
-//! input, so a slot could carry a run of original indices instead of one
-//! (`id` becoming an offset table), with counts multiplied by the run's
-//! length and the pair loops emitting the run's C(m, 2) internal pairs at
-//! distance 0.
+//! Thousands of events geocoded to one address keep one slot each (the pair
+//! loops and K/g see every event), but the nearest-neighbour searches
+//! (`kth_nn_distances`, `nn_distances`, `nearest_neighbours`, `nearest`,
+//! the G/F distances) run on a second table over the same cells: the
+//! *distinct locations*, each once with its multiplicity m and its events'
+//! slots (an offset table, O(n) memory, built on first use). The k-th
+//! nearest distance is computed once per location: with m > k it is 0 at
+//! once; otherwise the m − 1 others count as k-th candidates at distance 0
+//! and the ring search over locations counts each location m times. The
+//! distances are those of the per-event search bit for bit (the same
+//! coordinates enter the same expression). DBSCAN works on the locations
+//! too ([`crate::clusters::dbscan`]). [`GridIndex::distinct_locations`] and
+//! [`GridIndex::multiplicities`] expose the grouping.
 //!
 //! # Notes
-//! Building is O(n); a nearest-neighbour query is O(1) expected for points
-//! spread over an area, and pair enumeration is O(n + #pairs). Clustered data
-//! (many points in few cells) degrades towards O(n²) only within clusters.
+//! Building is O(n) (the location table O(n log m) for cells of m events);
+//! a nearest-neighbour query is O(1) expected for points spread over an
+//! area, and pair enumeration is O(n + #pairs). Stacked events cost one
+//! location each. Distinct points packed much more densely than the rest of
+//! the bounding box (a tight cloud plus a far outlier) still crowd a few
+//! cells and degrade towards O(m²) within them.
 //! Non-finite coordinates are not expected (a [`crate::study::Pattern`] has
 //! none); if present they are left out of the bounding box and never count
 //! as near anything.
@@ -120,16 +128,139 @@ pub struct GridIndex {
     cell: f64,
     nx: usize,
     ny: usize,
+    /// Distinct locations, built on the first nearest-neighbour search.
+    locs: std::sync::OnceLock<Locations>,
 }
 
-/// Receives candidate neighbours during a ring search.
+/// The distinct locations of the points, cell by cell: the layer the
+/// nearest-neighbour searches run on, so that m events at one address are
+/// one candidate of multiplicity m (built on the first such search).
+#[derive(Debug, Clone)]
+pub(crate) struct Locations {
+    /// Coordinates of each location, cells row-major; within a cell, in
+    /// the order of each location's first slot.
+    pub(crate) x: Vec<f64>,
+    pub(crate) y: Vec<f64>,
+    /// Locations of cell c are `start[c]..start[c + 1]`.
+    start: Vec<u32>,
+    /// Slots at location l are `slots[off[l]..off[l + 1]]`, ascending
+    /// (hence ascending original index too).
+    off: Vec<u32>,
+    slots: Vec<u32>,
+    /// Location of each slot.
+    pub(crate) of_slot: Vec<u32>,
+    /// Lowest original index at each location.
+    first_id: Vec<u32>,
+}
+
+impl Locations {
+    fn build(g: &GridIndex) -> Locations {
+        let n = g.len();
+        let ncell = g.nx * g.ny;
+        let mut loc = Locations {
+            x: Vec::new(),
+            y: Vec::new(),
+            start: Vec::with_capacity(ncell + 1),
+            off: vec![0],
+            slots: Vec::with_capacity(n),
+            of_slot: vec![0; n],
+            first_id: Vec::new(),
+        };
+        // Exactly equal coordinates (0.0 and −0.0 alike) share a location;
+        // a non-finite point is a location of its own.
+        let key = |s: usize| {
+            let (x, y) = (g.xs[s], g.ys[s]);
+            if x.is_finite() && y.is_finite() {
+                ((x + 0.0).to_bits(), (y + 0.0).to_bits(), 0)
+            } else {
+                (0, 0, s + 1)
+            }
+        };
+        let mut order: Vec<usize> = Vec::new();
+        let mut groups: Vec<(usize, usize)> = Vec::new();
+        for c in 0..ncell {
+            loc.start.push(loc.x.len() as u32);
+            let r = g.range(c);
+            if r.is_empty() {
+                continue;
+            }
+            if r.len() == 1 {
+                let s = r.start;
+                loc.x.push(g.xs[s]);
+                loc.y.push(g.ys[s]);
+                loc.first_id.push(g.id[s]);
+                loc.of_slot[s] = (loc.x.len() - 1) as u32;
+                loc.slots.push(s as u32);
+                loc.off.push(loc.slots.len() as u32);
+                continue;
+            }
+            order.clear();
+            order.extend(r);
+            if order.len() > 1 {
+                order.sort_by_key(|&s| (key(s), s));
+            }
+            // Runs of equal keys, then ordered by their first slot.
+            groups.clear();
+            let mut a = 0;
+            for b in 1..=order.len() {
+                if b == order.len() || key(order[b]) != key(order[a]) {
+                    groups.push((a, b));
+                    a = b;
+                }
+            }
+            groups.sort_by_key(|&(a, _)| order[a]);
+            for &(a, b) in &groups {
+                let l = loc.x.len() as u32;
+                let s0 = order[a];
+                loc.x.push(g.xs[s0]);
+                loc.y.push(g.ys[s0]);
+                loc.first_id.push(g.id[s0]);
+                for &s in &order[a..b] {
+                    loc.slots.push(s as u32);
+                    loc.of_slot[s] = l;
+                }
+                loc.off.push(loc.slots.len() as u32);
+            }
+        }
+        loc.start.push(loc.x.len() as u32);
+        loc
+    }
+
+    /// Number of distinct locations.
+    pub(crate) fn len(&self) -> usize {
+        self.x.len()
+    }
+
+    /// Locations in cell c.
+    #[inline]
+    pub(crate) fn cell(&self, c: usize) -> std::ops::Range<usize> {
+        self.start[c] as usize..self.start[c + 1] as usize
+    }
+
+    /// Locations in cells c0..=c1 (one run when they are in one row).
+    #[inline]
+    pub(crate) fn run(&self, c0: usize, c1: usize) -> std::ops::Range<usize> {
+        self.start[c0] as usize..self.start[c1 + 1] as usize
+    }
+
+    /// Number of events at location l.
+    #[inline]
+    pub(crate) fn mult(&self, l: usize) -> usize {
+        (self.off[l + 1] - self.off[l]) as usize
+    }
+
+    #[inline]
+    pub(crate) fn members(&self, l: usize) -> &[u32] {
+        &self.slots[self.off[l] as usize..self.off[l + 1] as usize]
+    }
+}
+/// Receives candidate locations during a ring search.
 trait Sink {
     /// The distance² a candidate must beat (∞ until enough are known).
     fn worst(&self) -> f64;
-    /// Offers slot `s` at distance² `d2`; `id` maps slots to original
-    /// indices (read only when needed, so a distance-only search never
-    /// touches it).
-    fn offer(&mut self, d2: f64, s: usize, id: &[u32]);
+    /// Offers location `l` at distance² `d2` (its multiplicity and lowest
+    /// original index are read from `loc` only when needed).
+    fn offer(&mut self, d2: f64, l: usize, loc: &Locations);
 }
 
 /// The single nearest distance² (no index kept).
@@ -141,7 +272,7 @@ impl Sink for BestD {
         self.0
     }
     #[inline]
-    fn offer(&mut self, d2: f64, _s: usize, _id: &[u32]) {
+    fn offer(&mut self, d2: f64, _l: usize, _loc: &Locations) {
         if d2 < self.0 {
             self.0 = d2;
         }
@@ -160,66 +291,58 @@ impl Sink for Best1 {
         self.d2
     }
     #[inline]
-    fn offer(&mut self, d2: f64, s: usize, id: &[u32]) {
-        if d2 < self.d2 || (d2 == self.d2 && id[s] < self.j) {
+    fn offer(&mut self, d2: f64, l: usize, loc: &Locations) {
+        if d2 < self.d2 || (d2 == self.d2 && loc.first_id[l] < self.j) {
             self.d2 = d2;
-            self.j = id[s];
+            self.j = loc.first_id[l];
         }
     }
 }
 
-/// The k smallest (distance², index) seen so far, sorted ascending.
-struct Best {
+/// The k-th smallest distance² counting each location with its
+/// multiplicity: the nearest locations seen so far as (distance², events),
+/// ascending, trimmed to those needed to reach k events.
+struct Kth {
     k: usize,
-    items: Vec<(f64, u32)>,
+    total: usize,
+    items: Vec<(f64, usize)>,
 }
 
-impl Sink for Best {
-    fn worst(&self) -> f64 {
-        Best::worst(self)
-    }
-    #[inline]
-    fn offer(&mut self, d2: f64, s: usize, id: &[u32]) {
-        // A candidate beyond the current k-th is rejected by `Best::offer`
-        // whatever its index; skip reading the index for it.
-        if d2 > Best::worst(self) {
-            return;
-        }
-        Best::offer(self, d2, id[s])
-    }
-}
-
-impl Best {
-    fn new(k: usize) -> Best {
-        Best {
-            k,
-            items: Vec::with_capacity(k + 1),
-        }
-    }
-    fn clear(&mut self) {
+impl Kth {
+    fn reset(&mut self, k: usize) {
+        self.k = k;
+        self.total = 0;
         self.items.clear();
     }
-    /// The current k-th smallest distance², or ∞ while fewer than k are known.
+}
+
+impl Sink for Kth {
+    #[inline]
     fn worst(&self) -> f64 {
-        if self.items.len() < self.k {
+        if self.total < self.k {
             f64::INFINITY
         } else {
-            self.items[self.k - 1].0
+            self.items[self.items.len() - 1].0
         }
     }
-    /// Keeps (d2, j) if it is among the k smallest (ties by lower index).
-    fn offer(&mut self, d2: f64, j: u32) {
-        if self.items.len() == self.k {
-            let (wd, wj) = self.items[self.k - 1];
-            if !(d2 < wd || (d2 == wd && j < wj)) {
-                return;
-            }
-            self.items.pop();
+    #[inline]
+    fn offer(&mut self, d2: f64, l: usize, loc: &Locations) {
+        // NaN and anything beyond the current k-th are rejected.
+        if d2.is_nan() || d2 > self.worst() {
+            return;
         }
-        let pos = self
-            .items
-            .partition_point(|&(e, i)| e < d2 || (e == d2 && i < j));
-        self.items.insert(pos, (d2, j));
+        let m = loc.mult(l);
+        let pos = self.items.partition_point(|&(e, _)| e <= d2);
+        self.items.insert(pos, (d2, m));
+        self.total += m;
+        while let Some(&(_, last)) = self.items.last() {
+            if self.total - last >= self.k {
+                self.total -= last;
+                self.items.pop();
+            } else {
+                break;
+            }
+        }
     }
 }
 
@@ -293,6 +416,7 @@ impl GridIndex {
             cell,
             nx,
             ny,
+            locs: std::sync::OnceLock::new(),
         };
         let cells: Vec<u32> = (0..n).map(|i| g.cell_of(x[i], y[i]) as u32).collect();
         for &c in &cells {
@@ -340,23 +464,55 @@ impl GridIndex {
         self.start[c] as usize..self.start[c + 1] as usize
     }
 
-    /// Ring search around (qx, qy) keeping the k nearest, skipping slot
-    /// `skip` (use `usize::MAX` for none).
-    fn search<B: Sink>(&self, qx: f64, qy: f64, skip: usize, best: &mut B) {
+    /// The distinct locations (built on first use).
+    pub(crate) fn locations(&self) -> &Locations {
+        self.locs.get_or_init(|| Locations::build(self))
+    }
+
+    /// Number of distinct locations among the points (exactly equal
+    /// coordinates; a point with a non-finite coordinate counts alone).
+    pub fn distinct_locations(&self) -> usize {
+        self.locations().len()
+    }
+
+    /// For each point in input order, the number of points (itself
+    /// included) at exactly its location.
+    pub fn multiplicities(&self) -> Vec<usize> {
+        let loc = self.locations();
+        let mut out = vec![0; self.len()];
+        for (s, &l) in loc.of_slot.iter().enumerate() {
+            out[self.id[s] as usize] = loc.mult(l as usize);
+        }
+        out
+    }
+
+    /// Cells in x and y.
+    pub(crate) fn dims(&self) -> (usize, usize) {
+        (self.nx, self.ny)
+    }
+
+    /// Ring search over the distinct locations around (qx, qy), skipping
+    /// location `skip` (use `usize::MAX` for none). Returns the number of
+    /// locations examined.
+    fn search<B: Sink>(&self, qx: f64, qy: f64, skip: usize, best: &mut B) -> usize {
+        let loc = self.locations();
         let (cx, cy) = (self.col(qx) as isize, self.row(qy) as isize);
         let (nx, ny) = (self.nx as isize, self.ny as isize);
         let mut rho: isize = 0;
+        let mut visited = 0;
         loop {
             let (ylo, yhi) = ((cy - rho).max(0), (cy + rho).min(ny - 1));
             let (xlo, xhi) = ((cx - rho).max(0), (cx + rho).min(nx - 1));
             let mut visit = |ix: isize, iy: isize| {
-                for s in self.range(iy as usize * self.nx + ix as usize) {
-                    if s == skip {
+                let ls = loc.cell(iy as usize * self.nx + ix as usize);
+                visited += ls.len();
+                for l in ls {
+                    if l == skip {
                         continue;
                     }
-                    let dx = self.xs[s] - qx;
-                    let dy = self.ys[s] - qy;
-                    best.offer(dx * dx + dy * dy, s, &self.id);
+                    let dx = loc.x[l] - qx;
+                    let dy = loc.y[l] - qy;
+                    best.offer(dx * dx + dy * dy, l, loc);
                 }
             };
             // Only the cells on the ring at Chebyshev distance rho are new.
@@ -389,11 +545,11 @@ impl GridIndex {
                 bound = bound.min(self.y0 + (cy + rho + 1) as f64 * self.cell - qy);
             }
             if bound == f64::INFINITY {
-                return; // the whole grid was visited
+                return visited; // the whole grid was visited
             }
             let bound = bound.max(0.0);
             if best.worst() <= bound * bound {
-                return;
+                return visited;
             }
             rho += 1;
         }
@@ -407,26 +563,37 @@ impl GridIndex {
 
     /// Distance from each point to its k-th nearest other point (k = 1 is the
     /// nearest), in input order. `None` when `k == 0` or there are not more
-    /// than `k` points.
+    /// than `k` points. Computed once per distinct location: a location
+    /// holding more than k events answers 0 without a search.
     pub fn kth_nn_distances(&self, k: usize) -> Option<Vec<f64>> {
         let n = self.len();
         if k == 0 || n <= k {
             return None;
         }
+        let loc = self.locations();
         let mut out = vec![0.0; n];
-        if k == 1 {
-            for s in 0..n {
+        let mut b = Kth {
+            k,
+            total: 0,
+            items: Vec::with_capacity(k + 1),
+        };
+        for l in 0..loc.len() {
+            let m = loc.mult(l);
+            let d = if m > k {
+                0.0
+            } else if k == 1 {
                 let mut b = BestD(f64::INFINITY);
-                self.search(self.xs[s], self.ys[s], s, &mut b);
-                out[self.id[s] as usize] = b.0.sqrt();
+                self.search(loc.x[l], loc.y[l], l, &mut b);
+                b.0.sqrt()
+            } else {
+                // The other m − 1 events here are at distance 0.
+                b.reset(k - (m - 1));
+                self.search(loc.x[l], loc.y[l], l, &mut b);
+                b.worst().sqrt()
+            };
+            for &s in loc.members(l) {
+                out[self.id[s as usize] as usize] = d;
             }
-            return Some(out);
-        }
-        let mut b = Best::new(k);
-        for s in 0..n {
-            b.clear();
-            self.search(self.xs[s], self.ys[s], s, &mut b);
-            out[self.id[s] as usize] = b.worst().sqrt();
         }
         Some(out)
     }
@@ -440,14 +607,26 @@ impl GridIndex {
         if n < 2 {
             return None;
         }
+        let loc = self.locations();
         let mut out = vec![(0, 0.0); n];
-        for s in 0..n {
+        for l in 0..loc.len() {
+            let members = loc.members(l);
+            if members.len() >= 2 {
+                // Coincident events: the lowest other index at distance 0
+                // (members ascend by slot, hence by original index).
+                let (lo, lo2) = (self.id[members[0] as usize], self.id[members[1] as usize]);
+                for &s in members {
+                    let i = self.id[s as usize];
+                    out[i as usize] = (if i == lo { lo2 } else { lo } as usize, 0.0);
+                }
+                continue;
+            }
             let mut b = Best1 {
                 d2: f64::INFINITY,
                 j: u32::MAX,
             };
-            self.search(self.xs[s], self.ys[s], s, &mut b);
-            let i = self.id[s] as usize;
+            self.search(loc.x[l], loc.y[l], l, &mut b);
+            let i = self.id[members[0] as usize] as usize;
             out[i] = if b.j == u32::MAX {
                 (i, f64::INFINITY)
             } else {
@@ -476,9 +655,35 @@ impl GridIndex {
     pub(crate) fn nearest_distance(&self, qx: f64, qy: f64, skip: usize) -> f64 {
         let mut b = BestD(f64::INFINITY);
         if !self.is_empty() {
+            let loc = self.locations();
+            // Slot `skip`'s location stays a candidate if other events share it.
+            let skip = match loc.of_slot.get(skip) {
+                Some(&l) if loc.mult(l as usize) == 1 => l as usize,
+                _ => usize::MAX,
+            };
             self.search(qx, qy, skip, &mut b);
         }
         b.0.sqrt()
+    }
+
+    /// Candidates (locations) examined by the k-th nearest-neighbour
+    /// search from point i, as [`GridIndex::kth_nn_distances`] runs it
+    /// (test support for the work done on stacked events).
+    #[cfg(test)]
+    fn candidates_examined(&self, i: usize, k: usize) -> usize {
+        let s = self.id.iter().position(|&j| j as usize == i).unwrap();
+        let loc = self.locations();
+        let l = loc.of_slot[s] as usize;
+        let m = loc.mult(l);
+        if m > k {
+            return 0;
+        }
+        let mut b = Kth {
+            k: k - (m - 1),
+            total: 0,
+            items: Vec::new(),
+        };
+        self.search(loc.x[l], loc.y[l], l, &mut b)
     }
 
     /// Calls `f(j)` for every indexed point j in the cells that meet the
@@ -624,7 +829,7 @@ impl GridIndex {
 
     /// Rows of cells to search for distances up to `r`.
     #[inline]
-    fn reach(&self, r: f64) -> isize {
+    pub(crate) fn reach(&self, r: f64) -> isize {
         (r / self.cell)
             .ceil()
             .max(1.0)
@@ -637,7 +842,7 @@ impl GridIndex {
     /// (|ox| − 1)·cell, so |ox| ≤ ⌈√(r² − gap²)/cell⌉ (with a relative
     /// margin so that rounding in the cell assignment never loses a pair).
     #[inline]
-    fn row_span(&self, r: f64, reach: isize, oy: isize) -> isize {
+    pub(crate) fn row_span(&self, r: f64, reach: isize, oy: isize) -> isize {
         let gap = ((oy.abs() - 1).max(0)) as f64 * self.cell;
         let w2 = (r * r - gap * gap).max(0.0);
         ((w2.sqrt() * (1.0 + 1e-9) / self.cell).ceil() as isize)
@@ -806,6 +1011,99 @@ mod tests {
         g.for_each_pair_within(0.0, |_, _, _| zero_pairs += 1);
         // 99 duplicated pairs + point 0 six times: C(6,2) = 15.
         assert_eq!(zero_pairs, 99 + 15);
+    }
+
+    /// Events geocoded to a few addresses: the index keeps each address
+    /// once with its multiplicity, and every k-NN distance, nearest
+    /// neighbour and pair still matches brute force.
+    #[test]
+    fn test_stacked_points_are_one_location_each() {
+        let mut rng = rng_from_seed(21);
+        let (mut x, mut y) = random_points(150, SEED_1);
+        let addr = [(100.0, 50.0), (400.5, 250.25), (999.0, 1.0)];
+        let mult = [40, 7, 2];
+        for _ in 0..49 {
+            // Interleaved with the others, in a seeded order.
+            let a = (rng.random::<f64>() * 3.0) as usize;
+            x.push(addr[a].0);
+            y.push(addr[a].1);
+        }
+        for (a, &m) in mult.iter().enumerate() {
+            let have = x.iter().zip(&y).filter(|p| (*p.0, *p.1) == addr[a]).count();
+            for _ in have..m {
+                x.push(addr[a].0);
+                y.push(addr[a].1);
+            }
+        }
+        let g = GridIndex::new(&x, &y);
+        let m = g.multiplicities();
+        let at = |a: usize| (0..x.len()).filter(|&i| (x[i], y[i]) == addr[a]).count();
+        for (a, &p) in addr.iter().enumerate() {
+            let i = (0..x.len()).find(|&i| (x[i], y[i]) == p).unwrap();
+            assert_eq!(m[i], at(a));
+        }
+        let stacked: usize = (0..3).map(at).sum();
+        assert_eq!(g.distinct_locations(), x.len() - stacked + 3);
+        check_against_brute(&x, &y);
+        for k in [5, at(0) - 1, at(0), at(0) + 3] {
+            let got = g.kth_nn_distances(k).unwrap();
+            for (i, &gi) in got.iter().enumerate() {
+                assert_eq!(gi, brute_sorted(&x, &y, i)[k - 1], "k={k} i={i}");
+            }
+        }
+        let nn = g.nn_distances().unwrap();
+        for s in 0..x.len() {
+            let i = g.id[s] as usize;
+            assert_eq!(g.nearest_distance(x[i], y[i], s), nn[i]);
+        }
+        let mut within = Vec::new();
+        g.for_each_within(addr[1].0, addr[1].1, 30.0, |j, _| within.push(j));
+        assert!(within.len() >= at(1));
+    }
+
+    /// A k-NN query from a stack of m events examines each nearby address
+    /// once, not the m events: with k = m (so the search must leave the
+    /// stack) it looks at a few dozen locations, not thousands.
+    #[test]
+    fn test_knn_on_a_stack_visits_one_cell() {
+        let (mut x, mut y) = random_points(300, SEED_2);
+        x.extend(std::iter::repeat_n(250.0, 5000));
+        y.extend(std::iter::repeat_n(125.0, 5000));
+        let g = GridIndex::new(&x, &y);
+        assert_eq!(g.distinct_locations(), 301);
+        assert_eq!(g.multiplicities()[300], 5000);
+        assert_eq!(g.candidates_examined(300, 4999), 0);
+        let seen = g.candidates_examined(300, 5000);
+        assert!((1..=60).contains(&seen), "{seen} candidates");
+        let d = g.kth_nn_distances(4999).unwrap();
+        assert!(d[300..].iter().all(|&v| v == 0.0));
+        let d = g.kth_nn_distances(5000).unwrap();
+        assert_eq!(d[300], brute_sorted(&x, &y, 300)[4999]);
+        assert!(d[300] > 0.0);
+        let nn = g.nearest_neighbours().unwrap();
+        assert_eq!(nn[300], (301, 0.0));
+        assert_eq!(nn[5299], (300, 0.0));
+        assert_eq!(g.nearest(250.0, 125.0), Some((300, 0.0)));
+    }
+
+    /// Densely packed distinct points (100,000 per m²) and a stack inside
+    /// them: exact against brute force.
+    #[test]
+    fn test_dense_square_matches_brute_force() {
+        let mut rng = rng_from_seed(33);
+        let (mut x, mut y): (Vec<f64>, Vec<f64>) = (0..700)
+            .map(|_| {
+                (
+                    500.0 + rng.random::<f64>() * 0.08,
+                    500.0 + rng.random::<f64>() * 0.08,
+                )
+            })
+            .unzip();
+        for _ in 0..60 {
+            x.push(x[3]);
+            y.push(y[3]);
+        }
+        check_against_brute(&x, &y);
     }
 
     #[test]

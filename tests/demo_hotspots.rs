@@ -3,7 +3,7 @@
 //! The planted truth (demo-data/planted-truth.json, written by the demo
 //! generator) says where the three clusters are.
 
-use cloister::clusters::{dbscan, DbscanOptions};
+use cloister::clusters::{dbscan, k_distance_plot, DbscanOptions};
 use cloister::input::{read_area, read_points, ReadOptions};
 use cloister::intensity::{
     kernel_surface, BandwidthMethod, BandwidthOptions, EdgeCorrection, SurfaceOptions,
@@ -143,6 +143,40 @@ fn dbscan_finds_the_gaussian_cluster() {
     assert!(hit.members >= 50, "{} members", hit.members);
     assert_eq!(r.labels.len(), s.events.len());
     assert_eq!(r.noise, r.labels.iter().filter(|&&l| l < 0).count());
+}
+
+/// The suggested reach (Kneedle on log k-distance) with the page's default
+/// min_samples (8) must not merge the town into one cluster: at most 60 %
+/// of the events in the largest cluster (the previous chord heuristic gave
+/// 517 m and put 1,456 of 1,500 events in one cluster).
+#[test]
+fn suggested_reach_does_not_merge_the_town() {
+    let s = study();
+    let (x, y) = (s.events.x(), s.events.y());
+    let kd = k_distance_plot(x, y, 8).unwrap();
+    let eps = kd.knee_eps_m.unwrap();
+    let r = dbscan(
+        &s.events,
+        &DbscanOptions {
+            eps_m: eps,
+            min_samples: 8,
+            use_weights: false,
+        },
+    )
+    .unwrap();
+    let largest = r.clusters.iter().map(|c| c.members).max().unwrap_or(0);
+    let share = largest as f64 / x.len() as f64;
+    eprintln!(
+        "demo: eps {eps:.1} m, {} clusters, largest {largest} of {}",
+        r.n_clusters,
+        x.len()
+    );
+    assert!(
+        share <= 0.6,
+        "eps {eps} m: {largest} of {} in one cluster",
+        x.len()
+    );
+    assert!(r.n_clusters >= 1, "eps {eps} m found no cluster");
 }
 
 #[test]

@@ -22,10 +22,11 @@
 //!
 //! # Complexity
 //! Points are indexed in the shared [`crate::index::GridIndex`] with cells of
-//! side `eps`; each neighbourhood query scans a 3 × 3 block of cells.
-//! Neighbourhoods are counted in one pass and recomputed for core points
-//! during growth, so memory stays O(n) however dense the data. Worst case
-//! (everything within eps) O(n²) time.
+//! side eps/√2 and handled as distinct locations with multiplicities (see
+//! [`dbscan_labels`]): events at one address cost one location, a cell whose
+//! points all lie within eps of each other is counted at once, and sums stop
+//! at `min_samples`. Memory O(n). Worst case (many distinct points in cells
+//! that are not within eps of each other but close) O(n²) distance checks.
 
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
@@ -194,6 +195,18 @@ pub fn dbscan_xy(
 }
 
 /// The labelling itself: `(labels, is_core)` with scikit-learn's numbering.
+///
+/// Works on the index's distinct locations (events at one address are one
+/// location of multiplicity m, all sharing one neighbourhood, one core
+/// status and one label) in cells of side eps/√2, so a cell is usually
+/// *tight*: the diagonal of its points' bounding box is at most eps, every
+/// pair in it is within eps, and its events count for each other without a
+/// distance being computed. Neighbourhood sums stop as soon as they reach
+/// `min_samples` (when no weight is negative, partial sums only grow).
+/// Clusters are the connected components of core locations (a union–find),
+/// numbered in input order of their first core event; a border event takes
+/// the lowest-numbered cluster among its core neighbours, which is the
+/// cluster that the depth-first growth in input order reaches first.
 pub fn dbscan_labels(
     x: &[f64],
     y: &[f64],
@@ -201,54 +214,225 @@ pub fn dbscan_labels(
     min_samples: usize,
     weights: Option<&[f64]>,
 ) -> (Vec<i32>, Vec<bool>) {
-    let n = x.len();
+    let n = x.len().min(y.len());
+    if n == 0 {
+        return (Vec::new(), Vec::new());
+    }
     let eps2 = eps * eps;
-    let b = GridIndex::with_cell(x, y, eps);
-    let neighbours = |i: usize, f: &mut dyn FnMut(usize)| {
-        let (xi, yi) = (x[i], y[i]);
-        b.for_each_candidate(xi, yi, eps, |j| {
-            let dx = x[j] - xi;
-            let dy = y[j] - yi;
-            if dx * dx + dy * dy <= eps2 {
-                f(j);
-            }
-        });
-    };
-    let need = min_samples as f64;
-    let core: Vec<bool> = (0..n)
-        .map(|i| {
-            let mut s = 0.0;
-            match weights {
-                Some(w) => neighbours(i, &mut |j| s += w[j]),
-                None => neighbours(i, &mut |_| s += 1.0),
-            }
-            s >= need
+    let g = GridIndex::with_cell(&x[..n], &y[..n], eps / std::f64::consts::SQRT_2);
+    let loc = g.locations();
+    let nloc = loc.len();
+    let (nx, ny) = g.dims();
+    let reach = g.reach(eps);
+    let spans: Vec<isize> = (-reach..=reach)
+        .map(|oy| g.row_span(eps, reach, oy))
+        .collect();
+    // Weight of each location: its events' weights summed in input order.
+    let lw: Vec<f64> = (0..nloc)
+        .map(|l| match weights {
+            Some(w) => loc
+                .members(l)
+                .iter()
+                .map(|&s| w[g.id[s as usize] as usize])
+                .sum(),
+            None => loc.mult(l) as f64,
         })
         .collect();
-    let mut labels = vec![-1i32; n];
-    let mut label = 0i32;
-    let mut stack: Vec<usize> = Vec::new();
-    for seed in 0..n {
-        if labels[seed] != -1 || !core[seed] {
+    let can_stop = weights.is_none_or(|w| w.iter().all(|&v| v >= 0.0));
+    let need = min_samples as f64;
+    let d2 = |a: usize, b: usize| {
+        let dx = loc.x[b] - loc.x[a];
+        let dy = loc.y[b] - loc.y[a];
+        dx * dx + dy * dy
+    };
+    // Tight cells and their total weight.
+    let mut tight = vec![false; nx * ny];
+    let mut cell_w = vec![0.0; nx * ny];
+    for c in 0..nx * ny {
+        let r = loc.cell(c);
+        if r.is_empty() {
             continue;
         }
-        labels[seed] = label;
-        stack.push(seed);
-        while let Some(i) = stack.pop() {
-            // Only core points reach this point (non-core ones are labelled
-            // but not pushed).
-            neighbours(i, &mut |j| {
-                if labels[j] == -1 {
-                    labels[j] = label;
-                    if core[j] {
-                        stack.push(j);
+        let (mut x0, mut y0, mut x1, mut y1) = (f64::MAX, f64::MAX, f64::MIN, f64::MIN);
+        for l in r.clone() {
+            x0 = x0.min(loc.x[l]);
+            x1 = x1.max(loc.x[l]);
+            y0 = y0.min(loc.y[l]);
+            y1 = y1.max(loc.y[l]);
+            cell_w[c] += lw[l];
+        }
+        let (w, h) = (x1 - x0, y1 - y0);
+        tight[c] = w * w + h * h <= eps2;
+    }
+    // Runs of locations in the rows of cells that can hold a location
+    // within eps of one in cell (cx, cy).
+    let block = |cx: usize, cy: usize, f: &mut dyn FnMut(std::ops::Range<usize>) -> bool| {
+        let (cx, cy) = (cx as isize, cy as isize);
+        for (k, oy) in (-reach..=reach).enumerate() {
+            let row = cy + oy;
+            if row < 0 || row >= ny as isize {
+                continue;
+            }
+            let lo = (cx - spans[k]).max(0) as usize;
+            let hi = (cx + spans[k]).min(nx as isize - 1) as usize;
+            let row = row as usize * nx;
+            if !f(loc.run(row + lo, row + hi)) {
+                return;
+            }
+        }
+    };
+    // Core status of each location.
+    let mut core = vec![false; nloc];
+    for c in 0..nx * ny {
+        let own = loc.cell(c);
+        for a in own.clone() {
+            let mut s = if tight[c] { cell_w[c] } else { 0.0 };
+            if !(can_stop && s >= need) {
+                block(c % nx, c / nx, &mut |run| {
+                    // A tight cell's own locations are already counted.
+                    let (r1, r2) = if tight[c] && run.contains(&own.start) {
+                        (run.start..own.start, own.end..run.end)
+                    } else {
+                        (run, 0..0)
+                    };
+                    for b in r1.chain(r2) {
+                        if d2(a, b) <= eps2 {
+                            s += lw[b];
+                            if can_stop && s >= need {
+                                return false;
+                            }
+                        }
+                    }
+                    true
+                });
+            }
+            core[a] = s >= need;
+        }
+    }
+    // Connected components of core locations.
+    let mut parent: Vec<u32> = (0..nloc as u32).collect();
+    fn find(p: &mut [u32], mut a: usize) -> usize {
+        while p[a] as usize != a {
+            p[a] = p[p[a] as usize];
+            a = p[a] as usize;
+        }
+        a
+    }
+    let union = |p: &mut [u32], a: usize, b: usize| {
+        let (ra, rb) = (find(p, a), find(p, b));
+        if ra != rb {
+            p[ra.max(rb)] = ra.min(rb) as u32;
+        }
+    };
+    let first_core = |c: usize| loc.cell(c).find(|&l| core[l]);
+    for c in 0..nx * ny {
+        let own = loc.cell(c);
+        let Some(first) = first_core(c) else { continue };
+        if tight[c] {
+            for l in own.clone().filter(|&l| core[l]) {
+                union(&mut parent, first, l);
+            }
+        } else {
+            for a in own.clone().filter(|&l| core[l]) {
+                for (b, &cb) in core.iter().enumerate().take(own.end).skip(a + 1) {
+                    if cb && find(&mut parent, a) != find(&mut parent, b) && d2(a, b) <= eps2 {
+                        union(&mut parent, a, b);
                     }
                 }
-            });
+            }
         }
-        label += 1;
+        // Later cells of the block (each unordered pair of cells once).
+        let (cx, cy) = (c % nx, c / nx);
+        for (k, oy) in (-reach..=reach).enumerate() {
+            let row = cy as isize + oy;
+            if row < cy as isize || row >= ny as isize {
+                continue;
+            }
+            let lo = (cx as isize - spans[k]).max(0) as usize;
+            let hi = (cx as isize + spans[k]).min(nx as isize - 1) as usize;
+            for col in lo..=hi {
+                let b = row as usize * nx + col;
+                if b <= c {
+                    continue;
+                }
+                let Some(bfirst) = first_core(b) else {
+                    continue;
+                };
+                if tight[c] && tight[b] {
+                    // One component on each side: any one pair within eps joins them.
+                    if find(&mut parent, first) == find(&mut parent, bfirst) {
+                        continue;
+                    }
+                    let joined = own
+                        .clone()
+                        .filter(|&l| core[l])
+                        .any(|a| loc.cell(b).any(|t| core[t] && d2(a, t) <= eps2));
+                    if joined {
+                        union(&mut parent, first, bfirst);
+                    }
+                } else {
+                    for a in own.clone().filter(|&l| core[l]) {
+                        for t in loc.cell(b) {
+                            if core[t]
+                                && find(&mut parent, a) != find(&mut parent, t)
+                                && d2(a, t) <= eps2
+                            {
+                                union(&mut parent, a, t);
+                            }
+                        }
+                    }
+                }
+            }
+        }
     }
-    (labels, core)
+    // Location of each event, input order.
+    let mut of_event = vec![0u32; n];
+    for (s, &i) in g.id.iter().enumerate() {
+        of_event[i as usize] = loc.of_slot[s];
+    }
+    let loc_of = |i: usize| of_event[i] as usize;
+    // Cluster ids in input order of each component's first core event.
+    let mut cid = vec![-1i32; nloc];
+    let mut next = 0i32;
+    for i in 0..n {
+        let l = loc_of(i);
+        if core[l] {
+            let r = find(&mut parent, l);
+            if cid[r] < 0 {
+                cid[r] = next;
+                next += 1;
+            }
+        }
+    }
+    let mut label = vec![-1i32; nloc];
+    for l in 0..nloc {
+        if core[l] {
+            label[l] = cid[find(&mut parent, l)];
+        }
+    }
+    // Border locations: the lowest cluster id among core neighbours.
+    for c in 0..nx * ny {
+        for a in loc.cell(c) {
+            if core[a] {
+                continue;
+            }
+            let mut best = i32::MAX;
+            block(c % nx, c / nx, &mut |run| {
+                for b in run {
+                    if core[b] && label[b] < best && d2(a, b) <= eps2 {
+                        best = label[b];
+                    }
+                }
+                true
+            });
+            if best != i32::MAX {
+                label[a] = best;
+            }
+        }
+    }
+    let labels = (0..n).map(|i| label[loc_of(i)]).collect();
+    let is_core = (0..n).map(|i| core[loc_of(i)]).collect();
+    (labels, is_core)
 }
 
 #[cfg(test)]

@@ -63,6 +63,21 @@ add("blobs eps=0.5 ms=10", Y, 0.5, 10)
 w = rng.integers(1, 4, len(X))
 add("lattice weighted eps=0.5 ms=6", X, 0.5, 6, w)
 
+# Stacked events (many geocoded to one address): 40 events at each of 6
+# lattice addresses among 300 lattice points, interleaved; and one address
+# holding 200 events beside 5 others.
+rng = np.random.default_rng(303)
+addr = np.floor(rng.uniform(0, 64, (6, 2))) / 4
+S = np.vstack([np.repeat(addr, 40, axis=0), np.floor(rng.uniform(0, 64, (300, 2))) / 4])
+S = S[rng.permutation(len(S))]
+add("stacked eps=0.75 ms=5", S, 0.75, 5)
+add("stacked eps=0.75 ms=42", S, 0.75, 42)
+add("stacked weighted eps=0.5 ms=20", S, 0.5, 20, rng.integers(0, 3, len(S)))
+T = np.vstack([np.repeat([[3.25, 1.5]], 200, axis=0), [[3.5, 1.5], [3.25, 2.0], [4.0, 1.5], [3.0, 1.25], [9.0, 9.0]]])
+T = T[rng.permutation(len(T))]
+add("one address eps=0.5 ms=10", T, 0.5, 10)
+add("one address eps=0.25 ms=201", T, 0.25, 201)
+
 with open(os.path.join(os.path.dirname(os.path.abspath(__file__)), "dbscan_reference.json"), "w") as f:
     json.dump({"source": "dbscan_reference.py (scikit-learn 1.9.1)", "cases": cases}, f)
 for c in cases:

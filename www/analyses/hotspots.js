@@ -294,6 +294,7 @@ export function mountHotspots(C) {
       if (Number.isFinite(num(e))) {
         knee.hidden = false;
         knee.textContent = `Use the bend: ${fmtMetres(e)}`;
+        knee.title = 'Bend found by the Kneedle method (Satopää et al. 2011) on the log of these distances: where the curve reaches the background spacing. A starting value; try values around it.';
         if (!epsIn.value) epsIn.value = String(Math.round(num(e)));
       }
     } catch (err) {
