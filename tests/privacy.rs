@@ -5,7 +5,9 @@
 
 use cloister::privacy::aggregate::{aggregate_grid, AggregateParams};
 use cloister::privacy::donut::{design_cdf, design_mean, design_median, ks_statistic};
-use cloister::privacy::export::{export, CoordinateOutput, ExportContent, ExportOptions};
+use cloister::privacy::export::{
+    export, what_leaves, CoordinateOutput, ExportContent, ExportOptions,
+};
 use cloister::privacy::kanon::r_min_for_k;
 use cloister::privacy::suppress::{audit, audit_view, suppress, SuppressionParams};
 use cloister::privacy::{
@@ -669,9 +671,14 @@ fn exports_contain_no_original_coordinate() {
                 coordinates: coords,
                 decimals: Some(decimals as u32),
                 created: "2030-01-02".into(),
+                confirm_unmasked: false,
             };
             for content in [
-                ExportContent::MaskedPoints(&m),
+                ExportContent::MaskedPoints {
+                    masked: &m,
+                    original_x: &x,
+                    original_y: &y,
+                },
                 ExportContent::Table(&table),
             ] {
                 let f = export(&content, &opts, Some(&to_ll)).unwrap();
@@ -704,7 +711,11 @@ fn exports_contain_no_original_coordinate() {
     }
     // The masked file carries masked points, all of them: each masked pair is found.
     let f = export(
-        &ExportContent::MaskedPoints(&m),
+        &ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
         &ExportOptions {
             decimals: Some(2),
             ..Default::default()
@@ -725,7 +736,16 @@ fn what_leaves_matches_the_file() {
     let (area, x, y) = holed_area(200, 3);
     let m = donut_mask(&x, &y, &area, &DonutParams::default()).unwrap();
     let opts = ExportOptions::default();
-    let f = export(&ExportContent::MaskedPoints(&m), &opts, None).unwrap();
+    let f = export(
+        &ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
+        &opts,
+        None,
+    )
+    .unwrap();
     let data: Vec<&str> = f.text.lines().filter(|l| !l.starts_with('#')).collect();
     assert_eq!(data[0].split(',').collect::<Vec<_>>(), f.preview.fields);
     assert_eq!(data.len() - 1, f.preview.rows);
@@ -739,7 +759,11 @@ fn what_leaves_matches_the_file() {
         ..opts.clone()
     };
     for content in [
-        ExportContent::MaskedPoints(&m),
+        ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
         ExportContent::UnmaskedInternal { x: &x, y: &y },
     ] {
         let g = export(&content, &gj, None).unwrap();
@@ -784,7 +808,16 @@ fn what_leaves_matches_the_file() {
         coordinates: CoordinateOutput::LonLat,
         ..opts
     };
-    assert!(export(&ExportContent::MaskedPoints(&m), &ll, None).is_err());
+    assert!(export(
+        &ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
+        &ll,
+        None
+    )
+    .is_err());
 }
 
 #[test]
@@ -903,4 +936,149 @@ fn hexagon_counts_suppressed_safely() {
         }
         assert!(t.lines.iter().any(|l| l.kind == LineKind::Row));
     }
+}
+
+#[test]
+fn a_mask_smaller_than_the_floor_is_refused() {
+    // Item "a 1 cm donut": r_max_m below the documented floor of 50 m
+    // (docs/methods.md#privacy, common practice) is refused, by the options'
+    // check and by the masking functions themselves.
+    use cloister::params::Params;
+    use cloister::privacy::donut::MIN_LARGEST_SHIFT_M;
+    assert_eq!(MIN_LARGEST_SHIFT_M, 50.0);
+    let tiny = DonutParams {
+        r_min_m: 0.0,
+        r_max_m: 0.01,
+        ..Default::default()
+    };
+    let e = tiny.validate().unwrap_err().to_string();
+    assert!(e.contains("r_max_m") && e.contains("50 m"), "{e}");
+    let (area, x, y) = holed_area(50, 4);
+    let e = donut_mask(&x, &y, &area, &tiny).unwrap_err().to_string();
+    assert!(e.contains("r_max_m"), "{e}");
+    let k = KAnonParams {
+        r_max_m: 49.9,
+        ..Default::default()
+    };
+    assert!(k.validate().unwrap_err().to_string().contains("r_max_m"));
+    // The floor itself is accepted.
+    let at_floor = DonutParams {
+        r_min_m: 0.0,
+        r_max_m: 50.0,
+        ..Default::default()
+    };
+    assert!(donut_mask(&x, &y, &area, &at_floor).is_ok());
+}
+
+/// Masked points `m` moved back to within `shift` metres of their originals
+/// (what a 1 cm donut made before the floor existed).
+fn nearly_unmoved(
+    m: &cloister::privacy::MaskedPoints,
+    x: &[f64],
+    y: &[f64],
+    shift: f64,
+) -> cloister::privacy::MaskedPoints {
+    let mut t = m.clone();
+    for (i, &s) in m.source.iter().enumerate() {
+        let a = i as f64 * 0.7;
+        t.x[i] = x[s] + shift * a.cos();
+        t.y[i] = y[s] + shift * a.sin();
+    }
+    t
+}
+
+#[test]
+fn masked_points_written_at_their_original_location_are_an_unmasked_file() {
+    // Whatever the shift, the export writes each masked point and its
+    // original the way the file does and compares the text; if any coincide
+    // the preview says the file holds original coordinates, and the export
+    // is refused unless confirmed, then labelled for internal use only.
+    let (area, x, y) = holed_area(300, 5);
+    let m = donut_mask(&x, &y, &area, &DonutParams::default()).unwrap();
+    let close = nearly_unmoved(&m, &x, &y, 0.01);
+    let content = ExportContent::MaskedPoints {
+        masked: &close,
+        original_x: &x,
+        original_y: &y,
+    };
+    for format in [ExportFormat::Csv, ExportFormat::GeoJson] {
+        let opts = ExportOptions {
+            format,
+            ..Default::default()
+        };
+        // Count the coincidences independently: CSV writes `{:.1}`.
+        let expected = close
+            .source
+            .iter()
+            .enumerate()
+            .filter(|&(i, &s)| {
+                format!("{:.1}", close.x[i]) == format!("{:.1}", x[s])
+                    && format!("{:.1}", close.y[i]) == format!("{:.1}", y[s])
+            })
+            .count();
+        assert!(
+            expected > close.x.len() / 2,
+            "most 1 cm shifts vanish at 0.1 m"
+        );
+        let p = what_leaves(&content, &opts, None).unwrap();
+        assert!(p.contains_original_coordinates, "{format:?}");
+        assert_eq!(p.label.as_deref(), Some("unmasked, internal use only"));
+        if format == ExportFormat::Csv {
+            assert_eq!(p.points_at_original_location, expected);
+        } else {
+            assert!(p.points_at_original_location > 0);
+        }
+        let e = export(&content, &opts, None).unwrap_err().to_string();
+        assert!(
+            e.contains("confirm_unmasked") && e.contains("ORIGINAL"),
+            "{e}"
+        );
+        let ok = ExportOptions {
+            confirm_unmasked: true,
+            ..opts.clone()
+        };
+        let f = export(&content, &ok, None).unwrap();
+        assert!(f.text.contains("unmasked, internal use only"), "{format:?}");
+        assert!(f.file_name.contains("UNMASKED-internal-only"));
+        // The text indeed holds the originals it was labelled for.
+        let originals: Vec<(String, String)> = close
+            .source
+            .iter()
+            .map(|&s| (format!("{:.1}", x[s]), format!("{:.1}", y[s])))
+            .collect();
+        let nums = numbers(&f.text, 1);
+        let pairs: std::collections::HashSet<(&str, &str)> = nums
+            .windows(2)
+            .map(|w| (w[0].as_str(), w[1].as_str()))
+            .collect();
+        let seen = originals
+            .iter()
+            .filter(|(a, b)| pairs.contains(&(a.as_str(), b.as_str())))
+            .count();
+        if format == ExportFormat::Csv {
+            assert!(seen >= expected, "{seen} < {expected}");
+        } else {
+            assert!(seen > 0, "GeoJSON: {seen}");
+        }
+    }
+    // Fewer decimals than the shift also put points back: a real 100–500 m
+    // donut written as lon/lat with 2 decimals (about 1 km) is unmasked.
+    let to_ll = |a: f64, b: f64| (9.0 + a / 78_000.0, 45.0 + b / 111_000.0);
+    let real = ExportContent::MaskedPoints {
+        masked: &m,
+        original_x: &x,
+        original_y: &y,
+    };
+    let coarse = ExportOptions {
+        coordinates: CoordinateOutput::LonLat,
+        decimals: Some(2),
+        ..Default::default()
+    };
+    let p = what_leaves(&real, &coarse, Some(&to_ll)).unwrap();
+    assert!(p.points_at_original_location > 0 && p.contains_original_coordinates);
+    assert!(export(&real, &coarse, Some(&to_ll)).is_err());
+    // At the default precision the same mask is not.
+    let p = what_leaves(&real, &ExportOptions::default(), None).unwrap();
+    assert_eq!(p.points_at_original_location, 0);
+    assert!(!p.contains_original_coordinates && p.label.is_none());
 }
