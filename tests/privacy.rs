@@ -1082,3 +1082,120 @@ fn masked_points_written_at_their_original_location_are_an_unmasked_file() {
     assert_eq!(p.points_at_original_location, 0);
     assert!(!p.contains_original_coordinates && p.label.is_none());
 }
+
+/// The demo town (demo-data/) as a study: events, boundary, population.
+fn demo_study() -> cloister::study::Study {
+    use cloister::input::{read_area, read_points, ReadOptions};
+    let cases = read_points(
+        include_bytes!("../demo-data/cases.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let pop = read_points(
+        include_bytes!("../demo-data/population.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let area = read_area(include_bytes!("../demo-data/town-boundary.geojson"), None).unwrap();
+    cloister::study::Study::build(
+        &cases,
+        Some(&area),
+        Some(&pop),
+        cloister::study::AreaFallback::ConvexHull,
+    )
+    .unwrap()
+}
+
+#[test]
+fn a_table_that_hides_everything_says_so() {
+    // The reported case: the demo town in 500 m squares with row and column
+    // totals on (the defaults otherwise) showed no cell while the audit read
+    // safe. The table now counts what it shows and warns plainly.
+    use cloister::privacy::aggregate::AggregateOptions;
+    use cloister::privacy::shared::count_in_cells;
+    use cloister::privacy::{CellShape, HexOrientation};
+    let s = demo_study();
+    let p = AggregateOptions {
+        cell_size_m: 500.0,
+        ..Default::default()
+    };
+    assert!(p.publish_row_column_totals, "totals on by default");
+    let (agg, _) = count_in_cells(&s, CellShape::Square, 500.0, HexOrientation::PointyTop).unwrap();
+    let t = suppress(&agg, &p.suppression());
+    let sh = t.shown;
+    // Independent count from the cells themselves.
+    let with_events_shown = t.cells.iter().filter(|c| c.count.is_some_and(|v| v > 0)).count();
+    assert_eq!(sh.cells_with_events_shown, with_events_shown);
+    let hidden = t.cells.iter().filter(|c| c.suppressed && (c.in_area || c.hidden.is_some())).count();
+    assert_eq!(sh.cells_hidden_primary + sh.cells_hidden_complementary, hidden);
+    assert_eq!(sh.events_in_cells + agg.outside, s.events.len() as u64);
+    eprintln!("500 m squares, totals on: {sh:?}");
+    // Measured: 113 of 335 cells with events shown (958 of 1500 events).
+    assert!(sh.mostly_hidden && !sh.nothing_shown);
+    let w = &t.warnings[0];
+    if sh.nothing_shown {
+        assert!(w.starts_with("Nothing is shown"), "{w}");
+    } else {
+        assert!(w.starts_with("Most of the table is hidden"), "{w}");
+    }
+    assert!(w.contains("larger cells") && w.contains("row and column totals"), "{w}");
+    let off = AggregateOptions {
+        publish_row_column_totals: false,
+        ..p.clone()
+    };
+    // A table that shows most of its events carries no such warning: 2 km
+    // squares without totals.
+    let (big, _) =
+        count_in_cells(&s, CellShape::Square, 2000.0, HexOrientation::PointyTop).unwrap();
+    let t3 = suppress(&big, &off.suppression());
+    eprintln!("2000 m squares, totals off: {:?}", t3.shown);
+    assert!(!t3.shown.mostly_hidden);
+    assert!(!t3.warnings.iter().any(|w| w.contains("hidden:") || w.starts_with("Nothing")));
+}
+
+#[test]
+fn a_table_that_shows_nothing_says_it_plainly() {
+    // Sparse events, 1 to 4 per 100 m square: every count is small, so every
+    // cell is hidden. The audit finds nothing recoverable (nothing is shown),
+    // and the table says it shows nothing, with what to change.
+    use cloister::privacy::aggregate::{aggregate_grid, AggregateParams};
+    let area = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+    let (mut x, mut y) = (vec![], vec![]);
+    for i in 0..10 {
+        for j in 0..10 {
+            for k in 0..(1 + (i + j) % 4) {
+                x.push(i as f64 * 100.0 + 20.0 + 10.0 * k as f64);
+                y.push(j as f64 * 100.0 + 50.0);
+            }
+        }
+    }
+    let agg = aggregate_grid(
+        &x,
+        &y,
+        &area,
+        &[],
+        None,
+        &AggregateParams {
+            cell_size_m: 100.0,
+            origin: Some([0.0, 0.0]),
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    let t = suppress(&agg, &SuppressionParams::default());
+    assert!(t.audit.safe);
+    assert_eq!(t.shown.cells_with_events, 100);
+    assert_eq!(t.shown.cells_with_events_shown, 0);
+    assert_eq!(t.shown.events_in_cells, x.len() as u64);
+    assert_eq!(t.shown.share_of_events_shown, Some(0.0));
+    assert!(t.shown.nothing_shown && t.shown.mostly_hidden);
+    assert!(t.warnings[0].starts_with("Nothing is shown"), "{:?}", t.warnings);
+    assert!(t.warnings[0].contains("larger cells"));
+    // No events at all: shares are undefined (None), not NaN, and no warning.
+    let none = aggregate_grid(&[], &[], &area, &[], None, &AggregateParams::default()).unwrap();
+    let t0 = suppress(&none, &SuppressionParams::default());
+    assert_eq!(t0.shown.share_of_events_shown, None);
+    assert!(!t0.shown.nothing_shown && !t0.shown.mostly_hidden);
+    let j = serde_json::to_string(&t0.shown).unwrap();
+    assert!(!j.contains("NaN") && j.contains("\"share_of_events_shown\":null"), "{j}");
+}
