@@ -147,10 +147,20 @@ impl Field {
             ..self
         }
     }
-    /// At most `factor` times the study area's extent.
+    /// A length at most `factor` times the study area's extent. Being a
+    /// length, it is also at most [`MAX_LENGTH_M`] (checked even before a
+    /// study is known) and, when only "more than 0" was asked, at least
+    /// [`MIN_LENGTH_M`].
     pub fn extent(self, factor: f64) -> Field {
+        let (min, min_exclusive) = match (self.min, self.min_exclusive) {
+            (Some(m), true) if m <= 0.0 => (Some(MIN_LENGTH_M), false),
+            other => other,
+        };
         Field {
             max_extent_factor: Some(factor),
+            min,
+            min_exclusive,
+            max: Some(self.max.unwrap_or(MAX_LENGTH_M)),
             ..self
         }
     }
@@ -199,6 +209,16 @@ impl Field {
 /// Largest seed accepted: 2^53 − 1, the largest whole number a JS number
 /// holds exactly.
 pub const MAX_SEED: u64 = (1 << 53) - 1;
+
+/// Smallest length accepted where a length must be more than 0: 1 cm. Below
+/// it distances are smaller than any location's precision and kernels
+/// narrower than the arithmetic can hold (a 10⁻³⁰⁰ m bandwidth underflows).
+pub const MIN_LENGTH_M: f64 = 0.01;
+
+/// Largest length accepted anywhere: 20,000 km, half the Earth's
+/// circumference (no two places are further apart). Lengths are also capped
+/// at a multiple of the study area's extent once a study is loaded.
+pub const MAX_LENGTH_M: f64 = 2.0e7;
 
 /// Longest side of the study area's extent allowed for lengths that carry
 /// `extent(f)`, as the factor used by most analyses: a radius or bandwidth
@@ -285,6 +305,21 @@ fn check_field(f: &Field, v: &Value, extent_m: Option<f64>) -> Result<(), Analys
 }
 
 fn check_number(f: &Field, x: f64, extent_m: Option<f64>) -> Result<(), AnalysisError> {
+    // The study's extent first: it is the nearer and more telling limit.
+    if let (Some(k), Some(e)) = (f.max_extent_factor, extent_m) {
+        if x.is_finite() && e > 0.0 && e.is_finite() && x > k * e {
+            return Err(bad(
+                f.name,
+                format!(
+                    "must be at most {} times the study area's extent of {} m, so at most {} m (got {})",
+                    num(k),
+                    num(e.round()),
+                    num((k * e).round()),
+                    f.with_unit(x)
+                ),
+            ));
+        }
+    }
     let low = match f.min {
         Some(m) if f.min_exclusive => x > m,
         Some(m) => x >= m,
@@ -297,20 +332,6 @@ fn check_number(f: &Field, x: f64, extent_m: Option<f64>) -> Result<(), Analysis
             f.name,
             format!("must be {} (got {})", f.range_text(), f.with_unit(x)),
         ));
-    }
-    if let (Some(k), Some(e)) = (f.max_extent_factor, extent_m) {
-        if e > 0.0 && e.is_finite() && x > k * e {
-            return Err(bad(
-                f.name,
-                format!(
-                    "must be at most {} times the study area's extent of {} m, so at most {} m (got {})",
-                    num(k),
-                    num(e.round()),
-                    num((k * e).round()),
-                    f.with_unit(x)
-                ),
-            ));
-        }
     }
     Ok(())
 }
@@ -370,6 +391,38 @@ pub fn spec(analysis: &str) -> Option<Spec> {
         other => other,
     };
     all().into_iter().find(|s| s.analysis == name)
+}
+
+/// Checks options given as JSON for the analysis named `analysis` (as
+/// [`spec`] names it), as the JS API does: `Ok(())` or the error code and
+/// message. `None` for an unknown analysis.
+pub fn check_options(
+    analysis: &str,
+    v: Value,
+    extent_m: Option<f64>,
+) -> Option<Result<(), DecodeError>> {
+    use crate::{clusters, distance, input, intensity, privacy, scan};
+    fn run<P: Params>(v: Value, e: Option<f64>) -> Result<(), DecodeError> {
+        decode::<P>(v, e).map(|_| ())
+    }
+    let name = spec(analysis)?.analysis;
+    Some(match name {
+        "loadEvents" => run::<input::ReadOptions>(v, extent_m),
+        "loadArea" => run::<input::AreaOptions>(v, extent_m),
+        "quadratTest" => run::<distance::QuadratParams>(v, extent_m),
+        "clarkEvans" => run::<distance::ClarkEvansParams>(v, extent_m),
+        "envelopeStart" => run::<distance::EnvelopeOptions>(v, extent_m),
+        "intensitySurface" => run::<intensity::SurfaceParams>(v, extent_m),
+        "dbscan" => run::<clusters::DbscanOptions>(v, extent_m),
+        "kDistance" => run::<clusters::KDistanceParams>(v, extent_m),
+        "scanStart" => run::<scan::ScanOptions>(v, extent_m),
+        "maskDonut" => run::<privacy::DonutParams>(v, extent_m),
+        "maskKAnonymity" => run::<privacy::KAnonParams>(v, extent_m),
+        "maskingCost" => run::<privacy::cost::CostParams>(v, extent_m),
+        "aggregate" => run::<privacy::aggregate::AggregateOptions>(v, extent_m),
+        "exportFile" => run::<privacy::export::ExportRequest>(v, extent_m),
+        _ => return None,
+    })
 }
 
 /// Edit distance, for "did you mean" in messages about unknown names.
@@ -810,5 +863,84 @@ mod tests {
         assert!(spec("maskDonut").is_some());
         assert!(spec("loadControls").is_some());
         assert!(spec("noSuchAnalysis").is_none());
+    }
+
+    /// Options that make `analysis` valid apart from the field under test.
+    fn base(analysis: &str) -> serde_json::Map<String, Value> {
+        let mut m = serde_json::Map::new();
+        if analysis == "dbscan" {
+            m.insert("eps_m".into(), json!(100.0));
+        }
+        m
+    }
+
+    #[test]
+    fn every_numeric_field_has_a_range_and_values_outside_it_are_refused() {
+        // Walks every analysis's fields: each number has a declared minimum
+        // and maximum, and the check refuses the values just outside them,
+        // huge and tiny values outside them, and (for required fields) a
+        // value that is not a finite number (NaN and ±Infinity arrive as null).
+        let mut walked = 0;
+        for sp in all() {
+            for f in sp.fields.iter().filter(|f| !f.session) {
+                if !matches!(f.kind, Kind::Number | Kind::Integer | Kind::Numbers) {
+                    continue;
+                }
+                walked += 1;
+                let (Some(lo), Some(hi)) = (f.min, f.max) else {
+                    panic!("{}.{} has no full range", sp.analysis, f.name);
+                };
+                let step = |v: f64| {
+                    if f.kind == Kind::Integer {
+                        1.0
+                    } else {
+                        1e-6 * v.abs().max(1.0)
+                    }
+                };
+                let below = if f.min_exclusive { lo } else { lo - step(lo) };
+                let mut outside = vec![below, hi + step(hi), 1e308, -1e308];
+                for tiny in [1e-300, -1e-300] {
+                    let inside = (if f.min_exclusive {
+                        tiny > lo
+                    } else {
+                        tiny >= lo
+                    }) && tiny <= hi;
+                    if !inside || f.kind == Kind::Integer {
+                        outside.push(tiny);
+                    }
+                }
+                for v in outside {
+                    let mut o = base(sp.analysis);
+                    let val = if f.kind == Kind::Numbers {
+                        json!([v])
+                    } else {
+                        json!(v)
+                    };
+                    o.insert(f.name.into(), val);
+                    let r = check_options(sp.analysis, Value::Object(o), None).unwrap();
+                    let (code, msg) =
+                        r.expect_err(&format!("{}.{} = {v} refused", sp.analysis, f.name));
+                    assert!(code == "bad_parameter" || code == "bad_options", "{code}");
+                    assert!(msg.contains(f.name), "{}: {msg}", f.name);
+                }
+                if !f.optional && f.kind != Kind::Numbers {
+                    let mut o = base(sp.analysis);
+                    o.insert(f.name.into(), json!(f64::NAN));
+                    let r = check_options(sp.analysis, Value::Object(o), None).unwrap();
+                    assert!(r.is_err(), "{}.{} = NaN", sp.analysis, f.name);
+                }
+            }
+        }
+        assert!(walked >= 40, "{walked} numeric fields walked");
+        // Lengths: at least 1 cm where only "more than 0" was asked, and at
+        // most 20,000 km even before a study is known.
+        let f = Field::number("a_m", Some("m"), "")
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR);
+        assert_eq!(
+            (f.min, f.min_exclusive, f.max),
+            (Some(MIN_LENGTH_M), false, Some(MAX_LENGTH_M))
+        );
+        assert!(check_options("noSuchAnalysis", json!({}), None).is_none());
     }
 }

@@ -1124,10 +1124,21 @@ fn a_table_that_hides_everything_says_so() {
     let t = suppress(&agg, &p.suppression());
     let sh = t.shown;
     // Independent count from the cells themselves.
-    let with_events_shown = t.cells.iter().filter(|c| c.count.is_some_and(|v| v > 0)).count();
+    let with_events_shown = t
+        .cells
+        .iter()
+        .filter(|c| c.count.is_some_and(|v| v > 0))
+        .count();
     assert_eq!(sh.cells_with_events_shown, with_events_shown);
-    let hidden = t.cells.iter().filter(|c| c.suppressed && (c.in_area || c.hidden.is_some())).count();
-    assert_eq!(sh.cells_hidden_primary + sh.cells_hidden_complementary, hidden);
+    let hidden = t
+        .cells
+        .iter()
+        .filter(|c| c.suppressed && (c.in_area || c.hidden.is_some()))
+        .count();
+    assert_eq!(
+        sh.cells_hidden_primary + sh.cells_hidden_complementary,
+        hidden
+    );
     assert_eq!(sh.events_in_cells + agg.outside, s.events.len() as u64);
     eprintln!("500 m squares, totals on: {sh:?}");
     // Measured: 113 of 335 cells with events shown (958 of 1500 events).
@@ -1138,7 +1149,10 @@ fn a_table_that_hides_everything_says_so() {
     } else {
         assert!(w.starts_with("Most of the table is hidden"), "{w}");
     }
-    assert!(w.contains("larger cells") && w.contains("row and column totals"), "{w}");
+    assert!(
+        w.contains("larger cells") && w.contains("row and column totals"),
+        "{w}"
+    );
     let off = AggregateOptions {
         publish_row_column_totals: false,
         ..p.clone()
@@ -1150,7 +1164,10 @@ fn a_table_that_hides_everything_says_so() {
     let t3 = suppress(&big, &off.suppression());
     eprintln!("2000 m squares, totals off: {:?}", t3.shown);
     assert!(!t3.shown.mostly_hidden);
-    assert!(!t3.warnings.iter().any(|w| w.contains("hidden:") || w.starts_with("Nothing")));
+    assert!(!t3
+        .warnings
+        .iter()
+        .any(|w| w.contains("hidden:") || w.starts_with("Nothing")));
 }
 
 #[test]
@@ -1189,7 +1206,11 @@ fn a_table_that_shows_nothing_says_it_plainly() {
     assert_eq!(t.shown.events_in_cells, x.len() as u64);
     assert_eq!(t.shown.share_of_events_shown, Some(0.0));
     assert!(t.shown.nothing_shown && t.shown.mostly_hidden);
-    assert!(t.warnings[0].starts_with("Nothing is shown"), "{:?}", t.warnings);
+    assert!(
+        t.warnings[0].starts_with("Nothing is shown"),
+        "{:?}",
+        t.warnings
+    );
     assert!(t.warnings[0].contains("larger cells"));
     // No events at all: shares are undefined (None), not NaN, and no warning.
     let none = aggregate_grid(&[], &[], &area, &[], None, &AggregateParams::default()).unwrap();
@@ -1197,5 +1218,8 @@ fn a_table_that_shows_nothing_says_it_plainly() {
     assert_eq!(t0.shown.share_of_events_shown, None);
     assert!(!t0.shown.nothing_shown && !t0.shown.mostly_hidden);
     let j = serde_json::to_string(&t0.shown).unwrap();
-    assert!(!j.contains("NaN") && j.contains("\"share_of_events_shown\":null"), "{j}");
+    assert!(
+        !j.contains("NaN") && j.contains("\"share_of_events_shown\":null"),
+        "{j}"
+    );
 }

@@ -436,7 +436,10 @@ pub fn suppress(agg: &Aggregation, p: &SuppressionParams) -> SuppressedTable {
         .collect();
     let mut warnings = Vec::new();
     let shown = ShownSummary::of(&cells, &values);
-    let grid = agg.lines.iter().any(|l| matches!(l.kind, LineKind::Row | LineKind::Column));
+    let grid = agg
+        .lines
+        .iter()
+        .any(|l| matches!(l.kind, LineKind::Row | LineKind::Column));
     if let Some(w) = shown.warning(grid, grid && p.publish_row_column_totals) {
         warnings.push(w);
     }
