@@ -574,7 +574,10 @@ export function mountSharing(C) {
     ];
     if (p.rows !== null && p.rows !== undefined && what !== 'report') items.push(['Rows / features', fmt(p.rows)]);
     if (p.metadata_keys && p.metadata_keys.length) items.push(['Written at the top', p.metadata_keys.join(', ')]);
-    items.push(['Original coordinates', unmasked ? 'YES: the original locations, labelled "unmasked, internal use only"' : 'none']);
+    const atOriginal = p.points_at_original_location || 0;
+    items.push(['Original coordinates', atOriginal > 0
+      ? `YES: ${fmt(atOriginal)} of ${fmt(p.rows)} masked points are written at their original location at this precision (compared as written); the file is labelled "unmasked, internal use only". Mask with a larger shift or write fewer decimals to share it.`
+      : unmasked ? 'YES: the original locations, labelled "unmasked, internal use only"' : 'none (each written coordinate compared with its original)']);
     if (what === 'masked_points' || what === 'report') items.push(['Points left out (could not be masked)', fmt(p.points_left_out)]);
     if (what !== 'unmasked_points') items.push(['Masking seed', 'not written (with it the shifts could be undone)']);
     box.replaceChildren(...[
@@ -604,7 +607,7 @@ export function mountSharing(C) {
         await saveMapPng();
       } else {
         const o = exportOptions(format);
-        if (what === 'unmasked_points') {
+        if (what === 'unmasked_points' || pend.preview.contains_original_coordinates) {
           if (!$('share-confirm-unmasked') || !$('share-confirm-unmasked').checked) return;
           o.confirm_unmasked = true;
         }
