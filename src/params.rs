@@ -149,19 +149,22 @@ impl Field {
     }
     /// A length at most `factor` times the study area's extent. Being a
     /// length, it is also at most [`MAX_LENGTH_M`] (checked even before a
-    /// study is known) and, when only "more than 0" was asked, at least
-    /// [`MIN_LENGTH_M`].
+    /// study is known).
     pub fn extent(self, factor: f64) -> Field {
-        let (min, min_exclusive) = match (self.min, self.min_exclusive) {
-            (Some(m), true) if m <= 0.0 => (Some(MIN_LENGTH_M), false),
-            other => other,
-        };
         Field {
             max_extent_factor: Some(factor),
-            min,
-            min_exclusive,
             max: Some(self.max.unwrap_or(MAX_LENGTH_M)),
             ..self
+        }
+    }
+    /// A length that sets a scale (a bandwidth, a radius, a cell size): at
+    /// least [`MIN_LENGTH_M`], at most [`MAX_LENGTH_M`] and `factor` times
+    /// the study area's extent.
+    pub fn scale_length(self, factor: f64) -> Field {
+        Field {
+            min: Some(MIN_LENGTH_M),
+            min_exclusive: false,
+            ..self.extent(factor)
         }
     }
     /// May be empty (automatic).
@@ -210,9 +213,10 @@ impl Field {
 /// holds exactly.
 pub const MAX_SEED: u64 = (1 << 53) - 1;
 
-/// Smallest length accepted where a length must be more than 0: 1 cm. Below
-/// it distances are smaller than any location's precision and kernels
-/// narrower than the arithmetic can hold (a 10⁻³⁰⁰ m bandwidth underflows).
+/// Smallest length accepted for a length that sets a scale (bandwidths, the
+/// DBSCAN radius, cell sizes; [`Field::scale_length`]): 1 cm. Below it
+/// distances are finer than any location's precision and kernels narrower
+/// than the arithmetic can hold (a 10⁻³⁰⁰ m bandwidth underflows).
 pub const MIN_LENGTH_M: f64 = 0.01;
 
 /// Largest length accepted anywhere: 20,000 km, half the Earth's
@@ -932,11 +936,16 @@ mod tests {
             }
         }
         assert!(walked >= 40, "{walked} numeric fields walked");
-        // Lengths: at least 1 cm where only "more than 0" was asked, and at
-        // most 20,000 km even before a study is known.
+        // Lengths: at most 20,000 km even before a study is known; scale
+        // lengths at least 1 cm.
         let f = Field::number("a_m", Some("m"), "")
             .above(0.0, None)
             .extent(EXTENT_FACTOR);
+        assert_eq!(
+            (f.min, f.min_exclusive, f.max),
+            (Some(0.0), true, Some(MAX_LENGTH_M))
+        );
+        let f = Field::number("a_m", Some("m"), "").scale_length(EXTENT_FACTOR);
         assert_eq!(
             (f.min, f.min_exclusive, f.max),
             (Some(MIN_LENGTH_M), false, Some(MAX_LENGTH_M))
