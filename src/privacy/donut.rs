@@ -102,7 +102,7 @@ pub(crate) fn mask_fields(r_min_default_doc: &'static str) -> Vec<crate::params:
         Field::number(
             "r_max_m",
             Some("m"),
-            "largest displacement; at least 50 m, as a shift below the error of geocoded locations hides nothing",
+            "largest displacement",
         )
         .at_least(MIN_LARGEST_SHIFT_M)
         .extent(EXTENT_FACTOR),

@@ -140,8 +140,10 @@ fn secure_seed() -> Result<u64, JsValue> {
     f.call1(&crypto, &buf).map_err(|_| fail())?;
     // 53 random bits: the seed range every seed option declares
     // (`crate::params::MAX_SEED`), which the masking functions check.
-    Ok(((u64::from(buf.get_index(0)) << 32) | u64::from(buf.get_index(1)))
-        & crate::params::MAX_SEED)
+    Ok(
+        ((u64::from(buf.get_index(0)) << 32) | u64::from(buf.get_index(1)))
+            & crate::params::MAX_SEED,
+    )
 }
 
 fn already_masked() -> JsValue {

@@ -457,3 +457,27 @@ test('masked points written at their original location: the preview says so, fro
   assert.deepEqual(found, []);
   assert.doesNotMatch(fine.text, /internal use only/);
 });
+
+test('counts per area say what they show: 500 m squares with totals on hide most of the demo, and say so first', () => {
+  const s = demo();
+  const r = s.aggregate({ layout: 'square', cell_size_m: 500 });
+  const t = r.table;
+  const sh = t.shown;
+  // Recount from the cells themselves.
+  const withEvents = t.cells.filter((c) => c.suppressed || c.count > 0);
+  const shownWithEvents = t.cells.filter((c) => !c.suppressed && c.count > 0);
+  assert.equal(sh.cells_with_events_shown, shownWithEvents.length);
+  assert.equal(sh.events_in_shown_cells, shownWithEvents.reduce((a, c) => a + c.count, 0));
+  assert.ok(sh.cells_with_events <= withEvents.length);
+  assert.equal(sh.cells_hidden_primary, t.n_primary);
+  assert.equal(sh.cells_hidden_complementary, t.n_complementary);
+  assert.ok(sh.share_of_cells_with_events_shown < 0.5, JSON.stringify(sh));
+  assert.equal(sh.mostly_hidden, true);
+  assert.match(t.warnings[0], /^(Most of the table is hidden|Nothing is shown)/);
+  assert.match(t.warnings[0], /larger cells/);
+  assert.match(t.warnings[0], /row and column totals/);
+  // Large cells without totals show most events: no such warning.
+  const big = s.aggregate({ layout: 'square', cell_size_m: 2000, publish_row_column_totals: false }).table;
+  assert.equal(big.shown.mostly_hidden, false, JSON.stringify(big.shown));
+  assert.ok(!big.warnings.some((w) => /^(Most of the table is hidden|Nothing is shown)/.test(w)));
+});
