@@ -230,9 +230,13 @@ pub const MAX_LENGTH_M: f64 = 2.0e7;
 pub const EXTENT_FACTOR: f64 = 10.0;
 
 /// A number for messages: whole numbers without decimals.
+/// Very large or very small values are written with an exponent (`1e308`,
+/// `1e-300`), not as hundreds of digits.
 pub fn num(v: f64) -> String {
     if v.fract() == 0.0 && v.abs() < 1e15 {
         format!("{v:.0}")
+    } else if v.is_finite() && (v.abs() >= 1e15 || v.abs() < 1e-6) {
+        format!("{v:e}")
     } else {
         format!("{v}")
     }
@@ -626,6 +630,14 @@ mod tests {
         let m = plain_words("unknown variant `ripley`, expected one of `k`, `l`");
         assert_eq!(m, "unknown value \"ripley\", expected one of \"k\", \"l\"");
         assert!(!plain_words("invalid type: null, expected f64").contains("f64"));
+    }
+
+    #[test]
+    fn huge_and_tiny_numbers_are_short_in_messages() {
+        assert_eq!(num(1e308), "1e308");
+        assert_eq!(num(1e-300), "1e-300");
+        assert_eq!(num(1e9), "1000000000");
+        assert_eq!(num(0.01), "0.01");
     }
 
     #[test]
