@@ -147,11 +147,24 @@ impl Field {
             ..self
         }
     }
-    /// At most `factor` times the study area's extent.
+    /// A length at most `factor` times the study area's extent. Being a
+    /// length, it is also at most [`MAX_LENGTH_M`] (checked even before a
+    /// study is known).
     pub fn extent(self, factor: f64) -> Field {
         Field {
             max_extent_factor: Some(factor),
+            max: Some(self.max.unwrap_or(MAX_LENGTH_M)),
             ..self
+        }
+    }
+    /// A length that sets a scale (a bandwidth, a radius, a cell size): at
+    /// least [`MIN_LENGTH_M`], at most [`MAX_LENGTH_M`] and `factor` times
+    /// the study area's extent.
+    pub fn scale_length(self, factor: f64) -> Field {
+        Field {
+            min: Some(MIN_LENGTH_M),
+            min_exclusive: false,
+            ..self.extent(factor)
         }
     }
     /// May be empty (automatic).
@@ -200,15 +213,30 @@ impl Field {
 /// holds exactly.
 pub const MAX_SEED: u64 = (1 << 53) - 1;
 
+/// Smallest length accepted for a length that sets a scale (bandwidths, the
+/// DBSCAN radius, cell sizes; [`Field::scale_length`]): 1 cm. Below it
+/// distances are finer than any location's precision and kernels narrower
+/// than the arithmetic can hold (a 10⁻³⁰⁰ m bandwidth underflows).
+pub const MIN_LENGTH_M: f64 = 0.01;
+
+/// Largest length accepted anywhere: 20,000 km, half the Earth's
+/// circumference (no two places are further apart). Lengths are also capped
+/// at a multiple of the study area's extent once a study is loaded.
+pub const MAX_LENGTH_M: f64 = 2.0e7;
+
 /// Longest side of the study area's extent allowed for lengths that carry
 /// `extent(f)`, as the factor used by most analyses: a radius or bandwidth
 /// ten times the study area's diagonal covers everything many times over.
 pub const EXTENT_FACTOR: f64 = 10.0;
 
 /// A number for messages: whole numbers without decimals.
+/// Very large or very small values are written with an exponent (`1e308`,
+/// `1e-300`), not as hundreds of digits.
 pub fn num(v: f64) -> String {
     if v.fract() == 0.0 && v.abs() < 1e15 {
         format!("{v:.0}")
+    } else if v.is_finite() && (v.abs() >= 1e15 || v.abs() < 1e-6) {
+        format!("{v:e}")
     } else {
         format!("{v}")
     }
@@ -285,6 +313,21 @@ fn check_field(f: &Field, v: &Value, extent_m: Option<f64>) -> Result<(), Analys
 }
 
 fn check_number(f: &Field, x: f64, extent_m: Option<f64>) -> Result<(), AnalysisError> {
+    // The study's extent first: it is the nearer and more telling limit.
+    if let (Some(k), Some(e)) = (f.max_extent_factor, extent_m) {
+        if x.is_finite() && e > 0.0 && e.is_finite() && x > k * e {
+            return Err(bad(
+                f.name,
+                format!(
+                    "must be at most {} times the study area's extent of {} m, so at most {} m (got {})",
+                    num(k),
+                    num(e.round()),
+                    num((k * e).round()),
+                    f.with_unit(x)
+                ),
+            ));
+        }
+    }
     let low = match f.min {
         Some(m) if f.min_exclusive => x > m,
         Some(m) => x >= m,
@@ -297,20 +340,6 @@ fn check_number(f: &Field, x: f64, extent_m: Option<f64>) -> Result<(), Analysis
             f.name,
             format!("must be {} (got {})", f.range_text(), f.with_unit(x)),
         ));
-    }
-    if let (Some(k), Some(e)) = (f.max_extent_factor, extent_m) {
-        if e > 0.0 && e.is_finite() && x > k * e {
-            return Err(bad(
-                f.name,
-                format!(
-                    "must be at most {} times the study area's extent of {} m, so at most {} m (got {})",
-                    num(k),
-                    num(e.round()),
-                    num((k * e).round()),
-                    f.with_unit(x)
-                ),
-            ));
-        }
     }
     Ok(())
 }
@@ -370,6 +399,38 @@ pub fn spec(analysis: &str) -> Option<Spec> {
         other => other,
     };
     all().into_iter().find(|s| s.analysis == name)
+}
+
+/// Checks options given as JSON for the analysis named `analysis` (as
+/// [`spec`] names it), as the JS API does: `Ok(())` or the error code and
+/// message. `None` for an unknown analysis.
+pub fn check_options(
+    analysis: &str,
+    v: Value,
+    extent_m: Option<f64>,
+) -> Option<Result<(), DecodeError>> {
+    use crate::{clusters, distance, input, intensity, privacy, scan};
+    fn run<P: Params>(v: Value, e: Option<f64>) -> Result<(), DecodeError> {
+        decode::<P>(v, e).map(|_| ())
+    }
+    let name = spec(analysis)?.analysis;
+    Some(match name {
+        "loadEvents" => run::<input::ReadOptions>(v, extent_m),
+        "loadArea" => run::<input::AreaOptions>(v, extent_m),
+        "quadratTest" => run::<distance::QuadratParams>(v, extent_m),
+        "clarkEvans" => run::<distance::ClarkEvansParams>(v, extent_m),
+        "envelopeStart" => run::<distance::EnvelopeOptions>(v, extent_m),
+        "intensitySurface" => run::<intensity::SurfaceParams>(v, extent_m),
+        "dbscan" => run::<clusters::DbscanOptions>(v, extent_m),
+        "kDistance" => run::<clusters::KDistanceParams>(v, extent_m),
+        "scanStart" => run::<scan::ScanOptions>(v, extent_m),
+        "maskDonut" => run::<privacy::DonutParams>(v, extent_m),
+        "maskKAnonymity" => run::<privacy::KAnonParams>(v, extent_m),
+        "maskingCost" => run::<privacy::cost::CostParams>(v, extent_m),
+        "aggregate" => run::<privacy::aggregate::AggregateOptions>(v, extent_m),
+        "exportFile" => run::<privacy::export::ExportRequest>(v, extent_m),
+        _ => return None,
+    })
 }
 
 /// Edit distance, for "did you mean" in messages about unknown names.
@@ -573,6 +634,14 @@ mod tests {
         let m = plain_words("unknown variant `ripley`, expected one of `k`, `l`");
         assert_eq!(m, "unknown value \"ripley\", expected one of \"k\", \"l\"");
         assert!(!plain_words("invalid type: null, expected f64").contains("f64"));
+    }
+
+    #[test]
+    fn huge_and_tiny_numbers_are_short_in_messages() {
+        assert_eq!(num(1e308), "1e308");
+        assert_eq!(num(1e-300), "1e-300");
+        assert_eq!(num(1e9), "1000000000");
+        assert_eq!(num(0.01), "0.01");
     }
 
     #[test]
@@ -814,5 +883,89 @@ mod tests {
         assert!(spec("maskDonut").is_some());
         assert!(spec("loadControls").is_some());
         assert!(spec("noSuchAnalysis").is_none());
+    }
+
+    /// Options that make `analysis` valid apart from the field under test.
+    fn base(analysis: &str) -> serde_json::Map<String, Value> {
+        let mut m = serde_json::Map::new();
+        if analysis == "dbscan" {
+            m.insert("eps_m".into(), json!(100.0));
+        }
+        m
+    }
+
+    #[test]
+    fn every_numeric_field_has_a_range_and_values_outside_it_are_refused() {
+        // Walks every analysis's fields: each number has a declared minimum
+        // and maximum, and the check refuses the values just outside them,
+        // huge and tiny values outside them, and (for required fields) a
+        // value that is not a finite number (NaN and ±Infinity arrive as null).
+        let mut walked = 0;
+        for sp in all() {
+            for f in sp.fields.iter().filter(|f| !f.session) {
+                if !matches!(f.kind, Kind::Number | Kind::Integer | Kind::Numbers) {
+                    continue;
+                }
+                walked += 1;
+                let (Some(lo), Some(hi)) = (f.min, f.max) else {
+                    panic!("{}.{} has no full range", sp.analysis, f.name);
+                };
+                let step = |v: f64| {
+                    if f.kind == Kind::Integer {
+                        1.0
+                    } else {
+                        1e-6 * v.abs().max(1.0)
+                    }
+                };
+                let below = if f.min_exclusive { lo } else { lo - step(lo) };
+                let mut outside = vec![below, hi + step(hi), 1e308, -1e308];
+                for tiny in [1e-300, -1e-300] {
+                    let inside = (if f.min_exclusive {
+                        tiny > lo
+                    } else {
+                        tiny >= lo
+                    }) && tiny <= hi;
+                    if !inside || f.kind == Kind::Integer {
+                        outside.push(tiny);
+                    }
+                }
+                for v in outside {
+                    let mut o = base(sp.analysis);
+                    let val = if f.kind == Kind::Numbers {
+                        json!([v])
+                    } else {
+                        json!(v)
+                    };
+                    o.insert(f.name.into(), val);
+                    let r = check_options(sp.analysis, Value::Object(o), None).unwrap();
+                    let (code, msg) =
+                        r.expect_err(&format!("{}.{} = {v} refused", sp.analysis, f.name));
+                    assert!(code == "bad_parameter" || code == "bad_options", "{code}");
+                    assert!(msg.contains(f.name), "{}: {msg}", f.name);
+                }
+                if !f.optional && f.kind != Kind::Numbers {
+                    let mut o = base(sp.analysis);
+                    o.insert(f.name.into(), json!(f64::NAN));
+                    let r = check_options(sp.analysis, Value::Object(o), None).unwrap();
+                    assert!(r.is_err(), "{}.{} = NaN", sp.analysis, f.name);
+                }
+            }
+        }
+        assert!(walked >= 40, "{walked} numeric fields walked");
+        // Lengths: at most 20,000 km even before a study is known; scale
+        // lengths at least 1 cm.
+        let f = Field::number("a_m", Some("m"), "")
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR);
+        assert_eq!(
+            (f.min, f.min_exclusive, f.max),
+            (Some(0.0), true, Some(MAX_LENGTH_M))
+        );
+        let f = Field::number("a_m", Some("m"), "").scale_length(EXTENT_FACTOR);
+        assert_eq!(
+            (f.min, f.min_exclusive, f.max),
+            (Some(MIN_LENGTH_M), false, Some(MAX_LENGTH_M))
+        );
+        assert!(check_options("noSuchAnalysis", json!({}), None).is_none());
     }
 }

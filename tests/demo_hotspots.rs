@@ -206,5 +206,5 @@ fn scan_against_population_finds_a_planted_cluster() {
         m.centre_y,
         m.radius_m
     );
-    assert!(m.relative_risk > 1.5);
+    assert!(m.relative_risk.unwrap() > 1.5);
 }

@@ -5,7 +5,9 @@
 
 use cloister::privacy::aggregate::{aggregate_grid, AggregateParams};
 use cloister::privacy::donut::{design_cdf, design_mean, design_median, ks_statistic};
-use cloister::privacy::export::{export, CoordinateOutput, ExportContent, ExportOptions};
+use cloister::privacy::export::{
+    export, what_leaves, CoordinateOutput, ExportContent, ExportOptions,
+};
 use cloister::privacy::kanon::r_min_for_k;
 use cloister::privacy::suppress::{audit, audit_view, suppress, SuppressionParams};
 use cloister::privacy::{
@@ -669,9 +671,14 @@ fn exports_contain_no_original_coordinate() {
                 coordinates: coords,
                 decimals: Some(decimals as u32),
                 created: "2030-01-02".into(),
+                confirm_unmasked: false,
             };
             for content in [
-                ExportContent::MaskedPoints(&m),
+                ExportContent::MaskedPoints {
+                    masked: &m,
+                    original_x: &x,
+                    original_y: &y,
+                },
                 ExportContent::Table(&table),
             ] {
                 let f = export(&content, &opts, Some(&to_ll)).unwrap();
@@ -704,7 +711,11 @@ fn exports_contain_no_original_coordinate() {
     }
     // The masked file carries masked points, all of them: each masked pair is found.
     let f = export(
-        &ExportContent::MaskedPoints(&m),
+        &ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
         &ExportOptions {
             decimals: Some(2),
             ..Default::default()
@@ -725,7 +736,16 @@ fn what_leaves_matches_the_file() {
     let (area, x, y) = holed_area(200, 3);
     let m = donut_mask(&x, &y, &area, &DonutParams::default()).unwrap();
     let opts = ExportOptions::default();
-    let f = export(&ExportContent::MaskedPoints(&m), &opts, None).unwrap();
+    let f = export(
+        &ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
+        &opts,
+        None,
+    )
+    .unwrap();
     let data: Vec<&str> = f.text.lines().filter(|l| !l.starts_with('#')).collect();
     assert_eq!(data[0].split(',').collect::<Vec<_>>(), f.preview.fields);
     assert_eq!(data.len() - 1, f.preview.rows);
@@ -739,7 +759,11 @@ fn what_leaves_matches_the_file() {
         ..opts.clone()
     };
     for content in [
-        ExportContent::MaskedPoints(&m),
+        ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
         ExportContent::UnmaskedInternal { x: &x, y: &y },
     ] {
         let g = export(&content, &gj, None).unwrap();
@@ -784,7 +808,16 @@ fn what_leaves_matches_the_file() {
         coordinates: CoordinateOutput::LonLat,
         ..opts
     };
-    assert!(export(&ExportContent::MaskedPoints(&m), &ll, None).is_err());
+    assert!(export(
+        &ExportContent::MaskedPoints {
+            masked: &m,
+            original_x: &x,
+            original_y: &y,
+        },
+        &ll,
+        None
+    )
+    .is_err());
 }
 
 #[test]
@@ -903,4 +936,290 @@ fn hexagon_counts_suppressed_safely() {
         }
         assert!(t.lines.iter().any(|l| l.kind == LineKind::Row));
     }
+}
+
+#[test]
+fn a_mask_smaller_than_the_floor_is_refused() {
+    // Item "a 1 cm donut": r_max_m below the documented floor of 50 m
+    // (docs/methods.md#privacy, common practice) is refused, by the options'
+    // check and by the masking functions themselves.
+    use cloister::params::Params;
+    use cloister::privacy::donut::MIN_LARGEST_SHIFT_M;
+    assert_eq!(MIN_LARGEST_SHIFT_M, 50.0);
+    let tiny = DonutParams {
+        r_min_m: 0.0,
+        r_max_m: 0.01,
+        ..Default::default()
+    };
+    let e = tiny.validate().unwrap_err().to_string();
+    assert!(e.contains("r_max_m") && e.contains("50 m"), "{e}");
+    let (area, x, y) = holed_area(50, 4);
+    let e = donut_mask(&x, &y, &area, &tiny).unwrap_err().to_string();
+    assert!(e.contains("r_max_m"), "{e}");
+    let k = KAnonParams {
+        r_max_m: 49.9,
+        ..Default::default()
+    };
+    assert!(k.validate().unwrap_err().to_string().contains("r_max_m"));
+    // The floor itself is accepted.
+    let at_floor = DonutParams {
+        r_min_m: 0.0,
+        r_max_m: 50.0,
+        ..Default::default()
+    };
+    assert!(donut_mask(&x, &y, &area, &at_floor).is_ok());
+}
+
+/// Masked points `m` moved back to within `shift` metres of their originals
+/// (what a 1 cm donut made before the floor existed).
+fn nearly_unmoved(
+    m: &cloister::privacy::MaskedPoints,
+    x: &[f64],
+    y: &[f64],
+    shift: f64,
+) -> cloister::privacy::MaskedPoints {
+    let mut t = m.clone();
+    for (i, &s) in m.source.iter().enumerate() {
+        let a = i as f64 * 0.7;
+        t.x[i] = x[s] + shift * a.cos();
+        t.y[i] = y[s] + shift * a.sin();
+    }
+    t
+}
+
+#[test]
+fn masked_points_written_at_their_original_location_are_an_unmasked_file() {
+    // Whatever the shift, the export writes each masked point and its
+    // original the way the file does and compares the text; if any coincide
+    // the preview says the file holds original coordinates, and the export
+    // is refused unless confirmed, then labelled for internal use only.
+    let (area, x, y) = holed_area(300, 5);
+    let m = donut_mask(&x, &y, &area, &DonutParams::default()).unwrap();
+    let close = nearly_unmoved(&m, &x, &y, 0.01);
+    let content = ExportContent::MaskedPoints {
+        masked: &close,
+        original_x: &x,
+        original_y: &y,
+    };
+    for format in [ExportFormat::Csv, ExportFormat::GeoJson] {
+        let opts = ExportOptions {
+            format,
+            ..Default::default()
+        };
+        // Count the coincidences independently: CSV writes `{:.1}`.
+        let expected = close
+            .source
+            .iter()
+            .enumerate()
+            .filter(|&(i, &s)| {
+                format!("{:.1}", close.x[i]) == format!("{:.1}", x[s])
+                    && format!("{:.1}", close.y[i]) == format!("{:.1}", y[s])
+            })
+            .count();
+        assert!(
+            expected > close.x.len() / 2,
+            "most 1 cm shifts vanish at 0.1 m"
+        );
+        let p = what_leaves(&content, &opts, None).unwrap();
+        assert!(p.contains_original_coordinates, "{format:?}");
+        assert_eq!(p.label.as_deref(), Some("unmasked, internal use only"));
+        if format == ExportFormat::Csv {
+            assert_eq!(p.points_at_original_location, expected);
+        } else {
+            assert!(p.points_at_original_location > 0);
+        }
+        let e = export(&content, &opts, None).unwrap_err().to_string();
+        assert!(
+            e.contains("confirm_unmasked") && e.contains("ORIGINAL"),
+            "{e}"
+        );
+        let ok = ExportOptions {
+            confirm_unmasked: true,
+            ..opts.clone()
+        };
+        let f = export(&content, &ok, None).unwrap();
+        assert!(f.text.contains("unmasked, internal use only"), "{format:?}");
+        assert!(f.file_name.contains("UNMASKED-internal-only"));
+        // The text indeed holds the originals it was labelled for.
+        let originals: Vec<(String, String)> = close
+            .source
+            .iter()
+            .map(|&s| (format!("{:.1}", x[s]), format!("{:.1}", y[s])))
+            .collect();
+        let nums = numbers(&f.text, 1);
+        let pairs: std::collections::HashSet<(&str, &str)> = nums
+            .windows(2)
+            .map(|w| (w[0].as_str(), w[1].as_str()))
+            .collect();
+        let seen = originals
+            .iter()
+            .filter(|(a, b)| pairs.contains(&(a.as_str(), b.as_str())))
+            .count();
+        if format == ExportFormat::Csv {
+            assert!(seen >= expected, "{seen} < {expected}");
+        } else {
+            assert!(seen > 0, "GeoJSON: {seen}");
+        }
+    }
+    // Fewer decimals than the shift also put points back: a real 100–500 m
+    // donut written as lon/lat with 2 decimals (about 1 km) is unmasked.
+    let to_ll = |a: f64, b: f64| (9.0 + a / 78_000.0, 45.0 + b / 111_000.0);
+    let real = ExportContent::MaskedPoints {
+        masked: &m,
+        original_x: &x,
+        original_y: &y,
+    };
+    let coarse = ExportOptions {
+        coordinates: CoordinateOutput::LonLat,
+        decimals: Some(2),
+        ..Default::default()
+    };
+    let p = what_leaves(&real, &coarse, Some(&to_ll)).unwrap();
+    assert!(p.points_at_original_location > 0 && p.contains_original_coordinates);
+    assert!(export(&real, &coarse, Some(&to_ll)).is_err());
+    // At the default precision the same mask is not.
+    let p = what_leaves(&real, &ExportOptions::default(), None).unwrap();
+    assert_eq!(p.points_at_original_location, 0);
+    assert!(!p.contains_original_coordinates && p.label.is_none());
+}
+
+/// The demo town (demo-data/) as a study: events, boundary, population.
+fn demo_study() -> cloister::study::Study {
+    use cloister::input::{read_area, read_points, ReadOptions};
+    let cases = read_points(
+        include_bytes!("../demo-data/cases.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let pop = read_points(
+        include_bytes!("../demo-data/population.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let area = read_area(include_bytes!("../demo-data/town-boundary.geojson"), None).unwrap();
+    cloister::study::Study::build(
+        &cases,
+        Some(&area),
+        Some(&pop),
+        cloister::study::AreaFallback::ConvexHull,
+    )
+    .unwrap()
+}
+
+#[test]
+fn a_table_that_hides_everything_says_so() {
+    // The reported case: the demo town in 500 m squares with row and column
+    // totals on (the defaults otherwise) showed no cell while the audit read
+    // safe. The table now counts what it shows and warns plainly.
+    use cloister::privacy::aggregate::AggregateOptions;
+    use cloister::privacy::shared::count_in_cells;
+    use cloister::privacy::{CellShape, HexOrientation};
+    let s = demo_study();
+    let p = AggregateOptions {
+        cell_size_m: 500.0,
+        ..Default::default()
+    };
+    assert!(p.publish_row_column_totals, "totals on by default");
+    let (agg, _) = count_in_cells(&s, CellShape::Square, 500.0, HexOrientation::PointyTop).unwrap();
+    let t = suppress(&agg, &p.suppression());
+    let sh = t.shown;
+    // Independent count from the cells themselves.
+    let with_events_shown = t
+        .cells
+        .iter()
+        .filter(|c| c.count.is_some_and(|v| v > 0))
+        .count();
+    assert_eq!(sh.cells_with_events_shown, with_events_shown);
+    let hidden = t
+        .cells
+        .iter()
+        .filter(|c| c.suppressed && (c.in_area || c.hidden.is_some()))
+        .count();
+    assert_eq!(
+        sh.cells_hidden_primary + sh.cells_hidden_complementary,
+        hidden
+    );
+    assert_eq!(sh.events_in_cells + agg.outside, s.events.len() as u64);
+    eprintln!("500 m squares, totals on: {sh:?}");
+    // Measured: 113 of 335 cells with events shown (958 of 1500 events).
+    assert!(sh.mostly_hidden && !sh.nothing_shown);
+    let w = &t.warnings[0];
+    if sh.nothing_shown {
+        assert!(w.starts_with("Nothing is shown"), "{w}");
+    } else {
+        assert!(w.starts_with("Most of the table is hidden"), "{w}");
+    }
+    assert!(
+        w.contains("larger cells") && w.contains("row and column totals"),
+        "{w}"
+    );
+    let off = AggregateOptions {
+        publish_row_column_totals: false,
+        ..p.clone()
+    };
+    // A table that shows most of its events carries no such warning: 2 km
+    // squares without totals.
+    let (big, _) =
+        count_in_cells(&s, CellShape::Square, 2000.0, HexOrientation::PointyTop).unwrap();
+    let t3 = suppress(&big, &off.suppression());
+    eprintln!("2000 m squares, totals off: {:?}", t3.shown);
+    assert!(!t3.shown.mostly_hidden);
+    assert!(!t3
+        .warnings
+        .iter()
+        .any(|w| w.contains("hidden:") || w.starts_with("Nothing")));
+}
+
+#[test]
+fn a_table_that_shows_nothing_says_it_plainly() {
+    // Sparse events, 1 to 4 per 100 m square: every count is small, so every
+    // cell is hidden. The audit finds nothing recoverable (nothing is shown),
+    // and the table says it shows nothing, with what to change.
+    use cloister::privacy::aggregate::{aggregate_grid, AggregateParams};
+    let area = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+    let (mut x, mut y) = (vec![], vec![]);
+    for i in 0..10 {
+        for j in 0..10 {
+            for k in 0..(1 + (i + j) % 4) {
+                x.push(i as f64 * 100.0 + 20.0 + 10.0 * k as f64);
+                y.push(j as f64 * 100.0 + 50.0);
+            }
+        }
+    }
+    let agg = aggregate_grid(
+        &x,
+        &y,
+        &area,
+        &[],
+        None,
+        &AggregateParams {
+            cell_size_m: 100.0,
+            origin: Some([0.0, 0.0]),
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    let t = suppress(&agg, &SuppressionParams::default());
+    assert!(t.audit.safe);
+    assert_eq!(t.shown.cells_with_events, 100);
+    assert_eq!(t.shown.cells_with_events_shown, 0);
+    assert_eq!(t.shown.events_in_cells, x.len() as u64);
+    assert_eq!(t.shown.share_of_events_shown, Some(0.0));
+    assert!(t.shown.nothing_shown && t.shown.mostly_hidden);
+    assert!(
+        t.warnings[0].starts_with("Nothing is shown"),
+        "{:?}",
+        t.warnings
+    );
+    assert!(t.warnings[0].contains("larger cells"));
+    // No events at all: shares are undefined (None), not NaN, and no warning.
+    let none = aggregate_grid(&[], &[], &area, &[], None, &AggregateParams::default()).unwrap();
+    let t0 = suppress(&none, &SuppressionParams::default());
+    assert_eq!(t0.shown.share_of_events_shown, None);
+    assert!(!t0.shown.nothing_shown && !t0.shown.mostly_hidden);
+    let j = serde_json::to_string(&t0.shown).unwrap();
+    assert!(
+        !j.contains("NaN") && j.contains("\"share_of_events_shown\":null"),
+        "{j}"
+    );
 }

@@ -473,7 +473,8 @@ export interface ScanCluster {
   regions: number;
   observed: number;
   expected: number;
-  relative_risk: number;
+  /** null when undefined: every case inside the window. */
+  relative_risk: number | null;
   population: number;
   llr: number;
   p_value: number;
@@ -722,7 +723,26 @@ export interface SuppressedTable {
   n_complementary: number;
   totals_withheld: number;
   audit: AuditReport;
+  shown: ShownSummary;
   warnings: string[];
+}
+
+/** What a suppressed table shows, beside what it hides. */
+export interface ShownSummary {
+  cells: number;
+  cells_shown: number;
+  cells_hidden_primary: number;
+  cells_hidden_complementary: number;
+  cells_with_events: number;
+  cells_with_events_shown: number;
+  events_in_cells: number;
+  events_in_shown_cells: number;
+  /** null (undefined) when no cell holds an event. */
+  share_of_events_shown: number | null;
+  /** null (undefined) when no cell holds an event. */
+  share_of_cells_with_events_shown: number | null;
+  nothing_shown: boolean;
+  mostly_hidden: boolean;
 }
 
 /** `aggregate`: the suppressed, audited table the session keeps for export. */
@@ -745,6 +765,8 @@ export interface ExportPreview {
   rows: number;
   metadata_keys: string[];
   contains_original_coordinates: boolean;
+  /** Masked points written at their original location at the file's precision. */
+  points_at_original_location: number;
   label: string | null;
   points_left_out: number;
   cautions: string[];

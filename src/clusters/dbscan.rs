@@ -67,8 +67,7 @@ impl crate::params::Params for DbscanOptions {
                 Some("m"),
                 "neighbourhood radius (required; the k-distance plot helps choose it)",
             )
-            .above(0.0, None)
-            .extent(EXTENT_FACTOR),
+            .scale_length(EXTENT_FACTOR),
             Field::integer(
                 "min_samples",
                 "events in a neighbourhood, itself included, for a core event",

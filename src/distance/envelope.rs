@@ -313,8 +313,7 @@ impl crate::params::Params for EnvelopeOptions {
                 Some("m"),
                 "kernel half-width for g; empty = 0.15/√(intensity)",
             )
-            .above(0.0, None)
-            .extent(EXTENT_FACTOR)
+            .scale_length(EXTENT_FACTOR)
             .optional(),
         ]
     }

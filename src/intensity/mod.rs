@@ -153,8 +153,7 @@ impl crate::params::Params for SurfaceParams {
                 "how the bandwidth is chosen",
             ),
             Field::number("fixed_m", Some("m"), "the bandwidth when method is fixed")
-                .above(0.0, None)
-                .extent(EXTENT_FACTOR)
+                .scale_length(EXTENT_FACTOR)
                 .optional(),
             Field::integer("candidates", "bandwidths tried by the two criteria").range(3.0, 200.0),
             Field::choice(

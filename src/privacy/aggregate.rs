@@ -165,8 +165,7 @@ impl crate::params::Params for AggregateOptions {
                 Some("m"),
                 "side of a square; distance between opposite sides of a hexagon",
             )
-            .above(0.0, None)
-            .extent(EXTENT_FACTOR),
+            .scale_length(EXTENT_FACTOR),
             Field::choice(
                 "orientation",
                 &["pointy_top", "flat_top"],

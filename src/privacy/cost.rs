@@ -62,8 +62,7 @@ impl crate::params::Params for CostParams {
                 Some("m"),
                 "kernel SD per axis of the compared surfaces; empty = rule of thumb on the original points",
             )
-            .above(0.0, None)
-            .extent(EXTENT_FACTOR)
+            .scale_length(EXTENT_FACTOR)
             .optional(),
             Field::integer("grid_cells", "cells along the longer side of the study area")
                 .range(2.0, 1024.0),

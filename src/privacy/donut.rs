@@ -79,6 +79,19 @@ impl Default for DonutParams {
     }
 }
 
+/// Smallest accepted largest shift (`r_max_m`) of a mask, in metres: 50 m.
+///
+/// A mask whose largest shift is smaller than the error of the locations
+/// themselves hides nothing: address geocoding commonly places points tens
+/// of metres from the true building, so a shift of a few metres leaves each
+/// masked point where the original could just as well have been recorded.
+/// 50 m is a common-practice floor \[CP\] (docs/methods.md#privacy), well
+/// below any useful mask (the defaults are 100–500 m) and well above the
+/// export's precision (0.1 m, or 10⁻⁶ degrees). The export still compares
+/// every written coordinate with the original's
+/// ([`super::export::what_leaves`]), whatever the shift.
+pub const MIN_LARGEST_SHIFT_M: f64 = 50.0;
+
 /// Fields shared by the two masking methods.
 pub(crate) fn mask_fields(r_min_default_doc: &'static str) -> Vec<crate::params::Field> {
     use crate::params::{Field, EXTENT_FACTOR};
@@ -86,9 +99,13 @@ pub(crate) fn mask_fields(r_min_default_doc: &'static str) -> Vec<crate::params:
         Field::number("r_min_m", Some("m"), r_min_default_doc)
             .at_least(0.0)
             .extent(EXTENT_FACTOR),
-        Field::number("r_max_m", Some("m"), "largest displacement")
-            .above(0.0, None)
-            .extent(EXTENT_FACTOR),
+        Field::number(
+            "r_max_m",
+            Some("m"),
+            "largest displacement",
+        )
+        .at_least(MIN_LARGEST_SHIFT_M)
+        .extent(EXTENT_FACTOR),
         Field::choice(
             "law",
             &["area_uniform", "distance_uniform"],
@@ -212,7 +229,8 @@ pub fn donut_mask(
     region: &Window,
     p: &DonutParams,
 ) -> Result<MaskedPoints, AnalysisError> {
-    check_radii(p.r_min_m, p.r_max_m, p.max_tries)?;
+    // Every field in its declared range (the floor of r_max_m included).
+    crate::params::Params::validate(p)?;
     if x.len() != y.len() {
         return Err(bad("points", "x and y have different lengths"));
     }

@@ -64,6 +64,10 @@ pub struct ExportOptions {
     pub decimals: Option<u32>,
     /// The date (and time) to write, passed in by the caller (the core has no clock).
     pub created: String,
+    /// Write masked points even when some are, at the precision written, at
+    /// their original location; the file is then labelled
+    /// "unmasked, internal use only" (see [`what_leaves`]).
+    pub confirm_unmasked: bool,
 }
 
 impl Default for ExportOptions {
@@ -73,12 +77,14 @@ impl Default for ExportOptions {
             coordinates: CoordinateOutput::Metres,
             decimals: None,
             created: String::new(),
+            confirm_unmasked: false,
         }
     }
 }
 
 impl ExportOptions {
-    fn decimals(&self) -> usize {
+    /// Decimals written: as given, or 1 for metres and 6 for degrees.
+    pub fn decimals(&self) -> usize {
         self.decimals.unwrap_or(match self.coordinates {
             CoordinateOutput::Metres => 1,
             CoordinateOutput::LonLat => 6,
@@ -178,7 +184,15 @@ pub fn download_name(what: &str, created: &str, ext: &str) -> String {
 /// What to export.
 #[derive(Debug, Clone, Copy)]
 pub enum ExportContent<'a> {
-    MaskedPoints(&'a MaskedPoints),
+    /// Masked points, with the original points they were made from
+    /// (indexed by `masked.source`). The originals are never written: the
+    /// export compares each written coordinate with its original's, written
+    /// the same way, and treats a file where any coincide as unmasked.
+    MaskedPoints {
+        masked: &'a MaskedPoints,
+        original_x: &'a [f64],
+        original_y: &'a [f64],
+    },
     Table(&'a SuppressedTable),
     /// The original points, unmasked: the one export that writes them.
     UnmaskedInternal {
@@ -199,8 +213,15 @@ pub struct ExportPreview {
     pub rows: usize,
     /// Metadata keys written at the top of the file.
     pub metadata_keys: Vec<String>,
-    /// True only for the unmasked export.
+    /// True for the unmasked export, and for masked points when any of them
+    /// is written at its original location at the file's precision
+    /// (`points_at_original_location` > 0): computed by writing both
+    /// coordinates as the file does and comparing the text.
     pub contains_original_coordinates: bool,
+    /// Masked points whose written coordinates equal those of their
+    /// original point written the same way (same coordinates, same
+    /// decimals); 0 for other contents.
+    pub points_at_original_location: usize,
     /// The label inside the file, if any.
     pub label: Option<String>,
     /// Input points not in the file (could not be masked).
@@ -235,10 +256,12 @@ const TABLE_FIELDS: [&str; 8] = [
     "rate",
 ];
 
-fn cautions(content: &ExportContent) -> Vec<String> {
+/// The cautions a file of `content` carries (before the comparison with
+/// the originals, see [`what_leaves`]).
+pub fn cautions(content: &ExportContent) -> Vec<String> {
     let mut c = Vec::new();
     match content {
-        ExportContent::MaskedPoints(m) => {
+        ExportContent::MaskedPoints { masked: m, .. } => {
             c.extend(m.notes.iter().cloned());
             c.push(
                 "Mask once: never publish a second, differently masked copy of these points; \
@@ -279,8 +302,105 @@ fn cautions(content: &ExportContent) -> Vec<String> {
     c
 }
 
+/// The back-projection an export may use: planar metres to (lon, lat).
+pub type ToLonLat<'f> = Option<&'f dyn Fn(f64, f64) -> (f64, f64)>;
+
+/// The coordinates as the file will hold them: metres, or longitude/latitude
+/// through `to_lonlat`.
+fn project_with(
+    opts: &ExportOptions,
+    to_lonlat: ToLonLat,
+    x: f64,
+    y: f64,
+) -> Result<(f64, f64), AnalysisError> {
+    match opts.coordinates {
+        CoordinateOutput::Metres => Ok((x, y)),
+        CoordinateOutput::LonLat => match to_lonlat {
+            Some(f) => {
+                let (a, b) = f(x, y);
+                if a.is_finite() && b.is_finite() {
+                    Ok((a, b))
+                } else {
+                    Err(bad(
+                        "coordinates",
+                        "the back-projection gave a non-finite value",
+                    ))
+                }
+            }
+            None => Err(bad(
+                "coordinates",
+                "longitude/latitude output needs the study's back-projection",
+            )),
+        },
+    }
+}
+
+/// One coordinate as the file writes it: `d` decimals in CSV, the JSON
+/// number of the value rounded to `d` decimals in GeoJSON.
+fn written(v: f64, d: usize, format: ExportFormat) -> String {
+    match format {
+        ExportFormat::Csv => fmt(v, d),
+        ExportFormat::GeoJson => json!(round(v, d)).to_string(),
+    }
+}
+
+/// How many masked points the file would write at their original location:
+/// both the masked point and its original are projected and written as the
+/// file writes coordinates, and the two texts compared (x and y both equal).
+pub fn points_at_original_location(
+    masked: &MaskedPoints,
+    original_x: &[f64],
+    original_y: &[f64],
+    opts: &ExportOptions,
+    to_lonlat: ToLonLat,
+) -> Result<usize, AnalysisError> {
+    let d = opts.decimals();
+    let mut n = 0;
+    for (i, &s) in masked.source.iter().enumerate() {
+        let (Some(&ox), Some(&oy)) = (original_x.get(s), original_y.get(s)) else {
+            return Err(bad(
+                "points",
+                "a masked point's original is missing: mask the loaded points again",
+            ));
+        };
+        let (ma, mb) = project_with(opts, to_lonlat, masked.x[i], masked.y[i])?;
+        let (oa, ob) = project_with(opts, to_lonlat, ox, oy)?;
+        if written(ma, d, opts.format) == written(oa, d, opts.format)
+            && written(mb, d, opts.format) == written(ob, d, opts.format)
+        {
+            n += 1;
+        }
+    }
+    Ok(n)
+}
+
+/// The caution for masked points written at their original location.
+fn at_original_caution(n: usize, total: usize, opts: &ExportOptions) -> String {
+    format!(
+        "{n} of {total} masked points are written at their ORIGINAL location at this precision \
+         ({} decimals): this file is treated as unmasked, internal use only. Mask with a larger \
+         shift, or write fewer decimals.",
+        opts.decimals()
+    )
+}
+
 /// Lists what `content` would put in a file with `opts`, without writing it.
-pub fn what_leaves(content: &ExportContent, opts: &ExportOptions) -> ExportPreview {
+/// For masked points the coordinates are written as the file would write
+/// them and compared with the originals' (needs `to_lonlat` for
+/// longitude/latitude output).
+pub fn what_leaves(
+    content: &ExportContent,
+    opts: &ExportOptions,
+    to_lonlat: ToLonLat,
+) -> Result<ExportPreview, AnalysisError> {
+    let at_original = match content {
+        ExportContent::MaskedPoints {
+            masked,
+            original_x,
+            original_y,
+        } => points_at_original_location(masked, original_x, original_y, opts, to_lonlat)?,
+        _ => 0,
+    };
     let [cx, cy] = coord_names(opts);
     let mut metadata_keys: Vec<String> = ["tool", "version", "created", "content", "coordinates"]
         .iter()
@@ -294,15 +414,19 @@ pub fn what_leaves(content: &ExportContent, opts: &ExportOptions) -> ExportPrevi
         _,
         usize,
     ) = match content {
-        ExportContent::MaskedPoints(m) => {
+        ExportContent::MaskedPoints { masked: m, .. } => {
             metadata_keys.push("masking".into());
             metadata_keys.push("points_left_out".into());
+            if at_original > 0 {
+                metadata_keys.push("label".into());
+                metadata_keys.push("points_at_original_location".into());
+            }
             (
                 "masked points",
                 vec![cx.to_string(), cy.to_string()],
                 m.x.len(),
-                false,
-                None,
+                at_original > 0,
+                (at_original > 0).then(|| UNMASKED_LABEL.to_string()),
                 m.unplaced.len(),
             )
         }
@@ -347,17 +471,22 @@ pub fn what_leaves(content: &ExportContent, opts: &ExportOptions) -> ExportPrevi
         (ExportFormat::GeoJson, _) => vec!["geometry (Point)".to_string()],
         _ => fields,
     };
-    ExportPreview {
+    let mut cautions = cautions(content);
+    if at_original > 0 {
+        cautions.insert(0, at_original_caution(at_original, rows, opts));
+    }
+    Ok(ExportPreview {
         content: name.into(),
         format: opts.format,
         fields,
         rows,
         metadata_keys,
         contains_original_coordinates: original,
+        points_at_original_location: at_original,
         label,
         points_left_out: left_out,
-        cautions: cautions(content),
-    }
+        cautions,
+    })
 }
 
 fn exported_cells(t: &SuppressedTable) -> impl Iterator<Item = &super::suppress::TableCell> {
@@ -382,7 +511,7 @@ fn metadata(
         }),
     );
     match content {
-        ExportContent::MaskedPoints(mp) => {
+        ExportContent::MaskedPoints { masked: mp, .. } => {
             // `method` carries settings only; the seed is a separate field of
             // MaskedPoints and is deliberately not written.
             m.insert(
@@ -390,6 +519,13 @@ fn metadata(
                 serde_json::to_value(&mp.method).unwrap_or(Value::Null),
             );
             m.insert("points_left_out".into(), json!(mp.unplaced.len()));
+            if preview.points_at_original_location > 0 {
+                m.insert("label".into(), json!(UNMASKED_LABEL));
+                m.insert(
+                    "points_at_original_location".into(),
+                    json!(preview.points_at_original_location),
+                );
+            }
         }
         ExportContent::Table(t) => {
             m.insert(
@@ -448,39 +584,31 @@ fn csv_field(s: &str) -> String {
 pub fn export(
     content: &ExportContent,
     opts: &ExportOptions,
-    to_lonlat: Option<&dyn Fn(f64, f64) -> (f64, f64)>,
+    to_lonlat: ToLonLat,
 ) -> Result<ExportFile, AnalysisError> {
-    let project = |x: f64, y: f64| -> Result<(f64, f64), AnalysisError> {
-        match opts.coordinates {
-            CoordinateOutput::Metres => Ok((x, y)),
-            CoordinateOutput::LonLat => match to_lonlat {
-                Some(f) => {
-                    let (a, b) = f(x, y);
-                    if a.is_finite() && b.is_finite() {
-                        Ok((a, b))
-                    } else {
-                        Err(bad(
-                            "coordinates",
-                            "the back-projection gave a non-finite value",
-                        ))
-                    }
-                }
-                None => Err(bad(
-                    "coordinates",
-                    "longitude/latitude output needs the study's back-projection",
-                )),
-            },
-        }
-    };
+    let project = |x: f64, y: f64| project_with(opts, to_lonlat, x, y);
     let d = opts.decimals();
     if d > 12 {
         return Err(bad("decimals", "at most 12"));
     }
-    let preview = what_leaves(content, opts);
+    let preview = what_leaves(content, opts, to_lonlat)?;
+    if preview.points_at_original_location > 0 && !opts.confirm_unmasked {
+        return Err(bad(
+            "confirm_unmasked",
+            &(at_original_caution(preview.points_at_original_location, preview.rows, opts)
+                .replace(
+                    "this file is treated as unmasked",
+                    "the file would be unmasked",
+                )
+                + " To write it anyway, labelled for internal use, confirm (confirm_unmasked: true)."),
+        ));
+    }
+    // Masked points at their original location make the file an unmasked one.
+    let unmasked = preview.contains_original_coordinates;
     let meta = metadata(content, opts, &preview);
     let [cx, cy] = coord_names(opts);
     let points: Option<Vec<(f64, f64)>> = match content {
-        ExportContent::MaskedPoints(m) => {
+        ExportContent::MaskedPoints { masked: m, .. } => {
             let mut v: Vec<(f64, f64)> = m.x.iter().copied().zip(m.y.iter().copied()).collect();
             v.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
             Some(v)
@@ -494,14 +622,15 @@ pub fn export(
         ExportContent::Table(_) => None,
     };
     let stem = match content {
-        ExportContent::MaskedPoints(_) => "masked-points",
+        ExportContent::MaskedPoints { .. } if unmasked => "masked-points-UNMASKED-internal-only",
+        ExportContent::MaskedPoints { .. } => "masked-points",
         ExportContent::Table(_) => "suppressed-counts",
         ExportContent::UnmaskedInternal { .. } => "UNMASKED-internal-only",
     };
     let text = match (opts.format, points) {
         (ExportFormat::Csv, pts) => {
             let mut s = String::new();
-            if matches!(content, ExportContent::UnmaskedInternal { .. }) {
+            if unmasked {
                 s.push_str(&format!("# {}\n", UNMASKED_LABEL.to_uppercase()));
             }
             for (k, v) in &meta {
@@ -529,7 +658,7 @@ pub fn export(
         (ExportFormat::GeoJson, pts) => {
             let mut fc = Map::new();
             fc.insert("type".into(), json!("FeatureCollection"));
-            if matches!(content, ExportContent::UnmaskedInternal { .. }) {
+            if unmasked {
                 fc.insert("label".into(), json!(UNMASKED_LABEL));
             }
             fc.insert("metadata".into(), Value::Object(meta));

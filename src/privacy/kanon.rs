@@ -66,7 +66,7 @@
 //! # Notes
 //! Grid-indexed counts: O(n·tries·m) with m layer points per disc.
 
-use super::donut::{check_radii, draw_distance, DistanceLaw};
+use super::donut::{draw_distance, DistanceLaw};
 use super::{bad, MaskMethod, MaskedPoints, Spread, Unplaced, UnplacedReason};
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
@@ -266,7 +266,8 @@ pub fn kanon_mask(
     region: &Window,
     p: &KAnonParams,
 ) -> Result<KAnonReport, AnalysisError> {
-    check_radii(p.r_min_m, p.r_max_m, p.max_tries)?;
+    // Every field in its declared range (the floor of r_max_m included).
+    crate::params::Params::validate(p)?;
     if x.len() != y.len() {
         return Err(bad("points", "x and y have different lengths"));
     }

@@ -7,7 +7,7 @@
 
 use super::aggregate::{Layout, LineKind};
 use super::cost::{compare, CostParams};
-use super::export::{what_leaves, ExportContent, ExportOptions};
+use super::export::{cautions as export_cautions, ExportContent};
 use super::kanon::KBasis;
 use super::shared::{MaskState, SharingState, TableState};
 use super::{CellShape, DistanceLaw, MaskMethod, Spread};
@@ -574,15 +574,15 @@ pub fn report_html(
     body.push_str("<section><h2>Cautions</h2><ul>");
     let mut cautions: Vec<String> = CAUTIONS.iter().map(|s| s.to_string()).collect();
     if let Some(ms) = st.mask {
-        let p = what_leaves(
-            &ExportContent::MaskedPoints(&ms.masked),
-            &ExportOptions::default(),
-        );
-        cautions.extend(p.cautions);
+        // The report holds no coordinates: only the cautions of the content.
+        cautions.extend(export_cautions(&ExportContent::MaskedPoints {
+            masked: &ms.masked,
+            original_x: study.events.x(),
+            original_y: study.events.y(),
+        }));
     }
     if let Some(ts) = st.table {
-        let p = what_leaves(&ExportContent::Table(&ts.table), &ExportOptions::default());
-        cautions.extend(p.cautions);
+        cautions.extend(export_cautions(&ExportContent::Table(&ts.table)));
     }
     cautions.dedup();
     for c in &cautions {

@@ -138,7 +138,127 @@ pub struct SuppressedTable {
     pub n_complementary: usize,
     pub totals_withheld: usize,
     pub audit: AuditReport,
+    /// What the table shows: cells and events shown and hidden.
+    pub shown: ShownSummary,
     pub warnings: Vec<String>,
+}
+
+/// Below this share of the cells with events, or of the events, shown, the
+/// table warns that it hides most of what it counts: one half, a
+/// common-practice threshold \[CP\] (docs/methods.md#privacy).
+pub const MIN_SHOWN_SHARE: f64 = 0.5;
+
+/// What a suppressed table shows, beside what it hides. Cells are those
+/// written to a file: inside the study area, or holding events.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ShownSummary {
+    pub cells: usize,
+    /// Cells whose count is shown (zero counts included when shown).
+    pub cells_shown: usize,
+    pub cells_hidden_primary: usize,
+    pub cells_hidden_complementary: usize,
+    /// Cells holding at least one event, and how many of them are shown.
+    pub cells_with_events: usize,
+    pub cells_with_events_shown: usize,
+    /// Events in cells (events outside every cell not included), and how
+    /// many of them are in cells whose count is shown.
+    pub events_in_cells: u64,
+    pub events_in_shown_cells: u64,
+    /// `events_in_shown_cells / events_in_cells`; `null` (undefined) when no
+    /// cell holds an event.
+    pub share_of_events_shown: Option<f64>,
+    /// `cells_with_events_shown / cells_with_events`; `null` when no cell
+    /// holds an event.
+    pub share_of_cells_with_events_shown: Option<f64>,
+    /// Events exist but no cell with events is shown: the table tells
+    /// nothing about where they are.
+    pub nothing_shown: bool,
+    /// Less than [`MIN_SHOWN_SHARE`] of the cells with events, or of the
+    /// events, is shown.
+    pub mostly_hidden: bool,
+}
+
+impl ShownSummary {
+    fn of(cells: &[TableCell], values: &[u64]) -> ShownSummary {
+        let mut s = ShownSummary {
+            cells: 0,
+            cells_shown: 0,
+            cells_hidden_primary: 0,
+            cells_hidden_complementary: 0,
+            cells_with_events: 0,
+            cells_with_events_shown: 0,
+            events_in_cells: 0,
+            events_in_shown_cells: 0,
+            share_of_events_shown: None,
+            share_of_cells_with_events_shown: None,
+            nothing_shown: false,
+            mostly_hidden: false,
+        };
+        for (c, &v) in cells.iter().zip(values) {
+            if !(c.in_area || v > 0) {
+                continue;
+            }
+            s.cells += 1;
+            match c.hidden {
+                None => s.cells_shown += 1,
+                Some(Hidden::Primary) => s.cells_hidden_primary += 1,
+                Some(Hidden::Complementary) => s.cells_hidden_complementary += 1,
+            }
+            if v > 0 {
+                s.cells_with_events += 1;
+                s.events_in_cells += v;
+                if c.hidden.is_none() {
+                    s.cells_with_events_shown += 1;
+                    s.events_in_shown_cells += v;
+                }
+            }
+        }
+        if s.cells_with_events > 0 {
+            let e = s.events_in_shown_cells as f64 / s.events_in_cells as f64;
+            let c = s.cells_with_events_shown as f64 / s.cells_with_events as f64;
+            s.share_of_events_shown = Some(e);
+            s.share_of_cells_with_events_shown = Some(c);
+            s.nothing_shown = s.cells_with_events_shown == 0;
+            s.mostly_hidden = e < MIN_SHOWN_SHARE || c < MIN_SHOWN_SHARE;
+        }
+        s
+    }
+
+    /// The warning for a table that hides everything or most of it, with
+    /// what to change; `None` when at least half is shown.
+    fn warning(&self, grid: bool, totals_on: bool) -> Option<String> {
+        if !self.mostly_hidden {
+            return None;
+        }
+        let mut fix = Vec::new();
+        if grid {
+            fix.push("use larger cells");
+        }
+        if totals_on {
+            fix.push("turn off the row and column totals (each published total forces more cells to be hidden)");
+        }
+        if fix.is_empty() {
+            fix.push("use larger areas or group zones");
+        }
+        let fix = fix.join(", or ");
+        Some(if self.nothing_shown {
+            format!(
+                "Nothing is shown: all {} areas with events are hidden, so this table protects \
+                 the counts but says nothing about where the {} events are. To show counts, {fix}.",
+                self.cells_with_events, self.events_in_cells
+            )
+        } else {
+            format!(
+                "Most of the table is hidden: {} of {} areas with events are shown, holding {} of \
+                 {} events ({:.0}%). To show more, {fix}.",
+                self.cells_with_events_shown,
+                self.cells_with_events,
+                self.events_in_shown_cells,
+                self.events_in_cells,
+                100.0 * self.share_of_events_shown.unwrap_or(0.0)
+            )
+        })
+    }
 }
 
 /// The feasible range of one hidden cell.
@@ -315,6 +435,14 @@ pub fn suppress(agg: &Aggregation, p: &SuppressionParams) -> SuppressedTable {
         })
         .collect();
     let mut warnings = Vec::new();
+    let shown = ShownSummary::of(&cells, &values);
+    let grid = agg
+        .lines
+        .iter()
+        .any(|l| matches!(l.kind, LineKind::Row | LineKind::Column));
+    if let Some(w) = shown.warning(grid, grid && p.publish_row_column_totals) {
+        warnings.push(w);
+    }
     let outside = if agg.outside > 0 && agg.outside < min_count {
         warnings.push(format!(
             "fewer than {min_count} events fall outside every cell or zone; that count is \
@@ -349,6 +477,7 @@ pub fn suppress(agg: &Aggregation, p: &SuppressionParams) -> SuppressedTable {
         lines: table_lines,
         outside,
         audit,
+        shown,
         warnings,
     }
 }

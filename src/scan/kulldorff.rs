@@ -189,8 +189,9 @@ pub struct ScanCluster {
     pub regions: Vec<usize>,
     pub observed: u64,
     pub expected: f64,
-    /// `(c/E) / ((C−c)/(C−E))`.
-    pub relative_risk: f64,
+    /// `(c/E) / ((C−c)/(C−E))`; `None` (`null`) when undefined: no case
+    /// or no expected case outside the window (every case inside it).
+    pub relative_risk: Option<f64>,
     /// Population in the window (Bernoulli: individuals; area model: m²).
     pub population: f64,
     pub llr: f64,
@@ -696,11 +697,10 @@ impl ScanJob {
                 _ => cc * pop / self.total_pop,
             };
             let cf = c as f64;
-            let rr = if cc - e > 0.0 && cc - cf > 0.0 {
-                (cf / e) / ((cc - cf) / (cc - e))
-            } else {
-                f64::INFINITY
-            };
+            // Undefined (not Infinity) with no case or no expected case outside.
+            let rr = (cc - e > 0.0 && cc - cf > 0.0 && e > 0.0)
+                .then(|| (cf / e) / ((cc - cf) / (cc - e)))
+                .filter(|v| v.is_finite());
             clusters.push(ScanCluster {
                 rank: clusters.len(),
                 centre_region: i,

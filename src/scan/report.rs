@@ -17,7 +17,8 @@ pub struct ScanClusterReport {
     pub regions: usize,
     pub observed: u64,
     pub expected: f64,
-    pub relative_risk: f64,
+    /// `null` when undefined (every case inside the window).
+    pub relative_risk: Option<f64>,
     pub population: f64,
     pub llr: f64,
     pub p_value: f64,

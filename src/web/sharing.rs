@@ -138,7 +138,12 @@ fn secure_seed() -> Result<u64, JsValue> {
     let f: js_sys::Function = f.dyn_into().map_err(|_| fail())?;
     let buf = Uint32Array::new_with_length(2);
     f.call1(&crypto, &buf).map_err(|_| fail())?;
-    Ok((u64::from(buf.get_index(0)) << 32) | u64::from(buf.get_index(1)))
+    // 53 random bits: the seed range every seed option declares
+    // (`crate::params::MAX_SEED`), which the masking functions check.
+    Ok(
+        ((u64::from(buf.get_index(0)) << 32) | u64::from(buf.get_index(1)))
+            & crate::params::MAX_SEED,
+    )
 }
 
 fn already_masked() -> JsValue {
@@ -217,10 +222,17 @@ impl Session {
     fn content<'a>(&'a self, what: &str, confirm: bool) -> Result<ExportContent<'a>, JsValue> {
         let st = state(self);
         match what {
-            "masked_points" => st
-                .and_then(|s| s.mask.as_ref())
-                .map(|m| ExportContent::MaskedPoints(&m.masked))
-                .ok_or_else(|| js_error("nothing_masked", "mask the points first", None)),
+            "masked_points" => {
+                let m = st
+                    .and_then(|s| s.mask.as_ref())
+                    .ok_or_else(|| js_error("nothing_masked", "mask the points first", None))?;
+                let s = self.study_ref()?;
+                Ok(ExportContent::MaskedPoints {
+                    masked: &m.masked,
+                    original_x: s.events.x(),
+                    original_y: s.events.y(),
+                })
+            }
             "aggregates" => st
                 .and_then(|s| s.table.as_ref())
                 .map(|t| ExportContent::Table(&t.table))
@@ -277,6 +289,7 @@ impl Session {
             coordinates,
             decimals: args.decimals,
             created: created_or_now(args.created.clone()),
+            confirm_unmasked: args.confirm_unmasked,
         })
     }
 
@@ -487,7 +500,14 @@ impl Session {
             "unmasked_points" => self.content(what, true)?,
             _ => self.content(what, a.confirm_unmasked)?,
         };
-        to_js(&what_leaves(&content, &opts))
+        let proj = self.study_ref()?.projection;
+        let inverse = move |x: f64, y: f64| proj.inverse(x, y);
+        let back: Option<&dyn Fn(f64, f64) -> (f64, f64)> = if proj.is_geographic() {
+            Some(&inverse)
+        } else {
+            None
+        };
+        to_js(&what_leaves(&content, &opts, back).map_err(|e| analysis_error(&e))?)
     }
 
     /// Writes a file: `{text, file_name, mime, preview}`.
@@ -512,6 +532,25 @@ impl Session {
         } else {
             None
         };
+        // Masked points that are, as written, at their original location
+        // make an unmasked file: refused like the unmasked export unless
+        // confirmed, then labelled for internal use.
+        let preview = what_leaves(&content, &opts, back).map_err(|e| analysis_error(&e))?;
+        if preview.points_at_original_location > 0 && !a.confirm_unmasked {
+            return Err(js_error(
+                "confirm_needed",
+                &format!(
+                    "{} of {} masked points would be written at their ORIGINAL location at \
+                     this precision ({} decimals), so this file is unmasked, internal use \
+                     only: mask with a larger shift or write fewer decimals, or pass \
+                     confirm_unmasked: true to write it labelled as such",
+                    preview.points_at_original_location,
+                    preview.rows,
+                    opts.decimals()
+                ),
+                None,
+            ));
+        }
         let f = export(&content, &opts, back).map_err(|e| analysis_error(&e))?;
         to_js(&f)
     }

@@ -54,7 +54,8 @@ test('each options interface lists exactly the options of parameterSpec, choices
     }
   }
   // The unit and range are in the documentation of a length.
-  assert.match(body('MaskDonutOptions'), /largest displacement Unit: m\. Range: > 0, ≤ 10 × the study area's extent\. Default: 500\./);
+  // (r_max_m has a floor of 50 m, docs/methods.md#privacy, and every length a 20,000 km cap.)
+  assert.match(body('MaskDonutOptions'), /largest displacement Unit: m\. Range: ≥ 50, ≤ 20000000, ≤ 10 × the study area's extent\. Default: 500\./);
 });
 
 /** The pinned compiler's entry point, or null when it is not installed. */

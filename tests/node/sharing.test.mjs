@@ -408,3 +408,76 @@ test('cost of masking includes L(r) − r of both patterns, and a wide shift wea
   const maxDiff = Math.max(...lc.original.map((v, i) => Math.abs(v - lc.masked[i])).slice(1));
   assert.ok(Math.abs(maxDiff - lc.max_abs_difference_m) < 1e-6 * Math.max(1, maxDiff));
 });
+
+test('a 1 cm donut is refused: the largest shift has a floor of 50 m', () => {
+  const s = demo();
+  const e = throws(() => s.maskDonut({ r_min_m: 0, r_max_m: 0.01, seed: SEED }));
+  assert.equal(e.code, 'bad_parameter', e.message);
+  assert.match(e.message, /r_max_m/);
+  assert.match(e.message, /50 m/);
+  assert.equal(throws(() => s.maskKAnonymity({ target_k: 5, r_max_m: 10, seed: SEED })).code, 'bad_parameter');
+  assert.equal(s.maskResult(), null, 'nothing was masked');
+  assert.equal(parameterSpecMin('maskDonut', 'r_max_m'), 50);
+});
+
+function parameterSpecMin(analysis, name) {
+  const { parameterSpec } = require('../../dist/node/cloister.js');
+  return parameterSpec(analysis).fields.find((f) => f.name === name).min;
+}
+
+test('masked points written at their original location: the preview says so, from the exported text, and the file needs confirming', () => {
+  // A 100–300 m donut written with 2 decimals of a degree (about 1 km):
+  // many masked points round to the same text as their original.
+  const s = demo();
+  s.maskDonut({ r_min_m: 100, r_max_m: 300, seed: SEED });
+  const coarse = { format: 'csv', decimals: 2 };
+  const p = s.exportPreview('masked_points', coarse);
+  assert.equal(p.contains_original_coordinates, true);
+  assert.equal(p.label, 'unmasked, internal use only');
+  assert.ok(p.points_at_original_location > 0 && p.points_at_original_location <= p.rows);
+  const e = throws(() => s.exportFile('masked_points', coarse));
+  assert.equal(e.code, 'confirm_needed', e.message);
+  assert.match(e.message, /ORIGINAL location/);
+  const f = s.exportFile('masked_points', { ...coarse, confirm_unmasked: true });
+  assert.ok(f.text.startsWith('# UNMASKED, INTERNAL USE ONLY'), f.text.slice(0, 80));
+  assert.match(f.file_name, /UNMASKED-internal-only/);
+  // Check the text itself: the originals written the same way (the unmasked
+  // export at 2 decimals) and the masked rows share at least that many pairs.
+  const rows = (t) => t.split('\n').filter((l) => l && !l.startsWith('#')).slice(1);
+  const orig = new Set(rows(s.exportFile('unmasked_points', { ...coarse, confirm_unmasked: true }).text));
+  const same = rows(f.text).filter((r) => orig.has(r)).length;
+  assert.ok(same >= p.points_at_original_location, `${same} rows equal an original`);
+  // At the default precision (6 decimals) the same mask holds no original:
+  // the preview says so and the text agrees.
+  const fine = s.exportFile('masked_points', { format: 'csv' });
+  assert.equal(fine.preview.contains_original_coordinates, false);
+  assert.equal(fine.preview.points_at_original_location, 0);
+  const originals = new Set(originalLonLat().map(([a, b]) => `${a},${b}`));
+  const found = [...pairsIn(fine.text)].filter((q) => originals.has(q));
+  assert.deepEqual(found, []);
+  assert.doesNotMatch(fine.text, /internal use only/);
+});
+
+test('counts per area say what they show: 500 m squares with totals on hide most of the demo, and say so first', () => {
+  const s = demo();
+  const r = s.aggregate({ layout: 'square', cell_size_m: 500 });
+  const t = r.table;
+  const sh = t.shown;
+  // Recount from the cells themselves.
+  const withEvents = t.cells.filter((c) => c.suppressed || c.count > 0);
+  const shownWithEvents = t.cells.filter((c) => !c.suppressed && c.count > 0);
+  assert.equal(sh.cells_with_events_shown, shownWithEvents.length);
+  assert.equal(sh.events_in_shown_cells, shownWithEvents.reduce((a, c) => a + c.count, 0));
+  assert.ok(sh.cells_with_events <= withEvents.length);
+  assert.equal(sh.cells_hidden_primary, t.n_primary);
+  assert.equal(sh.cells_hidden_complementary, t.n_complementary);
+  assert.ok(sh.share_of_cells_with_events_shown < 0.5, JSON.stringify(sh));
+  assert.equal(sh.mostly_hidden, true);
+  assert.match(t.warnings[0], /^(Most of the table is hidden|Nothing is shown)/);
+  assert.match(t.warnings[0], /larger cells/);
+  assert.match(t.warnings[0], /row and column totals/);
+  // Large cells without totals show most events: no such warning.
+  const big = s.aggregate({ layout: 'square', cell_size_m: 2000, publish_row_column_totals: false }).table;
+  assert.equal(big.shown.mostly_hidden, false, JSON.stringify(big.shown));
+  assert.ok(!big.warnings.some((w) => /^(Most of the table is hidden|Nothing is shown)/.test(w)));
+});

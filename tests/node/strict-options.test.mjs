@@ -260,3 +260,123 @@ test('parameterSpec: one list of names, units, defaults and limits, matching wha
   assert.equal(throws(() => s.quadratTest({ n_sim: nsim.max + 1 })).code, 'bad_parameter');
   assert.equal(throws(() => parameterSpec('noSuchMethod')).code, 'bad_options');
 });
+
+// What each analysis is called with when its options are walked: a valid
+// base (for options that are required) and the call.
+const WALK = {
+  quadratTest: {}, clarkEvans: {}, envelopeStart: {}, intensitySurface: {},
+  dbscan: { base: { eps_m: 150 } }, scanStart: {}, maskDonut: { base: { seed: 1 } },
+  maskKAnonymity: { base: { seed: 1 } }, maskingCost: { needsMask: true }, aggregate: {},
+  exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},
+  kDistance: { call: (s, o) => s.kDistance(o.min_samples) },
+};
+
+test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {
+  const s = demo();
+  s.maskDonut({ seed: 3 });
+  let walked = 0;
+  for (const sp of parameterSpec()) {
+    const w = WALK[sp.analysis];
+    assert.ok(w, `${sp.analysis} is walked`);
+    const call = w.call || CASES[sp.analysis].call;
+    for (const f of sp.fields) {
+      if (f.session || !['number', 'integer', 'numbers'].includes(f.kind)) continue;
+      walked++;
+      assert.ok(f.min !== null && f.max !== null, `${sp.analysis}.${f.name} has a full range`);
+      const step = (v) => (f.kind === 'integer' ? 1 : 1e-6 * Math.max(1, Math.abs(v)));
+      const values = [f.min_exclusive ? f.min : f.min - step(f.min), f.max + step(f.max), 1e308, -1e308, NaN, Infinity, -Infinity];
+      for (const tiny of [1e-300, -1e-300]) {
+        const inside = (f.min_exclusive ? tiny > f.min : tiny >= f.min) && tiny <= f.max;
+        if (!inside || f.kind === 'integer') values.push(tiny);
+      }
+      for (const v of values) {
+        const opts = { ...(w.base || {}), [f.name]: f.kind === 'numbers' ? [v] : v };
+        const before = s.maskResult();
+        const e = throws(() => call(s, opts));
+        assert.ok(e.code === 'bad_parameter' || e.code === 'bad_options', `${sp.analysis}.${f.name} = ${v}: ${e.code} ${e.message}`);
+        assert.ok(e.message.includes(f.name), `${sp.analysis}.${f.name} = ${v}: ${e.message}`);
+        assertPlain(e);
+        assert.deepEqual(s.maskResult(), before, 'a refused call keeps the mask');
+      }
+    }
+  }
+  assert.ok(walked >= 40, `${walked} numeric options walked`);
+});
+
+test('the reported absurd values are refused with a message, not answered', () => {
+  const s = demo();
+  for (const [f, name] of [
+    [() => s.envelopeStart({ r_min_m: 1e308 }), 'r_min_m'],
+    [() => s.intensitySurface({ method: 'fixed', fixed_m: 1e-300 }), 'fixed_m'],
+    [() => s.intensitySurface({ method: 'fixed', fixed_m: 1e308 }), 'fixed_m'],
+    [() => s.envelopeStart({ function: 'pair_correlation', bandwidth_m: 1e308 }), 'bandwidth_m'],
+    [() => s.maskDonut({ r_min_m: 1e308, r_max_m: 1e308, seed: 1 }), 'r_min_m'],
+    [() => s.intensitySurface({ method: 'likelihood_cv', candidates: 1e6 }), 'candidates'],
+  ]) {
+    const e = throws(f);
+    assert.equal(e.code, 'bad_parameter', e.message);
+    assert.ok(e.message.includes(name), e.message);
+  }
+});
+
+/** Paths of every number in `v` that is NaN or ±Infinity. */
+function nonFinite(v, path = '', out = []) {
+  if (typeof v === 'number') { if (!Number.isFinite(v)) out.push(`${path} = ${v}`); }
+  else if (ArrayBuffer.isView(v)) { v.forEach((x, i) => { if (typeof x === 'number' && !Number.isFinite(x)) out.push(`${path}[${i}] = ${x}`); }); }
+  else if (Array.isArray(v)) v.forEach((x, i) => nonFinite(x, `${path}[${i}]`, out));
+  else if (v && typeof v === 'object') for (const [k, x] of Object.entries(v)) nonFinite(x, `${path}.${k}`, out);
+  return out;
+}
+
+test('degenerate inputs (one event, two coincident events, events on a line): no NaN or Infinity in any result', () => {
+  const layouts = {
+    'one event': [[500, 500]],
+    'two coincident events': [[500, 500], [500, 500]],
+    'events on a line': Array.from({ length: 12 }, (_, i) => [100 + 50 * i, 300]),
+  };
+  const area = new TextEncoder().encode(JSON.stringify({ type: 'Polygon', coordinates: [[[0, 0], [1000, 0], [1000, 1000], [0, 1000], [0, 0]]] }));
+  for (const [name, pts] of Object.entries(layouts)) {
+    const s = new Session();
+    s.loadArea(area, {});
+    s.loadEvents(new TextEncoder().encode('x,y\n' + pts.map(([x, y]) => `${x},${y}`).join('\n') + '\n'), {});
+    const results = {};
+    const attempt = (label, fn) => {
+      try { results[label] = fn(); } catch (e) {
+        // A refusal is an answer: it must be a coded error in plain words.
+        assert.ok(typeof e.code === 'string' && e.code.length > 0, `${name} ${label}: ${e}`);
+        assertPlain(e);
+      }
+    };
+    attempt('quadratTest', () => s.quadratTest({ nx: 2, ny: 2, n_sim: 9, seed: 1 }));
+    attempt('clarkEvans', () => s.clarkEvans({ n_sim: 9, seed: 1 }));
+    for (const fn of ['k', 'l', 'pair_correlation', 'nearest_neighbour', 'empty_space', 'j']) {
+      attempt(`envelope ${fn}`, () => {
+        const st = s.envelopeStart({ function: fn, n_sim: 5, seed: 1, n_steps: 10 });
+        s.envelopeStep(st.total);
+        return s.envelopeFinish();
+      });
+    }
+    for (const method of ['normal_reference', 'likelihood_cv', 'diggle_mse']) {
+      attempt(`surface ${method}`, () => s.intensitySurface({ method, cells: 16, candidates: 5 }));
+    }
+    attempt('surface fixed 1 cm', () => s.intensitySurface({ method: 'fixed', fixed_m: 0.01, cells: 16 }));
+    attempt('dbscan', () => s.dbscan({ eps_m: 50, min_samples: 2 }));
+    attempt('kDistance', () => s.kDistance(2));
+    attempt('scan', () => {
+      const st = s.scanStart({ n_sim: 9, seed: 1, cells_long_side: 8 });
+      s.scanStep(st.total);
+      return s.scanFinish();
+    });
+    attempt('maskDonut', () => s.maskDonut({ r_min_m: 50, r_max_m: 100, seed: 1 }));
+    attempt('maskingCost', () => s.maskingCost({ grid_cells: 16 }));
+    attempt('aggregate', () => s.aggregate({ cell_size_m: 250 }));
+    attempt('exportPreview', () => s.exportPreview('masked_points', {}));
+    assert.ok(Object.keys(results).length >= 8, `${name}: ${Object.keys(results).join(', ')}`);
+    // Envelope curves are documented as NaN where undefined (the result
+    // type: "NaN (null in JSON) where undefined"), e.g. g at r = 0; every
+    // other number, envelope scalars included, must be finite.
+    const documented = /^\.envelope [a-z_]+\.[a-z_]+\[\d+\]$/;
+    const bad = nonFinite(results).filter((p) => !documented.test(p.split(' = ')[0]));
+    assert.deepEqual(bad, [], `${name}: non-finite values`);
+  }
+});

@@ -427,9 +427,16 @@ export function mountSharing(C) {
     const t = r.table;
     const shown = t.cells.filter((c) => !c.suppressed && c.count > 0).length;
     const suppressed = t.cells.filter((c) => c.suppressed).length;
-    const audit = t.audit.safe
-      ? `no hidden count can be recovered from the published totals (single totals, linear combinations, bounds${t.audit.exact ? ', exhaustive whole-number search' : '; exhaustive search skipped: table too large'})`
-      : 'a hidden count may still be recoverable: do not publish this table';
+    const sh = t.shown;
+    const pct = (v) => (v === null || v === undefined ? 'none' : `${Math.round(100 * v)}%`);
+    // The audit says what is shown as well as what is hidden: a table that
+    // hides everything is safe but useless, and says so.
+    const audit = !t.audit.safe
+      ? 'a hidden count may still be recoverable: do not publish this table'
+      : sh.nothing_shown
+        ? 'nothing is shown: no hidden count can be recovered, but this table tells nothing about where the events are'
+        : `no hidden count can be recovered from the published totals (single totals, linear combinations, bounds${t.audit.exact ? ', exhaustive whole-number search' : '; exhaustive search skipped: table too large'})`;
+    const auditClass = !t.audit.safe || sh.nothing_shown ? 'bad' : sh.mostly_hidden ? 'warn-text' : 'ok';
     const grand = t.lines.find((l) => l.kind === 'grand');
     const dl = el('dl', { class: 'figures', id: 'share-agg-figures' },
       el('dt', null, 'Events counted'), el('dd', null, fmt(r.events_counted)),
@@ -438,10 +445,16 @@ export function mountSharing(C) {
       el('dt', null, 'Counts hidden'), el('dd', null, r.counts_hidden_to > 0 ? `1 to ${fmt(r.counts_hidden_to)} (${r.threshold_note})` : 'none'),
       el('dt', null, 'Totals withheld'), el('dd', null, fmt(t.totals_withheld)),
       el('dt', null, 'Grand total shown'), el('dd', null, grand && grand.total !== null ? fmt(grand.total) : 'withheld'),
-      el('dt', null, 'Audit'), el('dd', { 'data-key': 'audit', class: t.audit.safe ? 'ok' : 'bad' }, audit),
+      el('dt', null, 'Shown'), el('dd', { 'data-key': 'shown-share' },
+        `${fmt(sh.cells_with_events_shown)} of ${fmt(sh.cells_with_events)} areas with events (${pct(sh.share_of_cells_with_events_shown)}), holding ${fmt(sh.events_in_shown_cells)} of ${fmt(sh.events_in_cells)} events (${pct(sh.share_of_events_shown)})`),
+      el('dt', null, 'Audit'), el('dd', { 'data-key': 'audit', class: auditClass }, audit),
       el('dt', null, 'Rates'), el('dd', null, r.population_source ? `per ${fmt(t.params.rate_per)} of the population (${r.population_source}); not shown for hidden counts or a population under ${fmt(t.params.rate_min_population)}; flagged unreliable below a count of ${fmt(t.params.rate_unreliable_below)}` : 'no population loaded'));
+    // A table that hides most of what it counts: the warning goes first,
+    // above the figures, where it cannot be missed.
+    const [first, ...rest] = t.warnings || [];
+    if (sh.mostly_hidden && first) box.append(el('p', { class: 'warn', role: 'alert', id: 'share-agg-hidden-warning' }, first));
     box.append(dl);
-    for (const w of t.warnings || []) box.append(el('p', { class: 'warn' }, w));
+    for (const w of sh.mostly_hidden ? rest : t.warnings || []) box.append(el('p', { class: 'warn' }, w));
     const rows = t.cells.filter((c) => c.suppressed || c.count > 0 || t.layout.layout === 'zones');
     const headers = ['Area', 'Count'];
     if (r.population_source) headers.push('Population', 'Rate');
@@ -561,7 +574,10 @@ export function mountSharing(C) {
     ];
     if (p.rows !== null && p.rows !== undefined && what !== 'report') items.push(['Rows / features', fmt(p.rows)]);
     if (p.metadata_keys && p.metadata_keys.length) items.push(['Written at the top', p.metadata_keys.join(', ')]);
-    items.push(['Original coordinates', unmasked ? 'YES: the original locations, labelled "unmasked, internal use only"' : 'none']);
+    const atOriginal = p.points_at_original_location || 0;
+    items.push(['Original coordinates', atOriginal > 0
+      ? `YES: ${fmt(atOriginal)} of ${fmt(p.rows)} masked points are written at their original location at this precision (compared as written); the file is labelled "unmasked, internal use only". Mask with a larger shift or write fewer decimals to share it.`
+      : unmasked ? 'YES: the original locations, labelled "unmasked, internal use only"' : 'none (each written coordinate compared with its original)']);
     if (what === 'masked_points' || what === 'report') items.push(['Points left out (could not be masked)', fmt(p.points_left_out)]);
     if (what !== 'unmasked_points') items.push(['Masking seed', 'not written (with it the shifts could be undone)']);
     box.replaceChildren(...[
@@ -591,7 +607,7 @@ export function mountSharing(C) {
         await saveMapPng();
       } else {
         const o = exportOptions(format);
-        if (what === 'unmasked_points') {
+        if (what === 'unmasked_points' || pend.preview.contains_original_coordinates) {
           if (!$('share-confirm-unmasked') || !$('share-confirm-unmasked').checked) return;
           o.confirm_unmasked = true;
         }
