@@ -62,6 +62,9 @@ export interface StudyReport {
   events_rejected: number;
   controls_rows_read: number;
   controls_rejected: number;
+  /** Events kept without a usable time / weight (left out of the analyses that need it). */
+  events_without_time: number;
+  events_without_weight: number;
 }
 
 /** The format a file was read as. */
@@ -128,8 +131,42 @@ export interface LoadReport {
   by_reason: ReasonCount[];
   categories: string[];
   time_has_clock: boolean;
+  /** The text encoding the file was read with, and its name for people. */
+  encoding: TextEncoding;
+  encoding_name: string;
+  /** How dates were read, if there is a time column. */
+  date_order: DateOrderReport | null;
+  /** True when the dates cannot tell day/month from month/day (the page asks). */
+  date_order_ambiguous: boolean;
+  /** Rows kept with an optional value (time, weight) left out: the first 200, and how many. */
+  incomplete: RejectionRow[];
+  incomplete_count: number;
+  /** Rejected rows as a share of the rows read; many_rejected above 10 %. */
+  rejected_share: number;
+  many_rejected: boolean;
+  many_rejected_text: string | null;
   study: StudyReport | null;
   study_error: ErrorSummary | null;
+}
+
+/** The text encoding a file was read with. */
+export type TextEncoding = 'utf8' | 'utf8_bom' | 'utf16_le' | 'utf16_be' | 'windows1252';
+
+/** The date order used for a layer and why. */
+export interface DateOrderReport {
+  used: 'day_month_year' | 'month_day_year' | 'year_month_day';
+  source: 'given' | 'detected' | 'ambiguous' | 'contradictory' | 'not_needed';
+  ambiguous: boolean;
+  text: string;
+  example: DateOrderExample | null;
+}
+
+/** A date shown both ways, for the page's question. */
+export interface DateOrderExample {
+  row: number;
+  value: string;
+  day_month_year: string;
+  month_day_year: string;
 }
 
 /** One rejected row (row 1 is a CSV header; GeoJSON rows are feature numbers). */
