@@ -98,6 +98,12 @@ run_tests() {
   node --test tests/node/
   step "browser end-to-end tests (headless chromium, file://)"
   node --test --test-concurrency=1 tests/e2e/
+  step "fuzzing smoke (readers and study-area builder, ${FUZZ_SECONDS:-20} s each)"
+  if rustup toolchain list | grep -q '^nightly'; then
+    tools/fuzz.sh "${FUZZ_SECONDS:-20}"
+  else
+    echo "  skipped: no nightly toolchain on this machine (tools/fuzz.sh needs it)"
+  fi
   step "all tests passed"
 }
 
