@@ -7,7 +7,9 @@
 # libFuzzer through cargo-fuzz on the nightly toolchain, starting from the
 # committed seeds in fuzz/seeds/<target>/; new inputs go to
 # fuzz/corpus/<target>/ (not committed), a crash or hang to
-# fuzz/artifacts/<target>/. Exits non-zero on the first finding.
+# fuzz/artifacts/<target>/. Exits 1 on the first finding (or when a target
+# does not build), 2 when fuzzing cannot run on this machine (no nightly
+# toolchain, cargo-fuzz not installable).
 # Targets: read_points (CSV/TSV/GeoJSON events), read_area (GeoJSON study
 # areas), parse_time (dates and date-times), study_area (Window from
 # arbitrary rings).
@@ -24,7 +26,10 @@ if ! rustup toolchain list | grep -q '^nightly'; then
 fi
 if ! cargo +nightly fuzz --version >/dev/null 2>&1; then
   echo "fuzz: installing cargo-fuzz (once)"
-  cargo install --locked cargo-fuzz || cargo install cargo-fuzz
+  if ! { cargo install --locked cargo-fuzz || cargo install cargo-fuzz; }; then
+    echo "fuzz: cargo-fuzz could not be installed here" >&2
+    exit 2
+  fi
 fi
 for t in "${targets[@]}"; do
   mkdir -p "fuzz/corpus/$t"

@@ -8,7 +8,7 @@ use libfuzzer_sys::fuzz_target;
 fuzz_target!(|data: &[u8]| {
     for order in [DateOrder::DayMonthYear, DateOrder::MonthDayYear, DateOrder::YearMonthDay] {
         let opts = ReadOptions {
-            date_order: order,
+            date_order: Some(order),
             ..Default::default()
         };
         if let Ok(layer) = read_points(data, &opts) {
