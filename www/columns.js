@@ -38,6 +38,7 @@ function renderDateOrder(report, given) {
   const answer = (id, order, label, iso) => {
     const b = $(id);
     b.textContent = `${label}: ${ex.value} is ${iso}`;
+    b.removeAttribute('aria-label'); // the text names it now
     b.onclick = () => {
       $('map-date').value = order;
       $('map-date').dispatchEvent(new Event('change'));

@@ -22,6 +22,7 @@ pub mod columns;
 pub mod csv;
 pub mod geojson;
 pub mod layer;
+pub mod report;
 pub mod text;
 pub mod time;
 pub mod zones;

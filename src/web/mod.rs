@@ -18,7 +18,8 @@ mod hotspots;
 mod sharing;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};
-use crate::input::{self, AreaOptions, CoordKind, RawArea, RawLayer, ReadOptions, Rejection};
+use crate::input::report::RejectionRow;
+use crate::input::{self, AreaOptions, RawArea, RawLayer, ReadOptions, Rejection};
 use crate::params;
 use crate::study::{AreaFallback, Study};
 use crate::summary;
@@ -319,54 +320,6 @@ fn set(obj: &Object, key: &str, value: &JsValue) -> Result<(), JsValue> {
     Reflect::set(obj, &JsValue::from_str(key), value).map(|_| ())
 }
 
-#[derive(Serialize)]
-struct RejectionRow<'a> {
-    row: u64,
-    column: Option<&'a str>,
-    reason: &'a input::RejectReason,
-    reason_text: &'static str,
-    value: &'a str,
-}
-
-#[derive(Serialize)]
-struct ErrorSummary {
-    code: String,
-    message: String,
-}
-
-#[derive(Serialize)]
-struct LoadReport<'a> {
-    layer: &'a str,
-    format: Option<&'a input::SourceFormat>,
-    columns: &'a [String],
-    mapping: Option<&'a input::ResolvedMapping>,
-    coords: CoordKind,
-    rows_read: u64,
-    accepted: usize,
-    rejected: usize,
-    by_reason: Vec<input::ReasonCount>,
-    categories: &'a [String],
-    time_has_clock: bool,
-    /// The text encoding used (`utf8`, `utf8_bom`, `utf16_le`, `utf16_be`,
-    /// `windows1252`) and its name for people.
-    encoding: input::text::Encoding,
-    encoding_name: &'static str,
-    /// How dates were read (order, why), if there is a time column.
-    date_order: Option<&'a input::time::DateOrderReport>,
-    /// True when the data cannot tell day/month from month/day: the page asks.
-    date_order_ambiguous: bool,
-    /// Rows kept with an optional value left out (first 200), and how many.
-    incomplete: Vec<RejectionRow<'a>>,
-    incomplete_count: usize,
-    /// Rejected rows as a share of the rows read, and whether it is above
-    /// `input::MANY_REJECTED_SHARE` (the page then shows a banner).
-    rejected_share: f64,
-    many_rejected: bool,
-    many_rejected_text: Option<String>,
-    study: Option<crate::study::StudyReport>,
-    study_error: Option<ErrorSummary>,
-}
-
 /// Everything the user has loaded, parsed once and kept in the worker.
 #[wasm_bindgen]
 pub struct Session {
@@ -467,7 +420,7 @@ impl Session {
                 .rejections
                 .iter()
                 .take(200)
-                .map(rejection_row)
+                .map(RejectionRow::from)
                 .collect();
             if let Ok(v) = to_js(&rows) {
                 let _ = set(obj, "rejections", &v);
@@ -481,76 +434,11 @@ impl Session {
     }
 
     fn report(&self, which: &str, layer: &RawLayer) -> Result<JsValue, JsValue> {
-        let (rows_read, rejected) = match (&self.study, which) {
-            (Some(s), "events") => (s.events_rows_read, s.event_rejections.len()),
-            (Some(s), "controls") => (s.controls_rows_read, s.control_rejections.len()),
-            _ => (layer.rows_read, layer.rejections.len()),
-        };
-        let accepted = match (&self.study, which) {
-            (Some(s), "events") => s.events.len(),
-            (Some(s), "controls") => s.controls.as_ref().map_or(layer.len(), |c| c.len()),
-            _ => layer.len(),
-        };
-        let rejections: &[Rejection] = match (&self.study, which) {
-            (Some(s), "events") => &s.event_rejections,
-            (Some(s), "controls") => &s.control_rejections,
-            _ => &layer.rejections,
-        };
-        let rejected_share = if rows_read > 0 {
-            rejected as f64 / rows_read as f64
-        } else {
-            0.0
-        };
-        let many_rejected = rejected_share > input::MANY_REJECTED_SHARE;
-        let rep = LoadReport {
-            layer: which,
-            format: Some(&layer.format),
-            columns: &layer.columns,
-            mapping: Some(&layer.mapping),
-            coords: layer.coords,
-            rows_read,
-            accepted,
-            rejected,
-            by_reason: input::count_by_reason(rejections),
-            categories: &layer.category_names,
-            time_has_clock: layer.time_has_clock,
-            encoding: layer.encoding,
-            encoding_name: layer.encoding.name(),
-            date_order: layer.date_order.as_ref(),
-            date_order_ambiguous: layer.date_order.as_ref().is_some_and(|d| d.ambiguous),
-            incomplete: layer
-                .incomplete
-                .iter()
-                .take(200)
-                .map(rejection_row)
-                .collect(),
-            incomplete_count: layer.incomplete.len(),
-            rejected_share,
-            many_rejected,
-            many_rejected_text: many_rejected.then(|| {
-                format!(
-                    "{} of {} rows ({:.0} %) could not be used. With this many rows left out, \
-                     the points left may not stand for what was recorded: check the rows not \
-                     used (Data quality) before reading any result.",
-                    rejected,
-                    rows_read,
-                    rejected_share * 100.0
-                )
-            }),
-            study: self.study.as_ref().map(Study::report),
-            study_error: None,
-        };
-        to_js(&rep)
-    }
-}
-
-fn rejection_row(r: &Rejection) -> RejectionRow<'_> {
-    RejectionRow {
-        row: r.row,
-        column: r.column.as_deref(),
-        reason: &r.reason,
-        reason_text: r.reason.describe(),
-        value: &r.value,
+        to_js(&input::report::load_report(
+            which,
+            layer,
+            self.study.as_ref(),
+        ))
     }
 }
 
@@ -808,7 +696,7 @@ impl Session {
             .iter()
             .skip(offset)
             .take(limit.min(10_000))
-            .map(rejection_row)
+            .map(RejectionRow::from)
             .collect();
         to_js(&Page {
             total: list.len(),

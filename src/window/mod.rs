@@ -196,6 +196,12 @@ fn seg_dist2(x: f64, y: f64, a: [f64; 2], b: [f64; 2]) -> f64 {
 /// million corners).
 pub const MAX_CORNERS: usize = 5_000_000;
 
+/// The largest planar coordinate a study area may have, metres (10⁹ m, 25
+/// times the Earth's circumference: any real projected coordinate is far
+/// inside it). Larger values are typing or unit errors, and would overflow
+/// the edge grid's cell counts.
+pub const MAX_COORD_M: f64 = 1e9;
+
 /// Cleans one ring: finite check, consecutive duplicates (and the closing
 /// vertex) dropped, at least 3 distinct vertices. Returns the open ring and
 /// its doubled signed area (possibly zero: checked later, after crossings,
@@ -209,6 +215,16 @@ fn clean_ring(ring: &[[f64; 2]], what: &str) -> Result<(Vec<[f64; 2]>, f64), Inp
                 k + 1,
                 p[0],
                 p[1]
+            )));
+        }
+        if p[0].abs() > MAX_COORD_M || p[1].abs() > MAX_COORD_M {
+            return Err(bad(format!(
+                "{what}, corner {}: coordinate ({:e}, {:e}) is farther than {:e} m from the \
+                 origin, which no place on Earth is in any map projection",
+                k + 1,
+                p[0],
+                p[1],
+                MAX_COORD_M
             )));
         }
         if out.last() != Some(p) {
@@ -1233,5 +1249,23 @@ pub(crate) mod tests {
             let y = -1.0 + 12.0 * rng.random::<f64>();
             assert_eq!(w.contains(x, y), scan_contains(&w, x, y), "({x}, {y})");
         }
+    }
+
+    /// Found by fuzzing (fuzz/fuzz_targets/study_area.rs): a ring reaching
+    /// −1.5e308 made the edge grid's cell count overflow (a panic, which in
+    /// the page traps the engine). Now refused with a message.
+    #[test]
+    fn absurd_coordinates_are_refused_not_a_panic() {
+        let ring = vec![
+            [2.7813421638307e-310, 1.3610613628e-312],
+            [-1.5280389948396637e308, -5.78078893066056e303],
+            [1.7957041440046263e-307, 7.233271810412616e-304],
+        ];
+        let e = Window::from_polygons(vec![vec![ring]], WindowOrigin::File).unwrap_err();
+        assert!(e.to_string().contains("farther than"), "{e}");
+        let big = vec![[0.0, 0.0], [2e9, 0.0], [0.0, 2e9]];
+        assert!(Window::from_polygons(vec![vec![big]], WindowOrigin::File).is_err());
+        let fine = vec![[0.0, 0.0], [4e7, 0.0], [0.0, 4e7]];
+        assert!(Window::from_polygons(vec![vec![fine]], WindowOrigin::File).is_ok());
     }
 }
