@@ -98,6 +98,14 @@ run_tests() {
   node --test tests/node/
   step "browser end-to-end tests (headless chromium, file://)"
   node --test --test-concurrency=1 tests/e2e/
+  step "fuzzing smoke (readers and study-area builder, ${FUZZ_SECONDS:-20} s each)"
+  fuzz_status=0
+  tools/fuzz.sh "${FUZZ_SECONDS:-20}" || fuzz_status=$?
+  if [ "$fuzz_status" -eq 2 ]; then
+    echo "  skipped: fuzzing cannot run on this machine (nightly toolchain or cargo-fuzz missing)"
+  elif [ "$fuzz_status" -ne 0 ]; then
+    exit "$fuzz_status"
+  fi
   step "all tests passed"
 }
 
