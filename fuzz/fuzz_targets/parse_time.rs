@@ -9,7 +9,11 @@ fuzz_target!(|data: &[u8]| {
     let Ok(text) = std::str::from_utf8(data) else {
         return;
     };
-    for order in [DateOrder::DayMonthYear, DateOrder::MonthDayYear, DateOrder::YearMonthDay] {
+    for order in [
+        DateOrder::DayMonthYear,
+        DateOrder::MonthDayYear,
+        DateOrder::YearMonthDay,
+    ] {
         if let Some(t) = parse_time(text, order) {
             assert!(format!("{t:?}").len() > 0);
         }

@@ -6,7 +6,11 @@ use cloister::input::{read_points, DateOrder, ReadOptions};
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
-    for order in [DateOrder::DayMonthYear, DateOrder::MonthDayYear, DateOrder::YearMonthDay] {
+    for order in [
+        DateOrder::DayMonthYear,
+        DateOrder::MonthDayYear,
+        DateOrder::YearMonthDay,
+    ] {
         let opts = ReadOptions {
             date_order: Some(order),
             ..Default::default()
