@@ -591,6 +591,34 @@ pub fn decode<P: Params>(
                     m.insert(k.clone(), v.clone());
                 }
                 if let Err(e1) = serde_json::from_value::<P>(one) {
+                    // A number outside what the field's type holds (a
+                    // negative or huge count, a fraction for a whole
+                    // number): say the field's range, as validation does.
+                    if let (Some(f), Some(x)) =
+                        (fields.iter().find(|f| f.name == k.as_str()), v.as_f64())
+                    {
+                        if matches!(f.kind, Kind::Integer | Kind::Number)
+                            && (f.min.is_some() || f.max.is_some())
+                        {
+                            // A fraction for a whole number is of the wrong
+                            // kind; a whole number the type cannot hold is out
+                            // of range.
+                            let code = if x.fract() == 0.0 {
+                                "bad_parameter"
+                            } else {
+                                "bad_options"
+                            };
+                            return Err((
+                                code,
+                                format!(
+                                    "{}: {k}: must be {} (got {})",
+                                    P::NAME,
+                                    f.range_text(),
+                                    num(x)
+                                ),
+                            ));
+                        }
+                    }
                     let mut words = plain_words(&e1.to_string());
                     // "one of the allowed kinds" alone does not say which:
                     // add the option's own description.
@@ -650,6 +678,25 @@ mod tests {
         assert_eq!(edit_distance("kernal", "kernel"), 1);
         assert_eq!(edit_distance("", "abc"), 3);
         assert_eq!(edit_distance("same", "same"), 0);
+    }
+
+    #[test]
+    fn a_number_the_type_cannot_hold_gets_the_range() {
+        // Before: "invalid value: integer \"-1\", expected a whole number, 0 or more".
+        for (bad, code) in [
+            (json!(-1), "bad_parameter"),
+            (json!(4294967296u64), "bad_parameter"),
+            (json!(0), "bad_parameter"),
+            (json!(1.5), "bad_options"),
+        ] {
+            let e = decode::<KDistanceParams>(json!({ "min_samples": bad }), None).unwrap_err();
+            assert_eq!(e.0, code, "{}", e.1);
+            assert!(
+                e.1.contains("min_samples: must be a whole number from 2 to 1000"),
+                "{}",
+                e.1
+            );
+        }
     }
 
     #[test]
@@ -843,7 +890,11 @@ mod tests {
         );
         let (code, msg) = decode::<ClarkEvansParams>(json!({"n_sim": 2.5}), None).unwrap_err();
         assert_eq!(code, "bad_options");
-        assert!(msg.contains("\"n_sim\"") && !msg.contains("usize"), "{msg}");
+        assert!(
+            msg.contains("n_sim: must be a whole number from 0 to 9999 (got 2.5)")
+                && !msg.contains("usize"),
+            "{msg}"
+        );
         let (code, msg) = decode::<ClarkEvansParams>(json!({"n_sim": 10000}), None).unwrap_err();
         assert_eq!(code, "bad_parameter");
         assert!(msg.contains("n_sim") && msg.contains("10000"), "{msg}");

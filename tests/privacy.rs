@@ -6,7 +6,7 @@
 use cloister::privacy::aggregate::{aggregate_grid, AggregateParams};
 use cloister::privacy::donut::{design_cdf, design_mean, design_median, ks_statistic};
 use cloister::privacy::export::{
-    export, what_leaves, CoordinateOutput, ExportContent, ExportOptions,
+    export, what_leaves, CoordinateOutput, CsvNotes, ExportContent, ExportOptions,
 };
 use cloister::privacy::kanon::r_min_for_k;
 use cloister::privacy::suppress::{audit, audit_view, suppress, SuppressionParams};
@@ -672,6 +672,7 @@ fn exports_contain_no_original_coordinate() {
                 decimals: Some(decimals as u32),
                 created: "2030-01-02".into(),
                 confirm_unmasked: false,
+                csv_notes: CsvNotes::LastColumn,
             };
             for content in [
                 ExportContent::MaskedPoints {
@@ -746,11 +747,21 @@ fn what_leaves_matches_the_file() {
         None,
     )
     .unwrap();
-    let data: Vec<&str> = f.text.lines().filter(|l| !l.starts_with('#')).collect();
+    // The header is the first line (a spreadsheet shows the data as a
+    // table), the notes are the last column, every key is in it.
+    let data: Vec<&str> = f.text.lines().collect();
     assert_eq!(data[0].split(',').collect::<Vec<_>>(), f.preview.fields);
+    assert_eq!(f.preview.fields.last().unwrap(), "about_this_file");
     assert_eq!(data.len() - 1, f.preview.rows);
+    let notes: Vec<String> = data[1..]
+        .iter()
+        .map(|l| csv_fields(l).pop().unwrap())
+        .collect();
     for k in &f.preview.metadata_keys {
-        assert!(f.text.contains(&format!("# {k}: ")), "{k}");
+        assert!(
+            notes.iter().any(|n| n.starts_with(&format!("{k}: "))),
+            "{k}"
+        );
     }
     assert!(!f.preview.contains_original_coordinates && f.preview.label.is_none());
     assert_eq!(f.preview.points_left_out, m.unplaced.len());
@@ -785,7 +796,7 @@ fn what_leaves_matches_the_file() {
     let agg = aggregate_grid(&x, &y, &area, &[], None, &AggregateParams::default()).unwrap();
     let t = suppress(&agg, &SuppressionParams::default());
     let f = export(&ExportContent::Table(&t), &opts, None).unwrap();
-    let data: Vec<&str> = f.text.lines().filter(|l| !l.starts_with('#')).collect();
+    let data: Vec<&str> = f.text.lines().collect();
     assert_eq!(data.len() - 1, f.preview.rows);
     assert_eq!(data[0].split(',').collect::<Vec<_>>(), f.preview.fields);
     let g = export(
@@ -1222,4 +1233,121 @@ fn a_table_that_shows_nothing_says_it_plainly() {
         !j.contains("NaN") && j.contains("\"share_of_events_shown\":null"),
         "{j}"
     );
+}
+
+/// Parses one CSV line with quoted fields (RFC 4180 quoting), for the
+/// checks below: an independent reader, not the writer's own code.
+fn csv_fields(line: &str) -> Vec<String> {
+    let mut out = vec![String::new()];
+    let mut quoted = false;
+    let mut chars = line.chars().peekable();
+    while let Some(c) = chars.next() {
+        match (c, quoted) {
+            ('"', true) if chars.peek() == Some(&'"') => {
+                chars.next();
+                out.last_mut().unwrap().push('"');
+            }
+            ('"', _) => quoted = !quoted,
+            (',', false) => out.push(String::new()),
+            (c, _) => out.last_mut().unwrap().push(c),
+        }
+    }
+    out
+}
+
+#[test]
+fn csv_notes_go_in_a_last_column_or_in_top_lines() {
+    // Before: every CSV began with "# key: value" lines, which spreadsheets
+    // show as data rows above the header.
+    let (area, x, y) = holed_area(200, 3);
+    let m = donut_mask(&x, &y, &area, &DonutParams::default()).unwrap();
+    let content = ExportContent::MaskedPoints {
+        masked: &m,
+        original_x: &x,
+        original_y: &y,
+    };
+    let f = export(&content, &ExportOptions::default(), None).unwrap();
+    let lines: Vec<&str> = f.text.lines().collect();
+    assert!(!f.text.starts_with('#'), "{}", &f.text[..60]);
+    assert_eq!(lines[0], "x_m,y_m,about_this_file");
+    // Rectangular: every row has the header's three fields.
+    let rows: Vec<Vec<String>> = lines[1..].iter().map(|l| csv_fields(l)).collect();
+    assert!(
+        rows.iter().all(|r| r.len() == 3),
+        "a row is not 3 fields wide"
+    );
+    // One note per row, in the order of the keys, then empty.
+    let keys = &f.preview.metadata_keys;
+    assert!(keys.len() < rows.len());
+    for (i, k) in keys.iter().enumerate() {
+        assert!(
+            rows[i][2].starts_with(&format!("{k}: ")),
+            "row {i}: {:?}",
+            rows[i]
+        );
+    }
+    assert!(rows[keys.len()..].iter().all(|r| r[2].is_empty()));
+    assert_eq!(rows[0][2], "tool: Cloister");
+    // The coordinates are the same as in the top-lines form, row by row.
+    let top = export(
+        &content,
+        &ExportOptions {
+            csv_notes: CsvNotes::TopLines,
+            ..Default::default()
+        },
+        None,
+    )
+    .unwrap();
+    assert!(
+        top.text.starts_with("# tool: Cloister\n"),
+        "{}",
+        &top.text[..40]
+    );
+    let top_rows: Vec<&str> = top.text.lines().filter(|l| !l.starts_with("# ")).collect();
+    assert_eq!(top_rows[0], "x_m,y_m");
+    assert_eq!(top_rows.len(), lines.len());
+    for (a, b) in top_rows[1..].iter().zip(&rows) {
+        assert_eq!(*a, format!("{},{}", b[0], b[1]));
+    }
+    for k in keys {
+        assert!(
+            top.text.lines().any(|l| l.starts_with(&format!("# {k}: "))),
+            "{k}"
+        );
+    }
+    assert_eq!(top.preview.fields, ["x_m", "y_m"]);
+    // The unmasked export: the label is the first note, in capitals.
+    let u = export(
+        &ExportContent::UnmaskedInternal { x: &x, y: &y },
+        &ExportOptions::default(),
+        None,
+    )
+    .unwrap();
+    let first = csv_fields(u.text.lines().nth(1).unwrap());
+    assert_eq!(first[2], "UNMASKED, INTERNAL USE ONLY");
+    // Fewer rows than notes: the rest joined in the last row, nothing lost.
+    let few = donut_mask(&x[..2], &y[..2], &area, &DonutParams::default()).unwrap();
+    let f2 = export(
+        &ExportContent::MaskedPoints {
+            masked: &few,
+            original_x: &x[..2],
+            original_y: &y[..2],
+        },
+        &ExportOptions::default(),
+        None,
+    )
+    .unwrap();
+    let r2: Vec<Vec<String>> = f2.text.lines().skip(1).map(csv_fields).collect();
+    assert_eq!(r2.len(), few.x.len());
+    let all_notes: String = r2
+        .iter()
+        .map(|r| r[2].clone())
+        .collect::<Vec<_>>()
+        .join(" | ");
+    for k in &f2.preview.metadata_keys {
+        assert!(
+            all_notes.contains(&format!("{k}: ")),
+            "{k} lost: {all_notes}"
+        );
+    }
 }

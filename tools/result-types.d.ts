@@ -801,6 +801,8 @@ export interface ExportPreview {
   fields: string[];
   rows: number;
   metadata_keys: string[];
+  /** Where the notes about the file (metadata_keys) are written, in words. */
+  notes_at: string;
   contains_original_coordinates: boolean;
   /** Masked points written at their original location at the file's precision. */
   points_at_original_location: number;
@@ -816,6 +818,7 @@ export interface ReportPreview {
   fields: string[];
   rows: number;
   metadata_keys: string[];
+  notes_at: string;
   contains_original_coordinates: boolean;
   label: string | null;
   points_left_out: number;

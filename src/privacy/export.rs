@@ -15,7 +15,13 @@
 //! masking parameters (not the seeds)"): with the seed and this tool anyone
 //! could replay the random displacements and subtract them.
 //!
-//! CSV: metadata lines start with `# `, then a header row, then data rows.
+//! CSV: the header row comes first, so that a spreadsheet shows the data as
+//! a table; the metadata goes into a last column `about_this_file`, one
+//! `key: value` note per row from the first data row on (the unmasked label
+//! first), the rest joined with ` | ` in the last row when there are more
+//! notes than rows ([`CsvNotes::LastColumn`], the default). For scripts that
+//! skip comment lines, [`CsvNotes::TopLines`] writes them instead as lines
+//! starting with `# ` above the header.
 //! GeoJSON: a FeatureCollection with foreign members `metadata` (and
 //! `totals`, `outside` for tables), allowed by RFC 7946 §6.1.
 //!
@@ -43,6 +49,20 @@ pub enum ExportFormat {
     GeoJson,
 }
 
+/// Where a CSV file's metadata goes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum CsvNotes {
+    /// A last column `about_this_file`, one note per row (spreadsheets).
+    #[default]
+    LastColumn,
+    /// Lines starting with `# ` above the header (scripts that skip comments).
+    TopLines,
+}
+
+/// Name of the last CSV column that holds the metadata notes.
+pub const NOTES_COLUMN: &str = "about_this_file";
+
 /// Coordinate form of the output.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
@@ -68,6 +88,8 @@ pub struct ExportOptions {
     /// their original location; the file is then labelled
     /// "unmasked, internal use only" (see [`what_leaves`]).
     pub confirm_unmasked: bool,
+    /// Where a CSV file's metadata goes.
+    pub csv_notes: CsvNotes,
 }
 
 impl Default for ExportOptions {
@@ -78,6 +100,7 @@ impl Default for ExportOptions {
             decimals: None,
             created: String::new(),
             confirm_unmasked: false,
+            csv_notes: CsvNotes::LastColumn,
         }
     }
 }
@@ -112,6 +135,8 @@ pub struct ExportRequest {
     pub decimals: Option<u32>,
     pub created: Option<String>,
     pub confirm_unmasked: bool,
+    /// CSV only: where the notes about the file go; default `last_column`.
+    pub csv_notes: Option<CsvNotes>,
     /// Report only: a PNG as a data URL, drawn by the page from masked /
     /// aggregated layers.
     pub map_image: Option<String>,
@@ -145,6 +170,14 @@ impl crate::params::Params for ExportRequest {
                 "confirm_unmasked",
                 "needed to export the unmasked points (labelled for internal use only)",
             ),
+            Field::choice(
+                "csv_notes",
+                &["last_column", "top_lines"],
+                "CSV only: where the notes about the file go: a last column about_this_file \
+                 (default; spreadsheets show the data as a table) or lines starting with # above \
+                 the header (for scripts that skip comment lines)",
+            )
+            .optional(),
             Field::text(
                 "map_image",
                 "report only: a PNG data URL of the shared layers",
@@ -211,8 +244,11 @@ pub struct ExportPreview {
     pub fields: Vec<String>,
     /// Data rows (CSV, totals included) or features (GeoJSON).
     pub rows: usize,
-    /// Metadata keys written at the top of the file.
+    /// Metadata keys written into the file (see `notes_at`).
     pub metadata_keys: Vec<String>,
+    /// Where the metadata goes, in words: the CSV's last column, `#` lines
+    /// above the CSV header, or the GeoJSON's `metadata` member.
+    pub notes_at: String,
     /// True for the unmasked export, and for masked points when any of them
     /// is written at its original location at the file's precision
     /// (`points_at_original_location` > 0): computed by writing both
@@ -466,10 +502,20 @@ pub fn what_leaves(
         }
     };
     metadata_keys.push("cautions".into());
-    let fields = match (opts.format, content) {
+    let mut fields = match (opts.format, content) {
         (ExportFormat::GeoJson, ExportContent::Table(_)) => fields,
         (ExportFormat::GeoJson, _) => vec!["geometry (Point)".to_string()],
         _ => fields,
+    };
+    let notes_at = match (opts.format, opts.csv_notes) {
+        (ExportFormat::Csv, CsvNotes::LastColumn) => {
+            fields.push(NOTES_COLUMN.to_string());
+            format!("the last column, {NOTES_COLUMN}, one note per row from the first row on")
+        }
+        (ExportFormat::Csv, CsvNotes::TopLines) => {
+            "lines starting with # above the header".to_string()
+        }
+        (ExportFormat::GeoJson, _) => "the file's metadata member".to_string(),
     };
     let mut cautions = cautions(content);
     if at_original > 0 {
@@ -481,6 +527,7 @@ pub fn what_leaves(
         fields,
         rows,
         metadata_keys,
+        notes_at,
         contains_original_coordinates: original,
         points_at_original_location: at_original,
         label,
@@ -629,31 +676,37 @@ pub fn export(
     };
     let text = match (opts.format, points) {
         (ExportFormat::Csv, pts) => {
-            let mut s = String::new();
+            let mut notes: Vec<String> = Vec::new();
             if unmasked {
-                s.push_str(&format!("# {}\n", UNMASKED_LABEL.to_uppercase()));
+                notes.push(UNMASKED_LABEL.to_uppercase());
             }
-            for (k, v) in &meta {
+            // In the preview's order (tool, version, created, … cautions).
+            for (k, v) in preview
+                .metadata_keys
+                .iter()
+                .filter_map(|k| meta.get(k).map(|v| (k, v)))
+            {
                 let val = match v {
                     Value::String(t) => t.clone(),
                     other => other.to_string(),
                 };
-                s.push_str(&format!("# {k}: {}\n", val.replace('\n', " ")));
+                notes.push(format!("{k}: {}", val.replace(['\n', '\r'], " ")));
             }
+            let mut table = String::new();
             match (pts, content) {
                 (Some(pts), _) => {
-                    s.push_str(&format!("{cx},{cy}\n"));
+                    table.push_str(&format!("{cx},{cy}\n"));
                     for (x, y) in pts {
                         let (a, b) = project(x, y)?;
-                        s.push_str(&format!("{},{}\n", fmt(a, d), fmt(b, d)));
+                        table.push_str(&format!("{},{}\n", fmt(a, d), fmt(b, d)));
                     }
                 }
                 (None, ExportContent::Table(t)) => {
-                    table_csv(&mut s, t, &project, d, cx, cy)?;
+                    table_csv(&mut table, t, &project, d, cx, cy)?;
                 }
                 (None, _) => {}
             }
-            s
+            place_notes(&table, &notes, opts.csv_notes)
         }
         (ExportFormat::GeoJson, pts) => {
             let mut fc = Map::new();
@@ -748,6 +801,52 @@ fn line_kind(k: LineKind) -> &'static str {
         LineKind::Group => "group_total",
         LineKind::Grand => "grand_total",
     }
+}
+
+/// Puts the notes into a CSV `table` (header line first, every line ending
+/// in `\n`) as [`CsvNotes`] says. With [`CsvNotes::LastColumn`] every row
+/// gets one more field: the header `about_this_file`, one note per data row,
+/// the remaining notes joined with ` | ` in the last row, and empty fields
+/// after the notes run out; a table without data rows gets one row of empty
+/// fields holding the notes.
+fn place_notes(table: &str, notes: &[String], place: CsvNotes) -> String {
+    let mut out = String::with_capacity(table.len() + 64 * notes.len() + 32);
+    if place == CsvNotes::TopLines {
+        for n in notes {
+            out.push_str("# ");
+            out.push_str(n);
+            out.push('\n');
+        }
+        out.push_str(table);
+        return out;
+    }
+    let mut lines = table.lines();
+    let header = lines.next().unwrap_or("");
+    let width = header.split(',').count();
+    out.push_str(header);
+    out.push(',');
+    out.push_str(NOTES_COLUMN);
+    out.push('\n');
+    let rows: Vec<&str> = lines.collect();
+    let empty_row = ",".repeat(width.saturating_sub(1));
+    let rows = if rows.is_empty() {
+        vec![empty_row.as_str()]
+    } else {
+        rows
+    };
+    let last = rows.len() - 1;
+    for (i, row) in rows.iter().enumerate() {
+        let note = if i < last {
+            notes.get(i).cloned().unwrap_or_default()
+        } else {
+            notes.get(i..).map(|r| r.join(" | ")).unwrap_or_default()
+        };
+        out.push_str(row);
+        out.push(',');
+        out.push_str(&csv_field(&note));
+        out.push('\n');
+    }
+    out
 }
 
 fn table_csv(

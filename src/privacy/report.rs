@@ -618,6 +618,7 @@ pub struct ReportPreview {
     pub fields: Vec<String>,
     pub rows: usize,
     pub metadata_keys: Vec<String>,
+    pub notes_at: &'static str,
     pub contains_original_coordinates: bool,
     pub label: Option<String>,
     pub points_left_out: usize,
@@ -666,6 +667,7 @@ pub fn report_file(
                 .map(String::from)
                 .chain(st.mask.map(|_| "masking settings (no seed)".to_string()))
                 .collect(),
+            notes_at: "the report's opening lines",
             contains_original_coordinates: false,
             label: None,
             points_left_out: st.mask.map_or(0, |m| m.masked.unplaced.len()),

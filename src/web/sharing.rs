@@ -290,6 +290,7 @@ impl Session {
             decimals: args.decimals,
             created: created_or_now(args.created.clone()),
             confirm_unmasked: args.confirm_unmasked,
+            csv_notes: args.csv_notes.unwrap_or_default(),
         })
     }
 

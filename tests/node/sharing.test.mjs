@@ -439,11 +439,15 @@ test('masked points written at their original location: the preview says so, fro
   assert.equal(e.code, 'confirm_needed', e.message);
   assert.match(e.message, /ORIGINAL location/);
   const f = s.exportFile('masked_points', { ...coarse, confirm_unmasked: true });
-  assert.ok(f.text.startsWith('# UNMASKED, INTERNAL USE ONLY'), f.text.slice(0, 80));
+  // The header first (spreadsheets), the label as the first note in the last column.
+  const [head, first] = f.text.split('\n');
+  assert.equal(head, 'longitude,latitude,about_this_file');
+  assert.ok(first.endsWith(',"UNMASKED, INTERNAL USE ONLY"'), first);
   assert.match(f.file_name, /UNMASKED-internal-only/);
   // Check the text itself: the originals written the same way (the unmasked
   // export at 2 decimals) and the masked rows share at least that many pairs.
-  const rows = (t) => t.split('\n').filter((l) => l && !l.startsWith('#')).slice(1);
+  // Coordinates only (the notes column differs between the two files).
+  const rows = (t) => t.split('\n').filter((l) => l).slice(1).map((l) => l.split(',').slice(0, 2).join(','));
   const orig = new Set(rows(s.exportFile('unmasked_points', { ...coarse, confirm_unmasked: true }).text));
   const same = rows(f.text).filter((r) => orig.has(r)).length;
   assert.ok(same >= p.points_at_original_location, `${same} rows equal an original`);
@@ -456,6 +460,12 @@ test('masked points written at their original location: the preview says so, fro
   const found = [...pairsIn(fine.text)].filter((q) => originals.has(q));
   assert.deepEqual(found, []);
   assert.doesNotMatch(fine.text, /internal use only/);
+  // Notes for scripts: "# " lines above the header, on request only.
+  assert.doesNotMatch(fine.text, /^#/m);
+  const top = s.exportFile('masked_points', { format: 'csv', csv_notes: 'top_lines' });
+  assert.match(top.text, /^# tool: Cloister\n# version: /);
+  assert.match(top.text, /\nlongitude,latitude\n/);
+  assert.match(throws(() => s.exportFile('masked_points', { csv_notes: 'first_lines' })).message, /csv_notes/);
 });
 
 test('counts per area say what they show: 500 m squares with totals on hide most of the demo, and say so first', () => {

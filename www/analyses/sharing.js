@@ -106,6 +106,9 @@ export function mountSharing(C) {
       field('Coordinates in files', el('select', { id: 'share-coords' },
         el('option', { value: 'lon_lat' }, 'longitude / latitude'),
         el('option', { value: 'metres' }, 'planar metres as analysed'))),
+      field('Notes in CSV files', el('select', { id: 'share-notes', title: 'Where a CSV file says what it holds (tool, date, masking settings, cautions)' },
+        el('option', { value: 'last_column' }, 'in a last column (for spreadsheets)'),
+        el('option', { value: 'top_lines' }, 'as # lines above the header (for scripts)'))),
       el('label', { id: 'share-holds-field', hidden: true }, 'Map picture and report show ',
         el('select', { id: 'share-holds' },
           el('option', { value: 'counts' }, 'counts per area'),
@@ -541,6 +544,7 @@ export function mountSharing(C) {
   function exportOptions(format) {
     const o = { created: new Date().toISOString(), coordinates: $('share-coords').value };
     if (format === 'csv' || format === 'geo_json') o.format = format;
+    if (format === 'csv') o.csv_notes = $('share-notes').value;
     if (state.mask && state.table) o.report_holds = $('share-holds').value;
     return o;
   }
@@ -573,7 +577,7 @@ export function mountSharing(C) {
       [what === 'report' ? 'Sections' : what === 'map_png' ? 'Drawn' : 'Fields', (p.fields || []).join(', ')],
     ];
     if (p.rows !== null && p.rows !== undefined && what !== 'report') items.push(['Rows / features', fmt(p.rows)]);
-    if (p.metadata_keys && p.metadata_keys.length) items.push(['Written at the top', p.metadata_keys.join(', ')]);
+    if (p.metadata_keys && p.metadata_keys.length) items.push(['Notes about the file', `${p.metadata_keys.join(', ')}; written in ${p.notes_at || 'the file'}`]);
     const atOriginal = p.points_at_original_location || 0;
     items.push(['Original coordinates', atOriginal > 0
       ? `YES: ${fmt(atOriginal)} of ${fmt(p.rows)} masked points are written at their original location at this precision (compared as written); the file is labelled "unmasked, internal use only". Mask with a larger shift or write fewer decimals to share it.`
