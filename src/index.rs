@@ -578,6 +578,9 @@ impl GridIndex {
             items: Vec::with_capacity(k + 1),
         };
         for l in 0..loc.len() {
+            if l % 2048 == 0 {
+                crate::progress::report(l, loc.len());
+            }
             let m = loc.mult(l);
             let d = if m > k {
                 0.0

@@ -54,6 +54,7 @@ pub mod intensity;
 pub mod params;
 pub mod plot;
 pub mod privacy;
+pub mod progress;
 pub mod projection;
 pub mod rng;
 pub mod scan;

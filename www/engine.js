@@ -37,7 +37,19 @@ function workText() {
   if (!first) return '';
   const secs = Math.round((performance.now() - first.t0) / 1000);
   const what = WORK_NAMES[first.method] || 'working';
-  return `Working: ${what}${secs >= 2 ? ` (${secs} s)` : ''}…`;
+  const pct = first.fraction > 0 ? ` ${Math.floor(first.fraction * 100)} % done` : '';
+  return `Working: ${what}…${pct}${secs >= 2 ? ` (${secs} s)` : ''}`;
+}
+
+/** Shows how far the first outstanding one-step request has got: the bar
+ * turns from a moving stripe into a filling one. */
+function showFraction() {
+  const first = state.pending.values().next().value;
+  const bar = $('progress');
+  const f = first && first.fraction > 0 ? Math.min(1, first.fraction) : null;
+  bar.classList.toggle('known', f !== null);
+  bar.firstElementChild.style.width = f !== null ? `${(f * 100).toFixed(1)}%` : '';
+  if (!$('busy').hidden) $('busy-text').textContent = workText();
 }
 
 let busyTicker = 0;
@@ -182,10 +194,15 @@ function onWorkerMessage(worker, msg) {
   if (!p) return;
   if (msg.progress) {
     if (p.onProgress) p.onProgress(msg.progress);
+    if (typeof msg.progress.fraction === 'number') {
+      p.fraction = msg.progress.fraction;
+      showFraction();
+    }
     return;
   }
   state.pending.delete(msg.id);
   updateProgress();
+  showFraction();
   if (msg.ok) p.resolve(msg.result);
   else {
     if (msg.fatal && p.method !== 'init' && !state.restarting) engineStopped(msg.error && msg.error.message);

@@ -12,6 +12,12 @@ let session = null;
 let memory = null;
 let wasmModule = null; // kept to start helper workers
 let helperUrl = null; // Blob URL of this worker's own source, made here
+let stepId = null; // the request whose one long step is running now
+
+/** Called by the engine during one long step with the fraction done. */
+self.cloisterProgress = (fraction) => {
+  if (stepId !== null) self.postMessage({ id: stepId, progress: { fraction } });
+};
 
 /** Any public Session method may be called by name (analysis modules add
  * their own in src/web/*.rs); the wasm-bindgen internals may not. */
@@ -394,7 +400,14 @@ self.onmessage = (event) => {
       else runJob(id, args[0]);
       return; // answers (progress, then result) are posted by the job itself
     } else if (isSessionMethod(method)) {
-      result = session[method](...args);
+      // Long single steps report the fraction done (see beginProgress).
+      stepId = id;
+      wasm_bindgen.beginProgress();
+      try {
+        result = session[method](...args);
+      } finally {
+        stepId = null;
+      }
       if (result === undefined) result = null;
     } else {
       throw { code: 'unknown_method', message: `Unknown request "${method}".` };

@@ -282,7 +282,11 @@ pub fn dbscan_labels(
     };
     // Core status of each location.
     let mut core = vec![false; nloc];
-    for c in 0..nx * ny {
+    let cells = nx * ny;
+    for c in 0..cells {
+        if c % 1024 == 0 {
+            crate::progress::report_in(0.0, 0.6, c, cells);
+        }
         let own = loc.cell(c);
         for a in own.clone() {
             let mut s = if tight[c] { cell_w[c] } else { 0.0 };
@@ -324,7 +328,10 @@ pub fn dbscan_labels(
         }
     };
     let first_core = |c: usize| loc.cell(c).find(|&l| core[l]);
-    for c in 0..nx * ny {
+    for c in 0..cells {
+        if c % 1024 == 0 {
+            crate::progress::report_in(0.6, 0.9, c, cells);
+        }
         let own = loc.cell(c);
         let Some(first) = first_core(c) else { continue };
         if tight[c] {
@@ -410,7 +417,10 @@ pub fn dbscan_labels(
         }
     }
     // Border locations: the lowest cluster id among core neighbours.
-    for c in 0..nx * ny {
+    for c in 0..cells {
+        if c % 1024 == 0 {
+            crate::progress::report_in(0.9, 1.0, c, cells);
+        }
         for a in loc.cell(c) {
             if core[a] {
                 continue;

@@ -248,7 +248,9 @@ pub fn likelihood_cv(
     // Per candidate: 1/e_h(x_j) (Jones–Diggle) or 1, and the integral term.
     let mut inv_e = vec![vec![1.0; n]; k];
     let mut integral = vec![n as f64; k];
+    use crate::progress::report_in;
     for (c, &h) in hs.iter().enumerate() {
+        report_in(0.0, 0.1, c, k);
         match edge {
             EdgeCorrection::JonesDiggle | EdgeCorrection::None => {
                 let stencil = kernel.stencil(h, cv.cell, cv.max_r());
@@ -294,6 +296,7 @@ pub fn likelihood_cv(
     let mut exact_refine: Vec<(usize, usize)> = Vec::new();
     let inv_a = 1.0 / (cv.cell * cv.cell);
     for c in (0..k).filter(|&c| binned[c]) {
+        report_in(0.1, 0.5, c, k);
         let stencil = kernel.stencil(hs[c], cv.cell, cv.max_r());
         let counts = cv.bin(x, y, |j| inv_e[c][j]);
         let conv = super::fft::convolve(&counts, cv.nx, cv.ny, &stencil);
@@ -332,6 +335,9 @@ pub fn likelihood_cv(
         let cut = kernel.cutoff(hs[c], 6.0);
         let b = GridIndex::with_cell(x, y, cut);
         while q < exact_refine.len() && exact_refine[q].0 == c {
+            if q % 1024 == 0 {
+                report_in(0.5, 0.7, q, exact_refine.len());
+            }
             let i = exact_refine[q].1;
             let mut t = 0.0;
             b.for_each_candidate(x[i], y[i], cut, |j| {
@@ -350,6 +356,9 @@ pub fn likelihood_cv(
         let rmax = exact.iter().map(|&c| cut2[c]).fold(0.0, f64::max).sqrt();
         let b = GridIndex::with_cell(x, y, rmax);
         for i in 0..n {
+            if i % 1024 == 0 {
+                report_in(0.7, 0.95, i, n);
+            }
             b.for_each_candidate(x[i], y[i], rmax, |j| {
                 if j <= i {
                     return;
@@ -549,6 +558,9 @@ pub fn diggle_mse(
     if !exact.is_empty() {
         let b = GridIndex::with_cell(x, y, rmax);
         for i in 0..n {
+            if i % 1024 == 0 {
+                crate::progress::report_in(0.1, 0.95, i, n);
+            }
             b.for_each_candidate(x[i], y[i], rmax, |j| {
                 if j <= i {
                     return;

@@ -451,6 +451,7 @@ fn exact_sum(cv: &Canvas, x: &[f64], y: &[f64], w: &[f64], kernel: Kernel, h: f6
     let b = GridIndex::with_cell(x, y, cut);
     let mut v = vec![0.0; cv.nx * cv.ny];
     for j in 0..cv.ny {
+        crate::progress::report(j, cv.ny);
         for i in 0..cv.nx {
             let k = j * cv.nx + i;
             if !cv.mask[k] {
@@ -497,7 +498,15 @@ pub fn kernel_surface_in(
         }
     }
     let cv = Canvas::new(region, &o.grid)?;
-    let choice = bandwidth::choose(x, y, region, o.kernel, o.edge, &o.bandwidth, &o.grid)?;
+    // Progress: a data-driven bandwidth search is most of the work.
+    let searched = matches!(
+        o.bandwidth.method,
+        BandwidthMethod::LikelihoodCv | BandwidthMethod::DiggleMse
+    );
+    let split = if searched { 0.85 } else { 0.05 };
+    let choice = crate::progress::part(0.0, split, || {
+        bandwidth::choose(x, y, region, o.kernel, o.edge, &o.bandwidth, &o.grid)
+    })?;
     let h = choice.bandwidth_m.ok_or_else(|| {
         bad(
             "bandwidth",
@@ -507,7 +516,9 @@ pub fn kernel_surface_in(
                 .unwrap_or_else(|| "no bandwidth could be chosen".into()),
         )
     })?;
-    let (v, _) = surface_on_canvas(&cv, x, y, weights, o.kernel, h, o.edge, o.evaluation);
+    let (v, _) = crate::progress::part(split, 1.0, || {
+        surface_on_canvas(&cv, x, y, weights, o.kernel, h, o.edge, o.evaluation)
+    });
     let (values, mask) = cv.crop(&v, PER_KM2);
     let (x0, y0, nx, ny) = cv.inner;
     let grid = Grid {

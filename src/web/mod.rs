@@ -33,6 +33,25 @@ pub fn version() -> String {
     crate::VERSION.to_string()
 }
 
+/// Starts reporting the progress of the next call: until the next
+/// `beginProgress`, long single steps (a bandwidth search, a surface,
+/// DBSCAN, nearest-neighbour distances) pass the fraction done (0 to 1, at
+/// most about a hundred times) to `globalThis.cloisterProgress(fraction)`
+/// when the caller has defined that function. The page's worker calls this
+/// before every request; nothing is reported unless it is called.
+#[wasm_bindgen(js_name = beginProgress)]
+pub fn begin_progress() {
+    crate::progress::listen(|f| {
+        let g = js_sys::global();
+        if let Ok(cb) = Reflect::get(&g, &JsValue::from_str("cloisterProgress")) {
+            if let Ok(cb) = cb.dyn_into::<js_sys::Function>() {
+                let _ = cb.call1(&JsValue::NULL, &JsValue::from_f64(f));
+            }
+        }
+    });
+    crate::progress::begin();
+}
+
 fn ser() -> serde_wasm_bindgen::Serializer {
     serde_wasm_bindgen::Serializer::json_compatible()
 }

@@ -87,7 +87,7 @@ async function cancelAndTime(page) {
   }));
 }
 
-test('Cancel stops a long single step (bandwidth cross-validation, 200,000 events) within half a second', async () => {
+test('a long single step (bandwidth cross-validation, 200,000 events) shows the share done, and Cancel stops it within half a second', async () => {
   const { page, log } = await openPage(browser);
   await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: uniformCsv(200000) }));
   assert.equal(await summaryNumber(page, 'n_events'), 200000);
@@ -99,6 +99,11 @@ test('Cancel stops a long single step (bandwidth cross-validation, 200,000 event
   assert.equal(await page.locator('#busy-cancel').isVisible(), true);
   const box = await page.locator('#busy-cancel').boundingBox();
   assert.ok(box && box.y >= 0 && box.y < 80, `Cancel at y = ${box && box.y}`);
+  // One long step says how far it has got: the bar fills, the line gives the share done.
+  await page.waitForSelector('#progress.known', { timeout: 60000 });
+  const first = await page.evaluate(() => parseFloat(document.querySelector('#progress .progress-bar').style.width));
+  await page.waitForFunction((w) => parseFloat(document.querySelector('#progress .progress-bar').style.width) > w, first, { timeout: 60000 });
+  assert.match(await page.textContent('#busy-text'), /computing the surface… \d+ % done/);
   await page.screenshot({ path: join(OUT, 'cancel-busy.png') });
   const ms = await cancelAndTime(page);
   assert.ok(ms < 500, `Cancel took ${ms.toFixed(0)} ms`);
