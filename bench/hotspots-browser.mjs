@@ -8,32 +8,7 @@
 // Data are invented and seeded (planar metres in a 20 km square, 30 % in
 // five Gaussian clumps). Prints JSON lines. Usage: node bench/hotspots-browser.mjs
 import { launch, openPage } from '../tests/e2e/helpers.mjs';
-
-function makeCsv(n, seed) {
-  let s = BigInt(seed);
-  const next = () => {
-    s = (s * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn;
-    return Number(s >> 11n) / 2 ** 53;
-  };
-  const gauss = () => Math.sqrt(-2 * Math.log(1 - next())) * Math.cos(2 * Math.PI * next());
-  const clumps = [[4000, 5000, 300], [15000, 6000, 500], [9000, 14000, 250], [16000, 16000, 700], [5000, 17000, 400]];
-  const parts = ['x,y\n'];
-  for (let i = 0; i < n; i++) {
-    let x, y;
-    do {
-      if (next() < 0.3) {
-        const c = clumps[Math.floor(next() * clumps.length)];
-        x = c[0] + c[2] * gauss();
-        y = c[1] + c[2] * gauss();
-      } else {
-        x = 20000 * next();
-        y = 20000 * next();
-      }
-    } while (!(x >= 0 && x <= 20000 && y >= 0 && y <= 20000));
-    parts.push(`${x.toFixed(2)},${y.toFixed(2)}\n`);
-  }
-  return parts.join('');
-}
+import { makeClumpedCsv as makeCsv } from './events-csv.mjs';
 
 async function load(page, csv) {
   return page.evaluate(async (text) => {

@@ -11,6 +11,7 @@
 //! datasets) so CI stays within a minute or so; `#[ignore]`d heavier versions
 //! run with `cargo test --release --test distance -- --ignored`.
 
+mod common;
 use cloister::distance::edge::{inside_arc_length, isotropic_weight_at, TranslationWeights};
 use cloister::distance::{
     clark_evans, clark_evans_from_mean, distance_functions, monte_carlo_p, quadrat_from_counts,
@@ -29,14 +30,7 @@ fn unit_square() -> Window {
 
 /// Fixture WH (docs/methods.md#fixtures): [0,10]² minus [4,6]².
 fn wh() -> Window {
-    Window::from_polygons(
-        vec![vec![
-            vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
-            vec![[4.0, 4.0], [6.0, 4.0], [6.0, 6.0], [4.0, 6.0]],
-        ]],
-        WindowOrigin::File,
-    )
-    .unwrap()
+    Window::rectangle_with_hole([0.0, 0.0, 10.0, 10.0], [4.0, 4.0, 6.0, 6.0]).unwrap()
 }
 
 /// Fixture F12 (docs/methods.md#fixtures).
@@ -71,18 +65,7 @@ fn f(v: &Value) -> f64 {
 }
 
 fn reference_window(r: &Value) -> Window {
-    let rings: Vec<Vec<[f64; 2]>> = r["polygon"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|ring| {
-            ring.as_array()
-                .unwrap()
-                .iter()
-                .map(|p| [f(&p[0]), f(&p[1])])
-                .collect()
-        })
-        .collect();
+    let rings = common::rings(&r["polygon"]);
     Window::from_polygons(vec![rings], WindowOrigin::File).unwrap()
 }
 

@@ -396,6 +396,15 @@ fn k_distance_chart_thins_long_curves_and_scales() {
     let svg = kdist_svg(&kdist_data(100_000), (640, 320)).unwrap();
     let n = points(tags(&svg, "polyline", &[KCURVE])[0]).len();
     assert!((2000..=2002).contains(&n), "{n} vertices");
+    // Counts along the axis in thousands ("20k"), not six-digit numbers that
+    // run into each other and off the right edge.
+    let t: Vec<String> = texts(&svg).into_iter().map(|t| t.0).collect();
+    assert!(t.iter().any(|x| x == "20k" || x == "40k"), "{t:?}");
+    assert!(
+        !t.iter()
+            .any(|x| x.len() >= 5 && x.chars().all(|c| c.is_ascii_digit())),
+        "{t:?}"
+    );
     let mut two = kdist_data(300);
     two.scale = Some(2.0);
     let svg2 = kdist_svg(&two, (1280, 640)).unwrap();

@@ -3,6 +3,7 @@
 //! committed scripts in tests/reference/ (scipy.stats.kstwo / kstest,
 //! scipy.spatial.cKDTree, scipy.optimize.linprog).
 
+mod common;
 use cloister::privacy::aggregate::{aggregate_grid, AggregateParams};
 use cloister::privacy::donut::{design_cdf, design_mean, design_median, ks_statistic};
 use cloister::privacy::export::{
@@ -36,22 +37,9 @@ fn floats(v: &Value) -> Vec<f64> {
 /// A 10 km square with a 4 km square hole in the middle, and `n` seeded
 /// uniform points in it (rejection sampling).
 fn holed_area(n: usize, seed: u64) -> (Window, Vec<f64>, Vec<f64>) {
-    let area = Window::from_polygons(
-        vec![vec![
-            vec![
-                [0.0, 0.0],
-                [10_000.0, 0.0],
-                [10_000.0, 10_000.0],
-                [0.0, 10_000.0],
-            ],
-            vec![
-                [3000.0, 3000.0],
-                [7000.0, 3000.0],
-                [7000.0, 7000.0],
-                [3000.0, 7000.0],
-            ],
-        ]],
-        WindowOrigin::File,
+    let area = Window::rectangle_with_hole(
+        [0.0, 0.0, 10_000.0, 10_000.0],
+        [3000.0, 3000.0, 7000.0, 7000.0],
     )
     .unwrap();
     let mut rng = rng_from_seed(seed);
@@ -231,18 +219,7 @@ fn kanon_reference_set_reaches_target_or_says_exactly_why_not() {
     // Spatial k: docs/methods.md#privacy operational definition; layer without the events'
     // own addresses, so k = 1 + #{h : ‖h − x′‖ ≤ ‖x − x′‖}.
     let r = reference("kanon_reference.json");
-    let rings: Vec<Vec<[f64; 2]>> = r["window"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|ring| {
-            ring.as_array()
-                .unwrap()
-                .iter()
-                .map(|v| [v[0].as_f64().unwrap(), v[1].as_f64().unwrap()])
-                .collect()
-        })
-        .collect();
+    let rings = common::rings(&r["window"]);
     let area = Window::from_polygons(vec![rings], WindowOrigin::File).unwrap();
     let (ex, ey) = (floats(&r["events_x"]), floats(&r["events_y"]));
     let (px, py) = (floats(&r["population_x"]), floats(&r["population_y"]));

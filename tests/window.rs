@@ -13,25 +13,7 @@ mod geometry {
     use cloister::window::{Window, WindowOrigin};
     use serde_json::Value;
 
-    pub(super) fn polygons(v: &Value) -> Vec<Vec<Vec<[f64; 2]>>> {
-        v.as_array()
-            .unwrap()
-            .iter()
-            .map(|poly| {
-                poly.as_array()
-                    .unwrap()
-                    .iter()
-                    .map(|ring| {
-                        ring.as_array()
-                            .unwrap()
-                            .iter()
-                            .map(|c| [f(&c[0]), f(&c[1])])
-                            .collect()
-                    })
-                    .collect()
-            })
-            .collect()
-    }
+    pub(super) use crate::common::polygons;
 
     #[test]
     fn test_window_matches_shapely() {

@@ -37,8 +37,15 @@ function workText() {
   if (!first) return '';
   const secs = Math.round((performance.now() - first.t0) / 1000);
   const what = WORK_NAMES[first.method] || 'working';
-  const pct = first.fraction > 0 ? ` ${Math.floor(first.fraction * 100)} % done` : '';
-  return `Working: ${what}…${pct}${secs >= 2 ? ` (${secs} s)` : ''}`;
+  const f = first.fraction > 0 ? Math.min(1, first.fraction) : 0;
+  const pct = f > 0 ? ` ${Math.floor(f * 100)} % done` : '';
+  // Time left from the pace so far, once there is a pace to go by.
+  let left = '';
+  if (f >= 0.02 && f < 1 && secs >= 3) {
+    const s = Math.round((secs * (1 - f)) / f);
+    left = s >= 90 ? `, about ${Math.round(s / 60)} min left` : `, about ${Math.max(1, s)} s left`;
+  }
+  return `Working: ${what}…${pct}${secs >= 2 ? ` (${secs} s${left})` : ''}`;
 }
 
 /** Shows how far the first outstanding one-step request has got: the bar

@@ -181,6 +181,7 @@ pub fn clark_evans(
     if params.n_sim > 0 {
         let (mut le, mut ge) = (0usize, 0usize);
         for j in 0..params.n_sim {
+            crate::progress::report(j, params.n_sim);
             let mut rng = stream_rng(params.seed, j as u64);
             let (sx, sy) = region.sample_uniform(n, &mut rng);
             let t = nn_distances(&sx, &sy).iter().sum::<f64>() / n as f64;

@@ -70,22 +70,9 @@ fn f5_fixture_integrals_and_values() {
 
 fn window_with_hole() -> Window {
     // Fixture WH (docs/methods.md#fixtures) scaled to metres: [0, 10 km]² minus [4, 6 km]².
-    Window::from_polygons(
-        vec![vec![
-            vec![
-                [0.0, 0.0],
-                [10_000.0, 0.0],
-                [10_000.0, 10_000.0],
-                [0.0, 10_000.0],
-            ],
-            vec![
-                [4000.0, 4000.0],
-                [6000.0, 4000.0],
-                [6000.0, 6000.0],
-                [4000.0, 6000.0],
-            ],
-        ]],
-        crate::window::WindowOrigin::File,
+    Window::rectangle_with_hole(
+        [0.0, 0.0, 10_000.0, 10_000.0],
+        [4000.0, 4000.0, 6000.0, 6000.0],
     )
     .unwrap()
 }

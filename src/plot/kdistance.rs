@@ -49,6 +49,7 @@ pub fn draw_k_distance_chart<DB: DrawingBackend>(
     let (px, pt, pf) = (|v| sc.px(v), |v| sc.pt(v), |v| sc.font(v));
     let mut chart = ChartBuilder::on(root)
         .margin(pt(8))
+        .margin_right(pt(22))
         .x_label_area_size(pt(38))
         .y_label_area_size(pt(56))
         .build_cartesian_2d(0f64..(n as f64), 0f64..ymax)
@@ -66,7 +67,7 @@ pub fn draw_k_distance_chart<DB: DrawingBackend>(
         .set_all_tick_mark_size(pt(5))
         .x_desc("events, sorted from the most isolated")
         .y_desc(nth)
-        .x_label_formatter(&|v| format!("{v:.0}"))
+        .x_label_formatter(&|v| super::count_tick(*v))
         .y_label_formatter(&|v| format!("{v:.0}"))
         .label_style(("sans-serif", pf(12.0)))
         .axis_desc_style(("sans-serif", pf(13.0)))

@@ -92,6 +92,17 @@ pub(crate) fn tick(v: f64) -> String {
     }
 }
 
+/// A tick label for a count of events: whole numbers, thousands as "k"
+/// from 10,000 on (so a long axis keeps its last label inside the chart).
+pub(crate) fn count_tick(v: f64) -> String {
+    if v.abs() >= 10_000.0 {
+        let s = format!("{:.1}", v / 1000.0);
+        format!("{}k", s.trim_end_matches('0').trim_end_matches('.'))
+    } else {
+        format!("{v:.0}")
+    }
+}
+
 /// Runs of consecutive indices where `ok` holds, as half-open ranges.
 pub(crate) fn runs(ok: &[bool]) -> Vec<(usize, usize)> {
     let mut out = Vec::new();
@@ -133,6 +144,15 @@ mod tests {
         assert_eq!(tick(2.50), "2.5");
         assert_eq!(tick(0.0125), "0.0125");
         assert_eq!(tick(2.5e7), "2.5e7");
+    }
+
+    #[test]
+    fn count_ticks_use_k_from_ten_thousand() {
+        assert_eq!(count_tick(0.0), "0");
+        assert_eq!(count_tick(9000.0), "9000");
+        assert_eq!(count_tick(20_000.0), "20k");
+        assert_eq!(count_tick(200_000.0), "200k");
+        assert_eq!(count_tick(12_500.0), "12.5k");
     }
 
     #[test]

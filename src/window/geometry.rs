@@ -161,18 +161,11 @@ fn intersect_axis(p: [f64; 2], q: [f64; 2], axis: usize, bound: f64) -> [f64; 2]
 
 #[cfg(test)]
 mod tests {
-    use crate::window::{Window, WindowOrigin};
+    use crate::window::Window;
 
     /// Fixture WH (docs/methods.md#fixtures): [0,10]² minus [4,6]².
     fn wh() -> Window {
-        Window::from_polygons(
-            vec![vec![
-                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
-                vec![[4.0, 4.0], [6.0, 4.0], [6.0, 6.0], [4.0, 6.0]],
-            ]],
-            WindowOrigin::File,
-        )
-        .unwrap()
+        Window::rectangle_with_hole([0.0, 0.0, 10.0, 10.0], [4.0, 4.0, 6.0, 6.0]).unwrap()
     }
 
     #[test]

@@ -571,6 +571,15 @@ impl Window {
         )
     }
 
+    /// The rectangle `[x0, x1] × [y0, y1]` with the rectangular hole
+    /// `[hx0, hx1] × [hy0, hy1]` (which must lie inside it). The fixture
+    /// "WH" of docs/methods.md#fixtures is
+    /// `rectangle_with_hole([0, 0, 10, 10], [4, 4, 6, 6])`.
+    pub fn rectangle_with_hole(outer: [f64; 4], hole: [f64; 4]) -> Result<Window, InputError> {
+        let ring = |[x0, y0, x1, y1]: [f64; 4]| vec![[x0, y0], [x1, y0], [x1, y1], [x0, y1]];
+        Window::from_polygons(vec![vec![ring(outer), ring(hole)]], WindowOrigin::File)
+    }
+
     /// The bounding box of the points as a window.
     ///
     /// Non-finite points are ignored. Fails (with `BadPolygon`) when there
@@ -754,14 +763,7 @@ pub(crate) mod tests {
 
     /// docs/methods.md#fixtures "WH": [0,10]² minus the hole [4,6]².
     pub fn wh() -> Window {
-        Window::from_polygons(
-            vec![vec![
-                vec![[0.0, 0.0], [10.0, 0.0], [10.0, 10.0], [0.0, 10.0]],
-                vec![[4.0, 4.0], [6.0, 4.0], [6.0, 6.0], [4.0, 6.0], [4.0, 4.0]],
-            ]],
-            WindowOrigin::File,
-        )
-        .unwrap()
+        Window::rectangle_with_hole([0.0, 0.0, 10.0, 10.0], [4.0, 4.0, 6.0, 6.0]).unwrap()
     }
 
     #[test]
@@ -940,11 +942,9 @@ pub(crate) mod tests {
         }
     }
 
-    /// The edge grid gives the same distance as a scan of every edge, for a
-    /// long-edged rectangle with a 300-vertex wiggly hole, at points inside,
-    /// in the hole and far outside.
-    #[test]
-    fn test_boundary_distance_grid_matches_scan() {
+    /// A 1000 m × 600 m rectangle with a 300-vertex wiggly hole: enough
+    /// edges for the edge grid to have several cells.
+    fn wiggly_hole() -> Window {
         let hole: Vec<[f64; 2]> = (0..300)
             .map(|k| {
                 let t = 2.0 * std::f64::consts::PI * k as f64 / 300.0;
@@ -953,7 +953,15 @@ pub(crate) mod tests {
             })
             .collect();
         let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
-        let w = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
+        Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap()
+    }
+
+    /// The edge grid gives the same distance as a scan of every edge, for a
+    /// long-edged rectangle with a 300-vertex wiggly hole, at points inside,
+    /// in the hole and far outside.
+    #[test]
+    fn test_boundary_distance_grid_matches_scan() {
+        let w = wiggly_hole();
         assert!(w.grid.nx * w.grid.ny > 1);
         let edges = w.edges();
         let mut rng = rng_from_seed(5);
@@ -1123,15 +1131,7 @@ pub(crate) mod tests {
     /// every edge; indices are sorted and refer to `edges()`.
     #[test]
     fn test_edges_near_matches_scan() {
-        let hole: Vec<[f64; 2]> = (0..300)
-            .map(|k| {
-                let t = 2.0 * std::f64::consts::PI * k as f64 / 300.0;
-                let r = 200.0 * (1.0 + 0.2 * (11.0 * t).sin());
-                [500.0 + r * t.cos(), 300.0 + r * t.sin()]
-            })
-            .collect();
-        let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
-        let big = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
+        let big = wiggly_hole();
         assert!(big.grid.nx * big.grid.ny > 4 && wh().grid.nx * wh().grid.ny <= 4);
         let mut rng = rng_from_seed(6);
         for w in [big, wh()] {
@@ -1202,15 +1202,7 @@ pub(crate) mod tests {
         let teeth =
             Window::from_polygons(vec![vec![saw_tooth(300, 40.0)]], WindowOrigin::File).unwrap();
         assert_eq!(teeth.area(), 300.0 * (1.0 + 39.0 / 2.0));
-        let hole: Vec<[f64; 2]> = (0..300)
-            .map(|k| {
-                let t = 2.0 * std::f64::consts::PI * k as f64 / 300.0;
-                let r = 200.0 * (1.0 + 0.2 * (11.0 * t).sin());
-                [500.0 + r * t.cos(), 300.0 + r * t.sin()]
-            })
-            .collect();
-        let outer = vec![[0.0, 0.0], [1000.0, 0.0], [1000.0, 600.0], [0.0, 600.0]];
-        let wiggly = Window::from_polygons(vec![vec![outer, hole]], WindowOrigin::File).unwrap();
+        let wiggly = wiggly_hole();
         let mut rng = rng_from_seed(11);
         for w in [teeth, wiggly, wh()] {
             let [x0, y0, x1, y1] = w.bbox();

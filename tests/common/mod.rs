@@ -17,3 +17,28 @@ pub fn nums(v: &Value) -> Vec<f64> {
         .map(|x| x.as_f64().expect("number in reference JSON"))
         .collect()
 }
+
+/// The rings of one polygon in the reference JSON: `[[[x, y], ...], ...]`
+/// (outer ring first, then holes).
+pub fn rings(v: &Value) -> Vec<Vec<[f64; 2]>> {
+    v.as_array()
+        .expect("list of rings in reference JSON")
+        .iter()
+        .map(|ring| {
+            ring.as_array()
+                .expect("ring in reference JSON")
+                .iter()
+                .map(|c| [f(&c[0]), f(&c[1])])
+                .collect()
+        })
+        .collect()
+}
+
+/// Several polygons in the reference JSON, each as in [`rings`].
+pub fn polygons(v: &Value) -> Vec<Vec<Vec<[f64; 2]>>> {
+    v.as_array()
+        .expect("list of polygons in reference JSON")
+        .iter()
+        .map(rings)
+        .collect()
+}
