@@ -517,7 +517,9 @@ pub fn kernel_surface_in(
         )
     })?;
     let (v, _) = crate::progress::part(split, 1.0, || {
-        surface_on_canvas(&cv, x, y, weights, o.kernel, h, o.edge, o.evaluation)
+        let out = surface_on_canvas(&cv, x, y, weights, o.kernel, h, o.edge, o.evaluation);
+        crate::progress::report(1, 1);
+        out
     });
     let (values, mask) = cv.crop(&v, PER_KM2);
     let (x0, y0, nx, ny) = cv.inner;

@@ -146,6 +146,24 @@ test('mask, count, preview and save: the report opens offline with no request an
   const reportPath = join(out, 'sharing-report.html');
   await dl.saveAs(reportPath);
 
+  // 4b. The counts as CSV: a spreadsheet sees the header first; the notes
+  // about the file are its last column (or # lines, when asked for).
+  await act(page, () => page.click('[data-export="aggregates:csv"]'));
+  assert.match(await page.textContent('#share-preview-list'), /written in the last column, about_this_file/);
+  const [csvDl] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#share-save'))]);
+  const csvPath = join(out, 'sharing-counts.csv');
+  await csvDl.saveAs(csvPath);
+  const csvLines = readFileSync(csvPath, 'utf8').split('\n');
+  assert.match(csvLines[0], /^kind,id,.*,about_this_file$/);
+  assert.match(csvLines[1], /,tool: Cloister$/);
+  assert.ok(!csvLines.some((l) => l.startsWith('#')), 'no # line');
+  await page.selectOption('#share-notes', 'top_lines');
+  await act(page, () => page.click('[data-export="aggregates:csv"]'));
+  const [topDl] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#share-save'))]);
+  await topDl.saveAs(csvPath);
+  assert.match(readFileSync(csvPath, 'utf8'), /^# tool: Cloister\n/);
+  await page.selectOption('#share-notes', 'last_column');
+
   // 5. The unmasked export asks for explicit confirmation.
   await page.click('#share-file-box details summary');
   await act(page, () => page.click('[data-export="unmasked_points:csv"]'));

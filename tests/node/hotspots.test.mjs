@@ -6,7 +6,7 @@ import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 
 const require = createRequire(import.meta.url);
-const { Session } = require('../../dist/node/cloister.js');
+const { Session, beginProgress } = require('../../dist/node/cloister.js');
 const root = new URL('../../', import.meta.url);
 const file = (p) => new Uint8Array(readFileSync(new URL(p, root)));
 // The demo generator's record of what it planted (demo-data/README.md).
@@ -262,7 +262,8 @@ test('scan: starting again drops a half-run job; finishing twice is refused', ()
   assert.equal(throws(() => s.scanStep(1)).code, 'nothing_started');
   // Bad options are refused with a message.
   assert.equal(throws(() => s.scanStart({ max_share: 0.8 })).code, 'bad_parameter');
-  assert.equal(throws(() => s.scanStart({ seed: -1 })).code, 'bad_options');
+  assert.equal(throws(() => s.scanStart({ seed: -1 })).code, 'bad_parameter');
+  assert.equal(throws(() => s.scanStart({ seed: 0.5 })).code, 'bad_options');
   assert.equal(throws(() => s.scanStart({ n_sim: 0 })).code, 'bad_parameter');
 });
 
@@ -289,4 +290,25 @@ test('MSE criterion on random events: "no finite optimum" is said, not the end o
   assert.match(e.message, /no finite optimum/);
   // The other methods still answer on the same data.
   assert.ok(s.intensitySurface({ method: 'likelihood_cv' }).bandwidth_m > 0);
+});
+
+test('one long step reports the share done to globalThis.cloisterProgress after beginProgress, and nothing without it', () => {
+  const s = new Session();
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  const seen = [];
+  globalThis.cloisterProgress = (f) => seen.push(f);
+  try {
+    // Without beginProgress nothing is reported.
+    s.intensitySurface({ cells: 64, method: 'likelihood_cv' });
+    assert.deepEqual(seen, []);
+    beginProgress();
+    s.intensitySurface({ cells: 64, method: 'likelihood_cv' });
+  } finally {
+    delete globalThis.cloisterProgress;
+  }
+  assert.ok(seen.length >= 10 && seen.length <= 102, `${seen.length} reports`);
+  assert.equal(seen[0], 0);
+  assert.ok(seen.every((f, i) => f >= 0 && f <= 1 && (i === 0 || f >= seen[i - 1] + 0.01)), seen.join(' '));
+  assert.ok(seen[seen.length - 1] >= 0.95, `last ${seen[seen.length - 1]}`);
 });

@@ -52,7 +52,11 @@ export function runScenario() {
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());
+  // Progress of one long step goes to globalThis.cloisterProgress once asked for.
+  globalThis.cloisterProgress = () => {};
+  record('beginProgress', 'listen', cloister.beginProgress());
   record('intensitySurface', 'coarse', s.intensitySurface({ cells: 48 }));
+  delete globalThis.cloisterProgress;
   record('isoplethsGeoJson', '50 %', s.isoplethsGeoJson([0.5]));
   record('intensitySurface', 'no privacy check', s.intensitySurface({ cells: 32, privacy_check: false, method: 'fixed', fixed_m: 300 }));
   record('dbscan', 'eps 150', s.dbscan({ eps_m: 150, min_samples: 8 }));

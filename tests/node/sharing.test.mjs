@@ -330,7 +330,8 @@ test('previews list what each file holds before it is written', () => {
   const r = s.maskDonut({ r_min_m: 100, r_max_m: 300, seed: SEED });
   const p = s.exportPreview('masked_points', { format: 'csv' });
   assert.equal(p.content, 'masked points');
-  assert.deepEqual(p.fields, ['longitude', 'latitude']);
+  assert.deepEqual(p.fields, ['longitude', 'latitude', 'about_this_file']);
+  assert.deepEqual(s.exportPreview('masked_points', { format: 'csv', csv_notes: 'top_lines' }).fields, ['longitude', 'latitude']);
   assert.equal(p.rows, r.n_masked);
   assert.equal(p.contains_original_coordinates, false);
   assert.ok(p.metadata_keys.includes('masking') && !p.metadata_keys.includes('seed'));

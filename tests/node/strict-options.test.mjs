@@ -137,11 +137,13 @@ test('values out of range are refused with the option, its value and the range',
   const s = demo();
   assertRange(throws(() => s.quadratTest({ nx: 0 })), 'nx', 0);
   assertRange(throws(() => s.quadratTest({ n_sim: 10000 })), 'n_sim', 10000);
-  // A negative count is not even a count: refused as not understood, by name.
-  const neg = throws(() => s.clarkEvans({ n_sim: -1 }));
-  assert.equal(neg.code, 'bad_options');
-  assert.match(neg.message, /n_sim.*-1/);
-  assertPlain(neg);
+  // A negative count is out of the count's range like any other: the range is said.
+  assertRange(throws(() => s.clarkEvans({ n_sim: -1 })), 'n_sim', -1);
+  // A fraction for a count is of the wrong kind, but the range is still said.
+  const frac = throws(() => s.clarkEvans({ n_sim: 2.5 }));
+  assert.equal(frac.code, 'bad_options');
+  assert.match(frac.message, /n_sim: must be a whole number from 0 to 9999 \(got 2\.5\)/);
+  assertPlain(frac);
   assertRange(throws(() => s.envelopeStart({ n_steps: 1 })), 'n_steps', 1);
   assertRange(throws(() => s.envelopeStart({ n_sim: 0 })), 'n_sim', 0);
   assertRange(throws(() => s.envelopeStart({ alpha: 0 })), 'alpha', 0);
@@ -180,9 +182,10 @@ test('kDistance checks its one number: 0, negative, fractional and huge values a
     assertRange(e, 'min_samples', v);
     assert.doesNotMatch(e.message, /4294967295/);
   }
-  for (const v of [-1, 1.5]) {
+  for (const [v, code] of [[-1, 'bad_parameter'], [1.5, 'bad_options']]) {
     const e = throws(() => s.kDistance(v));
-    assert.equal(e.code, 'bad_options', e.message);
+    assert.equal(e.code, code, e.message);
+    assert.match(e.message, /must be a whole number from 2 to 1000/);
     assert.ok(e.message.includes('min_samples') && e.message.includes(String(v)), e.message);
     assert.doesNotMatch(e.message, /4294967295/);
     assertPlain(e);
