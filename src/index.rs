@@ -184,14 +184,20 @@ impl Locations {
             if r.is_empty() {
                 continue;
             }
-            if r.len() == 1 {
-                let s = r.start;
-                loc.x.push(g.xs[s]);
-                loc.y.push(g.ys[s]);
-                loc.first_id.push(g.id[s]);
-                loc.of_slot[s] = (loc.x.len() - 1) as u32;
-                loc.slots.push(s as u32);
-                loc.off.push(loc.slots.len() as u32);
+            // A few points, all at different places (the usual case): each
+            // is a location of its own, in slot order, as the general path
+            // below would give, without sorting.
+            let distinct = r.len() == 1
+                || (r.len() <= 8 && r.clone().all(|a| (a + 1..r.end).all(|b| key(a) != key(b))));
+            if distinct {
+                for s in r {
+                    loc.x.push(g.xs[s]);
+                    loc.y.push(g.ys[s]);
+                    loc.first_id.push(g.id[s]);
+                    loc.of_slot[s] = (loc.x.len() - 1) as u32;
+                    loc.slots.push(s as u32);
+                    loc.off.push(loc.slots.len() as u32);
+                }
                 continue;
             }
             order.clear();
