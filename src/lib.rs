@@ -56,6 +56,7 @@ pub mod plot;
 pub mod privacy;
 pub mod progress;
 pub mod projection;
+pub mod risk;
 pub mod rng;
 pub mod scan;
 pub mod study;

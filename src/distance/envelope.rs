@@ -594,114 +594,44 @@ impl EnvelopeJob {
             SummaryFunction::PairCorrelation | SummaryFunction::J => vec![1.0; nr],
             SummaryFunction::NearestNeighbour | SummaryFunction::EmptySpace => gf_theo(&r, lambda),
         };
-        let sim = |j: usize| &self.sims[j * nr..(j + 1) * nr];
-        let mut sim_mean = vec![0.0; nr];
-        let mut lo = vec![f64::INFINITY; nr];
-        let mut hi = vec![f64::NEG_INFINITY; nr];
-        let mut finite_all: Vec<bool> = self.observed.iter().map(|v| v.is_finite()).collect();
-        for j in 0..m {
-            for (k, v) in sim(j).iter().enumerate() {
-                if v.is_finite() {
-                    sim_mean[k] += v;
-                    lo[k] = lo[k].min(*v);
-                    hi[k] = hi[k].max(*v);
+        let bands = summarise(
+            &r,
+            &self.observed,
+            &self.sims,
+            &theoretical,
+            self.params.reference,
+            self.params
+                .r_min
+                .unwrap_or(if f == SummaryFunction::PairCorrelation {
+                    self.ctx.bandwidth
                 } else {
-                    finite_all[k] = false;
-                }
-            }
-        }
-        for k in 0..nr {
-            if finite_all[k] {
-                sim_mean[k] /= m as f64;
-            } else {
-                sim_mean[k] = f64::NAN;
-            }
-            if !lo[k].is_finite() {
-                lo[k] = f64::NAN;
-                hi[k] = f64::NAN;
-            }
-        }
-        let reference_curve: Vec<f64> = match self.params.reference {
-            Reference::Theoretical => theoretical.clone(),
-            Reference::SimulationMean => (0..nr)
-                .map(|k| {
-                    if finite_all[k] {
-                        (sim_mean[k] * m as f64 + self.observed[k]) / (m as f64 + 1.0)
-                    } else {
-                        f64::NAN
-                    }
-                })
-                .collect(),
-        };
-        let r_min = self
-            .params
-            .r_min
-            .unwrap_or(if f == SummaryFunction::PairCorrelation {
-                self.ctx.bandwidth
-            } else {
-                0.0
-            });
-        let in_test: Vec<bool> = (0..nr)
-            .map(|k| finite_all[k] && reference_curve[k].is_finite() && r[k] >= r_min)
-            .collect();
+                    0.0
+                }),
+            self.params.alpha,
+        );
         let mut warnings = self.ctx.warnings.clone();
-        if !in_test.iter().any(|b| *b) {
-            warnings.push("no distance in the test interval has finite values for every curve: the global tests are undefined".into());
-        }
-        let stats = |curve: &[f64]| -> (f64, f64) {
-            let mut mad: f64 = 0.0;
-            let mut dclf = 0.0;
-            for k in 0..nr {
-                if in_test[k] {
-                    let dev = curve[k] - reference_curve[k];
-                    mad = mad.max(dev.abs());
-                    if k + 1 < nr && in_test[k + 1] {
-                        let dev2 = curve[k + 1] - reference_curve[k + 1];
-                        dclf += 0.5 * (dev * dev + dev2 * dev2) * (r[k + 1] - r[k]);
-                    }
-                }
-            }
-            (mad, dclf)
-        };
-        let (mad_obs, dclf_obs) = stats(&self.observed);
-        let mut mads = Vec::with_capacity(m);
-        let mut dclfs = Vec::with_capacity(m);
-        for j in 0..m {
-            let (a, b) = stats(sim(j));
-            mads.push(a);
-            dclfs.push(b);
-        }
-        let k_exact = self.params.alpha * (m as f64 + 1.0);
-        let mut k_rank = k_exact.floor() as usize;
-        if k_rank == 0 {
-            warnings.push(format!(
-                "with {m} simulations no test can reach level {}: use at least {} simulations",
-                self.params.alpha,
-                (1.0 / self.params.alpha).ceil() as usize - 1
-            ));
-            k_rank = 1;
-        }
-        let mad = global_test(mad_obs, &mads, k_rank, self.params.alpha);
-        let dclf = global_test(dclf_obs, &dclfs, k_rank, self.params.alpha);
-        let global_lo: Vec<f64> = reference_curve.iter().map(|v| v - mad.critical).collect();
-        let global_hi: Vec<f64> = reference_curve.iter().map(|v| v + mad.critical).collect();
+        warnings.extend(bands.warnings.iter().cloned());
         if self.capped > 0 {
             warnings.push(format!(
                 "{} pair weights of the observed pattern reached the cap of {}",
                 self.capped, self.ctx.cap
             ));
         }
-        let test_r_min = r
-            .iter()
-            .zip(&in_test)
-            .find(|(_, b)| **b)
-            .map_or(f64::NAN, |(r, _)| *r);
-        let test_r_max = r
-            .iter()
-            .zip(&in_test)
-            .rev()
-            .find(|(_, b)| **b)
-            .map_or(f64::NAN, |(r, _)| *r);
+        let Bands {
+            sim_mean,
+            pointwise_lo: lo,
+            pointwise_hi: hi,
+            reference_curve,
+            in_test,
+            mad,
+            dclf,
+            k_rank,
+            global_lo,
+            global_hi,
+            test_r_min,
+            test_r_max,
+            ..
+        } = bands;
         let verdict = verdict_for(
             f,
             &r,
@@ -773,6 +703,152 @@ fn select(f: SummaryFunction, c: super::functions::Curves) -> Vec<f64> {
 pub fn monte_carlo_p(observed: f64, simulated: &[f64]) -> f64 {
     let ge = simulated.iter().filter(|t| **t >= observed).count();
     (1.0 + ge as f64) / (simulated.len() as f64 + 1.0)
+}
+
+/// The envelope summary of an observed curve against `m` simulated ones
+/// (`sims`, m curves of `r.len()` values one after another): the pointwise
+/// band, the reference curve (theoretical, or the mean of the simulations
+/// and the observed curve), the two global tests (maximum absolute
+/// deviation and DCLF) over the distances from `r_min` on where every curve
+/// is finite, and the global band that matches the MAD test
+/// (docs/methods.md#envelopes).
+#[derive(Debug, Clone)]
+pub(crate) struct Bands {
+    pub sim_mean: Vec<f64>,
+    pub pointwise_lo: Vec<f64>,
+    pub pointwise_hi: Vec<f64>,
+    pub reference_curve: Vec<f64>,
+    pub in_test: Vec<bool>,
+    pub mad: GlobalTest,
+    pub dclf: GlobalTest,
+    pub k_rank: usize,
+    pub global_lo: Vec<f64>,
+    pub global_hi: Vec<f64>,
+    pub test_r_min: f64,
+    pub test_r_max: f64,
+    pub warnings: Vec<String>,
+}
+
+pub(crate) fn summarise(
+    r: &[f64],
+    observed: &[f64],
+    sims: &[f64],
+    theoretical: &[f64],
+    reference: Reference,
+    r_min: f64,
+    alpha: f64,
+) -> Bands {
+    let nr = r.len();
+    let m = if nr == 0 { 0 } else { sims.len() / nr };
+    let sim = |j: usize| &sims[j * nr..(j + 1) * nr];
+    let mut sim_mean = vec![0.0; nr];
+    let mut lo = vec![f64::INFINITY; nr];
+    let mut hi = vec![f64::NEG_INFINITY; nr];
+    let mut finite_all: Vec<bool> = observed.iter().map(|v| v.is_finite()).collect();
+    for j in 0..m {
+        for (k, v) in sim(j).iter().enumerate() {
+            if v.is_finite() {
+                sim_mean[k] += v;
+                lo[k] = lo[k].min(*v);
+                hi[k] = hi[k].max(*v);
+            } else {
+                finite_all[k] = false;
+            }
+        }
+    }
+    for k in 0..nr {
+        if finite_all[k] {
+            sim_mean[k] /= m as f64;
+        } else {
+            sim_mean[k] = f64::NAN;
+        }
+        if !lo[k].is_finite() {
+            lo[k] = f64::NAN;
+            hi[k] = f64::NAN;
+        }
+    }
+    let reference_curve: Vec<f64> = match reference {
+        Reference::Theoretical => theoretical.to_vec(),
+        Reference::SimulationMean => (0..nr)
+            .map(|k| {
+                if finite_all[k] {
+                    (sim_mean[k] * m as f64 + observed[k]) / (m as f64 + 1.0)
+                } else {
+                    f64::NAN
+                }
+            })
+            .collect(),
+    };
+    let in_test: Vec<bool> = (0..nr)
+        .map(|k| finite_all[k] && reference_curve[k].is_finite() && r[k] >= r_min)
+        .collect();
+    let mut warnings = Vec::new();
+    if !in_test.iter().any(|b| *b) {
+        warnings.push("no distance in the test interval has finite values for every curve: the global tests are undefined".into());
+    }
+    let stats = |curve: &[f64]| -> (f64, f64) {
+        let mut mad: f64 = 0.0;
+        let mut dclf = 0.0;
+        for k in 0..nr {
+            if in_test[k] {
+                let dev = curve[k] - reference_curve[k];
+                mad = mad.max(dev.abs());
+                if k + 1 < nr && in_test[k + 1] {
+                    let dev2 = curve[k + 1] - reference_curve[k + 1];
+                    dclf += 0.5 * (dev * dev + dev2 * dev2) * (r[k + 1] - r[k]);
+                }
+            }
+        }
+        (mad, dclf)
+    };
+    let (mad_obs, dclf_obs) = stats(observed);
+    let mut mads = Vec::with_capacity(m);
+    let mut dclfs = Vec::with_capacity(m);
+    for j in 0..m {
+        let (a, b) = stats(sim(j));
+        mads.push(a);
+        dclfs.push(b);
+    }
+    let k_exact = alpha * (m as f64 + 1.0);
+    let mut k_rank = k_exact.floor() as usize;
+    if k_rank == 0 {
+        warnings.push(format!(
+            "with {m} simulations no test can reach level {}: use at least {} simulations",
+            alpha,
+            (1.0 / alpha).ceil() as usize - 1
+        ));
+        k_rank = 1;
+    }
+    let mad = global_test(mad_obs, &mads, k_rank, alpha);
+    let dclf = global_test(dclf_obs, &dclfs, k_rank, alpha);
+    let global_lo: Vec<f64> = reference_curve.iter().map(|v| v - mad.critical).collect();
+    let global_hi: Vec<f64> = reference_curve.iter().map(|v| v + mad.critical).collect();
+    let test_r_min = r
+        .iter()
+        .zip(&in_test)
+        .find(|(_, b)| **b)
+        .map_or(f64::NAN, |(r, _)| *r);
+    let test_r_max = r
+        .iter()
+        .zip(&in_test)
+        .rev()
+        .find(|(_, b)| **b)
+        .map_or(f64::NAN, |(r, _)| *r);
+    Bands {
+        sim_mean,
+        pointwise_lo: lo,
+        pointwise_hi: hi,
+        reference_curve,
+        in_test,
+        mad,
+        dclf,
+        k_rank,
+        global_lo,
+        global_hi,
+        test_r_min,
+        test_r_max,
+        warnings,
+    }
 }
 
 fn global_test(obs: f64, sims: &[f64], k: usize, alpha: f64) -> GlobalTest {

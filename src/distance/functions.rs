@@ -134,6 +134,16 @@ pub(crate) struct Needs {
     pub f: bool,
 }
 
+impl Needs {
+    /// K alone.
+    pub(crate) const K_ONLY: Needs = Needs {
+        k: true,
+        pcf: false,
+        g: false,
+        f: false,
+    };
+}
+
 /// Curves of one pattern (only those asked for).
 #[derive(Debug, Clone, Default)]
 pub(crate) struct Curves {
@@ -353,6 +363,64 @@ impl Context {
         } else {
             Some(k - 1)
         }
+    }
+
+    /// Calls `visit(i, j, k, w)` once for every unordered pair of points
+    /// (input indices i ≠ j) at most `r_max` apart: `k` is the grid bin of
+    /// their distance (the smallest k with d ≤ r_k) and `w` the pair's K
+    /// weight summed over both orders, as the K estimator adds it (2 without
+    /// a correction, e_ij + e_ji isotropic, 2·e_ij translation). So K(r_k)
+    /// = |W| / (n(n − 1)) · Σ_{pairs with bin ≤ k} w, and the same visit
+    /// restricted to a subset of the points gives that subset's K. Returns
+    /// how many weights reached the cap. Not for the border correction,
+    /// whose weights depend on which points are centres (an error).
+    pub(crate) fn for_each_k_pair<F: FnMut(usize, usize, usize, f64)>(
+        &self,
+        x: &[f64],
+        y: &[f64],
+        mut visit: F,
+    ) -> Result<u64, AnalysisError> {
+        if self.correction == Correction::Border {
+            return Err(bad(
+                "correction",
+                "the border correction is not available here: use isotropic, translation or none",
+            ));
+        }
+        let n = x.len();
+        let grid = GridIndex::with_cell(x, y, self.r_max / 4.0);
+        let iso = (self.correction == Correction::Isotropic).then(|| {
+            let b: Vec<f64> = (0..n)
+                .map(|p| self.region.boundary_distance(grid.xs[p], grid.ys[p]))
+                .collect();
+            IsoCache::new(&self.region, &grid.xs, &grid.ys, b, self.r_max, self.cap)
+        });
+        let mut capped = 0u64;
+        grid.for_each_slot_pair(self.r_max, |a, b, d| {
+            if d > self.r_max {
+                return;
+            }
+            let w = match self.correction {
+                Correction::Isotropic => {
+                    let c = iso.as_ref().expect("isotropic cache built when used");
+                    c.weight(a, d, &mut capped) + c.weight(b, d, &mut capped)
+                }
+                Correction::Translation => {
+                    let t = self
+                        .translation
+                        .as_ref()
+                        .expect("translation table built when used");
+                    2.0 * t.weight(
+                        grid.xs[b] - grid.xs[a],
+                        grid.ys[b] - grid.ys[a],
+                        self.cap,
+                        &mut capped,
+                    )
+                }
+                _ => 2.0,
+            };
+            visit(grid.id[a] as usize, grid.id[b] as usize, self.bin(d), w);
+        });
+        Ok(capped)
     }
 
     /// Computes the asked-for curves for points (x, y) in the region.

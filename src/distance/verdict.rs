@@ -49,7 +49,7 @@ pub struct Verdict {
 
 /// A distance as the page's tables write it: no trailing zeros ("0 m", not
 /// "0.000 m").
-fn fmt_m(v: f64) -> String {
+pub(crate) fn fmt_m(v: f64) -> String {
     let text = if v >= 100.0 {
         format!("{v:.0}")
     } else if v >= 1.0 {
@@ -65,7 +65,7 @@ fn fmt_m(v: f64) -> String {
     format!("{text} m")
 }
 
-fn fmt_p(p: f64) -> String {
+pub(crate) fn fmt_p(p: f64) -> String {
     if p < 0.001 {
         format!("{p:.4}")
     } else {
@@ -74,7 +74,7 @@ fn fmt_p(p: f64) -> String {
 }
 
 /// "a", "a and b", "a, b and c".
-fn plain_list(parts: &[String]) -> String {
+pub(crate) fn plain_list(parts: &[String]) -> String {
     match parts {
         [] => String::new(),
         [one] => one.clone(),

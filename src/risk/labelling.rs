@@ -1,0 +1,900 @@
+//! The random labelling test (Diggle & Chetwynd 1991).
+//!
+//! **Reference.** Diggle, P. J. & Chetwynd, A. G. (1991). "Second-order
+//! analysis of spatial clustering for inhomogeneous populations".
+//! *Biometrics* 47(3), 1155–1163.
+//!
+//! **Null hypothesis.** Given the pooled locations of the n₁ cases and n₀
+//! controls, which of them are cases is a random choice of n₁ (random
+//! labelling). Under it, cases cluster exactly as much as the population
+//! the controls stand for, and D(r) = K₁₁(r) − K₀₀(r) has mean 0 at every r.
+//! D above 0 says cases cluster beyond the population at that distance.
+//!
+//! **Estimator.** K₁₁ and K₀₀ are the K estimator of
+//! [`crate::distance`] applied to the cases alone and to the controls alone,
+//! in the same study area, on the same r grid, with the same edge correction
+//! (none, isotropic or translation): K(r) = |W| / (n(n − 1)) · Σ_{i≠j}
+//! e_ij · 1{d_ij ≤ r}. The weights e_ij depend only on the two locations and
+//! the study area, never on the other points, so one visit of the pooled
+//! pairs serves every labelling.
+//!
+//! **Algorithm.** One pass over the pooled pairs within r_max serves a whole
+//! batch of labellings (up to a few hundred), with no pair stored:
+//! * the labellings are bit columns: bit s of point i says whether i is in
+//!   the smaller group (cases or controls, whichever is fewer) in labelling s;
+//! * a pair adds its weight to "both in the smaller group" for every s where
+//!   both bits are set (a bitwise AND; expected (m · p²) additions, p the
+//!   smaller group's share);
+//! * the pair also adds its weight to its two points' row sums R_i(bin) and
+//!   to the total T(bin);
+//! * afterwards, for labelling s, "both in the larger group" is
+//!   T − Σ_{i in the smaller group} R_i + (both in the smaller group), since
+//!   1{neither} = 1 − 1{i} − 1{j} + 1{both}.
+//!
+//! Cost per batch: one enumeration of the pairs plus O(pairs · m · p²)
+//! additions; memory O(n · bins + m · bins), whatever the number of pairs.
+//! The border correction is not offered: its weights depend on which points
+//! are the centres, so they differ between the two groups' estimates.
+
+use crate::distance::csr::stream_rng;
+use crate::distance::edge::Correction;
+use crate::distance::envelope::{summarise, Bands, GlobalTest, Reference};
+use crate::distance::functions::{Context, FunctionParams, Needs};
+use crate::distance::verdict::{fmt_m, fmt_p, plain_list, Departure, DistanceRange};
+use crate::error::AnalysisError;
+use crate::window::Window;
+use rand::RngExt;
+use serde::{Deserialize, Serialize};
+
+/// Options of the random labelling test (`labellingStart` in the JS API):
+/// the one home of their defaults and limits.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct LabellingOptions {
+    /// Random relabellings.
+    pub n_sim: usize,
+    pub seed: u64,
+    /// Level of the global tests.
+    pub alpha: f64,
+    /// Start of the tested distances, m (`None`: 0).
+    pub r_min_m: Option<f64>,
+    /// Largest distance, m (`None`: the rule of the clustering section).
+    pub r_max_m: Option<f64>,
+    pub n_steps: usize,
+    /// Isotropic, translation or none (not border: see the module docs).
+    pub correction: Correction,
+}
+
+impl Default for LabellingOptions {
+    fn default() -> Self {
+        LabellingOptions {
+            n_sim: 199,
+            seed: 0,
+            alpha: 0.05,
+            r_min_m: None,
+            r_max_m: None,
+            n_steps: 50,
+            correction: Correction::Isotropic,
+        }
+    }
+}
+
+impl crate::params::Params for LabellingOptions {
+    const NAME: &'static str = "labellingStart";
+    fn fields() -> Vec<crate::params::Field> {
+        use crate::params::{Field, EXTENT_FACTOR};
+        vec![
+            Field::integer("n_sim", "random relabellings of cases and controls").range(1.0, 9999.0),
+            Field::seed("seed of the relabellings"),
+            Field::number("alpha", None, "level of the global tests").above(0.0, Some(0.5)),
+            Field::number(
+                "r_min_m",
+                Some("m"),
+                "start of the tested distances; empty = 0",
+            )
+            .at_least(0.0)
+            .extent(EXTENT_FACTOR)
+            .optional(),
+            Field::number(
+                "r_max_m",
+                Some("m"),
+                "largest distance; empty = a rule from the study area's shape",
+            )
+            .above(0.0, None)
+            .extent(EXTENT_FACTOR)
+            .optional(),
+            Field::integer("n_steps", "steps from 0 to the largest distance").range(2.0, 1000.0),
+            Field::choice(
+                "correction",
+                &["isotropic", "translation", "none"],
+                "edge correction of both K estimates",
+            ),
+        ]
+    }
+    fn check(&self) -> Result<(), AnalysisError> {
+        if let (Some(a), Some(b)) = (self.r_min_m, self.r_max_m) {
+            if a >= b {
+                return Err(crate::params::bad(
+                    "r_min_m",
+                    format!(
+                        "must be less than r_max_m ({} m; got {} m)",
+                        crate::params::num(b),
+                        crate::params::num(a)
+                    ),
+                ));
+            }
+        }
+        if self.correction == Correction::Border {
+            return Err(crate::params::bad(
+                "correction",
+                "the border correction is not available for D(r): use isotropic, translation or none",
+            ));
+        }
+        Ok(())
+    }
+}
+
+/// What the observed D says, in the page's words.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LabellingOutcome {
+    /// D inside the global band: cases cluster as the population does.
+    ConsistentWithPopulation,
+    /// D above the band somewhere: cases cluster beyond the population.
+    BeyondPopulation,
+    /// D below the band: cases are more spread out than the population.
+    MoreSpreadOut,
+    /// Both, at different distances.
+    Mixed,
+}
+
+/// Result of the random labelling test. Curves are on `r`.
+#[derive(Debug, Clone, Serialize)]
+pub struct LabellingResult {
+    pub r: Vec<f64>,
+    /// D(r) = K_cases(r) − K_controls(r), m².
+    pub observed: Vec<f64>,
+    pub k_cases: Vec<f64>,
+    pub k_controls: Vec<f64>,
+    /// Mean of the relabelled D curves.
+    pub sim_mean: Vec<f64>,
+    pub pointwise_lo: Vec<f64>,
+    pub pointwise_hi: Vec<f64>,
+    /// The band of the maximum-deviation test around 0.
+    pub global_lo: Vec<f64>,
+    pub global_hi: Vec<f64>,
+    pub test_r_min: f64,
+    pub test_r_max: f64,
+    pub mad: GlobalTest,
+    pub dclf: GlobalTest,
+    pub alpha: f64,
+    pub k_rank: usize,
+    pub n_sim: usize,
+    pub seed: u64,
+    pub n_cases: usize,
+    pub n_controls: usize,
+    pub correction: Correction,
+    pub r_max_rule: String,
+    pub capped_weights: u64,
+    pub outcome: LabellingOutcome,
+    /// Distance ranges where D leaves the global band.
+    pub ranges: Vec<DistanceRange>,
+    pub verdict: String,
+    pub caveats: Vec<String>,
+    pub warnings: Vec<String>,
+}
+
+/// Relabellings done per pass over the pooled pairs.
+const PER_PASS: usize = 256;
+
+/// A random labelling test that can be advanced in batches (progress and
+/// Cancel between them). Relabelling j depends only on the seed and j.
+pub struct LabellingJob {
+    ctx: Context,
+    x: Vec<f64>,
+    y: Vec<f64>,
+    /// Size of the smaller group and whether it is the cases.
+    k_small: usize,
+    cases_smaller: bool,
+    opts: LabellingOptions,
+    observed: (Vec<f64>, Vec<f64>, Vec<f64>),
+    sims: Vec<f64>,
+    done: usize,
+    capped: u64,
+}
+
+impl LabellingJob {
+    /// Pools `cases` and `controls` (points as (x, y) lists, metres) in
+    /// `window` and computes the observed D.
+    pub fn new(
+        cases: (&[f64], &[f64]),
+        controls: (&[f64], &[f64]),
+        window: &Window,
+        opts: &LabellingOptions,
+    ) -> Result<LabellingJob, AnalysisError> {
+        use crate::params::Params;
+        opts.validate_in(None)?;
+        let (n1, n0) = (cases.0.len(), controls.0.len());
+        if n1 < 2 || n0 < 2 {
+            return Err(AnalysisError::TooFewPoints {
+                needed: 2,
+                found: n1.min(n0),
+            });
+        }
+        let x: Vec<f64> = cases.0.iter().chain(controls.0).copied().collect();
+        let y: Vec<f64> = cases.1.iter().chain(controls.1).copied().collect();
+        let fp = FunctionParams {
+            r_max: opts.r_max_m,
+            n_steps: opts.n_steps,
+            correction: opts.correction,
+            ..Default::default()
+        };
+        let ctx = Context::new(window.clone(), x.len(), &fp, Needs::K_ONLY)?;
+        let cases_smaller = n1 <= n0;
+        let in_small: Vec<bool> = (0..x.len()).map(|i| (i < n1) == cases_smaller).collect();
+        let (mut obs, capped) =
+            d_curves(&ctx, &x, &y, &LabelSets::observed(&in_small), cases_smaller)?;
+        let observed = obs.remove(0);
+        Ok(LabellingJob {
+            k_small: n1.min(n0),
+            cases_smaller,
+            sims: Vec::with_capacity(opts.n_sim * ctx.r.len()),
+            ctx,
+            x,
+            y,
+            opts: opts.clone(),
+            observed,
+            done: 0,
+            capped,
+        })
+    }
+
+    /// Runs up to `k` more relabellings; returns how many are done.
+    pub fn run_batch(&mut self, k: usize) -> Result<usize, AnalysisError> {
+        let to = (self.done + k).min(self.opts.n_sim);
+        let mut from = self.done;
+        while from < to {
+            let end = (from + PER_PASS).min(to);
+            let sets = LabelSets::random(self.x.len(), self.k_small, self.opts.seed, from, end);
+            let (curves, _) = d_curves(&self.ctx, &self.x, &self.y, &sets, self.cases_smaller)?;
+            for c in curves {
+                self.sims.extend_from_slice(&c.0);
+            }
+            from = end;
+        }
+        self.done = to;
+        Ok(self.done)
+    }
+
+    pub fn done(&self) -> usize {
+        self.done
+    }
+
+    pub fn total(&self) -> usize {
+        self.opts.n_sim
+    }
+
+    /// Finishes the remaining relabellings and summarises.
+    pub fn finish(mut self) -> Result<LabellingResult, AnalysisError> {
+        let rest = self.opts.n_sim - self.done;
+        self.run_batch(rest)?;
+        let r = self.ctx.r.clone();
+        let zero = vec![0.0; r.len()];
+        let (d, k_cases, k_controls) = self.observed;
+        let bands = summarise(
+            &r,
+            &d,
+            &self.sims,
+            &zero,
+            Reference::Theoretical,
+            self.opts.r_min_m.unwrap_or(0.0),
+            self.opts.alpha,
+        );
+        let mut warnings = self.ctx.warnings.clone();
+        warnings.extend(bands.warnings.iter().cloned());
+        if self.capped > 0 {
+            warnings.push(format!(
+                "{} pair weights reached the cap of {}",
+                self.capped, self.ctx.cap
+            ));
+        }
+        let (outcome, ranges, verdict) = verdict(&r, &d, &bands, self.opts.alpha, self.opts.n_sim);
+        let n1 = if self.cases_smaller {
+            self.k_small
+        } else {
+            self.x.len() - self.k_small
+        };
+        let Bands {
+            sim_mean,
+            pointwise_lo,
+            pointwise_hi,
+            mad,
+            dclf,
+            k_rank,
+            global_lo,
+            global_hi,
+            test_r_min,
+            test_r_max,
+            ..
+        } = bands;
+        Ok(LabellingResult {
+            observed: d,
+            k_cases,
+            k_controls,
+            sim_mean,
+            pointwise_lo,
+            pointwise_hi,
+            global_lo,
+            global_hi,
+            test_r_min,
+            test_r_max,
+            mad,
+            dclf,
+            alpha: self.opts.alpha,
+            k_rank,
+            n_sim: self.opts.n_sim,
+            seed: self.opts.seed,
+            n_cases: n1,
+            n_controls: self.x.len() - n1,
+            correction: self.opts.correction,
+            r_max_rule: self.ctx.r_max_rule.clone(),
+            capped_weights: self.capped,
+            outcome,
+            ranges,
+            verdict,
+            caveats: vec![
+                "The controls stand for the population at risk: if they were sampled from a different population, or their addresses are placed differently (geocoding, rounding), D measures that difference too.".into(),
+                "A raised D says cases sit closer together than the population does at those distances; it does not say why, and it is not one test per distance.".into(),
+                "The pointwise band is not a test: a curve crossing it at some distance is expected by chance when many distances are looked at.".into(),
+            ],
+            warnings,
+            r,
+        })
+    }
+}
+
+/// Runs a whole random labelling test at once (no progress reports).
+pub fn random_labelling(
+    cases: (&[f64], &[f64]),
+    controls: (&[f64], &[f64]),
+    window: &Window,
+    opts: &LabellingOptions,
+) -> Result<LabellingResult, AnalysisError> {
+    LabellingJob::new(cases, controls, window, opts)?.finish()
+}
+
+/// The plain-words verdict: where the observed D leaves the global band.
+fn verdict(
+    r: &[f64],
+    d: &[f64],
+    b: &Bands,
+    alpha: f64,
+    m: usize,
+) -> (LabellingOutcome, Vec<DistanceRange>, String) {
+    let mut ranges: Vec<DistanceRange> = Vec::new();
+    let mut last: Option<(usize, Departure)> = None;
+    for k in 0..r.len() {
+        let dep = if !b.in_test[k] {
+            None
+        } else if d[k] > b.global_hi[k] {
+            Some(Departure::Clustered)
+        } else if d[k] < b.global_lo[k] {
+            Some(Departure::Regular)
+        } else {
+            None
+        };
+        match (dep, last) {
+            (Some(x), Some((prev, px))) if prev + 1 == k && px == x => {
+                if let Some(g) = ranges.last_mut() {
+                    g.to_m = r[k];
+                }
+            }
+            (Some(x), _) => ranges.push(DistanceRange {
+                from_m: r[k],
+                to_m: r[k],
+                departure: x,
+            }),
+            _ => {}
+        }
+        last = dep.map(|x| (k, x));
+    }
+    let above = ranges.iter().any(|g| g.departure == Departure::Clustered);
+    let below = ranges.iter().any(|g| g.departure == Departure::Regular);
+    let outcome = match (b.mad.rejects, above, below) {
+        (false, _, _) => LabellingOutcome::ConsistentWithPopulation,
+        (true, true, true) => LabellingOutcome::Mixed,
+        (true, false, true) => LabellingOutcome::MoreSpreadOut,
+        _ => LabellingOutcome::BeyondPopulation,
+    };
+    let list = |dep: Departure| {
+        let parts: Vec<String> = ranges
+            .iter()
+            .filter(|g| g.departure == dep)
+            .map(|g| {
+                if g.from_m == g.to_m {
+                    format!("about {}", fmt_m(g.from_m))
+                } else {
+                    format!("{} to {}", fmt_m(g.from_m), fmt_m(g.to_m))
+                }
+            })
+            .collect();
+        plain_list(&parts)
+    };
+    let test = format!(
+        "maximum-deviation test p = {}, {m} relabellings; DCLF test p = {}",
+        fmt_p(b.mad.p_value),
+        fmt_p(b.dclf.p_value)
+    );
+    let text = match outcome {
+        LabellingOutcome::ConsistentWithPopulation => format!(
+            "Consistent with the population: cases cluster no more than the controls do; D stays inside the global {:.0}% band ({test}).",
+            100.0 * (1.0 - alpha)
+        ),
+        LabellingOutcome::BeyondPopulation => format!(
+            "Cases cluster beyond the population at distances {} ({test}).",
+            list(Departure::Clustered)
+        ),
+        LabellingOutcome::MoreSpreadOut => format!(
+            "Cases are more spread out than the population at distances {} ({test}).",
+            list(Departure::Regular)
+        ),
+        LabellingOutcome::Mixed => format!(
+            "Cases cluster beyond the population at distances {} and are more spread out at {} ({test}).",
+            list(Departure::Clustered),
+            list(Departure::Regular)
+        ),
+    };
+    (outcome, ranges, text)
+}
+
+/// Which points are in the smaller group, for a batch of labellings.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LabelSets {
+    /// Number of points.
+    pub n: usize,
+    /// Indices of the smaller group's points, one list per labelling.
+    pub sets: Vec<Vec<u32>>,
+}
+
+impl LabelSets {
+    /// The labelling given by `in_group` (true = in the smaller group).
+    pub fn observed(in_group: &[bool]) -> LabelSets {
+        LabelSets {
+            n: in_group.len(),
+            sets: vec![in_group
+                .iter()
+                .enumerate()
+                .filter(|(_, &b)| b)
+                .map(|(i, _)| i as u32)
+                .collect()],
+        }
+    }
+
+    /// Random labellings `from..to` of `k` points in the smaller group out
+    /// of `n`: labelling j is a uniform random choice of k (a partial
+    /// Fisher–Yates shuffle) from its own stream `stream_rng(seed, j)`, so
+    /// it does not depend on how the labellings are split into batches.
+    pub fn random(n: usize, k: usize, seed: u64, from: usize, to: usize) -> LabelSets {
+        let mut perm: Vec<u32> = (0..n as u32).collect();
+        let sets = (from..to)
+            .map(|j| {
+                perm.iter_mut().enumerate().for_each(|(i, v)| *v = i as u32);
+                let mut rng = stream_rng(seed, j as u64);
+                for i in 0..k.min(n) {
+                    let r = rng.random_range(i..n);
+                    perm.swap(i, r);
+                }
+                let mut s = perm[..k.min(n)].to_vec();
+                s.sort_unstable();
+                s
+            })
+            .collect();
+        LabelSets { n, sets }
+    }
+}
+
+/// For each labelling of `sets`: the pair-weight sums, per r bin (not
+/// cumulative), of pairs with both points in the smaller group and of pairs
+/// with both points in the larger group, as `(small[s][k], large[s][k])`
+/// flattened labelling by labelling (`s · bins + k`, `bins` = r grid
+/// length). Also returns how many weights reached the cap.
+fn pair_sums(
+    ctx: &Context,
+    x: &[f64],
+    y: &[f64],
+    sets: &LabelSets,
+) -> Result<(Vec<f64>, Vec<f64>, u64), AnalysisError> {
+    let n = x.len();
+    let bins = ctx.r.len();
+    let m = sets.sets.len();
+    let words = m.div_ceil(64).max(1);
+    let mut bits = vec![0u64; n * words];
+    for (s, set) in sets.sets.iter().enumerate() {
+        for &i in set {
+            bits[i as usize * words + s / 64] |= 1u64 << (s % 64);
+        }
+    }
+    // Row sums per point and bin (bin == bins: beyond r_max, unused).
+    let mut row = vec![0.0f64; n * bins];
+    let mut total = vec![0.0f64; bins];
+    let mut small = vec![0.0f64; bins * m];
+    let mut visited = 0usize;
+    let capped = ctx.for_each_k_pair(x, y, |i, j, k, w| {
+        if k >= bins {
+            return;
+        }
+        visited += 1;
+        if visited % 65_536 == 0 {
+            crate::progress::report(visited.min(1 << 40), visited * 2);
+        }
+        row[i * bins + k] += w;
+        row[j * bins + k] += w;
+        total[k] += w;
+        let (bi, bj) = (
+            &bits[i * words..(i + 1) * words],
+            &bits[j * words..(j + 1) * words],
+        );
+        for (wd, (a, b)) in bi.iter().zip(bj).enumerate() {
+            let mut both = a & b;
+            while both != 0 {
+                let s = wd * 64 + both.trailing_zeros() as usize;
+                small[k * m + s] += w;
+                both &= both - 1;
+            }
+        }
+    })?;
+    let mut small_out = vec![0.0f64; m * bins];
+    let mut large_out = vec![0.0f64; m * bins];
+    for (s, set) in sets.sets.iter().enumerate() {
+        for k in 0..bins {
+            let a: f64 = set.iter().map(|&i| row[i as usize * bins + k]).sum();
+            let sm = small[k * m + s];
+            small_out[s * bins + k] = sm;
+            large_out[s * bins + k] = total[k] - a + sm;
+        }
+    }
+    Ok((small_out, large_out, capped))
+}
+
+/// D(r) = K_cases(r) − K_controls(r) for each labelling of `sets`, with
+/// K_cases and K_controls as well: `[(d, k_cases, k_controls)]`, one per
+/// labelling, each on `ctx.r`. `sets` lists the members of the smaller
+/// group; `cases_are_smaller` says whether that group is the cases. The
+/// group sizes are taken from the first labelling.
+#[allow(clippy::type_complexity)]
+pub(crate) fn d_curves(
+    ctx: &Context,
+    x: &[f64],
+    y: &[f64],
+    sets: &LabelSets,
+    cases_are_smaller: bool,
+) -> Result<(Vec<(Vec<f64>, Vec<f64>, Vec<f64>)>, u64), AnalysisError> {
+    let n = x.len();
+    if y.len() != n || sets.n != n {
+        return Err(AnalysisError::BadParameter {
+            name: "points".into(),
+            detail: "coordinate lists and labels differ in length".into(),
+        });
+    }
+    let k_small = sets.sets.first().map_or(0, |s| s.len());
+    let k_large = n - k_small;
+    if k_small < 2 || k_large < 2 {
+        return Err(AnalysisError::TooFewPoints {
+            needed: 2,
+            found: k_small.min(k_large),
+        });
+    }
+    let bins = ctx.r.len();
+    let (small, large, capped) = pair_sums(ctx, x, y, sets)?;
+    let area = ctx.region.area();
+    let k_of = |sums: &[f64], size: usize| -> Vec<f64> {
+        let norm = area / (size as f64 * (size as f64 - 1.0));
+        let mut acc = 0.0;
+        sums.iter()
+            .map(|v| {
+                acc += v;
+                norm * acc
+            })
+            .collect()
+    };
+    let out = (0..sets.sets.len())
+        .map(|s| {
+            let ks = k_of(&small[s * bins..(s + 1) * bins], k_small);
+            let kl = k_of(&large[s * bins..(s + 1) * bins], k_large);
+            let (kc, k0) = if cases_are_smaller {
+                (ks, kl)
+            } else {
+                (kl, ks)
+            };
+            let d = kc.iter().zip(&k0).map(|(a, b)| a - b).collect();
+            (d, kc, k0)
+        })
+        .collect();
+    Ok((out, capped))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::rng::rng_from_seed;
+
+    fn context(w: &Window, n: usize, correction: Correction, r_max: f64) -> Context {
+        let p = FunctionParams {
+            r_max: Some(r_max),
+            n_steps: 20,
+            correction,
+            ..Default::default()
+        };
+        Context::new(w.clone(), n, &p, Needs::K_ONLY).unwrap()
+    }
+
+    /// A clustered pooled pattern in a rectangle with a hole: 60 cases in
+    /// two clumps, 140 controls spread at random.
+    fn pooled() -> (Window, Vec<f64>, Vec<f64>, Vec<bool>) {
+        let w =
+            Window::rectangle_with_hole([0.0, 0.0, 1000.0, 600.0], [400.0, 200.0, 600.0, 400.0])
+                .unwrap();
+        let mut rng = rng_from_seed(21);
+        let (mut x, mut y, mut case) = (vec![], vec![], vec![]);
+        while x.len() < 200 {
+            let c = x.len() < 60;
+            let (px, py) = if c {
+                let (cx, cy) = if x.len() % 2 == 0 {
+                    (150.0, 150.0)
+                } else {
+                    (850.0, 450.0)
+                };
+                (
+                    cx + 60.0 * (rng.random::<f64>() - 0.5),
+                    cy + 60.0 * (rng.random::<f64>() - 0.5),
+                )
+            } else {
+                (1000.0 * rng.random::<f64>(), 600.0 * rng.random::<f64>())
+            };
+            if w.contains(px, py) {
+                x.push(px);
+                y.push(py);
+                case.push(c);
+            }
+        }
+        (w, x, y, case)
+    }
+
+    /// D equals K of the cases minus K of the controls, each computed on its
+    /// own by the crate's K estimator (same window, grid and correction), to
+    /// rounding; for both which-group-is-smaller arrangements.
+    #[test]
+    fn d_is_k_cases_minus_k_controls_computed_apart() {
+        let (w, x, y, case) = pooled();
+        for corr in [
+            Correction::Isotropic,
+            Correction::Translation,
+            Correction::None,
+        ] {
+            let ctx = context(&w, x.len(), corr, 150.0);
+            let pick = |want: bool| -> (Vec<f64>, Vec<f64>) {
+                let idx: Vec<usize> = (0..x.len()).filter(|&i| case[i] == want).collect();
+                (
+                    idx.iter().map(|&i| x[i]).collect(),
+                    idx.iter().map(|&i| y[i]).collect(),
+                )
+            };
+            let k_alone = |want: bool| {
+                let (px, py) = pick(want);
+                let c = context(&w, px.len(), corr, 150.0);
+                c.compute(&px, &py, Needs::K_ONLY).k
+            };
+            let (kc, k0) = (k_alone(true), k_alone(false));
+            for cases_smaller in [true, false] {
+                let in_small: Vec<bool> = case.iter().map(|&c| c == cases_smaller).collect();
+                let (curves, _) =
+                    d_curves(&ctx, &x, &y, &LabelSets::observed(&in_small), cases_smaller).unwrap();
+                let (d, got_c, got_0) = &curves[0];
+                for k in 0..ctx.r.len() {
+                    let tol = 1e-9 * (1.0 + kc[k].abs() + k0[k].abs());
+                    assert!(
+                        (got_c[k] - kc[k]).abs() <= tol,
+                        "{corr:?} cases r={} {} {}",
+                        ctx.r[k],
+                        got_c[k],
+                        kc[k]
+                    );
+                    assert!(
+                        (got_0[k] - k0[k]).abs() <= tol,
+                        "{corr:?} controls r={}",
+                        ctx.r[k]
+                    );
+                    assert!((d[k] - (kc[k] - k0[k])).abs() <= 2.0 * tol);
+                }
+            }
+            // The planted clumps: D clearly above 0 at 50 m.
+            let in_small: Vec<bool> = case.clone();
+            let (curves, _) =
+                d_curves(&ctx, &x, &y, &LabelSets::observed(&in_small), true).unwrap();
+            let k50 = ctx.r.iter().position(|&r| r >= 50.0).unwrap();
+            assert!(curves[0].0[k50] > 0.0);
+        }
+    }
+
+    /// A batch of relabellings gives each labelling the same curves as
+    /// computing it alone (the bit columns do not mix labellings), and a
+    /// labelling does not depend on the batch it is in.
+    #[test]
+    fn batches_give_each_labelling_its_own_curves() {
+        let (w, x, y, _) = pooled();
+        let ctx = context(&w, x.len(), Correction::Isotropic, 120.0);
+        let all = LabelSets::random(x.len(), 60, 77, 0, 70);
+        let (batch, _) = d_curves(&ctx, &x, &y, &all, true).unwrap();
+        for s in [0usize, 1, 63, 64, 69] {
+            let one = LabelSets {
+                n: x.len(),
+                sets: vec![all.sets[s].clone()],
+            };
+            let (alone, _) = d_curves(&ctx, &x, &y, &one, true).unwrap();
+            for (a, b) in batch[s].0.iter().zip(&alone[0].0) {
+                assert!((a - b).abs() <= 1e-9 * (1.0 + a.abs()), "labelling {s}");
+            }
+        }
+        let later = LabelSets::random(x.len(), 60, 77, 64, 70);
+        assert_eq!(later.sets[..], all.sets[64..70]);
+        assert!(all
+            .sets
+            .iter()
+            .all(|s| s.len() == 60 && s.windows(2).all(|p| p[0] < p[1])));
+    }
+
+    /// Under random labelling E[D(r)] = 0 (Diggle & Chetwynd 1991): over 400
+    /// relabellings of a pattern, the mean of D at each r lies within four
+    /// standard errors of 0 (common practice for a Monte Carlo mean; the
+    /// standard error is the relabellings' own SD / √400).
+    #[test]
+    fn relabelled_d_has_mean_zero() {
+        let (w, x, y, _) = pooled();
+        let ctx = context(&w, x.len(), Correction::Translation, 150.0);
+        let sets = LabelSets::random(x.len(), 60, 5, 0, 400);
+        let (curves, _) = d_curves(&ctx, &x, &y, &sets, true).unwrap();
+        for k in 1..ctx.r.len() {
+            let v: Vec<f64> = curves.iter().map(|c| c.0[k]).collect();
+            let mean = v.iter().sum::<f64>() / v.len() as f64;
+            let sd =
+                (v.iter().map(|d| (d - mean).powi(2)).sum::<f64>() / (v.len() - 1) as f64).sqrt();
+            assert!(sd > 0.0);
+            assert!(
+                mean.abs() < 4.0 * sd / 20.0,
+                "r={} mean {mean} sd {sd}",
+                ctx.r[k]
+            );
+        }
+    }
+
+    fn split(x: &[f64], y: &[f64], case: &[bool]) -> [(Vec<f64>, Vec<f64>); 2] {
+        let pick = |want: bool| {
+            let idx: Vec<usize> = (0..x.len()).filter(|&i| case[i] == want).collect();
+            (
+                idx.iter().map(|&i| x[i]).collect::<Vec<f64>>(),
+                idx.iter().map(|&i| y[i]).collect::<Vec<f64>>(),
+            )
+        };
+        [pick(true), pick(false)]
+    }
+
+    /// The planted clumps of cases: the test rejects, says "beyond the
+    /// population" at short distances, and the job's batches give the same
+    /// result as one run (relabelling j depends only on the seed and j).
+    #[test]
+    fn planted_case_clumps_are_found_beyond_the_population() {
+        let (w, x, y, case) = pooled();
+        let [(cx, cy), (kx, ky)] = split(&x, &y, &case);
+        let opts = LabellingOptions {
+            n_sim: 99,
+            seed: 3,
+            r_max_m: Some(150.0),
+            ..Default::default()
+        };
+        let res = random_labelling((&cx, &cy), (&kx, &ky), &w, &opts).unwrap();
+        assert_eq!((res.n_cases, res.n_controls), (60, 140));
+        assert_eq!(
+            res.outcome,
+            LabellingOutcome::BeyondPopulation,
+            "{}",
+            res.verdict
+        );
+        assert!(
+            (res.mad.p_value - 0.01).abs() < 1e-12,
+            "{}",
+            res.mad.p_value
+        );
+        assert!(res
+            .verdict
+            .starts_with("Cases cluster beyond the population at distances"));
+        assert!(res.ranges[0].from_m <= 30.0, "{:?}", res.ranges);
+        let mut job = LabellingJob::new((&cx, &cy), (&kx, &ky), &w, &opts).unwrap();
+        for _ in 0..10 {
+            job.run_batch(7).unwrap();
+        }
+        let batched = job.finish().unwrap();
+        assert_eq!(batched.observed, res.observed);
+        assert_eq!(batched.sim_mean, res.sim_mean);
+        assert_eq!(batched.mad.statistic, res.mad.statistic);
+        // Cases and controls swapped: D changes sign, the band with it.
+        let swapped = random_labelling((&kx, &ky), (&cx, &cy), &w, &opts).unwrap();
+        for k in 0..res.r.len() {
+            assert!(
+                (swapped.observed[k] + res.observed[k]).abs()
+                    <= 1e-9 * (1.0 + res.observed[k].abs())
+            );
+        }
+        assert_eq!(
+            swapped.outcome,
+            LabellingOutcome::MoreSpreadOut,
+            "{}",
+            swapped.verdict
+        );
+    }
+
+    /// Level: cases drawn at random from the pooled points (the null
+    /// hypothesis itself), 200 seeded datasets, 39 relabellings each, α =
+    /// 0.05: the number of rejections by the maximum-deviation test lies in
+    /// the binomial 99 % interval [3, 19] for 200 trials at p = 0.05
+    /// (scipy.stats.binom.interval(0.99, 200, 0.05)).
+    #[test]
+    fn level_under_random_labelling() {
+        let w = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
+        let mut rejections = 0;
+        for d in 0..200u64 {
+            let mut rng = rng_from_seed(1000 + d);
+            // An uneven population: a third of the points in one corner.
+            let (mut x, mut y) = (vec![], vec![]);
+            for i in 0..90 {
+                let s = if i % 3 == 0 { 300.0 } else { 1000.0 };
+                x.push(s * rng.random::<f64>());
+                y.push(s * rng.random::<f64>());
+            }
+            let sets = LabelSets::random(90, 30, 77 + d, 0, 1);
+            let mut case = vec![false; 90];
+            for &i in &sets.sets[0] {
+                case[i as usize] = true;
+            }
+            let [(cx, cy), (kx, ky)] = split(&x, &y, &case);
+            let opts = LabellingOptions {
+                n_sim: 39,
+                seed: d,
+                r_max_m: Some(250.0),
+                n_steps: 20,
+                ..Default::default()
+            };
+            if random_labelling((&cx, &cy), (&kx, &ky), &w, &opts)
+                .unwrap()
+                .mad
+                .rejects
+            {
+                rejections += 1;
+            }
+        }
+        assert!(
+            (3..=19).contains(&rejections),
+            "{rejections} of 200 rejected"
+        );
+    }
+
+    #[test]
+    fn border_correction_and_tiny_groups_are_refused() {
+        let (w, x, y, case) = pooled();
+        let [(cx, cy), (kx, ky)] = split(&x, &y, &case);
+        let opts = LabellingOptions {
+            correction: Correction::Border,
+            ..Default::default()
+        };
+        assert!(random_labelling((&cx, &cy), (&kx, &ky), &w, &opts).is_err());
+        let (w, x, y, case) = pooled();
+        let ctx = context(&w, x.len(), Correction::Border, 100.0);
+        assert!(d_curves(&ctx, &x, &y, &LabelSets::observed(&case), true).is_err());
+        let ctx = context(&w, x.len(), Correction::Isotropic, 100.0);
+        let mut one = vec![false; x.len()];
+        one[3] = true;
+        assert!(matches!(
+            d_curves(&ctx, &x, &y, &LabelSets::observed(&one), true),
+            Err(AnalysisError::TooFewPoints { .. })
+        ));
+    }
+}

@@ -1,0 +1,15 @@
+//! Cases against the population at risk.
+//!
+//! Every test elsewhere in the crate compares events with complete spatial
+//! randomness. Where people (or houses, or observers) are spread unevenly,
+//! events follow them, and "clustered" then says little. The methods here
+//! compare cases with controls (a sample of the population at risk) instead:
+//!
+//! * [`labelling`]: the random labelling test of Diggle & Chetwynd (1991),
+//!   D(r) = K_cases(r) − K_controls(r) with Monte Carlo relabellings.
+
+pub mod labelling;
+
+pub use labelling::{
+    random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
+};
