@@ -371,13 +371,14 @@ pub fn spec_of<P: Params>() -> Spec {
 
 /// Every analysis's parameters, by the JS method that takes them.
 pub fn all() -> Vec<Spec> {
-    use crate::{clusters, distance, input, intensity, privacy, scan};
+    use crate::{clusters, distance, input, intensity, privacy, risk, scan};
     vec![
         spec_of::<input::ReadOptions>(),
         spec_of::<input::AreaOptions>(),
         spec_of::<distance::QuadratParams>(),
         spec_of::<distance::ClarkEvansParams>(),
         spec_of::<distance::EnvelopeOptions>(),
+        spec_of::<risk::LabellingOptions>(),
         spec_of::<intensity::SurfaceParams>(),
         spec_of::<clusters::DbscanOptions>(),
         spec_of::<clusters::KDistanceParams>(),
@@ -409,7 +410,7 @@ pub fn check_options(
     v: Value,
     extent_m: Option<f64>,
 ) -> Option<Result<(), DecodeError>> {
-    use crate::{clusters, distance, input, intensity, privacy, scan};
+    use crate::{clusters, distance, input, intensity, privacy, risk, scan};
     fn run<P: Params>(v: Value, e: Option<f64>) -> Result<(), DecodeError> {
         decode::<P>(v, e).map(|_| ())
     }
@@ -420,6 +421,7 @@ pub fn check_options(
         "quadratTest" => run::<distance::QuadratParams>(v, extent_m),
         "clarkEvans" => run::<distance::ClarkEvansParams>(v, extent_m),
         "envelopeStart" => run::<distance::EnvelopeOptions>(v, extent_m),
+        "labellingStart" => run::<risk::LabellingOptions>(v, extent_m),
         "intensitySurface" => run::<intensity::SurfaceParams>(v, extent_m),
         "dbscan" => run::<clusters::DbscanOptions>(v, extent_m),
         "kDistance" => run::<clusters::KDistanceParams>(v, extent_m),

@@ -400,6 +400,51 @@ export interface EnvelopeChartLabels {
   band_label: string;
 }
 
+// ---- Beyond the population at risk ----
+
+/** `labellingStart`: the run is prepared, D(r) of the data computed. */
+export interface LabellingStarted {
+  total: number;
+  distances: number;
+  seed: number;
+  n_cases: number;
+  n_controls: number;
+}
+
+/** The random labelling test (Diggle & Chetwynd 1991): D(r) = K_cases − K_controls. */
+export interface LabellingResult {
+  r: number[];
+  /** D(r) of the data, m². */
+  observed: number[];
+  k_cases: number[];
+  k_controls: number[];
+  sim_mean: number[];
+  pointwise_lo: number[];
+  pointwise_hi: number[];
+  /** The band of the maximum-deviation test, around 0. */
+  global_lo: number[];
+  global_hi: number[];
+  test_r_min: number;
+  test_r_max: number;
+  mad: GlobalTest;
+  dclf: GlobalTest;
+  alpha: number;
+  k_rank: number;
+  n_sim: number;
+  seed: number;
+  n_cases: number;
+  n_controls: number;
+  correction: 'isotropic' | 'translation' | 'none';
+  r_max_rule: string;
+  capped_weights: number;
+  outcome: 'consistent_with_population' | 'beyond_population' | 'more_spread_out' | 'mixed';
+  /** Where D leaves the global band: 'clustered' = cases closer together than the population. */
+  ranges: DistanceRange[];
+  verdict: string;
+  caveats: string[];
+  warnings: string[];
+}
+
 // ---- Where is it dense? ----
 
 /** `hotspotsInfo`. */

@@ -739,7 +739,7 @@ pub(crate) fn summarise(
     alpha: f64,
 ) -> Bands {
     let nr = r.len();
-    let m = if nr == 0 { 0 } else { sims.len() / nr };
+    let m = sims.len().checked_div(nr).unwrap_or(0);
     let sim = |j: usize| &sims[j * nr..(j + 1) * nr];
     let mut sim_mean = vec![0.0; nr];
     let mut lo = vec![f64::INFINITY; nr];

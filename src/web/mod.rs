@@ -15,6 +15,7 @@
 // `Session::extras` under the module's own key.
 mod clustering;
 mod hotspots;
+mod risk;
 mod sharing;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};

@@ -312,3 +312,38 @@ test('one long step reports the share done to globalThis.cloisterProgress after 
   assert.ok(seen.every((f, i) => f >= 0 && f <= 1 && (i === 0 || f >= seen[i - 1] + 0.01)), seen.join(' '));
   assert.ok(seen[seen.length - 1] >= 0.95, `last ${seen[seen.length - 1]}`);
 });
+
+test('random labelling (Diggle & Chetwynd 1991): the demo cases cluster beyond the population; reproducible by seed; counts refused', () => {
+  const s = new Session();
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  assert.equal(throws(() => s.labellingStart({})).code, 'no_controls');
+  s.loadControls(file('demo-data/population.csv'), {});
+  const run = (o) => {
+    const st = s.labellingStart(o);
+    assert.deepEqual([st.n_cases, st.n_controls], [1500, 3000]);
+    while (s.labellingStep(40) < st.total);
+    return s.labellingFinish();
+  };
+  const r = run({ n_sim: 99, seed: 11, r_max_m: 1500 });
+  // The demo's cases include planted clusters that the population does not
+  // have (examples/make_demo.rs): raised D at short distances.
+  assert.equal(r.outcome, 'beyond_population', r.verdict);
+  assert.ok(r.ranges.some((g) => g.departure === 'clustered' && g.from_m <= 300), JSON.stringify(r.ranges));
+  assert.equal(r.mad.p_value, 0.01);
+  for (let k = 0; k < r.r.length; k++) assert.ok(Math.abs(r.observed[k] - (r.k_cases[k] - r.k_controls[k])) <= 1e-6 * (1 + Math.abs(r.k_cases[k])));
+  // The same seed gives the same run, batch sizes aside.
+  const again = run({ n_sim: 99, seed: 11, r_max_m: 1500 });
+  assert.deepEqual(again.sim_mean, r.sim_mean);
+  assert.equal(throws(() => s.labellingStart({ correction: 'border' })).code, 'bad_parameter');
+  assert.equal(throws(() => s.labellingStep(1)).code, 'no_job');
+  // A population file with a count column is not a set of individuals.
+  const counts = 'x,y,count\n' + Array.from({ length: 40 }, (_, i) => `${(i % 8) * 100 + 50},${Math.floor(i / 8) * 100 + 50},${1 + (i % 3)}`).join('\n');
+  const p = new Session();
+  p.loadEvents(new TextEncoder().encode('x,y\n' + Array.from({ length: 30 }, (_, i) => `${(i * 37) % 800 + 10},${(i * 53) % 500 + 10}`).join('\n')), {});
+  p.setAreaFallback('bounding_box');
+  p.loadControls(new TextEncoder().encode(counts), {});
+  const e = throws(() => p.labellingStart({ n_sim: 9 }));
+  assert.equal(e.code, 'needs_individuals', e.message);
+  assert.match(e.message, /one point per control/);
+});

@@ -49,6 +49,10 @@ export function runScenario() {
   record('envelopeAdd', '4..8', s.envelopeAdd(4, curves));
   s.envelopeStep(started.total);
   record('envelopeFinish', 'L', s.envelopeFinish());
+  const lab = record('labellingStart', 'demo, 19', s.labellingStart({ n_sim: 19, seed: 4, n_steps: 10 }));
+  record('labellingStep', '10', s.labellingStep(10));
+  s.labellingStep(lab.total);
+  record('labellingFinish', 'demo', s.labellingFinish());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());

@@ -62,6 +62,7 @@ const CASES = {
   quadratTest: { call: (s, o) => s.quadratTest(o), bad: { n_x: 4 }, key: 'n_x', valid: ['nx', 'ny', 'n_sim', 'seed'] },
   clarkEvans: { call: (s, o) => s.clarkEvans(o), bad: { nsim: 0 }, key: 'nsim', valid: ['n_sim', 'seed'] },
   envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
+  labellingStart: { call: (s, o) => s.labellingStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'r_max_m', 'correction'] },
   intensitySurface: { call: (s, o) => s.intensitySurface(o), bad: { kernal: 'quartic' }, key: 'kernal', valid: ['kernel', 'method', 'fixed_m'] },
   dbscan: { call: (s, o) => s.dbscan(o), bad: { eps_m: 150, minsamples: 8 }, key: 'minsamples', valid: ['eps_m', 'min_samples', 'use_weights'] },
   scanStart: { call: (s, o) => s.scanStart(o), bad: { n_sims: 9 }, key: 'n_sims', valid: ['n_sim', 'max_share', 'seed'] },
@@ -79,7 +80,7 @@ const NO_OPTIONS = new Set([
   'constructor', 'free', 'clearAll', 'clearControls', 'clearArea', 'setAreaFallback', 'study', 'summary',
   'mapLayers', 'rejections', 'envelopeStep', 'envelopeFinish', 'envelopeShare', 'envelopeHelperStart',
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
-  'scanFinish', 'maskResult', 'sharingCautions',
+  'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -267,7 +268,7 @@ test('parameterSpec: one list of names, units, defaults and limits, matching wha
 // What each analysis is called with when its options are walked: a valid
 // base (for options that are required) and the call.
 const WALK = {
-  quadratTest: {}, clarkEvans: {}, envelopeStart: {}, intensitySurface: {},
+  quadratTest: {}, clarkEvans: {}, envelopeStart: {}, labellingStart: {}, intensitySurface: {},
   dbscan: { base: { eps_m: 150 } }, scanStart: {}, maskDonut: { base: { seed: 1 } },
   maskKAnonymity: { base: { seed: 1 } }, maskingCost: { needsMask: true }, aggregate: {},
   exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},

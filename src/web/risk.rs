@@ -1,0 +1,106 @@
+//! Exports for "Beyond the population at risk": cases (the events) against
+//! controls (the population layer).
+//!
+//! # JS API (methods of `Session`)
+//! * `labellingStart(options) -> {total, distances, seed, n_cases,
+//!   n_controls}`: the random labelling test of Diggle & Chetwynd (1991)
+//!   (options [`LabellingOptions`]: `n_sim`, `seed`, `alpha`, `r_min_m`,
+//!   `r_max_m`, `n_steps`, `correction`); D(r) of the data is computed here.
+//!   Needs a population layer of individual controls (one point per
+//!   control); a layer with a count column is refused with `needs_individuals`.
+//! * `labellingStep(k) -> done`: runs up to `k` more relabellings.
+//! * `labellingFinish() -> result`: bands, global tests and the verdict (a
+//!   [`LabellingResult`]).
+//!
+//! The methods follow the worker's job protocol; the running job lives in
+//! `Session::extras` under [`KEY`], so loading other data drops it.
+
+use super::{analysis_error, decode, js_error, to_js, Session};
+use crate::risk::{LabellingJob, LabellingOptions};
+use serde::Serialize;
+use wasm_bindgen::prelude::*;
+
+const KEY: &str = "risk-labelling";
+
+#[derive(Serialize)]
+struct Started {
+    total: usize,
+    distances: usize,
+    seed: u64,
+    n_cases: usize,
+    n_controls: usize,
+}
+
+fn no_job() -> JsValue {
+    js_error(
+        "no_job",
+        "no random labelling run is in progress (start one first; loading other data ends a run)",
+        None,
+    )
+}
+
+#[wasm_bindgen]
+impl Session {
+    /// Starts a random labelling test of the events (cases) against the
+    /// population layer (controls). Returns `{total, distances, seed,
+    /// n_cases, n_controls}`.
+    #[wasm_bindgen(js_name = labellingStart, unchecked_return_type = "LabellingStarted")]
+    pub fn labelling_start(
+        &mut self,
+        #[wasm_bindgen(unchecked_param_type = "LabellingStartOptions")] options: JsValue,
+    ) -> Result<JsValue, JsValue> {
+        let (o, _) = decode::<LabellingOptions>(options, self.extent_m())?;
+        self.extras.remove(KEY);
+        let s = self.study_ref()?;
+        let controls = s.controls.as_ref().ok_or_else(|| {
+            js_error(
+                "no_controls",
+                "load a population file (controls) first: the test compares the events with it",
+                None,
+            )
+        })?;
+        if let Some(w) = controls.weights_or_zero() {
+            if w.iter().any(|&v| v != 1.0) {
+                return Err(js_error(
+                    "needs_individuals",
+                    "the random labelling test needs one point per control (a sample of the \
+                     population, or all addresses); this population file has a count column. \
+                     Load it without the count column mapped if each row is one person, or use \
+                     the relative-risk surface, which works with counts",
+                    None,
+                ));
+            }
+        }
+        let job = LabellingJob::new(
+            (s.events.x(), s.events.y()),
+            (controls.x(), controls.y()),
+            &s.window,
+            &o,
+        )
+        .map_err(|e| analysis_error(&e))?;
+        let started = Started {
+            total: job.total(),
+            distances: job.r().len(),
+            seed: o.seed,
+            n_cases: s.events.len(),
+            n_controls: controls.len(),
+        };
+        self.extras.insert(KEY, Box::new(job));
+        to_js(&started)
+    }
+
+    /// Runs up to `k` more relabellings; returns how many are done so far.
+    #[wasm_bindgen(js_name = labellingStep)]
+    pub fn labelling_step(&mut self, k: f64) -> Result<usize, JsValue> {
+        let k = super::count_arg(k, "labellingStep", "k")?;
+        let job = self.extra_mut::<LabellingJob>(KEY).ok_or_else(no_job)?;
+        job.run_batch(k.max(1)).map_err(|e| analysis_error(&e))
+    }
+
+    /// Finishes the run: bands, global tests and the verdict.
+    #[wasm_bindgen(js_name = labellingFinish, unchecked_return_type = "LabellingResult")]
+    pub fn labelling_finish(&mut self) -> Result<JsValue, JsValue> {
+        let job = self.take_extra::<LabellingJob>(KEY).ok_or_else(no_job)?;
+        to_js(&job.finish().map_err(|e| analysis_error(&e))?)
+    }
+}
