@@ -259,7 +259,7 @@ impl crate::params::Params for EnvelopeOptions {
     const NAME: &'static str = "envelopeStart";
     fn fields() -> Vec<crate::params::Field> {
         use crate::params::{Field, EXTENT_FACTOR};
-        vec![
+        let mut v = vec![
             Field::choice(
                 "function",
                 &[
@@ -281,23 +281,11 @@ impl crate::params::Params for EnvelopeOptions {
                 &["theoretical", "simulation_mean"],
                 "reference curve of the global tests",
             ),
-            Field::number(
-                "r_min_m",
-                Some("m"),
-                "start of the tested distances; empty = 0 (the kernel half-width for g)",
-            )
-            .at_least(0.0)
-            .extent(EXTENT_FACTOR)
-            .optional(),
-            Field::number(
-                "r_max_m",
-                Some("m"),
-                "largest distance; empty = a rule from the study area's shape",
-            )
-            .above(0.0, None)
-            .extent(EXTENT_FACTOR)
-            .optional(),
-            Field::integer("n_steps", "steps from 0 to the largest distance").range(2.0, 1000.0),
+        ];
+        v.extend(distance_fields(
+            "start of the tested distances; empty = 0 (the kernel half-width for g)",
+        ));
+        v.extend([
             Field::choice(
                 "correction",
                 &["isotropic", "translation", "border", "none"],
@@ -315,23 +303,54 @@ impl crate::params::Params for EnvelopeOptions {
             )
             .scale_length(EXTENT_FACTOR)
             .optional(),
-        ]
+        ]);
+        v
     }
     fn check(&self) -> Result<(), AnalysisError> {
-        if let (Some(a), Some(b)) = (self.r_min_m, self.r_max_m) {
-            if a >= b {
-                return Err(crate::params::bad(
-                    "r_min_m",
-                    format!(
-                        "must be less than r_max_m ({} m; got {} m)",
-                        crate::params::num(b),
-                        crate::params::num(a)
-                    ),
-                ));
-            }
-        }
-        Ok(())
+        check_distance_range(self.r_min_m, self.r_max_m)
     }
+}
+
+/// The options `r_min_m` (described by `r_min_doc`), `r_max_m` and
+/// `n_steps` of a test over a grid of distances, with their limits (shared
+/// by the envelopes and the random labelling test).
+pub(crate) fn distance_fields(r_min_doc: &'static str) -> [crate::params::Field; 3] {
+    use crate::params::{Field, EXTENT_FACTOR};
+    [
+        Field::number("r_min_m", Some("m"), r_min_doc)
+            .at_least(0.0)
+            .extent(EXTENT_FACTOR)
+            .optional(),
+        Field::number(
+            "r_max_m",
+            Some("m"),
+            "largest distance; empty = a rule from the study area's shape",
+        )
+        .above(0.0, None)
+        .extent(EXTENT_FACTOR)
+        .optional(),
+        Field::integer("n_steps", "steps from 0 to the largest distance").range(2.0, 1000.0),
+    ]
+}
+
+/// `r_min_m` must be below `r_max_m` when both are given.
+pub(crate) fn check_distance_range(
+    r_min: Option<f64>,
+    r_max: Option<f64>,
+) -> Result<(), AnalysisError> {
+    if let (Some(a), Some(b)) = (r_min, r_max) {
+        if a >= b {
+            return Err(crate::params::bad(
+                "r_min_m",
+                format!(
+                    "must be less than r_max_m ({} m; got {} m)",
+                    crate::params::num(b),
+                    crate::params::num(a)
+                ),
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// Parameters of an envelope run.
@@ -617,30 +636,15 @@ impl EnvelopeJob {
                 self.capped, self.ctx.cap
             ));
         }
-        let Bands {
-            sim_mean,
-            pointwise_lo: lo,
-            pointwise_hi: hi,
-            reference_curve,
-            in_test,
-            mad,
-            dclf,
-            k_rank,
-            global_lo,
-            global_hi,
-            test_r_min,
-            test_r_max,
-            ..
-        } = bands;
         let verdict = verdict_for(
             f,
             &r,
             &self.observed,
-            &global_lo,
-            &global_hi,
-            &in_test,
-            &mad,
-            &dclf,
+            &bands.global_lo,
+            &bands.global_hi,
+            &bands.in_test,
+            &bands.mad,
+            &bands.dclf,
             self.params.alpha,
             m,
         );
@@ -650,19 +654,19 @@ impl EnvelopeJob {
             observed: self.observed.clone(),
             theoretical,
             reference: self.params.reference,
-            reference_curve,
-            sim_mean,
-            pointwise_lo: lo,
-            pointwise_hi: hi,
+            reference_curve: bands.reference_curve,
+            sim_mean: bands.sim_mean,
+            pointwise_lo: bands.pointwise_lo,
+            pointwise_hi: bands.pointwise_hi,
             pointwise_label: "pointwise — not a test".into(),
-            global_lo,
-            global_hi,
-            test_r_min,
-            test_r_max,
-            mad,
-            dclf,
+            global_lo: bands.global_lo,
+            global_hi: bands.global_hi,
+            test_r_min: bands.test_r_min,
+            test_r_max: bands.test_r_max,
+            mad: bands.mad,
+            dclf: bands.dclf,
             alpha: self.params.alpha,
-            k_rank,
+            k_rank: bands.k_rank,
             n_sim: m,
             seed: self.params.seed,
             n,

@@ -82,36 +82,31 @@ pub(crate) fn plain_list(parts: &[String]) -> String {
     }
 }
 
-#[allow(clippy::too_many_arguments)]
-pub(crate) fn verdict_for(
-    f: SummaryFunction,
+/// The runs of consecutive tested distances where `observed` leaves the
+/// band [`lo`, `hi`]: above it is `Clustered` when `above_means_clustered`,
+/// else `Regular` (and below the other way round).
+pub(crate) fn departures(
     r: &[f64],
     observed: &[f64],
     lo: &[f64],
     hi: &[f64],
     in_test: &[bool],
-    mad: &GlobalTest,
-    dclf: &GlobalTest,
-    alpha: f64,
-    m: usize,
-) -> Verdict {
+    above_means_clustered: bool,
+) -> Vec<DistanceRange> {
+    let (above, below) = if above_means_clustered {
+        (Departure::Clustered, Departure::Regular)
+    } else {
+        (Departure::Regular, Departure::Clustered)
+    };
     let mut ranges: Vec<DistanceRange> = Vec::new();
     let mut last: Option<(usize, Departure)> = None;
     for k in 0..r.len() {
         let dep = if !in_test[k] {
             None
         } else if observed[k] > hi[k] {
-            Some(if f.above_means_clustered() {
-                Departure::Clustered
-            } else {
-                Departure::Regular
-            })
+            Some(above)
         } else if observed[k] < lo[k] {
-            Some(if f.above_means_clustered() {
-                Departure::Regular
-            } else {
-                Departure::Clustered
-            })
+            Some(below)
         } else {
             None
         };
@@ -130,6 +125,39 @@ pub(crate) fn verdict_for(
         }
         last = dep.map(|d| (k, d));
     }
+    ranges
+}
+
+/// The ranges of one kind in plain words: "45 m to 1.1 km and about 1.2 km".
+pub(crate) fn range_list(ranges: &[DistanceRange], d: Departure) -> String {
+    let parts = ranges
+        .iter()
+        .filter(|x| x.departure == d)
+        .map(|x| {
+            if x.from_m == x.to_m {
+                format!("about {}", fmt_m(x.from_m))
+            } else {
+                format!("{} to {}", fmt_m(x.from_m), fmt_m(x.to_m))
+            }
+        })
+        .collect::<Vec<_>>();
+    plain_list(&parts)
+}
+
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn verdict_for(
+    f: SummaryFunction,
+    r: &[f64],
+    observed: &[f64],
+    lo: &[f64],
+    hi: &[f64],
+    in_test: &[bool],
+    mad: &GlobalTest,
+    dclf: &GlobalTest,
+    alpha: f64,
+    m: usize,
+) -> Verdict {
+    let ranges = departures(r, observed, lo, hi, in_test, f.above_means_clustered());
     let clustered = ranges.iter().any(|x| x.departure == Departure::Clustered);
     let regular = ranges.iter().any(|x| x.departure == Departure::Regular);
     let outcome = match (mad.rejects, clustered, regular) {
@@ -138,20 +166,7 @@ pub(crate) fn verdict_for(
         (true, false, true) => Outcome::Regular,
         _ => Outcome::Clustered,
     };
-    let list = |d: Departure| -> String {
-        let parts = ranges
-            .iter()
-            .filter(|x| x.departure == d)
-            .map(|x| {
-                if x.from_m == x.to_m {
-                    format!("about {}", fmt_m(x.from_m))
-                } else {
-                    format!("{} to {}", fmt_m(x.from_m), fmt_m(x.to_m))
-                }
-            })
-            .collect::<Vec<_>>();
-        plain_list(&parts)
-    };
+    let list = |d: Departure| range_list(&ranges, d);
     let label = f.label();
     let mut text = match outcome {
         Outcome::ConsistentWithCsr => format!(

@@ -51,9 +51,11 @@
 
 use crate::distance::csr::stream_rng;
 use crate::distance::edge::Correction;
-use crate::distance::envelope::{summarise, Bands, GlobalTest, Reference};
+use crate::distance::envelope::{
+    check_distance_range, distance_fields, summarise, Bands, GlobalTest, Reference,
+};
 use crate::distance::functions::{Context, FunctionParams, Needs};
-use crate::distance::verdict::{fmt_m, fmt_p, plain_list, Departure, DistanceRange};
+use crate::distance::verdict::{departures, fmt_p, range_list, Departure, DistanceRange};
 use crate::error::AnalysisError;
 use crate::window::Window;
 use rand::RngExt;
@@ -95,48 +97,22 @@ impl Default for LabellingOptions {
 impl crate::params::Params for LabellingOptions {
     const NAME: &'static str = "labellingStart";
     fn fields() -> Vec<crate::params::Field> {
-        use crate::params::{Field, EXTENT_FACTOR};
-        vec![
+        use crate::params::Field;
+        let mut v = vec![
             Field::integer("n_sim", "random relabellings of cases and controls").range(1.0, 9999.0),
             Field::seed("seed of the relabellings"),
             Field::number("alpha", None, "level of the global tests").above(0.0, Some(0.5)),
-            Field::number(
-                "r_min_m",
-                Some("m"),
-                "start of the tested distances; empty = 0",
-            )
-            .at_least(0.0)
-            .extent(EXTENT_FACTOR)
-            .optional(),
-            Field::number(
-                "r_max_m",
-                Some("m"),
-                "largest distance; empty = a rule from the study area's shape",
-            )
-            .above(0.0, None)
-            .extent(EXTENT_FACTOR)
-            .optional(),
-            Field::integer("n_steps", "steps from 0 to the largest distance").range(2.0, 1000.0),
-            Field::choice(
-                "correction",
-                &["isotropic", "translation", "none"],
-                "edge correction of both K estimates",
-            ),
-        ]
+        ];
+        v.extend(distance_fields("start of the tested distances; empty = 0"));
+        v.push(Field::choice(
+            "correction",
+            &["isotropic", "translation", "none"],
+            "edge correction of both K estimates",
+        ));
+        v
     }
     fn check(&self) -> Result<(), AnalysisError> {
-        if let (Some(a), Some(b)) = (self.r_min_m, self.r_max_m) {
-            if a >= b {
-                return Err(crate::params::bad(
-                    "r_min_m",
-                    format!(
-                        "must be less than r_max_m ({} m; got {} m)",
-                        crate::params::num(b),
-                        crate::params::num(a)
-                    ),
-                ));
-            }
-        }
+        check_distance_range(self.r_min_m, self.r_max_m)?;
         if self.correction == Correction::Border {
             return Err(crate::params::bad(
                 "correction",
@@ -382,34 +358,21 @@ impl LabellingJob {
         } else {
             self.x.len() - self.k_small
         };
-        let Bands {
-            sim_mean,
-            pointwise_lo,
-            pointwise_hi,
-            mad,
-            dclf,
-            k_rank,
-            global_lo,
-            global_hi,
-            test_r_min,
-            test_r_max,
-            ..
-        } = bands;
         Ok(LabellingResult {
             observed: d,
             k_cases,
             k_controls,
-            sim_mean,
-            pointwise_lo,
-            pointwise_hi,
-            global_lo,
-            global_hi,
-            test_r_min,
-            test_r_max,
-            mad,
-            dclf,
+            sim_mean: bands.sim_mean,
+            pointwise_lo: bands.pointwise_lo,
+            pointwise_hi: bands.pointwise_hi,
+            global_lo: bands.global_lo,
+            global_hi: bands.global_hi,
+            test_r_min: bands.test_r_min,
+            test_r_max: bands.test_r_max,
+            mad: bands.mad,
+            dclf: bands.dclf,
             alpha: self.opts.alpha,
-            k_rank,
+            k_rank: bands.k_rank,
             n_sim: self.opts.n_sim,
             seed: self.opts.seed,
             n_cases: n1,
@@ -449,33 +412,7 @@ fn verdict(
     alpha: f64,
     m: usize,
 ) -> (LabellingOutcome, Vec<DistanceRange>, String) {
-    let mut ranges: Vec<DistanceRange> = Vec::new();
-    let mut last: Option<(usize, Departure)> = None;
-    for k in 0..r.len() {
-        let dep = if !b.in_test[k] {
-            None
-        } else if d[k] > b.global_hi[k] {
-            Some(Departure::Clustered)
-        } else if d[k] < b.global_lo[k] {
-            Some(Departure::Regular)
-        } else {
-            None
-        };
-        match (dep, last) {
-            (Some(x), Some((prev, px))) if prev + 1 == k && px == x => {
-                if let Some(g) = ranges.last_mut() {
-                    g.to_m = r[k];
-                }
-            }
-            (Some(x), _) => ranges.push(DistanceRange {
-                from_m: r[k],
-                to_m: r[k],
-                departure: x,
-            }),
-            _ => {}
-        }
-        last = dep.map(|x| (k, x));
-    }
+    let ranges = departures(r, d, &b.global_lo, &b.global_hi, &b.in_test, true);
     let above = ranges.iter().any(|g| g.departure == Departure::Clustered);
     let below = ranges.iter().any(|g| g.departure == Departure::Regular);
     let outcome = match (b.mad.rejects, above, below) {
@@ -484,20 +421,7 @@ fn verdict(
         (true, false, true) => LabellingOutcome::MoreSpreadOut,
         _ => LabellingOutcome::BeyondPopulation,
     };
-    let list = |dep: Departure| {
-        let parts: Vec<String> = ranges
-            .iter()
-            .filter(|g| g.departure == dep)
-            .map(|g| {
-                if g.from_m == g.to_m {
-                    format!("about {}", fmt_m(g.from_m))
-                } else {
-                    format!("{} to {}", fmt_m(g.from_m), fmt_m(g.to_m))
-                }
-            })
-            .collect();
-        plain_list(&parts)
-    };
+    let list = |dep: Departure| range_list(&ranges, dep);
     let test = format!(
         "maximum-deviation test p = {}, {m} relabellings; DCLF test p = {}",
         fmt_p(b.mad.p_value),
