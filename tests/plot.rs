@@ -71,7 +71,43 @@ fn l_data() -> EnvelopeChartData {
         global_hi: r.iter().map(|r| r + 3.0).collect(),
         r,
         alpha: 0.05,
+        ..Default::default()
     }
+}
+
+/// A curve that is not a summary function (the random labelling D(r)):
+/// its own y label with the unit filled in, its own name for the reference
+/// line, and the function view keeps its values (no πr² taken off).
+#[test]
+fn envelope_chart_takes_a_label_for_other_curves() {
+    let r: Vec<f64> = (0..=20).map(|i| 500.0 * i as f64).collect();
+    let d: Vec<f64> = r.iter().map(|r| 2.0e5 * (r / 3000.0).sin()).collect();
+    let zero = vec![0.0; r.len()];
+    let data = EnvelopeChartData {
+        function: SummaryFunction::K,
+        observed: d,
+        theoretical: zero.clone(),
+        pointwise_lo: r.iter().map(|v| -10.0 * v).collect(),
+        pointwise_hi: r.iter().map(|v| 10.0 * v).collect(),
+        global_lo: r.iter().map(|v| -20.0 * v).collect(),
+        global_hi: r.iter().map(|v| 20.0 * v).collect(),
+        r,
+        alpha: 0.05,
+        y_label: Some("D(r) = K cases − K controls ({unit}²)".into()),
+        reference_label: Some("as the population (D = 0)".into()),
+    };
+    let o = EnvelopeChartOptions {
+        view: View::Function,
+        ..Default::default()
+    };
+    let (svg, drawn) = envelope_svg(&data, &o, (760, 420)).unwrap();
+    assert_eq!(drawn.y_label, "D(r) = K cases − K controls (km²)");
+    let t: Vec<String> = texts(&svg).into_iter().map(|t| t.0).collect();
+    assert!(t.iter().any(|x| x == "as the population (D = 0)"), "{t:?}");
+    assert!(
+        !t.iter().any(|x| x == "complete spatial randomness"),
+        "{t:?}"
+    );
 }
 
 fn envelope_svg(

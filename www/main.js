@@ -20,6 +20,7 @@ import { watchParameterLimits } from './param-limits.js';
 import { mountClustering } from './analyses/clustering.js';
 import { mountHotspots } from './analyses/hotspots.js';
 import { mountSharing } from './analyses/sharing.js';
+import { mountRisk } from './analyses/risk.js';
 
 /* `wasm_bindgen` is the one global this module reads: the wasm-bindgen glue
  * (built with --target no-modules) defines it in its own inline script. */
@@ -130,7 +131,7 @@ async function boot() {
 /** The analysis panels, in the order their sections appear. One that fails to
  * set itself up is reported and the others still come up. */
 function mountPanels() {
-  for (const [name, mount] of [['clustering', mountClustering], ['hotspots', mountHotspots], ['sharing', mountSharing]]) {
+  for (const [name, mount] of [['clustering', mountClustering], ['population', mountRisk], ['hotspots', mountHotspots], ['sharing', mountSharing]]) {
     try {
       mount(panelApi);
     } catch (err) {

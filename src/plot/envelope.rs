@@ -43,6 +43,16 @@ pub struct EnvelopeChartData {
     #[serde(deserialize_with = "nan_vec")]
     pub global_hi: Vec<f64>,
     pub alpha: f64,
+    /// A y-axis label instead of the function's own (`{unit}` stands for
+    /// the chart's length unit), for curves that are not one of the summary
+    /// functions (the random labelling D(r), drawn as `function: "k"` in
+    /// the function view).
+    #[serde(default)]
+    pub y_label: Option<String>,
+    /// The legend's name of the `theoretical` curve instead of "complete
+    /// spatial randomness".
+    #[serde(default)]
+    pub reference_label: Option<String>,
 }
 
 impl EnvelopeChartData {
@@ -58,6 +68,8 @@ impl EnvelopeChartData {
             global_lo: r.global_lo.clone(),
             global_hi: r.global_hi.clone(),
             alpha: r.alpha,
+            y_label: None,
+            reference_label: None,
         }
     }
 }
@@ -204,6 +216,10 @@ pub fn draw_envelope_chart<DB: DrawingBackend>(
         (SummaryFunction::EmptySpace, _) => "empty space F(r)".into(),
         (SummaryFunction::J, _) => "J(r)".into(),
     };
+    let y_label = match &d.y_label {
+        Some(l) => l.replace("{unit}", unit),
+        None => y_label,
+    };
     let x_label = format!("distance r ({unit})");
     let mut ymin = f64::INFINITY;
     let mut ymax = f64::NEG_INFINITY;
@@ -233,7 +249,12 @@ pub fn draw_envelope_chart<DB: DrawingBackend>(
     let font = ("sans-serif", pf(13.0)).into_font().color(&ink);
     let items: [(&str, u8); 3] = [
         ("observed", 0),
-        ("complete spatial randomness", 1),
+        (
+            d.reference_label
+                .as_deref()
+                .unwrap_or("complete spatial randomness"),
+            1,
+        ),
         (band_label.as_str(), 2),
     ];
     let width = area.dim_in_pixel().0 as i32;

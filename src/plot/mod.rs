@@ -79,8 +79,24 @@ pub(crate) fn tick(v: f64) -> String {
     let a = v.abs();
     if a == 0.0 {
         "0".into()
-    } else if !(1e-3..1e6).contains(&a) {
+    } else if !(1e-3..1e9).contains(&a) {
         format!("{v:.1e}")
+    } else if a >= 10_000.0 {
+        // Thousands grouped by a narrow space, never a comma or point
+        // (which read as decimals in half the world's locales).
+        let digits = format!("{:.0}", a);
+        let mut out = String::new();
+        for (i, c) in digits.chars().enumerate() {
+            if i > 0 && (digits.len() - i) % 3 == 0 {
+                out.push('\u{202f}');
+            }
+            out.push(c);
+        }
+        if v < 0.0 {
+            format!("-{out}")
+        } else {
+            out
+        }
     } else if a >= 100.0 {
         format!("{v:.0}")
     } else if a >= 1.0 {
@@ -143,7 +159,10 @@ mod tests {
         assert_eq!(tick(1500.0), "1500");
         assert_eq!(tick(2.50), "2.5");
         assert_eq!(tick(0.0125), "0.0125");
-        assert_eq!(tick(2.5e7), "2.5e7");
+        assert_eq!(tick(2.5e7), "25\u{202f}000\u{202f}000");
+        assert_eq!(tick(-800_000.0), "-800\u{202f}000");
+        assert_eq!(tick(10_000.0), "10\u{202f}000");
+        assert_eq!(tick(2.5e9), "2.5e9");
     }
 
     #[test]

@@ -103,7 +103,9 @@ impl crate::params::Params for LabellingOptions {
             Field::seed("seed of the relabellings"),
             Field::number("alpha", None, "level of the global tests").above(0.0, Some(0.5)),
         ];
-        v.extend(distance_fields("start of the tested distances; empty = 0"));
+        v.extend(distance_fields(
+            "start of the tested distances; empty = the first distance above 0",
+        ));
         v.push(Field::choice(
             "correction",
             &["isotropic", "translation", "none"],
@@ -307,7 +309,9 @@ impl LabellingJob {
             &sims_scaled,
             &zero,
             Reference::Theoretical,
-            self.opts.r_min_m.unwrap_or(0.0),
+            // r = 0 says nothing about clustering (D(0) is 0 but for
+            // coincident points): tested from the first positive distance.
+            self.opts.r_min_m.unwrap_or(f64::MIN_POSITIVE),
             self.opts.alpha,
         );
         // Back on D's own scale: the pointwise band and mean of the raw

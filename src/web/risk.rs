@@ -8,7 +8,8 @@
 //!   `r_max_m`, `n_steps`, `correction`); D(r) of the data is computed here.
 //!   Needs a population layer of individual controls (one point per
 //!   control); a layer with a count column is refused with `needs_individuals`.
-//! * `labellingStep(k) -> done`: runs up to `k` more relabellings.
+//! * `labellingStep(k) -> done`: runs `k` more relabellings (64 at the
+//!   least, as one visit of the pairs serves many; never past `total`).
 //! * `labellingFinish() -> result`: bands, global tests and the verdict (a
 //!   [`LabellingResult`]).
 //!
@@ -21,6 +22,9 @@ use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "risk-labelling";
+/// Relabellings per step at the least: a step's cost is mostly one visit of
+/// the pooled pairs, which serves up to 256 relabellings at once.
+const MIN_STEP: usize = 64;
 
 #[derive(Serialize)]
 struct Started {
@@ -89,12 +93,14 @@ impl Session {
         to_js(&started)
     }
 
-    /// Runs up to `k` more relabellings; returns how many are done so far.
+    /// Runs `k` more relabellings (at least [`MIN_STEP`]: each step visits
+    /// every pair once, whatever its size); returns how many are done.
     #[wasm_bindgen(js_name = labellingStep)]
     pub fn labelling_step(&mut self, k: f64) -> Result<usize, JsValue> {
         let k = super::count_arg(k, "labellingStep", "k")?;
         let job = self.extra_mut::<LabellingJob>(KEY).ok_or_else(no_job)?;
-        job.run_batch(k.max(1)).map_err(|e| analysis_error(&e))
+        job.run_batch(k.max(MIN_STEP))
+            .map_err(|e| analysis_error(&e))
     }
 
     /// Finishes the run: bands, global tests and the verdict.

@@ -1,0 +1,65 @@
+// "Compared with the population": the random labelling test on the demo in
+// the page (cases against the population file), its chart, verdict and
+// details; the section waits for a population file; Cancel stops a run.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { join } from 'node:path';
+import { launch, openPage, loadDemo, act, settle, OUT } from './helpers.mjs';
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+test('random labelling on the demo: D above the band at short distances, chart drawn, verdict in words', async () => {
+  const { page, log } = await openPage(browser);
+  assert.equal(await page.isVisible('#population'), true);
+  assert.equal(await page.isDisabled('#pop-run'), true, 'nothing loaded: cannot run');
+  assert.equal(await page.isVisible('#pop-needs'), true);
+  await loadDemo(page);
+  assert.equal(await page.isVisible('#pop-needs'), false);
+  await page.fill('#pop-nsim', '99');
+  await page.fill('#pop-rmax', '1500');
+  await page.fill('#pop-seed', '11');
+  await page.click('#pop-run');
+  await page.waitForFunction(() => !document.getElementById('pop-result').hidden, null, { timeout: 120000 });
+  await settle(page);
+  const verdict = await page.textContent('#pop-verdict');
+  // Same settings as the Node test of the demo (tests/node/hotspots.test.mjs).
+  assert.match(verdict, /^Cases cluster beyond the population at distances/);
+  assert.equal(await page.getAttribute('#pop-verdict', 'data-outcome'), 'beyond_population');
+  assert.equal(await page.getAttribute('#pop-chart', 'data-drawn'), '1');
+  assert.match(await page.getAttribute('#pop-chart', 'aria-label'), /D\(r\) = K cases − K controls/);
+  const details = await page.textContent('#pop-details');
+  assert.match(details, /1,500 events, 3,000 controls/);
+  assert.match(details, /p = 0\.01 \(0 of 99 relabellings/);
+  assert.match(await page.textContent('#pop-progress-text'), /99 relabellings done/);
+  // Ink in the chart: the canvas is not blank.
+  const inked = await page.evaluate(() => {
+    const c = document.getElementById('pop-chart');
+    const d = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;
+    let n = 0;
+    for (let i = 0; i < d.length; i += 4) if (d[i] < 200) n++;
+    return n;
+  });
+  assert.ok(inked > 2000, `${inked} dark pixels`);
+  await page.locator('#population').screenshot({ path: join(OUT, 'population-labelling.png') });
+  // Without the population file the section says what it needs.
+  await act(page, () => page.click('#controls-clear'));
+  assert.equal(await page.isVisible('#pop-needs'), true);
+  assert.equal(await page.isDisabled('#pop-run'), true);
+  assert.equal(await page.isVisible('#pop-result'), false);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('a long random labelling run can be cancelled', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  await page.fill('#pop-nsim', '9999');
+  await page.fill('#pop-seed', '5');
+  await page.click('#pop-run');
+  await page.waitForFunction(() => Number(document.getElementById('pop-progress').value) >= 64, null, { timeout: 120000 });
+  await page.click('#pop-cancel');
+  await page.waitForFunction(() => document.getElementById('pop-progress-text').textContent === 'Cancelled.', null, { timeout: 5000 });
+  assert.equal(await page.isDisabled('#pop-run'), false);
+  assert.deepEqual(log.pageErrors, []);
+});

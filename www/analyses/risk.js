@@ -1,0 +1,197 @@
+/* Cloister panel "Compared with the population": cases (the events)
+ * against controls (the population file). First method: the random
+ * labelling test of Diggle & Chetwynd (1991), D(r) = K of the cases − K of
+ * the controls against relabellings. Every number comes from the engine
+ * (src/web/risk.rs, src/risk/); the chart is the clustering chart module
+ * drawing D with its own label. */
+
+export function mountRisk(C) {
+  const { el, fmt, fmtMetres, runJob, setStatus, showError, clearError } = C;
+  const $ = (id) => document.getElementById(id);
+  const state = { job: null, token: 0, result: null, ready: false };
+
+  const field = (label, input, hint) => el('label', { class: 'clu-field' }, el('span', null, label), input, hint ? el('small', null, hint) : null);
+
+  const body = C.addSection('population', 'Compared with the population',
+    'Cases follow where people live, so against chance alone they nearly always look clustered. ' +
+    'With a population file (controls: one point per person of a sample, or per address) loaded, ' +
+    'these tests ask whether cases cluster more than the population does.');
+
+  const correction = el('select', { id: 'pop-correction' },
+    el('option', { value: 'isotropic' }, 'isotropic'),
+    el('option', { value: 'translation' }, 'translation'),
+    el('option', { value: 'none' }, 'none'));
+  body.append(
+    el('p', { class: 'hint', id: 'pop-needs' }, 'Load events and a population file (step 3) to use this section.'),
+    el('fieldset', { class: 'clu-box', id: 'pop-labelling-box' },
+      el('legend', null, 'Do cases cluster more than the population? (random labelling)'),
+      el('p', { class: 'hint' },
+        'D(r) is the K function of the cases minus that of the controls: above 0, cases sit closer together than the population at that distance. ' +
+        'The band comes from relabelling: as many "cases" drawn at random from all the points, many times (Diggle & Chetwynd 1991).'),
+      el('div', { class: 'clu-grid' },
+        field('Relabellings', el('input', { type: 'number', id: 'pop-nsim', 'data-param': 'labellingStart.n_sim', value: '199' }), '199 is usual; 999 for a smaller p'),
+        field('Largest distance', el('input', { type: 'number', id: 'pop-rmax', 'data-param': 'labellingStart.r_max_m', placeholder: 'automatic', step: 'any' }), 'metres; empty = a quarter of the area\u2019s shorter side'),
+        field(C.term('isotropic', 'Edge correction'), correction, 'the same for cases and controls'),
+        field('Random seed', el('input', { type: 'text', id: 'pop-seed', inputmode: 'numeric', autocomplete: 'off', spellcheck: 'false' }), 'empty = a new one; type one to repeat a run')),
+      el('div', { class: 'clu-actions' },
+        el('button', { type: 'button', id: 'pop-run', disabled: true }, 'Run'),
+        el('button', { type: 'button', id: 'pop-cancel', class: 'quiet', disabled: true }, 'Cancel'),
+        el('progress', { id: 'pop-progress', max: 1, value: 0, hidden: true }),
+        el('span', { id: 'pop-progress-text', class: 'hint', 'aria-live': 'polite' })),
+      el('div', { id: 'pop-result', class: 'clu-result', hidden: true },
+        el('div', { class: 'clu-chart-wrap' }, el('canvas', { id: 'pop-chart', width: 760, height: 420, role: 'img', 'aria-label': 'D(r) chart' })),
+        el('p', { class: 'hint', id: 'pop-band-note' }),
+        el('p', { id: 'pop-verdict', class: 'clu-verdict' }),
+        el('ul', { id: 'pop-caveats', class: 'clu-caveats' }),
+        el('dl', { id: 'pop-details', class: 'clu-dl' }),
+        el('ul', { id: 'pop-warnings', class: 'clu-warnings' }))),
+    el('p', { class: 'hs-caution' }, el('strong', null, 'A raised risk is not a cause. '),
+      'Cases and controls must come from the same population and be placed the same way (geocoding, rounding); otherwise the test measures that difference. Local disclosure rules apply to anything shared.'));
+
+  function setRunning(on) {
+    $('pop-run').disabled = on || !state.ready;
+    $('pop-cancel').disabled = !on;
+    $('pop-progress').hidden = !on;
+  }
+
+  function readOptions() {
+    const o = { correction: correction.value };
+    const n = Number($('pop-nsim').value);
+    const lim = C.param('labellingStart', 'n_sim');
+    if (!(Number.isInteger(n) && n >= lim.min && n <= lim.max)) throw { message: `relabellings must be a whole number from ${fmt(lim.min)} to ${fmt(lim.max)} (199 is usual).` };
+    o.n_sim = n;
+    const rm = $('pop-rmax').value.trim();
+    if (rm !== '') {
+      const v = Number(rm);
+      if (!(v > 0)) throw { message: 'the largest distance must be a positive number of metres, or empty.' };
+      o.r_max_m = v;
+    }
+    const sd = $('pop-seed').value.trim();
+    if (sd === '') {
+      const a = new Uint32Array(2);
+      crypto.getRandomValues(a);
+      o.seed = a[0] * 2 ** 21 + (a[1] >>> 11);
+    } else {
+      const v = Number(sd);
+      if (!(Number.isInteger(v) && v >= 0 && v <= Number.MAX_SAFE_INTEGER)) throw { message: 'the seed must be a whole number, 0 or more.' };
+      o.seed = v;
+    }
+    return o;
+  }
+
+  async function run() {
+    clearError();
+    let params;
+    try {
+      params = readOptions();
+    } catch (err) {
+      showError('Could not start the test', err);
+      return;
+    }
+    const token = ++state.token;
+    setRunning(true);
+    $('pop-progress').max = params.n_sim;
+    $('pop-progress').value = 0;
+    $('pop-progress-text').textContent = 'Computing D for the data…';
+    setStatus('Relabelling cases and controls…');
+    const job = runJob({ start: 'labellingStart', step: 'labellingStep', finish: 'labellingFinish', params }, ({ done, total }) => {
+      if (token !== state.token) return;
+      $('pop-progress').max = total;
+      $('pop-progress').value = done;
+      $('pop-progress-text').textContent = `${fmt(done)} / ${fmt(total)} relabellings`;
+    });
+    state.job = job;
+    try {
+      const res = await job.promise;
+      if (token !== state.token) return;
+      state.result = res;
+      $('pop-progress-text').textContent = `${fmt(res.n_sim)} relabellings done`;
+      render();
+      setStatus('Random labelling test done.');
+    } catch (err) {
+      if (token !== state.token) return;
+      if (err && err.code === 'cancelled') {
+        $('pop-progress-text').textContent = 'Cancelled.';
+        setStatus('Random labelling test cancelled.');
+      } else {
+        $('pop-progress-text').textContent = '';
+        if (!(err && (err.code === 'no_job' || err.code === 'engine_stopped'))) showError('The random labelling test could not run', err);
+      }
+    } finally {
+      if (token === state.token) {
+        state.job = null;
+        setRunning(false);
+      }
+    }
+  }
+
+  const pEq = (p) => (p < 0.001 ? 'p < 0.001' : `p = ${fmt(p, 3)}`);
+
+  function drawChart() {
+    const res = state.result;
+    if (!res) return;
+    const canvas = $('pop-chart');
+    const w = Math.max(420, Math.min(960, Math.floor((canvas.parentElement.clientWidth || 762) - 2)));
+    const h = Math.round(Math.min(460, Math.max(300, w * 0.55)));
+    const dpr = Math.min(4, Math.max(1, window.devicePixelRatio || 1));
+    canvas.width = Math.round(w * dpr);
+    canvas.height = Math.round(h * dpr);
+    canvas.style.width = `${w}px`;
+    canvas.style.height = `${h}px`;
+    const data = {
+      function: 'k', r: res.r, observed: res.observed, theoretical: res.r.map(() => 0),
+      pointwise_lo: res.pointwise_lo, pointwise_hi: res.pointwise_hi, global_lo: res.global_lo, global_hi: res.global_hi,
+      alpha: res.alpha, y_label: 'D(r) = K cases \u2212 K controls ({unit}\u00b2)', reference_label: 'as the population (D = 0)',
+    };
+    try {
+      const drawn = C.engine().drawEnvelopeChart('pop-chart', data, { view: 'function', units: 'auto', band: 'global', scale: dpr });
+      canvas.dataset.drawn = '1';
+      canvas.setAttribute('aria-label', `Chart: ${drawn.y_label} against ${drawn.x_label}, with the global band of the test`);
+    } catch (err) {
+      canvas.dataset.drawn = '0';
+      showError('Could not draw the chart', err);
+    }
+  }
+
+  function render() {
+    const res = state.result;
+    $('pop-result').hidden = !res;
+    if (!res) return;
+    $('pop-band-note').textContent = `The shaded band is the global ${fmt(100 * (1 - res.alpha), 3)}% band of the test, scaled at each distance by how much D varies there under relabelling: if D leaves it anywhere, the test rejects "cases cluster as the population does" at that level.`;
+    const v = $('pop-verdict');
+    v.textContent = res.verdict;
+    v.dataset.outcome = res.outcome;
+    $('pop-caveats').replaceChildren(...res.caveats.map((c) => el('li', null, c)));
+    const dl = $('pop-details');
+    dl.replaceChildren(...[
+      ['Cases, controls', `${fmt(res.n_cases)} events, ${fmt(res.n_controls)} controls`],
+      [C.term('mad', 'Maximum-deviation test'), `${pEq(res.mad.p_value)} (${fmt(res.mad.at_least_as_extreme)} of ${fmt(res.n_sim)} relabellings at least as extreme)`],
+      [C.term('dclf', 'Integrated-deviation test (DCLF)'), pEq(res.dclf.p_value)],
+      ['Distances tested', `${fmtMetres(res.test_r_min)} to ${fmtMetres(res.test_r_max)}`],
+      ['Largest distance', res.r_max_rule],
+      ['Edge correction', String(res.correction)],
+      ['Relabellings', fmt(res.n_sim)],
+      ['Seed', String(res.seed)],
+      ['Smallest possible p', fmt(1 / (res.n_sim + 1), 3)],
+    ].flatMap(([k, val]) => [el('dt', null, k), el('dd', null, val)]));
+    $('pop-warnings').replaceChildren(...(res.warnings || []).map((w) => el('li', null, w)));
+    drawChart();
+  }
+
+  $('pop-run').addEventListener('click', run);
+  $('pop-cancel').addEventListener('click', () => { if (state.job) state.job.cancel(); });
+  window.addEventListener('resize', () => { if (state.result) drawChart(); });
+
+  C.onSnapshot((snap) => {
+    state.token++;
+    if (state.job) state.job.cancel();
+    state.job = null;
+    state.result = null;
+    const study = snap && snap.study;
+    state.ready = Boolean(study && study.events > 1 && study.controls > 1);
+    $('pop-needs').hidden = state.ready;
+    $('pop-result').hidden = true;
+    $('pop-progress-text').textContent = '';
+    setRunning(false);
+  });
+}
