@@ -11,10 +11,13 @@
 //!    ([`GridIndex::estimate_pairs_within`], O(cells));
 //! 2. times the same computation (same study area, distances and
 //!    correction) on a seeded random subsample of at most
-//!    [`PROBE_EVENTS`] events, and on as many simulated (uniform) events,
-//!    repeating each until [`PROBE_MIN_MS`] have passed;
-//! 3. scales by work: time = cost per unit × (pairs + events), the cost
-//!    per unit taken from the subsample, the pairs of one simulation
+//!    [`PROBE_EVENTS`] events and on a third of them, and on as many
+//!    simulated (uniform) events, repeating each until [`PROBE_MIN_MS`]
+//!    have passed;
+//! 3. scales by work: time = a·events + b·pairs, a and b solved from the
+//!    two sizes (pairs grow as the square of the events, so the two
+//!    separate); when noise makes either negative, one cost per
+//!    event-or-pair from the larger size. The pairs of one simulation
 //!    n(n − 1)/(m(m − 1)) times those of the m simulated events (exact in
 //!    expectation under complete spatial randomness). G, F and J do not
 //!    visit pairs: their time is scaled by the number of events.
@@ -93,11 +96,46 @@ pub struct EnvelopeCost {
     pub faster: Vec<FasterSetting>,
 }
 
-/// Cost per unit of work (ms per pair-or-event) of the observed and of a
-/// simulated curve, for one correction.
+/// Time of a curve as `per_event`·events + `per_pair`·pairs, ms.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Cost {
+    pub per_event: f64,
+    pub per_pair: f64,
+}
+
+impl Cost {
+    fn of(&self, events: f64, pairs: f64) -> f64 {
+        self.per_event * events + self.per_pair * pairs
+    }
+
+    /// The cost that gives times `t1` for (events `n1`, pairs `p1`) and
+    /// `t2` for (`n2`, `p2`) (two equations, two unknowns); when the
+    /// solution is not two non-negative finite numbers (noise, or pairs
+    /// that do not grow faster than events), one cost per event-or-pair
+    /// from the larger measurement.
+    pub(crate) fn fit(n1: f64, p1: f64, t1: f64, n2: f64, p2: f64, t2: f64) -> Cost {
+        let det = n1 * p2 - n2 * p1;
+        let a = (t1 * p2 - t2 * p1) / det;
+        let b = (n1 * t2 - n2 * t1) / det;
+        if a.is_finite() && b.is_finite() && a >= 0.0 && b >= 0.0 && det.abs() > 0.0 {
+            Cost {
+                per_event: a,
+                per_pair: b,
+            }
+        } else {
+            let u = t2 / (n2 + p2).max(1.0);
+            Cost {
+                per_event: u,
+                per_pair: u,
+            }
+        }
+    }
+}
+
+/// The costs of the observed and of a simulated curve, for one correction.
 struct UnitCost {
-    observed: f64,
-    simulated: f64,
+    observed: Cost,
+    simulated: Cost,
 }
 
 /// Mean time of `f`, repeated until [`PROBE_MIN_MS`] passed.
@@ -180,6 +218,9 @@ pub fn estimate_envelope_cost(
     let sy: Vec<f64> = idx[..m].iter().map(|&i| pattern.y()[i]).collect();
     let (cx, cy) = region.sample_uniform(m, &mut stream_rng(p.seed, 0));
 
+    // A third of the subsample (the first m/3 of the same draw) for the
+    // second size; none when there are too few events to tell the two apart.
+    let m_small = if m >= 300 { m / 3 } else { 0 };
     let pairs_at = |x: &[f64], y: &[f64], r: f64| -> f64 {
         if pairs_based {
             GridIndex::with_cell(x, y, r / 4.0).estimate_pairs_within(r)
@@ -195,6 +236,8 @@ pub fn estimate_envelope_cost(
     let reach = r_max + extra;
     let probe_obs_pairs = pairs_at(&sx, &sy, reach);
     let probe_sim_pairs = pairs_at(&cx, &cy, reach);
+    let small_obs_pairs = pairs_at(&sx[..m_small], &sy[..m_small], reach);
+    let small_sim_pairs = pairs_at(&cx[..m_small], &cy[..m_small], reach);
     let pairs = if m == n {
         probe_obs_pairs
     } else {
@@ -209,30 +252,43 @@ pub fn estimate_envelope_cost(
         fp.r_max = Some(r_max);
         fp.bandwidth = Some(bandwidth);
         fp.correction = correction;
-        let ctx = Context::new(region.clone(), m, &fp, needs)?;
-        let t_obs = timed(clock, || {
-            std::hint::black_box(ctx.compute(&sx, &sy, needs));
-        });
         let mut j = 1u64;
-        let t_sim = timed(clock, || {
-            let (x, y) = region.sample_uniform(m, &mut stream_rng(p.seed, j));
-            j += 1;
-            std::hint::black_box(ctx.compute(&x, &y, needs));
-        });
+        let mut measure = |k: usize, clock: &mut dyn FnMut() -> f64| {
+            let ctx = Context::new(region.clone(), k, &fp, needs)?;
+            let t_obs = timed(clock, || {
+                std::hint::black_box(ctx.compute(&sx[..k], &sy[..k], needs));
+            });
+            let t_sim = timed(clock, || {
+                let (x, y) = region.sample_uniform(k, &mut stream_rng(p.seed, j));
+                j += 1;
+                std::hint::black_box(ctx.compute(&x, &y, needs));
+            });
+            Ok::<_, AnalysisError>((t_obs, t_sim))
+        };
+        let (t_obs, t_sim) = measure(m, clock)?;
+        let mf = m as f64;
+        if m_small < 2 {
+            return Ok(UnitCost {
+                observed: Cost::fit(0.0, 0.0, 0.0, mf, probe_obs_pairs, t_obs),
+                simulated: Cost::fit(0.0, 0.0, 0.0, mf, probe_sim_pairs, t_sim),
+            });
+        }
+        let (s_obs, s_sim) = measure(m_small, clock)?;
+        let ms = m_small as f64;
         Ok(UnitCost {
-            observed: t_obs / (probe_obs_pairs + m as f64),
-            simulated: t_sim / (probe_sim_pairs + m as f64),
+            observed: Cost::fit(ms, small_obs_pairs, s_obs, mf, probe_obs_pairs, t_obs),
+            simulated: Cost::fit(ms, small_sim_pairs, s_sim, mf, probe_sim_pairs, t_sim),
         })
     };
     let unit = unit_cost(p.functions.correction, clock)?;
     let nf = n as f64;
     let times = |u: &UnitCost, obs_pairs: f64, sim_pairs: f64, n_sim: usize| -> (f64, f64) {
-        let curve = u.observed * (obs_pairs + nf);
-        let sim = u.simulated * (sim_pairs + nf);
+        let curve = u.observed.of(nf, obs_pairs);
+        let sim = u.simulated.of(nf, sim_pairs);
         (curve, curve + n_sim as f64 * sim / workers as f64)
     };
     let (curve_ms, run_ms) = times(&unit, pairs, simulated_pairs, p.n_sim);
-    let simulation_ms = unit.simulated * (simulated_pairs + nf);
+    let simulation_ms = unit.simulated.of(nf, simulated_pairs);
 
     let mut faster = Vec::new();
     for (k, what) in [(99usize, "usual for a first look"), (39, "a rough answer")] {
@@ -360,6 +416,24 @@ mod tests {
         assert!(one.curve_ms > 5.0 && one.curve_ms < (8000.0f64 / 3000.0).powi(2) * 1.05);
     }
 
+    /// The two-size fit recovers a known cost, and falls back to one cost
+    /// per event-or-pair when the measurements contradict it.
+    #[test]
+    fn cost_fit_solves_the_two_sizes() {
+        // 0.01 ms per event, 0.0002 ms per pair: 1000 events with 50,000
+        // pairs take 10 + 10 = 20 ms; 3000 with 450,000 take 30 + 90 = 120.
+        let c = Cost::fit(1000.0, 50_000.0, 20.0, 3000.0, 450_000.0, 120.0);
+        assert!(
+            (c.per_event - 0.01).abs() < 1e-12 && (c.per_pair - 2e-4).abs() < 1e-15,
+            "{c:?}"
+        );
+        assert!((c.of(30_000.0, 4.5e7) - (300.0 + 9000.0)).abs() < 1e-6);
+        // The same time at both sizes: no non-negative solution.
+        let c = Cost::fit(1000.0, 50_000.0, 20.0, 3000.0, 450_000.0, 20.0);
+        assert_eq!(c.per_event, c.per_pair);
+        assert!((c.per_event - 20.0 / 453_000.0).abs() < 1e-15);
+    }
+
     #[test]
     fn faster_settings_are_faster_and_fit_the_function() {
         let w = rect();
@@ -369,14 +443,15 @@ mod tests {
             ..Default::default()
         };
         // A slow fake clock so that the run is long: 100 ms per reading
-        // for the first 5 readings (the start, then two readings for each
-        // of the two timings of the chosen correction: one repeat passes
-        // PROBE_MIN_MS), then 50 ms (the border timings),
+        // for the first 9 readings (the start, then two readings for each
+        // of the four timings of the chosen correction, two sizes of
+        // observed and simulated events: one repeat passes PROBE_MIN_MS),
+        // then 50 ms (the border timings),
         // as if the border correction took half the time.
         let (mut t, mut reads) = (0.0, 0);
         let mut slow = || {
             reads += 1;
-            t += if reads <= 5 { 100.0 } else { 50.0 };
+            t += if reads <= 9 { 100.0 } else { 50.0 };
             t
         };
         let c = estimate_envelope_cost(&pat, &w, &o, 1, &mut slow).unwrap();

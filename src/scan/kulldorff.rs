@@ -679,6 +679,9 @@ impl ScanJob {
         max: usize,
     ) -> ScanCost {
         let before = self.null_max.len();
+        // The Bernoulli draws shuffle `individuals` in place, so later runs
+        // depend on it: keep it to put back.
+        let kept = self.individuals.clone();
         let t0 = clock();
         let mut dt = 0.0;
         while self.null_max.len() < self.o.n_sim && self.null_max.len() - before < max.max(1) {
@@ -690,6 +693,7 @@ impl ScanJob {
         }
         let timed = self.null_max.len() - before;
         self.null_max.truncate(before);
+        self.individuals = kept;
         let replicate_ms = if timed > 0 {
             (dt / timed as f64).max(0.0)
         } else {

@@ -371,6 +371,20 @@ fn timed_replicates_estimate_the_rest_and_count() {
         .finish();
     assert_eq!(timed.null_maxima, plain.null_maxima);
     assert_eq!(timed.p_value, plain.p_value);
+    // The same for the case–control model, whose draws shuffle a list of
+    // individuals in place (S25 with 1000 people per region, cases among them).
+    let b = ScanOptions {
+        n_sim: 99,
+        seed: 8,
+        ..Default::default()
+    };
+    let mut job = ScanJob::from_regions(&s25(), ScanModel::Bernoulli, &b).unwrap();
+    job.time_replicates(&mut || 0.0, 5.0, 7);
+    let timed = job.finish();
+    let plain = ScanJob::from_regions(&s25(), ScanModel::Bernoulli, &b)
+        .unwrap()
+        .finish();
+    assert_eq!(timed.null_maxima, plain.null_maxima);
     // At most `max` runs, and never past the total.
     let few = ScanOptions { n_sim: 3, ..o };
     let mut job = ScanJob::from_regions(&s25(), ScanModel::Poisson, &few).unwrap();
