@@ -668,7 +668,7 @@ impl ScanJob {
     /// Runs chance runs one at a time until `min_ms` passed on `clock()`
     /// (milliseconds) or `max` were run, and estimates from their time
     /// how long the rest take, and the faster settings: fewer chance runs
-    /// (199, 99) and a smaller largest circle (25 %, 10 % of the
+    /// (999, 199, 99) and a smaller largest circle (25 %, 10 % of the
     /// population), scaled by [`ScanJob::replicate_work`]. The timed runs
     /// are then forgotten, so the job is as before (its steps and result
     /// are unchanged; the measurement costs their time once).
@@ -701,7 +701,7 @@ impl ScanJob {
         };
         let left = self.o.n_sim - self.null_max.len();
         let mut faster = Vec::new();
-        for k in [199usize, 99] {
+        for k in [999usize, 199, 99] {
             if self.o.n_sim > k {
                 faster.push(ScanFaster {
                     option: "n_sim".into(),

@@ -80,9 +80,9 @@ test('a long scan asks first with faster settings; while it runs it says how lon
   assert.match(text, /^The 99,999 chance runs will take (about \d[\d.,]* (min|h)|\d+ s) \(one took/);
   console.log(`# scan: ${text}`);
   assert.equal(await page.isVisible('#hs-faster-n_sim-199'), true);
-  assert.equal(await page.isVisible('#hs-faster-max_share-0.25'), true);
+  assert.equal(await page.isVisible('#hs-faster-max_share-0_25'), true);
   await page.locator('#hs-scan').screenshot({ path: join(OUT, 'scan-estimate.png') });
-  await page.click('#hs-faster-max_share-0.25');
+  await page.click('#hs-faster-max_share-0_25');
   await page.waitForFunction(() => /^Set to biggest circle 25 % of the population/.test(document.getElementById('hs-scan-progress-text').textContent), null, { timeout: 5000 });
   assert.equal(await page.inputValue('#hs-share'), '25');
   assert.equal(await page.isVisible('#hs-scan-estimate'), false);

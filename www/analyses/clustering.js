@@ -264,7 +264,7 @@ export function mountClustering(C) {
     $('clu-estimate-text').textContent = text;
     const list = $('clu-faster');
     list.replaceChildren(...((est && est.faster) || []).map((f) => {
-      const b = el('button', { type: 'button', class: 'quiet', id: `clu-faster-${f.option}-${f.number ?? f.choice}`, 'data-option': f.option }, `Use ${f.label}`);
+      const b = el('button', { type: 'button', class: 'quiet', id: `clu-faster-${f.option}-${String(f.number ?? f.choice).replace('.', '_')}`, 'data-option': f.option }, `Use ${f.label}`);
       b.addEventListener('click', () => useFaster(f));
       return el('li', null, b, ` \u2014 the run: ${duration(f.run_ms)}`);
     }));

@@ -487,7 +487,7 @@ export function mountHotspots(C) {
         askText.textContent = `The ${fmt(total)} chance runs will take ${C.fmtDuration(num(p.estimate_ms))} ` +
           `(one took ${fmt(perRun, 2)} ms: ${fmt(num(p.started.n_windows))} circles over ${fmt(num(p.started.n_regions))} places).`;
         askList.replaceChildren(...Array.from(p.started.cost.faster || []).map((f) => {
-          const b = el('button', { type: 'button', class: 'quiet', id: `hs-faster-${f.option}-${f.number}`, 'data-option': f.option }, `Use ${f.label}`);
+          const b = el('button', { type: 'button', class: 'quiet', id: `hs-faster-${f.option}-${String(f.number).replace('.', '_')}`, 'data-option': f.option }, `Use ${f.label}`);
           b.addEventListener('click', () => {
             if (f.option === 'n_sim') simIn.value = String(f.number);
             else shareIn.value = String(Math.round(num(f.number) * 1000) / 10);
