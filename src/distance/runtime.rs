@@ -11,16 +11,19 @@
 //!    ([`GridIndex::estimate_pairs_within`], O(cells));
 //! 2. times the same computation (same study area, distances and
 //!    correction) on a seeded random subsample of at most
-//!    [`PROBE_EVENTS`] events and on a third of them, and on as many
-//!    simulated (uniform) events, each after one untimed run, keeping the
-//!    shortest of at least 3 repeats that take [`PROBE_MIN_MS`] together;
-//! 3. scales by work: time = a·events + b·pairs, a and b solved from the
-//!    two sizes (pairs grow as the square of the events, so the two
-//!    separate); when noise makes either negative, one cost per
-//!    event-or-pair from the larger size. The pairs of one simulation
-//!    n(n − 1)/(m(m − 1)) times those of the m simulated events (exact in
-//!    expectation under complete spatial randomness). G, F and J do not
-//!    visit pairs: their time is scaled by the number of events.
+//!    [`PROBE_EVENTS`] events and on as many simulated (uniform) events,
+//!    at the largest distance and at a second one (half of it, or when the
+//!    subsample has fewer than [`BIG_PAIRS_PER_EVENT`] pairs per event,
+//!    one that gives about that many), each after one untimed run, keeping
+//!    the shortest of at least 3 repeats that take [`PROBE_MIN_MS`]
+//!    together;
+//! 3. scales by work: time = a·events + b·pairs, b being the difference
+//!    in time of the two distances over the difference in pairs and a the
+//!    rest per event (when noise makes b negative, the other subsample's
+//!    cost stands in, else one cost per event-or-pair). The pairs of one simulation are n(n − 1)/(m(m − 1))
+//!    times those of the m simulated events (exact in expectation under
+//!    complete spatial randomness). G, F and J visit no pairs: their time
+//!    is scaled by the number of events.
 //!
 //! One run then takes one observed curve plus n_sim simulated ones shared
 //! by the workers. The faster settings offered are fewer simulations (99,
@@ -37,7 +40,7 @@
 use super::csr::stream_rng;
 use super::edge::Correction;
 use super::envelope::{EnvelopeOptions, SummaryFunction};
-use super::functions::{checked_region, default_bandwidth, default_r_max, Context};
+use super::functions::{checked_region, default_bandwidth, default_r_max, Context, FunctionParams};
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
 use crate::rng::rng_from_seed;
@@ -53,6 +56,9 @@ pub const PROBE_EVENTS: usize = 3000;
 /// shortest.
 pub const PROBE_MIN_MS: f64 = 25.0;
 pub const PROBE_MAX_REPEATS: usize = 8;
+/// The second timing distance: half the largest when the subsample has at
+/// least this many pairs per event, else one giving about this many.
+pub const BIG_PAIRS_PER_EVENT: f64 = 100.0;
 /// The largest distance offered as faster aims at a run of about this long.
 pub const FAST_RUN_MS: f64 = 10_000.0;
 
@@ -109,26 +115,31 @@ impl Cost {
         self.per_event * events + self.per_pair * pairs
     }
 
-    /// The cost that gives times `t1` for (events `n1`, pairs `p1`) and
-    /// `t2` for (`n2`, `p2`) (two equations, two unknowns); when the
-    /// solution is not two non-negative finite numbers (noise, or pairs
-    /// that do not grow faster than events), one cost per event-or-pair
-    /// from the larger measurement.
-    pub(crate) fn fit(n1: f64, p1: f64, t1: f64, n2: f64, p2: f64, t2: f64) -> Cost {
-        let det = n1 * p2 - n2 * p1;
-        let a = (t1 * p2 - t2 * p1) / det;
-        let b = (n1 * t2 - n2 * t1) / det;
-        if a.is_finite() && b.is_finite() && a >= 0.0 && b >= 0.0 && det.abs() > 0.0 {
-            Cost {
-                per_event: a,
-                per_pair: b,
-            }
-        } else {
-            let u = t2 / (n2 + p2).max(1.0);
-            Cost {
-                per_event: u,
-                per_pair: u,
-            }
+    /// The cost from one number of events `n` timed at two distances:
+    /// `t1` with `p1` pairs and `t2` with `p2` ≠ `p1` pairs. A pair costs
+    /// the difference in time over the difference in pairs; an event the
+    /// rest of `t1`. When that is not a non-negative number (or the pairs
+    /// are equal: G, F, J), one cost per event-or-pair from the first
+    /// timing.
+    pub(crate) fn from_extra_pairs(n: f64, p1: f64, t1: f64, p2: f64, t2: f64) -> Cost {
+        Cost::fitted(n, p1, t1, p2, t2).unwrap_or_else(|| Cost::flat(n, p1, t1))
+    }
+
+    /// As [`Cost::from_extra_pairs`], or None instead of the fallback.
+    fn fitted(n: f64, p1: f64, t1: f64, p2: f64, t2: f64) -> Option<Cost> {
+        let b = (t2 - t1) / (p2 - p1);
+        (b.is_finite() && b >= 0.0 && p2 != p1).then(|| Cost {
+            per_event: ((t1 - b * p1) / n.max(1.0)).max(0.0),
+            per_pair: b,
+        })
+    }
+
+    /// One cost per event-or-pair.
+    fn flat(n: f64, p: f64, t: f64) -> Cost {
+        let u = t / (n + p).max(1.0);
+        Cost {
+            per_event: u,
+            per_pair: u,
         }
     }
 }
@@ -227,9 +238,6 @@ pub fn estimate_envelope_cost(
     let sy: Vec<f64> = idx[..m].iter().map(|&i| pattern.y()[i]).collect();
     let (cx, cy) = region.sample_uniform(m, &mut stream_rng(p.seed, 0));
 
-    // A third of the subsample (the first m/3 of the same draw) for the
-    // second size; none when there are too few events to tell the two apart.
-    let m_small = if m >= 300 { m / 3 } else { 0 };
     let pairs_at = |x: &[f64], y: &[f64], r: f64| -> f64 {
         if pairs_based {
             GridIndex::with_cell(x, y, r / 4.0).estimate_pairs_within(r)
@@ -245,8 +253,6 @@ pub fn estimate_envelope_cost(
     let reach = r_max + extra;
     let probe_obs_pairs = pairs_at(&sx, &sy, reach);
     let probe_sim_pairs = pairs_at(&cx, &cy, reach);
-    let small_obs_pairs = pairs_at(&sx[..m_small], &sy[..m_small], reach);
-    let small_sim_pairs = pairs_at(&cx[..m_small], &cy[..m_small], reach);
     let pairs = if m == n {
         probe_obs_pairs
     } else {
@@ -262,10 +268,15 @@ pub fn estimate_envelope_cost(
         fp.bandwidth = Some(bandwidth);
         fp.correction = correction;
         let mut j = 1u64;
-        let mut measure = |k: usize, clock: &mut dyn FnMut() -> f64| {
+        let mut measure = |k: usize, r: f64, clock: &mut dyn FnMut() -> f64| {
+            let (sx, sy) = (&sx[..k], &sy[..k]);
+            let fp = FunctionParams {
+                r_max: Some(r),
+                ..fp.clone()
+            };
             let ctx = Context::new(region.clone(), k, &fp, needs)?;
             let t_obs = timed(clock, || {
-                std::hint::black_box(ctx.compute(&sx[..k], &sy[..k], needs));
+                std::hint::black_box(ctx.compute(sx, sy, needs));
             });
             let t_sim = timed(clock, || {
                 let (x, y) = region.sample_uniform(k, &mut stream_rng(p.seed, j));
@@ -274,19 +285,41 @@ pub fn estimate_envelope_cost(
             });
             Ok::<_, AnalysisError>((t_obs, t_sim))
         };
-        let (t_obs, t_sim) = measure(m, clock)?;
+        let (t_obs, t_sim) = measure(m, r_max, clock)?;
         let mf = m as f64;
-        if m_small < 2 {
+        if !pairs_based || m < 2 {
             return Ok(UnitCost {
-                observed: Cost::fit(0.0, 0.0, 0.0, mf, probe_obs_pairs, t_obs),
-                simulated: Cost::fit(0.0, 0.0, 0.0, mf, probe_sim_pairs, t_sim),
+                observed: Cost::from_extra_pairs(mf, 0.0, t_obs, 0.0, t_obs),
+                simulated: Cost::from_extra_pairs(mf, 0.0, t_sim, 0.0, t_sim),
             });
         }
-        let (s_obs, s_sim) = measure(m_small, clock)?;
-        let ms = m_small as f64;
+        // The same subsample at a second distance: half the largest one
+        // when its pairs already dominate, else one giving about
+        // BIG_PAIRS_PER_EVENT pairs per event (a small largest distance:
+        // too few pairs for their cost to show). The difference in time
+        // over the difference in pairs is the cost of a pair.
+        let r2 = if probe_sim_pairs >= BIG_PAIRS_PER_EVENT * mf {
+            0.5 * r_max
+        } else {
+            let [bx0, by0, bx1, by1] = region.bbox();
+            let widest = 0.5 * (bx1 - bx0).min(by1 - by0);
+            let grow = (BIG_PAIRS_PER_EVENT * mf / probe_sim_pairs.max(1.0)).sqrt();
+            (reach * grow).min(widest.max(reach)) - extra
+        };
+        let obs2 = pairs_at(&sx, &sy, r2 + extra);
+        let sim2 = pairs_at(&cx, &cy, r2 + extra);
+        let (t2_obs, t2_sim) = measure(m, r2, clock)?;
+        // The observed and simulated subsamples have the same events, area
+        // and settings: when noise spoils one fit, the other stands in.
+        let obs = Cost::fitted(mf, probe_obs_pairs, t_obs, obs2, t2_obs);
+        let sim = Cost::fitted(mf, probe_sim_pairs, t_sim, sim2, t2_sim);
         Ok(UnitCost {
-            observed: Cost::fit(ms, small_obs_pairs, s_obs, mf, probe_obs_pairs, t_obs),
-            simulated: Cost::fit(ms, small_sim_pairs, s_sim, mf, probe_sim_pairs, t_sim),
+            observed: obs
+                .or(sim)
+                .unwrap_or_else(|| Cost::flat(mf, probe_obs_pairs, t_obs)),
+            simulated: sim
+                .or(obs)
+                .unwrap_or_else(|| Cost::flat(mf, probe_sim_pairs, t_sim)),
         })
     };
     let unit = unit_cost(p.functions.correction, clock)?;
@@ -387,6 +420,23 @@ mod tests {
         }
     }
 
+    /// A fake clock whose step changes with the number of readings:
+    /// `plan` lists (last reading, step). The timings come in this order:
+    /// observed and simulated at the largest distance, the same at the
+    /// second distance, then the same four for the border correction; each
+    /// test says how many readings a timing takes.
+    fn planned_clock(plan: &'static [(usize, f64)]) -> impl FnMut() -> f64 {
+        let (mut t, mut reads) = (0.0, 0usize);
+        move || {
+            reads += 1;
+            t += plan
+                .iter()
+                .find(|(last, _)| reads <= *last)
+                .map_or(0.0, |(_, step)| *step);
+            t
+        }
+    }
+
     fn rect() -> Window {
         Window::rectangle(0.0, 0.0, 2000.0, 1000.0).unwrap()
     }
@@ -399,8 +449,13 @@ mod tests {
             n_sim: 199,
             ..Default::default()
         };
-        let one = estimate_envelope_cost(&pat, &w, &o, 1, &mut fake_clock()).unwrap();
-        let four = estimate_envelope_cost(&pat, &w, &o, 4, &mut fake_clock()).unwrap();
+        // 1 ms per repeat at the largest distance, 0.25 at half of it (a
+        // quarter of the pairs): all the time is the pairs'. With 1 ms
+        // steps the three repeats do not reach PROBE_MIN_MS, so each
+        // timing reads the clock 9 times: readings 2–19 and 20–37.
+        const PLAN: &[(usize, f64)] = &[(1, 0.0), (19, 1.0), (37, 0.25), (55, 1.0), (73, 0.25)];
+        let one = estimate_envelope_cost(&pat, &w, &o, 1, &mut planned_clock(PLAN)).unwrap();
+        let four = estimate_envelope_cost(&pat, &w, &o, 4, &mut planned_clock(PLAN)).unwrap();
         assert_eq!(one.probe_events, PROBE_EVENTS);
         let want = one.curve_ms + 199.0 * one.simulation_ms;
         assert!((one.run_ms - want).abs() <= 1e-9 * want, "{one:?}");
@@ -420,27 +475,27 @@ mod tests {
             "pairs {} vs {interior}",
             one.pairs
         );
-        // 1 ms per probe curve of 3000 events scaled by work: more than
-        // (8000/3000)² times less a little for the events term.
-        assert!(one.curve_ms > 5.0 && one.curve_ms < (8000.0f64 / 3000.0).powi(2) * 1.05);
+        // 1 ms per probe curve of 3000 events, all of it pairs: scaled by
+        // the pairs, about (8000/3000)² = 7.1 times.
+        assert!(
+            one.curve_ms > 6.0 && one.curve_ms < (8000.0f64 / 3000.0).powi(2) * 1.05,
+            "{one:?}"
+        );
     }
 
-    /// The two-size fit recovers a known cost, and falls back to one cost
-    /// per event-or-pair when the measurements contradict it.
+    /// Two distances recover a known cost, and a negative cost of a pair
+    /// falls back to one cost per event-or-pair.
     #[test]
-    fn cost_fit_solves_the_two_sizes() {
-        // 0.01 ms per event, 0.0002 ms per pair: 1000 events with 50,000
-        // pairs take 10 + 10 = 20 ms; 3000 with 450,000 take 30 + 90 = 120.
-        let c = Cost::fit(1000.0, 50_000.0, 20.0, 3000.0, 450_000.0, 120.0);
+    fn cost_from_two_distances() {
+        // One size at two distances: 3000 events with 20,000 then 60,000
+        // pairs take 30 + 4 = 34 and 30 + 12 = 42 ms.
+        let c = Cost::from_extra_pairs(3000.0, 20_000.0, 34.0, 60_000.0, 42.0);
         assert!(
-            (c.per_event - 0.01).abs() < 1e-12 && (c.per_pair - 2e-4).abs() < 1e-15,
+            (c.per_pair - 2e-4).abs() < 1e-15 && (c.per_event - 0.01).abs() < 1e-12,
             "{c:?}"
         );
-        assert!((c.of(30_000.0, 4.5e7) - (300.0 + 9000.0)).abs() < 1e-6);
-        // The same time at both sizes: no non-negative solution.
-        let c = Cost::fit(1000.0, 50_000.0, 20.0, 3000.0, 450_000.0, 20.0);
+        let c = Cost::from_extra_pairs(3000.0, 20_000.0, 34.0, 60_000.0, 30.0);
         assert_eq!(c.per_event, c.per_pair);
-        assert!((c.per_event - 20.0 / 453_000.0).abs() < 1e-15);
     }
 
     #[test]
@@ -451,19 +506,12 @@ mod tests {
             n_sim: 999,
             ..Default::default()
         };
-        // A slow fake clock so that the run is long: 100 ms per reading
-        // for the first 17 readings (the start, then four readings for
-        // each of the four timings of the chosen correction, two sizes of
-        // observed and simulated events: three repeats), then 50 ms (the
-        // border timings),
-        // as if the border correction took half the time.
-        let (mut t, mut reads) = (0.0, 0);
-        let mut slow = || {
-            reads += 1;
-            t += if reads <= 17 { 100.0 } else { 50.0 };
-            t
-        };
-        let c = estimate_envelope_cost(&pat, &w, &o, 1, &mut slow).unwrap();
+        // A slow fake clock so that the run is long (three repeats pass
+        // PROBE_MIN_MS: 4 readings per timing): 100 ms per repeat at the
+        // largest distance and 25 at half of it (the time is the pairs'),
+        // and half that with the border correction.
+        const PLAN: &[(usize, f64)] = &[(1, 0.0), (9, 100.0), (17, 25.0), (25, 50.0), (33, 12.5)];
+        let c = estimate_envelope_cost(&pat, &w, &o, 1, &mut planned_clock(PLAN)).unwrap();
         assert!(c.run_ms > FAST_RUN_MS, "{c:?}");
         let options: Vec<&str> = c.faster.iter().map(|f| f.option.as_str()).collect();
         assert_eq!(
@@ -503,6 +551,18 @@ mod tests {
         assert_eq!(c.probe_events, 200);
         // The probe is the observed curve itself: 1 ms on the fake clock.
         assert!((c.curve_ms - 1.0).abs() < 1e-12, "{c:?}");
+        // A tiny largest distance (few pairs in the subsample: the cost of a
+        // pair is timed at a larger distance): still finite and positive.
+        let many = simulate_csr(&w, 8000, 7).unwrap();
+        let tiny = EnvelopeOptions {
+            r_max_m: Some(5.0),
+            ..Default::default()
+        };
+        let c = estimate_envelope_cost(&many, &w, &tiny, 1, &mut fake_clock()).unwrap();
+        assert!(
+            c.curve_ms.is_finite() && c.curve_ms > 0.0 && c.run_ms > c.curve_ms,
+            "{c:?}"
+        );
         let one = simulate_csr(&w, 1, 7).unwrap();
         assert!(estimate_envelope_cost(
             &one,
