@@ -331,6 +331,33 @@ export interface ClarkEvansResult {
 }
 
 /** `envelopeStart`: simulations to run and distances on the curve. */
+/** A faster setting of an envelope run and what the run would take with it. */
+export interface FasterSetting {
+  option: string;
+  number: number | null;
+  choice: string | null;
+  label: string;
+  curve_ms: number;
+  run_ms: number;
+}
+
+/** How long an envelope run would take (envelopeEstimate). */
+export interface EnvelopeCost {
+  events: number;
+  n_sim: number;
+  workers: number;
+  r_max_m: number;
+  r_max_rule: string;
+  pairs: number;
+  simulated_pairs: number;
+  curve_ms: number;
+  simulation_ms: number;
+  run_ms: number;
+  probe_events: number;
+  probe_ms: number;
+  faster: FasterSetting[];
+}
+
 export interface EnvelopeStarted {
   total: number;
   distances: number;
@@ -538,10 +565,28 @@ export interface KDistanceResult {
 }
 
 /** `scanStart`. */
+/** A faster setting of the scan and how long its chance runs would take. */
+export interface ScanFaster {
+  option: string;
+  number: number;
+  label: string;
+  run_ms: number;
+}
+
+/** The timing of the scan's first chance runs. */
+export interface ScanCost {
+  timed: number;
+  replicate_ms: number;
+  left_ms: number;
+  faster: ScanFaster[];
+}
+
 export interface ScanStarted {
   total: number;
   n_windows: number;
   n_regions: number;
+  estimate_ms: number;
+  cost: ScanCost;
 }
 
 /** One scan cluster (rank 1 = most likely). */

@@ -57,6 +57,15 @@ export function fmtMetres(v) {
   return `${fmt(x, 4)}\u00a0m`;
 }
 
+/** A time in words: "40 s", "about 4 min", "about 2 h" (ms in). */
+export function fmtDuration(ms) {
+  const s = num(ms) / 1000;
+  if (!Number.isFinite(s)) return '—';
+  if (s < 90) return `${fmt(Math.max(1, Math.round(s)))} s`;
+  if (s < 5400) return `about ${fmt(Math.round(s / 60))} min`;
+  return `about ${fmt(Math.round(s / 360) / 10)} h`;
+}
+
 export function fmtDays(days) {
   const x = num(days);
   if (!Number.isFinite(x)) return '—';

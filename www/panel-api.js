@@ -1,7 +1,7 @@
 /* What an analysis panel (www/analyses/*.js) may use of the page; each
  * panel's mount function receives this object. See www/README.md. */
 
-import { $, el, fmt, fmtFixed, fmtMetres, plural, downloadName } from './dom.js';
+import { $, el, fmt, fmtFixed, fmtMetres, fmtDuration, plural, downloadName } from './dom.js';
 import { state } from './state.js';
 import { paramSpec } from './param-limits.js';
 import { term } from './glossary.js';
@@ -21,6 +21,13 @@ export const panelApi = {
   fmt,
   fmtFixed,
   fmtMetres,
+  fmtDuration,
+  /** A run estimated to take longer than this (ms) asks first, offering
+   * faster settings (the envelope test and the scan). */
+  longRunMs: 20000,
+  /** Workers a parallel job (runJob with spec.parallel) will use: this
+   * one and a helper per further core, at most 8 (as www/worker.js does). */
+  jobWorkers() { return Math.max(1, Math.min(Number(navigator.hardwareConcurrency) || 1, 8)); },
   plural,
   downloadName,
   setStatus,

@@ -77,9 +77,12 @@ function startJob(id, spec, job, workers) {
   const startMs = performance.now() - t0;
   const total = Number(info && info.total);
   jobs.set(id, job);
-  const estimateMs = (startMs * total) / Math.max(1, workers);
+  // A start step that measures its own estimate (the scan times a few
+  // chance runs) gives it as `estimate_ms`.
+  const own = info && typeof info.estimate_ms === 'number' ? info.estimate_ms : NaN;
+  const estimateMs = Number.isFinite(own) ? own / Math.max(1, workers) : (startMs * total) / Math.max(1, workers);
   const limit = Number(spec.confirm_above_ms);
-  job.first = { done: 0, total, start_ms: startMs, estimate_ms: estimateMs, workers };
+  job.first = { done: 0, total, start_ms: startMs, estimate_ms: estimateMs, workers, started: info };
   if (limit > 0 && estimateMs > limit) {
     job.waiting = true;
     job.first.waiting = true;

@@ -78,7 +78,7 @@ impl SummaryFunction {
     pub fn above_means_clustered(self) -> bool {
         !matches!(self, SummaryFunction::EmptySpace | SummaryFunction::J)
     }
-    fn needs(self) -> Needs {
+    pub(crate) fn needs(self) -> Needs {
         match self {
             SummaryFunction::NearestNeighbour => Needs {
                 g: true,

@@ -203,6 +203,11 @@ pub(crate) fn default_r_max(region: &Window) -> (f64, String) {
     }
 }
 
+/// Default kernel half-width for g at intensity `lambda` (events per m²).
+pub(crate) fn default_bandwidth(lambda: f64) -> f64 {
+    0.15 / lambda.sqrt()
+}
+
 impl Context {
     pub fn new(
         region: Window,
@@ -238,7 +243,7 @@ impl Context {
         let bandwidth = match p.bandwidth {
             Some(h) if h.is_finite() && h > 0.0 => h,
             Some(_) => return Err(bad("bandwidth", "must be a positive number of metres")),
-            None => 0.15 / lambda.sqrt(),
+            None => default_bandwidth(lambda),
         };
         let step = r_max / p.n_steps as f64;
         // k·r_max/n (not k·step) so that e.g. 0.25·3/5 is exactly 0.15.

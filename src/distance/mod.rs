@@ -16,6 +16,8 @@
 //! * [`envelope`]: Monte Carlo envelopes (pointwise band, global band) and
 //!   the MAD and DCLF global tests, run in batches.
 //! * [`verdict`]: the plain-language answer with its caveats.
+//! * [`runtime`]: how long an envelope run will take, from a quick
+//!   measurement, and what faster settings would cost.
 //!
 //! Conventions: distances in metres; a pair is "within r" when `d ≤ r`
 //! (d computed as `sqrt(dx² + dy²)`); every random step is seeded and the
@@ -28,6 +30,7 @@ pub mod edge;
 pub mod envelope;
 pub mod functions;
 pub mod quadrat;
+pub mod runtime;
 pub mod verdict;
 
 pub use clark_evans::{
@@ -41,4 +44,5 @@ pub use envelope::{
 };
 pub use functions::{distance_functions, DistanceFunctions, FunctionParams};
 pub use quadrat::{quadrat_from_counts, quadrat_test, QuadratParams, QuadratResult, QuadratStats};
+pub use runtime::{estimate_envelope_cost, EnvelopeCost, FasterSetting};
 pub use verdict::{Departure, DistanceRange, Outcome, Verdict};

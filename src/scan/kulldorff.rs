@@ -231,6 +231,30 @@ pub struct ScanProgress {
     pub total: usize,
 }
 
+/// A faster setting of the scan and how long its chance runs would take.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScanFaster {
+    /// `"n_sim"` or `"max_share"`.
+    pub option: String,
+    pub number: f64,
+    /// In words, e.g. "199 chance runs".
+    pub label: String,
+    /// All the chance runs with this setting, ms.
+    pub run_ms: f64,
+}
+
+/// How long the scan's chance runs take, from timing the first ones.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ScanCost {
+    /// Chance runs timed (not kept: the job is left as it was).
+    pub timed: usize,
+    /// One chance run, ms.
+    pub replicate_ms: f64,
+    /// The chance runs still to do, ms.
+    pub left_ms: f64,
+    pub faster: Vec<ScanFaster>,
+}
+
 /// `a·ln(a/b)` with `0·ln 0 = 0`.
 fn xlogx(a: f64, b: f64) -> f64 {
     if a <= 0.0 {
@@ -615,6 +639,101 @@ impl ScanJob {
             self.null_max.push(t);
         }
         self.progress()
+    }
+
+    /// Work of one chance run with the largest circle at `share` (at most
+    /// the job's own) of the population: the neighbour-list entries it
+    /// walks plus the cases it draws. A chance run's time is about
+    /// proportional to it.
+    pub fn replicate_work(&self, share: f64) -> f64 {
+        let limit = share.min(self.o.max_share) * self.total_pop * (1.0 + 1e-12);
+        let mut w = 0usize;
+        for i in 0..self.regions.x.len() {
+            let (s, e) = (self.start[i], self.start[i + 1]);
+            let mut last = s;
+            for k in s..e {
+                let p = self.pop_at[k];
+                if p.is_finite() {
+                    if p > limit {
+                        break;
+                    }
+                    last = k + 1;
+                }
+            }
+            w += last - s;
+        }
+        (w as u64 + self.total_cases) as f64
+    }
+
+    /// Runs chance runs one at a time until `min_ms` passed on `clock()`
+    /// (milliseconds) or `max` were run, and estimates from their time
+    /// how long the rest take, and the faster settings: fewer chance runs
+    /// (999, 199, 99) and a smaller largest circle (25 %, 10 % of the
+    /// population), scaled by [`ScanJob::replicate_work`]. The timed runs
+    /// are then forgotten, so the job is as before (its steps and result
+    /// are unchanged; the measurement costs their time once).
+    pub fn time_replicates(
+        &mut self,
+        clock: &mut dyn FnMut() -> f64,
+        min_ms: f64,
+        max: usize,
+    ) -> ScanCost {
+        let before = self.null_max.len();
+        // The Bernoulli draws shuffle `individuals` in place, so later runs
+        // depend on it: keep it to put back.
+        let kept = self.individuals.clone();
+        let t0 = clock();
+        let mut dt = 0.0;
+        while self.null_max.len() < self.o.n_sim && self.null_max.len() - before < max.max(1) {
+            self.run_batch(1);
+            dt = clock() - t0;
+            if dt >= min_ms {
+                break;
+            }
+        }
+        let timed = self.null_max.len() - before;
+        self.null_max.truncate(before);
+        self.individuals = kept;
+        let replicate_ms = if timed > 0 {
+            (dt / timed as f64).max(0.0)
+        } else {
+            0.0
+        };
+        let left = self.o.n_sim - self.null_max.len();
+        let mut faster = Vec::new();
+        for k in [999usize, 199, 99] {
+            if self.o.n_sim > k {
+                faster.push(ScanFaster {
+                    option: "n_sim".into(),
+                    number: k as f64,
+                    label: format!("{k} chance runs"),
+                    run_ms: replicate_ms * k as f64,
+                });
+            }
+        }
+        let work = self.replicate_work(self.o.max_share);
+        for share in [0.25, 0.1] {
+            if self.o.max_share > share && work > 0.0 {
+                let ratio = self.replicate_work(share) / work;
+                faster.push(ScanFaster {
+                    option: "max_share".into(),
+                    number: share,
+                    label: format!(
+                        "biggest circle {} % of the population",
+                        crate::params::num(share * 100.0)
+                    ),
+                    run_ms: replicate_ms * ratio * self.o.n_sim as f64,
+                });
+            }
+        }
+        let full = replicate_ms * self.o.n_sim as f64;
+        faster.retain(|f| f.run_ms < full);
+        ScanCost {
+            timed,
+            replicate_ms,
+            left_ms: replicate_ms * left as f64,
+            faster,
+        }
     }
 
     /// Draws the null case counts per region.

@@ -10,6 +10,11 @@
 //!   envelope run (`function`, `n_sim`, `seed`, `alpha`, `reference`,
 //!   `r_min_m`, `r_max_m`, `n_steps`, `correction`, `nn_correction`,
 //!   `bandwidth_m`; see [`EnvelopeOptions`]); the observed curve is computed here.
+//! * `envelopeEstimate(params, workers) -> EnvelopeCost`: how long the run
+//!   with these options would take on `workers` workers, from a quick
+//!   measurement on a subsample (a fraction of a second for any number of
+//!   events), with faster settings and their own estimates; see
+//!   [`crate::distance::runtime`].
 //! * `envelopeStep(k) -> done`: runs up to `k` more simulations.
 //! * `envelopeFinish() -> result`: bands, MAD and DCLF tests and the verdict
 //!   (an [`EnvelopeResult`] with snake_case fields).
@@ -36,8 +41,8 @@
 
 use super::{analysis_error, decode, from_js, js_error, to_js, Session};
 use crate::distance::{
-    clark_evans, quadrat_test, ClarkEvansParams, EnvelopeJob, EnvelopeOptions, EnvelopeSimulator,
-    QuadratParams, SimulationShare,
+    clark_evans, estimate_envelope_cost, quadrat_test, ClarkEvansParams, EnvelopeJob,
+    EnvelopeOptions, EnvelopeSimulator, QuadratParams, SimulationShare,
 };
 use crate::plot::{self, EnvelopeChartData, EnvelopeChartOptions};
 use plotters::prelude::IntoDrawingArea;
@@ -87,6 +92,30 @@ impl Session {
         let s = self.study_ref()?;
         let res = clark_evans(&s.events, &s.window, &p).map_err(|e| analysis_error(&e))?;
         to_js(&res)
+    }
+
+    /// How long an envelope run with these options would take with
+    /// `workers` workers (1 to 64) sharing the simulations, from a quick
+    /// measurement; nothing is started.
+    #[wasm_bindgen(js_name = envelopeEstimate, unchecked_return_type = "EnvelopeCost")]
+    pub fn envelope_estimate(
+        &self,
+        #[wasm_bindgen(unchecked_param_type = "EnvelopeStartOptions")] params: JsValue,
+        workers: f64,
+    ) -> Result<JsValue, JsValue> {
+        let (o, _) = decode::<EnvelopeOptions>(params, self.extent_m())?;
+        let w = super::count_arg(workers, "envelopeEstimate", "workers")?;
+        if !(1..=64).contains(&w) {
+            return Err(js_error(
+                "bad_parameter",
+                &format!("envelopeEstimate: workers must be from 1 to 64 (got {w})"),
+                None,
+            ));
+        }
+        let s = self.study_ref()?;
+        let cost = estimate_envelope_cost(&s.events, &s.window, &o, w, &mut super::clock::now_ms)
+            .map_err(|e| analysis_error(&e))?;
+        to_js(&cost)
     }
 
     /// Starts an envelope run: checks the parameters and computes the

@@ -327,8 +327,12 @@ impl Session {
 
     /// Prepares Kulldorff's scan (windows enumerated, data scored):
     /// options `{model, max_share, n_sim, seed, cells_long_side,
-    /// max_secondary}`. Returns `{total}` (replicates to run). A scan already
-    /// prepared or running is dropped.
+    /// max_secondary}`. Times a few chance runs (up to 25 ms or 50 runs,
+    /// then forgotten) and returns `{total, n_windows, n_regions,
+    /// estimate_ms, cost}`: `estimate_ms` is the time of the chance runs
+    /// left, `cost` the timing and the faster settings with their own
+    /// estimates ([`crate::scan::ScanCost`]). A scan already prepared or
+    /// running is dropped.
     #[wasm_bindgen(js_name = scanStart, unchecked_return_type = "ScanStarted")]
     pub fn scan_start(
         &mut self,
@@ -341,16 +345,23 @@ impl Session {
             ScanJob::new(&s.events, s.controls.as_ref(), &s.window, &o)
                 .map_err(|e| analysis_error(&e))?
         };
+        let mut job = job;
+        // Time a few chance runs for the estimate (the job is left as it was).
+        let cost = job.time_replicates(&mut super::clock::now_ms, 25.0, 50);
         #[derive(Serialize)]
         struct Started {
             total: usize,
             n_windows: usize,
             n_regions: usize,
+            estimate_ms: f64,
+            cost: crate::scan::ScanCost,
         }
         let started = Started {
             total: job.progress().total,
             n_windows: job.n_windows(),
             n_regions: job.regions().x.len(),
+            estimate_ms: cost.left_ms,
+            cost,
         };
         self.extras.insert(KEY_SCAN, Box::new(job));
         to_js(&started)

@@ -13,6 +13,7 @@
 // Long jobs follow the worker's protocol: `xStart(params) -> {total}`,
 // `xStep(k) -> done so far`, `xFinish() -> result`; job state lives in
 // `Session::extras` under the module's own key.
+mod clock;
 mod clustering;
 mod hotspots;
 mod risk;

@@ -160,3 +160,12 @@ export function demoFacts() {
     },
   };
 }
+
+/** A seeded file of n uniform points in a 20 km × 10 km rectangle (metres). */
+export function uniformCsv(n, seed = 12345) {
+  let s = seed;
+  const rnd = () => { s = (Math.imul(s, 1103515245) + 12345) >>> 0; return s / 2 ** 32; };
+  const lines = ['x,y'];
+  for (let i = 0; i < n; i++) lines.push(`${(rnd() * 20000).toFixed(1)},${(rnd() * 10000).toFixed(1)}`);
+  return Buffer.from(lines.join('\n'));
+}

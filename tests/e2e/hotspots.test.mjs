@@ -130,9 +130,12 @@ test('scan: circles and table; a long scan is cancelled and a new one runs', asy
   const seed = await page.inputValue('#hs-seed');
   assert.match(seed, /^\d+$/, 'a fresh seed is shown');
 
-  // A long scan: cancel it once it has started.
+  // A long scan: it asks first (the estimate); run it, and cancel it once it has started.
   await page.fill('#hs-sims', '100000');
   await page.click('#hs-scan-run');
+  await page.waitForSelector('#hs-scan-estimate', { state: 'visible', timeout: 60000 });
+  assert.match(await page.textContent('#hs-scan-estimate-text'), /^The 100,000 chance runs will take /);
+  await page.click('#hs-scan-estimate-go');
   await page.waitForFunction(() => {
     const p = document.getElementById('hs-scan-progress');
     return p && !p.hidden && Number(p.value) > 0;

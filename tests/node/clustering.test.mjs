@@ -275,3 +275,60 @@ test('drawEnvelopeChart without a canvas (Node has no page) throws a "chart" err
   // The engine is still alive after these errors.
   assert.equal(s.quadratTest({ n_sim: 0 }).n, 1500);
 });
+
+/** n seeded uniform events in a 20 km × 10 km rectangle, as CSV (metres). */
+function uniformCsv(n, seed) {
+  let s = seed;
+  const rnd = () => { s = (Math.imul(s, 1103515245) + 12345) >>> 0; return s / 2 ** 32; };
+  const lines = ['x,y'];
+  for (let i = 0; i < n; i++) lines.push(`${(rnd() * 20000).toFixed(1)},${(rnd() * 10000).toFixed(1)}`);
+  return new TextEncoder().encode(lines.join('\n'));
+}
+
+test('envelopeEstimate: one curve plus the simulations shared by the workers, faster settings each faster; nothing is started', () => {
+  const s = demo();
+  const e = s.envelopeEstimate({ n_sim: 199, seed: 3 }, 2);
+  assert.equal(e.events, 1500);
+  assert.equal(e.probe_events, 1500, 'fewer than 3,000 events: timed whole');
+  assert.equal(e.n_sim, 199);
+  assert.equal(e.workers, 2);
+  for (const k of ['pairs', 'simulated_pairs', 'curve_ms', 'simulation_ms', 'run_ms', 'probe_ms', 'r_max_m']) {
+    assert.ok(Number.isFinite(e[k]) && e[k] > 0, `${k} = ${e[k]}`);
+  }
+  assert.ok(Math.abs(e.run_ms - (e.curve_ms + 199 * e.simulation_ms / 2)) <= 1e-9 * e.run_ms);
+  assert.match(e.r_max_rule, /study area|rectangle/);
+  const opts = e.faster.map((f) => `${f.option}=${f.number ?? f.choice}`);
+  assert.ok(opts.includes('n_sim=99') && opts.includes('n_sim=39'), opts.join(', '));
+  for (const f of e.faster) assert.ok(f.run_ms < e.run_ms && f.label.length > 0, JSON.stringify(f));
+  // The estimate starts nothing.
+  assert.equal(throws(() => s.envelopeStep(1)).code, 'no_job');
+  // The same options as envelopeStart, checked the same way; workers from 1 to 64.
+  assert.equal(throws(() => s.envelopeEstimate({ n_sim: 0 }, 1)).code, 'bad_parameter');
+  assert.equal(throws(() => s.envelopeEstimate({ r_max_m: -5 }, 1)).code, 'bad_parameter');
+  for (const w of [0, 65, 1.5, -1, NaN]) assert.equal(throws(() => s.envelopeEstimate({}, w)).code, 'bad_parameter', String(w));
+  assert.equal(throws(() => new Session().envelopeEstimate({}, 1)).code, 'nothing_loaded');
+});
+
+test('envelopeEstimate at 30,000 events: quick, and the observed curve then takes about what it said', () => {
+  const s = new Session();
+  s.loadEvents(uniformCsv(30000, 4242), {});
+  const t0 = performance.now();
+  const e = s.envelopeEstimate({ n_sim: 199, seed: 1 }, 1);
+  const estimateTook = performance.now() - t0;
+  assert.equal(e.probe_events, 3000);
+  // Uniform events: about n²·πr²/(2·area) pairs less the edge loss; r is a
+  // quarter of the shorter side of the events' rectangle (about 2.5 km).
+  const area = 20000 * 10000;
+  const interior = (30000 * 29999 * Math.PI * e.r_max_m ** 2) / (2 * area);
+  assert.ok(e.pairs > 0.7 * interior && e.pairs < 1.05 * interior, `${e.pairs} vs ${interior}`);
+  const t1 = performance.now();
+  s.envelopeStart({ n_sim: 199, seed: 1 });
+  const curveTook = performance.now() - t1;
+  // The measurement is a small part of the work, and the estimate is
+  // within a factor of 3 of the time measured (a loose bound: the machine
+  // may be shared; README gives measured figures).
+  assert.ok(estimateTook < curveTook, `estimate ${estimateTook.toFixed(0)} ms, curve ${curveTook.toFixed(0)} ms`);
+  const ratio = e.curve_ms / curveTook;
+  assert.ok(ratio > 1 / 3 && ratio < 3, `estimated ${e.curve_ms.toFixed(0)} ms, took ${curveTook.toFixed(0)} ms`);
+  console.log(`# 30,000 events: estimate took ${estimateTook.toFixed(0)} ms; curve estimated ${e.curve_ms.toFixed(0)} ms, took ${curveTook.toFixed(0)} ms`);
+});

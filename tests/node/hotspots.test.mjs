@@ -347,3 +347,25 @@ test('random labelling (Diggle & Chetwynd 1991): the demo cases cluster beyond t
   assert.equal(e.code, 'needs_individuals', e.message);
   assert.match(e.message, /one point per control/);
 });
+
+test('scan: the start times a few chance runs for the estimate without changing the job; faster settings each faster', () => {
+  const s = demo({ controls: true });
+  const st = s.scanStart({ n_sim: 299, seed: 5 });
+  assert.equal(st.total, 299);
+  assert.ok(st.cost.timed >= 1 && st.cost.timed <= 50, `timed ${st.cost.timed}`);
+  assert.ok(Number.isFinite(st.cost.replicate_ms) && st.cost.replicate_ms >= 0);
+  assert.equal(st.estimate_ms, st.cost.left_ms);
+  assert.ok(Math.abs(st.estimate_ms - 299 * st.cost.replicate_ms) <= 1e-9 * Math.max(1, st.estimate_ms));
+  const opts = st.cost.faster.map((f) => `${f.option}=${f.number}`);
+  assert.deepEqual(opts.filter((o) => o.startsWith('n_sim')), ['n_sim=199', 'n_sim=99']);
+  for (const f of st.cost.faster) assert.ok(f.run_ms <= st.estimate_ms && f.label.length > 0, JSON.stringify(f));
+  // The timed runs were not kept: the first step is run 1, and the result
+  // equals a scan whose start timed nothing of it (the same seed, run in
+  // other batches).
+  assert.equal(s.scanStep(1), 1);
+  let done = 1;
+  while (done < 299) done = s.scanStep(100);
+  const a = s.scanFinish();
+  const b = runScan(demo({ controls: true }), { n_sim: 299, seed: 5 });
+  assert.deepEqual(a, b);
+});

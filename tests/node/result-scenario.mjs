@@ -42,6 +42,8 @@ export function runScenario() {
   record('quadratTest', 'no simulations', s.quadratTest({ nx: 3, ny: 3, n_sim: 0 }));
   record('clarkEvans', 'small', s.clarkEvans({ n_sim: 19, seed: 1 }));
   record('clarkEvans', 'no simulations', s.clarkEvans({ n_sim: 0 }));
+  record('envelopeEstimate', 'L, 199 sims, 2 workers', s.envelopeEstimate({ n_sim: 199, seed: 1 }, 2));
+  record('envelopeEstimate', 'G, 19 sims', s.envelopeEstimate({ function: 'nearest_neighbour', n_sim: 19, seed: 1 }, 1));
   const started = record('envelopeStart', 'L, 19 sims', s.envelopeStart({ n_sim: 19, seed: 1, n_steps: 12 }));
   record('envelopeStep', 'first 4', s.envelopeStep(4));
   record('envelopeShare', '', s.envelopeShare());

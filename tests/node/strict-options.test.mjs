@@ -63,6 +63,7 @@ const CASES = {
   clarkEvans: { call: (s, o) => s.clarkEvans(o), bad: { nsim: 0 }, key: 'nsim', valid: ['n_sim', 'seed'] },
   envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   labellingStart: { call: (s, o) => s.labellingStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'r_max_m', 'correction'] },
+  envelopeEstimate: { spec: 'envelopeStart', call: (s, o) => s.envelopeEstimate(o, 1), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   intensitySurface: { call: (s, o) => s.intensitySurface(o), bad: { kernal: 'quartic' }, key: 'kernal', valid: ['kernel', 'method', 'fixed_m'] },
   dbscan: { call: (s, o) => s.dbscan(o), bad: { eps_m: 150, minsamples: 8 }, key: 'minsamples', valid: ['eps_m', 'min_samples', 'use_weights'] },
   scanStart: { call: (s, o) => s.scanStart(o), bad: { n_sims: 9 }, key: 'n_sims', valid: ['n_sim', 'max_share', 'seed'] },

@@ -5,12 +5,12 @@
  * plotters on a canvas. Files are saved by the browser from a Blob. */
 
 /** Adds the panel to the page; C is the page's panel API (www/panel-api.js). */
-/** A run whose estimate (one curve's time × simulations / workers) is above
- * this asks before it simulates, and offers the faster settings. */
-const CONFIRM_ABOVE_MS = 20000;
-
 export function mountClustering(C) {
-  const { el, fmt, fmtMetres, call, runJob, act, setStatus, showError, clearError } = C;
+  const { el, fmt, fmtMetres, fmtDuration: duration, call, runJob, act, setStatus, showError, clearError } = C;
+  /* A run estimated to take longer than this asks before it starts, with
+   * faster settings and their own estimates. The estimate comes from a
+   * quick measurement (envelopeEstimate) before the observed curve. */
+  const CONFIRM_ABOVE_MS = C.longRunMs;
   const $ = (id) => document.getElementById(id);
 
   const FUNCTIONS = [
@@ -44,6 +44,8 @@ export function mountClustering(C) {
 
   const state = {
     job: null, // {cancel} while a run is going
+    asking: null, // {token, params} while the estimate box waits for an answer
+    estimate: null, // the last envelopeEstimate answer
     runToken: 0,
     result: null, // last envelope result
     hasData: false,
@@ -70,6 +72,7 @@ export function mountClustering(C) {
       field('Function', select('clu-function', FUNCTIONS, 'l'), ' '),
       field('Edge correction', el('select', { id: 'clu-correction' }), ' '),
       field('Simulations', el('input', { type: 'number', id: 'clu-nsim', 'data-param': 'envelopeStart.n_sim' }), '199 is usual; 999 or more for a smaller p'),
+      field('Largest distance (m)', el('input', { type: 'number', id: 'clu-rmax', step: 'any', 'data-param': 'envelopeStart.r_max_m', placeholder: 'automatic' }), 'empty: chosen from the study area\u2019s shape'),
       el('fieldset', { class: 'clu-field clu-kind', role: 'radiogroup' },
         el('legend', null, 'Band on the chart'),
         el('label', null, el('input', { type: 'radio', name: 'clu-kind', value: 'global', id: 'clu-kind-global', checked: true }), ' global test band'),
@@ -84,7 +87,8 @@ export function mountClustering(C) {
     el('div', { id: 'clu-estimate', class: 'estimate', role: 'alert', hidden: true },
       el('p', { id: 'clu-estimate-text' }),
       el('p', { class: 'hint' }, 'Faster: fewer simulations (39 gives a rough answer, 99 or 199 is usual), ' +
-        'a smaller largest distance, or the border correction for K, L and g.'),
+        'a smaller largest distance, or the border correction for K and L. A button below sets that field; then press Run.'),
+      el('ul', { id: 'clu-faster', class: 'faster' }),
       el('div', { class: 'buttons' },
         el('button', { type: 'button', id: 'clu-estimate-go' }, 'Run it'),
         el('button', { type: 'button', id: 'clu-estimate-stop', class: 'quiet' }, 'Stop and change the settings'))),
@@ -146,6 +150,25 @@ export function mountClustering(C) {
     return v;
   }
 
+  /** The largest distance in metres, or null for the automatic rule. */
+  function readRmax() {
+    const s = $('clu-rmax').value.trim();
+    if (s === '') return null;
+    const v = Number(s);
+    const hi = Number($('clu-rmax').max);
+    if (!Number.isFinite(v) || v <= 0 || (hi > 0 && v > hi)) {
+      throw { code: 'bad_parameter', message: `the largest distance must be a number of metres above 0${hi > 0 ? ` and at most ${fmt(hi)}` : ''}, or empty for the automatic choice (got "${s}")` };
+    }
+    return v;
+  }
+
+  /** Shows the automatic largest distance (from the engine) beside the field. */
+  function rmaxHint(est) {
+    if (!est) return;
+    $('clu-rmax').placeholder = `automatic: ${fmt(Math.round(est.r_max_m))}`;
+    $('clu-rmax').parentElement.querySelector('small').textContent = `empty: ${est.r_max_rule}`;
+  }
+
   function fillCorrections() {
     const f = $('clu-function').value;
     const list = f === 'pair_correlation' ? CORRECTIONS.pair_g : PAIR_FUNCTIONS.has(f) ? CORRECTIONS.pair : CORRECTIONS.nn;
@@ -182,7 +205,7 @@ export function mountClustering(C) {
 
   function setRun(kind) {
     body.dataset.run = kind;
-    const running = kind === 'running';
+    const running = kind === 'running' || kind === 'asking';
     $('clu-run').disabled = running || !state.hasData;
     $('clu-cancel').disabled = !running;
     $('clu-progress').hidden = !running;
@@ -199,6 +222,8 @@ export function mountClustering(C) {
       params = { function: f, n_sim: readInt('clu-nsim', 'the number of simulations'), seed: readSeed() };
       if (PAIR_FUNCTIONS.has(f)) params.correction = $('clu-correction').value;
       else params.nn_correction = $('clu-correction').value;
+      const rmax = readRmax();
+      if (rmax !== null) params.r_max_m = rmax;
     } catch (err) {
       showError('Could not start the run', err);
       return;
@@ -207,22 +232,92 @@ export function mountClustering(C) {
     setRun('running');
     $('clu-progress').max = params.n_sim;
     $('clu-progress').value = 0;
-    $('clu-progress-text').textContent = `0 / ${fmt(params.n_sim)} simulations`;
+    $('clu-progress-text').textContent = 'Measuring how long this run will take\u2026';
+    // A quick measurement first (a fraction of a second for any number of
+    // events): a long run asks before the observed curve is computed.
+    let est = null;
+    try {
+      est = await call('envelopeEstimate', params, C.jobWorkers());
+    } catch (err) {
+      if (token !== state.runToken) return;
+      setRun('error');
+      $('clu-progress-text').textContent = '';
+      if (!(err && (err.code === 'engine_stopped' || err.code === 'cancelled'))) showError('The envelope test could not run', err);
+      return;
+    }
+    if (token !== state.runToken) return;
+    state.estimate = est;
+    rmaxHint(est);
+    if (est.run_ms > CONFIRM_ABOVE_MS) {
+      state.asking = { token, params };
+      setRun('asking');
+      showEstimate(`This run will take ${duration(est.run_ms)}: one curve takes ${duration(est.curve_ms)} with ` +
+        `${fmt(est.events)} events (timed on ${fmt(est.probe_events)} of them), and ${fmt(est.n_sim)} simulations follow` +
+        `${est.workers > 1 ? ` on ${fmt(est.workers)} workers` : ''}.`, est);
+      return;
+    }
+    startRun(token, params, est, true);
+  }
+
+  /** Fills and shows the estimate box: the sentence, and a button per faster setting. */
+  function showEstimate(text, est) {
+    $('clu-estimate-text').textContent = text;
+    const list = $('clu-faster');
+    list.replaceChildren(...((est && est.faster) || []).map((f) => {
+      const b = el('button', { type: 'button', class: 'quiet', id: `clu-faster-${f.option}-${String(f.number ?? f.choice).replace('.', '_')}`, 'data-option': f.option }, `Use ${f.label}`);
+      b.addEventListener('click', () => useFaster(f));
+      return el('li', null, b, ` \u2014 the run: ${duration(f.run_ms)}`);
+    }));
+    $('clu-estimate').hidden = false;
+    $('clu-progress-text').textContent = 'Waiting for your answer\u2026';
+  }
+
+  /** Sets the field of one faster setting; the user then presses Run. */
+  function useFaster(f) {
+    if (f.option === 'n_sim') $('clu-nsim').value = String(f.number);
+    else if (f.option === 'r_max_m') $('clu-rmax').value = String(f.number);
+    else if (f.option === 'correction') { $('clu-correction').value = f.choice; hints(); }
+    state.asking = null;
+    state.runToken++;
+    if (state.job) state.job.cancel();
+    state.job = null;
+    $('clu-estimate').hidden = true;
+    setRun('idle');
+    $('clu-progress-text').textContent = `Set to ${f.label}: the run should take ${duration(f.run_ms)}. Press Run.`;
+    $('clu-run').focus();
+  }
+
+  /** Starts the envelope job; `confirm`: the worker still asks when the
+   * observed curve shows the run will be long (the quick estimate can be off). */
+  async function startRun(token, params, est, confirm) {
+    $('clu-progress').max = params.n_sim;
+    $('clu-progress').value = 0;
+    $('clu-progress-text').textContent = 'Computing the observed curve\u2026';
     setStatus('Simulating chance patterns…');
     // Time left is estimated from the simulations done so far (the first
     // progress report comes after the observed pattern is computed).
     let t0 = null;
     let d0 = 0;
-    const job = runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, confirm_above_ms: CONFIRM_ABOVE_MS, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } }, ({ done, total, workers, waiting, estimate_ms: est, start_ms: one }) => {
+    // Until the observed curve is done, time left counts down from the estimate.
+    const curveStart = performance.now();
+    const countdown = setInterval(() => {
+      if (token !== state.runToken || t0 !== null) { clearInterval(countdown); return; }
+      const left = est.curve_ms - (performance.now() - curveStart);
+      $('clu-progress-text').textContent = `Computing the observed curve${left > 1000 ? ` \u00b7 about ${duration(left).replace(/^about /, '')} left` : '\u2026'}`;
+    }, 1000);
+    const spec = { start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params, parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } };
+    if (confirm) spec.confirm_above_ms = CONFIRM_ABOVE_MS;
+    const job = runJob(spec, ({ done, total, workers, waiting, estimate_ms: estMs, start_ms: one }) => {
       if (token !== state.runToken) return;
+      clearInterval(countdown);
       if (waiting) {
-        $('clu-estimate-text').textContent = `This run will take ${duration(est)}: one curve took ${duration(one)} ` +
+        state.asking = { token, params, job: true };
+        showEstimate(`This run will take ${duration(estMs)}: one curve took ${duration(one)} ` +
           `with ${fmt(C.snapshot() && C.snapshot().study ? C.snapshot().study.events : 0)} events, and ${fmt(total)} simulations follow` +
-          `${workers > 1 ? ` on ${fmt(workers)} workers` : ''}.`;
-        $('clu-estimate').hidden = false;
-        $('clu-progress-text').textContent = 'Waiting for your answer…';
+          `${workers > 1 ? ` on ${fmt(workers)} workers` : ''}.`, est);
         return;
       }
+      state.asking = null;
       $('clu-estimate').hidden = true;
       $('clu-progress').max = total;
       $('clu-progress').value = done;
@@ -263,15 +358,31 @@ export function mountClustering(C) {
 
   function cancel() {
     $('clu-estimate').hidden = true;
-    if (state.job) state.job.cancel();
+    if (state.job) {
+      state.asking = null;
+      state.job.cancel();
+      return;
+    }
+    // Still measuring, or asking before the run: nothing runs yet.
+    if (body.dataset.run === 'asking' || body.dataset.run === 'running') {
+      state.asking = null;
+      state.runToken++;
+      setRun('cancelled');
+      $('clu-progress-text').textContent = 'Cancelled.';
+      setStatus('Envelope run cancelled.');
+    }
   }
 
-  /** A time in words: "40 s", "about 4 min", "about 2 h". */
-  function duration(ms) {
-    const s = ms / 1000;
-    if (s < 90) return `${fmt(Math.max(1, Math.round(s)))} s`;
-    if (s < 5400) return `about ${fmt(Math.round(s / 60))} min`;
-    return `about ${fmt(Math.round(s / 360) / 10)} h`;
+  /** "Run it" in the estimate box. */
+  function goOn() {
+    $('clu-estimate').hidden = true;
+    const a = state.asking;
+    state.asking = null;
+    if (state.job) { state.job.resume(); return; }
+    if (a && a.token === state.runToken) {
+      setRun('running');
+      startRun(a.token, a.params, state.estimate, false);
+    }
   }
 
   function chartOptions() {
@@ -445,7 +556,7 @@ export function mountClustering(C) {
   $('clu-seed').addEventListener('input', () => { $('clu-fresh').checked = false; });
   $('clu-run').addEventListener('click', () => { run(); });
   $('clu-cancel').addEventListener('click', cancel);
-  $('clu-estimate-go').addEventListener('click', () => { $('clu-estimate').hidden = true; if (state.job) state.job.resume(); });
+  $('clu-estimate-go').addEventListener('click', goOn);
   $('clu-estimate-stop').addEventListener('click', cancel);
   for (const id of ['clu-view', 'clu-units', 'clu-kind-global', 'clu-kind-pointwise']) $(id).addEventListener('change', drawChart);
   $('clu-csv').addEventListener('click', act(saveCsv));
@@ -463,6 +574,11 @@ export function mountClustering(C) {
     state.runToken++;
     if (state.job) state.job.cancel();
     state.job = null;
+    state.asking = null;
+    state.estimate = null;
+    $('clu-estimate').hidden = true;
+    $('clu-rmax').placeholder = 'automatic';
+    $('clu-rmax').parentElement.querySelector('small').textContent = 'empty: chosen from the study area\u2019s shape';
     state.result = null;
     state.hasData = Boolean(snap && snap.study && snap.study.events > 0);
     setRun('idle');

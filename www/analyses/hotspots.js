@@ -396,6 +396,17 @@ export function mountHotspots(C) {
   const bar = el('progress', { id: 'hs-scan-progress', max: '1', value: '0', hidden: true });
   const barText = el('span', { class: 'hint', id: 'hs-scan-progress-text' });
   const scanOut = el('div', { class: 'hs-out', id: 'hs-scan-out', 'aria-live': 'polite' });
+  // A long scan asks first (the engine times a few chance runs when it
+  // starts), with the faster settings and what each would take.
+  const askText = el('p', { id: 'hs-scan-estimate-text' });
+  const askList = el('ul', { id: 'hs-scan-faster', class: 'faster' });
+  const askGo = el('button', { type: 'button', id: 'hs-scan-estimate-go' }, 'Run it');
+  const askStop = el('button', { type: 'button', id: 'hs-scan-estimate-stop', class: 'quiet' }, 'Stop and change the settings');
+  const askBox = el('div', { id: 'hs-scan-estimate', class: 'estimate', role: 'alert', hidden: true },
+    askText,
+    el('p', { class: 'hint' }, 'Faster: fewer chance runs (199 or 99 give a rougher p-value), or a smaller biggest circle. A button below sets that field; then press Run the scan.'),
+    askList,
+    el('div', { class: 'buttons' }, askGo, askStop));
 
   function freshSeed() {
     const a = new Uint32Array(1);
@@ -414,6 +425,7 @@ export function mountHotspots(C) {
       field('Chance runs', simIn, '999 is usual; each is a full search on a chance pattern'),
       field('Seed', el('span', { class: 'hs-inline' }, seedIn, seedBtn), 'The same seed and settings give the same answer.')),
     el('div', { class: 'hs-buttons' }, scanBtn, cancelBtn, bar, barText),
+    askBox,
     scanOut,
     el('p', { class: 'hs-caution' }, el('strong', null, 'A cluster is not a cause. '), 'A significant circle says the excess is unlikely to be chance under the model; it does not say why. Differences in who is counted, where people live, how cases are reported, or a wrong population can all make one. The circle\u2019s edge is the search\u2019s shape, not the outbreak\u2019s.'));
 
@@ -426,7 +438,16 @@ export function mountHotspots(C) {
   }
 
   scanBtn.addEventListener('click', () => runScan());
+  askGo.addEventListener('click', () => {
+    askBox.hidden = true;
+    if (state.job) state.job.resume();
+  });
+  askStop.addEventListener('click', () => {
+    askBox.hidden = true;
+    if (state.job) state.job.cancel();
+  });
   cancelBtn.addEventListener('click', () => {
+    askBox.hidden = true;
     if (state.job) {
       state.job.cancel();
       barText.textContent = 'Cancelling…';
@@ -456,11 +477,39 @@ export function mountHotspots(C) {
     drawOverlays();
     scanOut.replaceChildren();
     const t0 = performance.now();
-    const job = C.runJob({ start: 'scanStart', step: 'scanStep', finish: 'scanFinish', params }, (p) => {
+    let t1 = null; // when the chance runs began (after any question)
+    let perRun = NaN; // ms per chance run, measured when the scan started
+    const job = C.runJob({ start: 'scanStart', step: 'scanStep', finish: 'scanFinish', params, confirm_above_ms: C.longRunMs }, (p) => {
       if (state.job !== job) return;
       const done = num(p.done), total = num(p.total);
+      if (p.started && p.started.cost) perRun = num(p.started.cost.replicate_ms);
+      if (p.waiting) {
+        askText.textContent = `The ${fmt(total)} chance runs will take ${C.fmtDuration(num(p.estimate_ms))} ` +
+          `(one took ${fmt(perRun, 2)} ms: ${fmt(num(p.started.n_windows))} circles over ${fmt(num(p.started.n_regions))} places).`;
+        askList.replaceChildren(...Array.from(p.started.cost.faster || []).map((f) => {
+          const b = el('button', { type: 'button', class: 'quiet', id: `hs-faster-${f.option}-${String(f.number).replace('.', '_')}`, 'data-option': f.option }, `Use ${f.label}`);
+          b.addEventListener('click', () => {
+            if (f.option === 'n_sim') simIn.value = String(f.number);
+            else shareIn.value = String(Math.round(num(f.number) * 1000) / 10);
+            askBox.hidden = true;
+            job.note = `Set to ${f.label}: the chance runs should take ${C.fmtDuration(num(f.run_ms))}. Press Run the scan.`;
+            job.cancel();
+          });
+          return el('li', null, b, ` \u2014 the chance runs: ${C.fmtDuration(num(f.run_ms))}`);
+        }));
+        askBox.hidden = false;
+        barText.textContent = 'Waiting for your answer\u2026';
+        return;
+      }
+      askBox.hidden = true;
+      const now = performance.now();
+      if (t1 === null) t1 = { at: now, done };
       bar.value = total > 0 ? done / total : 0;
-      barText.textContent = `${fmt(done)} of ${fmt(total)} chance runs`;
+      // Time left: from the runs done since they began, or at first from
+      // the measured time of one run.
+      const rate = done > t1.done && now - t1.at > 1500 ? (now - t1.at) / (done - t1.done) : perRun;
+      const left = rate * (total - done);
+      barText.textContent = `${fmt(done)} of ${fmt(total)} chance runs${Number.isFinite(left) && left >= 1000 ? ` \u00b7 about ${C.fmtDuration(left).replace(/^about /, '')} left` : ''}`;
     });
     state.job = job;
     try {
@@ -473,10 +522,11 @@ export function mountHotspots(C) {
       C.setStatus(`Scan finished: p = ${fmt(r.p_value, 3)} for the strongest circle.`);
     } catch (err) {
       if (state.job !== job) return;
+      askBox.hidden = true;
       if (err && err.code === 'cancelled') {
         setBusy(part3, 'cancelled');
-        barText.textContent = 'Cancelled; nothing was kept.';
-        C.setStatus('Scan cancelled.');
+        barText.textContent = job.note || 'Cancelled; nothing was kept.';
+        C.setStatus(job.note ? 'Scan settings changed.' : 'Scan cancelled.');
       } else {
         setBusy(part3, 'error');
         barText.textContent = '';
@@ -638,6 +688,7 @@ export function mountHotspots(C) {
   // ---------- data changes ----------
 
   function clearAll(reason) {
+    askBox.hidden = true;
     if (state.job) {
       const job = state.job;
       state.job = null;

@@ -302,3 +302,94 @@ fn planted_cluster_is_found() {
     assert!(((m.centre_x - 700.0).powi(2) + (m.centre_y - 300.0).powi(2)).sqrt() < 80.0);
     assert!(m.relative_risk.unwrap() > 2.0);
 }
+
+/// The work of a chance run: every list entry at the job's own largest
+/// circle, only each centre's own region when the circle holds one region
+/// (S25: 1000 people of 25,000 = 4 %), and less for smaller circles.
+#[test]
+fn replicate_work_follows_the_largest_circle() {
+    let r = s25();
+    let cases: u64 = r.cases.iter().map(|&c| c as u64).sum();
+    let job = ScanJob::from_regions(&r, ScanModel::Poisson, &ScanOptions::default()).unwrap();
+    assert_eq!(
+        job.replicate_work(0.5),
+        (job.list.len() as u64 + cases) as f64
+    );
+    assert_eq!(job.replicate_work(0.04), (25 + cases) as f64);
+    assert!(job.replicate_work(0.25) < job.replicate_work(0.5));
+    assert!(job.replicate_work(0.1) < job.replicate_work(0.25));
+    // Never more than the job's own circle.
+    let small = ScanOptions {
+        max_share: 0.1,
+        ..Default::default()
+    };
+    let job = ScanJob::from_regions(&r, ScanModel::Poisson, &small).unwrap();
+    assert_eq!(job.replicate_work(0.5), job.replicate_work(0.1));
+}
+
+/// Timing the first chance runs: on a clock that advances 1 ms per
+/// reading each run takes 1 ms, so 5 runs pass 5 ms; the estimate is the
+/// rest at that pace, the faster settings are cheaper, and the timed runs
+/// leave the job as it was: the result equals a run that was never timed.
+#[test]
+fn timed_replicates_estimate_the_rest_and_count() {
+    let o = ScanOptions {
+        n_sim: 999,
+        seed: 7,
+        ..Default::default()
+    };
+    let mut job = ScanJob::from_regions(&s25(), ScanModel::Poisson, &o).unwrap();
+    let mut t = 0.0;
+    let mut clock = || {
+        t += 1.0;
+        t
+    };
+    let cost = job.time_replicates(&mut clock, 5.0, 50);
+    assert_eq!(cost.timed, 5);
+    assert_eq!(cost.replicate_ms, 1.0);
+    assert_eq!(cost.left_ms, 999.0);
+    assert_eq!(job.progress().done, 0);
+    let names: Vec<(&str, f64)> = cost
+        .faster
+        .iter()
+        .map(|f| (f.option.as_str(), f.number))
+        .collect();
+    assert_eq!(
+        names,
+        [
+            ("n_sim", 199.0),
+            ("n_sim", 99.0),
+            ("max_share", 0.25),
+            ("max_share", 0.1)
+        ]
+    );
+    assert_eq!(cost.faster[0].run_ms, 199.0);
+    assert!(cost.faster.iter().all(|f| f.run_ms < 999.0));
+    let timed = job.finish();
+    let plain = ScanJob::from_regions(&s25(), ScanModel::Poisson, &o)
+        .unwrap()
+        .finish();
+    assert_eq!(timed.null_maxima, plain.null_maxima);
+    assert_eq!(timed.p_value, plain.p_value);
+    // The same for the case–control model, whose draws shuffle a list of
+    // individuals in place (S25 with 1000 people per region, cases among them).
+    let b = ScanOptions {
+        n_sim: 99,
+        seed: 8,
+        ..Default::default()
+    };
+    let mut job = ScanJob::from_regions(&s25(), ScanModel::Bernoulli, &b).unwrap();
+    job.time_replicates(&mut || 0.0, 5.0, 7);
+    let timed = job.finish();
+    let plain = ScanJob::from_regions(&s25(), ScanModel::Bernoulli, &b)
+        .unwrap()
+        .finish();
+    assert_eq!(timed.null_maxima, plain.null_maxima);
+    // At most `max` runs, and never past the total.
+    let few = ScanOptions { n_sim: 3, ..o };
+    let mut job = ScanJob::from_regions(&s25(), ScanModel::Poisson, &few).unwrap();
+    let cost = job.time_replicates(&mut || 0.0, 5.0, 50);
+    assert_eq!((cost.timed, cost.left_ms), (3, 0.0));
+    assert_eq!(job.progress().done, 0);
+    assert!(cost.faster.is_empty());
+}
