@@ -23,3 +23,7 @@ echo "== clustering: our K against scipy's cKDTree.count_neighbors (same points,
 cargo run --quiet --release --example bench_clustering -- export
 python3 bench/clustering_vs_scipy.py
 echo "== clustering envelopes: headless Chromium page (worker)"; node bench/clustering-browser.mjs 10000 199 k l demo
+echo "== a 200,000-event file in the page, step by step (headless Chromium)"
+node bench/walk-200k.mjs 200000
+echo "== memory when the same 1,000,000-row file is chosen six times (headless Chromium)"
+node bench/reload-memory.mjs 1000000 6

@@ -79,8 +79,7 @@ try {
   }
   await step(page, 'DBSCAN: distance chart (min points 8)', () => act(page, () => page.click('#hs-kdist-run'), 600000));
   const eps = await page.inputValue('#hs-eps');
-  await step(page, `DBSCAN: clusters at the suggested reach (${eps} m)`, () => act(page, () => page.click('#hs-dbscan-run'), 600000),
-    (await page.textContent('#hs-dbscan-summary').catch(() => '')) || '');
+  await step(page, `DBSCAN: clusters at the suggested reach (${eps} m)`, () => act(page, () => page.click('#hs-dbscan-run'), 600000));
   rows[rows.length - 1].note = (await page.textContent('#hs-dbscan-summary').catch(() => '')).trim();
   await page.screenshot({ path: join(OUT, `walk-${n}-dbscan.png`) });
 
@@ -97,11 +96,12 @@ try {
   });
   rows[rows.length - 1].note = advice;
   await page.screenshot({ path: join(OUT, `walk-${n}-estimate.png`) });
-  await page.click('#clu-estimate-stop');
+  // Follow the advice as a user would: the suggested largest distance (the
+  // page aims it at a short run), which closes the question; then Run.
+  const rmax = await page.$('#clu-faster [data-option="r_max_m"]');
+  if (rmax) await rmax.click();
+  else await page.click('#clu-estimate-stop');
   await settle(page);
-  // Follow the advice: every suggestion button the page offers, then Run.
-  const suggestions = await page.$$('#clu-estimate [data-suggest]');
-  for (const b of suggestions) await b.click().catch(() => {});
   const settings = await page.evaluate(() => ['clu-function', 'clu-correction', 'clu-nsim', 'clu-rmax']
     .map((id) => document.getElementById(id)).filter(Boolean).map((e) => `${e.id.replace('clu-', '')}=${e.value}`).join(' '));
   await step(page, `envelope test with the advice (${settings})`, async () => {
@@ -115,19 +115,19 @@ try {
   rows[rows.length - 1].note = (await page.textContent('#clu-verdict')).trim();
   await page.screenshot({ path: join(OUT, `walk-${n}-envelope.png`) });
 
-  // The scan with the page's defaults (the page picks grid centres above a size).
+  // The scan with the page's defaults (the page picks grid centres above a
+  // size); if it asks first, the advice is recorded and the run goes ahead.
+  let scanAdvice = '';
   await step(page, 'scan, defaults (999 chance runs)', async () => {
     await page.click('#hs-scan-run');
-    const asked = await page.waitForSelector('#hs-scan-estimate', { state: 'visible', timeout: 5000 }).then(() => true).catch(() => false);
+    const asked = await page.waitForSelector('#hs-scan-estimate', { state: 'visible', timeout: 60000 }).then(() => true).catch(() => false);
     if (asked) {
-      rows.scanAdvice = (await page.textContent('#hs-scan-estimate')).replace(/\s+/g, ' ').trim();
-      const go = await page.$('#hs-scan-estimate-go');
-      if (go) await go.click();
+      scanAdvice = (await page.textContent('#hs-scan-estimate-text')).replace(/\s+/g, ' ').trim();
+      await page.click('#hs-scan-estimate-go');
     }
-    await page.waitForFunction(() => document.getElementById('hs-scan-run') && !document.getElementById('hs-scan-run').disabled &&
-      document.body.dataset.busy === '0', null, { timeout: 3600000 });
+    await page.waitForFunction(() => !document.getElementById('hs-scan-run').disabled && document.body.dataset.busy === '0', null, { timeout: 3600000 });
   });
-  rows[rows.length - 1].note = [rows.scanAdvice, (await page.textContent('#hs-scan-out')).replace(/\s+/g, ' ').trim().slice(0, 160)].filter(Boolean).join(' · ');
+  rows[rows.length - 1].note = [scanAdvice, (await page.textContent('#hs-scan-out')).replace(/\s+/g, ' ').trim().slice(0, 200)].filter(Boolean).join(' · ');
 
   console.log(JSON.stringify({ events, load_average: loadavg().map((v) => +v.toFixed(2)), page_errors: log.pageErrors }));
   // A Markdown table for README.
