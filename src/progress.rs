@@ -1,8 +1,8 @@
 //! How far one long computation has got, for whoever is listening.
 //!
 //! A long single step (a bandwidth search, a surface, DBSCAN, the k-distance
-//! curve, reading a large file) calls [`report`]`(done, total)` from its
-//! loop. Nothing happens unless a listener was set with [`listen`] on the
+//! curve, the simulations of the quadrat and Clark–Evans tests) calls
+//! [`report`]`(done, total)` from its loop. Nothing happens unless a listener was set with [`listen`] on the
 //! same thread: then the listener gets the fraction done, at most about a
 //! hundred times per computation (each time the fraction has grown by at
 //! least 1 %, and once at 100 %). The page's engine listens and shows the
