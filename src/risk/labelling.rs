@@ -78,6 +78,11 @@ pub struct LabellingOptions {
     pub n_steps: usize,
     /// Isotropic, translation or none (not border: see the module docs).
     pub correction: Correction,
+    /// Compare two categories of the events instead of events and
+    /// controls: the events of this category are the "cases" …
+    pub cases_category: Option<String>,
+    /// … and those of this one the "controls" (`None`: all other categories).
+    pub controls_category: Option<String>,
 }
 
 impl Default for LabellingOptions {
@@ -90,6 +95,8 @@ impl Default for LabellingOptions {
             r_max_m: None,
             n_steps: 50,
             correction: Correction::Isotropic,
+            cases_category: None,
+            controls_category: None,
         }
     }
 }
@@ -111,10 +118,36 @@ impl crate::params::Params for LabellingOptions {
             &["isotropic", "translation", "none"],
             "edge correction of both K estimates",
         ));
+        v.push(
+            Field::text(
+                "cases_category",
+                "compare two categories of the events: this one as the cases; empty = the events against the population file",
+            )
+            .optional(),
+        );
+        v.push(
+            Field::text(
+                "controls_category",
+                "with cases_category: this category as the controls; empty = all other categories",
+            )
+            .optional(),
+        );
         v
     }
     fn check(&self) -> Result<(), AnalysisError> {
         check_distance_range(self.r_min_m, self.r_max_m)?;
+        if self.cases_category.is_none() && self.controls_category.is_some() {
+            return Err(crate::params::bad(
+                "controls_category",
+                "needs cases_category (the category compared with it)",
+            ));
+        }
+        if self.cases_category.is_some() && self.cases_category == self.controls_category {
+            return Err(crate::params::bad(
+                "controls_category",
+                "must differ from cases_category",
+            ));
+        }
         if self.correction == Correction::Border {
             return Err(crate::params::bad(
                 "correction",
@@ -192,9 +225,17 @@ pub struct LabellingJob {
     sims: Vec<f64>,
     done: usize,
     capped: u64,
+    /// How the verdict names the two groups.
+    names: (String, String),
 }
 
 impl LabellingJob {
+    /// Names the two groups in the verdict (default "cases" and "the
+    /// population"), e.g. `("events of \"enteric\"", "the other categories")`.
+    pub fn name_groups(&mut self, cases: &str, controls: &str) {
+        self.names = (cases.to_string(), controls.to_string());
+    }
+
     /// Pools `cases` and `controls` (points as (x, y) lists, metres) in
     /// `window` and computes the observed D.
     pub fn new(
@@ -237,6 +278,7 @@ impl LabellingJob {
             observed,
             done: 0,
             capped,
+            names: ("cases".into(), "the population".into()),
         })
     }
 
@@ -356,7 +398,14 @@ impl LabellingJob {
                 self.capped, self.ctx.cap
             ));
         }
-        let (outcome, ranges, verdict) = verdict(&r, &d, &bands, self.opts.alpha, self.opts.n_sim);
+        let (outcome, ranges, verdict) = verdict(
+            &r,
+            &d,
+            &bands,
+            self.opts.alpha,
+            self.opts.n_sim,
+            (&self.names.0, &self.names.1),
+        );
         let n1 = if self.cases_smaller {
             self.k_small
         } else {
@@ -415,7 +464,14 @@ fn verdict(
     b: &Bands,
     alpha: f64,
     m: usize,
+    (cases, controls): (&str, &str),
 ) -> (LabellingOutcome, Vec<DistanceRange>, String) {
+    let mut first = cases.chars();
+    #[allow(non_snake_case)]
+    let Cases: String = first
+        .next()
+        .map(|c| c.to_uppercase().chain(first).collect())
+        .unwrap_or_default();
     let ranges = departures(r, d, &b.global_lo, &b.global_hi, &b.in_test, true);
     let above = ranges.iter().any(|g| g.departure == Departure::Clustered);
     let below = ranges.iter().any(|g| g.departure == Departure::Regular);
@@ -433,19 +489,19 @@ fn verdict(
     );
     let text = match outcome {
         LabellingOutcome::ConsistentWithPopulation => format!(
-            "Consistent with the population: cases cluster no more than the controls do; D stays inside the global {:.0}% band ({test}).",
+            "Consistent with {controls}: {cases} cluster no more than {controls}; D stays inside the global {:.0}% band ({test}).",
             100.0 * (1.0 - alpha)
         ),
         LabellingOutcome::BeyondPopulation => format!(
-            "Cases cluster beyond the population at distances {} ({test}).",
+            "{Cases} cluster beyond {controls} at distances {} ({test}).",
             list(Departure::Clustered)
         ),
         LabellingOutcome::MoreSpreadOut => format!(
-            "Cases are more spread out than the population at distances {} ({test}).",
+            "{Cases} are more spread out than {controls} at distances {} ({test}).",
             list(Departure::Regular)
         ),
         LabellingOutcome::Mixed => format!(
-            "Cases cluster beyond the population at distances {} and are more spread out at {} ({test}).",
+            "{Cases} cluster beyond {controls} at distances {} and are more spread out at {} ({test}).",
             list(Departure::Clustered),
             list(Departure::Regular)
         ),

@@ -5,9 +5,12 @@
 //! * `labellingStart(options) -> {total, distances, seed, n_cases,
 //!   n_controls}`: the random labelling test of Diggle & Chetwynd (1991)
 //!   (options [`LabellingOptions`]: `n_sim`, `seed`, `alpha`, `r_min_m`,
-//!   `r_max_m`, `n_steps`, `correction`); D(r) of the data is computed here.
-//!   Needs a population layer of individual controls (one point per
-//!   control); a layer with a count column is refused with `needs_individuals`.
+//!   `r_max_m`, `n_steps`, `correction`, `cases_category`,
+//!   `controls_category`); D(r) of the data is computed here. Needs a
+//!   population layer of individual controls (one point per control; a layer
+//!   with a count column is refused with `needs_individuals`), or, with
+//!   `cases_category`, compares that category of the events with another
+//!   (`controls_category`) or with all the others.
 //! * `labellingStep(k) -> done`: runs `k` more relabellings (64 at the
 //!   least, as one visit of the pairs serves many; never past `total`).
 //! * `labellingFinish() -> result`: bands, global tests and the verdict (a
@@ -43,6 +46,68 @@ fn no_job() -> JsValue {
     )
 }
 
+/// The events of category `case_name` and those of `control_name` (all
+/// other categories when `None`), as coordinate lists.
+#[allow(clippy::type_complexity)]
+fn split_by_category(
+    events: &crate::study::Pattern,
+    case_name: &str,
+    control_name: Option<&str>,
+) -> Result<((Vec<f64>, Vec<f64>), (Vec<f64>, Vec<f64>)), JsValue> {
+    let (Some(cat), names) = (events.category(), events.category_names()) else {
+        return Err(js_error(
+            "no_categories",
+            "the events have no category column: map one in the column editor to compare categories",
+            None,
+        ));
+    };
+    let find = |name: &str| {
+        names.iter().position(|n| n == name).ok_or_else(|| {
+            js_error(
+                "bad_parameter",
+                &format!(
+                    "labellingStart: there is no category \"{name}\"; the categories are: {}",
+                    names.join(", ")
+                ),
+                None,
+            )
+        })
+    };
+    let a = find(case_name)? as u32;
+    let b = control_name.map(find).transpose()?.map(|v| v as u32);
+    let (mut cases, mut controls) = ((vec![], vec![]), (vec![], vec![]));
+    for ((&c, &x), &y) in cat.iter().zip(events.x()).zip(events.y()) {
+        if c == a {
+            cases.0.push(x);
+            cases.1.push(y);
+        } else if b.is_none_or(|b| b == c) {
+            controls.0.push(x);
+            controls.1.push(y);
+        }
+    }
+    Ok((cases, controls))
+}
+
+impl Session {
+    fn keep_job(
+        &mut self,
+        job: LabellingJob,
+        o: &LabellingOptions,
+        n_cases: usize,
+        n_controls: usize,
+    ) -> Result<JsValue, JsValue> {
+        let started = Started {
+            total: job.total(),
+            distances: job.r().len(),
+            seed: o.seed,
+            n_cases,
+            n_controls,
+        };
+        self.extras.insert(KEY, Box::new(job));
+        to_js(&started)
+    }
+}
+
 #[wasm_bindgen]
 impl Session {
     /// Starts a random labelling test of the events (cases) against the
@@ -56,6 +121,23 @@ impl Session {
         let (o, _) = decode::<LabellingOptions>(options, self.extent_m())?;
         self.extras.remove(KEY);
         let s = self.study_ref()?;
+        if let Some(case_name) = &o.cases_category {
+            let (cases, controls) =
+                split_by_category(&s.events, case_name, o.controls_category.as_deref())?;
+            let mut job = LabellingJob::new(
+                (&cases.0, &cases.1),
+                (&controls.0, &controls.1),
+                &s.window,
+                &o,
+            )
+            .map_err(|e| analysis_error(&e))?;
+            let others = match &o.controls_category {
+                Some(b) => format!("those of \"{b}\""),
+                None => "the other categories".to_string(),
+            };
+            job.name_groups(&format!("events of \"{case_name}\""), &others);
+            return self.keep_job(job, &o, cases.0.len(), controls.0.len());
+        }
         let controls = s.controls.as_ref().ok_or_else(|| {
             js_error(
                 "no_controls",
@@ -82,15 +164,8 @@ impl Session {
             &o,
         )
         .map_err(|e| analysis_error(&e))?;
-        let started = Started {
-            total: job.total(),
-            distances: job.r().len(),
-            seed: o.seed,
-            n_cases: s.events.len(),
-            n_controls: controls.len(),
-        };
-        self.extras.insert(KEY, Box::new(job));
-        to_js(&started)
+        let (n1, n0) = (s.events.len(), controls.len());
+        self.keep_job(job, &o, n1, n0)
     }
 
     /// Runs `k` more relabellings (at least [`MIN_STEP`]: each step visits

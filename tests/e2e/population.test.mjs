@@ -43,11 +43,30 @@ test('random labelling on the demo: D above the band at short distances, chart d
   });
   assert.ok(inked > 2000, `${inked} dark pixels`);
   await page.locator('#population').screenshot({ path: join(OUT, 'population-labelling.png') });
-  // Without the population file the section says what it needs.
+  // Without the population file, two categories of the events can still be
+  // compared; the population comparison is no longer offered.
   await act(page, () => page.click('#controls-clear'));
+  assert.equal(await page.isVisible('#pop-result'), false);
+  const offered = await page.$$eval('#pop-compare option', (os) => os.map((o) => o.textContent));
+  assert.deepEqual(offered.sort(), ['enteric against respiratory', 'enteric against the other categories', 'respiratory against enteric', 'respiratory against the other categories']);
+  await page.selectOption('#pop-compare', { label: 'enteric against respiratory' });
+  await page.fill('#pop-nsim', '19');
+  await page.click('#pop-run');
+  await page.waitForFunction(() => !document.getElementById('pop-result').hidden, null, { timeout: 120000 });
+  assert.match(await page.textContent('#pop-details'), /686 "enteric", 814 "respiratory"/);
+  const catVerdict = await page.textContent('#pop-verdict');
+  assert.match(catVerdict, /[Ee]vents of "enteric"/);
+  assert.match(catVerdict, /those of "respiratory"/);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('the section says what it needs when there is neither a population file nor categories', async () => {
+  const { page, log } = await openPage(browser);
+  const lines = ['x,y'];
+  for (let i = 0; i < 60; i++) lines.push(`${(i * 137) % 1000},${(i * 71) % 700}`);
+  await act(page, () => page.setInputFiles('#events-file', { name: 'plain.csv', mimeType: 'text/csv', buffer: Buffer.from(lines.join('\n')) }));
   assert.equal(await page.isVisible('#pop-needs'), true);
   assert.equal(await page.isDisabled('#pop-run'), true);
-  assert.equal(await page.isVisible('#pop-result'), false);
   assert.deepEqual(log.pageErrors, []);
 });
 

@@ -369,3 +369,35 @@ test('scan: the start times a few chance runs for the estimate without changing 
   const b = runScan(demo({ controls: true }), { n_sim: 299, seed: 5 });
   assert.deepEqual(a, b);
 });
+
+test('random labelling between two categories of the events: each against the others or against one; unknown names and no category column are refused', () => {
+  const s = new Session();
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  const run = (o) => {
+    const st = s.labellingStart(o);
+    while (s.labellingStep(64) < st.total);
+    return [st, s.labellingFinish()];
+  };
+  const [st, r] = run({ n_sim: 19, seed: 2, cases_category: 'enteric' });
+  assert.deepEqual([st.n_cases, st.n_controls], [686, 814]);
+  assert.equal(r.n_cases + r.n_controls, 1500);
+  // The verdict names the two groups.
+  assert.match(r.verdict, /[Ee]vents of "enteric"/);
+  assert.match(r.verdict, /the other categories/);
+  // With two categories, "against the others" and "against the other one" are the same comparison.
+  const [, r2] = run({ n_sim: 19, seed: 2, cases_category: 'enteric', controls_category: 'respiratory' });
+  assert.deepEqual(r2.observed, r.observed);
+  // Swapped roles: D changes sign.
+  const [, r3] = run({ n_sim: 19, seed: 2, cases_category: 'respiratory' });
+  for (let k = 0; k < r.r.length; k++) assert.ok(Math.abs(r3.observed[k] + r.observed[k]) <= 1e-6 * (1 + Math.abs(r.k_cases[k])));
+  const e = throws(() => s.labellingStart({ cases_category: 'entric' }));
+  assert.equal(e.code, 'bad_parameter');
+  assert.match(e.message, /no category "entric"; the categories are: (enteric, respiratory|respiratory, enteric)$/);
+  assert.equal(throws(() => s.labellingStart({ controls_category: 'enteric' })).code, 'bad_parameter');
+  assert.equal(throws(() => s.labellingStart({ cases_category: 'enteric', controls_category: 'enteric' })).code, 'bad_parameter');
+  const p = new Session();
+  p.loadEvents(new TextEncoder().encode('x,y\n' + Array.from({ length: 30 }, (_, i) => `${(i * 37) % 800 + 10},${(i * 53) % 500 + 10}`).join('\n')), {});
+  p.setAreaFallback('bounding_box');
+  assert.equal(throws(() => p.labellingStart({ cases_category: 'a' })).code, 'no_categories');
+});

@@ -8,7 +8,7 @@
 export function mountRisk(C) {
   const { el, fmt, fmtMetres, runJob, setStatus, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
-  const state = { job: null, token: 0, result: null, ready: false };
+  const state = { job: null, token: 0, result: null, ready: false, compared: 'population', caseLabel: '', controlLabel: '' };
 
   const field = (label, input, hint) => el('label', { class: 'clu-field' }, el('span', null, label), input, hint ? el('small', null, hint) : null);
 
@@ -17,18 +17,22 @@ export function mountRisk(C) {
     'With a population file (controls: one point per person of a sample, or per address) loaded, ' +
     'these tests ask whether cases cluster more than the population does.');
 
+  // What is compared: the events against the population file, or one
+  // category of the events against the others (or against one other).
+  const compare = el('select', { id: 'pop-compare' });
   const correction = el('select', { id: 'pop-correction' },
     el('option', { value: 'isotropic' }, 'isotropic'),
     el('option', { value: 'translation' }, 'translation'),
     el('option', { value: 'none' }, 'none'));
   body.append(
-    el('p', { class: 'hint', id: 'pop-needs' }, 'Load events and a population file (step 3) to use this section.'),
+    el('p', { class: 'hint', id: 'pop-needs' }, 'Load events and a population file (step 3), or events with a category column, to use this section.'),
     el('fieldset', { class: 'clu-box', id: 'pop-labelling-box' },
       el('legend', null, 'Do cases cluster more than the population? (random labelling)'),
       el('p', { class: 'hint' },
         'D(r) is the K function of the cases minus that of the controls: above 0, cases sit closer together than the population at that distance. ' +
         'The band comes from relabelling: as many "cases" drawn at random from all the points, many times (Diggle & Chetwynd 1991).'),
       el('div', { class: 'clu-grid' },
+        field('Compare', compare, 'cases (first) against controls'),
         field('Relabellings', el('input', { type: 'number', id: 'pop-nsim', 'data-param': 'labellingStart.n_sim', value: '199' }), '199 is usual; 999 for a smaller p'),
         field('Largest distance', el('input', { type: 'number', id: 'pop-rmax', 'data-param': 'labellingStart.r_max_m', placeholder: 'automatic', step: 'any' }), 'metres; empty = a quarter of the area\u2019s shorter side'),
         field(C.term('isotropic', 'Edge correction'), correction, 'the same for cases and controls'),
@@ -54,8 +58,28 @@ export function mountRisk(C) {
     $('pop-progress').hidden = !on;
   }
 
+  /** The comparisons the loaded data allow: [value, label]. */
+  function comparisons(snap) {
+    const study = snap && snap.study;
+    const cats = ((snap && snap.summary && snap.summary.categories) || []).filter((c) => c.count > 1).map((c) => c.name);
+    const out = [];
+    if (study && study.controls > 1) out.push(['population', 'events against the population file']);
+    if (cats.length >= 2) {
+      for (const a of cats) out.push([JSON.stringify([a, null]), `${a} against the other categories`]);
+      if (cats.length <= 6) {
+        for (const a of cats) for (const b of cats) if (a !== b) out.push([JSON.stringify([a, b]), `${a} against ${b}`]);
+      }
+    }
+    return out;
+  }
+
   function readOptions() {
     const o = { correction: correction.value };
+    if (compare.value !== 'population') {
+      const [a, b] = JSON.parse(compare.value);
+      o.cases_category = a;
+      if (b !== null) o.controls_category = b;
+    }
     const n = Number($('pop-nsim').value);
     const lim = C.param('labellingStart', 'n_sim');
     if (!(Number.isInteger(n) && n >= lim.min && n <= lim.max)) throw { message: `relabellings must be a whole number from ${fmt(lim.min)} to ${fmt(lim.max)} (199 is usual).` };
@@ -89,6 +113,12 @@ export function mountRisk(C) {
       return;
     }
     const token = ++state.token;
+    state.compared = compare.value;
+    if (compare.value !== 'population') {
+      const [a, b] = JSON.parse(compare.value);
+      state.caseLabel = `"${a}"`;
+      state.controlLabel = b === null ? 'of the other categories' : `"${b}"`;
+    }
     setRunning(true);
     $('pop-progress').max = params.n_sim;
     $('pop-progress').value = 0;
@@ -164,7 +194,9 @@ export function mountRisk(C) {
     $('pop-caveats').replaceChildren(...res.caveats.map((c) => el('li', null, c)));
     const dl = $('pop-details');
     dl.replaceChildren(...[
-      ['Cases, controls', `${fmt(res.n_cases)} events, ${fmt(res.n_controls)} controls`],
+      ['Cases, controls', state.compared === 'population'
+        ? `${fmt(res.n_cases)} events, ${fmt(res.n_controls)} controls`
+        : `${fmt(res.n_cases)} ${state.caseLabel}, ${fmt(res.n_controls)} ${state.controlLabel}`],
       [C.term('mad', 'Maximum-deviation test'), `${pEq(res.mad.p_value)} (${fmt(res.mad.at_least_as_extreme)} of ${fmt(res.n_sim)} relabellings at least as extreme)`],
       [C.term('dclf', 'Integrated-deviation test (DCLF)'), pEq(res.dclf.p_value)],
       ['Distances tested', `${fmtMetres(res.test_r_min)} to ${fmtMetres(res.test_r_max)}`],
@@ -188,7 +220,9 @@ export function mountRisk(C) {
     state.job = null;
     state.result = null;
     const study = snap && snap.study;
-    state.ready = Boolean(study && study.events > 1 && study.controls > 1);
+    const options = comparisons(snap);
+    compare.replaceChildren(...options.map(([v, t]) => el('option', { value: v }, t)));
+    state.ready = Boolean(study && study.events > 1 && options.length > 0);
     $('pop-needs').hidden = state.ready;
     $('pop-result').hidden = true;
     $('pop-progress-text').textContent = '';
