@@ -47,7 +47,8 @@ fn no_job() -> JsValue {
 }
 
 /// The events of category `case_name` and those of `control_name` (all
-/// other categories when `None`), as coordinate lists.
+/// other categories when `None`, leaving out rows with a blank category:
+/// their category is unknown, not "other"), as coordinate lists.
 #[allow(clippy::type_complexity)]
 fn split_by_category(
     events: &crate::study::Pattern,
@@ -75,12 +76,16 @@ fn split_by_category(
     };
     let a = find(case_name)? as u32;
     let b = control_name.map(find).transpose()?.map(|v| v as u32);
+    let blank = names
+        .iter()
+        .position(|n| n == crate::input::layer::BLANK_CATEGORY)
+        .map(|v| v as u32);
     let (mut cases, mut controls) = ((vec![], vec![]), (vec![], vec![]));
     for ((&c, &x), &y) in cat.iter().zip(events.x()).zip(events.y()) {
         if c == a {
             cases.0.push(x);
             cases.1.push(y);
-        } else if b.is_none_or(|b| b == c) {
+        } else if b.map_or(Some(c) != blank, |b| b == c) {
             controls.0.push(x);
             controls.1.push(y);
         }

@@ -400,4 +400,11 @@ test('random labelling between two categories of the events: each against the ot
   p.loadEvents(new TextEncoder().encode('x,y\n' + Array.from({ length: 30 }, (_, i) => `${(i * 37) % 800 + 10},${(i * 53) % 500 + 10}`).join('\n')), {});
   p.setAreaFallback('bounding_box');
   assert.equal(throws(() => p.labellingStart({ cases_category: 'a' })).code, 'no_categories');
+  // Rows with a blank category are not "the other categories".
+  const rows = Array.from({ length: 60 }, (_, i) => `${(i * 37) % 800 + 10},${(i * 53) % 500 + 10},${['a', 'b', ''][i % 3]}`);
+  const q = new Session();
+  q.loadEvents(new TextEncoder().encode('x,y,category\n' + rows.join('\n')), {});
+  q.setAreaFallback('bounding_box');
+  const sq = q.labellingStart({ n_sim: 9, cases_category: 'a' });
+  assert.deepEqual([sq.n_cases, sq.n_controls], [20, 20]);
 });

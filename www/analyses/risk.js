@@ -61,7 +61,8 @@ export function mountRisk(C) {
   /** The comparisons the loaded data allow: [value, label]. */
   function comparisons(snap) {
     const study = snap && snap.study;
-    const cats = ((snap && snap.summary && snap.summary.categories) || []).filter((c) => c.count > 1).map((c) => c.name);
+    // Rows with a blank category are of no known category: never compared.
+    const cats = ((snap && snap.summary && snap.summary.categories) || []).filter((c) => c.count > 1 && c.name !== '(blank)').map((c) => c.name);
     const out = [];
     if (study && study.controls > 1) out.push(['population', 'events against the population file']);
     if (cats.length >= 2) {
