@@ -61,6 +61,20 @@ export const panelApi = {
   },
   /** The engine running on the page's own thread (for drawing charts). */
   engine() { return wasm_bindgen; },
+  /** Sizes a chart canvas to its container (420–960 CSS px wide, height
+   * from the width) with as many canvas pixels as screen pixels, so charts
+   * stay sharp on high-density screens; returns the pixel ratio, which the
+   * engine's drawing functions take as `scale`. */
+  sizeChart(canvas) {
+    const w = Math.max(420, Math.min(960, Math.floor((canvas.parentElement.clientWidth || 762) - 2)));
+    const h = Math.round(Math.min(460, Math.max(300, w * 0.55)));
+    const dpr = Math.min(4, Math.max(1, window.devicePixelRatio || 1));
+    canvas.width = Math.round(w * dpr);
+    canvas.height = Math.round(h * dpr);
+    canvas.style.width = `${w}px`;
+    canvas.style.height = `${h}px`;
+    return dpr;
+  },
   /** One option of an analysis as the engine describes it (kind, unit,
    * default, min, max, allowed): the one home of defaults and limits. */
   param(method, name) { return paramSpec(method, name); },

@@ -397,15 +397,7 @@ export function mountClustering(C) {
     const res = state.result;
     if (!res) return;
     const canvas = $('clu-chart');
-    const w = Math.max(420, Math.min(960, Math.floor((canvas.parentElement.clientWidth || 762) - 2)));
-    const h = Math.round(Math.min(460, Math.max(300, w * 0.55)));
-    // As many canvas pixels as screen pixels (sharp on high-density
-    // screens); the engine scales text, lines and margins to match.
-    const dpr = Math.min(4, Math.max(1, window.devicePixelRatio || 1));
-    canvas.width = Math.round(w * dpr);
-    canvas.height = Math.round(h * dpr);
-    canvas.style.width = `${w}px`;
-    canvas.style.height = `${h}px`;
+    const dpr = C.sizeChart(canvas);
     try {
       const drawn = C.engine().drawEnvelopeChart('clu-chart', res, { ...chartOptions(), scale: dpr });
       canvas.dataset.drawn = '1';

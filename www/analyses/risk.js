@@ -162,13 +162,7 @@ export function mountRisk(C) {
     const res = state.result;
     if (!res) return;
     const canvas = $('pop-chart');
-    const w = Math.max(420, Math.min(960, Math.floor((canvas.parentElement.clientWidth || 762) - 2)));
-    const h = Math.round(Math.min(460, Math.max(300, w * 0.55)));
-    const dpr = Math.min(4, Math.max(1, window.devicePixelRatio || 1));
-    canvas.width = Math.round(w * dpr);
-    canvas.height = Math.round(h * dpr);
-    canvas.style.width = `${w}px`;
-    canvas.style.height = `${h}px`;
+    const dpr = C.sizeChart(canvas);
     const data = {
       function: 'k', r: res.r, observed: res.observed, theoretical: res.r.map(() => 0),
       pointwise_lo: res.pointwise_lo, pointwise_hi: res.pointwise_hi, global_lo: res.global_lo, global_hi: res.global_hi,
