@@ -108,6 +108,46 @@ fn envelope_chart_takes_a_label_for_other_curves() {
         !t.iter().any(|x| x == "complete spatial randomness"),
         "{t:?}"
     );
+    // In m², D reaches millions: the tick labels ("-4 000 000") and the
+    // axis title must not overlap.
+    let mut big = data.clone();
+    for v in [
+        &mut big.observed,
+        &mut big.global_lo,
+        &mut big.global_hi,
+        &mut big.pointwise_lo,
+        &mut big.pointwise_hi,
+    ] {
+        v.iter_mut().for_each(|x| *x *= 200.0);
+    }
+    let (svg, _) = envelope_svg(
+        &big,
+        &EnvelopeChartOptions {
+            units: Units::M,
+            ..o
+        },
+        (760, 420),
+    )
+    .unwrap();
+    let mut title_right = f64::NAN;
+    let mut ticks_left = f64::INFINITY;
+    for part in svg.split("<text ").skip(1) {
+        let (tag, rest) = part.split_once('>').unwrap();
+        let body = rest.split("</text>").next().unwrap().trim();
+        let tag = &format!(" {tag}");
+        let (x, size) = (attr(tag, "x"), attr(tag, "font-size"));
+        if body.starts_with("D(r)") {
+            // Rotated a quarter turn: it takes one line height right of x.
+            title_right = x + size;
+        } else if tag.contains("text-anchor=\"end\"") && body.chars().any(|c| c.is_ascii_digit()) {
+            // Right-aligned at x; a digit is about 0.6 em wide.
+            ticks_left = ticks_left.min(x - 0.6 * size * body.chars().count() as f64);
+        }
+    }
+    assert!(
+        title_right < ticks_left,
+        "axis title ends at {title_right}, tick labels start at {ticks_left}"
+    );
 }
 
 fn envelope_svg(

@@ -93,10 +93,7 @@ impl SummaryFunction {
                 f: true,
                 ..Default::default()
             },
-            SummaryFunction::K | SummaryFunction::L => Needs {
-                k: true,
-                ..Default::default()
-            },
+            SummaryFunction::K | SummaryFunction::L => Needs::K_ONLY,
             SummaryFunction::PairCorrelation => Needs {
                 pcf: true,
                 ..Default::default()

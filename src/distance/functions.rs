@@ -1263,13 +1263,6 @@ pub(crate) mod tests {
         Correction::Border,
     ];
 
-    const K_ONLY: Needs = Needs {
-        k: true,
-        pcf: false,
-        g: false,
-        f: false,
-    };
-
     /// Fixture F12 (docs/methods.md#fixtures).
     pub fn f12() -> (Vec<f64>, Vec<f64>) {
         let p = [
@@ -1432,7 +1425,7 @@ pub(crate) mod tests {
                     correction: c,
                     ..Default::default()
                 };
-                let (a, b) = fast_and_general(&region, &x, &y, &p, K_ONLY);
+                let (a, b) = fast_and_general(&region, &x, &y, &p, Needs::K_ONLY);
                 assert_agree(&a.k, &b.k, 0, &format!("{c:?}"));
             }
         }
@@ -1577,7 +1570,7 @@ pub(crate) mod tests {
                 correction: c,
                 ..Default::default()
             };
-            let (a, b) = fast_and_general(&unit_square(), &x, &y, &p, K_ONLY);
+            let (a, b) = fast_and_general(&unit_square(), &x, &y, &p, Needs::K_ONLY);
             assert_agree(&a.k, &b.k, 0, &format!("{c:?}"));
             // Spacing 0.08 = 2 steps: nothing closer than r_2, and the
             // first neighbours (4 per inner point) count at r_2 exactly.

@@ -274,10 +274,17 @@ pub fn draw_envelope_chart<DB: DrawingBackend>(
         x += need + px(22);
     }
     let (legend, plot) = area.split_vertically(px(30) + row * px(22));
+    // Room for the widest tick label ("−3 000 000" for a D(r) in m²) beside
+    // the axis title, so the two never overlap.
+    let widest = [ymin - pad, ymax + pad]
+        .iter()
+        .map(|v| tick(*v).chars().count())
+        .max()
+        .unwrap_or(0) as u32;
     let mut chart = ChartBuilder::on(&plot)
         .margin(pt(12))
         .x_label_area_size(pt(44))
-        .y_label_area_size(pt(72))
+        .y_label_area_size(pt(72.max(34 + 7 * widest)))
         .build_cartesian_2d(0.0..xmax, (ymin - pad)..(ymax + pad))
         .map_err(draw_err)?;
     let label_font = ("sans-serif", pf(14.0)).into_font().color(&ink);

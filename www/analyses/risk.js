@@ -166,7 +166,7 @@ export function mountRisk(C) {
     const data = {
       function: 'k', r: res.r, observed: res.observed, theoretical: res.r.map(() => 0),
       pointwise_lo: res.pointwise_lo, pointwise_hi: res.pointwise_hi, global_lo: res.global_lo, global_hi: res.global_hi,
-      alpha: res.alpha, y_label: 'D(r) = K cases \u2212 K controls ({unit}\u00b2)', reference_label: 'as the population (D = 0)',
+      alpha: res.alpha, y_label: 'D(r) = K cases \u2212 K controls ({unit}\u00b2)', reference_label: 'no difference (D = 0)',
     };
     try {
       const drawn = C.engine().drawEnvelopeChart('pop-chart', data, { view: 'function', units: 'auto', band: 'global', scale: dpr });
