@@ -125,6 +125,9 @@ function endFailed(id, err) {
 // `add(from, curves)`. Piece j of a run is the same wherever it is
 // computed, so the result is identical to one worker's. A helper that
 // fails gives its piece back; Cancel stops the helpers at once.
+// `parallel.minPiece` (optional) is the smallest piece handed out, for a job
+// whose piece has a large fixed cost (the random labelling test visits every
+// pair once per piece, whatever its size).
 const HELPER_MS = 400;
 
 function helperCount() {
@@ -151,11 +154,12 @@ function runParallelJob(id, spec) {
   let reported = -1;
   const ready = new Map(); // from -> curves, waiting for their turn
   const returned = []; // pieces given back by failed helpers
+  const minPiece = Math.max(1, Math.floor(Number(parallel.minPiece)) || 1);
   const take = (size) => {
     if (returned.length) return returned.shift();
     if (next >= total) return null;
     const from = next;
-    next = Math.min(total, next + size);
+    next = Math.min(total, next + Math.max(size, minPiece));
     return [from, next];
   };
   const flush = () => {

@@ -15,16 +15,23 @@
 //!   least, as one visit of the pairs serves many; never past `total`).
 //! * `labellingFinish() -> result`: bands, global tests and the verdict (a
 //!   [`LabellingResult`]).
+//! * `labellingShare() -> string`, `labellingHelperStart(share)`,
+//!   `labellingSimulate(from, to) -> Float64Array`, `labellingAdd(from,
+//!   curves) -> done`: the same run spread over helper workers (the
+//!   worker's `parallel` job spec): relabelling j depends only on the seed
+//!   and j, so the result equals one worker's.
 //!
 //! The methods follow the worker's job protocol; the running job lives in
 //! `Session::extras` under [`KEY`], so loading other data drops it.
 
 use super::{analysis_error, decode, js_error, to_js, Session};
-use crate::risk::{LabellingJob, LabellingOptions};
+use crate::risk::{LabellingJob, LabellingOptions, LabellingShare, LabellingSimulator};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "risk-labelling";
+/// In a helper worker: the simulator of a shared run.
+const HELPER_KEY: &str = "risk-labelling-helper";
 /// Relabellings per step at the least: a step's cost is mostly one visit of
 /// the pooled pairs, which serves up to 256 relabellings at once.
 const MIN_STEP: usize = 64;
@@ -188,5 +195,64 @@ impl Session {
     pub fn labelling_finish(&mut self) -> Result<JsValue, JsValue> {
         let job = self.take_extra::<LabellingJob>(KEY).ok_or_else(no_job)?;
         to_js(&job.finish().map_err(|e| analysis_error(&e))?)
+    }
+
+    /// The shared part of the running test, for helper workers (JSON).
+    #[wasm_bindgen(js_name = labellingShare)]
+    pub fn labelling_share(&self) -> Result<String, JsValue> {
+        let job = self
+            .extras
+            .get(KEY)
+            .and_then(|b| b.downcast_ref::<LabellingJob>())
+            .ok_or_else(no_job)?;
+        serde_json::to_string(&job.share())
+            .map_err(|e| js_error("internal", &format!("could not share the run: {e}"), None))
+    }
+
+    /// In a helper worker: prepares to compute relabellings of a shared run.
+    #[wasm_bindgen(js_name = labellingHelperStart)]
+    pub fn labelling_helper_start(&mut self, share: String) -> Result<(), JsValue> {
+        let share: LabellingShare = serde_json::from_str(&share).map_err(|e| {
+            js_error(
+                "bad_parameter",
+                &format!("unreadable shared run: {e}"),
+                None,
+            )
+        })?;
+        let sim = LabellingSimulator::new(&share).map_err(|e| analysis_error(&e))?;
+        self.extras.insert(HELPER_KEY, Box::new(sim));
+        Ok(())
+    }
+
+    /// D curves of relabellings `from..to` (one after another), from the
+    /// helper's simulator or else the running job; the job is not changed.
+    #[wasm_bindgen(js_name = labellingSimulate)]
+    pub fn labelling_simulate(&self, from: f64, to: f64) -> Result<Vec<f64>, JsValue> {
+        let from = super::count_arg(from, "labellingSimulate", "from")?;
+        let to = super::count_arg(to, "labellingSimulate", "to")?;
+        let out = if let Some(sim) = self
+            .extras
+            .get(HELPER_KEY)
+            .and_then(|b| b.downcast_ref::<LabellingSimulator>())
+        {
+            sim.simulate_range(from, to)
+        } else {
+            self.extras
+                .get(KEY)
+                .and_then(|b| b.downcast_ref::<LabellingJob>())
+                .ok_or_else(no_job)?
+                .simulate_range(from, to)
+        };
+        out.map_err(|e| analysis_error(&e))
+    }
+
+    /// Appends D curves that start at relabelling `from` (which must be the
+    /// number done so far); returns the number done.
+    #[wasm_bindgen(js_name = labellingAdd)]
+    pub fn labelling_add(&mut self, from: f64, curves: Vec<f64>) -> Result<usize, JsValue> {
+        let from = super::count_arg(from, "labellingAdd", "from")?;
+        let job = self.extra_mut::<LabellingJob>(KEY).ok_or_else(no_job)?;
+        job.add_simulated(from, &curves)
+            .map_err(|e| analysis_error(&e))
     }
 }

@@ -82,3 +82,22 @@ test('a long random labelling run can be cancelled', async () => {
   assert.equal(await page.isDisabled('#pop-run'), false);
   assert.deepEqual(log.pageErrors, []);
 });
+
+test('a random labelling run spread over helper workers gives exactly the one-worker result', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  const got = await page.evaluate(async () => {
+    const spec = (parallel) => ({
+      start: 'labellingStart', step: 'labellingStep', finish: 'labellingFinish',
+      params: { n_sim: 99, seed: 424242, r_max_m: 600 },
+      ...(parallel ? { parallel: { share: 'labellingShare', helperStart: 'labellingHelperStart', simulate: 'labellingSimulate', add: 'labellingAdd', minPiece: 50 } } : {}),
+    });
+    let workers = 0;
+    const a = await window.Cloister.runJob(spec(true), (p) => { workers = Math.max(workers, p.workers || 0); }).promise;
+    const b = await window.Cloister.runJob(spec(false), () => {}).promise;
+    return { workers, cores: navigator.hardwareConcurrency, a: JSON.stringify([a.sim_mean, a.global_hi, a.mad, a.dclf]), b: JSON.stringify([b.sim_mean, b.global_hi, b.mad, b.dclf]) };
+  });
+  if (got.cores > 1) assert.ok(got.workers >= 2, `workers: ${got.workers}`);
+  assert.equal(got.a, got.b);
+  assert.deepEqual(log.pageErrors, []);
+});

@@ -348,6 +348,32 @@ test('random labelling (Diggle & Chetwynd 1991): the demo cases cluster beyond t
   assert.match(e.message, /one point per control/);
 });
 
+test('random labelling spread over helpers: pieces computed in another session from the shared run give the same result as one worker', () => {
+  const s = new Session();
+  s.loadEvents(file('demo-data/cases.csv'), {});
+  s.loadArea(file('demo-data/town-boundary.geojson'), {});
+  s.loadControls(file('demo-data/population.csv'), {});
+  const o = { n_sim: 99, seed: 23, r_max_m: 800, n_steps: 20 };
+  const st = s.labellingStart(o);
+  while (s.labellingStep(64) < st.total);
+  const alone = s.labellingFinish();
+  // A helper: a fresh session with nothing loaded, given the share only.
+  s.labellingStart(o);
+  const helper = new Session();
+  helper.labellingHelperStart(s.labellingShare());
+  const a = s.labellingSimulate(0, 50); // this worker's piece
+  const b = helper.labellingSimulate(50, 99); // the helper's
+  assert.equal(a.length, 50 * st.distances);
+  assert.equal(b.length, 49 * st.distances);
+  assert.equal(throws(() => s.labellingAdd(50, b)).code, 'bad_parameter');
+  assert.equal(s.labellingAdd(0, a), 50);
+  assert.equal(s.labellingAdd(50, b), 99);
+  const spread = s.labellingFinish();
+  assert.deepEqual(spread.sim_mean, alone.sim_mean);
+  assert.deepEqual([spread.mad, spread.dclf], [alone.mad, alone.dclf]);
+  assert.equal(throws(() => helper.labellingHelperStart('{"x": 1}')).code, 'bad_parameter');
+});
+
 test('scan: the start times a few chance runs for the estimate without changing the job; faster settings each faster', () => {
   const s = demo({ controls: true });
   const st = s.scanStart({ n_sim: 299, seed: 5 });

@@ -125,11 +125,16 @@ export function mountRisk(C) {
     $('pop-progress').value = 0;
     $('pop-progress-text').textContent = 'Computing D for the data…';
     setStatus('Relabelling cases and controls…');
-    const job = runJob({ start: 'labellingStart', step: 'labellingStep', finish: 'labellingFinish', params }, ({ done, total }) => {
+    // Spread over every core: one piece per worker (each piece visits every
+    // pair once, so pieces are as few as the workers; at most 256, as one
+    // visit serves that many relabellings).
+    const workers = C.jobWorkers();
+    const parallel = { share: 'labellingShare', helperStart: 'labellingHelperStart', simulate: 'labellingSimulate', add: 'labellingAdd', minPiece: Math.min(256, Math.ceil(params.n_sim / workers)) };
+    const job = runJob({ start: 'labellingStart', step: 'labellingStep', finish: 'labellingFinish', params, parallel }, ({ done, total, workers: w }) => {
       if (token !== state.token) return;
       $('pop-progress').max = total;
       $('pop-progress').value = done;
-      $('pop-progress-text').textContent = `${fmt(done)} / ${fmt(total)} relabellings`;
+      $('pop-progress-text').textContent = `${fmt(done)} / ${fmt(total)} relabellings${w > 1 ? ` on ${w} workers` : ''}`;
     });
     state.job = job;
     try {
