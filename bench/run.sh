@@ -27,3 +27,9 @@ echo "== a 200,000-event file in the page, step by step (headless Chromium)"
 node bench/walk-200k.mjs 200000
 echo "== memory when the same 1,000,000-row file is chosen six times (headless Chromium)"
 node bench/reload-memory.mjs 1000000 6
+echo "== random labelling test: native (release), one visit of the pairs against relabellings"
+cargo run --quiet --release --example bench_labelling -- export
+echo "== random labelling test: the same D(r) with scipy + numpy (stored pairs, numpy re-sums)"
+python3 bench/labelling_vs_numpy.py
+echo "== random labelling test: headless Chromium page, spread over helper workers and on one"
+node bench/labelling-browser.mjs 199
