@@ -438,13 +438,18 @@ export interface LabellingStarted {
   n_controls: number;
 }
 
-/** The random labelling test (Diggle & Chetwynd 1991): D(r) = K_cases − K_controls. */
+/** The random labelling test (Diggle & Chetwynd 1991): D(r) = K_cases − K_controls, or the cross-type L. */
 export interface LabellingResult {
   r: number[];
-  /** D(r) of the data, m². */
+  /** The tested curve of the data: D(r) (m²) or the cross-type L (m), as `statistic` says. */
   observed: number[];
+  statistic: 'difference' | 'cross_l';
+  /** What deviations are measured from: 0 for D, the mean of the observed and relabelled curves for the cross-type L. */
+  reference: number[];
   k_cases: number[];
   k_controls: number[];
+  /** Cross-type K of cases and controls (m²), both directions averaged. */
+  k_cross: number[];
   sim_mean: number[];
   pointwise_lo: number[];
   pointwise_hi: number[];
@@ -464,8 +469,8 @@ export interface LabellingResult {
   correction: 'isotropic' | 'translation' | 'none';
   r_max_rule: string;
   capped_weights: number;
-  outcome: 'consistent_with_population' | 'beyond_population' | 'more_spread_out' | 'mixed';
-  /** Where D leaves the global band: 'clustered' = cases closer together than the population. */
+  outcome: 'consistent_with_population' | 'beyond_population' | 'more_spread_out' | 'mixed' | 'apart_from_controls' | 'closer_to_controls';
+  /** Where the curve leaves the global band: 'clustered' = above it (for D: cases closer together than the population; for the cross-type L: cases closer to controls). */
   ranges: DistanceRange[];
   verdict: string;
   caveats: string[];

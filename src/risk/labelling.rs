@@ -78,6 +78,8 @@ pub struct LabellingOptions {
     pub n_steps: usize,
     /// Isotropic, translation or none (not border: see the module docs).
     pub correction: Correction,
+    /// What is compared with the relabellings: D(r) or the cross-type L.
+    pub statistic: LabellingStatistic,
     /// Compare two categories of the events instead of events and
     /// controls: the events of this category are the "cases" …
     pub cases_category: Option<String>,
@@ -95,6 +97,7 @@ impl Default for LabellingOptions {
             r_max_m: None,
             n_steps: 50,
             correction: Correction::Isotropic,
+            statistic: LabellingStatistic::Difference,
             cases_category: None,
             controls_category: None,
         }
@@ -117,6 +120,11 @@ impl crate::params::Params for LabellingOptions {
             "correction",
             &["isotropic", "translation", "none"],
             "edge correction of both K estimates",
+        ));
+        v.push(Field::choice(
+            "statistic",
+            &["difference", "cross_l"],
+            "difference: D(r) = K of the cases − K of the controls; cross_l: the cross-type L of cases and controls",
         ));
         v.push(
             Field::text(
@@ -158,7 +166,19 @@ impl crate::params::Params for LabellingOptions {
     }
 }
 
-/// What the observed D says, in the page's words.
+/// The curve compared with its relabellings.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LabellingStatistic {
+    /// D(r) = K_cases(r) − K_controls(r) (Diggle & Chetwynd 1991).
+    #[default]
+    Difference,
+    /// The cross-type L(r) = √(K₁₀(r)/π): how many controls lie within r of
+    /// a case (and cases of a control), the two directions averaged.
+    CrossL,
+}
+
+/// What the observed curve says, in the page's words.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum LabellingOutcome {
@@ -170,17 +190,30 @@ pub enum LabellingOutcome {
     MoreSpreadOut,
     /// Both, at different distances.
     Mixed,
+    /// Cross-type L below the band: cases lie farther from the controls
+    /// than random labels would put them (cases apart from the population).
+    ApartFromControls,
+    /// Cross-type L above the band: cases lie closer to the controls than
+    /// random labels would put them.
+    CloserToControls,
 }
 
 /// Result of the random labelling test. Curves are on `r`.
 #[derive(Debug, Clone, Serialize)]
 pub struct LabellingResult {
     pub r: Vec<f64>,
-    /// D(r) = K_cases(r) − K_controls(r), m².
+    /// The curve tested: D(r) = K_cases(r) − K_controls(r) (m²), or the
+    /// cross-type L (m), as `statistic` says.
     pub observed: Vec<f64>,
+    pub statistic: LabellingStatistic,
+    /// What deviations are measured from: 0 for D; the mean of the observed
+    /// and relabelled curves for the cross-type L.
+    pub reference: Vec<f64>,
     pub k_cases: Vec<f64>,
     pub k_controls: Vec<f64>,
-    /// Mean of the relabelled D curves.
+    /// The cross-type K of cases and controls (m²), both directions averaged.
+    pub k_cross: Vec<f64>,
+    /// Mean of the relabelled curves.
     pub sim_mean: Vec<f64>,
     pub pointwise_lo: Vec<f64>,
     pub pointwise_hi: Vec<f64>,
@@ -308,7 +341,7 @@ impl LabellingSimulator {
             let sets = LabelSets::random(self.x.len(), self.k_small, self.opts.seed, start, end);
             let (curves, _) = d_curves(&self.ctx, &self.x, &self.y, &sets, self.cases_smaller)?;
             for c in curves {
-                out.extend_from_slice(&c.0);
+                out.extend_from_slice(&c.statistic(self.opts.statistic));
             }
             start = end;
         }
@@ -322,7 +355,7 @@ impl LabellingSimulator {
 /// j depends only on the seed and j.
 pub struct LabellingJob {
     sim: LabellingSimulator,
-    observed: (Vec<f64>, Vec<f64>, Vec<f64>),
+    observed: LabelCurves,
     sims: Vec<f64>,
     done: usize,
     capped: u64,
@@ -445,76 +478,94 @@ impl LabellingJob {
         let nr = r.len();
         let m = self.sim.opts.n_sim;
         let zero = vec![0.0; nr];
-        let (d, k_cases, k_controls) = self.observed;
-        // Studentised: each distance's deviations are divided by the spread
-        // of the relabelled D there (see the module docs).
-        let mean: Vec<f64> = (0..nr)
-            .map(|k| (0..m).map(|j| self.sims[j * nr + k]).sum::<f64>() / m as f64)
-            .collect();
-        let sd: Vec<f64> = (0..nr)
-            .map(|k| {
-                if m < 2 {
-                    return f64::NAN;
-                }
-                let ss: f64 = (0..m)
-                    .map(|j| (self.sims[j * nr + k] - mean[k]).powi(2))
-                    .sum();
-                (ss / (m - 1) as f64).sqrt()
-            })
-            .collect();
-        let scale = |v: f64, k: usize| if sd[k] > 0.0 { v / sd[k] } else { f64::NAN };
-        let d_scaled: Vec<f64> = d.iter().enumerate().map(|(k, &v)| scale(v, k)).collect();
-        let sims_scaled: Vec<f64> = self
-            .sims
-            .iter()
-            .enumerate()
-            .map(|(i, &v)| scale(v, i % nr))
-            .collect();
-        let mut bands = summarise(
-            &r,
-            &d_scaled,
-            &sims_scaled,
-            &zero,
-            Reference::Theoretical,
-            // r = 0 says nothing about clustering (D(0) is 0 but for
-            // coincident points): tested from the first positive distance.
-            self.sim.opts.r_min_m.unwrap_or(f64::MIN_POSITIVE),
-            self.sim.opts.alpha,
-        );
-        // Back on D's own scale: the pointwise band and mean of the raw
-        // curves, the global band as ± the critical deviation times the spread.
-        let raw = summarise(
-            &r,
-            &d,
-            &self.sims,
-            &zero,
-            Reference::Theoretical,
-            0.0,
-            self.sim.opts.alpha,
-        );
-        bands.sim_mean = raw.sim_mean;
-        bands.pointwise_lo = raw.pointwise_lo;
-        bands.pointwise_hi = raw.pointwise_hi;
-        bands.reference_curve = zero.clone();
-        let crit = bands.mad.critical;
-        bands.global_lo = (0..nr)
-            .map(|k| {
-                if bands.in_test[k] {
-                    -crit * sd[k]
-                } else {
-                    f64::NAN
-                }
-            })
-            .collect();
-        bands.global_hi = (0..nr)
-            .map(|k| {
-                if bands.in_test[k] {
-                    crit * sd[k]
-                } else {
-                    f64::NAN
-                }
-            })
-            .collect();
+        let statistic = self.sim.opts.statistic;
+        let obs = self.observed.statistic(statistic);
+        let bands = if statistic == LabellingStatistic::CrossL {
+            // The cross-type L under random labelling follows the pooled
+            // pattern, not πr²: deviations from the mean of the observed
+            // and relabelled curves, unscaled as for L in the clustering
+            // section (L's spread hardly changes with r).
+            summarise(
+                &r,
+                &obs,
+                &self.sims,
+                &zero,
+                Reference::SimulationMean,
+                self.sim.opts.r_min_m.unwrap_or(f64::MIN_POSITIVE),
+                self.sim.opts.alpha,
+            )
+        } else {
+            // Studentised: each distance's deviations are divided by the spread
+            // of the relabelled D there (see the module docs).
+            let mean: Vec<f64> = (0..nr)
+                .map(|k| (0..m).map(|j| self.sims[j * nr + k]).sum::<f64>() / m as f64)
+                .collect();
+            let sd: Vec<f64> = (0..nr)
+                .map(|k| {
+                    if m < 2 {
+                        return f64::NAN;
+                    }
+                    let ss: f64 = (0..m)
+                        .map(|j| (self.sims[j * nr + k] - mean[k]).powi(2))
+                        .sum();
+                    (ss / (m - 1) as f64).sqrt()
+                })
+                .collect();
+            let scale = |v: f64, k: usize| if sd[k] > 0.0 { v / sd[k] } else { f64::NAN };
+            let d_scaled: Vec<f64> = obs.iter().enumerate().map(|(k, &v)| scale(v, k)).collect();
+            let sims_scaled: Vec<f64> = self
+                .sims
+                .iter()
+                .enumerate()
+                .map(|(i, &v)| scale(v, i % nr))
+                .collect();
+            let mut bands = summarise(
+                &r,
+                &d_scaled,
+                &sims_scaled,
+                &zero,
+                Reference::Theoretical,
+                // r = 0 says nothing about clustering (D(0) is 0 but for
+                // coincident points): tested from the first positive distance.
+                self.sim.opts.r_min_m.unwrap_or(f64::MIN_POSITIVE),
+                self.sim.opts.alpha,
+            );
+            // Back on D's own scale: the pointwise band and mean of the raw
+            // curves, the global band as ± the critical deviation times the spread.
+            let raw = summarise(
+                &r,
+                &obs,
+                &self.sims,
+                &zero,
+                Reference::Theoretical,
+                0.0,
+                self.sim.opts.alpha,
+            );
+            bands.sim_mean = raw.sim_mean;
+            bands.pointwise_lo = raw.pointwise_lo;
+            bands.pointwise_hi = raw.pointwise_hi;
+            bands.reference_curve = zero.clone();
+            let crit = bands.mad.critical;
+            bands.global_lo = (0..nr)
+                .map(|k| {
+                    if bands.in_test[k] {
+                        -crit * sd[k]
+                    } else {
+                        f64::NAN
+                    }
+                })
+                .collect();
+            bands.global_hi = (0..nr)
+                .map(|k| {
+                    if bands.in_test[k] {
+                        crit * sd[k]
+                    } else {
+                        f64::NAN
+                    }
+                })
+                .collect();
+            bands
+        };
         let mut warnings = self.sim.ctx.warnings.clone();
         warnings.extend(bands.warnings.iter().cloned());
         if self.capped > 0 {
@@ -525,7 +576,8 @@ impl LabellingJob {
         }
         let (outcome, ranges, verdict) = verdict(
             &r,
-            &d,
+            &obs,
+            statistic,
             &bands,
             self.sim.opts.alpha,
             self.sim.opts.n_sim,
@@ -536,10 +588,26 @@ impl LabellingJob {
         } else {
             self.sim.x.len() - self.sim.k_small
         };
+        let caveats = if statistic == LabellingStatistic::CrossL {
+            vec![
+                "The controls stand for the population at risk: if they were sampled from a different population, or their addresses are placed differently (geocoding, rounding), the cross-type L measures that difference too.".into(),
+                "The cross-type L counts controls around cases; under random labelling it follows the pooled points, so the reference is the mean of the relabelled curves, not a straight line.".into(),
+                "The pointwise band is not a test: a curve crossing it at some distance is expected by chance when many distances are looked at.".into(),
+            ]
+        } else {
+            vec![
+                "The controls stand for the population at risk: if they were sampled from a different population, or their addresses are placed differently (geocoding, rounding), D measures that difference too.".into(),
+                "A raised D says cases sit closer together than the population does at those distances; it does not say why, and it is not one test per distance.".into(),
+                "The pointwise band is not a test: a curve crossing it at some distance is expected by chance when many distances are looked at.".into(),
+            ]
+        };
         Ok(LabellingResult {
-            observed: d,
-            k_cases,
-            k_controls,
+            observed: obs,
+            statistic,
+            reference: bands.reference_curve,
+            k_cases: self.observed.k_cases,
+            k_controls: self.observed.k_controls,
+            k_cross: self.observed.k_cross,
             sim_mean: bands.sim_mean,
             pointwise_lo: bands.pointwise_lo,
             pointwise_hi: bands.pointwise_hi,
@@ -561,11 +629,7 @@ impl LabellingJob {
             outcome,
             ranges,
             verdict,
-            caveats: vec![
-                "The controls stand for the population at risk: if they were sampled from a different population, or their addresses are placed differently (geocoding, rounding), D measures that difference too.".into(),
-                "A raised D says cases sit closer together than the population does at those distances; it does not say why, and it is not one test per distance.".into(),
-                "The pointwise band is not a test: a curve crossing it at some distance is expected by chance when many distances are looked at.".into(),
-            ],
+            caveats,
             warnings,
             r,
         })
@@ -586,6 +650,7 @@ pub fn random_labelling(
 fn verdict(
     r: &[f64],
     d: &[f64],
+    statistic: LabellingStatistic,
     b: &Bands,
     alpha: f64,
     m: usize,
@@ -600,9 +665,12 @@ fn verdict(
     let ranges = departures(r, d, &b.global_lo, &b.global_hi, &b.in_test, true);
     let above = ranges.iter().any(|g| g.departure == Departure::Clustered);
     let below = ranges.iter().any(|g| g.departure == Departure::Regular);
+    let cross = statistic == LabellingStatistic::CrossL;
     let outcome = match (b.mad.rejects, above, below) {
         (false, _, _) => LabellingOutcome::ConsistentWithPopulation,
         (true, true, true) => LabellingOutcome::Mixed,
+        (true, false, true) if cross => LabellingOutcome::ApartFromControls,
+        (true, _, _) if cross => LabellingOutcome::CloserToControls,
         (true, false, true) => LabellingOutcome::MoreSpreadOut,
         _ => LabellingOutcome::BeyondPopulation,
     };
@@ -613,9 +681,26 @@ fn verdict(
         fmt_p(b.dclf.p_value)
     );
     let text = match outcome {
+        LabellingOutcome::ConsistentWithPopulation if cross => format!(
+            "Consistent with {controls}: {cases} lie as close to {controls} as random labels would put them; the cross-type L stays inside the global {:.0}% band ({test}).",
+            100.0 * (1.0 - alpha)
+        ),
         LabellingOutcome::ConsistentWithPopulation => format!(
             "Consistent with {controls}: {cases} cluster no more than {controls}; D stays inside the global {:.0}% band ({test}).",
             100.0 * (1.0 - alpha)
+        ),
+        LabellingOutcome::ApartFromControls => format!(
+            "{Cases} lie farther from {controls} than random labels would put them at distances {}: they keep apart from {controls} ({test}).",
+            list(Departure::Regular)
+        ),
+        LabellingOutcome::CloserToControls => format!(
+            "{Cases} lie closer to {controls} than random labels would put them at distances {} ({test}).",
+            list(Departure::Clustered)
+        ),
+        LabellingOutcome::Mixed if cross => format!(
+            "{Cases} lie closer to {controls} than random labels would put them at distances {} and farther at {} ({test}).",
+            list(Departure::Clustered),
+            list(Departure::Regular)
         ),
         LabellingOutcome::BeyondPopulation => format!(
             "{Cases} cluster beyond {controls} at distances {} ({test}).",
@@ -680,17 +765,21 @@ impl LabelSets {
     }
 }
 
+/// Pair-weight sums of [`pair_sums`]: small, large, cross, capped.
+type PairSums = (Vec<f64>, Vec<f64>, Vec<f64>, u64);
+
 /// For each labelling of `sets`: the pair-weight sums, per r bin (not
 /// cumulative), of pairs with both points in the smaller group and of pairs
-/// with both points in the larger group, as `(small[s][k], large[s][k])`
-/// flattened labelling by labelling (`s · bins + k`, `bins` = r grid
-/// length). Also returns how many weights reached the cap.
+/// with both points in the larger group, and of pairs with one point in
+/// each, as `(small[s][k], large[s][k], cross[s][k])` flattened labelling
+/// by labelling (`s · bins + k`, `bins` = r grid length). Also returns how
+/// many weights reached the cap.
 fn pair_sums(
     ctx: &Context,
     x: &[f64],
     y: &[f64],
     sets: &LabelSets,
-) -> Result<(Vec<f64>, Vec<f64>, u64), AnalysisError> {
+) -> Result<PairSums, AnalysisError> {
     let n = x.len();
     let bins = ctx.r.len();
     let m = sets.sets.len();
@@ -727,30 +816,59 @@ fn pair_sums(
     })?;
     let mut small_out = vec![0.0f64; m * bins];
     let mut large_out = vec![0.0f64; m * bins];
+    let mut cross_out = vec![0.0f64; m * bins];
     for (s, set) in sets.sets.iter().enumerate() {
         for k in 0..bins {
+            // a = Σ over pairs of (1{i} + 1{j}) · w for the smaller group:
+            // pairs with both in it count twice, pairs with one once.
             let a: f64 = set.iter().map(|&i| row[i as usize * bins + k]).sum();
             let sm = small[k * m + s];
             small_out[s * bins + k] = sm;
             large_out[s * bins + k] = total[k] - a + sm;
+            cross_out[s * bins + k] = a - 2.0 * sm;
         }
     }
-    Ok((small_out, large_out, capped))
+    Ok((small_out, large_out, cross_out, capped))
 }
 
-/// D(r) = K_cases(r) − K_controls(r) for each labelling of `sets`, with
-/// K_cases and K_controls as well: `[(d, k_cases, k_controls)]`, one per
-/// labelling, each on `ctx.r`. `sets` lists the members of the smaller
-/// group; `cases_are_smaller` says whether that group is the cases. The
-/// group sizes are taken from the first labelling.
-#[allow(clippy::type_complexity)]
+/// The curves of one labelling, each on `ctx.r`.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct LabelCurves {
+    /// D(r) = K_cases(r) − K_controls(r).
+    pub d: Vec<f64>,
+    pub k_cases: Vec<f64>,
+    pub k_controls: Vec<f64>,
+    /// The cross-type K of cases and controls, both directions averaged:
+    /// |W| / (2 n₁ n₀) · Σ over case–control pairs within r of the pair
+    /// weight (which is the sum of the two points' own weights).
+    pub k_cross: Vec<f64>,
+}
+
+impl LabelCurves {
+    /// The curve of `statistic`: D, or the cross-type L = √(K_cross/π).
+    pub fn statistic(&self, statistic: LabellingStatistic) -> Vec<f64> {
+        match statistic {
+            LabellingStatistic::Difference => self.d.clone(),
+            LabellingStatistic::CrossL => self
+                .k_cross
+                .iter()
+                .map(|&k| (k.max(0.0) / std::f64::consts::PI).sqrt())
+                .collect(),
+        }
+    }
+}
+
+/// The curves of each labelling of `sets` (see [`LabelCurves`]). `sets`
+/// lists the members of the smaller group; `cases_are_smaller` says
+/// whether that group is the cases. The group sizes are taken from the
+/// first labelling.
 pub(crate) fn d_curves(
     ctx: &Context,
     x: &[f64],
     y: &[f64],
     sets: &LabelSets,
     cases_are_smaller: bool,
-) -> Result<(Vec<(Vec<f64>, Vec<f64>, Vec<f64>)>, u64), AnalysisError> {
+) -> Result<(Vec<LabelCurves>, u64), AnalysisError> {
     let n = x.len();
     if y.len() != n || sets.n != n {
         return Err(AnalysisError::BadParameter {
@@ -767,10 +885,9 @@ pub(crate) fn d_curves(
         });
     }
     let bins = ctx.r.len();
-    let (small, large, capped) = pair_sums(ctx, x, y, sets)?;
+    let (small, large, cross, capped) = pair_sums(ctx, x, y, sets)?;
     let area = ctx.region.area();
-    let k_of = |sums: &[f64], size: usize| -> Vec<f64> {
-        let norm = area / (size as f64 * (size as f64 - 1.0));
+    let k_of = |sums: &[f64], norm: f64| -> Vec<f64> {
         let mut acc = 0.0;
         sums.iter()
             .map(|v| {
@@ -779,17 +896,30 @@ pub(crate) fn d_curves(
             })
             .collect()
     };
+    let within = |size: usize| area / (size as f64 * (size as f64 - 1.0));
+    let between = area / (2.0 * k_small as f64 * k_large as f64);
     let out = (0..sets.sets.len())
         .map(|s| {
-            let ks = k_of(&small[s * bins..(s + 1) * bins], k_small);
-            let kl = k_of(&large[s * bins..(s + 1) * bins], k_large);
-            let (kc, k0) = if cases_are_smaller {
+            let part = |v: &[f64]| v[s * bins..(s + 1) * bins].to_vec();
+            let ks = k_of(&part(&small), within(k_small));
+            let kl = k_of(&part(&large), within(k_large));
+            let k_cross = k_of(&part(&cross), between);
+            let (k_cases, k_controls) = if cases_are_smaller {
                 (ks, kl)
             } else {
                 (kl, ks)
             };
-            let d = kc.iter().zip(&k0).map(|(a, b)| a - b).collect();
-            (d, kc, k0)
+            let d = k_cases
+                .iter()
+                .zip(&k_controls)
+                .map(|(a, b)| a - b)
+                .collect();
+            LabelCurves {
+                d,
+                k_cases,
+                k_controls,
+                k_cross,
+            }
         })
         .collect();
     Ok((out, capped))
@@ -871,7 +1001,7 @@ mod tests {
                 let in_small: Vec<bool> = case.iter().map(|&c| c == cases_smaller).collect();
                 let (curves, _) =
                     d_curves(&ctx, &x, &y, &LabelSets::observed(&in_small), cases_smaller).unwrap();
-                let (d, got_c, got_0) = &curves[0];
+                let (d, got_c, got_0) = (&curves[0].d, &curves[0].k_cases, &curves[0].k_controls);
                 for k in 0..ctx.r.len() {
                     let tol = 1e-9 * (1.0 + kc[k].abs() + k0[k].abs());
                     assert!(
@@ -894,7 +1024,7 @@ mod tests {
             let (curves, _) =
                 d_curves(&ctx, &x, &y, &LabelSets::observed(&in_small), true).unwrap();
             let k50 = ctx.r.iter().position(|&r| r >= 50.0).unwrap();
-            assert!(curves[0].0[k50] > 0.0);
+            assert!(curves[0].d[k50] > 0.0);
         }
     }
 
@@ -913,7 +1043,7 @@ mod tests {
                 sets: vec![all.sets[s].clone()],
             };
             let (alone, _) = d_curves(&ctx, &x, &y, &one, true).unwrap();
-            for (a, b) in batch[s].0.iter().zip(&alone[0].0) {
+            for (a, b) in batch[s].d.iter().zip(&alone[0].d) {
                 assert!((a - b).abs() <= 1e-9 * (1.0 + a.abs()), "labelling {s}");
             }
         }
@@ -936,7 +1066,7 @@ mod tests {
         let sets = LabelSets::random(x.len(), 60, 5, 0, 400);
         let (curves, _) = d_curves(&ctx, &x, &y, &sets, true).unwrap();
         for k in 1..ctx.r.len() {
-            let v: Vec<f64> = curves.iter().map(|c| c.0[k]).collect();
+            let v: Vec<f64> = curves.iter().map(|c| c.d[k]).collect();
             let mean = v.iter().sum::<f64>() / v.len() as f64;
             let sd =
                 (v.iter().map(|d| (d - mean).powi(2)).sum::<f64>() / (v.len() - 1) as f64).sqrt();
@@ -1108,6 +1238,102 @@ mod tests {
             }
         }
         assert!(rejections >= 90, "{rejections} of 100 rejected");
+    }
+
+    /// The cross-type K: with no edge correction it is |W| / (n₁ n₀) times
+    /// the number of case–control pairs within r (counted by brute force
+    /// here); with every correction the pooled K splits exactly into the
+    /// three kinds of pair: n(n−1) K = n₁(n₁−1) K₁₁ + n₀(n₀−1) K₀₀ + 2 n₁ n₀ K₁₀
+    /// (each pair is of one kind; Lotwick & Silverman 1982 average the two
+    /// directions of the cross-type estimate in the same spirit — reference
+    /// from memory).
+    #[test]
+    fn cross_k_counts_case_control_pairs() {
+        let (w, x, y, case) = pooled();
+        let n = x.len();
+        let n1 = case.iter().filter(|&&c| c).count();
+        let n0 = n - n1;
+        for corr in [
+            Correction::None,
+            Correction::Isotropic,
+            Correction::Translation,
+        ] {
+            let ctx = context(&w, n, corr, 150.0);
+            let (curves, _) = d_curves(&ctx, &x, &y, &LabelSets::observed(&case), true).unwrap();
+            let c = &curves[0];
+            let pooled = ctx.compute(&x, &y, Needs::K_ONLY).k;
+            for (k, &pk) in pooled.iter().enumerate() {
+                let whole = (n * (n - 1)) as f64 * pk;
+                let parts = (n1 * (n1 - 1)) as f64 * c.k_cases[k]
+                    + (n0 * (n0 - 1)) as f64 * c.k_controls[k]
+                    + 2.0 * (n1 * n0) as f64 * c.k_cross[k];
+                assert!(
+                    (whole - parts).abs() <= 1e-9 * whole.abs().max(1.0),
+                    "{corr:?} r={} {whole} {parts}",
+                    ctx.r[k]
+                );
+            }
+            if corr == Correction::None {
+                for (k, &r) in ctx.r.iter().enumerate() {
+                    let mut count = 0usize;
+                    for i in 0..n {
+                        for j in 0..n {
+                            if case[i] && !case[j] && (x[i] - x[j]).hypot(y[i] - y[j]) <= r {
+                                count += 1;
+                            }
+                        }
+                    }
+                    let want = w.area() / (n1 * n0) as f64 * count as f64;
+                    assert!(
+                        (c.k_cross[k] - want).abs() <= 1e-9 * want.max(1.0),
+                        "r={r} {} {want}",
+                        c.k_cross[k]
+                    );
+                }
+            }
+        }
+    }
+
+    /// The cross-type L test: the planted case clumps keep apart from the
+    /// controls (L below the band at short distances), and random labels
+    /// (cases a random subset) are mostly consistent.
+    #[test]
+    fn cross_l_sees_cases_apart_from_the_population() {
+        let (w, x, y, case) = pooled();
+        let [(cx, cy), (kx, ky)] = split(&x, &y, &case);
+        let opts = LabellingOptions {
+            n_sim: 99,
+            seed: 4,
+            r_max_m: Some(150.0),
+            statistic: LabellingStatistic::CrossL,
+            ..Default::default()
+        };
+        let res = random_labelling((&cx, &cy), (&kx, &ky), &w, &opts).unwrap();
+        assert_eq!(res.statistic, LabellingStatistic::CrossL);
+        assert_eq!(
+            res.outcome,
+            LabellingOutcome::ApartFromControls,
+            "{}",
+            res.verdict
+        );
+        assert!(res.verdict.contains("keep apart from the population"));
+        for k in 0..res.r.len() {
+            let l = (res.k_cross[k] / std::f64::consts::PI).sqrt();
+            assert!((res.observed[k] - l).abs() <= 1e-12 * (1.0 + l));
+        }
+        let sets = LabelSets::random(x.len(), 60, 9, 0, 1);
+        let mut random = vec![false; x.len()];
+        for &i in &sets.sets[0] {
+            random[i as usize] = true;
+        }
+        let [(cx, cy), (kx, ky)] = split(&x, &y, &random);
+        let null = random_labelling((&cx, &cy), (&kx, &ky), &w, &opts).unwrap();
+        assert_eq!(
+            null.outcome,
+            LabellingOutcome::ConsistentWithPopulation,
+            "{}",
+            null.verdict
+        );
     }
 
     /// Relabellings computed elsewhere from the shared run (as a helper

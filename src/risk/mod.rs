@@ -12,5 +12,5 @@ pub mod labelling;
 
 pub use labelling::{
     random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
-    LabellingShare, LabellingSimulator,
+    LabellingShare, LabellingSimulator, LabellingStatistic,
 };

@@ -43,6 +43,17 @@ test('random labelling on the demo: D above the band at short distances, chart d
   });
   assert.ok(inked > 2000, `${inked} dark pixels`);
   await page.locator('#population').screenshot({ path: join(OUT, 'population-labelling.png') });
+  // The cross-type L instead of D: the same demo, cases keep apart from the
+  // controls at short distances (as the Node test of the same settings).
+  await page.selectOption('#pop-statistic', 'cross_l');
+  await page.click('#pop-run');
+  await page.waitForFunction(() => document.getElementById('pop-verdict').dataset.outcome === 'apart_from_controls', null, { timeout: 120000 });
+  await settle(page);
+  assert.match(await page.textContent('#pop-verdict'), /keep apart from the population/);
+  assert.match(await page.getAttribute('#pop-chart', 'aria-label'), /cross-type L − its relabelled mean/);
+  assert.match(await page.textContent('#pop-band-note'), /around the mean of the relabelled curves/);
+  await page.locator('#population').screenshot({ path: join(OUT, 'population-cross-l.png') });
+  await page.selectOption('#pop-statistic', 'difference');
   // Without the population file, two categories of the events can still be
   // compared; the population comparison is no longer offered.
   await act(page, () => page.click('#controls-clear'));

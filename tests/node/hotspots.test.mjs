@@ -335,6 +335,15 @@ test('random labelling (Diggle & Chetwynd 1991): the demo cases cluster beyond t
   // The same seed gives the same run, batch sizes aside.
   const again = run({ n_sim: 99, seed: 11, r_max_m: 1500 });
   assert.deepEqual(again.sim_mean, r.sim_mean);
+  // The cross-type L: the planted clusters keep the cases apart from the
+  // controls at short distances; the reference is the relabellings' mean.
+  const x = run({ n_sim: 99, seed: 11, r_max_m: 1500, statistic: 'cross_l' });
+  assert.equal(x.statistic, 'cross_l');
+  assert.equal(x.outcome, 'apart_from_controls', x.verdict);
+  assert.ok(x.ranges.some((g) => g.departure === 'regular' && g.from_m <= 300), JSON.stringify(x.ranges));
+  for (let k = 0; k < x.r.length; k++) assert.ok(Math.abs(x.observed[k] - Math.sqrt(x.k_cross[k] / Math.PI)) <= 1e-9 * (1 + x.observed[k]));
+  assert.deepEqual(x.k_cases, r.k_cases);
+  assert.equal(throws(() => s.labellingStart({ statistic: 'cross' })).code, 'bad_options');
   assert.equal(throws(() => s.labellingStart({ correction: 'border' })).code, 'bad_parameter');
   assert.equal(throws(() => s.labellingStep(1)).code, 'no_job');
   // A population file with a count column is not a set of individuals.

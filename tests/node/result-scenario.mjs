@@ -52,6 +52,12 @@ export function runScenario() {
   s.envelopeStep(started.total);
   record('envelopeFinish', 'L', s.envelopeFinish());
   const lab = record('labellingStart', 'demo, 19', s.labellingStart({ n_sim: 19, seed: 4, n_steps: 10 }));
+  const labShare = record('labellingShare', '', s.labellingShare());
+  const labCurves = record('labellingSimulate', '0..5', s.labellingSimulate(0, 5));
+  const lh = new cloister.Session();
+  record('labellingHelperStart', '', lh.labellingHelperStart(labShare));
+  lh.free();
+  record('labellingAdd', '0..5', s.labellingAdd(0, labCurves));
   record('labellingStep', '10', s.labellingStep(10));
   s.labellingStep(lab.total);
   record('labellingFinish', 'demo', s.labellingFinish());

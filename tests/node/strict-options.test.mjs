@@ -82,6 +82,7 @@ const NO_OPTIONS = new Set([
   'mapLayers', 'rejections', 'envelopeStep', 'envelopeFinish', 'envelopeShare', 'envelopeHelperStart',
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
   'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
+  'labellingShare', 'labellingHelperStart', 'labellingSimulate', 'labellingAdd',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {

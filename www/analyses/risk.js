@@ -20,6 +20,9 @@ export function mountRisk(C) {
   // What is compared: the events against the population file, or one
   // category of the events against the others (or against one other).
   const compare = el('select', { id: 'pop-compare' });
+  const statistic = el('select', { id: 'pop-statistic', 'data-param': 'labellingStart.statistic' },
+    el('option', { value: 'difference' }, 'D(r): cases’ K minus controls’ K'),
+    el('option', { value: 'cross_l' }, 'cross-type L (controls near cases)'));
   const correction = el('select', { id: 'pop-correction' },
     el('option', { value: 'isotropic' }, 'isotropic'),
     el('option', { value: 'translation' }, 'translation'),
@@ -33,6 +36,7 @@ export function mountRisk(C) {
         'The band comes from relabelling: as many "cases" drawn at random from all the points, many times (Diggle & Chetwynd 1991).'),
       el('div', { class: 'clu-grid' },
         field('Compare', compare, 'cases (first) against controls'),
+        field('Curve', statistic, 'D asks whether cases cluster among themselves more than controls do; the cross-type L whether cases keep apart from controls'),
         field('Relabellings', el('input', { type: 'number', id: 'pop-nsim', 'data-param': 'labellingStart.n_sim', value: '199' }), '199 is usual; 999 for a smaller p'),
         field('Largest distance', el('input', { type: 'number', id: 'pop-rmax', 'data-param': 'labellingStart.r_max_m', placeholder: 'automatic', step: 'any' }), 'metres; empty = a quarter of the area\u2019s shorter side'),
         field(C.term('isotropic', 'Edge correction'), correction, 'the same for cases and controls'),
@@ -75,7 +79,7 @@ export function mountRisk(C) {
   }
 
   function readOptions() {
-    const o = { correction: correction.value };
+    const o = { correction: correction.value, statistic: statistic.value };
     if (compare.value !== 'population') {
       const [a, b] = JSON.parse(compare.value);
       o.cases_category = a;
@@ -168,10 +172,16 @@ export function mountRisk(C) {
     if (!res) return;
     const canvas = $('pop-chart');
     const dpr = C.sizeChart(canvas);
+    // The cross-type L rises with r like r itself: drawn as its difference
+    // from the relabellings' mean (the test's reference), so the band shows.
+    const cross = res.statistic === 'cross_l';
+    const off = (v) => (cross ? v.map((x, k) => (x === null ? null : x - res.reference[k])) : v);
     const data = {
-      function: 'k', r: res.r, observed: res.observed, theoretical: res.r.map(() => 0),
-      pointwise_lo: res.pointwise_lo, pointwise_hi: res.pointwise_hi, global_lo: res.global_lo, global_hi: res.global_hi,
-      alpha: res.alpha, y_label: 'D(r) = K cases \u2212 K controls ({unit}\u00b2)', reference_label: 'no difference (D = 0)',
+      function: cross ? 'l' : 'k', r: res.r, observed: off(res.observed), theoretical: res.r.map(() => 0),
+      pointwise_lo: off(res.pointwise_lo), pointwise_hi: off(res.pointwise_hi), global_lo: off(res.global_lo), global_hi: off(res.global_hi),
+      alpha: res.alpha,
+      y_label: cross ? 'cross-type L \u2212 its relabelled mean ({unit})' : 'D(r) = K cases \u2212 K controls ({unit}\u00b2)',
+      reference_label: cross ? 'mean of the relabellings' : 'no difference (D = 0)',
     };
     try {
       const drawn = C.engine().drawEnvelopeChart('pop-chart', data, { view: 'function', units: 'auto', band: 'global', scale: dpr });
@@ -187,7 +197,9 @@ export function mountRisk(C) {
     const res = state.result;
     $('pop-result').hidden = !res;
     if (!res) return;
-    $('pop-band-note').textContent = `The shaded band is the global ${fmt(100 * (1 - res.alpha), 3)}% band of the test, scaled at each distance by how much D varies there under relabelling: if D leaves it anywhere, the test rejects "cases cluster as the population does" at that level.`;
+    $('pop-band-note').textContent = res.statistic === 'cross_l'
+      ? `The shaded band is the global ${fmt(100 * (1 - res.alpha), 3)}% band of the test around the mean of the relabelled curves: below it, cases have fewer controls around them than random labels would give (they keep apart from the population); above it, more.`
+      : `The shaded band is the global ${fmt(100 * (1 - res.alpha), 3)}% band of the test, scaled at each distance by how much D varies there under relabelling: if D leaves it anywhere, the test rejects "cases cluster as the population does" at that level.`;
     const v = $('pop-verdict');
     v.textContent = res.verdict;
     v.dataset.outcome = res.outcome;
