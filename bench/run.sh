@@ -33,3 +33,5 @@ echo "== random labelling test: the same D(r) with scipy + numpy (stored pairs, 
 python3 bench/labelling_vs_numpy.py
 echo "== random labelling test: headless Chromium page, spread over helper workers and on one"
 node bench/labelling-browser.mjs 199
+echo "== random labelling test: level and power over 1,000 seeded data sets each (D and cross-type L)"
+cargo run --quiet --release --example calibration_labelling -- 1000

@@ -1152,7 +1152,7 @@ mod tests {
     #[test]
     fn level_under_random_labelling() {
         let w = Window::rectangle(0.0, 0.0, 1000.0, 1000.0).unwrap();
-        let mut rejections = 0;
+        let mut rejections = [0usize; 2];
         for d in 0..200u64 {
             let mut rng = rng_from_seed(1000 + d);
             // An uneven population: a third of the points in one corner.
@@ -1168,25 +1168,31 @@ mod tests {
                 case[i as usize] = true;
             }
             let [(cx, cy), (kx, ky)] = split(&x, &y, &case);
-            let opts = LabellingOptions {
-                n_sim: 39,
-                seed: d,
-                r_max_m: Some(250.0),
-                n_steps: 20,
-                ..Default::default()
-            };
-            if random_labelling((&cx, &cy), (&kx, &ky), &w, &opts)
-                .unwrap()
-                .mad
-                .rejects
+            for (s, statistic) in [LabellingStatistic::Difference, LabellingStatistic::CrossL]
+                .into_iter()
+                .enumerate()
             {
-                rejections += 1;
+                let opts = LabellingOptions {
+                    n_sim: 39,
+                    seed: d,
+                    r_max_m: Some(250.0),
+                    n_steps: 20,
+                    statistic,
+                    ..Default::default()
+                };
+                if random_labelling((&cx, &cy), (&kx, &ky), &w, &opts)
+                    .unwrap()
+                    .mad
+                    .rejects
+                {
+                    rejections[s] += 1;
+                }
             }
         }
-        assert!(
-            (3..=19).contains(&rejections),
-            "{rejections} of 200 rejected"
-        );
+        // Both curves: D and the cross-type L.
+        for r in rejections {
+            assert!((3..=19).contains(&r), "{rejections:?} of 200 rejected");
+        }
     }
 
     /// Power against a stated alternative: an uneven population of 90
