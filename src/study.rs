@@ -743,6 +743,10 @@ pub struct StudyReport {
     pub area_km2: f64,
     pub events: usize,
     pub controls: Option<usize>,
+    /// When the population file has a count column (people per point, any
+    /// value other than 1): the total count (missing counts count 0).
+    /// `None` for individual controls or no population file.
+    pub controls_population: Option<f64>,
     pub coincident: Coincidence,
     pub warnings: Vec<String>,
     pub events_rows_read: u64,
@@ -764,6 +768,10 @@ impl Study {
             area_km2: self.window.area() / 1e6,
             events: self.events.len(),
             controls: self.controls.as_ref().map(|c| c.len()),
+            controls_population: self.controls.as_ref().and_then(|c| {
+                let w = c.weights_or_zero()?;
+                w.iter().any(|&v| v != 1.0).then(|| w.iter().sum())
+            }),
             coincident: self.coincident,
             warnings: self.warnings.clone(),
             events_rows_read: self.events_rows_read,

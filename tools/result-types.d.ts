@@ -56,6 +56,8 @@ export interface StudyReport {
   area_km2: number;
   events: number;
   controls: number | null;
+  /** Total of the population file's count column when it has one (any value other than 1); null for individual controls. */
+  controls_population: number | null;
   coincident: Coincidence;
   warnings: string[];
   events_rows_read: number;

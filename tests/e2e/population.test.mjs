@@ -112,3 +112,20 @@ test('a random labelling run spread over helper workers gives exactly the one-wo
   assert.equal(got.a, got.b);
   assert.deepEqual(log.pageErrors, []);
 });
+
+test('a population file of counts: the section says what it allows, and the labelling test does not offer it', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  assert.match(await page.textContent('#pop-layer'), /3,000 controls, one point per person/);
+  // The demo population, grouped four by four into points with a count.
+  const counts = ['longitude,latitude,count'];
+  const rows = (await import('node:fs')).readFileSync(join(process.cwd(), 'demo-data/population.csv'), 'utf8').trim().split('\n').slice(1);
+  for (let i = 0; i < rows.length; i += 4) counts.push(`${rows[i]},${1 + (i % 7)}`);
+  await act(page, () => page.setInputFiles('#controls-file', { name: 'blocks.csv', mimeType: 'text/csv', buffer: Buffer.from(counts.join('\n')) }));
+  await page.waitForFunction(() => /count column/.test(document.getElementById('pop-layer').textContent), null, { timeout: 30000 });
+  const note = await page.textContent('#pop-layer');
+  assert.match(note, /750 points with a count column/);
+  const offered = await page.$$eval('#pop-compare option', (os) => os.map((o) => o.value));
+  assert.ok(!offered.includes('population'), offered.join(' | '));
+  assert.deepEqual(log.pageErrors, []);
+});

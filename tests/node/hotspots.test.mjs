@@ -352,6 +352,9 @@ test('random labelling (Diggle & Chetwynd 1991): the demo cases cluster beyond t
   p.loadEvents(new TextEncoder().encode('x,y\n' + Array.from({ length: 30 }, (_, i) => `${(i * 37) % 800 + 10},${(i * 53) % 500 + 10}`).join('\n')), {});
   p.setAreaFallback('bounding_box');
   p.loadControls(new TextEncoder().encode(counts), {});
+  // The study says the population file holds counts, and their total.
+  assert.equal(p.study().controls_population, 40 + 13 * 3);
+  assert.equal(s.study().controls_population, null);
   const e = throws(() => p.labellingStart({ n_sim: 9 }));
   assert.equal(e.code, 'needs_individuals', e.message);
   assert.match(e.message, /one point per control/);

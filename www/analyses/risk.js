@@ -29,6 +29,7 @@ export function mountRisk(C) {
     el('option', { value: 'none' }, 'none'));
   body.append(
     el('p', { class: 'hint', id: 'pop-needs' }, 'Load events and a population file (step 3), or events with a category column, to use this section.'),
+    el('p', { class: 'hint', id: 'pop-layer', hidden: true }),
     el('fieldset', { class: 'clu-box', id: 'pop-labelling-box' },
       el('legend', null, 'Do cases cluster more than the population? (random labelling)'),
       el('p', { class: 'hint' },
@@ -68,7 +69,9 @@ export function mountRisk(C) {
     // Rows with a blank category are of no known category: never compared.
     const cats = ((snap && snap.summary && snap.summary.categories) || []).filter((c) => c.count > 1 && c.name !== '(blank)').map((c) => c.name);
     const out = [];
-    if (study && study.controls > 1) out.push(['population', 'events against the population file']);
+    // A population file of counts is not a set of individuals: relabelling
+    // needs one point per person (the categories can still be compared).
+    if (study && study.controls > 1 && study.controls_population == null) out.push(['population', 'events against the population file']);
     if (cats.length >= 2) {
       for (const a of cats) out.push([JSON.stringify([a, null]), `${a} against the other categories`]);
       if (cats.length <= 6) {
@@ -235,6 +238,15 @@ export function mountRisk(C) {
     const options = comparisons(snap);
     compare.replaceChildren(...options.map(([v, t]) => el('option', { value: v }, t)));
     state.ready = Boolean(study && study.events > 1 && options.length > 0);
+    // What the loaded population file allows, in words.
+    const layer = $('pop-layer');
+    layer.hidden = !(study && study.controls > 0);
+    if (study && study.controls > 0) {
+      layer.textContent = study.controls_population == null
+        ? `Population file: ${fmt(study.controls)} controls, one point per person. Every test in this section can use it.`
+        : `Population file: ${fmt(study.controls)} points with a count column (${fmt(study.controls_population)} people in all). ` +
+          'The random labelling test needs one point per person, so it is not offered for it; the methods of this section that work with counts use them as weights, and the scan (under "Where are the hotspots?") compares the events with these counts.';
+    }
     $('pop-needs').hidden = state.ready;
     $('pop-result').hidden = true;
     $('pop-progress-text').textContent = '';
