@@ -242,11 +242,13 @@ fn relabelling_p_is_calibrated_under_random_labelling() {
         rej5 += usize::from(r.rows[4].p_value <= 0.05);
         rejc += usize::from(r.combined.p_value <= 0.05);
     }
-    // Binomial(400, 0.05): mean 20, 99 % interval [9, 32] (scipy.stats.binom.ppf
-    // (0.005, 400, 0.05) = 9, ppf(0.995) = 32).
+    // Binomial(400, 0.05): mean 20, 99 % interval [10, 32]
+    // (scipy.stats.binom.interval(0.99, 400, 0.05) = (10, 32), scipy 1.17.1).
+    // T is an integer, so ties with the data count against it and the test
+    // leans conservative (seen: 11, 14 and 17 rejections when written).
     for (name, r) in [("k = 1", rej1), ("k = 5", rej5), ("combined", rejc)] {
         assert!(
-            (9..=32).contains(&r),
+            (10..=32).contains(&r),
             "{name}: {r} of {datasets} rejected at 0.05"
         );
     }

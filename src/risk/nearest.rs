@@ -180,7 +180,7 @@ pub fn tie_ranks(n: usize, seed: u64) -> Vec<u32> {
 /// among the points of `nb`, for k = 1 … `nb.k` (see the module docs).
 pub fn null_moments(nb: &RankedNeighbours, n1: usize) -> Vec<(f64, f64)> {
     let kk = nb.k;
-    let n = if kk == 0 { 0 } else { nb.ids.len() / kk };
+    let n = nb.ids.len().checked_div(kk).unwrap_or(0);
     let (nf, n1f) = (n as f64, n1 as f64);
     let ratio = |a: f64, b: f64| if a <= 0.0 || b <= 0.0 { 0.0 } else { a / b };
     let p1 = ratio(n1f, nf) * ratio(n1f - 1.0, nf - 1.0);
@@ -404,6 +404,14 @@ impl NearestJob {
 
     pub fn done(&self) -> usize {
         self.done
+    }
+
+    pub fn n_cases(&self) -> usize {
+        self.n1
+    }
+
+    pub fn n_controls(&self) -> usize {
+        self.is_case.len() - self.n1
     }
 
     pub fn total(&self) -> usize {
