@@ -322,13 +322,13 @@ fn ties_at_one_address_do_not_follow_the_file_order() {
             assert!(row[0] != row[1] && row[1] != row[2] && row[0] != row[2]);
         }
         assert_eq!(nb.tie_decided, 40);
-        for k in 0..kk {
-            sum[k] += job.observed()[k] as f64;
+        for (acc, &t) in sum.iter_mut().zip(job.observed()) {
+            *acc += t as f64;
         }
     }
-    for k in 0..kk {
+    for (k, &total) in sum.iter().enumerate() {
         let expected = (k + 1) as f64 * 90.0 / 39.0;
-        let mean = sum[k] / seeds as f64;
+        let mean = total / seeds as f64;
         // SD of T_k here is at most a few units; 300 seeds: SE < 0.3.
         assert!(
             (mean - expected).abs() < 1.0,
