@@ -36,6 +36,19 @@ struct Started {
     ties_decided: usize,
 }
 
+/// The category split is shared with the random labelling test, whose
+/// messages name `labellingStart`: named after this method instead.
+fn renamed(e: JsValue) -> JsValue {
+    let key = JsValue::from_str("message");
+    if let Ok(m) = js_sys::Reflect::get(&e, &key) {
+        if let Some(m) = m.as_string() {
+            let m = m.replace("labellingStart:", "nearestCasesStart:");
+            let _ = js_sys::Reflect::set(&e, &key, &JsValue::from_str(&m));
+        }
+    }
+    e
+}
+
 fn no_job() -> JsValue {
     js_error(
         "no_job",
@@ -59,7 +72,8 @@ impl Session {
         let s = self.study_ref()?;
         let job = if let Some(case_name) = &o.cases_category {
             let (cases, controls) =
-                split_by_category(&s.events, case_name, o.controls_category.as_deref())?;
+                split_by_category(&s.events, case_name, o.controls_category.as_deref())
+                    .map_err(renamed)?;
             let mut job = NearestJob::new((&cases.0, &cases.1), (&controls.0, &controls.1), &o)
                 .map_err(|e| analysis_error(&e))?;
             let others = match &o.controls_category {

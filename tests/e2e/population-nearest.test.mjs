@@ -39,3 +39,20 @@ test('Cuzick–Edwards on the demo: a row per k, the combined p, the verdict', a
   await page.locator('#pop-nn-box').screenshot({ path: join(OUT, 'population-nearest.png') });
   assert.deepEqual(log.pageErrors, []);
 });
+
+test('a long nearest-neighbour run shows progress and can be cancelled', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  // 9,999 relabellings of 50 neighbours: several seconds, in steps.
+  await page.fill('#pop-nn-k', '50');
+  await page.fill('#pop-nn-nsim', '9999');
+  await page.fill('#pop-nn-seed', '5');
+  await page.click('#pop-nn-run');
+  await page.waitForFunction(() => Number(document.getElementById('pop-nn-progress').value) >= 1, null, { timeout: 120000 });
+  assert.match(await page.textContent('#pop-nn-progress-text'), /\/ 9,999 relabellings/);
+  await page.click('#pop-nn-cancel');
+  await page.waitForFunction(() => document.getElementById('pop-nn-progress-text').textContent === 'Cancelled.', null, { timeout: 5000 });
+  assert.equal(await page.isDisabled('#pop-nn-run'), false);
+  assert.equal(await page.isVisible('#pop-nn-result'), false);
+  assert.deepEqual(log.pageErrors, []);
+});

@@ -117,7 +117,9 @@ test('Cuzick–Edwards between two categories of the events, and stacked points 
   assert.match(r.verdict, /the other categories/);
   const [, r2] = run(s, { n_sim: 19, seed: 2, k_max: 4, cases_category: 'enteric', controls_category: 'respiratory' });
   assert.deepEqual(r2.rows.map((x) => x.t), r.rows.map((x) => x.t));
-  assert.equal(throws(() => s.nearestCasesStart({ cases_category: 'entric' })).code, 'bad_parameter');
+  const e = throws(() => s.nearestCasesStart({ cases_category: 'entric' }));
+  assert.equal(e.code, 'bad_parameter');
+  assert.match(e.message, /^nearestCasesStart: there is no category "entric"/);
   assert.equal(throws(() => s.nearestCasesStart({ controls_category: 'enteric' })).code, 'bad_parameter');
   // Twelve events at one address among spread controls: ties are broken by
   // the seed's random order, and the result says how many points had one.
