@@ -31,8 +31,8 @@
 //! approximation, poorer for few cases), and the Monte Carlo p of m
 //! relabellings, p = (1 + #{T*_k ≥ T_k})/(m + 1) (rank p, ties counted
 //! against the data). Relabelling j chooses its n₁ cases from its own
-//! stream `stream_rng(seed, j)` (the same draw as the random labelling
-//! test's relabelling j), so a run does not depend on how it is split
+//! stream `stream_rng(seed, j)` (with [`LabelSets::random`], the random
+//! labelling test's draw), so a run does not depend on how it is split
 //! into steps.
 //!
 //! **Several k at once.** A Monte Carlo test on max_k z_k (the largest
