@@ -267,6 +267,12 @@ trait Sink {
     /// Offers location `l` at distance² `d2` (its multiplicity and lowest
     /// original index are read from `loc` only when needed).
     fn offer(&mut self, d2: f64, l: usize, loc: &Locations);
+    /// Whether candidates at exactly the current worst distance are still
+    /// wanted (then the search goes on while an unvisited cell could hold
+    /// one at that distance).
+    fn keeps_ties(&self) -> bool {
+        false
+    }
 }
 
 /// The single nearest distance² (no index kept).
@@ -350,6 +356,74 @@ impl Sink for Kth {
             }
         }
     }
+}
+
+/// Every location within the k-th smallest distance², ties at that
+/// distance included (each location counted with its multiplicity): the
+/// candidates of [`GridIndex::k_nearest_ranked`].
+struct KthTies {
+    k: usize,
+    total: usize,
+    items: Vec<(f64, usize, usize)>,
+}
+
+impl KthTies {
+    /// The k-th smallest distance² so far (∞ until k events are known).
+    fn kth(&self) -> f64 {
+        let mut acc = 0;
+        for &(d2, _, m) in &self.items {
+            acc += m;
+            if acc >= self.k {
+                return d2;
+            }
+        }
+        f64::INFINITY
+    }
+}
+
+impl Sink for KthTies {
+    #[inline]
+    fn worst(&self) -> f64 {
+        if self.total < self.k {
+            f64::INFINITY
+        } else {
+            self.items[self.items.len() - 1].0
+        }
+    }
+    fn offer(&mut self, d2: f64, l: usize, loc: &Locations) {
+        if d2.is_nan() || d2 > self.worst() {
+            return;
+        }
+        let m = loc.mult(l);
+        let pos = self.items.partition_point(|&(e, _, _)| e <= d2);
+        self.items.insert(pos, (d2, l, m));
+        self.total += m;
+        let kth = self.kth();
+        if kth.is_finite() {
+            let keep = self.items.partition_point(|&(e, _, _)| e <= kth);
+            for &(_, _, m) in &self.items[keep..] {
+                self.total -= m;
+            }
+            self.items.truncate(keep);
+        }
+    }
+    fn keeps_ties(&self) -> bool {
+        true
+    }
+}
+
+/// Neighbour lists of [`GridIndex::k_nearest_ranked`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct RankedNeighbours {
+    /// Neighbours per point: `k`.
+    pub k: usize,
+    /// Row i (`ids[i·k .. (i+1)·k]`) lists point i's k nearest other points
+    /// (original indices), nearest first; equal distances in the given rank order.
+    pub ids: Vec<u32>,
+    /// Points whose list (or one of its first-k prefixes) was settled by the
+    /// rank order, because two candidates at the same distance straddled a
+    /// cut: without ties this is 0.
+    pub tie_decided: usize,
 }
 
 impl GridIndex {
@@ -554,7 +628,8 @@ impl GridIndex {
                 return visited; // the whole grid was visited
             }
             let bound = bound.max(0.0);
-            if best.worst() <= bound * bound {
+            let (worst, b2) = (best.worst(), bound * bound);
+            if worst < b2 || (worst == b2 && !best.keeps_ties()) {
                 return visited;
             }
             rho += 1;
@@ -657,6 +732,120 @@ impl GridIndex {
         };
         self.search(qx, qy, usize::MAX, &mut b);
         (b.j != u32::MAX).then(|| (b.j as usize, b.d2.sqrt()))
+    }
+
+    /// The k nearest other points of every point, ordered by distance and,
+    /// at equal distance, by `rank` (lower first; `rank[i]` for point i, a
+    /// permutation or any numbers): a total order, so the first k′ entries
+    /// of each list are its k′ nearest by the same rule for every k′ ≤ k.
+    /// Points at exactly the same location come first (distance 0), then
+    /// the ring search over the distinct locations, which keeps every
+    /// location tied at the k-th distance so the rank, not the order of the
+    /// search, decides among them. `None` when `k == 0`, there are not more
+    /// than k points, `rank` is shorter than the points, or a point has
+    /// fewer than k neighbours at a finite distance.
+    ///
+    /// Cost: O(m log m) per location of m events, plus one ring search per
+    /// location holding at most k events; memory n·k indices.
+    ///
+    /// # Examples
+    /// Two points stacked at 0 and one at 5: the stacked ones are each
+    /// other's nearest; the rank decides the order of point 2's two
+    /// neighbours at the same distance.
+    /// ```
+    /// use cloister::index::GridIndex;
+    /// let g = GridIndex::new(&[0.0, 0.0, 5.0], &[0.0, 0.0, 0.0]);
+    /// let nb = g.k_nearest_ranked(2, &[1, 0, 2]).unwrap();
+    /// assert_eq!(nb.ids, vec![1, 2, 0, 2, 1, 0]);
+    /// assert_eq!(nb.tie_decided, 1);
+    /// ```
+    pub fn k_nearest_ranked(&self, k: usize, rank: &[u32]) -> Option<RankedNeighbours> {
+        let n = self.len();
+        if k == 0 || n <= k || rank.len() < n {
+            return None;
+        }
+        let loc = self.locations();
+        let mut ids = vec![0u32; n * k];
+        let mut tie_decided = 0;
+        let mut sink = KthTies {
+            k,
+            total: 0,
+            items: Vec::new(),
+        };
+        let by_rank = |a: &u32, b: &u32| rank[*a as usize].cmp(&rank[*b as usize]).then(a.cmp(b));
+        let mut here: Vec<u32> = Vec::new();
+        let mut outside: Vec<u32> = Vec::new();
+        let mut group: Vec<u32> = Vec::new();
+        for l in 0..loc.len() {
+            if l % 2048 == 0 {
+                crate::progress::report(l, loc.len());
+            }
+            here.clear();
+            here.extend(loc.members(l).iter().map(|&s| self.id[s as usize]));
+            here.sort_unstable_by(by_rank);
+            let m = here.len();
+            outside.clear();
+            // Whether the cut after the outside candidates splits a tie.
+            let mut outside_tie = false;
+            if m <= k {
+                let need = k - (m - 1);
+                sink.k = need;
+                sink.total = 0;
+                sink.items.clear();
+                self.search(loc.x[l], loc.y[l], l, &mut sink);
+                if sink.total < need {
+                    return None;
+                }
+                let mut a = 0;
+                while a < sink.items.len() && outside.len() < need {
+                    let d2 = sink.items[a].0;
+                    let mut b = a;
+                    group.clear();
+                    while b < sink.items.len() && sink.items[b].0 == d2 {
+                        group.extend(
+                            loc.members(sink.items[b].1)
+                                .iter()
+                                .map(|&s| self.id[s as usize]),
+                        );
+                        b += 1;
+                    }
+                    if group.len() > 1 {
+                        group.sort_unstable_by(by_rank);
+                        // The order inside a group of equal distances
+                        // settles the shorter prefixes, the cut the list.
+                        outside_tie = true;
+                    }
+                    let take = group.len().min(need - outside.len());
+                    outside.extend_from_slice(&group[..take]);
+                    a = b;
+                }
+            }
+            // Stacked others at distance 0: with more than one, their order
+            // (or, with more than k, which of them) is the rank's.
+            let stacked_tie = m > 2;
+            for (pos, &i) in here.iter().enumerate() {
+                let row = &mut ids[i as usize * k..(i as usize + 1) * k];
+                let mut t = 0;
+                for (q, &j) in here.iter().enumerate() {
+                    if t == k {
+                        break;
+                    }
+                    if q != pos {
+                        row[t] = j;
+                        t += 1;
+                    }
+                }
+                row[t..].copy_from_slice(&outside[..k - t]);
+                if stacked_tie || outside_tie {
+                    tie_decided += 1;
+                }
+            }
+        }
+        Some(RankedNeighbours {
+            k,
+            ids,
+            tie_decided,
+        })
     }
 
     /// Distance from (qx, qy) to the nearest indexed point other than slot

@@ -479,6 +479,62 @@ export interface LabellingResult {
   warnings: string[];
 }
 
+/** `nearestCasesStart`: the neighbour lists are built, T_k of the data computed. */
+export interface NearestCasesStarted {
+  total: number;
+  k_max: number;
+  seed: number;
+  n_cases: number;
+  n_controls: number;
+  /** Points whose neighbours the seed's random order chose among equal distances. */
+  ties_decided: number;
+}
+
+/** One k of the Cuzick–Edwards test. */
+export interface NearestCasesRow {
+  k: number;
+  /** Cases among the cases' k nearest neighbours, summed over the cases. */
+  t: number;
+  /** Exact mean and variance of t under random labelling. */
+  expected: number;
+  variance: number;
+  /** (t − expected)/√variance; null when the variance is 0. */
+  z: number | null;
+  /** One-sided normal p, P(Z ≥ z); null with z. */
+  p_normal: number | null;
+  /** Rank p of the relabellings, (1 + at_least_as_extreme)/(n_sim + 1). */
+  p_value: number;
+  at_least_as_extreme: number;
+}
+
+/** The combined test over k: the largest z against its relabelled values. */
+export interface NearestCasesCombined {
+  max_z: number | null;
+  at_k: number | null;
+  p_value: number;
+  at_least_as_extreme: number;
+}
+
+/** The k-nearest-neighbour test of Cuzick & Edwards (1990). */
+export interface NearestCasesResult {
+  rows: NearestCasesRow[];
+  combined: NearestCasesCombined;
+  k_max: number;
+  n_sim: number;
+  seed: number;
+  alpha: number;
+  n_cases: number;
+  n_controls: number;
+  stacked_points: number;
+  ties_decided: number;
+  outcome: 'consistent_with_population' | 'more_case_neighbours';
+  /** The k whose relabelling p is at or below alpha. */
+  small_p_k: number[];
+  verdict: string;
+  caveats: string[];
+  warnings: string[];
+}
+
 // ---- Where is it dense? ----
 
 /** `hotspotsInfo`. */

@@ -18,6 +18,9 @@ export const GLOSSARY = {
   isotropic: 'Edge correction (Ripley 1976): a pair is counted more when much of the circle through the other event lies outside the area, where its neighbours could not be seen.',
   translation: 'Edge correction (Ohser 1983): a pair is counted more when the area overlaps little with a copy of itself shifted by the pair\u2019s separation.',
   border: 'Edge correction: only events (or places) farther from the edge than the distance being looked at are used, so nothing unseen is missed; it uses fewer events.',
+  ce_t: 'T for a given k: for every case, count how many of its k nearest points are cases, and add these counts up. Points at the same address are each other\u2019s nearest; among equally near points a random order (from the seed) decides.',
+  ce_normal_p: 'How unusual T is if cases were a random choice among all the points, from T\u2019s exact mean and spread under that choice and the bell curve. A quick guide; with few cases the relabelling p is the one to trust.',
+  ce_combined: 'One test over all the k at once: each k\u2019s T is put on a common scale (its distance from the expected value in standard deviations), the largest is taken, and it is compared with the same largest value in each relabelling. Use it instead of picking the k with the smallest p.',
 };
 
 /** The term `label` with a "?" that shows GLOSSARY[key] beside it. */

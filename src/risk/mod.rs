@@ -7,10 +7,14 @@
 //!
 //! * [`labelling`]: the random labelling test of Diggle & Chetwynd (1991),
 //!   D(r) = K_cases(r) − K_controls(r) with Monte Carlo relabellings.
+//! * [`nearest`]: the k-nearest-neighbour test of Cuzick & Edwards (1990),
+//!   how many of the cases' k nearest neighbours are cases.
 
 pub mod labelling;
+pub mod nearest;
 
 pub use labelling::{
     random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
     LabellingShare, LabellingSimulator, LabellingStatistic,
 };
+pub use nearest::{NearestJob, NearestOptions, NearestResult};

@@ -57,7 +57,7 @@ fn no_job() -> JsValue {
 /// other categories when `None`, leaving out rows with a blank category:
 /// their category is unknown, not "other"), as coordinate lists.
 #[allow(clippy::type_complexity)]
-fn split_by_category(
+pub(super) fn split_by_category(
     events: &crate::study::Pattern,
     case_name: &str,
     control_name: Option<&str>,

@@ -70,6 +70,12 @@ test('each analysis module exports one mount function, and main.js mounts it', (
     const exported = [...text.matchAll(/^export\s+(?:async\s+)?(?:function|const|let|class)\s+([\w$]+)/gm)].map((m) => m[1]);
     assert.equal(exported.length, 1, `${f} exports ${exported.join(', ') || 'nothing'}`);
     assert.match(exported[0], /^mount[A-Z]/, f);
-    assert.match(main, new RegExp(`\\[\\s*'[\\w-]+'\\s*,\\s*${exported[0]}\\s*\\]`), `main.js does not mount ${exported[0]}`);
+    // A part of a panel (another test in the same section) is mounted by
+    // that panel's module: it imports the mount function and calls it.
+    const byPanel = readdirSync(join(WWW, 'analyses')).filter((g) => g.endsWith('.js') && g !== f).some((g) => {
+      const t = readFileSync(join(WWW, 'analyses', g), 'utf8');
+      return t.includes(`import { ${exported[0]} } from './${f}';`) && new RegExp(`^\\s*${exported[0]}\\(C\\b`, 'm').test(t);
+    });
+    if (!byPanel) assert.match(main, new RegExp(`\\[\\s*'[\\w-]+'\\s*,\\s*${exported[0]}\\s*\\]`), `main.js does not mount ${exported[0]}`);
   }
 });

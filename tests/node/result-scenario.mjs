@@ -61,6 +61,10 @@ export function runScenario() {
   record('labellingStep', '10', s.labellingStep(10));
   s.labellingStep(lab.total);
   record('labellingFinish', 'demo', s.labellingFinish());
+  const near = record('nearestCasesStart', 'demo, 19', s.nearestCasesStart({ n_sim: 19, seed: 4, k_max: 3 }));
+  record('nearestCasesStep', '10', s.nearestCasesStep(10));
+  s.nearestCasesStep(near.total);
+  record('nearestCasesFinish', 'demo', s.nearestCasesFinish());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());

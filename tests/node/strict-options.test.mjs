@@ -63,6 +63,7 @@ const CASES = {
   clarkEvans: { call: (s, o) => s.clarkEvans(o), bad: { nsim: 0 }, key: 'nsim', valid: ['n_sim', 'seed'] },
   envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   labellingStart: { call: (s, o) => s.labellingStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'r_max_m', 'correction'] },
+  nearestCasesStart: { call: (s, o) => s.nearestCasesStart(o), bad: { k: 5 }, key: 'k', valid: ['k_max', 'n_sim', 'seed'] },
   envelopeEstimate: { spec: 'envelopeStart', call: (s, o) => s.envelopeEstimate(o, 1), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   intensitySurface: { call: (s, o) => s.intensitySurface(o), bad: { kernal: 'quartic' }, key: 'kernal', valid: ['kernel', 'method', 'fixed_m'] },
   dbscan: { call: (s, o) => s.dbscan(o), bad: { eps_m: 150, minsamples: 8 }, key: 'minsamples', valid: ['eps_m', 'min_samples', 'use_weights'] },
@@ -83,6 +84,7 @@ const NO_OPTIONS = new Set([
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
   'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
   'labellingShare', 'labellingHelperStart', 'labellingSimulate', 'labellingAdd',
+  'nearestCasesStep', 'nearestCasesFinish',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -275,6 +277,7 @@ const WALK = {
   maskKAnonymity: { base: { seed: 1 } }, maskingCost: { needsMask: true }, aggregate: {},
   exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},
   kDistance: { call: (s, o) => s.kDistance(o.min_samples) },
+  nearestCasesStart: {},
 };
 
 test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {
