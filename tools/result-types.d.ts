@@ -479,7 +479,12 @@ export interface HotspotsInfo {
   n_events: number;
   has_weights: boolean;
   has_controls: boolean;
+  /** The population file's count column is mapped (counts at points). */
+  has_population_counts: boolean;
   geographic: boolean;
+  /** The model the scan picks from what is loaded, and in words. */
+  scan_model: 'bernoulli' | 'poisson' | 'poisson_population';
+  scan_model_text: string;
 }
 
 /** One percent-volume isopleth; polygons in planar metres. */
@@ -609,7 +614,7 @@ export interface ScanCluster {
 
 /** `scanFinish`. */
 export interface ScanResult {
-  model: 'auto' | 'bernoulli' | 'poisson';
+  model: 'auto' | 'bernoulli' | 'poisson' | 'poisson_population';
   model_text: string;
   centres: 'auto' | 'events' | 'grid';
   n_sim: number;
