@@ -8,9 +8,12 @@ fn close(a: f64, b: f64, tol: f64) -> bool {
     (a - b).abs() <= tol
 }
 
+/// Case x, y; population x, y, counts.
+type Places = (Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>);
+
 /// Three population places on a line (one given as two rows at one place,
 /// one with a missing count beside it) and C = 20 cases.
-fn three_places() -> (Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>) {
+fn three_places() -> Places {
     // Population: A (0, 0) 150 + 100 = 250 people; a point at (100, 0)
     // with a missing count (counts 0); B (1000, 0) 250; C (5000, 0) 500.
     let px = vec![0.0, 100.0, 1000.0, 5000.0, 0.0];
