@@ -50,3 +50,17 @@ test('scan: a population file of counts is scanned with the Poisson model agains
   assert.deepEqual(log.pageErrors, []);
   assert.deepEqual(log.consoleErrors, []);
 });
+
+test('the demo with the population as counts loads in one click', async () => {
+  const { page, log } = await openPage(browser);
+  await act(page, () => page.click('#demo-counts-button'));
+  assert.match(await page.textContent('#status'), /Demo loaded/);
+  assert.match(await page.textContent('#controls-name'), /population-blocks\.csv \(demo\)/);
+  await page.waitForFunction(() => document.getElementById('hs-scan-model').dataset.model === 'poisson_population', null, { timeout: 30000 });
+  // The ordinary demo still loads one point per person.
+  await act(page, () => page.click('#demo-button'));
+  await page.waitForFunction(() => document.getElementById('hs-scan-model').dataset.model === 'bernoulli', null, { timeout: 30000 });
+  assert.match(await page.textContent('#controls-name'), /^population\.csv \(demo\)/);
+  assert.deepEqual(log.pageErrors, []);
+  assert.deepEqual(log.consoleErrors, []);
+});
