@@ -630,6 +630,8 @@ export interface ScanResult {
   critical_95: number | null;
   critical_99: number | null;
   cell_m: number | null;
+  /** Against population counts: the farthest a case lies from the point it is counted at, m. */
+  case_to_population_max_m: number | null;
   clusters: ScanCluster[];
   null_maxima: number[];
 }

@@ -159,7 +159,7 @@ impl crate::params::Params for ScanOptions {
             Field::choice(
                 "centres",
                 &["auto", "events", "grid"],
-                "where circles are centred: at events, or at cells of a grid",
+                "where circles are centred: at events (at the population points against population counts), or at cells of a grid",
             ),
             Field::integer("cells_long_side", "grid cells along the longer side for grid regions")
                 .range(2.0, 512.0),
@@ -232,6 +232,11 @@ pub struct ScanResult {
     pub critical_99: Option<f64>,
     /// For grid regions: the cell side, metres.
     pub cell_m: Option<f64>,
+    /// Against population counts: the farthest any case lies from the
+    /// population point it is counted at, metres (`None` for other models).
+    /// Far more than the spacing of the points says the population file
+    /// does not cover where cases are.
+    pub case_to_population_max_m: Option<f64>,
 }
 
 /// Progress after a batch.
@@ -307,6 +312,8 @@ pub struct ScanJob {
     cell_m: Option<f64>,
     total_cases: u64,
     total_pop: f64,
+    /// Against population counts: farthest case from its point, metres.
+    case_to_population_max_m: Option<f64>,
     /// Flat neighbour lists: `list[start[i]..start[i+1]]` for centre i.
     start: Vec<usize>,
     list: Vec<u32>,
@@ -417,7 +424,7 @@ impl ScanJob {
                 found: 0,
             });
         }
-        let regions = population_regions(x, y, px, py, counts)?;
+        let (regions, farthest) = population_regions(x, y, px, py, counts)?;
         let use_points = match o.centres {
             ScanCentres::Events => true,
             ScanCentres::Grid => false,
@@ -432,6 +439,7 @@ impl ScanJob {
         let mut job = ScanJob::from_regions(&regions, ScanModel::PoissonPopulation, o)?;
         job.centres_kind = centres;
         job.cell_m = cell;
+        job.case_to_population_max_m = Some(farthest);
         Ok(job)
     }
 
@@ -624,6 +632,7 @@ impl ScanJob {
             cell_m: None,
             total_cases,
             total_pop,
+            case_to_population_max_m: None,
             start,
             list,
             pop_at,
@@ -934,6 +943,7 @@ impl ScanJob {
             clusters,
             null_maxima: self.null_max,
             cell_m: self.cell_m,
+            case_to_population_max_m: self.case_to_population_max_m,
         }
     }
 
@@ -990,13 +1000,14 @@ pub fn resolve_model(
 /// Population points as regions: counts above 0 only (others add nothing),
 /// points at one location merged, each case counted at its nearest point
 /// (ties to the lower index, see [`crate::index::GridIndex::nearest`]).
+/// Also returns the farthest distance from a case to its point, metres.
 fn population_regions(
     x: &[f64],
     y: &[f64],
     px: &[f64],
     py: &[f64],
     counts: &[f64],
-) -> Result<ScanRegions, AnalysisError> {
+) -> Result<(ScanRegions, f64), AnalysisError> {
     use std::collections::HashMap;
     let mut at: HashMap<(u64, u64), usize> = HashMap::new();
     let mut r = ScanRegions::default();
@@ -1029,13 +1040,15 @@ fn population_regions(
         ));
     }
     let index = crate::index::GridIndex::new(&r.x, &r.y);
+    let mut farthest = 0.0f64;
     for i in 0..x.len() {
-        let (k, _) = index
+        let (k, d) = index
             .nearest(x[i], y[i])
             .ok_or_else(|| bad("events", format!("event {} has a bad location", i + 1)))?;
         r.cases[k] += 1;
+        farthest = farthest.max(d);
     }
-    Ok(r)
+    Ok((r, farthest))
 }
 
 /// Regions summed into square cells (`cells_long_side` along the longer

@@ -39,6 +39,7 @@ test('scan: a population file of counts is scanned with the Poisson model agains
   assert.match(out, /cases against the population counts \(Poisson\)/);
   assert.match(out, /population points/);
   assert.match(await page.textContent('#hs-scan-out dd[data-key="scan-people"]'), /^24,000$/);
+  assert.match(await page.textContent('#hs-scan-out dd[data-key="scan-reach"]'), /^at most \d+(\.\d)?\sm\s/);
   const rows = await page.$$eval('#hs-scan-table tbody tr', (trs) => trs.map((tr) => Array.from(tr.cells).map((td) => td.textContent.trim())));
   assert.match(rows[0][0], /strongest/);
   const [lon, lat] = rows[0][1].split(',').map((t) => parseFloat(t));

@@ -55,6 +55,11 @@ test('scan: a population file with counts picks the Poisson model against the co
   // demo-data/README.md: 24 000 residents in all.
   assert.equal(r.total_population, truth.population_blocks.residents);
   assert.equal(r.n_regions, truth.population_blocks.n);
+  // Blocks are 500 m squares (demo-data/README.md): a case lies in or beside
+  // a square with residents, so within about a square's diagonal (707 m) of
+  // a centroid (344 m measured).
+  assert.ok(r.case_to_population_max_m > 0 && r.case_to_population_max_m < 500 * Math.SQRT2,
+    `${r.case_to_population_max_m}`);
   // Each planted cluster lies in a circle with p < 0.05.
   for (const c of truth.clusters) {
     const { longitude, latitude } = c.centre_lonlat;

@@ -555,7 +555,10 @@ export function mountHotspots(C) {
     const add = (t, v, key) => dl.append(el('dt', null, t), el('dd', key ? { 'data-key': key } : null, v));
     add('Model', r.model_text);
     add('Regions and circles', `${fmt(r.n_regions)} ${r.centres === 'grid' ? `grid cells of ${fmtMetres(r.cell_m)}` : (r.model === 'poisson_population' ? 'population points' : 'locations')}, ${fmt(r.n_windows)} circles`);
-    if (r.model === 'poisson_population') add('People counted', fmt(r.total_population), 'scan-people');
+    if (r.model === 'poisson_population') {
+      add('People counted', fmt(r.total_population), 'scan-people');
+      add('Cases to their population point', `at most ${fmtMetres(r.case_to_population_max_m)} (each case is counted at its nearest point with people; far more than the points' spacing means the population file misses where cases are)`, 'scan-reach');
+    }
     add('Strongest excess', clusters.length ? el('span', null, `strength ${fmt(r.statistic, 4)} (`, C.term('llr', 'log-likelihood ratio'), `), p = ${fmtP(num(r.p_value), nSim)}`) : 'no circle holds more than expected', 'scan-p');
     add('Chance runs, seed', `${fmt(nSim)}, seed ${String(r.seed)}`, 'scan-seed');
     scanOut.append(dl);

@@ -68,6 +68,10 @@ fn llr_by_hand_against_population_counts() {
     assert!(close(m.expected, 5.0, 1e-12));
     assert!(close(m.population, 250.0, 1e-12));
     assert!(close(m.relative_risk.unwrap(), 3.0, 1e-12));
+    // The farthest case from its point: (90, 0), 90 m from A (the point at
+    // (100, 0) holds no one); the cases by C lie up to √(70² + 30²) = 76.2 m
+    // from C, those by B up to 11.2 m from B.
+    assert!(close(r.case_to_population_max_m.unwrap(), 90.0, 1e-9));
     // Every other window overlaps {A} or has no excess: one cluster.
     assert_eq!(r.clusters.len(), 1);
     // The window {A, B} by hand, through the same scoring path.
@@ -160,6 +164,20 @@ fn impossible_models_are_errors() {
         model: ScanModel::PoissonPopulation,
         ..Default::default()
     };
+    // Other models have no population points to be counted at.
+    let area = ScanJob::from_points(
+        &[1.0],
+        &[1.0],
+        None,
+        &w,
+        &ScanOptions {
+            n_sim: 9,
+            ..Default::default()
+        },
+    )
+    .unwrap()
+    .finish();
+    assert_eq!(area.case_to_population_max_m, None);
     let e = ScanJob::from_points(&[1.0], &[1.0], None, &w, &o).unwrap_err();
     assert!(e.to_string().contains("count column"), "{e}");
     // Through a study's patterns: controls without a count column.
