@@ -343,11 +343,11 @@ impl Session {
     /// options `{model, centres, max_share, n_sim, seed, cells_long_side,
     /// max_secondary}`; `model` `"auto"` picks from what is loaded (see
     /// `hotspotsInfo`), `"poisson_population"` without a population file
-    /// whose count column is mapped is a `bad_parameter` error. Times a few chance runs (up to 25 ms or 50 runs,
-    /// then forgotten) and returns `{total, n_windows, n_regions,
-    /// estimate_ms, cost}`: `estimate_ms` is the time of the chance runs
-    /// left, `cost` the timing and the faster settings with their own
-    /// estimates ([`crate::scan::ScanCost`]). A scan already prepared or
+    /// whose count column is mapped is a `bad_parameter` error. Times a few
+    /// chance runs (up to 25 ms or 50 runs, then forgotten) and returns
+    /// `{total, n_windows, n_regions, estimate_ms, cost}`: `estimate_ms` is
+    /// the time of the chance runs left, `cost` the timing and the faster
+    /// settings with their own estimates ([`crate::scan::ScanCost`]). A scan already prepared or
     /// running is dropped.
     #[wasm_bindgen(js_name = scanStart, unchecked_return_type = "ScanStarted")]
     pub fn scan_start(
