@@ -58,11 +58,16 @@ const S_NEAR_REPEAT: u64 = 8;
 const S_COINCIDENT: u64 = 9;
 const S_ORDER: u64 = 10;
 const S_POPULATION: u64 = 11;
+const S_BLOCKS: u64 = 12;
 
 const N_BACKGROUND: usize = 1_223;
 const N_NEAR_REPEAT: usize = 12;
 const N_COINCIDENT: usize = 5;
 const N_POPULATION: usize = 3_000;
+/// Residents drawn for `population-blocks.csv`, summed into blocks.
+const N_RESIDENTS: usize = 24_000;
+/// Side of the square blocks, metres.
+const BLOCK_M: f64 = 500.0;
 
 /// Share of "respiratory" among background events (the rest are "enteric").
 const P_RESP_BACKGROUND: f64 = 0.55;
@@ -670,6 +675,8 @@ pub fn generate(dir: &Path) -> io::Result<String> {
         })
         .collect();
 
+    let blocks = population_blocks(&w);
+
     // ------------------------------------------------------------ files
     fs::create_dir_all(dir)?;
     fs::write(dir.join("town-boundary.geojson"), boundary_geojson(&w))?;
@@ -686,6 +693,12 @@ pub fn generate(dir: &Path) -> io::Result<String> {
         let _ = writeln!(pop, "{lon},{lat}");
     }
     fs::write(dir.join("population.csv"), &pop)?;
+
+    let mut bl = String::from("longitude,latitude,residents\n");
+    for b in &blocks {
+        let _ = writeln!(bl, "{},{},{}", b.lon, b.lat, b.residents);
+    }
+    fs::write(dir.join("population-blocks.csv"), &bl)?;
 
     let mut proj = String::from("\u{FEFF}case_id;x;y;onset_date;category;count\r\n");
     for e in &rows {
@@ -707,27 +720,84 @@ pub fn generate(dir: &Path) -> io::Result<String> {
 
     // ------------------------------------------------------------ truth
     let truth = Truth::compute(&w, &events, &rows, &nr_pairs, &redrawn);
-    let truth_json = truth.to_json(&events, &nr_pairs, &co_pairs, &problems);
+    let truth_json = truth.to_json(&events, &nr_pairs, &co_pairs, &problems, &blocks);
     let mut truth_text = serde_json::to_string_pretty(&truth_json).map_err(io::Error::other)?;
     truth_text.push('\n');
     fs::write(dir.join("planted-truth.json"), &truth_text)?;
     fs::write(
         dir.join("README.md"),
-        readme(&w, &truth, &events, &nr_pairs, &co_pairs, &problems),
+        readme(
+            &w, &truth, &events, &nr_pairs, &co_pairs, &problems, &blocks,
+        ),
     )?;
 
     let total_count: u32 = rows.iter().map(|e| e.count).sum();
     Ok(format!(
-        "wrote {} cases (count column total {}), {} population points, {} problem rows, \
-         boundary with {} + {} vertices into {}",
+        "wrote {} cases (count column total {}), {} population points, {} population blocks, \
+         {} problem rows, boundary with {} + {} vertices into {}",
         rows.len(),
         total_count,
         population.len(),
+        blocks.len(),
         problems.len(),
         w.outer.len(),
         w.lake.len(),
         dir.display()
     ))
+}
+
+/// One row of `population-blocks.csv`.
+struct Block {
+    lon: String,
+    lat: String,
+    residents: u32,
+}
+
+/// Population counts at block centroids: `N_RESIDENTS` people drawn like
+/// the background events (same intensity, window and margin, own random
+/// stream), summed into `BLOCK_M` squares over the town's bounding box.
+/// A block's centroid is the mean place of its residents, or, when that
+/// mean is not usable (a block across the lake shore), the resident nearest
+/// to it. Rows go block by block, west to east within rows south to north.
+fn population_blocks(w: &Window) -> Vec<Block> {
+    let (x0, y0, x1, y1) = w.bbox();
+    let nx = ((x1 - x0) / BLOCK_M).ceil() as usize;
+    let ny = ((y1 - y0) / BLOCK_M).ceil() as usize;
+    let mut members: Vec<Vec<Xy>> = vec![Vec::new(); nx * ny];
+    let mut rng = rng_from_seed(SEED + S_BLOCKS);
+    for _ in 0..N_RESIDENTS {
+        let p = draw_background_point(w, &mut rng);
+        let i = (((p.0 - x0) / BLOCK_M) as usize).min(nx - 1);
+        let j = (((p.1 - y0) / BLOCK_M) as usize).min(ny - 1);
+        members[j * nx + i].push(p);
+    }
+    let mut out = Vec::new();
+    for m in members.iter().filter(|m| !m.is_empty()) {
+        let n = m.len() as f64;
+        let mean = (
+            m.iter().map(|p| p.0).sum::<f64>() / n,
+            m.iter().map(|p| p.1).sum::<f64>() / n,
+        );
+        let d2 = |p: &Xy| (p.0 - mean.0).powi(2) + (p.1 - mean.1).powi(2);
+        let nearest = || {
+            *m.iter()
+                .min_by(|a, b| d2(a).total_cmp(&d2(b)))
+                .unwrap_or(&mean)
+        };
+        let (lon, lat, q) = place(mean);
+        let (lon, lat) = if w.usable(q) {
+            (lon, lat)
+        } else {
+            let (lon, lat, _) = place(nearest());
+            (lon, lat)
+        };
+        out.push(Block {
+            lon,
+            lat,
+            residents: m.len() as u32,
+        });
+    }
+    out
 }
 
 fn shuffle(v: &mut [usize], rng: &mut Rng) {
@@ -980,6 +1050,7 @@ impl Truth {
         nr_pairs: &[(usize, usize)],
         co_pairs: &[(usize, usize)],
         problems: &[Problem],
+        blocks: &[Block],
     ) -> Value {
         let ids = |part: Part| -> Vec<String> {
             let mut v: Vec<String> = events
@@ -1089,6 +1160,11 @@ impl Truth {
             "exactly_coincident_pairs": self.coincident_pairs_total,
             "cases": {"n": events.len(), "count_column_total": self.total_count},
             "population": {"n": N_POPULATION},
+            "population_blocks": {
+                "n": blocks.len(),
+                "residents": blocks.iter().map(|b| b.residents as u64).sum::<u64>(),
+                "block_m": BLOCK_M,
+            },
             "problems": problems.iter().map(|p| json!({
                 "row": p.row, "column": p.column, "value": p.value,
                 "stage": p.stage, "reason": p.reason,
@@ -1117,11 +1193,13 @@ fn readme(
     nr_pairs: &[(usize, usize)],
     co_pairs: &[(usize, usize)],
     problems: &[Problem],
+    blocks: &[Block],
 ) -> String {
     let mut s = String::new();
     let (x0, y0, x1, y1) = t.bbox;
     let n_cases = events.len();
     let n_clustered: usize = CLUSTERS.iter().map(|c| c.n).sum();
+    let n_blocks = blocks.len();
     let _ = write!(
         s,
         r#"# Demo data: Harrowmere, an invented town
@@ -1159,6 +1237,7 @@ memory; the distances to them were computed with pyproj in
 | `town-boundary.geojson` | study area: one Polygon with one hole (a lake) | WGS84 lon/lat, 6 decimals | window with a hole: area, simulation of complete spatial randomness inside it, edge correction, in/out checks |
 | `cases.csv` | {n_cases} events (comma-separated, ISO dates) | WGS84 lon/lat, 6 decimals | main intake; summary; distance functions with envelopes; kernel intensity; DBSCAN; scan statistic; Knox / near-repeat / space-time tests; privacy (coincident points) |
 | `population.csv` | {N_POPULATION} population-at-risk points | WGS84 lon/lat, 6 decimals | case–control comparison: relative risk against the background |
+| `population-blocks.csv` | {n_blocks} block centroids with a `residents` count ({N_RESIDENTS} people) | WGS84 lon/lat, 6 decimals | population as counts at points: the scan against the population counts (Poisson) |
 | `cases-projected.csv` | the same {n_cases} events | invented local grid, metres | projected intake: `;` delimiter, decimal comma, UTF-8 BOM, CRLF line ends, day/month/year dates |
 | `cases-with-problems.csv` | 40 rows, {n_bad} spoiled on purpose | WGS84 lon/lat | row-by-row rejection messages |
 | `planted-truth.json` | the planted truth below, with case ids | — | checking analyses against the truth |
@@ -1415,6 +1494,18 @@ Header `longitude,latitude`; {N_POPULATION} points drawn exactly like the backgr
 (same intensity f, same window and margin, own random stream). They stand for the population
 at risk (controls): where f is high there are more people, not more risk. Outside the three
 clusters the ratio of case to population density is flat by construction.
+
+## `population-blocks.csv`
+
+The same population at risk given as **counts at points**, as published block figures are.
+Header `longitude,latitude,residents`; {n_blocks} rows, {N_RESIDENTS} residents in all.
+{N_RESIDENTS} people were drawn exactly like the points of `population.csv` (same intensity f,
+window and margin, own random stream) and summed into squares of {BLOCK_M:.0} m over the
+town's bounding box; each row is one square that holds anyone: its centroid (the mean place
+of its residents, or the resident nearest to that mean when the mean falls in the lake or
+outside the town) and its number of residents. Rows go square by square, west to east, rows
+from south to north. Load it as the population file: the `residents` column is read as the
+count of people at each point, so the scan compares the cases with these counts.
 
 ## `cases-projected.csv`
 

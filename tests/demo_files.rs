@@ -20,12 +20,13 @@ use std::path::{Path, PathBuf};
 
 use serde_json::Value;
 
-const FILES: [&str; 7] = [
+const FILES: [&str; 8] = [
     "README.md",
     "cases-projected.csv",
     "cases-with-problems.csv",
     "cases.csv",
     "planted-truth.json",
+    "population-blocks.csv",
     "population.csv",
     "town-boundary.geojson",
 ];
@@ -417,6 +418,50 @@ fn every_point_is_inside_the_town_and_outside_the_lake() {
         // Generated with a 10 m margin from both edges (README).
         assert!(r[key]["min_distance_to_any_edge_m"].as_f64().unwrap() >= 9.9);
     }
+}
+
+#[test]
+fn population_blocks_are_counts_inside_the_town() {
+    // demo-data/README.md: header `longitude,latitude,residents`, one row per
+    // block, 6-decimal lon/lat inside the town and outside the lake, whole
+    // residents above 0 summing to the total in planted-truth.json.
+    let t = town();
+    let text = read("population-blocks.csv");
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("longitude,latitude,residents"));
+    let (mut n, mut total) = (0u64, 0u64);
+    let mut seen = HashSet::new();
+    for line in lines {
+        let f: Vec<&str> = line.split(',').collect();
+        assert_eq!(f.len(), 3, "{line}");
+        assert!(has_six_decimals(f[0]) && has_six_decimals(f[1]), "{line}");
+        let p = (f[0].parse().unwrap(), f[1].parse().unwrap());
+        assert_eq!(winding(p, &t.outer), 1, "block {p:?} outside the town");
+        assert_eq!(winding(p, &t.lake), 0, "block {p:?} in the lake");
+        assert!(seen.insert(line.to_string()), "block {line} twice");
+        let r: u64 = f[2].parse().unwrap();
+        assert!(r > 0);
+        total += r;
+        n += 1;
+    }
+    let truth = truth();
+    assert_eq!(Some(n), truth["population_blocks"]["n"].as_u64());
+    assert_eq!(
+        Some(total),
+        truth["population_blocks"]["residents"].as_u64()
+    );
+    assert_eq!(total, 24_000);
+    // The reader takes `residents` as the count of each point.
+    let layer = cloister::input::read_points(text.as_bytes(), &Default::default()).unwrap();
+    let s = cloister::study::Study::build(
+        &layer,
+        None,
+        Some(&layer),
+        cloister::study::AreaFallback::ConvexHull,
+    )
+    .unwrap();
+    let w = s.controls.as_ref().unwrap().weight().unwrap();
+    assert_eq!(w.iter().sum::<f64>(), total as f64);
 }
 
 #[test]

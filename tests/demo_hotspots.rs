@@ -208,3 +208,72 @@ fn scan_against_population_finds_a_planted_cluster() {
     );
     assert!(m.relative_risk.unwrap() > 1.5);
 }
+
+/// The demo's cases with `population-blocks.csv` (counts at block
+/// centroids, column `residents`) as the population layer.
+fn study_with_blocks() -> Study {
+    let cases = read_points(
+        include_bytes!("../demo-data/cases.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let blocks = read_points(
+        include_bytes!("../demo-data/population-blocks.csv"),
+        &ReadOptions::default(),
+    )
+    .unwrap();
+    let area = read_area(include_bytes!("../demo-data/town-boundary.geojson"), None).unwrap();
+    Study::build(&cases, Some(&area), Some(&blocks), AreaFallback::ConvexHull).unwrap()
+}
+
+#[test]
+fn scan_against_population_counts_finds_the_planted_clusters() {
+    // The planted truth used (demo-data/planted-truth.json, written by
+    // examples/make_demo.rs): cluster label, centre longitude, latitude,
+    // events planted.
+    const PLANTED: [(&str, f64, f64, u64); 3] = [
+        ("A", -32.014409, -41.48651, 120),
+        ("B", -31.961575, -41.480215, 80),
+        ("C", -31.98499, -41.514389, 60),
+    ];
+    let t: Value = serde_json::from_str(include_str!("../demo-data/planted-truth.json")).unwrap();
+    for (c, &(label, lon, lat, n)) in t["clusters"].as_array().unwrap().iter().zip(&PLANTED) {
+        assert_eq!(c["label"], label);
+        assert_eq!(c["centre_lonlat"]["longitude"].as_f64(), Some(lon));
+        assert_eq!(c["centre_lonlat"]["latitude"].as_f64(), Some(lat));
+        assert_eq!(c["n"].as_u64(), Some(n));
+    }
+    let s = study_with_blocks();
+    assert!(
+        s.controls.as_ref().unwrap().weight().is_some(),
+        "residents read as counts"
+    );
+    let o = ScanOptions {
+        model: ScanModel::Auto,
+        n_sim: 999,
+        seed: 11,
+        ..Default::default()
+    };
+    let mut job = ScanJob::new(&s.events, s.controls.as_ref(), &s.window, &o).unwrap();
+    while job.progress().done < 999 {
+        job.run_batch(100);
+    }
+    let r = job.finish();
+    assert_eq!(r.model, ScanModel::PoissonPopulation);
+    assert_eq!(r.total_cases, 1500);
+    assert_eq!(r.total_population, 24_000.0);
+    for &(label, lon, lat, _) in &PLANTED {
+        let c = s.projection.forward(lon, lat);
+        // A circle with p < 0.05 holding the planted centre (block
+        // centroids lie up to about 350 m from the places in their block).
+        let hit = r
+            .clusters
+            .iter()
+            .find(|m| m.p_value < 0.05 && near((m.centre_x, m.centre_y), c, m.radius_m + 400.0));
+        let found = hit.map(|m| (m.rank, m.observed, m.expected, m.radius_m, m.p_value));
+        eprintln!("cluster {label}: {found:?}");
+        assert!(hit.is_some(), "cluster {label} not found: {:?}", r.clusters);
+        let m = hit.unwrap();
+        assert!(m.relative_risk.unwrap() > 1.5);
+    }
+}

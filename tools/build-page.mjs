@@ -61,6 +61,7 @@ export const DEMO_FILES = [
   { id: 'demo-cases', file: 'cases.csv' },
   { id: 'demo-area', file: 'town-boundary.geojson' },
   { id: 'demo-population', file: 'population.csv' },
+  { id: 'demo-population-blocks', file: 'population-blocks.csv' },
   { id: 'demo-problems', file: 'cases-with-problems.csv' },
 ];
 

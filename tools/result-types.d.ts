@@ -542,7 +542,12 @@ export interface HotspotsInfo {
   n_events: number;
   has_weights: boolean;
   has_controls: boolean;
+  /** The population file's count column is mapped (counts at points). */
+  has_population_counts: boolean;
   geographic: boolean;
+  /** The model the scan picks from what is loaded, and in words. */
+  scan_model: 'bernoulli' | 'poisson' | 'poisson_population';
+  scan_model_text: string;
 }
 
 /** One percent-volume isopleth; polygons in planar metres. */
@@ -672,7 +677,7 @@ export interface ScanCluster {
 
 /** `scanFinish`. */
 export interface ScanResult {
-  model: 'auto' | 'bernoulli' | 'poisson';
+  model: 'auto' | 'bernoulli' | 'poisson' | 'poisson_population';
   model_text: string;
   centres: 'auto' | 'events' | 'grid';
   n_sim: number;
@@ -688,6 +693,8 @@ export interface ScanResult {
   critical_95: number | null;
   critical_99: number | null;
   cell_m: number | null;
+  /** Against population counts: the farthest a case lies from the point it is counted at, m. */
+  case_to_population_max_m: number | null;
   clusters: ScanCluster[];
   null_maxima: number[];
 }

@@ -13,6 +13,7 @@ export const GLOSSARY = {
   jones_diggle: 'Near the boundary part of each event\u2019s mound would fall outside the area and be lost. This correction (Jones 1993; Diggle 1985) rescales each mound so all of it counts inside, so the surface does not sag at the edge.',
   bernoulli: 'Each point is a case or a control; the test asks whether a circle holds more cases among its points than the share of cases overall.',
   poisson: 'Events are compared with area: a circle is expected to hold events in proportion to its area, as if every km\u00b2 were equally at risk.',
+  poisson_population: 'Cases are compared with population counts at points (Kulldorff 1997): a circle is expected to hold the cases\u2019 share of the people counted in it. Each case is counted at its nearest population point.',
   llr: 'The log-likelihood ratio: how much better "the risk is higher inside this circle" explains the counts than "the risk is the same everywhere". Larger is stronger; on its own it is not a p-value.',
   eps: 'DBSCAN\u2019s reach: two events closer than this are neighbours. Groups of neighbours with enough events become clusters; events with too few neighbours are noise.',
   isotropic: 'Edge correction (Ripley 1976): a pair is counted more when much of the circle through the other event lies outside the area, where its neighbours could not be seen.',

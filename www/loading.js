@@ -242,11 +242,14 @@ function demoBytes(id) {
   return decodeBase64(node.textContent);
 }
 
-export async function loadDemo() {
+export async function loadDemo({ counts = false } = {}) {
   clearError();
   const cases = demoBytes('demo-cases');
   const area = demoBytes('demo-area');
-  const pop = demoBytes('demo-population');
+  // The demo population as one point per person, or as counts of residents
+  // at block centroids (population-blocks.csv).
+  const popFile = counts ? 'population-blocks.csv' : 'population.csv';
+  const pop = demoBytes(counts ? 'demo-population-blocks' : 'demo-population');
   if (!cases) {
     showError('The demo is missing', { message: 'this copy of the page was built without demo data.' });
     return;
@@ -259,7 +262,7 @@ export async function loadDemo() {
   // Stop at the first failure: its message stays on screen.
   if (area && !(await loadArea(area, 'town-boundary.geojson (demo)', { refreshAfter: false }))) return;
   if (!(await loadEvents(cases, 'cases.csv (demo)', {}, { refreshAfter: false }))) return;
-  if (pop && !(await loadControls(pop, 'population.csv (demo)', { refreshAfter: false }))) return;
+  if (pop && !(await loadControls(pop, `${popFile} (demo)`, { refreshAfter: false }))) return;
   await refresh(false);
   setStatus(`Demo loaded: ${statusCounts()}.`);
 }

@@ -70,6 +70,7 @@ function wire() {
   $('busy-cancel').addEventListener('click', cancelAll);
   $('demo-button').addEventListener('click', act(loadDemo));
   $('problems-button').addEventListener('click', act(loadProblems));
+  $('demo-counts-button').addEventListener('click', act(() => loadDemo({ counts: true })));
   $('map-layer').addEventListener('change', () => {
     state.mapLayer = $('map-layer').value;
     showMapping();
@@ -97,7 +98,8 @@ function wire() {
 }
 
 function enableInputs() {
-  for (const id of ['events-file', 'area-file', 'controls-file', 'demo-button', 'problems-button']) $(id).disabled = false;
+  for (const id of ['events-file', 'area-file', 'controls-file', 'demo-button', 'problems-button', 'demo-counts-button']) $(id).disabled = false;
+  if (!$('demo-cases') || !$('demo-population-blocks')) $('demo-counts-button').hidden = true;
   $('area-mode').disabled = false;
   if (!$('demo-cases')) {
     $('demo-button').hidden = true;

@@ -275,6 +275,14 @@ pub const WEIGHT_NAMES: &[&str] = &[
     "vaegt",
     "vekt",
     "antall",
+    // people at a point (a population file given as counts)
+    "residents",
+    "inhabitants",
+    "einwohner",
+    "habitants",
+    "habitantes",
+    "abitanti",
+    "inwoners",
 ];
 
 /// Lower case, accents folded ([`fold_latin`]), bracketed parts removed,

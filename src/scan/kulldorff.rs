@@ -12,7 +12,11 @@
 //! * **Poisson**: expected cases in a window `E = C·p_Z/P`. Null: `C` cases
 //!   multinomial over regions with probabilities `p_i/P` (conditional on C).
 //!   For events without controls the population is **area** ("Poisson model
-//!   against area"): `E = n·|Z ∩ W|/|W|`.
+//!   against area"): `E = n·|Z ∩ W|/|W|`. Against **population counts at
+//!   points** (a controls layer with its count column mapped,
+//!   [`ScanModel::PoissonPopulation`]) the regions are the population
+//!   points, each case counted at its nearest point with a count above 0
+//!   ([`ScanJob::from_population`]).
 //!
 //! # Windows
 //! A window is centred on a region and grows through the regions sorted by
@@ -81,8 +85,12 @@ pub enum ScanModel {
     Auto,
     /// Cases versus controls.
     Bernoulli,
-    /// Cases versus population (area for bare events).
+    /// Events against area (Poisson): every km² of the study area is
+    /// assumed to hold the same risk.
     Poisson,
+    /// Cases against population counts at points (Poisson): a controls
+    /// layer whose count column is mapped ([`Pattern::weight`]).
+    PoissonPopulation,
 }
 
 impl ScanModel {
@@ -90,6 +98,7 @@ impl ScanModel {
     pub fn describe(self) -> &'static str {
         match self {
             ScanModel::Bernoulli => "cases against controls (Bernoulli)",
+            ScanModel::PoissonPopulation => "cases against the population counts (Poisson)",
             _ => "events against area (Poisson)",
         }
     }
@@ -143,13 +152,14 @@ impl crate::params::Params for ScanOptions {
         vec![
             Field::choice(
                 "model",
-                &["auto", "bernoulli", "poisson"],
-                "auto: cases against controls (Bernoulli) when controls are loaded, else events against area (Poisson)",
+                &["auto", "bernoulli", "poisson", "poisson_population"],
+                "auto: cases against the population counts (poisson_population) when the population file has a count column, \
+                 cases against controls (bernoulli) when it has one row per person, else events against area (poisson)",
             ),
             Field::choice(
                 "centres",
                 &["auto", "events", "grid"],
-                "where circles are centred: at events, or at cells of a grid",
+                "where circles are centred: at events (at the population points against population counts), or at cells of a grid",
             ),
             Field::integer("cells_long_side", "grid cells along the longer side for grid regions")
                 .range(2.0, 512.0),
@@ -222,6 +232,11 @@ pub struct ScanResult {
     pub critical_99: Option<f64>,
     /// For grid regions: the cell side, metres.
     pub cell_m: Option<f64>,
+    /// Against population counts: the farthest any case lies from the
+    /// population point it is counted at, metres (`None` for other models).
+    /// Far more than the spacing of the points says the population file
+    /// does not cover where cases are.
+    pub case_to_population_max_m: Option<f64>,
 }
 
 /// Progress after a batch.
@@ -297,6 +312,8 @@ pub struct ScanJob {
     cell_m: Option<f64>,
     total_cases: u64,
     total_pop: f64,
+    /// Against population counts: farthest case from its point, metres.
+    case_to_population_max_m: Option<f64>,
     /// Flat neighbour lists: `list[start[i]..start[i+1]]` for centre i.
     start: Vec<usize>,
     list: Vec<u32>,
@@ -347,13 +364,83 @@ impl ScanJob {
         window: &Window,
         o: &ScanOptions,
     ) -> Result<ScanJob, AnalysisError> {
-        ScanJob::from_points(
-            events.x(),
-            events.y(),
-            controls.map(|c| (c.x(), c.y())),
-            window,
-            o,
-        )
+        let counts = controls.and_then(|c| c.weights_or_zero());
+        match (
+            resolve_model(o.model, controls.is_some(), counts.is_some())?,
+            controls,
+        ) {
+            (ScanModel::PoissonPopulation, Some(c)) => ScanJob::from_population(
+                events.x(),
+                events.y(),
+                (c.x(), c.y()),
+                counts.as_deref().unwrap_or(&[]),
+                window,
+                o,
+            ),
+            (model, _) => ScanJob::from_points(
+                events.x(),
+                events.y(),
+                controls.map(|c| (c.x(), c.y())),
+                window,
+                &ScanOptions { model, ..*o },
+            ),
+        }
+    }
+
+    /// Cases `(x, y)` against population counts at points `(px, py)`
+    /// (Poisson model; Kulldorff 1997). A count that is not finite or not
+    /// more than 0 adds nothing (a missing count counts 0); points at the
+    /// same location are merged. Each case is counted at its nearest
+    /// population point with a count above 0 (the block it lies in, taken
+    /// as the nearest centroid). Circles are centred at the population
+    /// points (`centres: events` or `auto` up to 2 000 points) or at the
+    /// cells of a grid into which points and their cases are summed.
+    /// Expected cases in a circle `E = C·P_in/P`; replicates spread the `C`
+    /// cases multinomially over the points in proportion to their counts.
+    pub fn from_population(
+        x: &[f64],
+        y: &[f64],
+        population: (&[f64], &[f64]),
+        counts: &[f64],
+        region: &Window,
+        o: &ScanOptions,
+    ) -> Result<ScanJob, AnalysisError> {
+        if !matches!(o.model, ScanModel::Auto | ScanModel::PoissonPopulation) {
+            return Err(bad(
+                "model",
+                "population counts are scanned with the model poisson_population",
+            ));
+        }
+        let (px, py) = population;
+        if x.len() != y.len() || px.len() != py.len() || px.len() != counts.len() {
+            return Err(bad(
+                "population",
+                "the coordinate and count lists differ in length",
+            ));
+        }
+        if x.is_empty() {
+            return Err(AnalysisError::TooFewPoints {
+                needed: 1,
+                found: 0,
+            });
+        }
+        let (regions, farthest) = population_regions(x, y, px, py, counts)?;
+        let use_points = match o.centres {
+            ScanCentres::Events => true,
+            ScanCentres::Grid => false,
+            ScanCentres::Auto => regions.x.len() <= 2000,
+        };
+        let (regions, centres, cell) = if use_points {
+            (regions, ScanCentres::Events, None)
+        } else {
+            let (r, c) = sum_into_cells(&regions, region, o.cells_long_side)?;
+            (r, ScanCentres::Grid, Some(c))
+        };
+        let mut job = ScanJob::from_regions(&regions, ScanModel::PoissonPopulation, o)?;
+        job.centres_kind = centres;
+        job.cell_m = cell;
+        job.case_to_population_max_m = Some(farthest);
+        Ok(job)
     }
 
     /// Point data: cases `(x, y)`, optional controls, study area.
@@ -371,6 +458,9 @@ impl ScanJob {
                     "model",
                     "the case–control (Bernoulli) model needs a controls file",
                 ))
+            }
+            (ScanModel::PoissonPopulation, _) => {
+                return Err(bad("model", NEEDS_COUNTS));
             }
             _ => ScanModel::Poisson,
         };
@@ -453,7 +543,7 @@ impl ScanJob {
                     format!("region {} has more cases than people", i + 1),
                 ));
             }
-            if model == ScanModel::Poisson && p == 0.0 && r.cases[i] > 0 {
+            if model != ScanModel::Bernoulli && p == 0.0 && r.cases[i] > 0 {
                 return Err(bad(
                     "regions",
                     format!("region {} has cases but no population (or area)", i + 1),
@@ -542,6 +632,7 @@ impl ScanJob {
             cell_m: None,
             total_cases,
             total_pop,
+            case_to_population_max_m: None,
             start,
             list,
             pop_at,
@@ -852,6 +943,7 @@ impl ScanJob {
             clusters,
             null_maxima: self.null_max,
             cell_m: self.cell_m,
+            case_to_population_max_m: self.case_to_population_max_m,
         }
     }
 
@@ -859,6 +951,144 @@ impl ScanJob {
     pub fn regions(&self) -> &ScanRegions {
         &self.regions
     }
+
+    /// Cases expected at each region under the null, `C·p_i/P` (Bernoulli:
+    /// `C·n_i/N`); a window's expected count is the sum over its regions.
+    pub fn expected_per_region(&self) -> Vec<f64> {
+        let cc = self.total_cases as f64;
+        self.regions
+            .population
+            .iter()
+            .map(|&p| cc * p / self.total_pop)
+            .collect()
+    }
+}
+
+const NEEDS_COUNTS: &str = "the model against population counts (poisson_population) needs a \
+     population file with a count column mapped (people at each point)";
+
+/// The model a scan runs: `Auto` resolved from what is loaded (a controls
+/// layer, and whether its count column is mapped), an impossible choice an
+/// error.
+pub fn resolve_model(
+    model: ScanModel,
+    has_controls: bool,
+    has_counts: bool,
+) -> Result<ScanModel, AnalysisError> {
+    match (model, has_controls, has_counts) {
+        (ScanModel::Auto, true, true) | (ScanModel::PoissonPopulation, true, true) => {
+            Ok(ScanModel::PoissonPopulation)
+        }
+        (ScanModel::PoissonPopulation, _, _) => Err(bad("model", NEEDS_COUNTS)),
+        (ScanModel::Auto, true, false) | (ScanModel::Bernoulli, true, false) => {
+            Ok(ScanModel::Bernoulli)
+        }
+        (ScanModel::Bernoulli, true, true) => Err(bad(
+            "model",
+            "the case–control (Bernoulli) model needs one control per person, but the \
+             population file has a count column: use poisson_population, or unmap the count \
+             column if each row is one person",
+        )),
+        (ScanModel::Bernoulli, false, _) => Err(bad(
+            "model",
+            "the case–control (Bernoulli) model needs a controls file",
+        )),
+        (ScanModel::Auto, false, _) | (ScanModel::Poisson, _, _) => Ok(ScanModel::Poisson),
+    }
+}
+
+/// Population points as regions: counts above 0 only (others add nothing),
+/// points at one location merged, each case counted at its nearest point
+/// (ties to the lower index, see [`crate::index::GridIndex::nearest`]).
+/// Also returns the farthest distance from a case to its point, metres.
+fn population_regions(
+    x: &[f64],
+    y: &[f64],
+    px: &[f64],
+    py: &[f64],
+    counts: &[f64],
+) -> Result<(ScanRegions, f64), AnalysisError> {
+    use std::collections::HashMap;
+    let mut at: HashMap<(u64, u64), usize> = HashMap::new();
+    let mut r = ScanRegions::default();
+    for i in 0..px.len() {
+        let w = counts[i];
+        if !(w.is_finite() && w > 0.0) {
+            continue;
+        }
+        if !(px[i].is_finite() && py[i].is_finite()) {
+            return Err(bad(
+                "population",
+                format!("population point {} has a bad location", i + 1),
+            ));
+        }
+        // `+ 0.0` so that 0.0 and −0.0 are one place.
+        let key = ((px[i] + 0.0).to_bits(), (py[i] + 0.0).to_bits());
+        let k = *at.entry(key).or_insert_with(|| {
+            r.x.push(px[i]);
+            r.y.push(py[i]);
+            r.cases.push(0);
+            r.population.push(0.0);
+            r.x.len() - 1
+        });
+        r.population[k] += w;
+    }
+    if r.x.is_empty() {
+        return Err(bad(
+            "population",
+            "every population count is 0 or missing: there is no one at risk",
+        ));
+    }
+    let index = crate::index::GridIndex::new(&r.x, &r.y);
+    let mut farthest = 0.0f64;
+    for i in 0..x.len() {
+        let (k, d) = index
+            .nearest(x[i], y[i])
+            .ok_or_else(|| bad("events", format!("event {} has a bad location", i + 1)))?;
+        r.cases[k] += 1;
+        farthest = farthest.max(d);
+    }
+    Ok((r, farthest))
+}
+
+/// Regions summed into square cells (`cells_long_side` along the longer
+/// side of the area's bounding box): each cell, at its centre, holds the
+/// cases and population of the regions whose locations lie in it; empty
+/// cells are dropped.
+fn sum_into_cells(
+    r: &ScanRegions,
+    region: &Window,
+    cells_long_side: usize,
+) -> Result<(ScanRegions, f64), AnalysisError> {
+    if !(2..=512).contains(&cells_long_side) {
+        return Err(bad("cells_long_side", "must be between 2 and 512"));
+    }
+    let g = crate::intensity::GridOptions {
+        cells_long_side,
+        cell_m: None,
+    };
+    let (x0, y0, cell, nx, ny) = g.layout(region.bbox()).map_err(|d| bad("grid", d))?;
+    let mut cases = vec![0u32; nx * ny];
+    let mut pop = vec![0.0; nx * ny];
+    for k in 0..r.x.len() {
+        let i = (((r.x[k] - x0) / cell).floor().max(0.0) as usize).min(nx - 1);
+        let j = (((r.y[k] - y0) / cell).floor().max(0.0) as usize).min(ny - 1);
+        cases[j * nx + i] += r.cases[k];
+        pop[j * nx + i] += r.population[k];
+    }
+    let mut out = ScanRegions::default();
+    for j in 0..ny {
+        for i in 0..nx {
+            let k = j * nx + i;
+            if pop[k] > 0.0 {
+                out.x.push(x0 + (i as f64 + 0.5) * cell);
+                out.y.push(y0 + (j as f64 + 0.5) * cell);
+                out.cases.push(cases[k]);
+                out.population.push(pop[k]);
+            }
+        }
+    }
+    Ok((out, cell))
 }
 
 /// One region per distinct location; cases counted, population = cases +
@@ -963,3 +1193,5 @@ fn grid_regions(
 
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_population;

@@ -8,7 +8,7 @@ pub mod kulldorff;
 pub mod report;
 
 pub use kulldorff::{
-    llr_bernoulli, llr_poisson, ScanCentres, ScanCluster, ScanCost, ScanFaster, ScanJob, ScanModel,
-    ScanOptions, ScanRegions, ScanResult,
+    llr_bernoulli, llr_poisson, resolve_model, ScanCentres, ScanCluster, ScanCost, ScanFaster,
+    ScanJob, ScanModel, ScanOptions, ScanRegions, ScanResult,
 };
 pub use report::{ScanClusterReport, ScanReport};

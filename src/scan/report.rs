@@ -46,6 +46,9 @@ pub struct ScanReport {
     pub critical_95: Option<f64>,
     pub critical_99: Option<f64>,
     pub cell_m: Option<f64>,
+    /// Against population counts: the farthest any case lies from the
+    /// population point it is counted at, metres (`null` otherwise).
+    pub case_to_population_max_m: Option<f64>,
     pub clusters: Vec<ScanClusterReport>,
     pub null_maxima: Vec<f64>,
 }
@@ -100,6 +103,7 @@ impl ScanReport {
             critical_95: r.critical_95,
             critical_99: r.critical_99,
             cell_m: r.cell_m,
+            case_to_population_max_m: r.case_to_population_max_m,
             clusters,
             null_maxima: r.null_maxima,
         }

@@ -19,7 +19,7 @@ use crate::intensity::{
     kernel_surface, BandwidthMethod, EdgeCorrection, IntensitySurface, Kernel, SurfaceParams,
 };
 use crate::privacy::disclosure::{distances_to_kth, surface_disclosure, SurfaceDisclosure};
-use crate::scan::{ScanJob, ScanOptions, ScanReport};
+use crate::scan::{resolve_model, ScanJob, ScanModel, ScanOptions, ScanReport};
 use crate::study::Study;
 use js_sys::{Float64Array, Int32Array, Object, Uint8Array};
 use serde::Serialize;
@@ -106,7 +106,11 @@ struct ClusterOut<'a> {
 #[wasm_bindgen]
 impl Session {
     /// What the hotspot panel needs to know about the loaded data:
-    /// `{n_events, has_weights, has_controls, geographic}`.
+    /// `{n_events, has_weights, has_controls, has_population_counts,
+    /// geographic, scan_model, scan_model_text}`: `has_population_counts`
+    /// when the controls' count column is mapped; `scan_model` the model
+    /// the scan picks from what is loaded (`model: "auto"`), in words in
+    /// `scan_model_text`.
     #[wasm_bindgen(js_name = hotspotsInfo, unchecked_return_type = "HotspotsInfo")]
     pub fn hotspots_info(&self) -> Result<JsValue, JsValue> {
         #[derive(Serialize)]
@@ -114,14 +118,24 @@ impl Session {
             n_events: usize,
             has_weights: bool,
             has_controls: bool,
+            has_population_counts: bool,
             geographic: bool,
+            scan_model: ScanModel,
+            scan_model_text: &'static str,
         }
         let s = self.study_ref()?;
+        let has_controls = s.controls.is_some();
+        let has_counts = s.controls.as_ref().is_some_and(|c| c.weight().is_some());
+        let model = resolve_model(ScanModel::Auto, has_controls, has_counts)
+            .map_err(|e| analysis_error(&e))?;
         to_js(&Info {
             n_events: s.events.len(),
             has_weights: s.events.weight().is_some(),
             has_controls: s.controls.as_ref().is_some_and(|c| !c.is_empty()),
+            has_population_counts: has_counts,
             geographic: s.projection.is_geographic(),
+            scan_model: model,
+            scan_model_text: model.describe(),
         })
     }
 
@@ -326,12 +340,14 @@ impl Session {
     }
 
     /// Prepares Kulldorff's scan (windows enumerated, data scored):
-    /// options `{model, max_share, n_sim, seed, cells_long_side,
-    /// max_secondary}`. Times a few chance runs (up to 25 ms or 50 runs,
-    /// then forgotten) and returns `{total, n_windows, n_regions,
-    /// estimate_ms, cost}`: `estimate_ms` is the time of the chance runs
-    /// left, `cost` the timing and the faster settings with their own
-    /// estimates ([`crate::scan::ScanCost`]). A scan already prepared or
+    /// options `{model, centres, max_share, n_sim, seed, cells_long_side,
+    /// max_secondary}`; `model` `"auto"` picks from what is loaded (see
+    /// `hotspotsInfo`), `"poisson_population"` without a population file
+    /// whose count column is mapped is a `bad_parameter` error. Times a few
+    /// chance runs (up to 25 ms or 50 runs, then forgotten) and returns
+    /// `{total, n_windows, n_regions, estimate_ms, cost}`: `estimate_ms` is
+    /// the time of the chance runs left, `cost` the timing and the faster
+    /// settings with their own estimates ([`crate::scan::ScanCost`]). A scan already prepared or
     /// running is dropped.
     #[wasm_bindgen(js_name = scanStart, unchecked_return_type = "ScanStarted")]
     pub fn scan_start(

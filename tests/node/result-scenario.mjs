@@ -151,6 +151,17 @@ export function runScenario() {
     new TextEncoder().encode(JSON.stringify({ type: 'FeatureCollection', features })), {}));
   gj.free();
 
+  // 5. The population as counts at points (population-blocks.csv).
+  const pc = new cloister.Session();
+  pc.loadArea(file('demo-data/town-boundary.geojson'), {});
+  pc.loadEvents(file('demo-data/cases.csv'), {});
+  record('loadControls', 'population counts', pc.loadControls(file('demo-data/population-blocks.csv'), {}));
+  record('hotspotsInfo', 'population counts', pc.hotspotsInfo());
+  const pcs = pc.scanStart({ n_sim: 9, seed: 2 });
+  pc.scanStep(pcs.total);
+  record('scanFinish', 'population counts', pc.scanFinish());
+  pc.free();
+
   record('parameterSpec', 'all', cloister.parameterSpec());
   record('parameterSpec', 'one', cloister.parameterSpec('maskDonut'));
   record('version', '', cloister.version());

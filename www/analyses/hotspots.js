@@ -432,9 +432,14 @@ export function mountHotspots(C) {
   function renderModel() {
     const info = state.info;
     if (!info) { modelText.textContent = ''; return; }
-    modelText.replaceChildren(...(info.has_controls
-      ? ['Model: cases against the population-at-risk file (', C.term('bernoulli', 'Bernoulli'), '). Expected counts come from the controls in each circle.']
-      : ['Model: events against area (', C.term('poisson', 'Poisson'), '). With no population file every km² is assumed to hold the same risk, so a crowded district looks like an excess. Load a population file to compare with where people are.']));
+    // The engine picks the model from what is loaded (hotspotsInfo.scan_model).
+    const model = info.scan_model || (info.has_controls ? 'bernoulli' : 'poisson');
+    modelText.dataset.model = model;
+    modelText.replaceChildren(...(model === 'poisson_population'
+      ? ['Model: cases against the population counts (', C.term('poisson_population', 'Poisson'), '). The population file gives a number of people at each point; a circle is expected to hold the cases\u2019 share of the people in it. Each case is counted at its nearest population point, and circles are centred at the population points.']
+      : model === 'bernoulli'
+        ? ['Model: cases against controls (', C.term('bernoulli', 'Bernoulli'), '). Expected counts come from the controls in each circle (one row of the population file is one person; map a count column to give people per point).']
+        : ['Model: events against area (', C.term('poisson', 'Poisson'), '). With no population file every km² is assumed to hold the same risk, so a crowded district looks like an excess. Load a population file to compare with where people are.']));
   }
 
   scanBtn.addEventListener('click', () => runScan());
@@ -549,7 +554,11 @@ export function mountHotspots(C) {
     const dl = el('dl', { class: 'figures' });
     const add = (t, v, key) => dl.append(el('dt', null, t), el('dd', key ? { 'data-key': key } : null, v));
     add('Model', r.model_text);
-    add('Regions and circles', `${fmt(r.n_regions)} ${r.centres === 'grid' ? `grid cells of ${fmtMetres(r.cell_m)}` : 'locations'}, ${fmt(r.n_windows)} circles`);
+    add('Regions and circles', `${fmt(r.n_regions)} ${r.centres === 'grid' ? `grid cells of ${fmtMetres(r.cell_m)}` : (r.model === 'poisson_population' ? 'population points' : 'locations')}, ${fmt(r.n_windows)} circles`);
+    if (r.model === 'poisson_population') {
+      add('People counted', fmt(r.total_population), 'scan-people');
+      add('Cases to their population point', `at most ${fmtMetres(r.case_to_population_max_m)} (each case is counted at its nearest point with people; far more than the points' spacing means the population file misses where cases are)`, 'scan-reach');
+    }
     add('Strongest excess', clusters.length ? el('span', null, `strength ${fmt(r.statistic, 4)} (`, C.term('llr', 'log-likelihood ratio'), `), p = ${fmtP(num(r.p_value), nSim)}`) : 'no circle holds more than expected', 'scan-p');
     add('Chance runs, seed', `${fmt(nSim)}, seed ${String(r.seed)}`, 'scan-seed');
     scanOut.append(dl);
