@@ -81,9 +81,9 @@ pub const RHO_CAP: f64 = 6.907_755_278_982_137; // ln 1000
 #[serde(rename_all = "snake_case")]
 pub enum RiskBandwidth {
     /// Normal-reference rule on the pooled locations.
-    #[default]
     PooledRule,
     /// Likelihood cross-validation of the binary regression (Kelsall & Diggle 1998).
+    #[default]
     LikelihoodCv,
     /// `fixed_m` metres.
     Fixed,
@@ -129,7 +129,7 @@ pub struct RiskSurfaceOptions {
 impl Default for RiskSurfaceOptions {
     fn default() -> Self {
         RiskSurfaceOptions {
-            method: RiskBandwidth::PooledRule,
+            method: RiskBandwidth::LikelihoodCv,
             fixed_m: None,
             candidates: 15,
             edge: EdgeCorrection::Uniform,
@@ -344,8 +344,7 @@ impl RiskSurfaceJob {
         use crate::params::Params;
         opts.validate_in(None)?;
         let (n1, n0) = (cases.0.len(), controls.0.len());
-        if cases.1.len() != n1 || controls.1.len() != n0 || weights.is_some_and(|w| w.len() != n0)
-        {
+        if cases.1.len() != n1 || controls.1.len() != n0 || weights.is_some_and(|w| w.len() != n0) {
             return Err(bad("points", "coordinate lists differ in length"));
         }
         if n1 < 2 || n0 < 2 {
@@ -399,7 +398,12 @@ impl RiskSurfaceJob {
         let h = match opts.method {
             RiskBandwidth::Fixed => match opts.fixed_m {
                 Some(h) if h > 0.0 && h.is_finite() => h,
-                _ => return Err(bad("fixed_m", "a fixed bandwidth must be a positive number of metres")),
+                _ => {
+                    return Err(bad(
+                        "fixed_m",
+                        "a fixed bandwidth must be a positive number of metres",
+                    ))
+                }
             },
             RiskBandwidth::PooledRule => normal_reference(&px, &py)?,
             RiskBandwidth::LikelihoodCv => {
@@ -407,9 +411,8 @@ impl RiskSurfaceJob {
                 let lo = (0.1 * r).max(cv.cell);
                 let hi = (2.0 * r).max(2.0 * lo);
                 let hs = ladder(lo, hi, opts.candidates);
-                let crit = crate::progress::part(0.0, 0.8, || {
-                    likelihood_cv(&cv, &px, &py, &cum, n1, &hs)
-                });
+                let crit =
+                    crate::progress::part(0.0, 0.8, || likelihood_cv(&cv, &px, &py, &cum, n1, &hs));
                 let best = crit
                     .iter()
                     .enumerate()
@@ -729,9 +732,14 @@ impl RiskSurfaceJob {
         let raised = contour(&up, level);
         let lowered = contour(&down, level);
         let n_est = cells.len().max(1) as f64;
-        let raised_share = (0..n).filter(|&k| est(k) && p_value[k] <= tol + 1e-12).count() as f64 / n_est;
-        let lowered_share =
-            (0..n).filter(|&k| est(k) && p_value[k] >= 1.0 - tol - 1e-12).count() as f64 / n_est;
+        let raised_share = (0..n)
+            .filter(|&k| est(k) && p_value[k] <= tol + 1e-12)
+            .count() as f64
+            / n_est;
+        let lowered_share = (0..n)
+            .filter(|&k| est(k) && p_value[k] >= 1.0 - tol - 1e-12)
+            .count() as f64
+            / n_est;
         let t_ge = self.t_sims.iter().filter(|&&t| t >= self.t_obs).count();
         let t_p = (1.0 + t_ge as f64) / (m as f64 + 1.0);
         let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
@@ -766,8 +774,12 @@ impl RiskSurfaceJob {
                     let cx = pts.iter().map(|p| p[0]).sum::<f64>() / pts.len() as f64;
                     let cy = pts.iter().map(|p| p[1]).sum::<f64>() / pts.len() as f64;
                     // Extreme ratio over estimated cells whose centre is in the ring's bbox and ring.
-                    let (mut bx0, mut by0, mut bx1, mut by1) =
-                        (f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY);
+                    let (mut bx0, mut by0, mut bx1, mut by1) = (
+                        f64::INFINITY,
+                        f64::INFINITY,
+                        f64::NEG_INFINITY,
+                        f64::NEG_INFINITY,
+                    );
                     for p in pts {
                         bx0 = bx0.min(p[0]);
                         by0 = by0.min(p[1]);
@@ -802,6 +814,9 @@ impl RiskSurfaceJob {
                     })
                 })
                 .collect();
+            // Marching squares can leave slivers of no area: not places.
+            let min_km2 = 0.25 * self.cv.cell * self.cv.cell / PER_KM2;
+            out.retain(|r| r.area_km2 >= min_km2);
             out.sort_by(|a, b| b.area_km2.total_cmp(&a.area_km2));
             out
         };
@@ -825,14 +840,7 @@ impl RiskSurfaceJob {
         if let Some(w) = self.privacy.as_ref().and_then(|p| p.warning.clone()) {
             warnings.push(w);
         }
-        let verdict = verdict(
-            t_p,
-            m,
-            tol,
-            &raised_regions,
-            &lowered_regions,
-            raised_share,
-        );
+        let verdict = verdict(t_p, m, tol, &raised_regions, &lowered_regions, raised_share);
         RiskSurfaceResult {
             x0,
             y0,
@@ -1155,7 +1163,11 @@ mod tests {
         let (x, y) = pts(80, 4, 500.0, 500.0, 990.0);
         let job = RiskSurfaceJob::new((&x, &y), (&cx, &cy), None, &square(), &opts()).unwrap();
         let r = job.finish();
-        let few = r.class.iter().filter(|&&c| c == class::FEW_CONTROLS).count();
+        let few = r
+            .class
+            .iter()
+            .filter(|&&c| c == class::FEW_CONTROLS)
+            .count();
         assert!(few > r.nx * r.ny / 4, "{few}");
         // The far right column is masked, never estimated.
         for j in 0..r.ny {
