@@ -228,11 +228,15 @@ pub struct RiskSurfaceResult {
     pub nx: usize,
     pub ny: usize,
     /// `ρ̂` per cell (row-major, row 0 south); 0 where `class` is not
-    /// [`class::ESTIMATED`] (no meaning there).
+    /// [`class::ESTIMATED`] (no meaning there). The three grids are not
+    /// serialised: the JS API sends them as typed arrays.
+    #[serde(skip)]
     pub log_rr: Vec<f64>,
     /// [`class`] per cell.
+    #[serde(skip)]
     pub class: Vec<u8>,
     /// Pointwise Monte Carlo p per cell; 1 where not estimated (no meaning).
+    #[serde(skip)]
     pub p_value: Vec<f64>,
     /// Raised-risk tolerance contour (`p ≤ tolerance`), metres.
     pub raised: Contour,
@@ -1030,7 +1034,7 @@ fn likelihood_cv(
                 let (a, b) = (a.max(0.0), b.max(0.0));
                 let s = a + b;
                 let p = if i < n1 { a / s } else { b / s };
-                if !(p > 0.0) {
+                if p.is_nan() || p <= 0.0 {
                     return None;
                 }
                 ll += w * p.ln();

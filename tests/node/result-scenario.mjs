@@ -55,6 +55,10 @@ export function runScenario() {
   record('labellingStep', '10', s.labellingStep(10));
   s.labellingStep(lab.total);
   record('labellingFinish', 'demo', s.labellingFinish());
+  const rs = record('riskSurfaceStart', 'demo, 9', s.riskSurfaceStart({ n_sim: 9, seed: 4, cells: 64 }));
+  record('riskSurfaceStep', '3', s.riskSurfaceStep(3));
+  s.riskSurfaceStep(rs.total);
+  record('riskSurfaceFinish', 'demo', s.riskSurfaceFinish());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());
