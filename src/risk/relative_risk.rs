@@ -835,6 +835,13 @@ impl RiskSurfaceJob {
                 self.h, self.cv.cell
             ));
         }
+        if ((m + 1) as f64) * tol < 1.0 - 1e-9 {
+            warnings.push(format!(
+                "with {m} random labellings the smallest possible p is {:.3}, above the level {tol}: no place can be flagged; use at least {} labellings",
+                1.0 / (m as f64 + 1.0),
+                (1.0 / tol).ceil() as usize - 1
+            ));
+        }
         if masked_share > 0.25 {
             warnings.push(format!(
                 "{:.0} % of the study area has too few controls for a ratio (grey): the population file may not cover the whole area",
@@ -976,7 +983,8 @@ fn verdict(
         format!("No place is flagged as raised at the pointwise {level:.0} % level.")
     } else {
         let more = if raised.len() > 4 {
-            format!(" and {} smaller places", raised.len() - 4)
+            let k = raised.len() - 4;
+            format!(" and {k} smaller place{}", if k == 1 { "" } else { "s" })
         } else {
             String::new()
         };

@@ -1,0 +1,109 @@
+// "Compared with the population": the relative-risk surface on the demo in
+// the page: drawn on the map with its legend, verdict in words, a long run
+// cancelled, the contours exported with no case or control location.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { launch, openPage, loadDemo, act, frame, settle, outDir, DEMO_DIR } from './helpers.mjs';
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+async function mapPixels(page, name) {
+  await frame(page);
+  return page.evaluate((name) => {
+    const c = document.getElementById('map');
+    window.__px = window.__px || {};
+    window.__px[name] = c.getContext('2d').getImageData(0, 0, c.width, c.height).data;
+    return c.width * c.height;
+  }, name);
+}
+
+async function changed(page, a, b) {
+  return page.evaluate(([a, b]) => {
+    const p = window.__px[a], q = window.__px[b];
+    if (p.length !== q.length) return p.length / 4;
+    let n = 0;
+    for (let i = 0; i < p.length; i += 4) if (p[i] !== q[i] || p[i + 1] !== q[i + 1] || p[i + 2] !== q[i + 2]) n++;
+    return n;
+  }, [a, b]);
+}
+
+test('relative-risk surface on the demo: map layer, legend in risk ratios, pointwise label, verdict, export without locations', async () => {
+  const { page, log } = await openPage(browser, { height: 1000 });
+  assert.equal(await page.isDisabled('#rr-run'), true, 'nothing loaded: cannot run');
+  await loadDemo(page);
+  assert.equal(await page.isDisabled('#rr-run'), false);
+  const total = await mapPixels(page, 'before');
+  await page.fill('#rr-nsim', '19');
+  await page.fill('#rr-seed', '3');
+  await page.selectOption('#rr-cells', '128');
+  await page.click('#rr-run');
+  await page.waitForFunction(() => !document.getElementById('rr-result').hidden, null, { timeout: 120000 });
+  await settle(page);
+  const verdict = await page.textContent('#rr-verdict');
+  // Same settings as the Node test (tests/node/risk-surface.test.mjs).
+  assert.match(verdict, /^The risk is not the same everywhere: the global test of constant risk gives p = 0\.050 \(19 random labellings\)\./);
+  assert.match(verdict, /A raised risk is not a cause\./);
+  assert.match(await page.textContent('#rr-progress-text'), /19 random labellings done/);
+  // Legend in risk ratios (not logs), the masked class and the POINTWISE lines.
+  const legend = await page.textContent('#rr-legend');
+  assert.match(legend, /below 0\.5/);
+  assert.match(legend, /2 or more/);
+  assert.match(legend, /too few controls/);
+  assert.match(legend, /POINTWISE raised risk/);
+  assert.match(await page.textContent('#rr-pointwise'), /POINTWISE/);
+  assert.match(await page.textContent('#legend'), /Risk ratio: blue lower, orange higher/);
+  assert.match(await page.textContent('#legend'), /Raised risk, POINTWISE/);
+  assert.match(await page.textContent('#rr-details'), /1,500 events, 3,000 controls/);
+  // The layer changes the map; hiding it gives the map back.
+  await mapPixels(page, 'surface');
+  const diff = await changed(page, 'before', 'surface');
+  assert.ok(diff > total * 0.05, `the surface changes at least 5 % of the map's pixels (${diff})`);
+  await page.locator('#map-panel').screenshot({ path: join(outDir(), 'risk-surface-map.png') });
+  await page.uncheck('#rr-show');
+  await mapPixels(page, 'hidden');
+  assert.equal(await changed(page, 'before', 'hidden'), 0, 'hidden surface leaves no trace');
+  await page.check('#rr-show');
+  // Export: a download made in the page, contours only.
+  const [download] = await Promise.all([page.waitForEvent('download'), page.click('#rr-export')]);
+  assert.match(download.suggestedFilename(), /^cloister-risk-contours-\d{4}-\d{2}-\d{2}-seed3\.geojson$/);
+  const text = readFileSync(await download.path(), 'utf8');
+  const gj = JSON.parse(text);
+  assert.deepEqual(gj.features.map((f) => f.properties.kind), ['raised', 'lowered', 'too_few_controls']);
+  assert.ok(gj.features[0].geometry.coordinates.length >= 3, 'a raised contour at each planted cluster at least');
+  const places = new Set();
+  for (const f of ['cases.csv', 'population.csv']) {
+    for (const line of readFileSync(join(DEMO_DIR, f), 'utf8').split('\n').slice(1)) {
+      const m = line.match(/(-\d+\.\d{6}),(-\d+\.\d{6})/);
+      if (m) places.add(`${m[1]},${m[2]}`);
+    }
+  }
+  let vertices = 0;
+  for (const f of gj.features) for (const poly of f.geometry.coordinates) for (const ring of poly) for (const [lon, lat] of ring) {
+    vertices++;
+    assert.ok(!places.has(`${lon.toFixed(6)},${lat.toFixed(6)}`), `a vertex is an original location: ${lon}, ${lat}`);
+  }
+  assert.ok(vertices > 50);
+  assert.deepEqual(log.pageErrors, []);
+});
+
+test('a long relative-risk run can be cancelled, and what was loaded stays', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  await page.fill('#rr-nsim', '1999');
+  await page.fill('#rr-seed', '5');
+  await page.click('#rr-run');
+  await page.waitForFunction(() => Number(document.getElementById('rr-progress').value) >= 5, null, { timeout: 120000 });
+  await page.click('#rr-cancel');
+  await page.waitForFunction(() => document.getElementById('rr-progress-text').textContent === 'Cancelled.', null, { timeout: 5000 });
+  assert.equal(await page.isDisabled('#rr-run'), false);
+  assert.equal(await page.isVisible('#rr-result'), false);
+  // The data are still there: a short run works afterwards.
+  await page.fill('#rr-nsim', '19');
+  await page.click('#rr-run');
+  await page.waitForFunction(() => !document.getElementById('rr-result').hidden, null, { timeout: 120000 });
+  assert.deepEqual(log.pageErrors, []);
+});
