@@ -733,17 +733,35 @@ impl RiskSurfaceJob {
         let down = grid_of(&|k| p_value[k]);
         // A small allowance so cells exactly at the level are inside.
         let level = 1.0 - tol - 1e-9;
-        let raised = contour(&up, level);
-        let lowered = contour(&down, level);
+        // With fewer than 1/tol − 1 labellings no cell can reach p ≤ tol, and
+        // p ≥ 1 − tol would only mean "every labelling at least as high", a
+        // chance of 1/(m + 1) > tol: neither line is drawn (see the warning).
+        let enough = ((m + 1) as f64) * tol >= 1.0 - 1e-9;
+        let none = || Contour {
+            level,
+            percent_volume: None,
+            polygons: vec![],
+            area_km2: 0.0,
+        };
+        let raised = if enough { contour(&up, level) } else { none() };
+        let lowered = if enough {
+            contour(&down, level)
+        } else {
+            none()
+        };
         let n_est = cells.len().max(1) as f64;
         let raised_share = (0..n)
             .filter(|&k| est(k) && p_value[k] <= tol + 1e-12)
             .count() as f64
             / n_est;
-        let lowered_share = (0..n)
-            .filter(|&k| est(k) && p_value[k] >= 1.0 - tol - 1e-12)
-            .count() as f64
-            / n_est;
+        let lowered_share = if enough {
+            (0..n)
+                .filter(|&k| est(k) && p_value[k] >= 1.0 - tol - 1e-12)
+                .count() as f64
+                / n_est
+        } else {
+            0.0
+        };
         let t_ge = self.t_sims.iter().filter(|&&t| t >= self.t_obs).count();
         let t_p = (1.0 + t_ge as f64) / (m as f64 + 1.0);
         let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
@@ -835,9 +853,9 @@ impl RiskSurfaceJob {
                 self.h, self.cv.cell
             ));
         }
-        if ((m + 1) as f64) * tol < 1.0 - 1e-9 {
+        if !enough {
             warnings.push(format!(
-                "with {m} random labellings the smallest possible p is {:.3}, above the level {tol}: no place can be flagged; use at least {} labellings",
+                "with {m} random labellings the smallest possible p is {:.3}, above the level {tol}: no place can be flagged raised or lowered, and no line is drawn; use at least {} labellings",
                 1.0 / (m as f64 + 1.0),
                 (1.0 / tol).ceil() as usize - 1
             ));
@@ -1166,6 +1184,64 @@ mod tests {
             }
             assert_eq!(c, job.labelling_counts(j), "labelling {j} not reproducible");
         }
+    }
+
+    #[test]
+    fn own_contribution_is_exactly_what_a_lone_point_adds_at_itself() {
+        // The leave-one-out of the cross-validation subtracts this: for a
+        // single binned point, the convolved surface read back at the point
+        // must equal it, wherever the point sits in its cell.
+        let cv = Canvas::new(
+            &square(),
+            &GridOptions {
+                cells_long_side: 40,
+                cell_m: None,
+            },
+        )
+        .unwrap();
+        for h in [30.0, 75.0, 400.0] {
+            let st = Kernel::Gaussian.stencil(h, cv.cell, cv.max_r());
+            for (x, y) in [(500.0, 500.0), (512.3, 488.9), (131.0, 877.7)] {
+                let bins = cv.bin(&[x], &[y], |_| 1.0);
+                let conv = convolve(&bins, cv.nx, cv.ny, &st);
+                let back = cv.interpolate(&conv, x, y);
+                let own = self_contribution(&cv, &st, x, y);
+                assert!(
+                    (back - own).abs() <= 1e-12 * own,
+                    "h {h} at ({x}, {y}): {back} vs {own}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn too_few_labellings_to_flag_anything_is_said() {
+        let (x, y) = pts(80, 5, 500.0, 500.0, 990.0);
+        let (cx, cy) = pts(200, 6, 500.0, 500.0, 990.0);
+        let o = RiskSurfaceOptions { n_sim: 9, ..opts() };
+        let r = RiskSurfaceJob::new((&x, &y), (&cx, &cy), None, &square(), &o)
+            .unwrap()
+            .finish();
+        assert!(r.raised.polygons.is_empty() && r.lowered.polygons.is_empty());
+        assert!(
+            r.warnings
+                .iter()
+                .any(|w| w.contains("no place can be flagged")
+                    && w.contains("at least 19 labellings")),
+            "{:?}",
+            r.warnings
+        );
+        let o = RiskSurfaceOptions {
+            n_sim: 19,
+            ..opts()
+        };
+        let r = RiskSurfaceJob::new((&x, &y), (&cx, &cy), None, &square(), &o)
+            .unwrap()
+            .finish();
+        assert!(!r
+            .warnings
+            .iter()
+            .any(|w| w.contains("no place can be flagged")));
     }
 
     #[test]

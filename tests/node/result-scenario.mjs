@@ -59,6 +59,7 @@ export function runScenario() {
   record('riskSurfaceStep', '3', s.riskSurfaceStep(3));
   s.riskSurfaceStep(rs.total);
   record('riskSurfaceFinish', 'demo', s.riskSurfaceFinish());
+  record('riskContoursGeoJson', 'demo', s.riskContoursGeoJson());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());
