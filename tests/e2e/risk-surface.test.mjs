@@ -5,7 +5,7 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { launch, openPage, loadDemo, act, frame, settle, outDir, DEMO_DIR } from './helpers.mjs';
+import { launch, openPage, loadDemo, frame, settle, outDir, DEMO_DIR, ROOT } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
@@ -106,4 +106,36 @@ test('a long relative-risk run can be cancelled, and what was loaded stays', asy
   await page.click('#rr-run');
   await page.waitForFunction(() => !document.getElementById('rr-result').hidden, null, { timeout: 120000 });
   assert.deepEqual(log.pageErrors, []);
+});
+
+test('the risk-ratio colours: lightness falls evenly away from 1 and neighbouring classes stay apart for normal vision and the three dichromacies', () => {
+  // Dichromacy matrices of Machado, Oliveira & Fernandes (2009) as in
+  // palette.test.mjs (tests/e2e/fixtures/cvd-matrices.json); sRGB → CIELAB
+  // (D65) by the standard formulas. Thresholds are common practice, not from
+  // a source: neighbouring classes ΔE*ab ≥ 15, a class and its mirror on the
+  // other side of 1 (e.g. below 0.5 against 2 or more) ≥ 25.
+  const CVD = JSON.parse(readFileSync(join(ROOT, 'tests', 'e2e', 'fixtures', 'cvd-matrices.json'), 'utf8')).matrices;
+  const VISION = { normal: [[1, 0, 0], [0, 1, 0], [0, 0, 1]], ...CVD };
+  const text = readFileSync(join(ROOT, 'www', 'analyses', 'risk-surface.js'), 'utf8');
+  const colours = JSON.parse(text.match(/const RR_COLOURS = (\[[^\]]*\]);/)[1].replace(/'/g, '"'));
+  assert.equal(colours.length, 7);
+  const toLinear = (c) => (c <= 0.04045 ? c / 12.92 : ((c + 0.055) / 1.055) ** 2.4);
+  const mul = (m, v) => m.map((row) => row[0] * v[0] + row[1] * v[1] + row[2] * v[2]);
+  const XYZ = [[0.4124, 0.3576, 0.1805], [0.2126, 0.7152, 0.0722], [0.0193, 0.1192, 0.9505]];
+  const WHITE = XYZ.map((row) => row[0] + row[1] + row[2]);
+  const lab = (h, v) => {
+    const lin = mul(VISION[v], [1, 3, 5].map((i) => toLinear(parseInt(h.slice(i, i + 2), 16) / 255))).map((x) => Math.min(1, Math.max(0, x)));
+    const f = mul(XYZ, lin).map((x, i) => x / WHITE[i]).map((t) => (t > 216 / 24389 ? Math.cbrt(t) : (24389 / 27 * t + 16) / 116));
+    return [116 * f[1] - 16, 500 * (f[0] - f[1]), 200 * (f[1] - f[2])];
+  };
+  const dE = (a, b, v) => Math.hypot(...lab(a, v).map((x, i) => x - lab(b, v)[i]));
+  for (const v of Object.keys(VISION)) {
+    const L = colours.map((c) => lab(c, v)[0]);
+    for (let i = 0; i < 3; i++) {
+      assert.ok(L[i] < L[i + 1], `${v}: lightness rises towards the middle on the lower side (${L})`);
+      assert.ok(L[6 - i] < L[5 - i], `${v}: and on the upper side (${L})`);
+    }
+    for (let i = 0; i < 6; i++) assert.ok(dE(colours[i], colours[i + 1], v) >= 15, `${v}: classes ${i} and ${i + 1}`);
+    for (let i = 0; i < 3; i++) assert.ok(dE(colours[i], colours[6 - i], v) >= 25, `${v}: class ${i} and its mirror`);
+  }
 });
