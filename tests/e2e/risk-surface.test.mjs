@@ -63,6 +63,7 @@ test('relative-risk surface on the demo: map layer, legend in risk ratios, point
   const diff = await changed(page, 'before', 'surface');
   assert.ok(diff > total * 0.05, `the surface changes at least 5 % of the map's pixels (${diff})`);
   await page.locator('#map-panel').screenshot({ path: join(outDir(), 'risk-surface-map.png') });
+  await page.locator('#rr-box').screenshot({ path: join(outDir(), 'risk-surface-panel.png') });
   await page.uncheck('#rr-show');
   await mapPixels(page, 'hidden');
   assert.equal(await changed(page, 'before', 'hidden'), 0, 'hidden surface leaves no trace');

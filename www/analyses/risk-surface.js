@@ -30,7 +30,7 @@ export function mountRiskSurface(C, body) {
     el('option', { value: 'likelihood_cv' }, 'cross-validation (Kelsall & Diggle)'),
     el('option', { value: 'pooled_rule' }, 'rule of thumb on all points'),
     el('option', { value: 'fixed' }, 'fixed'));
-  const fixed = el('input', { type: 'number', id: 'rr-fixed', 'data-param': 'riskSurfaceStart.fixed_m', step: 'any', placeholder: 'metres', disabled: true });
+  const fixed = el('input', { type: 'number', id: 'rr-fixed', 'data-param': 'riskSurfaceStart.fixed_m', step: 'any', placeholder: 'metres', 'aria-label': 'Fixed bandwidth, metres', disabled: true });
   const cells = el('select', { id: 'rr-cells' },
     el('option', { value: '128' }, '128'), el('option', { value: '256', selected: true }, '256'), el('option', { value: '512' }, '512'));
   const edge = el('select', { id: 'rr-edge' },
