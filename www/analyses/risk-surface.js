@@ -27,8 +27,8 @@ export function mountRiskSurface(C, body) {
   const field = (label, input, hint) => el('label', { class: 'clu-field' }, el('span', null, label), input, hint ? el('small', null, hint) : null);
 
   const method = el('select', { id: 'rr-method' },
-    el('option', { value: 'likelihood_cv' }, 'cross-validation (Kelsall & Diggle)'),
-    el('option', { value: 'pooled_rule' }, 'rule of thumb on all points'),
+    el('option', { value: 'likelihood_cv', title: 'likelihood cross-validation of the case share (Kelsall & Diggle 1998)' }, 'cross-validation'),
+    el('option', { value: 'pooled_rule', title: 'normal-reference rule on cases and controls together' }, 'rule of thumb'),
     el('option', { value: 'fixed' }, 'fixed'));
   const fixed = el('input', { type: 'number', id: 'rr-fixed', 'data-param': 'riskSurfaceStart.fixed_m', step: 'any', placeholder: 'metres', 'aria-label': 'Fixed bandwidth, metres', disabled: true });
   const cells = el('select', { id: 'rr-cells' },
