@@ -533,6 +533,82 @@ export interface NearestCasesResult {
   verdict: string;
   caveats: string[];
   warnings: string[];
+/** `riskSurfaceStart`: bandwidth chosen, observed surface computed. */
+export interface RiskSurfaceStarted {
+  total: number;
+  seed: number;
+  n_cases: number;
+  n_control_points: number;
+  /** People at the control points (= points without a count column). */
+  controls_total: number;
+  /** Common Gaussian bandwidth (SD per axis), metres. */
+  bandwidth_m: number;
+}
+
+/** A tolerance contour of the relative-risk surface; polygons in planar metres. */
+export interface RiskContour {
+  level: number;
+  percent_volume: number | null;
+  polygons: [number, number][][][];
+  area_km2: number;
+}
+
+/** One raised or lowered place, for the verdict. */
+export interface RiskRegion {
+  area_km2: number;
+  centre_x: number;
+  centre_y: number;
+  extreme_ratio: number;
+  whereabouts: string;
+}
+
+/** `riskSurfaceFinish`: the kernel relative-risk surface (Bithell 1990; Kelsall & Diggle 1995); grids row-major, row 0 at the south. */
+export interface RiskSurfaceResult {
+  x0: number;
+  y0: number;
+  cell_m: number;
+  nx: number;
+  ny: number;
+  raised: RiskContour;
+  lowered: RiskContour;
+  raised_regions: RiskRegion[];
+  lowered_regions: RiskRegion[];
+  raised_share: number;
+  lowered_share: number;
+  tolerance: number;
+  bandwidth_m: number;
+  method: 'pooled_rule' | 'likelihood_cv' | 'fixed';
+  method_text: string;
+  reference_m: number | null;
+  candidates_m: number[];
+  criterion: (number | null)[];
+  bandwidth_note: string | null;
+  edge: 'none' | 'uniform' | 'jones_diggle';
+  t_stat: number;
+  t_p_value: number;
+  t_at_least_as_large: number;
+  n_sim: number;
+  seed: number;
+  n_cases: number;
+  n_control_points: number;
+  controls_total: number;
+  weighted: boolean;
+  min_ratio: number;
+  max_ratio: number;
+  masked_cells: number;
+  masked_share: number;
+  min_control_share: number;
+  area_km2: number;
+  privacy: SurfaceDisclosure | null;
+  verdict: string;
+  caveats: string[];
+  warnings: string[];
+  /** ln(risk ratio) per cell, nx × ny; 0 where class is not 2. */
+  log_rr: Float64Array;
+  /** Pointwise Monte Carlo p per cell; 1 where class is not 2. */
+  p_value: Float64Array;
+  /** 0 outside the study area, 1 too few controls, 2 estimated. */
+  class: Uint8Array;
 }
 
 // ---- Where is it dense? ----

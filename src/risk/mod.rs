@@ -9,12 +9,17 @@
 //!   D(r) = K_cases(r) − K_controls(r) with Monte Carlo relabellings.
 //! * [`nearest`]: the k-nearest-neighbour test of Cuzick & Edwards (1990),
 //!   how many of the cases' k nearest neighbours are cases.
+//! * [`relative_risk`]: the kernel relative-risk surface of Bithell (1990)
+//!   and Kelsall & Diggle (1995), with pointwise tolerance contours and a
+//!   global test of constant risk from random labellings.
 
 pub mod labelling;
 pub mod nearest;
+pub mod relative_risk;
 
 pub use labelling::{
     random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
     LabellingShare, LabellingSimulator, LabellingStatistic,
 };
 pub use nearest::{NearestJob, NearestOptions, NearestResult};
+pub use relative_risk::{RiskBandwidth, RiskSurfaceJob, RiskSurfaceOptions, RiskSurfaceResult};

@@ -18,6 +18,7 @@ mod clustering;
 mod hotspots;
 mod risk;
 mod risk_nearest;
+mod risk_surface;
 mod sharing;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};

@@ -65,6 +65,11 @@ export function runScenario() {
   record('nearestCasesStep', '10', s.nearestCasesStep(10));
   s.nearestCasesStep(near.total);
   record('nearestCasesFinish', 'demo', s.nearestCasesFinish());
+  const rs = record('riskSurfaceStart', 'demo, 9', s.riskSurfaceStart({ n_sim: 9, seed: 4, cells: 64 }));
+  record('riskSurfaceStep', '3', s.riskSurfaceStep(3));
+  s.riskSurfaceStep(rs.total);
+  record('riskSurfaceFinish', 'demo', s.riskSurfaceFinish());
+  record('riskContoursGeoJson', 'demo', s.riskContoursGeoJson());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());

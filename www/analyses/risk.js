@@ -6,6 +6,7 @@
  * drawing D with its own label. */
 
 import { mountRiskNearest } from './risk-nearest.js';
+import { mountRiskSurface } from './risk-surface.js';
 
 export function mountRisk(C) {
   const { el, fmt, fmtMetres, runJob, setStatus, showError, clearError } = C;
@@ -59,6 +60,7 @@ export function mountRisk(C) {
     el('p', { class: 'hs-caution' }, el('strong', null, 'A raised risk is not a cause. '),
       'Cases and controls must come from the same population and be placed the same way (geocoding, rounding); otherwise the test measures that difference. Local disclosure rules apply to anything shared.'));
   mountRiskNearest(C, body, comparisons);
+  mountRiskSurface(C, body);
 
   function setRunning(on) {
     $('pop-run').disabled = on || !state.ready;

@@ -1,0 +1,31 @@
+// The relative-risk surface in headless Chromium at the size the page aims
+// for (5,000 cases, 20,000 controls, 256 × 256 grid, 99 random labellings;
+// target under 10 s): the page's own worker runs the job (through
+// window.Cloister.runJob from page.evaluate), so the figure includes the
+// batches, progress messages and the hand-over of the result. Data from
+// bench/relrisk-data.mjs. Prints JSON lines. Usage: node bench/relrisk-browser.mjs
+import { launch, openPage } from '../tests/e2e/helpers.mjs';
+import { casesCsv, controlsCsv } from './relrisk-data.mjs';
+
+const browser = await launch();
+try {
+  const { page } = await openPage(browser);
+  await page.evaluate(async ([ev, ctl]) => {
+    const C = window.Cloister;
+    const enc = (t) => new TextEncoder().encode(t);
+    await C.call('loadEvents', enc(ev), { coords: { kind: 'planar', unit: 'metre' } });
+    await C.call('setAreaFallback', 'bounding_box');
+    await C.call('loadControls', enc(ctl), { coords: { kind: 'planar', unit: 'metre' } });
+  }, [casesCsv(5000), controlsCsv(20000)]);
+  for (const method of ['pooled_rule', 'likelihood_cv']) {
+    const r = await page.evaluate(async (method) => {
+      const t0 = performance.now();
+      const job = window.Cloister.runJob({ start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish', params: { method, n_sim: 99, seed: 1, cells: 256 } }, () => {});
+      const res = await job.promise;
+      return { s: (performance.now() - t0) / 1000, grid: `${res.nx}x${res.ny}`, bandwidth_m: Math.round(res.bandwidth_m), p: res.t_p_value };
+    }, method);
+    console.log(JSON.stringify({ where: 'chromium page (worker)', cases: 5000, controls: 20000, n_sim: 99, method, ...r, target_s: 10 }));
+  }
+} finally {
+  await browser.close();
+}
