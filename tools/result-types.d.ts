@@ -533,6 +533,8 @@ export interface NearestCasesResult {
   verdict: string;
   caveats: string[];
   warnings: string[];
+}
+
 /** `riskSurfaceStart`: bandwidth chosen, observed surface computed. */
 export interface RiskSurfaceStarted {
   total: number;
