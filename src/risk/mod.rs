@@ -7,9 +7,16 @@
 //!
 //! * [`labelling`]: the random labelling test of Diggle & Chetwynd (1991),
 //!   D(r) = K_cases(r) − K_controls(r) with Monte Carlo relabellings.
+//! * [`inhomogeneous`]: the inhomogeneous K and L functions of Baddeley,
+//!   Møller & Waagepetersen (2000), with the intensity from the population
+//!   layer or from the events, against simulated inhomogeneous Poisson patterns.
 
+pub mod inhomogeneous;
 pub mod labelling;
 
 pub use labelling::{
     random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
+};
+pub use inhomogeneous::{
+    inhomogeneous_k, InhomKJob, InhomKOptions, InhomKResult, InhomOutcome, IntensitySource,
 };
