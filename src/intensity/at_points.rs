@@ -161,7 +161,10 @@ impl PointIntensity {
 
     /// λ̂ at each of the points (u, v).
     pub fn at_points(&self, u: &[f64], v: &[f64]) -> Vec<f64> {
-        u.iter().zip(v).map(|(&a, &b)| self.at(a, b, None)).collect()
+        u.iter()
+            .zip(v)
+            .map(|(&a, &b)| self.at(a, b, None))
+            .collect()
     }
 
     /// λ̂_{−i}(x_i) at every source point i, each leaving itself out.

@@ -14,9 +14,9 @@
 pub mod inhomogeneous;
 pub mod labelling;
 
-pub use labelling::{
-    random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
-};
 pub use inhomogeneous::{
     inhomogeneous_k, InhomKJob, InhomKOptions, InhomKResult, InhomOutcome, IntensitySource,
+};
+pub use labelling::{
+    random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
 };

@@ -17,6 +17,7 @@ mod clock;
 mod clustering;
 mod hotspots;
 mod risk;
+mod risk_inhom;
 mod sharing;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};

@@ -55,6 +55,10 @@ export function runScenario() {
   record('labellingStep', '10', s.labellingStep(10));
   s.labellingStep(lab.total);
   record('labellingFinish', 'demo', s.labellingFinish());
+  const inh = record('inhomKStart', 'demo, 9', s.inhomKStart({ n_sim: 9, seed: 4, n_steps: 10 }));
+  record('inhomKStep', '3', s.inhomKStep(3));
+  s.inhomKStep(inh.total);
+  record('inhomKFinish', 'demo', s.inhomKFinish());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());

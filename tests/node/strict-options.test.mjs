@@ -63,6 +63,7 @@ const CASES = {
   clarkEvans: { call: (s, o) => s.clarkEvans(o), bad: { nsim: 0 }, key: 'nsim', valid: ['n_sim', 'seed'] },
   envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   labellingStart: { call: (s, o) => s.labellingStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'r_max_m', 'correction'] },
+  inhomKStart: { call: (s, o) => s.inhomKStart(o), bad: { bandwidth: 300 }, key: 'bandwidth', valid: ['bandwidth_m', 'bandwidth_method', 'intensity_from'] },
   envelopeEstimate: { spec: 'envelopeStart', call: (s, o) => s.envelopeEstimate(o, 1), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   intensitySurface: { call: (s, o) => s.intensitySurface(o), bad: { kernal: 'quartic' }, key: 'kernal', valid: ['kernel', 'method', 'fixed_m'] },
   dbscan: { call: (s, o) => s.dbscan(o), bad: { eps_m: 150, minsamples: 8 }, key: 'minsamples', valid: ['eps_m', 'min_samples', 'use_weights'] },
@@ -82,6 +83,7 @@ const NO_OPTIONS = new Set([
   'mapLayers', 'rejections', 'envelopeStep', 'envelopeFinish', 'envelopeShare', 'envelopeHelperStart',
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
   'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
+  'inhomKStep', 'inhomKFinish',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -269,7 +271,7 @@ test('parameterSpec: one list of names, units, defaults and limits, matching wha
 // What each analysis is called with when its options are walked: a valid
 // base (for options that are required) and the call.
 const WALK = {
-  quadratTest: {}, clarkEvans: {}, envelopeStart: {}, labellingStart: {}, intensitySurface: {},
+  quadratTest: {}, clarkEvans: {}, envelopeStart: {}, labellingStart: {}, inhomKStart: {}, intensitySurface: {},
   dbscan: { base: { eps_m: 150 } }, scanStart: {}, maskDonut: { base: { seed: 1 } },
   maskKAnonymity: { base: { seed: 1 } }, maskingCost: { needsMask: true }, aggregate: {},
   exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},
