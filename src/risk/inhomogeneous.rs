@@ -26,15 +26,20 @@
 //! K̂, K̂ the crate's K estimator, which divides by n(n − 1).
 //!
 //! **Intensity.** λ̂ comes from the kernel estimator of [`crate::intensity`]
-//! evaluated at the points ([`PointIntensity`]; same kernels, same edge
-//! correction), either
+//! (same kernels, same edge correction), either
 //! * from the **population layer**: λ̂₁(x) = (n₁/N₀) · λ̂₀(x), λ̂₀ the kernel
 //!   estimate of the controls (weighted by their count when the layer has a
 //!   count column), N₀ the number of controls or the total count, n₁ the
-//!   number of cases; or
-//! * from the **events themselves**, left one out: λ̂_{−i}(x_i) (the
-//!   plug-in value includes the point's own bump and is inflated, which
-//!   biases K̂_inhom downward).
+//!   number of cases. λ̂₀ does not change between simulations, so it is
+//!   computed once as a surface on a grid with at least 8 cells per kernel
+//!   SD (256 to 1024 cells along the longer side; binned evaluation of the
+//!   intensity module) and read by bilinear interpolation at the cases and
+//!   at every simulated point alike (cells outside the study area keep
+//!   their value, so readings near the boundary are not pulled towards 0); or
+//! * from the **events themselves**, left one out: λ̂_{−i}(x_i), summed
+//!   exactly over the other events ([`PointIntensity`]); the plug-in value
+//!   includes the point's own bump and is inflated, which biases K̂_inhom
+//!   downward.
 //!
 //! Bandwidth: the normal-reference rule of the intensity module on the
 //! points smoothed (the controls, or the events), or fixed metres. An
@@ -265,10 +270,13 @@ pub struct InhomKResult {
     pub warnings: Vec<String>,
 }
 
+/// Largest grid (cells along the longer side) for the population's surface.
+const POPULATION_MAX_CELLS: usize = 1024;
+
 /// How the intensity at a pattern's points is obtained.
 enum Model {
-    /// The population layer's estimate times n₁/N₀.
-    Population { est: PointIntensity, scale: f64 },
+    /// The population layer's surface ([`InhomKJob::sampler`]) times n₁/N₀.
+    Population { scale: f64 },
     /// Re-estimated from the points themselves, left one out.
     Events,
 }
@@ -281,6 +289,8 @@ pub struct InhomKJob {
     n: usize,
     model: Model,
     sampler: GridSurface,
+    /// Remarks about the intensity estimate for the warnings.
+    notes: Vec<String>,
     grid: GridOptions,
     k_obs: Vec<f64>,
     l_obs: Vec<f64>,
@@ -451,6 +461,7 @@ impl InhomKJob {
             BandwidthMethod::Fixed => format!("{} (fixed by you)", fmt_m(h)),
             _ => format!("{} (rule of thumb, normal reference, on {of})", fmt_m(h)),
         };
+        let mut notes = Vec::new();
         let (model, sampler, mut lambda, h, rule, n0, total0) = match opts.intensity_from {
             IntensitySource::Population => {
                 let (cx, cy, cw) = controls.ok_or_else(|| {
@@ -473,6 +484,26 @@ impl InhomKJob {
                     ));
                 }
                 let h = bandwidth_for(cx, cy, window, opts, &grid)?;
+                // The population's surface is computed once and read at
+                // every point (data and simulations alike): on a grid fine
+                // enough for the bandwidth (at least 8 cells per kernel SD,
+                // up to POPULATION_MAX_CELLS along the longer side).
+                let [bx0, by0, bx1, by1] = window.bbox();
+                let long = (bx1 - bx0).max(by1 - by0);
+                let cells = ((8.0 * long / opts.kernel.sd(h)).ceil() as usize)
+                    .clamp(grid.cells_long_side, POPULATION_MAX_CELLS);
+                let pop_grid = GridOptions {
+                    cells_long_side: cells,
+                    cell_m: None,
+                };
+                let cell = long / cells as f64;
+                if opts.kernel.sd(h) < 4.0 * cell {
+                    notes.push(format!(
+                        "the bandwidth ({}) spans under four cells of the intensity grid ({}): the population's intensity is read from a coarse grid",
+                        fmt_m(h),
+                        fmt_m(cell)
+                    ));
+                }
                 let est = PointIntensity::new(
                     cx,
                     cy,
@@ -481,13 +512,17 @@ impl InhomKJob {
                     opts.kernel,
                     h,
                     opts.intensity_edge,
-                    &grid,
+                    &pop_grid,
                 )?;
                 let scale = n as f64 / total;
-                let lambda: Vec<f64> = est.at_points(x, y).iter().map(|v| v * scale).collect();
                 let sampler = est.surface();
+                let lambda: Vec<f64> = x
+                    .iter()
+                    .zip(y)
+                    .map(|(&a, &b)| sampler.at(a, b) * scale)
+                    .collect();
                 (
-                    Model::Population { est, scale },
+                    Model::Population { scale },
                     sampler,
                     lambda,
                     h,
@@ -531,6 +566,7 @@ impl InhomKJob {
             n,
             model,
             sampler,
+            notes,
             grid,
             k_obs,
             l_obs,
@@ -553,9 +589,11 @@ impl InhomKJob {
         let w = &self.ctx.region;
         let (x, y) = sample_thinned(&self.sampler, w, self.n, &mut rng)?;
         let mut lambda = match &self.model {
-            Model::Population { est, scale } => {
-                est.at_points(&x, &y).iter().map(|v| v * scale).collect()
-            }
+            Model::Population { scale } => x
+                .iter()
+                .zip(&y)
+                .map(|(&a, &b)| self.sampler.at(a, b) * scale)
+                .collect(),
             Model::Events => {
                 let h = bandwidth_for(&x, &y, w, &self.opts, &self.grid)?;
                 PointIntensity::new(
@@ -624,6 +662,7 @@ impl InhomKJob {
         );
         let mut warnings = self.ctx.warnings.clone();
         warnings.extend(bands.warnings.iter().cloned());
+        warnings.extend(self.notes.iter().cloned());
         let what = match self.opts.intensity_from {
             IntensitySource::Population => {
                 "case(s) lie where the population layer has almost no one"

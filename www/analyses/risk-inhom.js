@@ -50,9 +50,7 @@ export function mountRiskInhom(C, body) {
       el('div', { class: 'clu-chart-wrap' }, el('canvas', { id: 'pin-chart', width: 760, height: 420, role: 'img', 'aria-label': 'inhomogeneous L chart' })),
       el('p', { class: 'hint', id: 'pin-band-note' }),
       el('p', { id: 'pin-verdict', class: 'clu-verdict' }),
-      el('p', { class: 'hint', id: 'pin-depends' },
-        el('strong', null, 'The answer depends on how the intensity was estimated. '),
-        'A smaller bandwidth lets the intensity take up more of any clustering, a larger one less; run it again with another bandwidth before relying on it.'),
+      el('p', { class: 'hint', id: 'pin-depends' }),
       el('ul', { id: 'pin-caveats', class: 'clu-caveats' }),
       el('dl', { id: 'pin-details', class: 'clu-dl' }),
       el('ul', { id: 'pin-warnings', class: 'clu-warnings' })));
@@ -181,13 +179,16 @@ export function mountRiskInhom(C, body) {
     const v = $('pin-verdict');
     v.textContent = res.verdict;
     v.dataset.outcome = res.outcome;
-    $('pin-caveats').replaceChildren(...res.caveats.map((c) => el('li', null, c)));
+    // The first caveat (the answer depends on the intensity's bandwidth)
+    // stands out on its own; the others are listed.
+    $('pin-depends').replaceChildren(el('strong', null, res.caveats[0]));
+    $('pin-caveats').replaceChildren(...res.caveats.slice(1).map((c) => el('li', null, c)));
     const from = res.intensity_from === 'population'
       ? `the population file (${fmt(res.n_controls)} rows, ${fmt(res.total_controls)} people in all), scaled to the ${fmt(res.n_cases)} events`
       : `the ${fmt(res.n_cases)} events, each left out of its own estimate`;
     $('pin-details').replaceChildren(...[
       ['Intensity from', from],
-      ['Bandwidth', `${res.bandwidth_rule}, ${res.kernel} kernel, edge correction ${res.intensity_edge.replace('_', '\u2013')}`],
+      ['Bandwidth', `${res.bandwidth_rule}; ${res.kernel === 'gaussian' ? 'Gaussian' : 'quartic'} kernel; edge correction of the intensity: ${res.intensity_edge.replace('_', '\u2013')}`],
       ['Intensity check', `${fmt(res.inverse_intensity_ratio, 3)} (sum of 1/intensity over the events \u00f7 the area; near 1 when the intensity\u2019s level fits)`],
       [C.term('mad', 'Maximum-deviation test'), `${pEq(res.mad.p_value)} (${fmt(res.mad.at_least_as_extreme)} of ${fmt(res.n_sim)} simulations at least as extreme)`],
       [C.term('dclf', 'Integrated-deviation test (DCLF)'), pEq(res.dclf.p_value)],
