@@ -5,10 +5,12 @@
  * events themselves (left one out), and compared with simulated patterns
  * that follow that intensity. Every number comes from the engine
  * (src/web/risk_inhom.rs, src/risk/inhomogeneous.rs); the chart is the
- * clustering chart drawing L_inhom with its own labels. Mounted by
- * risk.js into the section's body. */
+ * clustering chart drawing L_inhom with its own labels. Mounted by main.js
+ * right after risk.js, into that section's body (id population-body). */
 
-export function mountRiskInhom(C, body) {
+export function mountRiskInhom(C) {
+  const body = document.getElementById('population-body');
+  if (!body) throw { message: 'the section "Compared with the population" is missing' };
   const { el, fmt, fmtMetres, runJob, setStatus, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
   const state = { job: null, token: 0, result: null, hasEvents: false, hasPopulation: false };

@@ -5,8 +5,6 @@
  * (src/web/risk.rs, src/risk/); the chart is the clustering chart module
  * drawing D with its own label. */
 
-import { mountRiskInhom } from './risk-inhom.js';
-
 export function mountRisk(C) {
   const { el, fmt, fmtMetres, runJob, setStatus, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
@@ -53,8 +51,6 @@ export function mountRisk(C) {
         el('ul', { id: 'pop-warnings', class: 'clu-warnings' }))),
     el('p', { class: 'hs-caution' }, el('strong', null, 'A raised risk is not a cause. '),
       'Cases and controls must come from the same population and be placed the same way (geocoding, rounding); otherwise the test measures that difference. Local disclosure rules apply to anything shared.'));
-
-  mountRiskInhom(C, body);
 
   function setRunning(on) {
     $('pop-run').disabled = on || !state.ready;
