@@ -347,11 +347,11 @@ pub(crate) fn k_inhom(
     ))
 }
 
-/// Raises intensities below `floor` to it; returns how many.
+/// Raises intensities below `floor` (or not a number) to it; returns how many.
 fn apply_floor(lambda: &mut [f64], floor: f64) -> usize {
     let mut k = 0;
     for v in lambda.iter_mut() {
-        if !(*v >= floor) {
+        if v.is_nan() || *v < floor {
             *v = floor;
             k += 1;
         }
