@@ -763,9 +763,17 @@ impl InhomKJob {
         mad: &GlobalTest,
         dclf: &GlobalTest,
     ) -> String {
-        let (subject, intensity) = match self.opts.intensity_from {
-            IntensitySource::Population => ("Cases", "the population layer"),
-            IntensitySource::Events => ("Events", "their own smoothed intensity"),
+        let (subject, intensity, allowed) = match self.opts.intensity_from {
+            IntensitySource::Population => (
+                "Cases",
+                "the population layer",
+                "the intensity from the population layer",
+            ),
+            IntensitySource::Events => (
+                "Events",
+                "their own smoothed intensity",
+                "their own smoothed intensity",
+            ),
         };
         let test = format!(
             "maximum-deviation test p = {}, {} simulations; DCLF test p = {}",
@@ -776,7 +784,7 @@ impl InhomKJob {
         let list = |d: Departure| range_list(ranges, d);
         match outcome {
             InhomOutcome::ExplainedByIntensity => format!(
-                "Explained by the varying intensity: once the intensity from {intensity} is allowed for, {} are no closer together than chance; L stays inside the global {:.0}% band ({test}).",
+                "Explained by the varying intensity: once {allowed} is allowed for, {} are no closer together or further apart than chance; L stays inside the global {:.0}% band ({test}).",
                 subject.to_lowercase(),
                 100.0 * (1.0 - self.opts.alpha)
             ),
