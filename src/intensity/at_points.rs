@@ -213,7 +213,64 @@ pub struct GridSurface {
     max: f64,
 }
 
+/// A [`GridSurface`] as plain numbers (to hand to another worker): the
+/// padded grid's origin, cell side (m), shape and values (per m², row by row).
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct SurfaceParts {
+    pub x0: f64,
+    pub y0: f64,
+    pub cell: f64,
+    pub nx: usize,
+    pub ny: usize,
+    pub values: Vec<f64>,
+}
+
 impl GridSurface {
+    /// The surface as plain numbers.
+    pub fn parts(&self) -> SurfaceParts {
+        SurfaceParts {
+            x0: self.canvas.x0,
+            y0: self.canvas.y0,
+            cell: self.canvas.cell,
+            nx: self.canvas.nx,
+            ny: self.canvas.ny,
+            values: self.v.clone(),
+        }
+    }
+
+    /// The surface back from [`GridSurface::parts`] (checked: a shape that
+    /// does not match its values, or a value that is negative or not a
+    /// number, is refused).
+    pub fn from_parts(p: &SurfaceParts) -> Result<GridSurface, AnalysisError> {
+        let ok = p.nx >= 3
+            && p.ny >= 3
+            && p.nx.checked_mul(p.ny) == Some(p.values.len())
+            && p.cell.is_finite()
+            && p.cell > 0.0
+            && p.x0.is_finite()
+            && p.y0.is_finite()
+            && p.values.iter().all(|v| v.is_finite() && *v >= 0.0);
+        if !ok {
+            return Err(AnalysisError::BadParameter {
+                name: "surface".into(),
+                detail: "the shared intensity surface is not a usable grid".into(),
+            });
+        }
+        Ok(GridSurface {
+            canvas: Canvas {
+                x0: p.x0,
+                y0: p.y0,
+                cell: p.cell,
+                nx: p.nx,
+                ny: p.ny,
+                mask: vec![true; p.values.len()],
+                inner: (p.x0 + p.cell, p.y0 + p.cell, p.nx - 2, p.ny - 2),
+            },
+            max: p.values.iter().copied().fold(0.0, f64::max),
+            v: p.values.clone(),
+        })
+    }
+
     /// Bilinear value at (x, y), events per m².
     pub fn at(&self, x: f64, y: f64) -> f64 {
         self.canvas.interpolate(&self.v, x, y)

@@ -74,7 +74,7 @@ use crate::distance::envelope::{
 use crate::distance::functions::{l_from_k, Context, FunctionParams, Needs};
 use crate::distance::verdict::{departures, fmt_m, fmt_p, range_list, Departure, DistanceRange};
 use crate::error::AnalysisError;
-use crate::intensity::at_points::{GridSurface, PointIntensity};
+use crate::intensity::at_points::{GridSurface, PointIntensity, SurfaceParts};
 use crate::intensity::Kernel;
 use crate::intensity::{bandwidth, BandwidthMethod, BandwidthOptions, EdgeCorrection, GridOptions};
 use crate::rng::Rng;
@@ -284,14 +284,9 @@ enum Model {
 /// An inhomogeneous K test that can be advanced in batches (progress and
 /// Cancel between them). Simulation j depends only on the seed and j.
 pub struct InhomKJob {
-    ctx: Context,
-    opts: InhomKOptions,
-    n: usize,
-    model: Model,
-    sampler: GridSurface,
+    sim: Simulation,
     /// Remarks about the intensity estimate for the warnings.
     notes: Vec<String>,
-    grid: GridOptions,
     k_obs: Vec<f64>,
     l_obs: Vec<f64>,
     sims: Vec<f64>,
@@ -423,6 +418,142 @@ pub(crate) fn sample_thinned(
         }
     }
     Ok((xs, ys))
+}
+
+/// What simulating needs: the study area and distances, the options, the
+/// number of cases, how the intensity is obtained and the surface the
+/// patterns are drawn from (never the data's locations).
+struct Simulation {
+    ctx: Context,
+    opts: InhomKOptions,
+    n: usize,
+    model: Model,
+    sampler: GridSurface,
+    grid: GridOptions,
+}
+
+impl Simulation {
+    /// The L̂_inhom curve of simulation j (from its own stream), and how
+    /// many of its points had their intensity raised to the floor.
+    fn simulate(&self, j: usize) -> Result<(Vec<f64>, usize), AnalysisError> {
+        let mut rng = stream_rng(self.opts.seed, j as u64);
+        let w = &self.ctx.region;
+        let (x, y) = sample_thinned(&self.sampler, w, self.n, &mut rng)?;
+        let mut lambda = match &self.model {
+            Model::Population { scale } => x
+                .iter()
+                .zip(&y)
+                .map(|(&a, &b)| self.sampler.at(a, b) * scale)
+                .collect(),
+            Model::Events => {
+                let h = bandwidth_for(&x, &y, w, &self.opts, &self.grid)?;
+                PointIntensity::new(
+                    &x,
+                    &y,
+                    None,
+                    w,
+                    self.opts.kernel,
+                    h,
+                    self.opts.intensity_edge,
+                    &self.grid,
+                )?
+                .leave_one_out()
+            }
+        };
+        let floored = apply_floor(&mut lambda, 0.01 * self.n as f64 / w.area());
+        let (k, _) = k_inhom(&self.ctx, &x, &y, &lambda)?;
+        Ok((l_from_k(&k), floored))
+    }
+
+    /// Simulations `from..to`, row after row: each row the L̂_inhom curve
+    /// followed by the number of its points raised to the floor.
+    fn simulate_range(&self, from: usize, to: usize) -> Result<Vec<f64>, AnalysisError> {
+        let to = to.min(self.opts.n_sim);
+        let mut out = Vec::with_capacity(to.saturating_sub(from) * (self.ctx.r.len() + 1));
+        for j in from..to {
+            let (curve, floored) = self.simulate(j)?;
+            out.extend_from_slice(&curve);
+            out.push(floored as f64);
+        }
+        Ok(out)
+    }
+
+    /// What another worker needs to simulate for this run.
+    fn share(&self) -> InhomKShare {
+        InhomKShare {
+            polygons: self.ctx.region.polygons().to_vec(),
+            n: self.n,
+            opts: self.opts.clone(),
+            population_scale: match self.model {
+                Model::Population { scale } => Some(scale),
+                Model::Events => None,
+            },
+            surface: self.sampler.parts(),
+        }
+    }
+}
+
+/// What a helper needs to simulate parts of a run elsewhere (another
+/// thread or Web Worker): the study area, the number of cases, the options,
+/// how the intensity is obtained (the population's scale n₁/N₀, or from the
+/// events) and the smoothed surface the patterns are drawn from; never a
+/// location of the data. See [`InhomKSimulator`].
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct InhomKShare {
+    pub polygons: Vec<Vec<Vec<[f64; 2]>>>,
+    pub n: usize,
+    pub opts: InhomKOptions,
+    pub population_scale: Option<f64>,
+    pub surface: SurfaceParts,
+}
+
+/// Simulates ranges of a shared run: the same rows as
+/// [`InhomKJob::simulate_range`], because simulation j always uses stream j
+/// of the seed.
+pub struct InhomKSimulator {
+    sim: Simulation,
+}
+
+impl InhomKSimulator {
+    pub fn new(share: &InhomKShare) -> Result<InhomKSimulator, AnalysisError> {
+        use crate::params::Params;
+        share.opts.validate_in(None)?;
+        let region =
+            Window::from_polygons(share.polygons.clone(), crate::window::WindowOrigin::File)
+                .map_err(|e| crate::params::bad("study area", e.to_string()))?;
+        let fp = FunctionParams {
+            r_max: share.opts.r_max_m,
+            n_steps: share.opts.n_steps,
+            correction: share.opts.correction,
+            ..Default::default()
+        };
+        let ctx = Context::new(region, share.n, &fp, Needs::K_ONLY)?;
+        let model = match share.population_scale {
+            Some(scale) if scale.is_finite() && scale > 0.0 => Model::Population { scale },
+            Some(_) => {
+                return Err(crate::params::bad(
+                    "population_scale",
+                    "must be a positive number",
+                ))
+            }
+            None => Model::Events,
+        };
+        Ok(InhomKSimulator {
+            sim: Simulation {
+                ctx,
+                opts: share.opts.clone(),
+                n: share.n,
+                model,
+                sampler: GridSurface::from_parts(&share.surface)?,
+                grid: GridOptions::default(),
+            },
+        })
+    }
+
+    /// Rows of simulations `from..to` (see [`InhomKJob::simulate_range`]).
+    pub fn simulate_range(&self, from: usize, to: usize) -> Result<Vec<f64>, AnalysisError> {
+        self.sim.simulate_range(from, to)
+    }
 }
 
 impl InhomKJob {
@@ -561,13 +692,15 @@ impl InhomKJob {
         let l_obs = l_from_k(&k_obs);
         Ok(InhomKJob {
             sims: Vec::with_capacity(opts.n_sim * ctx.r.len()),
-            ctx,
-            opts: opts.clone(),
-            n,
-            model,
-            sampler,
+            sim: Simulation {
+                ctx,
+                opts: opts.clone(),
+                n,
+                model,
+                sampler,
+                grid,
+            },
             notes,
-            grid,
             k_obs,
             l_obs,
             done: 0,
@@ -582,43 +715,11 @@ impl InhomKJob {
         })
     }
 
-    /// The L̂_inhom curve of simulation j (from its own stream), and how
-    /// many of its points had their intensity raised to the floor.
-    fn simulate(&self, j: usize) -> Result<(Vec<f64>, usize), AnalysisError> {
-        let mut rng = stream_rng(self.opts.seed, j as u64);
-        let w = &self.ctx.region;
-        let (x, y) = sample_thinned(&self.sampler, w, self.n, &mut rng)?;
-        let mut lambda = match &self.model {
-            Model::Population { scale } => x
-                .iter()
-                .zip(&y)
-                .map(|(&a, &b)| self.sampler.at(a, b) * scale)
-                .collect(),
-            Model::Events => {
-                let h = bandwidth_for(&x, &y, w, &self.opts, &self.grid)?;
-                PointIntensity::new(
-                    &x,
-                    &y,
-                    None,
-                    w,
-                    self.opts.kernel,
-                    h,
-                    self.opts.intensity_edge,
-                    &self.grid,
-                )?
-                .leave_one_out()
-            }
-        };
-        let floored = apply_floor(&mut lambda, 0.01 * self.n as f64 / w.area());
-        let (k, _) = k_inhom(&self.ctx, &x, &y, &lambda)?;
-        Ok((l_from_k(&k), floored))
-    }
-
     /// Runs up to `k` more simulations; returns how many are done.
     pub fn run_batch(&mut self, k: usize) -> Result<usize, AnalysisError> {
-        let to = (self.done + k).min(self.opts.n_sim);
+        let to = (self.done + k).min(self.sim.opts.n_sim);
         for j in self.done..to {
-            let (curve, floored) = self.simulate(j)?;
+            let (curve, floored) = self.sim.simulate(j)?;
             self.sims.extend_from_slice(&curve);
             self.floored_sims += floored;
             self.done = j + 1;
@@ -630,13 +731,50 @@ impl InhomKJob {
         self.done
     }
 
+    /// What a helper needs to simulate parts of this run ([`InhomKShare`]).
+    pub fn share(&self) -> InhomKShare {
+        self.sim.share()
+    }
+
+    /// Rows of simulations `from..to` (each the L̂_inhom curve and then the
+    /// number of floored points), without changing the job.
+    pub fn simulate_range(&self, from: usize, to: usize) -> Result<Vec<f64>, AnalysisError> {
+        self.sim.simulate_range(from, to)
+    }
+
+    /// Appends rows of simulations starting at `from`, which must be the
+    /// number done so far; returns the number done.
+    pub fn add_simulated(&mut self, from: usize, rows: &[f64]) -> Result<usize, AnalysisError> {
+        let width = self.sim.ctx.r.len() + 1;
+        if from != self.done
+            || rows.len() % width != 0
+            || self.done + rows.len() / width > self.sim.opts.n_sim
+        {
+            return Err(crate::params::bad(
+                "simulations",
+                format!(
+                    "simulated rows do not fit the run (from {from}, {} values, {} done)",
+                    rows.len(),
+                    self.done
+                ),
+            ));
+        }
+        for row in rows.chunks(width) {
+            let (curve, floored) = row.split_at(width - 1);
+            self.sims.extend_from_slice(curve);
+            self.floored_sims += floored.first().copied().unwrap_or(0.0) as usize;
+            self.done += 1;
+        }
+        Ok(self.done)
+    }
+
     pub fn total(&self) -> usize {
-        self.opts.n_sim
+        self.sim.opts.n_sim
     }
 
     /// The distances of the curves, m.
     pub fn r(&self) -> &[f64] {
-        &self.ctx.r
+        &self.sim.ctx.r
     }
 
     /// The bandwidth of the intensity estimate of the data, m.
@@ -646,9 +784,9 @@ impl InhomKJob {
 
     /// Finishes the remaining simulations and summarises.
     pub fn finish(mut self) -> Result<InhomKResult, AnalysisError> {
-        let rest = self.opts.n_sim - self.done;
+        let rest = self.sim.opts.n_sim - self.done;
         self.run_batch(rest)?;
-        let r = self.ctx.r.clone();
+        let r = self.sim.ctx.r.clone();
         let bands = summarise(
             &r,
             &self.l_obs,
@@ -657,13 +795,13 @@ impl InhomKJob {
             Reference::SimulationMean,
             // r = 0 says nothing about interaction: tested from the first
             // positive distance unless the user says otherwise.
-            self.opts.r_min_m.unwrap_or(f64::MIN_POSITIVE),
-            self.opts.alpha,
+            self.sim.opts.r_min_m.unwrap_or(f64::MIN_POSITIVE),
+            self.sim.opts.alpha,
         );
-        let mut warnings = self.ctx.warnings.clone();
+        let mut warnings = self.sim.ctx.warnings.clone();
         warnings.extend(bands.warnings.iter().cloned());
         warnings.extend(self.notes.iter().cloned());
-        let what = match self.opts.intensity_from {
+        let what = match self.sim.opts.intensity_from {
             IntensitySource::Population => {
                 "case(s) lie where the population layer has almost no one"
             }
@@ -684,7 +822,7 @@ impl InhomKJob {
         if self.capped > 0 {
             warnings.push(format!(
                 "{} pair weights reached the cap of {}",
-                self.capped, self.ctx.cap
+                self.capped, self.sim.ctx.cap
             ));
         }
         let ranges = departures(
@@ -710,7 +848,7 @@ impl InhomKJob {
                 fmt_m(self.bandwidth_m)
             ),
         ];
-        caveats.push(match self.opts.intensity_from {
+        caveats.push(match self.sim.opts.intensity_from {
             IntensitySource::Population => "The population layer stands for the population at risk: if it is from another time, or places people differently (geocoding, rounding, counts at block centres), the test measures that difference too.".into(),
             IntensitySource::Events => "With the intensity smoothed from the events themselves, clustering and a varying intensity cannot be told apart at distances near the bandwidth and beyond: only interaction at distances well below the bandwidth can show.".into(),
         });
@@ -730,20 +868,20 @@ impl InhomKJob {
             test_r_max: bands.test_r_max,
             mad: bands.mad,
             dclf: bands.dclf,
-            alpha: self.opts.alpha,
+            alpha: self.sim.opts.alpha,
             k_rank: bands.k_rank,
-            n_sim: self.opts.n_sim,
-            seed: self.opts.seed,
-            n_cases: self.n,
+            n_sim: self.sim.opts.n_sim,
+            seed: self.sim.opts.seed,
+            n_cases: self.sim.n,
             n_controls: self.n_controls,
             total_controls: self.total_controls,
-            intensity_from: self.opts.intensity_from,
-            kernel: self.opts.kernel,
+            intensity_from: self.sim.opts.intensity_from,
+            kernel: self.sim.opts.kernel,
             bandwidth_m: self.bandwidth_m,
             bandwidth_rule: self.bandwidth_rule,
-            intensity_edge: self.opts.intensity_edge,
-            correction: self.opts.correction,
-            r_max_rule: self.ctx.r_max_rule.clone(),
+            intensity_edge: self.sim.opts.intensity_edge,
+            correction: self.sim.opts.correction,
+            r_max_rule: self.sim.ctx.r_max_rule.clone(),
             inverse_intensity_ratio: self.inverse_ratio,
             floored_points: self.floored,
             capped_weights: self.capped,
@@ -763,7 +901,7 @@ impl InhomKJob {
         mad: &GlobalTest,
         dclf: &GlobalTest,
     ) -> String {
-        let (subject, intensity, allowed) = match self.opts.intensity_from {
+        let (subject, intensity, allowed) = match self.sim.opts.intensity_from {
             IntensitySource::Population => (
                 "Cases",
                 "the population layer",
@@ -778,7 +916,7 @@ impl InhomKJob {
         let test = format!(
             "maximum-deviation test p = {}, {} simulations; DCLF test p = {}",
             fmt_p(mad.p_value),
-            self.opts.n_sim,
+            self.sim.opts.n_sim,
             fmt_p(dclf.p_value)
         );
         let list = |d: Departure| range_list(ranges, d);
@@ -786,7 +924,7 @@ impl InhomKJob {
             InhomOutcome::ExplainedByIntensity => format!(
                 "Explained by the varying intensity: once {allowed} is allowed for, {} are no closer together or further apart than chance; L stays inside the global {:.0}% band ({test}).",
                 subject.to_lowercase(),
-                100.0 * (1.0 - self.opts.alpha)
+                100.0 * (1.0 - self.sim.opts.alpha)
             ),
             InhomOutcome::Clustered => format!(
                 "{subject} cluster beyond what {intensity} explains, at distances {} ({test}).",
@@ -1145,6 +1283,47 @@ mod tests {
             .unwrap();
             assert_eq!(other.observed, once.observed);
             assert_ne!(other.sim_mean, once.sim_mean);
+        }
+    }
+
+    /// A helper built from the share (through JSON, as the page's workers
+    /// pass it) simulates exactly the rows the job itself would, and the
+    /// job fed those rows in pieces finishes with the same result as one
+    /// that ran them; for both intensity sources.
+    #[test]
+    fn shared_simulations_equal_the_jobs_own() {
+        let (w, (x, y), (cx, cy)) = population_and_cases(true);
+        for from in [IntensitySource::Population, IntensitySource::Events] {
+            let opts = InhomKOptions {
+                intensity_from: from,
+                n_sim: 9,
+                seed: 21,
+                r_max_m: Some(200.0),
+                n_steps: 10,
+                ..Default::default()
+            };
+            let ctl = Some((&cx[..], &cy[..], None));
+            let job = InhomKJob::new((&x, &y), ctl, &w, &opts).unwrap();
+            let json = serde_json::to_string(&job.share()).unwrap();
+            assert!(
+                !json.contains(&format!("{}", x[0])),
+                "no case location in the share"
+            );
+            let helper = InhomKSimulator::new(&serde_json::from_str(&json).unwrap()).unwrap();
+            let rows = helper.simulate_range(3, 7).unwrap();
+            assert_eq!(rows, job.simulate_range(3, 7).unwrap(), "{from:?}");
+            assert_eq!(rows.len(), 4 * (job.r().len() + 1));
+            let mut fed = InhomKJob::new((&x, &y), ctl, &w, &opts).unwrap();
+            assert_eq!(fed.run_batch(3).unwrap(), 3);
+            assert!(fed.add_simulated(4, &rows).is_err(), "rows must follow on");
+            assert_eq!(fed.add_simulated(3, &rows).unwrap(), 7);
+            let rest = helper.simulate_range(7, 9).unwrap();
+            assert_eq!(fed.add_simulated(7, &rest).unwrap(), 9);
+            let fed = fed.finish().unwrap();
+            let own = job.finish().unwrap();
+            assert_eq!(fed.sim_mean, own.sim_mean);
+            assert_eq!(fed.mad.p_value, own.mad.p_value);
+            assert_eq!(fed.warnings, own.warnings);
         }
     }
 

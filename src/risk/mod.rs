@@ -15,7 +15,8 @@ pub mod inhomogeneous;
 pub mod labelling;
 
 pub use inhomogeneous::{
-    inhomogeneous_k, InhomKJob, InhomKOptions, InhomKResult, InhomOutcome, IntensitySource,
+    inhomogeneous_k, InhomKJob, InhomKOptions, InhomKResult, InhomKShare, InhomKSimulator,
+    InhomOutcome, IntensitySource,
 };
 pub use labelling::{
     random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,

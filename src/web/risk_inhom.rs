@@ -11,15 +11,27 @@
 //! * `inhomKFinish() -> result`: bands, global tests and the verdict (an
 //!   [`InhomKResult`]).
 //!
+//! * `inhomKShare() -> string`, `inhomKHelperStart(share)`,
+//!   `inhomKSimulate(from, to) -> Float64Array`, `inhomKAdd(from, rows) ->
+//!   done`: the parallel protocol of the worker (as `envelopeShare` …
+//!   `envelopeAdd`): a helper worker gets the study area, the options, the
+//!   number of cases and the smoothed surface the patterns are drawn from
+//!   (never a location of the data) and returns rows of simulations `from..to`
+//!   (each the L_inhom curve, then the number of points raised to the
+//!   intensity floor); simulation j uses stream j of the seed, so the
+//!   result is the same whoever simulated it.
+//!
 //! The running job lives in `Session::extras` under [`KEY`], so loading
 //! other data drops it.
 
 use super::{analysis_error, decode, js_error, to_js, Session};
-use crate::risk::{InhomKJob, InhomKOptions, IntensitySource};
+use crate::risk::{InhomKJob, InhomKOptions, InhomKShare, InhomKSimulator, IntensitySource};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "risk-inhom";
+/// A helper worker's simulator (see `inhomKHelperStart`).
+const HELPER_KEY: &str = "risk-inhom-helper";
 
 #[derive(Serialize)]
 struct Started {
@@ -84,6 +96,62 @@ impl Session {
         let k = super::count_arg(k, "inhomKStep", "k")?;
         let job = self.extra_mut::<InhomKJob>(KEY).ok_or_else(no_job)?;
         job.run_batch(k.max(1)).map_err(|e| analysis_error(&e))
+    }
+
+    /// What a helper worker needs to simulate parts of the running job, as
+    /// JSON (no location of the data).
+    #[wasm_bindgen(js_name = inhomKShare)]
+    pub fn inhom_k_share(&self) -> Result<String, JsValue> {
+        let job = self
+            .extras
+            .get(KEY)
+            .and_then(|b| b.downcast_ref::<InhomKJob>())
+            .ok_or_else(no_job)?;
+        serde_json::to_string(&job.share())
+            .map_err(|e| js_error("internal", &format!("could not share the run: {e}"), None))
+    }
+
+    /// In a helper worker: prepares to simulate parts of a shared run.
+    #[wasm_bindgen(js_name = inhomKHelperStart)]
+    pub fn inhom_k_helper_start(&mut self, share: String) -> Result<(), JsValue> {
+        let share: InhomKShare = serde_json::from_str(&share).map_err(|e| {
+            js_error(
+                "bad_parameter",
+                &format!("unreadable shared run: {e}"),
+                None,
+            )
+        })?;
+        let sim = InhomKSimulator::new(&share).map_err(|e| analysis_error(&e))?;
+        self.extras.insert(HELPER_KEY, Box::new(sim));
+        Ok(())
+    }
+
+    /// Rows of simulations `from..to`, from the helper's simulator or else
+    /// the running job (which is not changed).
+    #[wasm_bindgen(js_name = inhomKSimulate)]
+    pub fn inhom_k_simulate(&self, from: usize, to: usize) -> Result<Vec<f64>, JsValue> {
+        if let Some(sim) = self
+            .extras
+            .get(HELPER_KEY)
+            .and_then(|b| b.downcast_ref::<InhomKSimulator>())
+        {
+            return sim.simulate_range(from, to).map_err(|e| analysis_error(&e));
+        }
+        let job = self
+            .extras
+            .get(KEY)
+            .and_then(|b| b.downcast_ref::<InhomKJob>())
+            .ok_or_else(no_job)?;
+        job.simulate_range(from, to).map_err(|e| analysis_error(&e))
+    }
+
+    /// Appends rows of simulations starting at `from` (which must be the
+    /// number done so far); returns the number done.
+    #[wasm_bindgen(js_name = inhomKAdd)]
+    pub fn inhom_k_add(&mut self, from: usize, rows: Vec<f64>) -> Result<usize, JsValue> {
+        let job = self.extra_mut::<InhomKJob>(KEY).ok_or_else(no_job)?;
+        job.add_simulated(from, &rows)
+            .map_err(|e| analysis_error(&e))
     }
 
     /// Finishes the run: bands, global tests and the verdict.

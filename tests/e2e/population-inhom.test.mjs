@@ -79,3 +79,30 @@ test('a long inhomogeneous K run can be cancelled', async () => {
   assert.equal(await page.isDisabled('#pin-run'), false);
   assert.deepEqual(log.pageErrors, []);
 });
+
+test('an inhomogeneous K run spread over helper workers gives exactly the one-worker result, for both intensity sources', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  const got = await page.evaluate(async () => {
+    const out = [];
+    for (const from of ['population', 'events']) {
+      const spec = (parallel) => ({
+        start: 'inhomKStart', step: 'inhomKStep', finish: 'inhomKFinish',
+        params: { intensity_from: from, n_sim: 11, seed: 424242, r_max_m: 1200, n_steps: 20 },
+        ...(parallel ? { parallel: { share: 'inhomKShare', helperStart: 'inhomKHelperStart', simulate: 'inhomKSimulate', add: 'inhomKAdd' } } : {}),
+      });
+      let workers = 0;
+      const a = await window.Cloister.runJob(spec(true), (p) => { workers = Math.max(workers, p.workers || 0); }).promise;
+      const b = await window.Cloister.runJob(spec(false), () => {}).promise;
+      const pick = (r) => JSON.stringify([r.observed, r.sim_mean, r.pointwise_lo, r.pointwise_hi, r.mad, r.dclf, r.warnings, r.verdict]);
+      out.push({ from, workers, a: pick(a), b: pick(b) });
+    }
+    return { cores: navigator.hardwareConcurrency, out };
+  });
+  for (const r of got.out) {
+    if (got.cores > 1) assert.ok(r.workers >= 2, `${r.from}: workers ${r.workers}`);
+    assert.equal(r.a, r.b, r.from);
+  }
+  assert.deepEqual(log.pageErrors, []);
+  assert.deepEqual(log.requests.filter((u) => !u.startsWith('file:') && !u.startsWith('blob:') && !u.startsWith('data:')), []);
+});

@@ -83,7 +83,7 @@ const NO_OPTIONS = new Set([
   'mapLayers', 'rejections', 'envelopeStep', 'envelopeFinish', 'envelopeShare', 'envelopeHelperStart',
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
   'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
-  'inhomKStep', 'inhomKFinish',
+  'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {

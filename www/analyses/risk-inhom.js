@@ -120,7 +120,10 @@ export function mountRiskInhom(C) {
     $('pin-progress').value = 0;
     $('pin-progress-text').textContent = 'Estimating the intensity and K for the data\u2026';
     setStatus('Simulating patterns at the estimated intensity\u2026');
-    const job = runJob({ start: 'inhomKStart', step: 'inhomKStep', finish: 'inhomKFinish', params }, ({ done, total }) => {
+    // Simulation j depends only on the seed and j, so helper workers may
+    // take shares of the run (www/worker.js); the result is the same.
+    const spec = { start: 'inhomKStart', step: 'inhomKStep', finish: 'inhomKFinish', params, parallel: { share: 'inhomKShare', helperStart: 'inhomKHelperStart', simulate: 'inhomKSimulate', add: 'inhomKAdd' } };
+    const job = runJob(spec, ({ done, total }) => {
       if (token !== state.token) return;
       $('pin-progress').max = total;
       $('pin-progress').value = done;
