@@ -747,7 +747,7 @@ impl InhomKJob {
     pub fn add_simulated(&mut self, from: usize, rows: &[f64]) -> Result<usize, AnalysisError> {
         let width = self.sim.ctx.r.len() + 1;
         if from != self.done
-            || rows.len() % width != 0
+            || !rows.len().is_multiple_of(width)
             || self.done + rows.len() / width > self.sim.opts.n_sim
         {
             return Err(crate::params::bad(
