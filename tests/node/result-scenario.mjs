@@ -58,8 +58,8 @@ export function runScenario() {
   const inh = record('inhomKStart', 'demo, 9', s.inhomKStart({ n_sim: 9, seed: 4, n_steps: 10 }));
   record('inhomKStep', '3', s.inhomKStep(3));
   record('inhomKShare', '', s.inhomKShare());
-  const rows = record('inhomKSimulate', '3..5', s.inhomKSimulate(3, 5));
-  record('inhomKAdd', '3..5', s.inhomKAdd(3, rows));
+  const inhRows = record('inhomKSimulate', '3..5', s.inhomKSimulate(3, 5));
+  record('inhomKAdd', '3..5', s.inhomKAdd(3, inhRows));
   s.inhomKStep(inh.total);
   record('inhomKFinish', 'demo', s.inhomKFinish());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
