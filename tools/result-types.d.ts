@@ -613,6 +613,64 @@ export interface RiskSurfaceResult {
   class: Uint8Array;
 }
 
+/** `inhomKStart`: the run is prepared, the inhomogeneous K of the data computed. */
+export interface InhomKStarted {
+  total: number;
+  distances: number;
+  seed: number;
+  n_cases: number;
+  /** Rows of the population layer (0 with the intensity from the events). */
+  n_controls: number;
+  /** Bandwidth of the intensity estimate, m. */
+  bandwidth_m: number;
+}
+
+/** The inhomogeneous K and L functions (Baddeley, Møller & Waagepetersen 2000). */
+export interface InhomKResult {
+  r: number[];
+  /** L_inhom(r) of the data, m. */
+  observed: number[];
+  /** K_inhom(r) of the data, m². */
+  k_inhom: number[];
+  /** L = r (inhomogeneous Poisson with the true intensity). */
+  theoretical: number[];
+  /** Mean of the data's and the simulations' L_inhom: the tests' reference. */
+  reference_curve: number[];
+  sim_mean: number[];
+  pointwise_lo: number[];
+  pointwise_hi: number[];
+  global_lo: number[];
+  global_hi: number[];
+  test_r_min: number;
+  test_r_max: number;
+  mad: GlobalTest;
+  dclf: GlobalTest;
+  alpha: number;
+  k_rank: number;
+  n_sim: number;
+  seed: number;
+  n_cases: number;
+  n_controls: number;
+  /** Number of controls or their total count (0 with the intensity from the events). */
+  total_controls: number;
+  intensity_from: 'population' | 'events';
+  kernel: 'gaussian' | 'quartic';
+  bandwidth_m: number;
+  bandwidth_rule: string;
+  intensity_edge: 'none' | 'uniform' | 'jones_diggle';
+  correction: 'isotropic' | 'translation' | 'none';
+  r_max_rule: string;
+  /** Σ 1/λ̂ over the events ÷ the study area (1 when the intensity's level fits). */
+  inverse_intensity_ratio: number;
+  floored_points: number;
+  capped_weights: number;
+  outcome: 'explained_by_intensity' | 'clustered' | 'regular' | 'mixed';
+  ranges: DistanceRange[];
+  verdict: string;
+  caveats: string[];
+  warnings: string[];
+}
+
 // ---- Where is it dense? ----
 
 /** `hotspotsInfo`. */

@@ -33,6 +33,7 @@
 //! Cells whose centre is outside the study area are masked (value 0, mask
 //! false). The same mask defines `W` for the edge correction.
 
+pub mod at_points;
 pub mod bandwidth;
 pub mod edge;
 pub(crate) mod fft;

@@ -12,11 +12,19 @@
 //! * [`relative_risk`]: the kernel relative-risk surface of Bithell (1990)
 //!   and Kelsall & Diggle (1995), with pointwise tolerance contours and a
 //!   global test of constant risk from random labellings.
+//! * [`inhomogeneous`]: the inhomogeneous K and L functions of Baddeley,
+//!   Møller & Waagepetersen (2000), with the intensity from the population
+//!   layer or from the events, against simulated inhomogeneous Poisson patterns.
 
+pub mod inhomogeneous;
 pub mod labelling;
 pub mod nearest;
 pub mod relative_risk;
 
+pub use inhomogeneous::{
+    inhomogeneous_k, InhomKJob, InhomKOptions, InhomKResult, InhomKShare, InhomKSimulator,
+    InhomOutcome, IntensitySource,
+};
 pub use labelling::{
     random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
     LabellingShare, LabellingSimulator, LabellingStatistic,

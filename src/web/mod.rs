@@ -17,6 +17,7 @@ mod clock;
 mod clustering;
 mod hotspots;
 mod risk;
+mod risk_inhom;
 mod risk_nearest;
 mod risk_surface;
 mod sharing;

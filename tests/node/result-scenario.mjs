@@ -70,6 +70,13 @@ export function runScenario() {
   s.riskSurfaceStep(rs.total);
   record('riskSurfaceFinish', 'demo', s.riskSurfaceFinish());
   record('riskContoursGeoJson', 'demo', s.riskContoursGeoJson());
+  const inh = record('inhomKStart', 'demo, 9', s.inhomKStart({ n_sim: 9, seed: 4, n_steps: 10 }));
+  record('inhomKStep', '3', s.inhomKStep(3));
+  record('inhomKShare', '', s.inhomKShare());
+  const inhRows = record('inhomKSimulate', '3..5', s.inhomKSimulate(3, 5));
+  record('inhomKAdd', '3..5', s.inhomKAdd(3, inhRows));
+  s.inhomKStep(inh.total);
+  record('inhomKFinish', 'demo', s.inhomKFinish());
   const g = s.envelopeStart({ function: 'nearest_neighbour', n_sim: 9, seed: 2, n_steps: 10 });
   s.envelopeStep(g.total);
   record('envelopeFinish', 'nearest neighbour G', s.envelopeFinish());
@@ -136,6 +143,10 @@ export function runScenario() {
   const h = new cloister.Session();
   record('envelopeHelperStart', '', h.envelopeHelperStart(p.envelopeShare()));
   record('envelopeSimulate', 'helper', h.envelopeSimulate(0, run.total));
+  // … and of a shared inhomogeneous K run (intensity from the events).
+  const inhP = p.inhomKStart({ intensity_from: 'events', n_sim: 3, seed: 9, n_steps: 8 });
+  record('inhomKHelperStart', '', h.inhomKHelperStart(p.inhomKShare()));
+  record('inhomKSimulate', 'helper', h.inhomKSimulate(0, inhP.total));
   h.free();
   p.free();
 

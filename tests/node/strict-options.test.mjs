@@ -65,6 +65,7 @@ const CASES = {
   labellingStart: { call: (s, o) => s.labellingStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'r_max_m', 'correction'] },
   nearestCasesStart: { call: (s, o) => s.nearestCasesStart(o), bad: { k: 5 }, key: 'k', valid: ['k_max', 'n_sim', 'seed'] },
   riskSurfaceStart: { call: (s, o) => s.riskSurfaceStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'method', 'tolerance'] },
+  inhomKStart: { call: (s, o) => s.inhomKStart(o), bad: { bandwidth: 300 }, key: 'bandwidth', valid: ['bandwidth_m', 'bandwidth_method', 'intensity_from'] },
   envelopeEstimate: { spec: 'envelopeStart', call: (s, o) => s.envelopeEstimate(o, 1), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   intensitySurface: { call: (s, o) => s.intensitySurface(o), bad: { kernal: 'quartic' }, key: 'kernal', valid: ['kernel', 'method', 'fixed_m'] },
   dbscan: { call: (s, o) => s.dbscan(o), bad: { eps_m: 150, minsamples: 8 }, key: 'minsamples', valid: ['eps_m', 'min_samples', 'use_weights'] },
@@ -87,6 +88,7 @@ const NO_OPTIONS = new Set([
   'labellingShare', 'labellingHelperStart', 'labellingSimulate', 'labellingAdd',
   'nearestCasesStep', 'nearestCasesFinish',
   'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson',
+  'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -274,7 +276,7 @@ test('parameterSpec: one list of names, units, defaults and limits, matching wha
 // What each analysis is called with when its options are walked: a valid
 // base (for options that are required) and the call.
 const WALK = {
-  quadratTest: {}, clarkEvans: {}, envelopeStart: {}, labellingStart: {}, riskSurfaceStart: {}, intensitySurface: {},
+  quadratTest: {}, clarkEvans: {}, envelopeStart: {}, labellingStart: {}, riskSurfaceStart: {}, inhomKStart: {}, intensitySurface: {},
   dbscan: { base: { eps_m: 150 } }, scanStart: {}, maskDonut: { base: { seed: 1 } },
   maskKAnonymity: { base: { seed: 1 } }, maskingCost: { needsMask: true }, aggregate: {},
   exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},
