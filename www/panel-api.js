@@ -78,4 +78,60 @@ export const panelApi = {
   /** One option of an analysis as the engine describes it (kind, unit,
    * default, min, max, allowed): the one home of defaults and limits. */
   param(method, name) { return paramSpec(method, name); },
+  /** The seed typed in `input` (a whole number, 0 or more), or a new random
+   * one when it is empty; throws {message} for anything else. */
+  readSeed(input) {
+    const text = input.value.trim();
+    if (text === '') {
+      const a = new Uint32Array(2);
+      crypto.getRandomValues(a);
+      return a[0] * 2 ** 21 + (a[1] >>> 11);
+    }
+    const v = Number(text);
+    if (!(Number.isInteger(v) && v >= 0 && v <= Number.MAX_SAFE_INTEGER)) throw { message: 'the seed must be a whole number, 0 or more.' };
+    return v;
+  },
+  /** Runs a simulation job for a panel: its progress bar and line, Cancel,
+   * status lines and errors, the same in every panel. `panel` holds the
+   * panel's `token` and running `job`: a newer run or a change of the
+   * loaded data (which moves the token on) makes this run's answers
+   * ignored. `ui`: {progress, text (elements), unit ('relabellings'),
+   * startText, started, done, cancelled (status lines), failed (error
+   * title), running(on), result(res)}. */
+  async runPanelJob(panel, spec, ui) {
+    const token = ++panel.token;
+    ui.running(true);
+    ui.progress.max = (spec.params && spec.params.n_sim) || 1;
+    ui.progress.value = 0;
+    ui.text.textContent = ui.startText;
+    setStatus(ui.started);
+    const job = runJob(spec, ({ done, total, workers }) => {
+      if (token !== panel.token) return;
+      ui.progress.max = total;
+      ui.progress.value = done;
+      ui.text.textContent = `${fmt(done)} / ${fmt(total)} ${ui.unit}${workers > 1 ? ` on ${workers} workers` : ''}`;
+    });
+    panel.job = job;
+    try {
+      const res = await job.promise;
+      if (token !== panel.token) return;
+      ui.text.textContent = `${fmt(res.n_sim)} ${ui.unit} done`;
+      ui.result(res);
+      setStatus(ui.done);
+    } catch (err) {
+      if (token !== panel.token) return;
+      if (err && err.code === 'cancelled') {
+        ui.text.textContent = 'Cancelled.';
+        setStatus(ui.cancelled);
+      } else {
+        ui.text.textContent = '';
+        if (!(err && (err.code === 'no_job' || err.code === 'engine_stopped'))) panelApi.showError(ui.failed, err);
+      }
+    } finally {
+      if (token === panel.token) {
+        panel.job = null;
+        ui.running(false);
+      }
+    }
+  },
 };

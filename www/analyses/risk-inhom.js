@@ -11,7 +11,7 @@
 export function mountRiskInhom(C) {
   const body = document.getElementById('population-body');
   if (!body) throw { message: 'the section "Compared with the population" is missing' };
-  const { el, fmt, fmtMetres, runJob, setStatus, showError, clearError } = C;
+  const { el, fmt, fmtMetres, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
   const state = { job: null, token: 0, result: null, hasEvents: false, hasPopulation: false };
 
@@ -92,16 +92,7 @@ export function mountRiskInhom(C) {
       if (!(v > 0)) throw { message: 'the largest distance must be a positive number of metres, or empty.' };
       o.r_max_m = v;
     }
-    const sd = $('pin-seed').value.trim();
-    if (sd === '') {
-      const a = new Uint32Array(2);
-      crypto.getRandomValues(a);
-      o.seed = a[0] * 2 ** 21 + (a[1] >>> 11);
-    } else {
-      const v = Number(sd);
-      if (!(Number.isInteger(v) && v >= 0 && v <= Number.MAX_SAFE_INTEGER)) throw { message: 'the seed must be a whole number, 0 or more.' };
-      o.seed = v;
-    }
+    o.seed = C.readSeed($('pin-seed'));
     return o;
   }
 
@@ -114,44 +105,15 @@ export function mountRiskInhom(C) {
       showError('Could not start the test', err);
       return;
     }
-    const token = ++state.token;
-    setRunning(true);
-    $('pin-progress').max = params.n_sim;
-    $('pin-progress').value = 0;
-    $('pin-progress-text').textContent = 'Estimating the intensity and K for the data\u2026';
-    setStatus('Simulating patterns at the estimated intensity\u2026');
     // Simulation j depends only on the seed and j, so helper workers may
     // take shares of the run (www/worker.js); the result is the same.
     const spec = { start: 'inhomKStart', step: 'inhomKStep', finish: 'inhomKFinish', params, parallel: { share: 'inhomKShare', helperStart: 'inhomKHelperStart', simulate: 'inhomKSimulate', add: 'inhomKAdd' } };
-    const job = runJob(spec, ({ done, total }) => {
-      if (token !== state.token) return;
-      $('pin-progress').max = total;
-      $('pin-progress').value = done;
-      $('pin-progress-text').textContent = `${fmt(done)} / ${fmt(total)} simulations`;
+    await C.runPanelJob(state, spec, {
+      progress: $('pin-progress'), text: $('pin-progress-text'), unit: 'simulations', running: setRunning,
+      startText: 'Estimating the intensity and K for the data\u2026', started: 'Simulating patterns at the estimated intensity\u2026',
+      done: 'Inhomogeneous K test done.', cancelled: 'Inhomogeneous K test cancelled.', failed: 'The inhomogeneous K test could not run',
+      result: (res) => { state.result = res; render(); },
     });
-    state.job = job;
-    try {
-      const res = await job.promise;
-      if (token !== state.token) return;
-      state.result = res;
-      $('pin-progress-text').textContent = `${fmt(res.n_sim)} simulations done`;
-      render();
-      setStatus('Inhomogeneous K test done.');
-    } catch (err) {
-      if (token !== state.token) return;
-      if (err && err.code === 'cancelled') {
-        $('pin-progress-text').textContent = 'Cancelled.';
-        setStatus('Inhomogeneous K test cancelled.');
-      } else {
-        $('pin-progress-text').textContent = '';
-        if (!(err && (err.code === 'no_job' || err.code === 'engine_stopped'))) showError('The inhomogeneous K test could not run', err);
-      }
-    } finally {
-      if (token === state.token) {
-        state.job = null;
-        setRunning(false);
-      }
-    }
   }
 
   const pEq = (p) => (p < 0.001 ? 'p < 0.001' : `p = ${fmt(p, 3)}`);

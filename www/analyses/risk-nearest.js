@@ -10,7 +10,7 @@
  * pairs the section offers (the events against the population file, one
  * category against the others or against one other). */
 export function mountRiskNearest(C, body, comparisons) {
-  const { el, fmt, runJob, setStatus, showError, clearError } = C;
+  const { el, fmt, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
   const state = { job: null, token: 0, result: null, ready: false, compared: 'population', caseLabel: '', controlLabel: '' };
   const field = (label, input, hint) => el('label', { class: 'clu-field' }, el('span', null, label), input, hint ? el('small', null, hint) : null);
@@ -70,16 +70,7 @@ export function mountRiskNearest(C, body, comparisons) {
       if (!(Number.isInteger(v) && v >= lim.min && v <= lim.max)) throw { message: `${what} must be a whole number from ${fmt(lim.min)} to ${fmt(lim.max)}.` };
       o[name] = v;
     }
-    const sd = $('pop-nn-seed').value.trim();
-    if (sd === '') {
-      const a = new Uint32Array(2);
-      crypto.getRandomValues(a);
-      o.seed = a[0] * 2 ** 21 + (a[1] >>> 11);
-    } else {
-      const v = Number(sd);
-      if (!(Number.isInteger(v) && v >= 0 && v <= Number.MAX_SAFE_INTEGER)) throw { message: 'the seed must be a whole number, 0 or more.' };
-      o.seed = v;
-    }
+    o.seed = C.readSeed($('pop-nn-seed'));
     return o;
   }
 
@@ -92,47 +83,18 @@ export function mountRiskNearest(C, body, comparisons) {
       showError('Could not start the test', err);
       return;
     }
-    const token = ++state.token;
     state.compared = compare.value;
     if (compare.value !== 'population') {
       const [a, b] = JSON.parse(compare.value);
       state.caseLabel = `"${a}"`;
       state.controlLabel = b === null ? 'of the other categories' : `"${b}"`;
     }
-    setRunning(true);
-    $('pop-nn-progress').max = params.n_sim;
-    $('pop-nn-progress').value = 0;
-    $('pop-nn-progress-text').textContent = 'Finding every point\u2019s nearest neighbours\u2026';
-    setStatus('Relabelling cases and controls\u2026');
-    const job = runJob({ start: 'nearestCasesStart', step: 'nearestCasesStep', finish: 'nearestCasesFinish', params }, ({ done, total }) => {
-      if (token !== state.token) return;
-      $('pop-nn-progress').max = total;
-      $('pop-nn-progress').value = done;
-      $('pop-nn-progress-text').textContent = `${fmt(done)} / ${fmt(total)} relabellings`;
+    await C.runPanelJob(state, { start: 'nearestCasesStart', step: 'nearestCasesStep', finish: 'nearestCasesFinish', params }, {
+      progress: $('pop-nn-progress'), text: $('pop-nn-progress-text'), unit: 'relabellings', running: setRunning,
+      startText: 'Finding every point\u2019s nearest neighbours\u2026', started: 'Relabelling cases and controls\u2026',
+      done: 'Nearest-neighbour test done.', cancelled: 'Nearest-neighbour test cancelled.', failed: 'The nearest-neighbour test could not run',
+      result: (res) => { state.result = res; render(); },
     });
-    state.job = job;
-    try {
-      const res = await job.promise;
-      if (token !== state.token) return;
-      state.result = res;
-      $('pop-nn-progress-text').textContent = `${fmt(res.n_sim)} relabellings done`;
-      render();
-      setStatus('Nearest-neighbour test done.');
-    } catch (err) {
-      if (token !== state.token) return;
-      if (err && err.code === 'cancelled') {
-        $('pop-nn-progress-text').textContent = 'Cancelled.';
-        setStatus('Nearest-neighbour test cancelled.');
-      } else {
-        $('pop-nn-progress-text').textContent = '';
-        if (!(err && (err.code === 'no_job' || err.code === 'engine_stopped'))) showError('The nearest-neighbour test could not run', err);
-      }
-    } finally {
-      if (token === state.token) {
-        state.job = null;
-        setRunning(false);
-      }
-    }
   }
 
   const pText = (p) => (p === null ? '\u2013' : p < 0.001 ? '< 0.001' : fmt(p, 3));

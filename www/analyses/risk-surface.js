@@ -88,16 +88,7 @@ export function mountRiskSurface(C, body) {
     const lim = C.param('riskSurfaceStart', 'n_sim');
     if (!(Number.isInteger(n) && n >= lim.min && n <= lim.max)) throw { message: `random labellings must be a whole number from ${fmt(lim.min)} to ${fmt(lim.max)} (99 is usual).` };
     o.n_sim = n;
-    const sd = $('rr-seed').value.trim();
-    if (sd === '') {
-      const a = new Uint32Array(2);
-      crypto.getRandomValues(a);
-      o.seed = a[0] * 2 ** 21 + (a[1] >>> 11);
-    } else {
-      const v = Number(sd);
-      if (!(Number.isInteger(v) && v >= 0 && v <= Number.MAX_SAFE_INTEGER)) throw { message: 'the seed must be a whole number, 0 or more.' };
-      o.seed = v;
-    }
+    o.seed = C.readSeed($('rr-seed'));
     return o;
   }
 
@@ -110,42 +101,12 @@ export function mountRiskSurface(C, body) {
       C.showError('Could not start the surface', err);
       return;
     }
-    const token = ++state.token;
-    setRunning(true);
-    $('rr-progress').max = params.n_sim;
-    $('rr-progress').value = 0;
-    $('rr-progress-text').textContent = 'Choosing the bandwidth and computing the surface…';
-    C.setStatus('Computing the relative-risk surface…');
-    const job = C.runJob({ start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish', params }, ({ done, total }) => {
-      if (token !== state.token) return;
-      $('rr-progress').max = total;
-      $('rr-progress').value = done;
-      $('rr-progress-text').textContent = `${fmt(done)} / ${fmt(total)} random labellings`;
+    await C.runPanelJob(state, { start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish', params }, {
+      progress: $('rr-progress'), text: $('rr-progress-text'), unit: 'random labellings', running: setRunning,
+      startText: 'Choosing the bandwidth and computing the surface\u2026', started: 'Computing the relative-risk surface\u2026',
+      done: 'Relative-risk surface drawn.', cancelled: 'Relative-risk surface cancelled.', failed: 'The relative-risk surface could not be drawn',
+      result: (res) => { state.result = res; state.image = surfaceImage(res); render(); },
     });
-    state.job = job;
-    try {
-      const res = await job.promise;
-      if (token !== state.token) return;
-      state.result = res;
-      state.image = surfaceImage(res);
-      $('rr-progress-text').textContent = `${fmt(res.n_sim)} random labellings done`;
-      render();
-      C.setStatus('Relative-risk surface drawn.');
-    } catch (err) {
-      if (token !== state.token) return;
-      if (err && err.code === 'cancelled') {
-        $('rr-progress-text').textContent = 'Cancelled.';
-        C.setStatus('Relative-risk surface cancelled.');
-      } else {
-        $('rr-progress-text').textContent = '';
-        if (!(err && (err.code === 'no_job' || err.code === 'engine_stopped'))) C.showError('The relative-risk surface could not be drawn', err);
-      }
-    } finally {
-      if (token === state.token) {
-        state.job = null;
-        setRunning(false);
-      }
-    }
   }
 
   function classOf(ratio) {

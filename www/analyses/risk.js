@@ -9,7 +9,7 @@ import { mountRiskNearest } from './risk-nearest.js';
 import { mountRiskSurface } from './risk-surface.js';
 
 export function mountRisk(C) {
-  const { el, fmt, fmtMetres, runJob, setStatus, showError, clearError } = C;
+  const { el, fmt, fmtMetres, showError, clearError } = C;
   const $ = (id) => document.getElementById(id);
   const state = { job: null, token: 0, result: null, ready: false, compared: 'population', caseLabel: '', controlLabel: '' };
 
@@ -103,16 +103,7 @@ export function mountRisk(C) {
       if (!(v > 0)) throw { message: 'the largest distance must be a positive number of metres, or empty.' };
       o.r_max_m = v;
     }
-    const sd = $('pop-seed').value.trim();
-    if (sd === '') {
-      const a = new Uint32Array(2);
-      crypto.getRandomValues(a);
-      o.seed = a[0] * 2 ** 21 + (a[1] >>> 11);
-    } else {
-      const v = Number(sd);
-      if (!(Number.isInteger(v) && v >= 0 && v <= Number.MAX_SAFE_INTEGER)) throw { message: 'the seed must be a whole number, 0 or more.' };
-      o.seed = v;
-    }
+    o.seed = C.readSeed($('pop-seed'));
     return o;
   }
 
@@ -125,52 +116,23 @@ export function mountRisk(C) {
       showError('Could not start the test', err);
       return;
     }
-    const token = ++state.token;
     state.compared = compare.value;
     if (compare.value !== 'population') {
       const [a, b] = JSON.parse(compare.value);
       state.caseLabel = `"${a}"`;
       state.controlLabel = b === null ? 'of the other categories' : `"${b}"`;
     }
-    setRunning(true);
-    $('pop-progress').max = params.n_sim;
-    $('pop-progress').value = 0;
-    $('pop-progress-text').textContent = 'Computing D for the data…';
-    setStatus('Relabelling cases and controls…');
     // Spread over every core: one piece per worker (each piece visits every
     // pair once, so pieces are as few as the workers; at most 256, as one
     // visit serves that many relabellings).
     const workers = C.jobWorkers();
     const parallel = { share: 'labellingShare', helperStart: 'labellingHelperStart', simulate: 'labellingSimulate', add: 'labellingAdd', minPiece: Math.min(256, Math.ceil(params.n_sim / workers)) };
-    const job = runJob({ start: 'labellingStart', step: 'labellingStep', finish: 'labellingFinish', params, parallel }, ({ done, total, workers: w }) => {
-      if (token !== state.token) return;
-      $('pop-progress').max = total;
-      $('pop-progress').value = done;
-      $('pop-progress-text').textContent = `${fmt(done)} / ${fmt(total)} relabellings${w > 1 ? ` on ${w} workers` : ''}`;
+    await C.runPanelJob(state, { start: 'labellingStart', step: 'labellingStep', finish: 'labellingFinish', params, parallel }, {
+      progress: $('pop-progress'), text: $('pop-progress-text'), unit: 'relabellings', running: setRunning,
+      startText: 'Computing D for the data\u2026', started: 'Relabelling cases and controls\u2026',
+      done: 'Random labelling test done.', cancelled: 'Random labelling test cancelled.', failed: 'The random labelling test could not run',
+      result: (res) => { state.result = res; render(); },
     });
-    state.job = job;
-    try {
-      const res = await job.promise;
-      if (token !== state.token) return;
-      state.result = res;
-      $('pop-progress-text').textContent = `${fmt(res.n_sim)} relabellings done`;
-      render();
-      setStatus('Random labelling test done.');
-    } catch (err) {
-      if (token !== state.token) return;
-      if (err && err.code === 'cancelled') {
-        $('pop-progress-text').textContent = 'Cancelled.';
-        setStatus('Random labelling test cancelled.');
-      } else {
-        $('pop-progress-text').textContent = '';
-        if (!(err && (err.code === 'no_job' || err.code === 'engine_stopped'))) showError('The random labelling test could not run', err);
-      }
-    } finally {
-      if (token === state.token) {
-        state.job = null;
-        setRunning(false);
-      }
-    }
   }
 
   const pEq = (p) => (p < 0.001 ? 'p < 0.001' : `p = ${fmt(p, 3)}`);
