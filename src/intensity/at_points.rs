@@ -15,10 +15,10 @@
 //!
 //! Units: coordinates and `h` in metres, the result in events per m².
 
-use super::edge::{edge_mass, EdgeCorrection};
+use super::edge::EdgeCorrection;
 use super::grid::GridOptions;
 use super::kernel::Kernel;
-use super::{surface_on_canvas, Canvas, Evaluation};
+use super::{edge_and_event_weights, surface_on_canvas, Canvas, Evaluation};
 use crate::error::AnalysisError;
 use crate::index::GridIndex;
 use crate::window::Window;
@@ -85,33 +85,8 @@ impl PointIntensity {
                 "the study area is too small or too thin for the intensity grid",
             )
         })?;
-        let e = match edge {
-            EdgeCorrection::None => None,
-            _ => {
-                let stencil = kernel.stencil(h, canvas.cell, canvas.max_r());
-                Some(edge_mass(
-                    &canvas.mask,
-                    canvas.nx,
-                    canvas.ny,
-                    &stencil,
-                    kernel.lattice_mass(h, canvas.cell),
-                ))
-            }
-        };
-        let wt = |i: usize| weights.map_or(1.0, |w| w[i]);
-        let w: Vec<f64> = match (&e, edge) {
-            (Some(e), EdgeCorrection::JonesDiggle) => (0..x.len())
-                .map(|i| {
-                    let ei = canvas.interpolate(e, x[i], y[i]);
-                    if ei > 0.0 {
-                        wt(i) / ei
-                    } else {
-                        0.0
-                    }
-                })
-                .collect(),
-            _ => (0..x.len()).map(wt).collect(),
-        };
+        let stencil = kernel.stencil(h, canvas.cell, canvas.max_r());
+        let (e, w) = edge_and_event_weights(&canvas, x, y, weights, kernel, h, edge, &stencil);
         let cut = kernel.cutoff(h, SD_CUT);
         Ok(PointIntensity {
             index: GridIndex::with_cell(x, y, cut),

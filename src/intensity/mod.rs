@@ -359,9 +359,12 @@ impl Canvas {
     }
 }
 
-/// Intensity per m² at the padded canvas's cell centres, plus `e_h` there.
+/// The edge mass e_h on the canvas (`None` without edge correction) and
+/// each event's weight after the Jones–Diggle factor 1/e_h(x_i) (its own
+/// weight, or 1, otherwise; 0 where e_h is 0). `stencil` is the kernel's
+/// stencil on the canvas.
 #[allow(clippy::too_many_arguments)]
-pub(crate) fn surface_on_canvas(
+pub(crate) fn edge_and_event_weights(
     cv: &Canvas,
     x: &[f64],
     y: &[f64],
@@ -369,21 +372,19 @@ pub(crate) fn surface_on_canvas(
     kernel: Kernel,
     h: f64,
     edge: EdgeCorrection,
-    evaluation: Evaluation,
-) -> (Vec<f64>, Option<Vec<f64>>) {
-    let stencil = kernel.stencil(h, cv.cell, cv.max_r());
+    stencil: &fft::Stencil,
+) -> (Option<Vec<f64>>, Vec<f64>) {
     let e = match edge {
         EdgeCorrection::None => None,
         _ => Some(edge::edge_mass(
             &cv.mask,
             cv.nx,
             cv.ny,
-            &stencil,
+            stencil,
             kernel.lattice_mass(h, cv.cell),
         )),
     };
     let wt = |i: usize| weights.map_or(1.0, |w| w[i]);
-    // Per-event weights after the Jones–Diggle factor.
     let ew: Vec<f64> = match (&e, edge) {
         (Some(e), EdgeCorrection::JonesDiggle) => (0..x.len())
             .map(|i| {
@@ -397,6 +398,23 @@ pub(crate) fn surface_on_canvas(
             .collect(),
         _ => (0..x.len()).map(wt).collect(),
     };
+    (e, ew)
+}
+
+/// Intensity per m² at the padded canvas's cell centres, plus `e_h` there.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn surface_on_canvas(
+    cv: &Canvas,
+    x: &[f64],
+    y: &[f64],
+    weights: Option<&[f64]>,
+    kernel: Kernel,
+    h: f64,
+    edge: EdgeCorrection,
+    evaluation: Evaluation,
+) -> (Vec<f64>, Option<Vec<f64>>) {
+    let stencil = kernel.stencil(h, cv.cell, cv.max_r());
+    let (e, ew) = edge_and_event_weights(cv, x, y, weights, kernel, h, edge, &stencil);
     let mut v = match evaluation {
         Evaluation::Binned => {
             // The stencil carries the cell area (see Kernel::stencil); divide
