@@ -145,6 +145,9 @@ pub struct ExportRequest {
     /// Report only: which shared results it holds when there are both
     /// masked points and counts (required when counts are hidden).
     pub report_holds: Option<ReportHolds>,
+    /// Report only: add a summary of the relative-risk surface drawn last
+    /// (settings, global test, shares of the area; no locations).
+    pub report_risk: bool,
 }
 
 impl crate::params::Params for ExportRequest {
@@ -190,6 +193,10 @@ impl crate::params::Params for ExportRequest {
                 "report only: which shared results it holds",
             )
             .optional(),
+            Field::boolean(
+                "report_risk",
+                "report only: add the summary of the relative-risk surface drawn last",
+            ),
         ]
     }
 }

@@ -251,6 +251,71 @@ pub struct ReportOptions<'a> {
     pub title: Option<&'a str>,
     /// A PNG as a data URL, drawn by the page from masked / aggregated layers.
     pub map_image: Option<&'a str>,
+    /// The relative-risk surface drawn last, summarised without locations.
+    pub risk: Option<&'a crate::risk::RiskSurfaceResult>,
+}
+
+/// The relative-risk surface in words and numbers, never in places: its
+/// settings, the global test and how much of the area its pointwise lines
+/// enclose. Left out (and said so) when the surface's disclosure check
+/// found events its bumps could point at.
+fn risk_section(rr: &crate::risk::RiskSurfaceResult, sections: &mut Vec<String>) -> String {
+    let mut out = String::from("<section><h2>Relative risk compared with the population</h2>");
+    if let Some(w) = rr.privacy.as_ref().and_then(|p| p.warning.as_ref()) {
+        sections.push("relative-risk summary left out (disclosure check)".into());
+        out.push_str(&format!(
+            "<p>The relative-risk surface is not summarised here: {} Draw it with a larger \
+             bandwidth before sharing anything about it.</p></section>",
+            esc(w)
+        ));
+        return out;
+    }
+    sections.push("relative-risk summary".into());
+    out.push_str(
+        "<p>Kernel estimate of the ratio of the case density to the population density, both \
+         smoothed with one bandwidth (Bithell 1990; Kelsall &amp; Diggle 1995). Lines of raised \
+         and lowered risk are pointwise: about 5 % of the area is expected inside them by \
+         chance alone. The global test asks whether the risk varies at all.</p>",
+    );
+    let population = if rr.weighted {
+        format!(
+            "{} points with counts ({} people)",
+            rr.n_control_points,
+            num(rr.controls_total, 0)
+        )
+    } else {
+        format!("{} controls", rr.n_control_points)
+    };
+    out.push_str(&kv(&[
+        ("Cases".into(), rr.n_cases.to_string()),
+        ("Population".into(), population),
+        (
+            "Bandwidth".into(),
+            format!("{} m ({})", num(rr.bandwidth_m, 0), esc(rr.method_text)),
+        ),
+        (
+            "Global test of constant risk".into(),
+            format!(
+                "p = {} ({} random labellings)",
+                num(rr.t_p_value, 3),
+                rr.n_sim
+            ),
+        ),
+        (
+            "Share of the area with raised risk (pointwise)".into(),
+            format!("{} %", num(100.0 * rr.raised_share, 1)),
+        ),
+        (
+            "Share of the area with lowered risk (pointwise)".into(),
+            format!("{} %", num(100.0 * rr.lowered_share, 1)),
+        ),
+        (
+            "Share of the area with too few controls to say".into(),
+            format!("{} %", num(100.0 * rr.masked_share, 1)),
+        ),
+    ]));
+    out.push_str("<p class=\"note\">A raised risk is not a cause: controls from another population, or placed differently, give raised or lowered risk by themselves.</p></section>");
+    out
 }
 
 /// The report's HTML and the names of its sections.
@@ -295,6 +360,9 @@ pub fn report_html(
              points are not in it. The study area outline appears only when it came from a \
              boundary file.</figcaption></figure>"
         ));
+    }
+    if let Some(rr) = args.risk {
+        body.push_str(&risk_section(rr, &mut sections));
     }
     if let Some(ms) = st.mask {
         let m = &ms.masked;
@@ -764,6 +832,7 @@ mod tests {
             &ReportOptions {
                 title: Some("Test <b>&</b>"),
                 map_image: Some(png),
+                risk: None,
             },
             "2026-01-02T03:04:05Z",
         )
@@ -833,6 +902,7 @@ mod tests {
                 &ReportOptions {
                     title: None,
                     map_image: Some(bad),
+                    risk: None,
                 },
                 "2026-01-02",
             )

@@ -52,6 +52,13 @@ fn no_job() -> JsValue {
     )
 }
 
+/// The relative-risk surface drawn last (for the sharing report), if any.
+pub(super) fn last_result(s: &Session) -> Option<&RiskSurfaceResult> {
+    s.extras
+        .get(KEY_RESULT)
+        .and_then(|b| b.downcast_ref::<RiskSurfaceResult>())
+}
+
 #[wasm_bindgen]
 impl Session {
     /// Starts a relative-risk surface of the events (cases) against the

@@ -297,9 +297,21 @@ impl Session {
     fn report_preview(&self, args: &ExportArgs, created: &str) -> Result<ReportFile, JsValue> {
         let study = self.study_ref()?;
         let empty = SharingState::default();
+        let risk = if args.report_risk {
+            Some(super::risk_surface::last_result(self).ok_or_else(|| {
+                js_error(
+                    "bad_options",
+                    "report_risk: draw the relative-risk surface first (Compared with the population)",
+                    None,
+                )
+            })?)
+        } else {
+            None
+        };
         let opts = ReportOptions {
             title: args.title.as_deref(),
             map_image: args.map_image.as_deref(),
+            risk,
         };
         report_file(
             study,

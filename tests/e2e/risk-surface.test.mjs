@@ -5,7 +5,7 @@ import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { launch, openPage, loadDemo, frame, settle, outDir, DEMO_DIR, ROOT } from './helpers.mjs';
+import { launch, openPage, loadDemo, act, frame, settle, outDir, DEMO_DIR, ROOT } from './helpers.mjs';
 
 let browser;
 before(async () => { browser = await launch(); });
@@ -88,6 +88,16 @@ test('relative-risk surface on the demo: map layer, legend in risk ratios, point
     assert.ok(!places.has(`${lon.toFixed(6)},${lat.toFixed(6)}`), `a vertex is an original location: ${lon}, ${lat}`);
   }
   assert.ok(vertices > 50);
+  // The sharing report can carry the surface's summary, in numbers only.
+  await act(page, () => page.click('#share-mask'));
+  await page.check('#share-risk');
+  await act(page, () => page.click('[data-export="report:html"]'));
+  assert.match(await page.textContent('#share-preview-list'), /relative-risk summary/);
+  const [rep] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#share-save'))]);
+  const html = readFileSync(await rep.path(), 'utf8');
+  assert.match(html, /Relative risk compared with the population/);
+  assert.match(html, /p = 0\.050 \(19 random labellings\)/);
+  for (const place of places) assert.ok(!html.includes(place.split(',')[0]), `an original longitude in the report: ${place}`);
   assert.deepEqual(log.pageErrors, []);
 });
 

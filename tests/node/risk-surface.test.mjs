@@ -146,3 +146,33 @@ test('relative-risk options and inputs: unknown or out-of-range options refused,
   assert.equal(e.code, 'bad_parameter');
   assert.match(e.message, /whole number/);
 });
+
+test('the sharing report can hold a summary of the relative-risk surface: settings, global test, shares of the area; no locations; left out when the disclosure check objects', () => {
+  const s = demo();
+  s.maskDonut({ r_min_m: 100, r_max_m: 300, seed: 99 });
+  // Asked for before any surface is drawn: a clear error, nothing lost.
+  assert.equal(throws(() => s.exportFile('report', { created: '2026-01-01', report_risk: true })).code, 'bad_options');
+  const { r } = run(s, { n_sim: 19, seed: 3, cells: 128 });
+  const f = s.exportFile('report', { created: '2026-01-01', report_risk: true });
+  assert.ok(f.preview.fields.includes('relative-risk summary'), f.preview.fields.join(', '));
+  assert.match(f.text, /Relative risk compared with the population/);
+  assert.ok(f.text.includes(`p = ${r.t_p_value.toFixed(3)} (19 random labellings)`), 'global test p');
+  assert.match(f.text, /pointwise/);
+  // No case or control coordinate, as written in the files, is in it.
+  for (const name of ['demo-data/cases.csv', 'demo-data/population.csv']) {
+    const lines = readFileSync(new URL(name, root), 'utf8').trim().split('\n').slice(1);
+    for (const line of lines) {
+      const parts = line.split(',');
+      const lon = parts.find((v) => /^-3\d\.\d{6}$/.test(v));
+      if (lon) assert.ok(!f.text.includes(lon), `${name}: ${lon} in the report`);
+    }
+  }
+  // Without the option the report has no such section.
+  assert.ok(!/Relative risk compared/.test(s.exportFile('report', { created: '2026-01-01' }).text));
+  // A bandwidth so small that single cases show: the summary is left out.
+  const small = run(s, { n_sim: 19, seed: 3, cells: 128, method: 'fixed', fixed_m: 20 }).r;
+  assert.ok(small.privacy && small.privacy.exposed_events > 0, JSON.stringify(small.privacy));
+  const g = s.exportFile('report', { created: '2026-01-01', report_risk: true });
+  assert.ok(g.preview.fields.includes('relative-risk summary left out (disclosure check)'), g.preview.fields.join(', '));
+  assert.ok(!/Global test of constant risk/.test(g.text));
+});

@@ -109,6 +109,8 @@ export function mountSharing(C) {
       field('Notes in CSV files', el('select', { id: 'share-notes', title: 'Where a CSV file says what it holds (tool, date, masking settings, cautions)' },
         el('option', { value: 'last_column' }, 'in a last column (for spreadsheets)'),
         el('option', { value: 'top_lines' }, 'as # lines above the header (for scripts)'))),
+      el('label', { class: 'check', title: 'Settings, the global test and the shares of the area inside the pointwise lines; never a place. Draw the surface first under "Compared with the population".' },
+        el('input', { type: 'checkbox', id: 'share-risk' }), ' Report: add the relative-risk summary'),
       el('label', { id: 'share-holds-field', hidden: true }, 'Map picture and report show ',
         el('select', { id: 'share-holds' },
           el('option', { value: 'counts' }, 'counts per area'),
@@ -546,6 +548,7 @@ export function mountSharing(C) {
     if (format === 'csv' || format === 'geo_json') o.format = format;
     if (format === 'csv') o.csv_notes = $('share-notes').value;
     if (state.mask && state.table) o.report_holds = $('share-holds').value;
+    if (format === 'html' && $('share-risk').checked) o.report_risk = true;
     return o;
   }
 
