@@ -413,7 +413,7 @@ impl Sink for KthTies {
 }
 
 /// Neighbour lists of [`GridIndex::k_nearest_ranked`].
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct RankedNeighbours {
     /// Neighbours per point: `k`.
     pub k: usize,

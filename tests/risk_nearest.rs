@@ -383,3 +383,40 @@ fn the_run_does_not_depend_on_the_step_sizes() {
     assert_eq!(ge(&whole), ge(&stepped));
     assert_eq!(whole.combined.p_value, stepped.combined.p_value);
 }
+
+/// Relabellings run elsewhere from the shared run (as a helper worker does,
+/// through JSON) give the counts the job would; a job fed them in pieces
+/// finishes exactly as one run; a piece out of order is refused.
+#[test]
+fn shared_runs_give_the_same_result() {
+    let (x, y) = uniform(300, 78, 2000.0);
+    let o = NearestOptions {
+        n_sim: 199,
+        seed: 21,
+        ..Default::default()
+    };
+    let whole = NearestJob::new((&x[..100], &y[..100]), (&x[100..], &y[100..]), &o)
+        .unwrap()
+        .finish()
+        .unwrap();
+    let mut job = NearestJob::new((&x[..100], &y[..100]), (&x[100..], &y[100..]), &o).unwrap();
+    let share: cloister::risk::NearestShare =
+        serde_json::from_str(&serde_json::to_string(&job.share()).unwrap()).unwrap();
+    let a = share.simulate_range(0, 120);
+    assert_eq!(a, job.simulate_range(0, 120));
+    assert_eq!(a.len(), o.k_max + 1);
+    assert!(job.add_simulated(120, 199, &a).is_err());
+    assert_eq!(job.add_simulated(0, 120, &a).unwrap(), 120);
+    let b = share.simulate_range(120, 199);
+    assert_eq!(job.add_simulated(120, 199, &b).unwrap(), 199);
+    let fed = job.finish().unwrap();
+    let ge = |r: &cloister::risk::NearestResult| -> Vec<usize> {
+        r.rows.iter().map(|row| row.at_least_as_extreme).collect()
+    };
+    assert_eq!(ge(&whole), ge(&fed));
+    assert_eq!(whole.combined.p_value, fed.combined.p_value);
+    assert_eq!(
+        whole.combined.at_least_as_extreme,
+        fed.combined.at_least_as_extreme
+    );
+}

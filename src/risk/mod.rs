@@ -29,5 +29,5 @@ pub use labelling::{
     random_labelling, LabelSets, LabellingJob, LabellingOptions, LabellingOutcome, LabellingResult,
     LabellingShare, LabellingSimulator, LabellingStatistic,
 };
-pub use nearest::{NearestJob, NearestOptions, NearestResult};
+pub use nearest::{NearestJob, NearestOptions, NearestResult, NearestShare};
 pub use relative_risk::{RiskBandwidth, RiskSurfaceJob, RiskSurfaceOptions, RiskSurfaceResult};

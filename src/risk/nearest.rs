@@ -304,6 +304,82 @@ pub struct NearestResult {
 /// Relabellings drawn per call of [`LabelSets::random`].
 const PER_DRAW: usize = 64;
 
+/// What a helper worker needs to run relabellings of a Cuzick–Edwards
+/// test ([`NearestJob::share`]).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct NearestShare {
+    pub nb: RankedNeighbours,
+    pub n1: usize,
+    pub seed: u64,
+    pub n_sim: usize,
+    pub t_obs: Vec<u64>,
+    pub moments: Vec<(f64, f64)>,
+    pub max_z_obs: Option<f64>,
+}
+
+impl NearestShare {
+    /// Counts of relabellings `from..to` (at most `n_sim`) at least as
+    /// extreme as the data, as [`NearestJob::simulate_range`].
+    pub fn simulate_range(&self, from: usize, to: usize) -> Vec<usize> {
+        NearestShareRef {
+            nb: &self.nb,
+            n1: self.n1,
+            seed: self.seed,
+            n_sim: self.n_sim,
+            t_obs: &self.t_obs,
+            moments: &self.moments,
+            max_z_obs: self.max_z_obs,
+        }
+        .exceedances(from, to)
+    }
+}
+
+/// The fixed part of a run, borrowed: the one place relabellings are run.
+struct NearestShareRef<'a> {
+    nb: &'a RankedNeighbours,
+    n1: usize,
+    seed: u64,
+    n_sim: usize,
+    t_obs: &'a [u64],
+    moments: &'a [(f64, f64)],
+    max_z_obs: Option<f64>,
+}
+
+impl NearestShareRef<'_> {
+    /// For relabellings `from..to`: how many have T_k at least the data's,
+    /// per k, then how many have the largest z at least the data's.
+    /// Relabelling j depends only on the seed and j.
+    fn exceedances(&self, from: usize, to: usize) -> Vec<usize> {
+        let to = to.min(self.n_sim);
+        let kk = self.t_obs.len();
+        let n = self.nb.ids.len().checked_div(self.nb.k).unwrap_or(0);
+        let mut counts = vec![0usize; kk + 1];
+        let mut is_case = vec![false; n];
+        let mut t = vec![0u64; kk];
+        let mut start = from;
+        while start < to {
+            let end = (start + PER_DRAW).min(to);
+            let sets = LabelSets::random(n, self.n1, self.seed, start, end);
+            for set in &sets.sets {
+                is_case.iter_mut().for_each(|c| *c = false);
+                for &i in set {
+                    is_case[i as usize] = true;
+                }
+                t.iter_mut().for_each(|v| *v = 0);
+                add_t_statistics(self.nb, &is_case, &mut t);
+                for (g, (a, b)) in counts.iter_mut().zip(t.iter().zip(self.t_obs)) {
+                    *g += usize::from(a >= b);
+                }
+                if let (Some(obs), Some((z, _))) = (self.max_z_obs, max_z(&t, self.moments)) {
+                    counts[kk] += usize::from(z >= obs);
+                }
+            }
+            start = end;
+        }
+        counts
+    }
+}
+
 /// A k-nearest-neighbour test that can be advanced in batches (progress
 /// and Cancel between them). Relabelling j depends only on the seed and j.
 pub struct NearestJob {
@@ -421,31 +497,80 @@ impl NearestJob {
     /// Runs up to `k` more relabellings; returns how many are done.
     pub fn run_batch(&mut self, k: usize) -> usize {
         let to = (self.done + k).min(self.opts.n_sim);
-        let n = self.is_case.len();
-        let kk = self.opts.k_max;
-        let mut t = vec![0u64; kk];
-        let mut from = self.done;
-        while from < to {
-            let end = (from + PER_DRAW).min(to);
-            let sets = LabelSets::random(n, self.n1, self.opts.seed, from, end);
-            for set in &sets.sets {
-                self.is_case.iter_mut().for_each(|c| *c = false);
-                for &i in set {
-                    self.is_case[i as usize] = true;
-                }
-                t.iter_mut().for_each(|v| *v = 0);
-                add_t_statistics(&self.nb, &self.is_case, &mut t);
-                for (g, (a, b)) in self.ge.iter_mut().zip(t.iter().zip(&self.t_obs)) {
-                    *g += usize::from(a >= b);
-                }
-                if let (Some(obs), Some((z, _))) = (self.max_z_obs, max_z(&t, &self.moments)) {
-                    self.ge_max += usize::from(z >= obs);
-                }
-            }
-            from = end;
-        }
+        let counts = self.share_ref().exceedances(self.done, to);
+        self.add_counts(&counts);
         self.done = to;
         self.done
+    }
+
+    /// The part of the run relabellings need (fixed for the whole run).
+    fn share_ref(&self) -> NearestShareRef<'_> {
+        NearestShareRef {
+            nb: &self.nb,
+            n1: self.n1,
+            seed: self.opts.seed,
+            n_sim: self.opts.n_sim,
+            t_obs: &self.t_obs,
+            moments: &self.moments,
+            max_z_obs: self.max_z_obs,
+        }
+    }
+
+    fn add_counts(&mut self, counts: &[usize]) {
+        for (g, c) in self.ge.iter_mut().zip(counts) {
+            *g += c;
+        }
+        self.ge_max += counts.get(self.ge.len()).copied().unwrap_or(0);
+    }
+
+    /// What a helper worker needs to run relabellings of this test: the
+    /// neighbour lists (point indices only, no location), the data's T_k,
+    /// the null moments and the seed.
+    pub fn share(&self) -> NearestShare {
+        let r = self.share_ref();
+        NearestShare {
+            nb: r.nb.clone(),
+            n1: r.n1,
+            seed: r.seed,
+            n_sim: r.n_sim,
+            t_obs: r.t_obs.to_vec(),
+            moments: r.moments.to_vec(),
+            max_z_obs: r.max_z_obs,
+        }
+    }
+
+    /// Counts of relabellings `from..to` at least as extreme as the data,
+    /// per k and then for the combined test (K + 1 numbers); the job is not
+    /// changed.
+    pub fn simulate_range(&self, from: usize, to: usize) -> Vec<usize> {
+        self.share_ref().exceedances(from, to)
+    }
+
+    /// Adds the counts of relabellings `from..` computed elsewhere; `from`
+    /// must equal [`NearestJob::done`]. Returns the number done.
+    pub fn add_simulated(
+        &mut self,
+        from: usize,
+        to: usize,
+        counts: &[usize],
+    ) -> Result<usize, AnalysisError> {
+        if from != self.done
+            || to < from
+            || to > self.opts.n_sim
+            || counts.len() != self.ge.len() + 1
+        {
+            return Err(crate::params::bad(
+                "relabelled counts",
+                format!(
+                    "expected {} counts for relabellings starting at {}",
+                    self.ge.len() + 1,
+                    self.done
+                ),
+            ));
+        }
+        self.add_counts(counts);
+        self.done = to;
+        Ok(self.done)
     }
 
     /// Finishes the remaining relabellings and summarises.

@@ -20,11 +20,13 @@
 
 use super::risk::split_by_category;
 use super::{analysis_error, decode, js_error, to_js, Session};
-use crate::risk::{NearestJob, NearestOptions};
+use crate::risk::{NearestJob, NearestOptions, NearestShare};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 const KEY: &str = "risk-nearest";
+/// In a helper worker: the shared part of a run.
+const HELPER_KEY: &str = "risk-nearest-helper";
 
 #[derive(Serialize)]
 struct Started {
@@ -135,5 +137,79 @@ impl Session {
     pub fn nearest_cases_finish(&mut self) -> Result<JsValue, JsValue> {
         let job = self.take_extra::<NearestJob>(KEY).ok_or_else(no_job)?;
         to_js(&job.finish().map_err(|e| analysis_error(&e))?)
+    }
+
+    /// The shared part of the running test, for helper workers (JSON: the
+    /// neighbour lists as point numbers, T_k of the data, the seed; no
+    /// location).
+    #[wasm_bindgen(js_name = nearestCasesShare)]
+    pub fn nearest_cases_share(&self) -> Result<String, JsValue> {
+        let job = self
+            .extras
+            .get(KEY)
+            .and_then(|b| b.downcast_ref::<NearestJob>())
+            .ok_or_else(no_job)?;
+        serde_json::to_string(&job.share())
+            .map_err(|e| js_error("internal", &format!("could not share the run: {e}"), None))
+    }
+
+    /// In a helper worker: prepares to run relabellings of a shared test.
+    #[wasm_bindgen(js_name = nearestCasesHelperStart)]
+    pub fn nearest_cases_helper_start(&mut self, share: String) -> Result<(), JsValue> {
+        let share: NearestShare = serde_json::from_str(&share).map_err(|e| {
+            js_error(
+                "bad_parameter",
+                &format!("unreadable shared run: {e}"),
+                None,
+            )
+        })?;
+        self.extras.insert(HELPER_KEY, Box::new(share));
+        Ok(())
+    }
+
+    /// Relabellings `from..to`: `[count, c_1, …, c_K, c_combined]`, how
+    /// many were run and how many were at least as extreme as the data for
+    /// each k and for the combined test; from the helper's share or else
+    /// the running job, which is not changed.
+    #[wasm_bindgen(js_name = nearestCasesSimulate)]
+    pub fn nearest_cases_simulate(&self, from: f64, to: f64) -> Result<Vec<f64>, JsValue> {
+        let from = super::count_arg(from, "nearestCasesSimulate", "from")?;
+        let to = super::count_arg(to, "nearestCasesSimulate", "to")?;
+        let (counts, total) = if let Some(sh) = self
+            .extras
+            .get(HELPER_KEY)
+            .and_then(|b| b.downcast_ref::<NearestShare>())
+        {
+            (sh.simulate_range(from, to), sh.n_sim)
+        } else {
+            let job = self
+                .extras
+                .get(KEY)
+                .and_then(|b| b.downcast_ref::<NearestJob>())
+                .ok_or_else(no_job)?;
+            (job.simulate_range(from, to), job.total())
+        };
+        let ran = to.min(total).saturating_sub(from);
+        Ok(std::iter::once(ran as f64)
+            .chain(counts.iter().map(|&c| c as f64))
+            .collect())
+    }
+
+    /// Adds what [`Session::nearest_cases_simulate`] gave for relabellings
+    /// starting at `from` (the number done so far); returns the number done.
+    #[wasm_bindgen(js_name = nearestCasesAdd)]
+    pub fn nearest_cases_add(&mut self, from: f64, piece: Vec<f64>) -> Result<usize, JsValue> {
+        let from = super::count_arg(from, "nearestCasesAdd", "from")?;
+        let (ran, counts) = piece
+            .split_first()
+            .ok_or_else(|| js_error("bad_parameter", "nearestCasesAdd: an empty piece", None))?;
+        let ran = super::count_arg(*ran, "nearestCasesAdd", "count")?;
+        let mut whole = Vec::with_capacity(counts.len());
+        for &c in counts {
+            whole.push(super::count_arg(c, "nearestCasesAdd", "counts")?);
+        }
+        let job = self.extra_mut::<NearestJob>(KEY).ok_or_else(no_job)?;
+        job.add_simulated(from, from + ran, &whole)
+            .map_err(|e| analysis_error(&e))
     }
 }

@@ -56,3 +56,22 @@ test('a long nearest-neighbour run shows progress and can be cancelled', async (
   assert.equal(await page.isVisible('#pop-nn-result'), false);
   assert.deepEqual(log.pageErrors, []);
 });
+
+test('a Cuzick–Edwards run spread over helper workers gives exactly the one-worker result', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  const got = await page.evaluate(async () => {
+    const spec = (parallel) => ({
+      start: 'nearestCasesStart', step: 'nearestCasesStep', finish: 'nearestCasesFinish',
+      params: { n_sim: 499, seed: 8080, k_max: 5 },
+      ...(parallel ? { parallel: { share: 'nearestCasesShare', helperStart: 'nearestCasesHelperStart', simulate: 'nearestCasesSimulate', add: 'nearestCasesAdd' } } : {}),
+    });
+    let workers = 0;
+    const a = await window.Cloister.runJob(spec(true), (p) => { workers = Math.max(workers, p.workers || 0); }).promise;
+    const b = await window.Cloister.runJob(spec(false), () => {}).promise;
+    return { workers, cores: navigator.hardwareConcurrency, a: JSON.stringify([a.rows, a.combined]), b: JSON.stringify([b.rows, b.combined]) };
+  });
+  if (got.cores > 1) assert.ok(got.workers >= 2, `workers: ${got.workers}`);
+  assert.equal(got.a, got.b);
+  assert.deepEqual(log.pageErrors, []);
+});

@@ -62,6 +62,12 @@ export function runScenario() {
   s.labellingStep(lab.total);
   record('labellingFinish', 'demo', s.labellingFinish());
   const near = record('nearestCasesStart', 'demo, 19', s.nearestCasesStart({ n_sim: 19, seed: 4, k_max: 3 }));
+  const nearShare = record('nearestCasesShare', '', s.nearestCasesShare());
+  const nearPiece = record('nearestCasesSimulate', '0..5', s.nearestCasesSimulate(0, 5));
+  const nh = new cloister.Session();
+  record('nearestCasesHelperStart', '', nh.nearestCasesHelperStart(nearShare));
+  nh.free();
+  record('nearestCasesAdd', '0..5', s.nearestCasesAdd(0, nearPiece));
   record('nearestCasesStep', '10', s.nearestCasesStep(10));
   s.nearestCasesStep(near.total);
   record('nearestCasesFinish', 'demo', s.nearestCasesFinish());

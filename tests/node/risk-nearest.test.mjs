@@ -135,3 +135,27 @@ test('Cuzick–Edwards between two categories of the events, and stacked points 
   assert.equal(tr.rows[0].t >= 12, true, 'each stacked case has a stacked case as its nearest neighbour');
   assert.ok(tr.warnings.some((w) => /random order drawn from the seed/.test(w)), tr.warnings.join(' | '));
 });
+
+test('Cuzick–Edwards spread over helpers: pieces run in another session from the shared run give the one-worker result', () => {
+  const o = { n_sim: 199, seed: 31, k_max: 4 };
+  const s = demo();
+  const [, alone] = run(s, o);
+  const st = s.nearestCasesStart(o);
+  const share = s.nearestCasesShare();
+  // The share holds point numbers, never a coordinate of the files.
+  assert.ok(!/-3\d\.\d{6}/.test(share), 'a longitude in the share');
+  const helper = new Session();
+  helper.nearestCasesHelperStart(share);
+  const a = s.nearestCasesSimulate(0, 120);
+  const b = helper.nearestCasesSimulate(120, st.total);
+  assert.equal(a[0], 120);
+  assert.equal(b[0], 79);
+  assert.equal(a.length, 1 + 4 + 1);
+  assert.equal(throws(() => s.nearestCasesAdd(120, b)).code, 'bad_parameter');
+  assert.equal(s.nearestCasesAdd(0, a), 120);
+  assert.equal(s.nearestCasesAdd(120, b), 199);
+  const spread = s.nearestCasesFinish();
+  assert.deepEqual(spread.rows, alone.rows);
+  assert.deepEqual(spread.combined, alone.combined);
+  assert.equal(throws(() => helper.nearestCasesHelperStart('{}')).code, 'bad_parameter');
+});

@@ -86,7 +86,7 @@ const NO_OPTIONS = new Set([
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
   'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
   'labellingShare', 'labellingHelperStart', 'labellingSimulate', 'labellingAdd',
-  'nearestCasesStep', 'nearestCasesFinish',
+  'nearestCasesStep', 'nearestCasesFinish', 'nearestCasesShare', 'nearestCasesHelperStart', 'nearestCasesSimulate', 'nearestCasesAdd',
   'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson',
   'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
 ]);

@@ -89,7 +89,7 @@ export function mountRiskNearest(C, body, comparisons) {
       state.caseLabel = `"${a}"`;
       state.controlLabel = b === null ? 'of the other categories' : `"${b}"`;
     }
-    await C.runPanelJob(state, { start: 'nearestCasesStart', step: 'nearestCasesStep', finish: 'nearestCasesFinish', params }, {
+    await C.runPanelJob(state, { start: 'nearestCasesStart', step: 'nearestCasesStep', finish: 'nearestCasesFinish', params, parallel: { share: 'nearestCasesShare', helperStart: 'nearestCasesHelperStart', simulate: 'nearestCasesSimulate', add: 'nearestCasesAdd' } }, {
       progress: $('pop-nn-progress'), text: $('pop-nn-progress-text'), unit: 'relabellings', running: setRunning,
       startText: 'Finding every point\u2019s nearest neighbours\u2026', started: 'Relabelling cases and controls\u2026',
       done: 'Nearest-neighbour test done.', cancelled: 'Nearest-neighbour test cancelled.', failed: 'The nearest-neighbour test could not run',
