@@ -30,4 +30,6 @@ pub use labelling::{
     LabellingShare, LabellingSimulator, LabellingStatistic,
 };
 pub use nearest::{NearestJob, NearestOptions, NearestResult, NearestShare};
-pub use relative_risk::{RiskBandwidth, RiskSurfaceJob, RiskSurfaceOptions, RiskSurfaceResult};
+pub use relative_risk::{
+    RiskBandwidth, RiskSurfaceJob, RiskSurfaceOptions, RiskSurfaceResult, RiskSurfaceShare,
+};

@@ -64,7 +64,6 @@
 use crate::distance::csr::stream_rng;
 use crate::error::AnalysisError;
 use crate::intensity::bandwidth::{ladder, normal_reference};
-use crate::intensity::edge::edge_mass;
 use crate::intensity::fft::{convolve, Stencil};
 use crate::intensity::isopleth::{contour, Contour};
 use crate::intensity::{Canvas, EdgeCorrection, Grid, GridOptions, Kernel, PER_KM2};
@@ -280,9 +279,25 @@ pub struct RiskSurfaceResult {
     pub warnings: Vec<String>,
 }
 
+/// What a helper worker needs to compute labellings of a run
+/// ([`RiskSurfaceJob::share`]).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct RiskSurfaceShare {
+    pub polygons: Vec<Vec<Vec<[f64; 2]>>>,
+    /// Pooled points, cases first.
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+    pub n_cases: usize,
+    /// People per population point, when the population file has counts.
+    pub weights: Option<Vec<f64>>,
+    pub options: RiskSurfaceOptions,
+}
+
 /// A relative-risk surface that runs its labellings in batches (progress
 /// and Cancel between them). Labelling j depends only on the seed and j.
 pub struct RiskSurfaceJob {
+    /// The study area, for a helper worker to rebuild the run.
+    polygons: Vec<Vec<Vec<[f64; 2]>>>,
     cv: Canvas,
     stencil: Stencil,
     /// `e_h` on the padded canvas when the uniform correction is used.
@@ -453,29 +468,16 @@ impl RiskSurfaceJob {
             }
         };
         let stencil = Kernel::Gaussian.stencil(h, cv.cell, cv.max_r());
-        let e = match opts.edge {
-            EdgeCorrection::None => None,
-            _ => Some(edge_mass(
-                &cv.mask,
-                cv.nx,
-                cv.ny,
-                &stencil,
-                Kernel::Gaussian.lattice_mass(h, cv.cell),
-            )),
-        };
-        let factor: Vec<f64> = match (&e, opts.edge) {
-            (Some(e), EdgeCorrection::JonesDiggle) => (0..px.len())
-                .map(|i| {
-                    let ei = cv.interpolate(e, px[i], py[i]);
-                    if ei > 0.0 {
-                        1.0 / ei
-                    } else {
-                        0.0
-                    }
-                })
-                .collect(),
-            _ => vec![1.0; px.len()],
-        };
+        let (e, factor) = crate::intensity::edge_and_event_weights(
+            &cv,
+            &px,
+            &py,
+            None,
+            Kernel::Gaussian,
+            h,
+            opts.edge,
+            &stencil,
+        );
         let e_uniform = if opts.edge == EdgeCorrection::Uniform {
             e
         } else {
@@ -497,6 +499,7 @@ impl RiskSurfaceJob {
             ge: Vec::new(),
             t_sims: Vec::with_capacity(opts.n_sim),
             done: 0,
+            polygons: window.polygons().to_vec(),
             cv,
             stencil,
             e_uniform,
@@ -681,17 +684,103 @@ impl RiskSurfaceJob {
     /// Runs up to `k` more labellings; returns how many are done.
     pub fn run_batch(&mut self, k: usize) -> usize {
         let to = (self.done + k).min(self.opts.n_sim);
-        for j in self.done..to {
-            let sim = self.simulated_log_rr(j);
-            for ((g, s), o) in self.ge.iter_mut().zip(&sim).zip(&self.rho) {
-                if s >= o {
-                    *g += 1;
-                }
-            }
-            self.t_sims.push(self.t_of(&sim));
-        }
+        let piece = self.simulate_range(self.done, to);
+        self.add_piece(&piece);
         self.done = to;
         self.done
+    }
+
+    /// Labellings `from..to` (at most `n_sim`), the job unchanged: for each
+    /// estimated cell how many had ρ̂* at least the data's, then each
+    /// labelling's T, in order (`cells + (to − from)` numbers).
+    pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
+        let to = to.min(self.opts.n_sim);
+        let mut ge = vec![0.0f64; self.cells.len()];
+        let mut t = Vec::with_capacity(to.saturating_sub(from));
+        for j in from..to {
+            let sim = self.simulated_log_rr(j);
+            for ((g, s), o) in ge.iter_mut().zip(&sim).zip(&self.rho) {
+                if s >= o {
+                    *g += 1.0;
+                }
+            }
+            t.push(self.t_of(&sim));
+        }
+        ge.extend(t);
+        ge
+    }
+
+    fn add_piece(&mut self, piece: &[f64]) {
+        let (ge, t) = piece.split_at(self.cells.len().min(piece.len()));
+        for (g, &c) in self.ge.iter_mut().zip(ge) {
+            *g += c as u32;
+        }
+        self.t_sims.extend_from_slice(t);
+    }
+
+    /// Adds a piece of [`Self::simulate_range`] computed elsewhere that
+    /// starts at labelling `from`, which must equal [`Self::done`]. Returns
+    /// the number done.
+    pub fn add_simulated(&mut self, from: usize, piece: &[f64]) -> Result<usize, AnalysisError> {
+        let n = piece.len().checked_sub(self.cells.len());
+        match n {
+            Some(n) if from == self.done && self.done + n <= self.opts.n_sim => {
+                self.add_piece(piece);
+                self.done += n;
+                Ok(self.done)
+            }
+            _ => Err(bad(
+                "labellings",
+                format!(
+                    "expected a piece starting at labelling {} with {} cell counts first",
+                    self.done,
+                    self.cells.len()
+                ),
+            )),
+        }
+    }
+
+    /// What a helper worker needs to rebuild this run: the study area, the
+    /// cases and population points (with their counts) and the options with
+    /// the bandwidth fixed at the one chosen, so that no cross-validation is
+    /// repeated and every labelling is the same wherever it is computed.
+    pub fn share(&self) -> RiskSurfaceShare {
+        let n1 = self.n_cases;
+        let weights = self.weighted.then(|| {
+            (n1..self.px.len())
+                .map(|i| (self.cum[i] - self.cum[i - 1]) as f64)
+                .collect()
+        });
+        RiskSurfaceShare {
+            polygons: self.polygons.clone(),
+            x: self.px.clone(),
+            y: self.py.clone(),
+            n_cases: n1,
+            weights,
+            options: RiskSurfaceOptions {
+                method: RiskBandwidth::Fixed,
+                fixed_m: Some(self.h),
+                ..self.opts.clone()
+            },
+        }
+    }
+
+    /// Rebuilds a run from [`Self::share`] (in a helper worker).
+    pub fn from_share(share: &RiskSurfaceShare) -> Result<RiskSurfaceJob, AnalysisError> {
+        let window =
+            Window::from_polygons(share.polygons.clone(), crate::window::WindowOrigin::File)
+                .map_err(|e| bad("study area", e.to_string()))?;
+        let n1 = share.n_cases.min(share.x.len());
+        if share.y.len() != share.x.len() {
+            return Err(bad("points", "coordinate lists differ in length"));
+        }
+        RiskSurfaceJob::new(
+            (&share.x[..n1], &share.y[..n1]),
+            (&share.x[n1..], &share.y[n1..]),
+            share.weights.as_deref(),
+            &window,
+            &share.options,
+        )
     }
 
     /// Runs what is left and summarises.

@@ -26,13 +26,15 @@ use crate::intensity::isopleth::{contour, ContourSet};
 use crate::intensity::Grid;
 use crate::privacy::disclosure::{distances_to_kth, surface_disclosure};
 use crate::risk::relative_risk::class;
-use crate::risk::{RiskSurfaceJob, RiskSurfaceOptions, RiskSurfaceResult};
+use crate::risk::{RiskSurfaceJob, RiskSurfaceOptions, RiskSurfaceResult, RiskSurfaceShare};
 use js_sys::{Float64Array, Object, Uint8Array};
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
 
 const KEY_JOB: &str = "risk-surface.job";
 const KEY_RESULT: &str = "risk-surface.result";
+/// In a helper worker: the rebuilt run.
+const KEY_HELPER: &str = "risk-surface.helper";
 
 #[derive(Serialize)]
 struct Started {
@@ -232,4 +234,64 @@ fn contours_geojson(r: &RiskSurfaceResult, to_output: impl Fn(f64, f64) -> [f64;
         );
     }
     v.to_string()
+}
+
+#[wasm_bindgen]
+impl Session {
+    /// The shared part of the running surface, for helper workers (JSON:
+    /// the study area, the cases and population points with their counts,
+    /// the options with the chosen bandwidth fixed).
+    #[wasm_bindgen(js_name = riskSurfaceShare)]
+    pub fn risk_surface_share(&self) -> Result<String, JsValue> {
+        let job = self
+            .extras
+            .get(KEY_JOB)
+            .and_then(|b| b.downcast_ref::<RiskSurfaceJob>())
+            .ok_or_else(no_job)?;
+        serde_json::to_string(&job.share())
+            .map_err(|e| js_error("internal", &format!("could not share the run: {e}"), None))
+    }
+
+    /// In a helper worker: rebuilds a shared run to compute its labellings.
+    #[wasm_bindgen(js_name = riskSurfaceHelperStart)]
+    pub fn risk_surface_helper_start(&mut self, share: String) -> Result<(), JsValue> {
+        let share: RiskSurfaceShare = serde_json::from_str(&share).map_err(|e| {
+            js_error(
+                "bad_parameter",
+                &format!("unreadable shared run: {e}"),
+                None,
+            )
+        })?;
+        let job = RiskSurfaceJob::from_share(&share).map_err(|e| analysis_error(&e))?;
+        self.extras.insert(KEY_HELPER, Box::new(job));
+        Ok(())
+    }
+
+    /// Labellings `from..to`: per estimated cell how many were at least
+    /// the data's, then each labelling's T; from the helper's run or else
+    /// the running job, which is not changed.
+    #[wasm_bindgen(js_name = riskSurfaceSimulate)]
+    pub fn risk_surface_simulate(&self, from: f64, to: f64) -> Result<Vec<f64>, JsValue> {
+        let from = super::count_arg(from, "riskSurfaceSimulate", "from")?;
+        let to = super::count_arg(to, "riskSurfaceSimulate", "to")?;
+        let job = self
+            .extras
+            .get(KEY_HELPER)
+            .or_else(|| self.extras.get(KEY_JOB))
+            .and_then(|b| b.downcast_ref::<RiskSurfaceJob>())
+            .ok_or_else(no_job)?;
+        Ok(job.simulate_range(from, to))
+    }
+
+    /// Adds a piece of labellings starting at `from` (the number done so
+    /// far); returns the number done.
+    #[wasm_bindgen(js_name = riskSurfaceAdd)]
+    pub fn risk_surface_add(&mut self, from: f64, piece: Vec<f64>) -> Result<usize, JsValue> {
+        let from = super::count_arg(from, "riskSurfaceAdd", "from")?;
+        let job = self
+            .extra_mut::<RiskSurfaceJob>(KEY_JOB)
+            .ok_or_else(no_job)?;
+        job.add_simulated(from, &piece)
+            .map_err(|e| analysis_error(&e))
+    }
 }

@@ -150,3 +150,22 @@ test('the risk-ratio colours: lightness falls evenly away from 1 and neighbourin
     for (let i = 0; i < 3; i++) assert.ok(dE(colours[i], colours[6 - i], v) >= 25, `${v}: class ${i} and its mirror`);
   }
 });
+
+test('relative-risk labellings spread over helper workers give exactly the one-worker surface', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  const got = await page.evaluate(async () => {
+    const spec = (parallel) => ({
+      start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish',
+      params: { n_sim: 39, seed: 2468, cells: 64 },
+      ...(parallel ? { parallel: { share: 'riskSurfaceShare', helperStart: 'riskSurfaceHelperStart', simulate: 'riskSurfaceSimulate', add: 'riskSurfaceAdd' } } : {}),
+    });
+    let workers = 0;
+    const a = await window.Cloister.runJob(spec(true), (p) => { workers = Math.max(workers, p.workers || 0); }).promise;
+    const b = await window.Cloister.runJob(spec(false), () => {}).promise;
+    return { workers, cores: navigator.hardwareConcurrency, a: JSON.stringify([Array.from(a.p_value), a.t_p_value]), b: JSON.stringify([Array.from(b.p_value), b.t_p_value]) };
+  });
+  if (got.cores > 1) assert.ok(got.workers >= 2, `workers: ${got.workers}`);
+  assert.equal(got.a, got.b);
+  assert.deepEqual(log.pageErrors, []);
+});

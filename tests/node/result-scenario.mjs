@@ -72,6 +72,12 @@ export function runScenario() {
   s.nearestCasesStep(near.total);
   record('nearestCasesFinish', 'demo', s.nearestCasesFinish());
   const rs = record('riskSurfaceStart', 'demo, 9', s.riskSurfaceStart({ n_sim: 9, seed: 4, cells: 64 }));
+  const rsShare = record('riskSurfaceShare', '', s.riskSurfaceShare());
+  const rsPiece = record('riskSurfaceSimulate', '0..2', s.riskSurfaceSimulate(0, 2));
+  const rh = new cloister.Session();
+  record('riskSurfaceHelperStart', '', rh.riskSurfaceHelperStart(rsShare));
+  rh.free();
+  record('riskSurfaceAdd', '0..2', s.riskSurfaceAdd(0, rsPiece));
   record('riskSurfaceStep', '3', s.riskSurfaceStep(3));
   s.riskSurfaceStep(rs.total);
   record('riskSurfaceFinish', 'demo', s.riskSurfaceFinish());

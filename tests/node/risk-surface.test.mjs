@@ -176,3 +176,30 @@ test('the sharing report can hold a summary of the relative-risk surface: settin
   assert.ok(g.preview.fields.includes('relative-risk summary left out (disclosure check)'), g.preview.fields.join(', '));
   assert.ok(!/Global test of constant risk/.test(g.text));
 });
+
+test('relative-risk labellings spread over helpers: pieces computed in another session from the shared run give the one-worker surface, for controls and for counts', () => {
+  for (const counts of [false, true]) {
+    const s = demo();
+    if (counts) {
+      // The demo population grouped four by four, with a count column.
+      const rows = readFileSync(new URL('demo-data/population.csv', root), 'utf8').trim().split('\n').slice(1);
+      const lines = ['longitude,latitude,count'];
+      for (let i = 0; i < rows.length; i += 4) lines.push(`${rows[i]},${1 + (i % 5)}`);
+      s.loadControls(new TextEncoder().encode(lines.join('\n')), {});
+    }
+    const o = { n_sim: 19, seed: 5, cells: 64 };
+    const { r: alone } = run(s, o);
+    const st = s.riskSurfaceStart(o);
+    const helper = new Session();
+    helper.riskSurfaceHelperStart(s.riskSurfaceShare());
+    const a = s.riskSurfaceSimulate(0, 8);
+    const b = helper.riskSurfaceSimulate(8, st.total);
+    assert.equal(throws(() => s.riskSurfaceAdd(8, b)).code, 'bad_parameter');
+    assert.equal(s.riskSurfaceAdd(0, a), 8);
+    assert.equal(s.riskSurfaceAdd(8, b), 19);
+    const spread = s.riskSurfaceFinish();
+    assert.deepEqual(Array.from(spread.p_value), Array.from(alone.p_value));
+    assert.deepEqual([spread.t_p_value, spread.bandwidth_m, spread.raised_share], [alone.t_p_value, alone.bandwidth_m, alone.raised_share]);
+    helper.free();
+  }
+});

@@ -87,7 +87,7 @@ const NO_OPTIONS = new Set([
   'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
   'labellingShare', 'labellingHelperStart', 'labellingSimulate', 'labellingAdd',
   'nearestCasesStep', 'nearestCasesFinish', 'nearestCasesShare', 'nearestCasesHelperStart', 'nearestCasesSimulate', 'nearestCasesAdd',
-  'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson',
+  'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson', 'riskSurfaceShare', 'riskSurfaceHelperStart', 'riskSurfaceSimulate', 'riskSurfaceAdd',
   'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
 ]);
 

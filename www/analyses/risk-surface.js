@@ -101,7 +101,7 @@ export function mountRiskSurface(C, body) {
       C.showError('Could not start the surface', err);
       return;
     }
-    await C.runPanelJob(state, { start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish', params }, {
+    await C.runPanelJob(state, { start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish', params, parallel: { share: 'riskSurfaceShare', helperStart: 'riskSurfaceHelperStart', simulate: 'riskSurfaceSimulate', add: 'riskSurfaceAdd' } }, {
       progress: $('rr-progress'), text: $('rr-progress-text'), unit: 'random labellings', running: setRunning,
       startText: 'Choosing the bandwidth and computing the surface\u2026', started: 'Computing the relative-risk surface\u2026',
       done: 'Relative-risk surface drawn.', cancelled: 'Relative-risk surface cancelled.', failed: 'The relative-risk surface could not be drawn',
