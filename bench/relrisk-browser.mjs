@@ -17,14 +17,21 @@ try {
     await C.call('setAreaFallback', 'bounding_box');
     await C.call('loadControls', enc(ctl), { coords: { kind: 'planar', unit: 'metre' } });
   }, [casesCsv(5000), controlsCsv(20000)]);
+  // Each method spread over helper workers (as the page's button runs it)
+  // and on one worker, side by side in one run.
   for (const method of ['pooled_rule', 'likelihood_cv']) {
-    const r = await page.evaluate(async (method) => {
-      const t0 = performance.now();
-      const job = window.Cloister.runJob({ start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish', params: { method, n_sim: 99, seed: 1, cells: 256 } }, () => {});
-      const res = await job.promise;
-      return { s: (performance.now() - t0) / 1000, grid: `${res.nx}x${res.ny}`, bandwidth_m: Math.round(res.bandwidth_m), p: res.t_p_value };
-    }, method);
-    console.log(JSON.stringify({ where: 'chromium page (worker)', cases: 5000, controls: 20000, n_sim: 99, method, ...r, target_s: 10 }));
+    for (const spread of [true, false]) {
+      const r = await page.evaluate(async ([method, spread]) => {
+        const t0 = performance.now();
+        const spec = { start: 'riskSurfaceStart', step: 'riskSurfaceStep', finish: 'riskSurfaceFinish', params: { method, n_sim: 99, seed: 1, cells: 256 } };
+        if (spread) spec.parallel = { share: 'riskSurfaceShare', helperStart: 'riskSurfaceHelperStart', simulate: 'riskSurfaceSimulate', add: 'riskSurfaceAdd' };
+        let workers = 1;
+        const job = window.Cloister.runJob(spec, (p) => { workers = Math.max(workers, p.workers || 1); });
+        const res = await job.promise;
+        return { s: (performance.now() - t0) / 1000, workers, grid: `${res.nx}x${res.ny}`, bandwidth_m: Math.round(res.bandwidth_m), p: res.t_p_value };
+      }, [method, spread]);
+      console.log(JSON.stringify({ where: 'chromium page (worker)', cases: 5000, controls: 20000, n_sim: 99, method, spread, ...r, target_s: 10 }));
+    }
   }
 } finally {
   await browser.close();
