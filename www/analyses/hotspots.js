@@ -497,7 +497,7 @@ export function mountHotspots(C) {
       if (p.waiting) {
         // estimate_ms is already shared out over the workers; the faster
         // settings' times are for one worker.
-        askText.textContent = `The ${fmt(total)} chance runs will take ${C.fmtDuration(num(p.estimate_ms))}${workers > 1 ? ` on ${fmt(workers)} workers` : ''} ` +
+        askText.textContent = `The ${fmt(total)} chance runs will take ${C.fmtDuration(num(p.estimate_ms))} ` +
           `(one took ${fmt(perRun, 2)} ms: ${fmt(num(p.started.n_windows))} circles over ${fmt(num(p.started.n_regions))} places).`;
         askList.replaceChildren(...Array.from(p.started.cost.faster || []).map((f) => {
           const b = el('button', { type: 'button', class: 'quiet', id: `hs-faster-${f.option}-${String(f.number).replace('.', '_')}`, 'data-option': f.option }, `Use ${f.label}`);

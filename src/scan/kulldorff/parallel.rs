@@ -80,7 +80,6 @@ impl ScanJob {
 
 #[cfg(test)]
 mod tests {
-    use super::super::distinct_locations;
     use super::*;
     use crate::rng::rng_from_seed;
     use crate::window::Window;
