@@ -1,19 +1,22 @@
 // Kulldorff's scan in headless Chromium, through the page and its worker, on
-// the demo (Load the demo: cases against one control per person, Bernoulli)
-// and the demo with the population as counts (Poisson against the counts):
+// the demo (Load the demo: cases against one control per person, Bernoulli),
+// the demo with the population as counts (Poisson against the counts) and
+// 20,000 invented uniform events without a population file (Poisson against
+// area, 800 grid cells; the helper tests' uniformCsv(20000, 99)):
 // Cloister.runJob (scanStart / Step / Finish) timed as the Run button uses
 // it, spread over helper workers and on one worker, side by side, and the
 // two results compared. Usage: node bench/scan-browser.mjs [n_sim] [repeats]
 // Prints one JSON line per run. Never run from the tests.
-import { launch, openPage, act } from '../tests/e2e/helpers.mjs';
+import { launch, openPage, act, uniformCsv } from '../tests/e2e/helpers.mjs';
 
 const nSim = Number(process.argv[2]) || 999;
 const repeats = Number(process.argv[3]) || 2;
 const browser = await launch();
 try {
   const { page } = await openPage(browser);
-  for (const [button, model] of [['#demo-button', 'bernoulli'], ['#demo-counts-button', 'poisson_population']]) {
-    await act(page, () => page.click(button));
+  for (const [button, model] of [['#demo-button', 'bernoulli'], ['#demo-counts-button', 'poisson_population'], [null, 'poisson']]) {
+    if (button) await act(page, () => page.click(button));
+    else await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: uniformCsv(20000, 99) }));
     await page.waitForFunction((m) => document.getElementById('hs-scan-model').dataset.model === m, model, { timeout: 30000 });
     let base = null;
     for (let r = 0; r < repeats; r++) {
