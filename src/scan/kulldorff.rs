@@ -76,6 +76,9 @@ use crate::window::Window;
 use rand::RngExt;
 use serde::{Deserialize, Serialize};
 
+mod parallel;
+pub use parallel::{ScanShare, ScanSimulator};
+
 /// The probability model.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
@@ -699,37 +702,59 @@ impl ScanJob {
 
     /// Runs up to `k` more replicates; returns the progress.
     pub fn run_batch(&mut self, k: usize) -> ScanProgress {
+        let from = self.null_max.len();
+        let maxima = self.simulate_range(from, from + k);
+        self.null_max.extend_from_slice(&maxima);
+        self.progress()
+    }
+
+    /// The null maxima (largest LLR of a chance run) of replicates
+    /// `from..to` (`to` at most the number asked for). Replicate j depends
+    /// only on the seed and j, so a range computed here, by another job of
+    /// the same data or by a [`ScanSimulator`] equals the job's own; the job
+    /// is not changed.
+    pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
+        let to = to.min(self.o.n_sim);
         let n = self.regions.x.len();
         let cmax = self.total_cases as usize;
         let mut cases = vec![0u32; n];
         let mut min_pop = vec![f64::INFINITY; cmax + 1];
-        let end = (self.null_max.len() + k).min(self.o.n_sim);
-        while self.null_max.len() < end {
-            let j = self.null_max.len();
+        // The Bernoulli draws swap individuals and put them back after each
+        // replicate, so every replicate starts from the same order.
+        let mut individuals = self.individuals.clone();
+        let mut picks = Vec::with_capacity(if individuals.is_empty() { 0 } else { cmax });
+        let mut out = Vec::with_capacity(to.saturating_sub(from));
+        for j in from..to {
             let mut rng = replicate_rng(self.o.seed, j);
-            self.simulate(&mut rng, &mut cases);
-            min_pop.fill(f64::INFINITY);
-            // For each count c, the smallest population of a window holding
-            // exactly c cases (entries inside tie groups carry +∞). Branch
-            // free: a running count and a minimum per list entry.
-            for i in 0..n {
-                let (s, e) = (self.start[i], self.start[i + 1]);
-                let mut c = 0usize;
-                for (&j, &p) in self.list[s..e].iter().zip(&self.pop_at[s..e]) {
-                    c += cases[j as usize] as usize;
-                    let slot = &mut min_pop[c];
-                    *slot = slot.min(p);
-                }
-            }
-            let mut t = 0.0f64;
-            for (c, &p) in min_pop.iter().enumerate().skip(1) {
-                if p.is_finite() {
-                    t = t.max(self.llr(c as f64, p));
-                }
-            }
-            self.null_max.push(t);
+            self.simulate(&mut rng, &mut cases, &mut individuals, &mut picks);
+            out.push(self.null_maximum(&cases, &mut min_pop));
         }
-        self.progress()
+        out
+    }
+
+    /// The largest LLR over all windows for the case counts `cases` per
+    /// region (`min_pop`: scratch of `total_cases + 1` entries).
+    fn null_maximum(&self, cases: &[u32], min_pop: &mut [f64]) -> f64 {
+        min_pop.fill(f64::INFINITY);
+        // For each count c, the smallest population of a window holding
+        // exactly c cases (entries inside tie groups carry +∞). Branch
+        // free: a running count and a minimum per list entry.
+        for i in 0..self.regions.x.len() {
+            let (s, e) = (self.start[i], self.start[i + 1]);
+            let mut c = 0usize;
+            for (&j, &p) in self.list[s..e].iter().zip(&self.pop_at[s..e]) {
+                c += cases[j as usize] as usize;
+                let slot = &mut min_pop[c];
+                *slot = slot.min(p);
+            }
+        }
+        let mut t = 0.0f64;
+        for (c, &p) in min_pop.iter().enumerate().skip(1) {
+            if p.is_finite() {
+                t = t.max(self.llr(c as f64, p));
+            }
+        }
+        t
     }
 
     /// Work of one chance run with the largest circle at `share` (at most
@@ -770,9 +795,6 @@ impl ScanJob {
         max: usize,
     ) -> ScanCost {
         let before = self.null_max.len();
-        // The Bernoulli draws shuffle `individuals` in place, so later runs
-        // depend on it: keep it to put back.
-        let kept = self.individuals.clone();
         let t0 = clock();
         let mut dt = 0.0;
         while self.null_max.len() < self.o.n_sim && self.null_max.len() - before < max.max(1) {
@@ -784,7 +806,6 @@ impl ScanJob {
         }
         let timed = self.null_max.len() - before;
         self.null_max.truncate(before);
-        self.individuals = kept;
         let replicate_ms = if timed > 0 {
             (dt / timed as f64).max(0.0)
         } else {
@@ -827,18 +848,31 @@ impl ScanJob {
         }
     }
 
-    /// Draws the null case counts per region.
-    fn simulate(&mut self, rng: &mut Rng, cases: &mut [u32]) {
+    /// Draws the null case counts per region. Bernoulli: `individuals` is
+    /// left as it was given (`picks`: scratch).
+    fn simulate(
+        &self,
+        rng: &mut Rng,
+        cases: &mut [u32],
+        individuals: &mut [u32],
+        picks: &mut Vec<usize>,
+    ) {
         cases.iter_mut().for_each(|c| *c = 0);
         let total = self.total_cases as usize;
         match self.model {
             ScanModel::Bernoulli => {
-                // Partial Fisher–Yates: a uniform subset of C individuals.
-                let nind = self.individuals.len();
+                // Partial Fisher–Yates: a uniform subset of C individuals,
+                // then the swaps undone in reverse order.
+                let nind = individuals.len();
+                picks.clear();
                 for a in 0..total {
                     let b = a + rng.random_range(0..nind - a);
-                    self.individuals.swap(a, b);
-                    cases[self.individuals[a] as usize] += 1;
+                    individuals.swap(a, b);
+                    picks.push(b);
+                    cases[individuals[a] as usize] += 1;
+                }
+                for (a, &b) in picks.iter().enumerate().rev() {
+                    individuals.swap(a, b);
                 }
             }
             _ => {

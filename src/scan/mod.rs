@@ -9,6 +9,6 @@ pub mod report;
 
 pub use kulldorff::{
     llr_bernoulli, llr_poisson, resolve_model, ScanCentres, ScanCluster, ScanCost, ScanFaster,
-    ScanJob, ScanModel, ScanOptions, ScanRegions, ScanResult,
+    ScanJob, ScanModel, ScanOptions, ScanRegions, ScanResult, ScanShare, ScanSimulator,
 };
 pub use report::{ScanClusterReport, ScanReport};

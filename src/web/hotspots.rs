@@ -27,7 +27,7 @@ use wasm_bindgen::prelude::*;
 
 const KEY_SURFACE: &str = "hotspots.surface";
 const KEY_KDIST5: &str = "hotspots.kdist_privacy";
-const KEY_SCAN: &str = "hotspots.scan";
+pub(super) const KEY_SCAN: &str = "hotspots.scan";
 
 #[derive(Serialize)]
 struct IsoplethOut<'a> {

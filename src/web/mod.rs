@@ -20,6 +20,7 @@ mod risk;
 mod risk_inhom;
 mod risk_nearest;
 mod risk_surface;
+mod scan_parallel;
 mod sharing;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};

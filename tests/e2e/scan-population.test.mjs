@@ -65,3 +65,31 @@ test('the demo with the population as counts loads in one click', async () => {
   assert.deepEqual(log.pageErrors, []);
   assert.deepEqual(log.consoleErrors, []);
 });
+
+test('scan: chance runs spread over helper workers give exactly the one-worker result (both demo models)', async () => {
+  const { page, log } = await openPage(browser);
+  const runs = [];
+  for (const button of ['#demo-button', '#demo-counts-button']) {
+    await act(page, () => page.click(button));
+    const model = button === '#demo-button' ? 'bernoulli' : 'poisson_population';
+    await page.waitForFunction((m) => document.getElementById('hs-scan-model').dataset.model === m, model, { timeout: 30000 });
+    runs.push(await page.evaluate(async () => {
+      const spec = (parallel) => ({
+        start: 'scanStart', step: 'scanStep', finish: 'scanFinish',
+        params: { n_sim: 199, seed: 31337 },
+        ...(parallel ? { parallel: { share: 'scanShare', helperStart: 'scanHelperStart', simulate: 'scanSimulate', add: 'scanAdd' } } : {}),
+      });
+      let workers = 0;
+      const a = await window.Cloister.runJob(spec(true), (p) => { workers = Math.max(workers, p.workers || 0); }).promise;
+      const b = await window.Cloister.runJob(spec(false), () => {}).promise;
+      return { workers, cores: navigator.hardwareConcurrency, model: a.model, n: a.null_maxima.length, a: JSON.stringify(a), b: JSON.stringify(b) };
+    }));
+  }
+  assert.deepEqual(runs.map((r) => r.model), ['bernoulli', 'poisson_population']);
+  for (const r of runs) {
+    if (r.cores > 1) assert.ok(r.workers >= 2, `${r.model} workers: ${r.workers}`);
+    assert.equal(r.n, 199);
+    assert.equal(r.a, r.b, r.model);
+  }
+  assert.deepEqual(log.pageErrors, []);
+});

@@ -102,6 +102,12 @@ export function runScenario() {
   record('dbscan', 'eps 150', s.dbscan({ eps_m: 150, min_samples: 8 }));
   record('kDistance', 'k 5', s.kDistance(5));
   const scan = record('scanStart', 'small', s.scanStart({ n_sim: 19, seed: 3, cells_long_side: 12 }));
+  const scanShare = record('scanShare', '', s.scanShare());
+  const maxima = record('scanSimulate', '0..5', s.scanSimulate(0, 5));
+  const sh = new cloister.Session();
+  record('scanHelperStart', '', sh.scanHelperStart(scanShare));
+  sh.free();
+  record('scanAdd', '0..5', s.scanAdd(0, maxima));
   record('scanStep', 'all', s.scanStep(scan.total));
   record('scanFinish', 'with controls', s.scanFinish());
   record('maskResult', 'nothing masked', s.maskResult());

@@ -98,3 +98,46 @@ test('scan: the model against population counts without counts is a clear error'
   // Events against area stays available with a counts file loaded.
   assert.equal(runScan(counts, { model: 'poisson', n_sim: 9, seed: 1 }).model, 'poisson');
 });
+
+// The chance runs spread over helper workers (the page's worker does this
+// with scanShare / scanHelperStart / scanSimulate / scanAdd): chance run j
+// depends only on the seed and j, so pieces computed in another Session from
+// the shared scan and handed back in order give exactly the one-worker result.
+for (const [population, model] of [['population.csv', 'bernoulli'], ['population-blocks.csv', 'poisson_population']]) {
+  test(`scan (${model}): chance runs computed in a helper Session give exactly the one-worker result`, () => {
+    const params = { n_sim: 99, seed: 17 };
+    const one = runScan(demo(population), params);
+    assert.equal(one.model, model);
+    const s = demo(population);
+    const { total } = s.scanStart(params);
+    assert.equal(total, 99);
+    const helper = new Session();
+    helper.scanHelperStart(s.scanShare());
+    const pieces = [[0, 30], [30, 31], [31, 99]].map(([a, b]) => [a, helper.scanSimulate(a, b)]);
+    assert.equal(pieces[2][1].length, 68);
+    // The running scan computes the same piece itself, unchanged by it.
+    assert.deepEqual(Array.from(s.scanSimulate(30, 31)), Array.from(pieces[1][1]));
+    // Out of order: refused, nothing added.
+    assert.equal(throws(() => s.scanAdd(30, pieces[1][1])).code, 'bad_parameter');
+    assert.equal(throws(() => s.scanAdd(-1, pieces[0][1])).code, 'bad_parameter');
+    let done = 0;
+    for (const [from, maxima] of pieces) done = s.scanAdd(from, maxima);
+    assert.equal(done, 99);
+    const got = s.scanFinish();
+    assert.deepEqual(got, one);
+    assert.deepEqual(Array.from(got.null_maxima), [...pieces.flatMap(([, m]) => Array.from(m))]);
+  });
+}
+
+test('scan: the helper calls without a scan or with a bad share are clear errors', () => {
+  const s = demo('population.csv');
+  assert.equal(throws(() => s.scanShare()).code, 'nothing_started');
+  assert.equal(throws(() => s.scanSimulate(0, 5)).code, 'nothing_started');
+  assert.equal(throws(() => s.scanAdd(0, new Float64Array([1]))).code, 'nothing_started');
+  const h = new Session();
+  assert.equal(throws(() => h.scanHelperStart('{"regions": 1}')).code, 'bad_parameter');
+  s.scanStart({ n_sim: 9, seed: 1 });
+  const share = JSON.parse(s.scanShare());
+  share.options.n_sim = 0;
+  assert.equal(throws(() => h.scanHelperStart(JSON.stringify(share))).code, 'bad_parameter');
+});

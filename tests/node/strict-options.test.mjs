@@ -86,6 +86,7 @@ const NO_OPTIONS = new Set([
   'envelopeSimulate', 'envelopeAdd', 'hotspotsInfo', 'isoplethsGeoJson', 'kDistance', 'scanStep',
   'scanFinish', 'maskResult', 'sharingCautions', 'labellingStep', 'labellingFinish',
   'labellingShare', 'labellingHelperStart', 'labellingSimulate', 'labellingAdd',
+  'scanShare', 'scanHelperStart', 'scanSimulate', 'scanAdd',
   'nearestCasesStep', 'nearestCasesFinish', 'nearestCasesShare', 'nearestCasesHelperStart', 'nearestCasesSimulate', 'nearestCasesAdd',
   'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson', 'riskSurfaceShare', 'riskSurfaceHelperStart', 'riskSurfaceSimulate', 'riskSurfaceAdd',
   'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',

@@ -484,11 +484,19 @@ export function mountHotspots(C) {
     const t0 = performance.now();
     let t1 = null; // when the chance runs began (after any question)
     let perRun = NaN; // ms per chance run, measured when the scan started
-    const job = C.runJob({ start: 'scanStart', step: 'scanStep', finish: 'scanFinish', params, confirm_above_ms: C.longRunMs }, (p) => {
+    let workers = 1; // the chance runs are spread over this many workers
+    // Chance run j is the same on any worker, so the result equals one worker's.
+    const parallel = { share: 'scanShare', helperStart: 'scanHelperStart', simulate: 'scanSimulate', add: 'scanAdd' };
+    const job = C.runJob({ start: 'scanStart', step: 'scanStep', finish: 'scanFinish', params, confirm_above_ms: C.longRunMs, parallel }, (p) => {
       if (state.job !== job) return;
       const done = num(p.done), total = num(p.total);
-      if (p.started && p.started.cost) perRun = num(p.started.cost.replicate_ms);
+      if (p.started && p.started.cost) {
+        perRun = num(p.started.cost.replicate_ms);
+        workers = Math.max(1, num(p.workers) || 1);
+      }
       if (p.waiting) {
+        // estimate_ms is already shared out over the workers; the faster
+        // settings' times are for one worker.
         askText.textContent = `The ${fmt(total)} chance runs will take ${C.fmtDuration(num(p.estimate_ms))} ` +
           `(one took ${fmt(perRun, 2)} ms: ${fmt(num(p.started.n_windows))} circles over ${fmt(num(p.started.n_regions))} places).`;
         askList.replaceChildren(...Array.from(p.started.cost.faster || []).map((f) => {
@@ -497,10 +505,10 @@ export function mountHotspots(C) {
             if (f.option === 'n_sim') simIn.value = String(f.number);
             else shareIn.value = String(Math.round(num(f.number) * 1000) / 10);
             askBox.hidden = true;
-            job.note = `Set to ${f.label}: the chance runs should take ${C.fmtDuration(num(f.run_ms))}. Press Run the scan.`;
+            job.note = `Set to ${f.label}: the chance runs should take ${C.fmtDuration(num(f.run_ms) / workers)}. Press Run the scan.`;
             job.cancel();
           });
-          return el('li', null, b, ` \u2014 the chance runs: ${C.fmtDuration(num(f.run_ms))}`);
+          return el('li', null, b, ` \u2014 the chance runs: ${C.fmtDuration(num(f.run_ms) / workers)}`);
         }));
         askBox.hidden = false;
         barText.textContent = 'Waiting for your answer\u2026';
@@ -512,7 +520,7 @@ export function mountHotspots(C) {
       bar.value = total > 0 ? done / total : 0;
       // Time left: from the runs done since they began, or at first from
       // the measured time of one run.
-      const rate = done > t1.done && now - t1.at > 1500 ? (now - t1.at) / (done - t1.done) : perRun;
+      const rate = done > t1.done && now - t1.at > 1500 ? (now - t1.at) / (done - t1.done) : perRun / workers;
       const left = rate * (total - done);
       barText.textContent = `${fmt(done)} of ${fmt(total)} chance runs${Number.isFinite(left) && left >= 1000 ? ` \u00b7 about ${C.fmtDuration(left).replace(/^about /, '')} left` : ''}`;
     });

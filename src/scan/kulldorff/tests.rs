@@ -153,8 +153,8 @@ fn replicate_maximum_equals_explicit_maximum() {
         let mut cases = vec![0u32; regions.x.len()];
         for j in 0..30 {
             let mut r = replicate_rng(o.seed, j);
-            let mut copy = job.clone();
-            copy.simulate(&mut r, &mut cases);
+            let mut individuals = job.individuals.clone();
+            job.simulate(&mut r, &mut cases, &mut individuals, &mut Vec::new());
             let want = explicit_max(&job, &cases);
             job.run_batch(1);
             let got = job.null_max[j];
@@ -181,11 +181,13 @@ fn bernoulli_null_keeps_case_total_and_region_caps() {
         population: vec![2.0, 3.0, 4.0],
     };
     let o = ScanOptions::default();
-    let mut job = ScanJob::from_regions(&regions, ScanModel::Bernoulli, &o).unwrap();
+    let job = ScanJob::from_regions(&regions, ScanModel::Bernoulli, &o).unwrap();
     let mut cases = vec![0u32; 3];
+    let mut individuals = job.individuals.clone();
+    let mut picks = Vec::new();
     let mut rng = crate::rng::rng_from_seed(1);
     for _ in 0..200 {
-        job.simulate(&mut rng, &mut cases);
+        job.simulate(&mut rng, &mut cases, &mut individuals, &mut picks);
         assert_eq!(cases.iter().sum::<u32>(), 3);
         for (c, p) in cases.iter().zip(&regions.population) {
             assert!(*c as f64 <= *p);

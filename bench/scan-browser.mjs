@@ -1,0 +1,39 @@
+// Kulldorff's scan in headless Chromium, through the page and its worker, on
+// the demo (Load the demo: cases against one control per person, Bernoulli),
+// the demo with the population as counts (Poisson against the counts) and
+// 20,000 invented uniform events without a population file (Poisson against
+// area, 800 grid cells; the helper tests' uniformCsv(20000, 99)):
+// Cloister.runJob (scanStart / Step / Finish) timed as the Run button uses
+// it, spread over helper workers and on one worker, side by side, and the
+// two results compared. Usage: node bench/scan-browser.mjs [n_sim] [repeats]
+// Prints one JSON line per run. Never run from the tests.
+import { launch, openPage, act, uniformCsv } from '../tests/e2e/helpers.mjs';
+
+const nSim = Number(process.argv[2]) || 999;
+const repeats = Number(process.argv[3]) || 2;
+const browser = await launch();
+try {
+  const { page } = await openPage(browser);
+  for (const [button, model] of [['#demo-button', 'bernoulli'], ['#demo-counts-button', 'poisson_population'], [null, 'poisson']]) {
+    if (button) await act(page, () => page.click(button));
+    else await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: uniformCsv(20000, 99) }));
+    await page.waitForFunction((m) => document.getElementById('hs-scan-model').dataset.model === m, model, { timeout: 30000 });
+    let base = null;
+    for (let r = 0; r < repeats; r++) {
+      for (const parallel of [false, true]) {
+        const got = await page.evaluate(async ({ nSim, parallel }) => {
+          const spec = { start: 'scanStart', step: 'scanStep', finish: 'scanFinish', params: { n_sim: nSim, seed: 7 } };
+          if (parallel) spec.parallel = { share: 'scanShare', helperStart: 'scanHelperStart', simulate: 'scanSimulate', add: 'scanAdd' };
+          let workers = 1;
+          const t0 = performance.now();
+          const res = await window.Cloister.runJob(spec, (p) => { workers = Math.max(workers, p.workers || 1); }).promise;
+          return { ms: performance.now() - t0, workers, cores: navigator.hardwareConcurrency, p: res.p_value, json: JSON.stringify(res) };
+        }, { nSim, parallel });
+        base ??= got.json;
+        console.log(JSON.stringify({ model, n_sim: nSim, parallel, workers: got.workers, cores: got.cores, seconds: +(got.ms / 1000).toFixed(2), p_value: got.p, same_as_first: got.json === base }));
+      }
+    }
+  }
+} finally {
+  await browser.close();
+}
