@@ -35,3 +35,11 @@ echo "== random labelling test: headless Chromium page, spread over helper worke
 node bench/labelling-browser.mjs 199
 echo "== random labelling test: level and power over 1,000 seeded data sets each (D and cross-type L)"
 cargo run --quiet --release --example calibration_labelling -- 1000
+echo "== relative-risk surface: Node.js, 5,000 cases + 20,000 controls, 256 x 256, 99 labellings"
+node bench/relrisk.mjs
+echo "== relative-risk surface: headless Chromium page, spread over helper workers and on one"
+node bench/relrisk-browser.mjs
+echo "== scan against population counts: Node.js (demo blocks, 2,000 and 20,000 invented points)"
+node bench/scan-population-node.mjs
+echo "== scan: headless Chromium page, spread over helper workers and on one"
+node bench/scan-browser.mjs 999
