@@ -59,6 +59,7 @@ pub mod projection;
 pub mod risk;
 pub mod rng;
 pub mod scan;
+pub mod spacetime;
 pub mod study;
 pub mod summary;
 pub mod window;

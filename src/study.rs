@@ -36,6 +36,9 @@ pub struct Pattern {
     x: Vec<f64>,
     y: Vec<f64>,
     time: Option<Vec<f64>>,
+    /// End of each event's time window ("to" column); `None` without one.
+    /// Where present, [`Pattern::time`] is the window's start ("from").
+    time_end: Option<Vec<f64>>,
     category: Option<Vec<u32>>,
     category_names: Vec<String>,
     weight: Option<Vec<f64>>,
@@ -77,6 +80,7 @@ impl Pattern {
             x,
             y,
             time: pick_f(&layer.time),
+            time_end: None,
             category: layer.category.as_ref().map(|v| {
                 keep.iter()
                     .map(|&i| v.get(i).copied().unwrap_or(0))
@@ -105,6 +109,11 @@ impl Pattern {
     /// Days since 1970-01-01T00:00Z; NaN where the point has no usable time.
     pub fn time(&self) -> Option<&[f64]> {
         self.time.as_deref()
+    }
+    /// End of each point's time window (days, as [`Pattern::time`]); `None`
+    /// when the events have no "to" column. NaN where a row has no end.
+    pub fn time_end(&self) -> Option<&[f64]> {
+        self.time_end.as_deref()
     }
     /// Points without a usable time (0 without a time column).
     pub fn missing_time(&self) -> usize {

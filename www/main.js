@@ -22,6 +22,7 @@ import { mountHotspots } from './analyses/hotspots.js';
 import { mountSharing } from './analyses/sharing.js';
 import { mountRisk } from './analyses/risk.js';
 import { mountRiskInhom } from './analyses/risk-inhom.js';
+import { mountSpaceTime } from './analyses/spacetime.js';
 
 /* `wasm_bindgen` is the one global this module reads: the wasm-bindgen glue
  * (built with --target no-modules) defines it in its own inline script. */
@@ -134,7 +135,7 @@ async function boot() {
 /** The analysis panels, in the order their sections appear. One that fails to
  * set itself up is reported and the others still come up. */
 function mountPanels() {
-  for (const [name, mount] of [['clustering', mountClustering], ['population', mountRisk], ['population-inhom', mountRiskInhom], ['hotspots', mountHotspots], ['sharing', mountSharing]]) {
+  for (const [name, mount] of [['clustering', mountClustering], ['population', mountRisk], ['population-inhom', mountRiskInhom], ['hotspots', mountHotspots], ['space and time', mountSpaceTime], ['sharing', mountSharing]]) {
     try {
       mount(panelApi);
     } catch (err) {
