@@ -135,7 +135,7 @@ async function boot() {
 /** The analysis panels, in the order their sections appear. One that fails to
  * set itself up is reported and the others still come up. */
 function mountPanels() {
-  for (const [name, mount] of [['clustering', mountClustering], ['population', mountRisk], ['population-inhom', mountRiskInhom], ['hotspots', mountHotspots], ['space and time', mountSpaceTime], ['sharing', mountSharing]]) {
+  for (const [name, mount] of [['clustering', mountClustering], ['population', mountRisk], ['population-inhom', mountRiskInhom], ['hotspots', mountHotspots], ['spacetime', mountSpaceTime], ['sharing', mountSharing]]) {
     try {
       mount(panelApi);
     } catch (err) {
