@@ -10,6 +10,7 @@
 pub mod events;
 pub mod mantel;
 pub mod permute;
+pub mod stk;
 
 pub use events::{time_fields, TimedEvents, UncertainTimes};
 pub use permute::{permutation, permuted_times_batch};
