@@ -146,7 +146,7 @@ pub struct StkShare {
 #[inline(always)]
 fn bin_of(v: f64, step: f64, edges: &[f64]) -> Option<usize> {
     let last = edges.len() - 1;
-    if !(v <= edges[last]) {
+    if v.is_nan() || v > edges[last] {
         return None;
     }
     let mut k = ((v / step).ceil() as usize).min(last);
@@ -488,7 +488,7 @@ impl SpaceTimeKJob {
         }
         let (t_first, t_last) = ev.span().unwrap_or((0.0, 0.0));
         let span = t_last - t_first;
-        if !(span > 0.0) {
+        if span.is_nan() || span <= 0.0 {
             return Err(crate::params::bad(
                 "times",
                 "all events have the same time: the space–time K function needs times that differ",
@@ -562,7 +562,7 @@ impl SpaceTimeKJob {
     /// Grids of permutations `from..` computed elsewhere, added in order.
     pub fn add_simulated(&mut self, from: usize, d: &[f64]) -> Result<usize, AnalysisError> {
         let cells = self.sim.cells();
-        if from != self.done || d.len() % cells != 0 || from + d.len() / cells > self.total() {
+        if from != self.done || !d.len().is_multiple_of(cells) || from + d.len() / cells > self.total() {
             return Err(crate::params::bad(
                 "piece",
                 format!(
