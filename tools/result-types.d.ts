@@ -1250,7 +1250,7 @@ export interface SpaceTimeKResult {
   k: number[];
   /** D = K(s, t) − K_s(s)·K_t(t). */
   d: number[];
-  /** Mean and SD of D over the permutations and the data. */
+  /** Mean and SD of D over the permutations. */
   d_mean: number[];
   d_sd: number[];
   /** (D − mean)/SD; null where D never varies. */
@@ -1260,7 +1260,7 @@ export interface SpaceTimeKResult {
   d_hi: number[];
   k_space: number[];
   k_time: number[];
-  /** Sum of the residuals over the grid, and its rank p. */
+  /** Sum of the residuals over the grid (each grid standardised over the permutations and the data), and its rank p. */
   global_statistic: number;
   global_p: number;
   at_least: number;

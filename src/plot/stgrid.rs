@@ -60,7 +60,9 @@ pub fn draw_space_time_grid<DB: DrawingBackend>(
     }
     let (smax, tmax) = (d.s[ns - 1], d.t[nt - 1]);
     if !(smax > 0.0 && tmax > 0.0) {
-        return Err(PlotError::Data("the grid's largest distance and time must be positive".into()));
+        return Err(PlotError::Data(
+            "the grid's largest distance and time must be positive".into(),
+        ));
     }
     root.fill(&WHITE).map_err(draw_err)?;
     let sc = PixelScale::new(d.scale);
@@ -140,7 +142,10 @@ pub fn draw_space_time_grid<DB: DrawingBackend>(
     k.draw_series((0..steps).map(|i| {
         let lo = -R_CLIP + 2.0 * R_CLIP * i as f64 / steps as f64;
         let hi = lo + 2.0 * R_CLIP / steps as f64;
-        Rectangle::new([(0.0, lo), (1.0, hi)], residual_colour(0.5 * (lo + hi)).filled())
+        Rectangle::new(
+            [(0.0, lo), (1.0, hi)],
+            residual_colour(0.5 * (lo + hi)).filled(),
+        )
     }))
     .map_err(draw_err)?;
     root.present().map_err(draw_err)?;
@@ -178,10 +183,20 @@ mod tests {
         // The cell with R = 2.5 is shaded red-ish, the one above its
         // envelope has a dot.
         let c = residual_colour(2.5);
-        assert!(svg.to_lowercase().contains(&format!("#{:02x}{:02x}{:02x}", c.0, c.1, c.2)), "colour");
+        assert!(
+            svg.to_lowercase()
+                .contains(&format!("#{:02x}{:02x}{:02x}", c.0, c.1, c.2)),
+            "colour"
+        );
         assert!(svg.contains("<circle"));
-        let bad = SpaceTimeGridData { residual: vec![None; 5], ..d };
+        let bad = SpaceTimeGridData {
+            residual: vec![None; 5],
+            ..d
+        };
         let root = SVGBackend::new("/dev/null", (10, 10)).into_drawing_area();
-        assert!(matches!(draw_space_time_grid(&root, &bad), Err(PlotError::Data(_))));
+        assert!(matches!(
+            draw_space_time_grid(&root, &bad),
+            Err(PlotError::Data(_))
+        ));
     }
 }

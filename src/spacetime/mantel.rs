@@ -216,8 +216,11 @@ fn z_pass<const RECIP: bool>(share: &MantelShare, tb: &[f32], b: usize, out: &mu
         let (xi, yi) = (x[i], y[i]);
         for j in i + 1..n {
             let (dx, dy) = (x[j] - xi, y[j] - yi);
-            let a = space_value(o.space_transform, o.space_constant_m, (dx * dx + dy * dy).sqrt())
-                as f32;
+            let a = space_value(
+                o.space_transform,
+                o.space_constant_m,
+                (dx * dx + dy * dy).sqrt(),
+            ) as f32;
             let tj = &tb[j * b..(j + 1) * b];
             for ((acc, &p), &q) in row.iter_mut().zip(ti).zip(tj) {
                 let u = (p - q).abs();
@@ -464,7 +467,10 @@ impl MantelJob {
             ));
         }
         if z.iter().any(|v| !v.is_finite()) {
-            return Err(crate::params::bad("piece", "holds a value that is not a number"));
+            return Err(crate::params::bad(
+                "piece",
+                "holds a value that is not a number",
+            ));
         }
         self.sims.extend_from_slice(z);
         Ok(self.sims.len())
@@ -679,7 +685,11 @@ mod tests {
         // p_upper = 0.316071.
         let ev = k7();
         let job = MantelJob::new(&ev, &raw()).unwrap();
-        assert!((job.observed() - 38.974216).abs() < 5e-5, "{}", job.observed());
+        assert!(
+            (job.observed() - 38.974216).abs() < 5e-5,
+            "{}",
+            job.observed()
+        );
         let (mean, var) = job.moments();
         assert!((mean - 38.044347).abs() < 1e-6, "{mean}");
         assert!((var - 4.300518).abs() < 1e-6, "{var}");
@@ -701,7 +711,9 @@ mod tests {
         let mut rng = crate::rng::rng_from_seed(41);
         let x: Vec<f64> = (0..7).map(|_| rng.random_range(0.0..500.0)).collect();
         let y: Vec<f64> = (0..7).map(|_| rng.random_range(0.0..500.0)).collect();
-        let t: Vec<f64> = (0..7).map(|_| rng.random_range(0.0..60.0f64).floor()).collect();
+        let t: Vec<f64> = (0..7)
+            .map(|_| rng.random_range(0.0..60.0f64).floor())
+            .collect();
         let ev = TimedEvents::from_xyt(x, y, t).unwrap();
         for (st, tt) in [
             (Transform::Raw, Transform::Raw),
@@ -719,8 +731,14 @@ mod tests {
             let job = MantelJob::new(&ev, &o).unwrap();
             let (mean, var) = job.moments();
             let (em, evar, _, _, _) = enumerate(&ev, &o);
-            assert!((mean - em).abs() <= 1e-9 * em.abs().max(1e-12), "{st:?}/{tt:?}: {mean} vs {em}");
-            assert!((var - evar).abs() <= 1e-7 * evar.abs().max(1e-12), "{st:?}/{tt:?}: {var} vs {evar}");
+            assert!(
+                (mean - em).abs() <= 1e-9 * em.abs().max(1e-12),
+                "{st:?}/{tt:?}: {mean} vs {em}"
+            );
+            assert!(
+                (var - evar).abs() <= 1e-7 * evar.abs().max(1e-12),
+                "{st:?}/{tt:?}: {var} vs {evar}"
+            );
         }
     }
 
@@ -742,7 +760,11 @@ mod tests {
     #[test]
     fn split_runs_equal_one_run() {
         let ev = k7();
-        let o = MantelOptions { n_sim: 99, seed: 9, ..raw() };
+        let o = MantelOptions {
+            n_sim: 99,
+            seed: 9,
+            ..raw()
+        };
         let mut a = MantelJob::new(&ev, &o).unwrap();
         a.run_batch(99);
         let mut b = MantelJob::new(&ev, &o).unwrap();
@@ -762,12 +784,19 @@ mod tests {
         // 4000 permutations: the simulated mean within 4 standard errors of
         // the exact mean.
         let ev = k7();
-        let o = MantelOptions { n_sim: 4000, seed: 2, ..raw() };
+        let o = MantelOptions {
+            n_sim: 4000,
+            seed: 2,
+            ..raw()
+        };
         let mut job = MantelJob::new(&ev, &o).unwrap();
         job.run_batch(4000);
         let (mean, var) = job.moments();
         let m = job.sims.iter().sum::<f64>() / 4000.0;
-        assert!((m - mean).abs() < 4.0 * (var / 4000.0).sqrt(), "{m} vs {mean}");
+        assert!(
+            (m - mean).abs() < 4.0 * (var / 4000.0).sqrt(),
+            "{m} vs {mean}"
+        );
     }
 
     #[test]
@@ -779,21 +808,29 @@ mod tests {
         ));
         let n = MAX_EVENTS + 1;
         let big = TimedEvents::from_xyt(vec![0.0; n], vec![0.0; n], vec![0.0; n]).unwrap();
-        let e = MantelJob::new(&big, &MantelOptions::default()).err().unwrap();
+        let e = MantelJob::new(&big, &MantelOptions::default())
+            .err()
+            .unwrap();
         assert!(e.to_string().contains("10000"), "{e}");
-        let bad = MantelOptions { time_constant_days: 0.0, ..Default::default() };
+        let bad = MantelOptions {
+            time_constant_days: 0.0,
+            ..Default::default()
+        };
         assert!(MantelJob::new(&k7(), &bad).is_err());
     }
 
     #[test]
     fn identical_times_give_zero_variance_and_no_signal() {
-        let ev = TimedEvents::from_xyt(
-            vec![0.0, 1.0, 2.0, 3.0, 4.0],
-            vec![0.0; 5],
-            vec![5.0; 5],
+        let ev = TimedEvents::from_xyt(vec![0.0, 1.0, 2.0, 3.0, 4.0], vec![0.0; 5], vec![5.0; 5])
+            .unwrap();
+        let mut job = MantelJob::new(
+            &ev,
+            &MantelOptions {
+                n_sim: 19,
+                ..Default::default()
+            },
         )
         .unwrap();
-        let mut job = MantelJob::new(&ev, &MantelOptions { n_sim: 19, ..Default::default() }).unwrap();
         job.run_batch(19);
         let r = job.finish().unwrap();
         assert_eq!(r.variance, 0.0);

@@ -26,11 +26,12 @@
 //! ([`super::permutation`]). K̂_s and K̂_t do not change; K̂(s, t) does.
 //! Over all permutations the mean of K̂(s, t) is exactly K̂_s(s)·K̂_t(t),
 //! so D̂ has permutation mean 0 (checked by enumeration in the tests). Per
-//! grid cell the mean and SD of D̂ are taken over the m permutations and
-//! the data together (so the data and the permutations are treated alike
-//! and the rank p below is exact), giving standardised residuals
-//! R(s, t) = (D̂ − mean)/SD. The global statistic is the sum of R over the
-//! grid (as the source suggests) and its p the rank p,
+//! grid cell the mean and SD of D̂ over the m permutations give the
+//! standardised residuals R(s, t) = (D̂ − mean)/SD that the grid shows. The
+//! global statistic is the sum of the residuals over the grid (as the
+//! source suggests), standardised for the test with the mean and SD over
+//! the permutations *and the data* (so that the data and the permutations
+//! are exchangeable and the rank p is exact), with the rank p
 //! (1 + #{ΣR* ≥ ΣR})/(m + 1). Cells whose D̂ never varies have no R and
 //! are left out of the sum. A pointwise envelope (smallest and largest D̂*
 //! of the permutations) is reported per cell; being pointwise, it is not a
@@ -159,7 +160,9 @@ fn bin_of(v: f64, step: f64, edges: &[f64]) -> Option<usize> {
 }
 
 fn grid(max: f64, steps: usize) -> Vec<f64> {
-    (0..=steps).map(|k| (k as f64 * max) / steps as f64).collect()
+    (0..=steps)
+        .map(|k| (k as f64 * max) / steps as f64)
+        .collect()
 }
 
 /// Runs permutations of a space–time K run (here or in a helper).
@@ -185,8 +188,9 @@ impl StkSimulator {
     /// Finds the pairs within s_max with their bands and weights, and
     /// K̂_s and K̂_t.
     pub fn new(share: StkShare) -> Result<StkSimulator, AnalysisError> {
-        let window = Window::from_polygons(share.polygons.clone(), crate::window::WindowOrigin::File)
-            .map_err(|e| crate::params::bad("study area", e.to_string()))?;
+        let window =
+            Window::from_polygons(share.polygons.clone(), crate::window::WindowOrigin::File)
+                .map_err(|e| crate::params::bad("study area", e.to_string()))?;
         let n = share.x.len();
         let o = &share.options;
         let index = GridIndex::with_cell(&share.x, &share.y, share.s_max / 2.0);
@@ -211,9 +215,8 @@ impl StkSimulator {
             .map(|i| window.boundary_distance(share.x[i], share.y[i]))
             .collect();
         let cap = crate::distance::FunctionParams::default().weight_cap;
-        let iso = crate::distance::edge::IsoCache::new(
-            &window, &share.x, &share.y, b, share.s_max, cap,
-        );
+        let iso =
+            crate::distance::edge::IsoCache::new(&window, &share.x, &share.y, b, share.s_max, cap);
         let (mut pi, mut pj, mut band, mut wi, mut wj) =
             (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
         let mut capped = 0u64;
@@ -322,7 +325,8 @@ impl StkSimulator {
                 }
             }
         }
-        let scale = self.area * self.span / (self.share.x.len() as f64 * (self.share.x.len() as f64 - 1.0));
+        let scale =
+            self.area * self.span / (self.share.x.len() as f64 * (self.share.x.len() as f64 - 1.0));
         for k in 0..b {
             let g = &mut acc[k * cells..(k + 1) * cells];
             // Cumulative over s (rows) and t (columns).
@@ -435,7 +439,8 @@ pub struct SpaceTimeKResult {
     pub d_hi: Vec<f64>,
     pub k_space: Vec<f64>,
     pub k_time: Vec<f64>,
-    /// Σ R over the cells with an R, and its rank p.
+    /// Σ R over the cells with an R (standardised over the permutations
+    /// and the data), and its rank p.
     pub global_statistic: f64,
     pub global_p: f64,
     pub at_least: usize,
@@ -562,7 +567,10 @@ impl SpaceTimeKJob {
     /// Grids of permutations `from..` computed elsewhere, added in order.
     pub fn add_simulated(&mut self, from: usize, d: &[f64]) -> Result<usize, AnalysisError> {
         let cells = self.sim.cells();
-        if from != self.done || !d.len().is_multiple_of(cells) || from + d.len() / cells > self.total() {
+        if from != self.done
+            || !d.len().is_multiple_of(cells)
+            || from + d.len() / cells > self.total()
+        {
             return Err(crate::params::bad(
                 "piece",
                 format!(
@@ -574,7 +582,10 @@ impl SpaceTimeKJob {
             ));
         }
         if d.iter().any(|v| !v.is_finite()) {
-            return Err(crate::params::bad("piece", "holds a value that is not a number"));
+            return Err(crate::params::bad(
+                "piece",
+                "holds a value that is not a number",
+            ));
         }
         self.sims.extend_from_slice(d);
         self.done += d.len() / cells;
@@ -592,47 +603,36 @@ impl SpaceTimeKJob {
         let cells = sim.cells();
         let nt = o.t_steps;
         let count = (m + 1) as f64;
-        let mut mean = self.d_obs.clone();
         let mut lo = vec![f64::INFINITY; cells];
         let mut hi = vec![f64::NEG_INFINITY; cells];
         for g in self.sims.chunks(cells) {
             for c in 0..cells {
-                mean[c] += g[c];
                 lo[c] = lo[c].min(g[c]);
                 hi[c] = hi[c].max(g[c]);
             }
         }
-        mean.iter_mut().for_each(|v| *v /= count);
-        let mut ss: Vec<f64> = self
+        // Per cell over the permutations: what the shaded grid and the
+        // verdict show (not capped by the data's own value).
+        let (mean, sd) = mean_sd(self.sims.chunks(cells), cells, &self.d_obs);
+        let residual: Vec<Option<f64>> = self
             .d_obs
             .iter()
             .zip(&mean)
-            .map(|(d, mu)| (d - mu).powi(2))
+            .zip(&sd)
+            .map(|((d, mu), &s)| (s > 0.0).then(|| (d - mu) / s))
             .collect();
-        for g in self.sims.chunks(cells) {
-            for c in 0..cells {
-                ss[c] += (g[c] - mean[c]).powi(2);
-            }
-        }
-        // SD over the m + 1 grids; a cell whose D̂ varies only at the level
-        // of rounding has none.
-        let sd: Vec<f64> = ss
-            .iter()
-            .zip(&mean)
-            .zip(&self.d_obs)
-            .map(|((s, mu), d)| {
-                let v = (s / (count - 1.0).max(1.0)).sqrt();
-                if v > 1e-9 * (mu.abs() + d.abs()).max(f64::MIN_POSITIVE) {
-                    v
-                } else {
-                    0.0
-                }
-            })
-            .collect();
+        // The global test standardises with the mean and SD over the
+        // permutations and the data together, so that the data and the
+        // permutations are exchangeable and the rank p is exact.
+        let (pmean, psd) = mean_sd(
+            self.sims.chunks(cells).chain(std::iter::once(&self.d_obs[..])),
+            cells,
+            &self.d_obs,
+        );
         let sum_r = |g: &[f64]| -> f64 {
             g.iter()
-                .zip(&mean)
-                .zip(&sd)
+                .zip(&pmean)
+                .zip(&psd)
                 .filter(|(_, &s)| s > 0.0)
                 .map(|((d, mu), s)| (d - mu) / s)
                 .sum()
@@ -644,13 +644,6 @@ impl SpaceTimeKJob {
             .filter(|g| sum_r(g) >= global - 1e-9 * global.abs())
             .count();
         let global_p = (1 + at_least) as f64 / count;
-        let residual: Vec<Option<f64>> = self
-            .d_obs
-            .iter()
-            .zip(&mean)
-            .zip(&sd)
-            .map(|((d, mu), &s)| (s > 0.0).then(|| (d - mu) / s))
-            .collect();
         let peak = residual
             .iter()
             .enumerate()
@@ -738,6 +731,45 @@ impl SpaceTimeKJob {
     }
 }
 
+/// Mean and SD (denominator count − 1) per cell over `grids`; an SD at the
+/// level of rounding (relative to the mean and the data's value) is 0.
+fn mean_sd<'a>(
+    grids: impl Iterator<Item = &'a [f64]> + Clone,
+    cells: usize,
+    data: &[f64],
+) -> (Vec<f64>, Vec<f64>) {
+    let mut mean = vec![0.0; cells];
+    let mut count = 0usize;
+    for g in grids.clone() {
+        count += 1;
+        for (m, v) in mean.iter_mut().zip(g) {
+            *m += v;
+        }
+    }
+    let k = count.max(1) as f64;
+    mean.iter_mut().for_each(|v| *v /= k);
+    let mut ss = vec![0.0; cells];
+    for g in grids {
+        for ((s, v), m) in ss.iter_mut().zip(g).zip(&mean) {
+            *s += (v - m).powi(2);
+        }
+    }
+    let sd = ss
+        .iter()
+        .zip(&mean)
+        .zip(data)
+        .map(|((s, mu), d)| {
+            let v = if count > 1 { (s / (k - 1.0)).sqrt() } else { 0.0 };
+            if v > 1e-9 * (mu.abs() + d.abs()).max(f64::MIN_POSITIVE) {
+                v
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    (mean, sd)
+}
+
 /// Rounded to 3 significant figures (for sentences).
 fn round_sig(v: f64) -> f64 {
     if v == 0.0 || !v.is_finite() {
@@ -757,7 +789,15 @@ pub fn grid_csv(r: &SpaceTimeKResult) -> String {
         let res = r.residual[c].map_or(String::new(), |v| format!("{v}"));
         s.push_str(&format!(
             "{},{},{},{},{},{},{},{},{}\n",
-            r.s[c / nt], r.t[c % nt], r.k[c], r.d[c], r.d_mean[c], r.d_sd[c], res, r.d_lo[c], r.d_hi[c]
+            r.s[c / nt],
+            r.t[c % nt],
+            r.k[c],
+            r.d[c],
+            r.d_mean[c],
+            r.d_sd[c],
+            res,
+            r.d_lo[c],
+            r.d_hi[c]
         ));
     }
     s
@@ -823,11 +863,16 @@ mod tests {
                         }
                         let d = ((ev.x[i] - ev.x[j]).powi(2) + (ev.y[i] - ev.y[j]).powi(2)).sqrt();
                         let u = (ev.t[i] - ev.t[j]).abs();
-                        let wi = crate::distance::edge::isotropic_weight_at(&w, ev.x[i], ev.y[i], d)
-                            .unwrap()
-                            .min(4.0);
+                        let wi =
+                            crate::distance::edge::isotropic_weight_at(&w, ev.x[i], ev.y[i], d)
+                                .unwrap()
+                                .min(4.0);
                         let ti = ev.t[i] - t0;
-                        let v = if ti - u >= 0.0 && ti + u <= span { 1.0 } else { 2.0 };
+                        let v = if ti - u >= 0.0 && ti + u <= span {
+                            1.0
+                        } else {
+                            2.0
+                        };
                         if d <= s && u <= t {
                             sum += wi * v;
                         }
@@ -841,7 +886,10 @@ mod tests {
                 }
                 let want = sum * span / (n * (n - 1.0));
                 let got = k[a * 6 + b];
-                assert!((got - want).abs() <= 1e-6 * want.max(1e-9), "K({s},{t}) {got} vs {want}");
+                assert!(
+                    (got - want).abs() <= 1e-6 * want.max(1e-9),
+                    "K({s},{t}) {got} vs {want}"
+                );
                 let ks = ssum / (n * (n - 1.0));
                 assert!((sim.k_space()[a] - ks).abs() <= 1e-6 * ks.max(1e-9));
                 let kt = tsum * span / (n * (n - 1.0));
@@ -870,7 +918,9 @@ mod tests {
         // All permutations by repeated next-permutation.
         loop {
             let mut p = perms.last().unwrap().clone();
-            let Some(i) = (0..5).rev().find(|&i| p[i] < p[i + 1]) else { break };
+            let Some(i) = (0..5).rev().find(|&i| p[i] < p[i + 1]) else {
+                break;
+            };
             let j = (i + 1..6).rev().find(|&j| p[j] > p[i]).unwrap();
             p.swap(i, j);
             p[i + 1..].reverse();
@@ -916,14 +966,21 @@ mod tests {
         let m = vals.iter().sum::<f64>() / 200.0;
         let sd = (vals.iter().map(|v| (v - m).powi(2)).sum::<f64>() / 199.0).sqrt();
         let theory = 2.0 * std::f64::consts::PI * 0.01 * 10.0;
-        assert!((m - theory).abs() < 4.0 * sd / 200f64.sqrt(), "{m} vs {theory} (sd {sd})");
+        assert!(
+            (m - theory).abs() < 4.0 * sd / 200f64.sqrt(),
+            "{m} vs {theory} (sd {sd})"
+        );
     }
 
     #[test]
     fn split_runs_equal_one_run_and_bad_pieces_are_refused() {
         let ev = uniform(80, 5, 50.0);
         let w = unit_sq();
-        let o = SpaceTimeKOptions { n_sim: 39, seed: 4, ..Default::default() };
+        let o = SpaceTimeKOptions {
+            n_sim: 39,
+            seed: 4,
+            ..Default::default()
+        };
         let mut a = SpaceTimeKJob::new(&ev, &w, &o).unwrap();
         a.run_batch(39);
         let mut b = SpaceTimeKJob::new(&ev, &w, &o).unwrap();
@@ -965,7 +1022,11 @@ mod tests {
         let mut job = SpaceTimeKJob::new(&ev, &unit_sq(), &o).unwrap();
         job.run_batch(99);
         let r = job.finish().unwrap();
-        assert!(r.d[0] > 0.0 && r.residual[0].unwrap() > 2.0, "{:?}", &r.d[..3]);
+        assert!(
+            r.d[0] > 0.0 && r.residual[0].unwrap() > 2.0,
+            "{:?}",
+            &r.d[..3]
+        );
         assert_eq!(r.outcome, StkOutcome::Interaction);
         assert!(r.global_p <= 0.02);
         let (a, b) = r.peak.unwrap();
@@ -980,12 +1041,21 @@ mod tests {
         let same = TimedEvents::from_xyt(vec![0.1, 0.2, 0.3], vec![0.1; 3], vec![4.0; 3]).unwrap();
         assert!(SpaceTimeKJob::new(&same, &w, &SpaceTimeKOptions::default()).is_err());
         let ev = uniform(20, 1, 10.0);
-        let long = SpaceTimeKOptions { t_max_days: Some(500.0), ..Default::default() };
+        let long = SpaceTimeKOptions {
+            t_max_days: Some(500.0),
+            ..Default::default()
+        };
         let e = SpaceTimeKJob::new(&ev, &w, &long).err().unwrap();
         assert!(e.to_string().contains("span"), "{e}");
-        let steps = SpaceTimeKOptions { s_steps: 1, ..Default::default() };
+        let steps = SpaceTimeKOptions {
+            s_steps: 1,
+            ..Default::default()
+        };
         assert!(SpaceTimeKJob::new(&ev, &w, &steps).is_err());
-        let far = SpaceTimeKOptions { s_max_m: Some(100.0), ..Default::default() };
+        let far = SpaceTimeKOptions {
+            s_max_m: Some(100.0),
+            ..Default::default()
+        };
         assert!(SpaceTimeKJob::new(&ev, &w, &far).is_err());
     }
 }

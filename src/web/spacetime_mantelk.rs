@@ -22,7 +22,9 @@
 
 use super::{analysis_error, decode, from_js, js_error, to_js, Session};
 use crate::spacetime::mantel::{MantelJob, MantelOptions, MantelShare};
-use crate::spacetime::stk::{grid_csv, SpaceTimeKJob, SpaceTimeKOptions, SpaceTimeKResult, StkShare, StkSimulator};
+use crate::spacetime::stk::{
+    grid_csv, SpaceTimeKJob, SpaceTimeKOptions, SpaceTimeKResult, StkShare, StkSimulator,
+};
 use crate::spacetime::TimedEvents;
 use serde::Serialize;
 use wasm_bindgen::prelude::*;
@@ -62,7 +64,11 @@ fn no_job(what: &str) -> JsValue {
 }
 
 fn bad_share(e: serde_json::Error) -> JsValue {
-    js_error("bad_parameter", &format!("unreadable shared run: {e}"), None)
+    js_error(
+        "bad_parameter",
+        &format!("unreadable shared run: {e}"),
+        None,
+    )
 }
 
 fn counts(from: f64, to: f64, method: &str) -> Result<(usize, usize), JsValue> {
@@ -166,7 +172,8 @@ impl Session {
         let job = self
             .extra_mut::<MantelJob>(KEY_MANTEL)
             .ok_or_else(|| no_job("Mantel test"))?;
-        job.add_simulated(from, &piece).map_err(|e| analysis_error(&e))
+        job.add_simulated(from, &piece)
+            .map_err(|e| analysis_error(&e))
     }
 
     /// Starts the space–time K function of the events with a time.
@@ -280,7 +287,8 @@ impl Session {
         let job = self
             .extra_mut::<SpaceTimeKJob>(KEY_STK)
             .ok_or_else(|| no_job("space–time K run"))?;
-        job.add_simulated(from, &piece).map_err(|e| analysis_error(&e))
+        job.add_simulated(from, &piece)
+            .map_err(|e| analysis_error(&e))
     }
 }
 

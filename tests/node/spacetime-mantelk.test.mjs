@@ -121,7 +121,7 @@ test('space–time K split over a helper equals one run', () => {
 
 test('refusals: no dates, too few events, bad options, pieces out of order, CSV before a run', () => {
   const nodates = new Session();
-  nodates.loadEvents(text('x,y\n1,1\n2,2\n3,3\n4,4\n5,5\n'), {});
+  nodates.loadEvents(text('x,y\n1,1\n2,5\n3,3\n7,4\n5,9\n'), {});
   for (const m of ['mantelStart', 'spaceTimeKStart']) {
     const e = throws(() => nodates[m]({}));
     assert.equal(e.code, 'nothing_loaded', e.message);

@@ -115,7 +115,7 @@ export function mountSpaceTimeMantelK(C, body) {
       showError('Could not start the Mantel test', err);
       return;
     }
-    await C.runPanelJob(mantel, { start: 'mantelStart', step: 'mantelStep', finish: 'mantelFinish', params, parallel: { share: 'mantelShare', helperStart: 'mantelHelperStart', simulate: 'mantelSimulate', add: 'mantelAdd', minPiece: 8 } }, {
+    await C.runPanelJob(mantel, { start: 'mantelStart', step: 'mantelStep', finish: 'mantelFinish', params, parallel: { share: 'mantelShare', helperStart: 'mantelHelperStart', simulate: 'mantelSimulate', add: 'mantelAdd', minPiece: 4 } }, {
       progress: $('stm-progress'), text: $('stm-progress-text'), unit: 'permutations', running: setRunning('stm'),
       startText: 'Comparing every pair of events\u2026', started: 'Shuffling dates among the places\u2026',
       done: 'Mantel test done.', cancelled: 'Mantel test cancelled.', failed: 'The Mantel test could not run',
@@ -164,7 +164,7 @@ export function mountSpaceTimeMantelK(C, body) {
     }
     stk.result = null;
     $('stk-csv').disabled = true;
-    await C.runPanelJob(stk, { start: 'spaceTimeKStart', step: 'spaceTimeKStep', finish: 'spaceTimeKFinish', params, parallel: { share: 'spaceTimeKShare', helperStart: 'spaceTimeKHelperStart', simulate: 'spaceTimeKSimulate', add: 'spaceTimeKAdd', minPiece: 4 } }, {
+    await C.runPanelJob(stk, { start: 'spaceTimeKStart', step: 'spaceTimeKStep', finish: 'spaceTimeKFinish', params, parallel: { share: 'spaceTimeKShare', helperStart: 'spaceTimeKHelperStart', simulate: 'spaceTimeKSimulate', add: 'spaceTimeKAdd' } }, {
       progress: $('stk-progress'), text: $('stk-progress-text'), unit: 'permutations', running: setRunning('stk'),
       startText: 'Finding the pairs of events within the largest distance\u2026', started: 'Shuffling dates among the places\u2026',
       done: 'Space\u2013time K function done.', cancelled: 'Space\u2013time K function cancelled.', failed: 'The space\u2013time K function could not run',
