@@ -1,7 +1,8 @@
 //! The shaded grid of the space–time K function: one cell per distance
 //! (horizontal, metres) and time difference (vertical, days), shaded by
-//! the standardised residual R = (D̂ − permutation mean)/SD. Cells where
-//! the data lie above the permutations' pointwise envelope get a dot.
+//! the standardised residual R = (D̂ − permutation mean)/SD, written in the
+//! cell on grids of up to 15 × 15. Cells where the data lie above the
+//! permutations' pointwise envelope get a dot.
 //!
 //! Our own design: a diverging scale from a slate blue (fewer close pairs
 //! than chance) through white to a brick red (more), clipped at |R| = 3,
@@ -12,6 +13,7 @@
 use super::{draw_err, PixelScale, PlotError};
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
 use serde::Deserialize;
 
 /// Data for [`draw_space_time_grid`]: the fields of a space–time K result
@@ -32,6 +34,19 @@ pub struct SpaceTimeGridData {
 
 /// Where |R| is clipped on the colour scale.
 pub const R_CLIP: f64 = 3.0;
+
+/// Grids with at most this many steps on each axis get the residual
+/// written in each cell.
+pub const LABEL_MAX_STEPS: usize = 15;
+
+/// A residual as written in its cell: one decimal below 10, none above.
+pub fn residual_label(r: f64) -> String {
+    if r.abs() < 10.0 {
+        format!("{r:.1}")
+    } else {
+        format!("{r:.0}")
+    }
+}
 
 /// The shade of a residual (white at 0).
 pub fn residual_colour(r: f64) -> RGBColor {
@@ -110,13 +125,42 @@ pub fn draw_space_time_grid<DB: DrawingBackend>(
     chart
         .draw_series((0..nt).map(|b| PathElement::new(vec![(0.0, d.t[b]), (smax, d.t[b])], line)))
         .map_err(draw_err)?;
+    // Each cell's residual as a number when the cells are large enough (a
+    // shade beyond ±3 does not say how far beyond).
+    let labels = ns <= LABEL_MAX_STEPS && nt <= LABEL_MAX_STEPS;
+    if labels {
+        let (dark, light) = (RGBColor(25, 25, 25), WHITE);
+        let centre = Pos::new(HPos::Center, VPos::Center);
+        let on_light = TextStyle::from(("sans-serif", pf(11.0)).into_font())
+            .color(&dark)
+            .pos(centre);
+        let on_dark = TextStyle::from(("sans-serif", pf(11.0)).into_font())
+            .color(&light)
+            .pos(centre);
+        chart
+            .draw_series((0..cells).filter_map(|c| {
+                let r = d.residual[c].filter(|v| v.is_finite())?;
+                let (a, b) = (c / nt, c % nt);
+                let cx = 0.5 * (edge(&d.s, a) + d.s[a]);
+                let cy = 0.5 * (edge(&d.t, b) + d.t[b]);
+                let ink = if r.abs() > 0.6 * R_CLIP {
+                    &on_dark
+                } else {
+                    &on_light
+                };
+                Some(Text::new(residual_label(r), (cx, cy), ink.clone()))
+            }))
+            .map_err(draw_err)?;
+    }
     if d.d.len() == cells && d.d_hi.len() == cells {
         let dot = RGBColor(20, 20, 20);
         chart
             .draw_series((0..cells).filter(|&c| d.d[c] > d.d_hi[c]).map(|c| {
                 let (a, b) = (c / nt, c % nt);
-                let cx = 0.5 * (edge(&d.s, a) + d.s[a]);
-                let cy = 0.5 * (edge(&d.t, b) + d.t[b]);
+                // Centred without labels; near the cell's top left corner with.
+                let (fx, fy) = if labels { (0.15, 0.8) } else { (0.5, 0.5) };
+                let cx = edge(&d.s, a) + fx * (d.s[a] - edge(&d.s, a));
+                let cy = edge(&d.t, b) + fy * (d.t[b] - edge(&d.t, b));
                 Circle::new((cx, cy), pt(3), dot.filled())
             }))
             .map_err(draw_err)?;
@@ -189,6 +233,9 @@ mod tests {
             "colour"
         );
         assert!(svg.contains("<circle"));
+        // Labels: one decimal below 10.
+        assert!(svg.contains("-1.0") && svg.contains("3.4"), "labels");
+        assert_eq!(residual_label(127.4), "127");
         let bad = SpaceTimeGridData {
             residual: vec![None; 5],
             ..d

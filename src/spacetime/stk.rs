@@ -625,7 +625,9 @@ impl SpaceTimeKJob {
         // permutations and the data together, so that the data and the
         // permutations are exchangeable and the rank p is exact.
         let (pmean, psd) = mean_sd(
-            self.sims.chunks(cells).chain(std::iter::once(&self.d_obs[..])),
+            self.sims
+                .chunks(cells)
+                .chain(std::iter::once(&self.d_obs[..])),
             cells,
             &self.d_obs,
         );
@@ -759,7 +761,11 @@ fn mean_sd<'a>(
         .zip(&mean)
         .zip(data)
         .map(|((s, mu), d)| {
-            let v = if count > 1 { (s / (k - 1.0)).sqrt() } else { 0.0 };
+            let v = if count > 1 {
+                (s / (k - 1.0)).sqrt()
+            } else {
+                0.0
+            };
             if v > 1e-9 * (mu.abs() + d.abs()).max(f64::MIN_POSITIVE) {
                 v
             } else {

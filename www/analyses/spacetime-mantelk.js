@@ -67,7 +67,7 @@ export function mountSpaceTimeMantelK(C, body) {
     el('div', { id: 'stk-result', class: 'stmk-result', hidden: true },
       el('p', { id: 'stk-verdict', class: 'stmk-verdict' }),
       el('div', { class: 'stmk-chart-wrap' }, el('canvas', { id: 'stk-chart', role: 'img', 'aria-label': 'Shaded grid of standardised differences by distance and days' })),
-      el('p', { class: 'hint' }, 'Red: more pairs within that distance and time than with the dates shuffled; blue: fewer; grey: no pairs vary there. A dot marks a cell above all the shuffled runs (pointwise; read the global test first).'),
+      el('p', { class: 'hint' }, 'Red: more pairs within that distance and time than with the dates shuffled; blue: fewer; grey: no pairs vary there. The number in a cell (on grids of up to 15 \u00d7 15) is that difference in standard deviations of the shuffled runs; the shade stops deepening at 3. A dot marks a cell above all the shuffled runs (cell by cell; read the global test first).'),
       el('dl', { id: 'stk-details', class: 'stmk-dl' }),
       el('ul', { id: 'stk-caveats', class: 'stmk-caveats' })),
     el('p', { class: 'stmk-caution' },
