@@ -48,7 +48,7 @@ test('space–time K on the demo: shaded grid drawn, global p, plain verdict, CS
   await page.waitForFunction(() => !document.getElementById('stk-result').hidden, null, { timeout: 120000 });
   await settle(page);
   assert.match(await page.textContent('#stk-verdict'), /more common than if times and places were unrelated/);
-  assert.match(await page.textContent('#stk-details'), /Global testp = 0\.025/);
+  assert.match(await page.textContent('#stk-details'), /Global testp = 0\.025 \(0 of 39 permutations/);
   // The grid is drawn: red cells (more close pairs than chance) appear.
   const census = await page.evaluate(() => {
     const c = document.getElementById('stk-chart');

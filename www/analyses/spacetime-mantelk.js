@@ -195,7 +195,7 @@ export function mountSpaceTimeMantelK(C, body) {
     drawK();
     const peak = res.peak ? `within ${fmt(res.s[res.peak[0]], 0)} m and ${fmt(res.t[res.peak[1]], 1)} days (standardised difference ${fmt(res.residual[res.peak[0] * res.t.length + res.peak[1]], 2)})` : '\u2013';
     $('stk-details').replaceChildren(...[
-      ['Global test', `p = ${pText(res.global_p)} (sum of the standardised differences over the grid = ${fmt(res.global_statistic, 2)}; ${fmt(res.at_least)} of ${fmt(res.n_sim)} permutations at least as large)`],
+      ['Global test', `p = ${pText(res.global_p)} (${fmt(res.at_least)} of ${fmt(res.n_sim)} permutations with a sum over the grid at least as large; for this sum every grid is standardised over the permutations and the data together, so it is ${fmt(res.global_statistic, 3)} here, not the sum of the numbers shown)`],
       ['Largest difference', peak],
       ['Events, close pairs', `${fmt(res.n_events)} events; ${fmt(res.pairs_within_s_max)} pairs within ${fmt(res.s_max_m, 0)} m`],
       ['Largest distance', `${fmt(res.s_max_m, 0)} m (${res.s_max_rule})`],
