@@ -43,3 +43,9 @@ echo "== scan against population counts: Node.js (demo blocks, 2,000 and 20,000 
 node bench/scan-population-node.mjs
 echo "== scan: headless Chromium page, spread over helper workers and on one"
 node bench/scan-browser.mjs 999
+echo "== Mantel test and space-time K: native (release), 5,000 events, one thread and spread"
+cargo run --quiet --release --example bench_mantel_stk -- export
+echo "== Mantel test and space-time K: headless Chromium page, spread over helper workers and on one"
+node bench/mantel-stk-browser.mjs
+echo "== Mantel test and space-time K: level over 1,000 seeded data sets without interaction"
+cargo run --quiet --release --example bench_mantel_stk -- calibrate 1000

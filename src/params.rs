@@ -386,6 +386,8 @@ pub fn all() -> Vec<Spec> {
         spec_of::<clusters::DbscanOptions>(),
         spec_of::<clusters::KDistanceParams>(),
         spec_of::<scan::ScanOptions>(),
+        spec_of::<crate::spacetime::mantel::MantelOptions>(),
+        spec_of::<crate::spacetime::stk::SpaceTimeKOptions>(),
         spec_of::<privacy::DonutParams>(),
         spec_of::<privacy::KAnonParams>(),
         spec_of::<privacy::cost::CostParams>(),

@@ -1171,3 +1171,126 @@ export interface KDistanceChartData {
   /** Device pixels per CSS pixel. */
   scale?: number | null;
 }
+
+// ---------- Close in space and time: the Mantel test and the space–time K function ----------
+
+/** What a space–time result says about the times it used. */
+export interface TimeUseReport {
+  events_used: number;
+  without_time: number;
+  window_too_long: number;
+  at_midpoint: number;
+  uncertain_times: 'midpoint' | 'leave_out';
+  max_window_days: number;
+  statement: string;
+}
+
+/** `mantelStart`: Z of the data and its exact permutation moments. */
+export interface MantelStarted {
+  total: number;
+  n_events: number;
+  seed: number;
+  statistic: number;
+  expected: number;
+  variance: number;
+}
+
+/** The Mantel test (Mantel 1967) of space–time interaction. */
+export interface MantelResult {
+  n_events: number;
+  pairs: number;
+  /** Z = Σ over pairs of (space transform)·(time transform). */
+  statistic: number;
+  /** Exact permutation mean and variance of Z. */
+  expected: number;
+  variance: number;
+  z_score: number;
+  /** Pearson correlation of the two transformed separations over pairs. */
+  correlation: number;
+  p_normal_upper: number;
+  p_normal_lower: number;
+  /** Rank p of the permutations: (1 + #{Z* ≥ Z})/(m + 1), and for Z* ≤ Z. */
+  p_upper: number;
+  p_lower: number;
+  /** The tail that means interaction (upper with both transforms alike, lower when mixed) and its rank p. */
+  interaction_tail: 'upper' | 'lower';
+  p_value: number;
+  at_least: number;
+  at_most: number;
+  simulated_min: number;
+  simulated_max: number;
+  space_transform: 'raw' | 'reciprocal';
+  time_transform: 'raw' | 'reciprocal';
+  space_constant_m: number;
+  time_constant_days: number;
+  n_sim: number;
+  seed: number;
+  alpha: number;
+  times: TimeUseReport;
+  outcome: 'no_interaction' | 'interaction';
+  verdict: string;
+  caveats: string[];
+}
+
+/** `spaceTimeKStart`: the pairs within s_max found, D of the data computed. */
+export interface SpaceTimeKStarted {
+  total: number;
+  n_events: number;
+  seed: number;
+  pairs: number;
+  s_max_m: number;
+  t_max_days: number;
+}
+
+/** The space–time K function (Diggle, Chetwynd, Häggkvist & Morris 1995). Cell arrays are s-major: index a·t.length + b for s[a], t[b]. */
+export interface SpaceTimeKResult {
+  /** Grid distances (m) and time differences (days). */
+  s: number[];
+  t: number[];
+  k: number[];
+  /** D = K(s, t) − K_s(s)·K_t(t). */
+  d: number[];
+  /** Mean and SD of D over the permutations. */
+  d_mean: number[];
+  d_sd: number[];
+  /** (D − mean)/SD; null where D never varies. */
+  residual: (number | null)[];
+  /** Pointwise envelope of the permutations' D. */
+  d_lo: number[];
+  d_hi: number[];
+  k_space: number[];
+  k_time: number[];
+  /** Sum of the residuals over the grid (each grid standardised over the permutations and the data), and its rank p. */
+  global_statistic: number;
+  global_p: number;
+  at_least: number;
+  /** [index into s, index into t] of the largest residual. */
+  peak: [number, number] | null;
+  n_events: number;
+  pairs_within_s_max: number;
+  s_max_m: number;
+  s_max_rule: string;
+  t_max_days: number;
+  t_max_rule: string;
+  span_days: number;
+  area_m2: number;
+  weights_capped: number;
+  n_sim: number;
+  seed: number;
+  alpha: number;
+  times: TimeUseReport;
+  outcome: 'no_interaction' | 'interaction';
+  verdict: string;
+  caveats: string[];
+}
+
+/** What `drawSpaceTimeKGrid` draws: fields of a SpaceTimeKResult. */
+export interface SpaceTimeGridData {
+  s: number[];
+  t: number[];
+  residual: (number | null)[];
+  d?: number[];
+  d_hi?: number[];
+  /** Device pixels per CSS pixel. */
+  scale?: number | null;
+}

@@ -8,7 +8,9 @@
 //! exactly as observed; only their pairing changes).
 
 pub mod events;
+pub mod mantel;
 pub mod permute;
+pub mod stk;
 
 pub use events::{time_fields, TimedEvents, UncertainTimes};
 pub use permute::{permutation, permuted_times_batch};

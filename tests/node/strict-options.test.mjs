@@ -64,6 +64,8 @@ const CASES = {
   envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
   labellingStart: { call: (s, o) => s.labellingStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'r_max_m', 'correction'] },
   nearestCasesStart: { call: (s, o) => s.nearestCasesStart(o), bad: { k: 5 }, key: 'k', valid: ['k_max', 'n_sim', 'seed'] },
+  mantelStart: { call: (s, o) => s.mantelStart(o), bad: { space: 'raw' }, key: 'space', valid: ['space_transform', 'time_transform', 'space_constant_m'] },
+  spaceTimeKStart: { call: (s, o) => s.spaceTimeKStart(o), bad: { s_max: 500 }, key: 's_max', valid: ['s_max_m', 't_max_days', 's_steps'] },
   riskSurfaceStart: { call: (s, o) => s.riskSurfaceStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'method', 'tolerance'] },
   inhomKStart: { call: (s, o) => s.inhomKStart(o), bad: { bandwidth: 300 }, key: 'bandwidth', valid: ['bandwidth_m', 'bandwidth_method', 'intensity_from'] },
   envelopeEstimate: { spec: 'envelopeStart', call: (s, o) => s.envelopeEstimate(o, 1), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
@@ -90,6 +92,8 @@ const NO_OPTIONS = new Set([
   'nearestCasesStep', 'nearestCasesFinish', 'nearestCasesShare', 'nearestCasesHelperStart', 'nearestCasesSimulate', 'nearestCasesAdd',
   'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson', 'riskSurfaceShare', 'riskSurfaceHelperStart', 'riskSurfaceSimulate', 'riskSurfaceAdd',
   'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
+  'mantelStep', 'mantelFinish', 'mantelShare', 'mantelHelperStart', 'mantelSimulate', 'mantelAdd',
+  'spaceTimeKStep', 'spaceTimeKFinish', 'spaceTimeKShare', 'spaceTimeKHelperStart', 'spaceTimeKSimulate', 'spaceTimeKAdd', 'spaceTimeKCsv',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -283,6 +287,7 @@ const WALK = {
   exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},
   kDistance: { call: (s, o) => s.kDistance(o.min_samples) },
   nearestCasesStart: {},
+  mantelStart: {}, spaceTimeKStart: {},
 };
 
 test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {
@@ -382,6 +387,16 @@ test('degenerate inputs (one event, two coincident events, events on a line): no
       return s.scanFinish();
     });
     attempt('maskDonut', () => s.maskDonut({ r_min_m: 50, r_max_m: 100, seed: 1 }));
+    attempt('mantel', () => {
+      const st = s.mantelStart({ n_sim: 9, seed: 1 });
+      s.mantelStep(st.total);
+      return s.mantelFinish();
+    });
+    attempt('spaceTimeK', () => {
+      const st = s.spaceTimeKStart({ n_sim: 9, seed: 1 });
+      s.spaceTimeKStep(st.total);
+      return s.spaceTimeKFinish();
+    });
     attempt('maskingCost', () => s.maskingCost({ grid_cells: 16 }));
     attempt('aggregate', () => s.aggregate({ cell_size_m: 250 }));
     attempt('exportPreview', () => s.exportPreview('masked_points', {}));
