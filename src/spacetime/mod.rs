@@ -8,6 +8,7 @@
 //! exactly as observed; only their pairing changes).
 
 pub mod events;
+pub mod pairs;
 pub mod permute;
 
 pub use events::{time_fields, TimedEvents, UncertainTimes};
