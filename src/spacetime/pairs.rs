@@ -146,10 +146,16 @@ impl Bands {
                 && e.windows(2).all(|w| w[0] < w[1])
         };
         if !ok(&self.space_edges) {
-            return Err(bad("distance bands", "must be increasing distances, 0 or more"));
+            return Err(bad(
+                "distance bands",
+                "must be increasing distances, 0 or more",
+            ));
         }
         if !ok(&self.time_edges) {
-            return Err(bad("time bands", "must be increasing numbers of days, 0 or more"));
+            return Err(bad(
+                "time bands",
+                "must be increasing numbers of days, 0 or more",
+            ));
         }
         if self.n_space() > MAX_BANDS + 1 || self.n_time() > MAX_BANDS {
             return Err(bad(
@@ -200,10 +206,16 @@ impl PairEngine {
             return Err(bad("events", "coordinate and time lists differ in length"));
         }
         if x.iter().chain(y).chain(t).any(|v| !v.is_finite()) {
-            return Err(bad("events", "every location and time must be a finite number"));
+            return Err(bad(
+                "events",
+                "every location and time must be a finite number",
+            ));
         }
         if n < 2 {
-            return Err(AnalysisError::TooFewPoints { needed: 2, found: n });
+            return Err(AnalysisError::TooFewPoints {
+                needed: 2,
+                found: n,
+            });
         }
         if n > u32::MAX as usize {
             return Err(bad("events", "too many events"));
@@ -496,7 +508,9 @@ impl PairRun {
                     s.spawn(move || e.simulate(seed, a.min(b), b))
                 })
                 .collect();
-            hs.into_iter().map(|h| h.join().unwrap_or_default()).collect()
+            hs.into_iter()
+                .map(|h| h.join().unwrap_or_default())
+                .collect()
         });
         for p in pieces {
             self.sims.extend_from_slice(&p);
@@ -588,7 +602,11 @@ impl PairRun {
             sim_mean: sum.iter().map(|s| s / m as f64).collect(),
             sd,
             expected,
-            global_p: if obs_max.is_some() { rank_p(ge_max) } else { 1.0 },
+            global_p: if obs_max.is_some() {
+                rank_p(ge_max)
+            } else {
+                1.0
+            },
             global_ge: ge_max,
             global: obs_max,
         }
@@ -1054,15 +1072,27 @@ impl Params for KnoxOptions {
     const NAME: &'static str = "knoxStart";
     fn fields() -> Vec<Field> {
         let mut f = vec![
-            Field::number("distance_m", Some("m"), "close in space: at most this far apart")
-                .extent(crate::params::EXTENT_FACTOR)
-                .at_least(0.0),
-            Field::number("days", Some("days"), "close in time: at most this many days apart")
-                .range(0.0, 36600.0),
+            Field::number(
+                "distance_m",
+                Some("m"),
+                "close in space: at most this far apart",
+            )
+            .extent(crate::params::EXTENT_FACTOR)
+            .at_least(0.0),
+            Field::number(
+                "days",
+                Some("days"),
+                "close in time: at most this many days apart",
+            )
+            .range(0.0, 36600.0),
             Field::integer("n_perm", "random permutations of the times").range(1.0, 9999.0),
             Field::seed("seed of the permutations"),
-            Field::number("alpha", None, "level at which the verdict calls a p-value small")
-                .above(0.0, Some(0.5)),
+            Field::number(
+                "alpha",
+                None,
+                "level at which the verdict calls a p-value small",
+            )
+            .above(0.0, Some(0.5)),
         ];
         f.extend(super::time_fields());
         f
