@@ -533,7 +533,7 @@ impl PairRun {
     pub fn add_simulated(&mut self, from: usize, tables: &[u32]) -> Result<usize, AnalysisError> {
         let cells = self.engine.cells();
         let k = tables.len() / cells;
-        if from != self.done || tables.len() % cells != 0 || self.done + k > self.n_perm {
+        if from != self.done || !tables.len().is_multiple_of(cells) || self.done + k > self.n_perm {
             return Err(bad(
                 "permuted tables",
                 format!(
@@ -972,6 +972,38 @@ impl NearRepeatJob {
             warnings,
         }
     }
+}
+
+/// The table as CSV for sharing: one row per cell with its band labels
+/// and limits, O, E, the simulated mean, O/E, p and q. No location and no
+/// event: only counts of pairs.
+pub fn near_repeat_csv(r: &NearRepeatResult) -> String {
+    let mut out = String::from(
+        "distance_band,time_band,distance_from_m,distance_to_m,days_from,days_to,observed,expected,simulated_mean,ratio,p_value,q_value,raised\n",
+    );
+    let num = |v: f64| format!("{}", (v * 1e6).round() / 1e6);
+    for c in &r.cells {
+        let (Some(s), Some(t)) = (r.space_bands.get(c.space), r.time_bands.get(c.time)) else {
+            continue;
+        };
+        out.push_str(&format!(
+            "\"{}\",\"{}\",{},{},{},{},{},{},{},{},{},{},{}\n",
+            s.label,
+            t.label,
+            num(s.from),
+            num(s.to),
+            num(t.from),
+            num(t.to),
+            c.observed,
+            num(c.expected),
+            num(c.sim_mean),
+            c.ratio.map(num).unwrap_or_default(),
+            num(c.p_value),
+            num(c.q_value),
+            if c.raised { "yes" } else { "no" }
+        ));
+    }
+    out
 }
 
 fn caveats() -> Vec<String> {

@@ -4,6 +4,8 @@
  * lives in its own module (spacetime-*.js) and is mounted below with one
  * line. Every number comes from the engine (src/spacetime/). */
 
+import { mountSpaceTimePairs } from './spacetime-pairs.js';
+
 export function mountSpaceTime(C) {
   const { el } = C;
   const body = C.addSection('spacetime', 'Close in space and time',
@@ -12,6 +14,7 @@ export function mountSpaceTime(C) {
     'These tests keep every location and every date as observed and only shuffle which date goes with which place.');
   const needs = el('p', { class: 'hint', id: 'st-needs' }, 'Load events with a date column (step 1) to use this section.');
   body.append(needs);
+  mountSpaceTimePairs(C, body);
 
   C.onSnapshot((snap) => {
     const span = snap && snap.summary && snap.summary.time_span;
