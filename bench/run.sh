@@ -43,3 +43,9 @@ echo "== scan against population counts: Node.js (demo blocks, 2,000 and 20,000 
 node bench/scan-population-node.mjs
 echo "== scan: headless Chromium page, spread over helper workers and on one"
 node bench/scan-browser.mjs 999
+echo "== near-repeat table and Knox test: native (release), one thread and every core"
+cargo run --quiet --release --example bench_near_repeat -- export
+echo "== near-repeat table: the same counts and permutations with scipy + numpy"
+python3 bench/near_repeat_numpy.py
+echo "== near-repeat table and Knox test: headless Chromium page, spread over helper workers and on one"
+node bench/near-repeat-browser.mjs 999
