@@ -150,13 +150,23 @@ export function mountSpaceTimePairs(C, body) {
   const pText = (p) => (p < 0.001 ? '< 0.001' : fmt(p, 3));
 
   /** Fill and text colour of a cell: warm above a ratio of 1, cool below,
-   * stronger the further from 1 (log scale, full at ×4 or ÷4). */
+   * stronger the further from 1 (log scale, full at ×4 or ÷4). The text is
+   * black or white, whichever contrasts more with the fill (relative
+   * luminance as WCAG defines it; the better of the two is always ≥ 4.5:1). */
   function shade(ratio) {
-    if (ratio === null) return { bg: 'hsl(0 0% 96%)', fg: '#222' };
+    if (ratio === null) return { bg: 'rgb(244, 244, 244)', fg: '#000' };
     const s = Math.max(-1, Math.min(1, Math.log2(Math.max(ratio, 1e-6)) / 2));
-    const hue = s >= 0 ? 24 : 200;
-    const light = 97 - 55 * Math.abs(s);
-    return { bg: `hsl(${hue} ${s >= 0 ? 85 : 60}% ${light}%)`, fg: light < 62 ? '#fff' : '#1a1a1a' };
+    const [h, sat, l] = [s >= 0 ? 24 : 200, s >= 0 ? 0.85 : 0.6, 0.97 - 0.55 * Math.abs(s)];
+    const f = (n) => {
+      const k = (n + h / 30) % 12;
+      return l - sat * Math.min(l, 1 - l) * Math.max(-1, Math.min(k - 3, 9 - k, 1));
+    };
+    const rgb = [f(0), f(8), f(4)];
+    const lin = rgb.map((v) => (v <= 0.03928 ? v / 12.92 : ((v + 0.055) / 1.055) ** 2.4));
+    const L = 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2];
+    const white = 1.05 / (L + 0.05);
+    const black = (L + 0.05) / 0.05;
+    return { bg: `rgb(${rgb.map((v) => Math.round(v * 255)).join(', ')})`, fg: white > black ? '#fff' : '#000' };
   }
 
   function renderTable() {
@@ -224,14 +234,15 @@ export function mountSpaceTimePairs(C, body) {
   $('st-nr-cancel').addEventListener('click', () => { if (table.job) table.job.cancel(); });
   $('st-knox-run').addEventListener('click', runKnox);
   $('st-knox-cancel').addEventListener('click', () => { if (knox.job) knox.job.cancel(); });
-  $('st-nr-csv').addEventListener('click', async () => {
+  $('st-nr-csv').addEventListener('click', C.act(async () => {
     try {
       const text = await C.call('nearRepeatCsv');
       download(text, C.downloadName('near-repeat-table', 'csv', table.result ? table.result.seed : undefined));
+      C.setStatus('Table saved (counts of pairs per band; no location).');
     } catch (err) {
       showError('Could not save the table', err);
     }
-  });
+  }));
 
   C.onSnapshot((snap) => {
     for (const p of [table, knox]) {
