@@ -908,7 +908,7 @@ impl NearRepeatJob {
             p_value: s.global_p,
             at_least_as_extreme: s.global_ge,
         };
-        let reach = reach_sentence(&cells, &sb, &tb, self.opts.same_location, alpha);
+        let reach = reach_sentence(&cells, &sb, &tb, self.opts.same_location);
         let n_raised = cells.iter().filter(|c| c.raised).count();
         let outcome = if n_raised > 0 || global.p_value <= alpha {
             NearRepeatOutcome::Raised
@@ -924,7 +924,10 @@ impl NearRepeatJob {
             (NearRepeatOutcome::NoPattern, _) => format!(
                 "No sign that events close in space are also close in time beyond chance: no cell holds more pairs than expected after the false-discovery correction (q \u{2264} {alpha}), and the {gtext}."
             ),
-            (NearRepeatOutcome::Raised, Some(r)) => format!("{r} ({n_raised} of {} cells raised at q \u{2264} {alpha}; {gtext}).", cells.len()),
+            (NearRepeatOutcome::Raised, Some(r)) => format!(
+                "{r} (q \u{2264} {alpha}: {n_raised} of {} cells raised; {gtext}).",
+                cells.len()
+            ),
             (NearRepeatOutcome::Raised, None) if n_raised > 0 => format!(
                 "{n_raised} of {} cells hold more pairs than chance gives (q \u{2264} {alpha}), but not next to \"close and soon\": the raised cells are further out in distance or time ({gtext}).",
                 cells.len()
@@ -1025,7 +1028,6 @@ fn reach_sentence(
     sb: &[Band],
     tb: &[Band],
     same: bool,
-    alpha: f64,
 ) -> Option<String> {
     let nt = tb.len();
     let raised = |a: usize, b: usize| cells.get(a * nt + b).is_some_and(|c| c.raised);
@@ -1065,7 +1067,7 @@ fn reach_sentence(
         .next()
         .map(|f| f.to_uppercase().chain(c).collect())
         .unwrap_or_default();
-    Some(format!("{cap} (q \u{2264} {alpha})"))
+    Some(cap)
 }
 
 // ---------------------------------------------------------------------------
