@@ -28,7 +28,7 @@ fn events(n: usize, seed: u64) -> TimedEvents {
     }
     while x.len() < n {
         let k = rng.random_range(0..background);
-        let (x0, y0, t0) = (x[k], y[k], t[k]);
+        let (x0, y0, t0): (f64, f64, f64) = (x[k], y[k], t[k]);
         for _ in 0..4 {
             if x.len() == n {
                 break;
@@ -37,7 +37,8 @@ fn events(n: usize, seed: u64) -> TimedEvents {
             let r = rng.random_range(0.0..150.0);
             x.push(x0 + r * a.cos());
             y.push(y0 + r * a.sin());
-            t.push((t0 + rng.random_range(0.0..14.0)).min(365.0));
+            let dt: f64 = rng.random_range(0.0..14.0);
+            t.push((t0 + dt).min(365.0));
         }
     }
     TimedEvents::from_xyt(x, y, t).expect("finite")
@@ -52,6 +53,9 @@ fn key(r: &NearRepeatResult) -> Vec<(u32, f64, f64)> {
 
 fn main() {
     let export = std::env::args().any(|a| a == "export");
+    let m: usize = std::env::args()
+        .find_map(|a| a.strip_prefix("perm=").and_then(|v| v.parse().ok()))
+        .unwrap_or(999);
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     let ev = events(20_000, 2026);
     let o = NearRepeatOptions {
@@ -60,7 +64,7 @@ fn main() {
         band_days: 7.0,
         max_days: 70.0,
         same_location: true,
-        n_perm: 999,
+        n_perm: m,
         seed: 1,
         ..Default::default()
     };
@@ -70,7 +74,7 @@ fn main() {
     let pairs = job.run.engine.close_pairs();
     let mut one = job.clone();
     let t1 = Instant::now();
-    one.run.run_batch(999);
+    one.run.run_batch(m);
     let r1 = one.finish();
     let single = t1.elapsed().as_secs_f64();
     let mut many = job.clone();
@@ -80,9 +84,9 @@ fn main() {
     let parallel = t2.elapsed().as_secs_f64();
     assert_eq!(key(&r1), key(&rn), "parallel run differs");
     println!(
-        "{{\"bench\":\"near_repeat\",\"events\":20000,\"cells\":{},\"close_pairs\":{pairs},\"n_perm\":999,\"setup_s\":{setup:.3},\"one_thread_s\":{single:.3},\"threads\":{threads},\"all_threads_s\":{parallel:.3},\"per_permutation_ms\":{:.3}}}",
+        "{{\"bench\":\"near_repeat\",\"events\":20000,\"cells\":{},\"close_pairs\":{pairs},\"n_perm\":{m},\"setup_s\":{setup:.3},\"one_thread_s\":{single:.3},\"threads\":{threads},\"all_threads_s\":{parallel:.3},\"per_permutation_ms\":{:.3}}}",
         r1.cells.len(),
-        1000.0 * single / 999.0
+        1000.0 * single / m as f64
     );
 
     let kev = events(5_000, 7);
@@ -113,7 +117,7 @@ fn main() {
         let json = serde_json::json!({
             "band_m": o.band_m, "max_distance_m": o.max_distance_m,
             "band_days": o.band_days, "max_days": o.max_days,
-            "n_perm": 999, "observed": obs,
+            "n_perm": m, "observed": obs,
             "setup_s": setup, "one_thread_s": single, "all_threads_s": parallel, "threads": threads,
             "close_pairs": pairs,
         });
