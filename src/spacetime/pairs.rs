@@ -52,8 +52,10 @@
 //! ([`permuted_times_batch`]), one pass over the pairs serving a whole
 //! batch. The time margins come from the sorted times (two pointers per band
 //! edge, O(n log n + n·bands)), never from all N pairs. Permutation j uses
-//! its own stream ([`permutation`]), so a run split over workers equals the
-//! run on one. Cost: O(n + P) memory for P close pairs, O(P·m) time.
+//! its own stream ([`permutation`](super::permutation)), applied to the events numbered in map
+//! order (cells of the largest distance, row by row: the partners of
+//! consecutive events then sit close together in memory), so a run split
+//! over workers equals the run on one. Cost: O(n + P) memory for P close pairs, O(P·m) time.
 //!
 //! # Examples
 //! ```
@@ -183,7 +185,10 @@ impl Bands {
 #[derive(Debug, Clone, Serialize, Deserialize)]
 pub struct PairEngine {
     bands: Bands,
+    /// Times in the internal (map) order.
     t: Vec<f64>,
+    /// Internal number of each event (in the order given).
+    rank: Vec<u32>,
     /// Pairs grouped by their first event: those of event i are
     /// `start[i]..start[i + 1]` of `other` (the second event, > i) and
     /// `band` (the distance band).
@@ -223,6 +228,11 @@ impl PairEngine {
         let max_d = bands.space_edges.last().copied().unwrap_or(0.0);
         let zero = usize::from(bands.same_location);
         let edges = &bands.space_edges;
+        // Events are numbered internally in map order (by cells of the
+        // largest distance, row by row), so the partners of consecutive
+        // events sit close together in the permuted-times batch (memory
+        // locality); `rank[i]` is event i's internal number.
+        let rank = map_order(x, y, max_d);
         let mut pairs: Vec<(u32, u32, u16)> = Vec::new();
         let mut space_margin = vec![0u64; bands.n_space()];
         GridIndex::new(x, y).for_each_pair_within(max_d, |i, j, d| {
@@ -233,7 +243,8 @@ impl PairEngine {
             };
             if let Some(m) = space_margin.get_mut(a) {
                 *m += 1;
-                pairs.push((i as u32, j as u32, a as u16));
+                let (ri, rj) = (rank[i], rank[j]);
+                pairs.push((ri.min(rj), ri.max(rj), a as u16));
             }
         });
         pairs.sort_unstable();
@@ -247,10 +258,15 @@ impl PairEngine {
         let other = pairs.iter().map(|p| p.1).collect();
         let band = pairs.iter().map(|p| p.2).collect();
         let time_margin = time_margin(t, &bands.time_edges);
+        let mut internal = vec![0.0; n];
+        for (i, &r) in rank.iter().enumerate() {
+            internal[r as usize] = t[i];
+        }
         let nn = n as u64;
         let mut e = PairEngine {
             bands,
-            t: t.to_vec(),
+            t: internal,
+            rank,
             start,
             other,
             band,
@@ -336,8 +352,12 @@ impl PairEngine {
     /// The table for times `t` given to the events (one permutation, or the
     /// data): used for enumeration in tests.
     pub fn table_for(&self, t: &[f64]) -> Vec<u32> {
+        let mut internal = vec![0.0; self.t.len()];
+        for (&v, &r) in t.iter().zip(&self.rank) {
+            internal[r as usize] = v;
+        }
         let mut out = vec![0u32; self.cells()];
-        self.add_batch(t, 1, &mut out);
+        self.add_batch(&internal, 1, &mut out);
         out
     }
 
@@ -411,6 +431,28 @@ impl PairEngine {
         }
         out
     }
+}
+
+/// Internal numbers of the events in map order: sorted by the row, then the
+/// column of a grid of cells of side `cell` (at least 1 m).
+fn map_order(x: &[f64], y: &[f64], cell: f64) -> Vec<u32> {
+    let n = x.len();
+    let cell = cell.max(1.0);
+    let x0 = x.iter().copied().fold(f64::INFINITY, f64::min);
+    let y0 = y.iter().copied().fold(f64::INFINITY, f64::min);
+    let key = |i: usize| {
+        (
+            ((y[i] - y0) / cell).floor() as u64,
+            ((x[i] - x0) / cell).floor() as u64,
+        )
+    };
+    let mut order: Vec<u32> = (0..n as u32).collect();
+    order.sort_by_key(|&i| key(i as usize));
+    let mut rank = vec![0u32; n];
+    for (place, &i) in order.iter().enumerate() {
+        rank[i as usize] = place as u32;
+    }
+    rank
 }
 
 /// Pairs (of all n(n−1)/2) per time band: from the sorted times, for each
@@ -1330,7 +1372,7 @@ mod tests {
             for i in 0..n {
                 for p in e.start[i] as usize..e.start[i + 1] as usize {
                     let j = e.other[p] as usize;
-                    if let Some(c) = e.time_band((t[i] - t[j]).abs()) {
+                    if let Some(c) = e.time_band((e.t[i] - e.t[j]).abs()) {
                         want[e.band[p] as usize * nt + c] += 1;
                     }
                 }
@@ -1339,7 +1381,7 @@ mod tests {
             // And every pair within the time maximum is counted somewhere.
             let within = (0..n)
                 .flat_map(|i| (e.start[i]..e.start[i + 1]).map(move |p| (i, p as usize)))
-                .filter(|&(i, p)| (t[i] - t[e.other[p] as usize]).abs() <= max)
+                .filter(|&(i, p)| (e.t[i] - e.t[e.other[p] as usize]).abs() <= max)
                 .count();
             assert_eq!(want.iter().sum::<u32>() as usize, within);
         }
