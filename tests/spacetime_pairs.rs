@@ -224,7 +224,7 @@ fn k7_cell_mean_by_enumeration() {
     let e = PairEngine::new(&x, &y, &t, bands).unwrap();
     let cell = 2 + 1; // distance band 1, time band 1
     assert_eq!(e.observed()[cell], 1);
-    let mut sum = vec![0u64; 4];
+    let mut sum = [0u64; 4];
     for p in all_permutations(7) {
         let tp: Vec<f64> = p.iter().map(|&k| t[k]).collect();
         for (s, v) in sum.iter_mut().zip(e.table_for(&tp)) {
