@@ -81,6 +81,9 @@ use serde::{Deserialize, Serialize};
 pub const MAX_CELLS: usize = 400;
 /// Most distance or time bands.
 pub const MAX_BANDS: usize = 40;
+/// Most pairs within the largest distance kept (about 10 bytes each, and
+/// each permutation visits all of them).
+pub const MAX_PAIRS: usize = 20_000_000;
 /// Permutations run per pass over the pairs.
 const BATCH: usize = 32;
 
@@ -233,9 +236,28 @@ impl PairEngine {
         // events sit close together in the permuted-times batch (memory
         // locality); `rank[i]` is event i's internal number.
         let rank = map_order(x, y, max_d);
+        let index = GridIndex::new(x, y);
+        let too_many = || {
+            bad(
+                "max_distance_m",
+                format!(
+                    "more than {} pairs of events are within {} m of each other: too many to keep; choose a smaller largest distance",
+                    crate::params::num(MAX_PAIRS as f64),
+                    fmt_len(max_d)
+                ),
+            )
+        };
+        if index.estimate_pairs_within(max_d) > MAX_PAIRS as f64 {
+            return Err(too_many());
+        }
         let mut pairs: Vec<(u32, u32, u16)> = Vec::new();
+        let mut overflow = false;
         let mut space_margin = vec![0u64; bands.n_space()];
-        GridIndex::new(x, y).for_each_pair_within(max_d, |i, j, d| {
+        index.for_each_pair_within(max_d, |i, j, d| {
+            if pairs.len() >= MAX_PAIRS {
+                overflow = true;
+                return;
+            }
             let a = if zero == 1 && d == 0.0 {
                 0
             } else {
@@ -247,6 +269,9 @@ impl PairEngine {
                 pairs.push((ri.min(rj), ri.max(rj), a as u16));
             }
         });
+        if overflow {
+            return Err(too_many());
+        }
         pairs.sort_unstable();
         let mut start = vec![0u32; n + 1];
         for &(i, _, _) in &pairs {
@@ -1471,6 +1496,22 @@ mod tests {
         assert!(KnoxJob::new(&e, &o).is_err());
         let two = ev(&[0.0, 1.0], &[0.0; 2], &[0.0, 1.0]);
         assert!(KnoxJob::new(&two, &KnoxOptions::default()).is_err());
+    }
+
+    #[test]
+    fn too_many_pairs_are_refused_with_a_message() {
+        // 6,400 events on one spot: 20,476,800 pairs at distance 0.
+        let n = 6400;
+        let e = PairEngine::new(
+            &vec![1.0; n],
+            &vec![1.0; n],
+            &vec![0.0; n],
+            Bands::knox(10.0, 1.0),
+        )
+        .err()
+        .unwrap()
+        .to_string();
+        assert!(e.contains("max_distance_m") && e.contains("pairs"), "{e}");
     }
 
     #[test]
