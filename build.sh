@@ -54,7 +54,7 @@ need_test_tools() {
     apt-get update -qq && apt-get install -y -qq chromium
   fi
   need_npm_packages
-  if ! python3 -c 'import numpy, scipy, sklearn, shapely, pyproj' 2>/dev/null; then
+  if ! python3 -c 'import numpy, scipy, sklearn, shapely, pyproj, statsmodels' 2>/dev/null; then
     step "installing Python reference libraries"
     python3 -m pip install -q -r tests/reference/requirements.txt
   fi

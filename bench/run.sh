@@ -49,3 +49,9 @@ echo "== Mantel test and space-time K: headless Chromium page, spread over helpe
 node bench/mantel-stk-browser.mjs
 echo "== Mantel test and space-time K: level over 1,000 seeded data sets without interaction"
 cargo run --quiet --release --example bench_mantel_stk -- calibrate 1000
+echo "== near-repeat table and Knox test: native (release), one thread and every core"
+cargo run --quiet --release --example bench_near_repeat -- export
+echo "== near-repeat table: the same counts and permutations with scipy + numpy"
+python3 bench/near_repeat_numpy.py
+echo "== near-repeat table and Knox test: headless Chromium page, spread over helper workers and on one"
+node bench/near-repeat-browser.mjs 999

@@ -393,6 +393,8 @@ pub fn all() -> Vec<Spec> {
         spec_of::<privacy::cost::CostParams>(),
         spec_of::<privacy::aggregate::AggregateOptions>(),
         spec_of::<privacy::export::ExportRequest>(),
+        spec_of::<crate::spacetime::pairs::NearRepeatOptions>(),
+        spec_of::<crate::spacetime::pairs::KnoxOptions>(),
     ]
 }
 
@@ -439,6 +441,8 @@ pub fn check_options(
         "maskingCost" => run::<privacy::cost::CostParams>(v, extent_m),
         "aggregate" => run::<privacy::aggregate::AggregateOptions>(v, extent_m),
         "exportFile" => run::<privacy::export::ExportRequest>(v, extent_m),
+        "nearRepeatStart" => run::<crate::spacetime::pairs::NearRepeatOptions>(v, extent_m),
+        "knoxStart" => run::<crate::spacetime::pairs::KnoxOptions>(v, extent_m),
         _ => return None,
     })
 }

@@ -1172,7 +1172,7 @@ export interface KDistanceChartData {
   scale?: number | null;
 }
 
-// ---------- Close in space and time: the Mantel test and the space–time K function ----------
+// ---------- Close in space and time ----------
 
 /** What a space–time result says about the times it used. */
 export interface TimeUseReport {
@@ -1293,4 +1293,95 @@ export interface SpaceTimeGridData {
   d_hi?: number[];
   /** Device pixels per CSS pixel. */
   scale?: number | null;
+}
+
+/** `nearRepeatStart` / `knoxStart`: the close pairs are found, the data's table counted. */
+export interface NearRepeatStarted {
+  total: number;
+  seed: number;
+  n_events: number;
+  /** Pairs within the largest distance. */
+  close_pairs: number;
+  cells: number;
+}
+
+/** One distance or time band of the near-repeat table. */
+export interface NearRepeatBand {
+  /** Lower end (not included, except in the first band), upper end (included). */
+  from: number;
+  to: number;
+  label: string;
+  /** Pairs of events in this band (of all pairs). */
+  pairs: number;
+}
+
+/** One cell of the near-repeat table. */
+export interface NearRepeatCell {
+  space: number;
+  time: number;
+  observed: number;
+  /** Exact permutation expectation n_s·n_t/N. */
+  expected: number;
+  sim_mean: number;
+  ratio: number | null;
+  z: number | null;
+  p_value: number;
+  /** Benjamini–Hochberg q over all cells. */
+  q_value: number;
+  raised: boolean;
+}
+
+/** The max-statistic permutation test over the whole table. */
+export interface NearRepeatGlobal {
+  max_z: number | null;
+  /** [distance band, time band] of the largest standardised cell. */
+  at: [number, number] | null;
+  p_value: number;
+  at_least_as_extreme: number;
+}
+
+/** The near-repeat table (Townsley, Homel & Chaseling 2003). */
+export interface NearRepeatResult {
+  space_bands: NearRepeatBand[];
+  time_bands: NearRepeatBand[];
+  /** Row-major: distance band, then time band. */
+  cells: NearRepeatCell[];
+  global: NearRepeatGlobal;
+  n_events: number;
+  n_pairs: number;
+  close_pairs: number;
+  n_perm: number;
+  seed: number;
+  alpha: number;
+  outcome: 'no_pattern' | 'raised';
+  /** "After an event, the risk of another within … stays raised for about … days"; null when no raised cell touches the origin. */
+  reach: string | null;
+  verdict: string;
+  time_use: TimeUseReport;
+  caveats: string[];
+  warnings: string[];
+}
+
+/** The Knox test (Knox 1964) with a permutation p (Mantel 1967). */
+export interface KnoxResult {
+  distance_m: number;
+  days: number;
+  x: number;
+  n_s: number;
+  n_t: number;
+  n_pairs: number;
+  expected: number;
+  ratio: number | null;
+  /** P(Poisson(expected) ≥ x): Knox's approximation. */
+  p_poisson: number;
+  p_value: number;
+  at_least_as_extreme: number;
+  sim_mean: number;
+  n_events: number;
+  n_perm: number;
+  seed: number;
+  alpha: number;
+  verdict: string;
+  time_use: TimeUseReport;
+  caveats: string[];
 }

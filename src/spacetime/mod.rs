@@ -9,6 +9,7 @@
 
 pub mod events;
 pub mod mantel;
+pub mod pairs;
 pub mod permute;
 pub mod stk;
 

@@ -23,6 +23,7 @@ mod risk_surface;
 mod scan_parallel;
 mod sharing;
 mod spacetime_mantelk;
+mod spacetime_pairs;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};
 use crate::input::report::RejectionRow;

@@ -92,6 +92,19 @@ export function runScenario() {
   s.spaceTimeKStep(stk.total);
   record('spaceTimeKFinish', 'demo', s.spaceTimeKFinish());
   record('spaceTimeKCsv', 'demo', s.spaceTimeKCsv());
+  for (const [m, opts] of [['nearRepeat', { n_perm: 19, seed: 4, band_m: 100, max_distance_m: 300, band_days: 7, max_days: 21 }], ['knox', { n_perm: 19, seed: 4 }]]) {
+    const st = record(`${m}Start`, 'demo, 19', s[`${m}Start`](opts));
+    const share = record(`${m}Share`, '', s[`${m}Share`]());
+    const piece = record(`${m}Simulate`, '0..5', s[`${m}Simulate`](0, 5));
+    const h = new cloister.Session();
+    record(`${m}HelperStart`, '', h[`${m}HelperStart`](share));
+    h.free();
+    record(`${m}Add`, '0..5', s[`${m}Add`](0, piece));
+    record(`${m}Step`, '5', s[`${m}Step`](5));
+    s[`${m}Step`](st.total);
+    record(`${m}Finish`, 'demo', s[`${m}Finish`]());
+  }
+  record('nearRepeatCsv', 'demo', s.nearRepeatCsv());
   const rs = record('riskSurfaceStart', 'demo, 9', s.riskSurfaceStart({ n_sim: 9, seed: 4, cells: 64 }));
   const rsShare = record('riskSurfaceShare', '', s.riskSurfaceShare());
   const rsPiece = record('riskSurfaceSimulate', '0..2', s.riskSurfaceSimulate(0, 2));

@@ -78,6 +78,8 @@ const CASES = {
   aggregate: { call: (s, o) => s.aggregate(o), bad: { cell_size: 250 }, key: 'cell_size', valid: ['cell_size_m', 'layout', 'min_count'] },
   exportPreview: { call: (s, o) => s.exportPreview('masked_points', o), bad: { formt: 'csv' }, key: 'formt', valid: ['format', 'coordinates', 'decimals'], needsMask: true },
   exportFile: { call: (s, o) => s.exportFile('masked_points', o), bad: { confirm_unmaskd: true }, key: 'confirm_unmaskd', valid: ['confirm_unmasked', 'format'], needsMask: true },
+  nearRepeatStart: { call: (s, o) => s.nearRepeatStart(o), bad: { band_metres: 100 }, key: 'band_metres', valid: ['band_m', 'max_distance_m', 'band_days', 'n_perm'] },
+  knoxStart: { call: (s, o) => s.knoxStart(o), bad: { distance: 100 }, key: 'distance', valid: ['distance_m', 'days', 'n_perm'] },
 };
 
 // Session methods that take no options object (positional arguments only,
@@ -94,6 +96,8 @@ const NO_OPTIONS = new Set([
   'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
   'mantelStep', 'mantelFinish', 'mantelShare', 'mantelHelperStart', 'mantelSimulate', 'mantelAdd',
   'spaceTimeKStep', 'spaceTimeKFinish', 'spaceTimeKShare', 'spaceTimeKHelperStart', 'spaceTimeKSimulate', 'spaceTimeKAdd', 'spaceTimeKCsv',
+  'nearRepeatStep', 'nearRepeatFinish', 'nearRepeatCsv', 'nearRepeatShare', 'nearRepeatHelperStart', 'nearRepeatSimulate', 'nearRepeatAdd',
+  'knoxStep', 'knoxFinish', 'knoxShare', 'knoxHelperStart', 'knoxSimulate', 'knoxAdd',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -288,6 +292,8 @@ const WALK = {
   kDistance: { call: (s, o) => s.kDistance(o.min_samples) },
   nearestCasesStart: {},
   mantelStart: {}, spaceTimeKStart: {},
+  nearRepeatStart: {},
+  knoxStart: {},
 };
 
 test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {

@@ -4,6 +4,7 @@
  * lives in its own module (spacetime-*.js) and is mounted below with one
  * line. Every number comes from the engine (src/spacetime/). */
 
+import { mountSpaceTimePairs } from './spacetime-pairs.js';
 import { mountSpaceTimeMantelK } from './spacetime-mantelk.js';
 
 export function mountSpaceTime(C) {
@@ -14,6 +15,7 @@ export function mountSpaceTime(C) {
     'These tests keep every location and every date as observed and only shuffle which date goes with which place.');
   const needs = el('p', { class: 'hint', id: 'st-needs' }, 'Load events with a date column (step 1) to use this section.');
   body.append(needs);
+  mountSpaceTimePairs(C, body);
   mountSpaceTimeMantelK(C, body);
 
   C.onSnapshot((snap) => {
