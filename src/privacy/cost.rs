@@ -23,6 +23,13 @@
 //! correction, [`crate::distance::functions`]) on one r grid, the original's,
 //! so the page can draw the pair. (Masking by distances up to r_max
 //! attenuates clustering at scales up to about 2·r_max: docs/methods.md#privacy.)
+//!
+//! # Close in space and time
+//! For events with dates, [`PairShift`] compares the near-repeat table
+//! (observed ÷ exact permutation expectation per cell, the engine of
+//! [`crate::spacetime::pairs`]) and the Knox count of the original and the
+//! masked points, with the dates unchanged: masking empties "same location"
+//! and moves pairs across the short distance bands.
 
 use super::bad;
 use crate::distance::functions::{distance_functions, DistanceFunctions, FunctionParams};
@@ -41,6 +48,15 @@ pub struct CostParams {
     pub bandwidth_m: Option<f64>,
     /// Cells along the longer side of the study area's bounding box.
     pub grid_cells: usize,
+    /// Bands of the near-repeat comparison (events with dates): distance
+    /// band width and largest distance, m; time band width and longest
+    /// gap, days. `None`: the near-repeat table's defaults. The Knox count
+    /// compared is the first band of each: within `pair_band_m` and
+    /// `pair_band_days`.
+    pub pair_band_m: Option<f64>,
+    pub pair_max_distance_m: Option<f64>,
+    pub pair_band_days: Option<f64>,
+    pub pair_max_days: Option<f64>,
 }
 
 impl Default for CostParams {
@@ -48,6 +64,10 @@ impl Default for CostParams {
         CostParams {
             bandwidth_m: None,
             grid_cells: 64,
+            pair_band_m: None,
+            pair_max_distance_m: None,
+            pair_band_days: None,
+            pair_max_days: None,
         }
     }
 }
@@ -66,7 +86,134 @@ impl crate::params::Params for CostParams {
             .optional(),
             Field::integer("grid_cells", "cells along the longer side of the study area")
                 .range(2.0, 1024.0),
+            Field::number("pair_band_m", Some("m"), "events with dates: width of the distance bands of the near-repeat comparison; empty = the near-repeat table's default")
+                .scale_length(EXTENT_FACTOR)
+                .optional(),
+            Field::number("pair_max_distance_m", Some("m"), "events with dates: largest distance of the near-repeat comparison; empty = the near-repeat table's default")
+                .scale_length(EXTENT_FACTOR)
+                .optional(),
+            Field::number("pair_band_days", Some("days"), "events with dates: width of the time bands of the near-repeat comparison; empty = the near-repeat table's default")
+                .range(0.01, 3660.0)
+                .optional(),
+            Field::number("pair_max_days", Some("days"), "events with dates: longest time gap of the near-repeat comparison; empty = the near-repeat table's default")
+                .range(0.01, 36600.0)
+                .optional(),
         ]
+    }
+    fn check(&self) -> Result<(), AnalysisError> {
+        self.pair_bands().check()
+    }
+}
+
+impl CostParams {
+    /// The bands of the near-repeat comparison (the table's defaults where
+    /// not given).
+    pub fn pair_bands(&self) -> crate::spacetime::pairs::Bands {
+        let d = crate::spacetime::pairs::NearRepeatOptions::default();
+        crate::spacetime::pairs::NearRepeatOptions {
+            band_m: self.pair_band_m.unwrap_or(d.band_m),
+            max_distance_m: self.pair_max_distance_m.unwrap_or(d.max_distance_m),
+            band_days: self.pair_band_days.unwrap_or(d.band_days),
+            max_days: self.pair_max_days.unwrap_or(d.max_days),
+            ..d
+        }
+        .bands()
+    }
+}
+
+/// Pairs within the Knox distance and time, with their exact permutation
+/// expectation (Knox 1964; docs/methods.md#knox).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct KnoxCount {
+    pub pairs: u32,
+    pub expected: f64,
+    /// pairs / expected; `None` when nothing is expected.
+    pub ratio: Option<f64>,
+}
+
+/// What masking does to the pairs close in space and time: the near-repeat
+/// table (observed ÷ exactly expected per cell) and the Knox count of the
+/// original and the masked points, with the same dates. Masking moves
+/// pairs out of "same location" and across the short distance bands.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PairShift {
+    /// Events in the comparison (placed by masking and with a usable time).
+    pub events_used: usize,
+    pub knox_distance_m: f64,
+    pub knox_days: f64,
+    pub knox_original: KnoxCount,
+    pub knox_masked: KnoxCount,
+    pub space_labels: Vec<String>,
+    pub time_labels: Vec<String>,
+    /// Cells row by row (distance band, then time band).
+    pub observed_original: Vec<u32>,
+    pub observed_masked: Vec<u32>,
+    /// observed ÷ expected; `None` where nothing is expected.
+    pub ratio_original: Vec<Option<f64>>,
+    pub ratio_masked: Vec<Option<f64>>,
+}
+
+fn ratios(e: &crate::spacetime::pairs::PairEngine) -> Vec<Option<f64>> {
+    e.observed()
+        .iter()
+        .zip(e.expected())
+        .map(|(&o, ex)| (ex > 0.0).then(|| o as f64 / ex))
+        .collect()
+}
+
+fn knox_count(
+    x: &[f64],
+    y: &[f64],
+    t: &[f64],
+    d: f64,
+    days: f64,
+) -> Result<KnoxCount, AnalysisError> {
+    use crate::spacetime::pairs::{Bands, PairEngine};
+    let e = PairEngine::new(x, y, t, Bands::knox(d, days))?;
+    let pairs = e.observed().first().copied().unwrap_or(0);
+    let expected = e.expected().first().copied().unwrap_or(0.0);
+    Ok(KnoxCount {
+        pairs,
+        expected,
+        ratio: (expected > 0.0).then(|| pairs as f64 / expected),
+    })
+}
+
+impl PairShift {
+    /// The comparison for events at (`ox`, `oy`) and masked at (`mx`,
+    /// `my`), each with time `t` (days).
+    pub fn compute(
+        ox: &[f64],
+        oy: &[f64],
+        mx: &[f64],
+        my: &[f64],
+        t: &[f64],
+        bands: crate::spacetime::pairs::Bands,
+    ) -> Result<PairShift, AnalysisError> {
+        use crate::spacetime::pairs::PairEngine;
+        let d = bands.space_edges.first().copied().unwrap_or(0.0);
+        let days = bands.time_edges.first().copied().unwrap_or(0.0);
+        let o = PairEngine::new(ox, oy, t, bands.clone())?;
+        let m = PairEngine::new(mx, my, t, bands)?;
+        Ok(PairShift {
+            events_used: t.len(),
+            knox_distance_m: d,
+            knox_days: days,
+            knox_original: knox_count(ox, oy, t, d, days)?,
+            knox_masked: knox_count(mx, my, t, d, days)?,
+            space_labels: crate::spacetime::pairs::space_bands(&o)
+                .into_iter()
+                .map(|b| b.label)
+                .collect(),
+            time_labels: crate::spacetime::pairs::time_bands(&o)
+                .into_iter()
+                .map(|b| b.label)
+                .collect(),
+            observed_original: o.observed().to_vec(),
+            observed_masked: m.observed().to_vec(),
+            ratio_original: ratios(&o),
+            ratio_masked: ratios(&m),
+        })
     }
 }
 
@@ -116,6 +263,9 @@ pub struct MaskingCost {
     pub surface: Option<SurfaceShift>,
     /// Extension point: see the module docs.
     pub l_curves: Option<CurvePair>,
+    /// Events with dates: the near-repeat table and Knox count before and
+    /// after masking ([`PairShift`]); `None` without dates.
+    pub pairs: Option<PairShift>,
 }
 
 impl MaskingCost {
@@ -259,6 +409,7 @@ pub fn compare(
         standard_distance_change_m: diff(a.standard_distance_m, b.standard_distance_m),
         surface,
         l_curves: None,
+        pairs: None,
     })
 }
 

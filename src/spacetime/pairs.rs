@@ -144,7 +144,7 @@ impl Bands {
     pub fn cells(&self) -> usize {
         self.n_space() * self.n_time()
     }
-    fn check(&self) -> Result<(), AnalysisError> {
+    pub(crate) fn check(&self) -> Result<(), AnalysisError> {
         let ok = |e: &[f64]| {
             !e.is_empty()
                 && e.iter().all(|v| v.is_finite() && *v >= 0.0)
@@ -905,7 +905,7 @@ fn fmt_len(v: f64) -> String {
     crate::params::num((v * 100.0).round() / 100.0)
 }
 
-fn space_bands(e: &PairEngine) -> Vec<Band> {
+pub(crate) fn space_bands(e: &PairEngine) -> Vec<Band> {
     let b = e.bands();
     let mut out = Vec::new();
     let mut m = e.space_margin().iter().copied();
@@ -930,7 +930,7 @@ fn space_bands(e: &PairEngine) -> Vec<Band> {
     out
 }
 
-fn time_bands(e: &PairEngine) -> Vec<Band> {
+pub(crate) fn time_bands(e: &PairEngine) -> Vec<Band> {
     let mut lo = 0.0;
     e.bands()
         .time_edges

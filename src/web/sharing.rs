@@ -42,7 +42,7 @@
 use super::{analysis_error, decode, decode_with_bytes, input_error, js_error, to_js, Session};
 use crate::input::zones::{read_zones, ZoneOptions};
 use crate::privacy::aggregate::{AggregateLayout, AggregateOptions};
-use crate::privacy::cost::{compare, CostParams};
+use crate::privacy::cost::{compare, CostParams, PairShift};
 use crate::privacy::export::{
     export, CoordinateOutput, ExportContent, ExportOptions, ExportRequest,
 };
@@ -435,6 +435,43 @@ impl Session {
         // L(r) − r of both patterns on one r grid, so the analyst sees how
         // masking moves the clustering curve.
         c.add_l_curves(&s.events, &m.masked.x, &m.masked.y, &s.window);
+        // Events with dates: the near-repeat table and the Knox count before
+        // and after masking, over the placed events with a time (windows at
+        // their midpoint, as the near-repeat table's defaults take them).
+        let nr = crate::spacetime::pairs::NearRepeatOptions::default();
+        if let Ok(te) =
+            crate::spacetime::TimedEvents::from_study(s, nr.uncertain_times, nr.max_window_days, 2)
+        {
+            let mut time_of = vec![f64::NAN; s.events.len()];
+            for (&i, &ti) in te.index.iter().zip(&te.t) {
+                if let Some(v) = time_of.get_mut(i) {
+                    *v = ti;
+                }
+            }
+            let (mut ox, mut oy, mut mx, mut my, mut tt) =
+                (Vec::new(), Vec::new(), Vec::new(), Vec::new(), Vec::new());
+            for (k, &src) in m.masked.source.iter().enumerate() {
+                let (Some(&ti), Some(&x), Some(&y), Some(&a), Some(&b)) = (
+                    time_of.get(src),
+                    s.events.x().get(src),
+                    s.events.y().get(src),
+                    m.masked.x.get(k),
+                    m.masked.y.get(k),
+                ) else {
+                    continue;
+                };
+                if ti.is_finite() {
+                    ox.push(x);
+                    oy.push(y);
+                    mx.push(a);
+                    my.push(b);
+                    tt.push(ti);
+                }
+            }
+            if tt.len() >= 2 {
+                c.pairs = PairShift::compute(&ox, &oy, &mx, &my, &tt, p.pair_bands()).ok();
+            }
+        }
         to_js(&c)
     }
 
