@@ -67,6 +67,9 @@ export interface StudyReport {
   /** Events kept without a usable time / weight (left out of the analyses that need it). */
   events_without_time: number;
   events_without_weight: number;
+  /** Events known only within a from–to window, and the median window length in days (null without windows). */
+  events_with_window: number;
+  median_window_days: number | null;
 }
 
 /** The format a file was read as. */
@@ -87,6 +90,8 @@ export interface ResolvedMapping {
   x: string | null;
   y: string | null;
   time: string | null;
+  /** The end of each event's time window (a "to" column). */
+  time_until: string | null;
   category: string | null;
   weight: string | null;
 }
@@ -99,6 +104,7 @@ export type RejectReason =
   | 'longitude_out_of_range'
   | 'outside_study_area'
   | 'bad_time'
+  | 'reversed_window'
   | 'bad_weight'
   | 'too_few_fields'
   | 'too_many_fields'
@@ -225,6 +231,9 @@ export interface TimeSpan {
   last: string;
   span_days: number;
   n_with_time: number;
+  /** Events known only within a from–to window, and the median window length in days. */
+  n_windows: number;
+  median_window_days: number | null;
 }
 
 export interface CategoryCount {
