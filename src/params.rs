@@ -391,6 +391,7 @@ pub fn all() -> Vec<Spec> {
         spec_of::<privacy::cost::CostParams>(),
         spec_of::<privacy::aggregate::AggregateOptions>(),
         spec_of::<privacy::export::ExportRequest>(),
+        spec_of::<crate::spacetime::timeline::TimelineOptions>(),
     ]
 }
 

@@ -38,7 +38,11 @@ fn from_and_to_headers_in_several_languages() {
         // Spanish.
         ("x,y,Fecha desde,Fecha hasta", "Fecha desde", "Fecha hasta"),
         // French.
-        ("x,y,Date de début,Date de fin", "Date de début", "Date de fin"),
+        (
+            "x,y,Date de début,Date de fin",
+            "Date de début",
+            "Date de fin",
+        ),
         // Dutch, Swedish.
         ("x,y,Datum van,Datum tot", "Datum van", "Datum tot"),
         ("x,y,Datum från,Datum till", "Datum från", "Datum till"),
@@ -105,7 +109,14 @@ fn reversed_and_unreadable_ends_keep_the_event() {
     let inc: Vec<(u64, Option<&str>, RejectReason, &str)> = l
         .incomplete
         .iter()
-        .map(|r| (r.row, r.column.as_deref(), r.reason.clone(), r.value.as_str()))
+        .map(|r| {
+            (
+                r.row,
+                r.column.as_deref(),
+                r.reason.clone(),
+                r.value.as_str(),
+            )
+        })
         .collect();
     assert_eq!(
         inc,
@@ -144,7 +155,11 @@ fn chosen_columns_and_refusals() {
     let l = read_points(text, &opts(Some("seen"), Some("left"))).unwrap();
     assert_eq!(l.time_end, Some(vec![MARCH_7]));
     // An empty name turns detection off.
-    let l = read_points(b"x,y,date,to\n1,2,2025-03-04,2025-03-07\n", &opts(None, Some(""))).unwrap();
+    let l = read_points(
+        b"x,y,date,to\n1,2,2025-03-04,2025-03-07\n",
+        &opts(None, Some("")),
+    )
+    .unwrap();
     assert_eq!(roles(&l), (Some("date"), None));
     // A "to" without a "from" is refused with a message, as is one column for both.
     let e = read_points(text, &opts(Some(""), Some("left"))).unwrap_err();
@@ -190,7 +205,10 @@ fn windows_reach_the_study_and_the_space_time_events() {
     // Two windows (3 and 30 days): median 16.5 days.
     assert_eq!(s.events.time_windows(), (2, Some(16.5)));
     let r = s.report();
-    assert_eq!((r.events_with_window, r.median_window_days), (2, Some(16.5)));
+    assert_eq!(
+        (r.events_with_window, r.median_window_days),
+        (2, Some(16.5))
+    );
     // Midpoints for windows up to 10 days; the 30-day one is left out.
     let te = TimedEvents::from_study(&s, UncertainTimes::Midpoint, 10.0, 1).unwrap();
     assert_eq!(te.t, vec![MARCH_4 + 1.5, MARCH_4, MARCH_7]);

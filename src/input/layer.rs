@@ -558,7 +558,14 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
 /// event stays, an instant at its "from"), and the row is noted as
 /// [`RejectReason::ReversedWindow`] with the "to" column and text. We do not
 /// swap the two: which of them is wrong cannot be told from the row.
-pub(crate) fn window_end(b: &mut Builder, row: u64, col: &str, cell: &str, from: f64, until: f64) -> f64 {
+pub(crate) fn window_end(
+    b: &mut Builder,
+    row: u64,
+    col: &str,
+    cell: &str,
+    from: f64,
+    until: f64,
+) -> f64 {
     if from.is_finite() && until.is_finite() && until < from {
         b.note(row, col, RejectReason::ReversedWindow, cell);
         return f64::NAN;
