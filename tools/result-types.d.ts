@@ -1180,3 +1180,48 @@ export interface KDistanceChartData {
   /** Device pixels per CSS pixel. */
   scale?: number | null;
 }
+
+/** Length of one bar of the time line. */
+export type TimelineBin = 'day' | 'week' | 'month';
+
+/** The time line (`timeline`): events per bin, window shares spread by aoristic weights. */
+export interface Timeline {
+  bin: TimelineBin;
+  bin_automatic: boolean;
+  bin_text: string;
+  /** Bin k is [edges[k], edges[k+1]) in days since 1970-01-01 (UTC). */
+  edges: number[];
+  /** First day of each bin, YYYY-MM-DD. */
+  labels: string[];
+  /** Events with one known time in each bin. */
+  whole: number[];
+  /** Shares of events known only within a from–to window, per bin. */
+  window_share: number[];
+  instants: number;
+  windows: number;
+  without_time: number;
+  first: number;
+  last: number;
+  first_text: string;
+  last_text: string;
+  max_bin: number;
+  statement: string;
+}
+
+/** Each event's time and window end in days (`eventTimes`), in the order of `mapLayers().events`; NaN = none. */
+export interface EventTimes {
+  start: Float64Array;
+  end: Float64Array | null;
+}
+
+/** What `drawTimelineChart` draws: `timeline`'s bins and counts plus the map's range. */
+export interface TimelineChartData {
+  edges: number[];
+  whole: number[];
+  window_share: number[];
+  /** The range shown on the map (days). */
+  from?: number | null;
+  to?: number | null;
+  /** Device pixels per CSS pixel. */
+  scale?: number | null;
+}

@@ -4,6 +4,7 @@
 //!
 //! * [`envelope`]: Monte Carlo envelope chart of a distance function.
 //! * [`kdistance`]: sorted k-distance curve for choosing DBSCAN's eps.
+//! * [`timeline`]: events per day, week or month, window shares lighter.
 //!
 //! Every chart takes a [`PixelScale`]: on a canvas with more device pixels
 //! than CSS pixels, text, lines and margins grow by that factor, so the chart
@@ -11,11 +12,13 @@
 
 pub mod envelope;
 pub mod kdistance;
+pub mod timeline;
 
 pub use envelope::{
     draw_envelope_chart, Band, Drawn, EnvelopeChartData, EnvelopeChartOptions, Units, View,
 };
 pub use kdistance::{draw_k_distance_chart, KDistanceChartData};
+pub use timeline::{draw_timeline_chart, TimelineChartData};
 
 use std::fmt;
 

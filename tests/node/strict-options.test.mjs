@@ -76,6 +76,7 @@ const CASES = {
   aggregate: { call: (s, o) => s.aggregate(o), bad: { cell_size: 250 }, key: 'cell_size', valid: ['cell_size_m', 'layout', 'min_count'] },
   exportPreview: { call: (s, o) => s.exportPreview('masked_points', o), bad: { formt: 'csv' }, key: 'formt', valid: ['format', 'coordinates', 'decimals'], needsMask: true },
   exportFile: { call: (s, o) => s.exportFile('masked_points', o), bad: { confirm_unmaskd: true }, key: 'confirm_unmaskd', valid: ['confirm_unmasked', 'format'], needsMask: true },
+  timeline: { call: (s, o) => s.timeline(o), bad: { bins: 'week' }, key: 'bins', valid: ['bin'] },
 };
 
 // Session methods that take no options object (positional arguments only,
@@ -90,6 +91,7 @@ const NO_OPTIONS = new Set([
   'nearestCasesStep', 'nearestCasesFinish', 'nearestCasesShare', 'nearestCasesHelperStart', 'nearestCasesSimulate', 'nearestCasesAdd',
   'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson', 'riskSurfaceShare', 'riskSurfaceHelperStart', 'riskSurfaceSimulate', 'riskSurfaceAdd',
   'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
+  'eventTimes',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {

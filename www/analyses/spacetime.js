@@ -3,6 +3,7 @@
  * owns the section and its availability line; each analysis of the section
  * lives in its own module (spacetime-*.js) and is mounted below with one
  * line. Every number comes from the engine (src/spacetime/). */
+import { mountSpaceTimeTimeline } from './spacetime-timeline.js';
 
 export function mountSpaceTime(C) {
   const { el } = C;
@@ -12,6 +13,8 @@ export function mountSpaceTime(C) {
     'These tests keep every location and every date as observed and only shuffle which date goes with which place.');
   const needs = el('p', { class: 'hint', id: 'st-needs' }, 'Load events with a date column (step 1) to use this section.');
   body.append(needs);
+
+  mountSpaceTimeTimeline(C, body);
 
   C.onSnapshot((snap) => {
     const span = snap && snap.summary && snap.summary.time_span;
