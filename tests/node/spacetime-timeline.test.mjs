@@ -53,7 +53,9 @@ test('the demo incidents: from/to columns are found and 54 windows counted (demo
 test('the time line: every event adds up to one, windows spread by overlap (checked against our own spreading here)', () => {
   const [s] = windows();
   const auto = s.timeline({});
-  // Span 2025-01-07 to at most 2025-03-19: under 92 days, so one bar per day.
+  // Span 2025-01-07 to 2025-03-16 (68 days): up to 92 days, so one bar per day.
+  assert.equal(auto.last_text, '2025-03-16');
+  assert.equal(auto.whole.length, 69);
   assert.equal(auto.bin, 'day');
   assert.equal(auto.bin_automatic, true);
   assert.equal(auto.instants + auto.windows, 160);

@@ -146,6 +146,8 @@ export function mountSpaceTimeTimeline(C, body) {
       while (j < m && e[j] < st.to) j++;
       st.k = k;
       st.nb = Math.max(1, j - k);
+      // A range of every bar plays one bar at a time; one at the end starts again.
+      if (st.nb >= m) st.nb = 1;
       if (st.k + st.nb >= m) st.k = 0;
     }
     $('st-tl-play').textContent = 'Pause';
@@ -156,6 +158,7 @@ export function mountSpaceTimeTimeline(C, body) {
 
   async function load() {
     const token = ++st.token;
+    const wasWhole = !st.curve || whole();
     stop();
     try {
       const [curve, times] = await Promise.all([C.call('timeline', { bin: bin.value }), C.call('eventTimes')]);
@@ -172,7 +175,7 @@ export function mountSpaceTimeTimeline(C, body) {
         $(id).max = textOf(hi - 1);
       }
       // A new bar length keeps the range; new data shows the whole period.
-      if (Number.isFinite(st.from) && st.from >= lo && st.to <= hi && st.to > st.from) setRange(st.from, st.to);
+      if (!wasWhole && Number.isFinite(st.from) && st.from >= lo && st.to <= hi && st.to > st.from) setRange(st.from, st.to);
       else setRange(lo, hi);
     } catch (err) {
       if (token !== st.token) return;
