@@ -24,7 +24,7 @@ export function mountSpaceTimeTimeline(C, body) {
   const { el, fmt } = C;
   const $ = (id) => document.getElementById(id);
   const st = { curve: null, times: null, token: 0, timer: null, k: 0, nb: 0, from: NaN, to: NaN };
-  const field = (label, input, hint) => el('label', { class: 'clu-field' }, el('span', null, label), input, hint ? el('small', null, hint) : null);
+  const field = (label, input, hint) => el('label', { class: 'st-tl-field' }, el('span', null, label), input, hint ? el('small', null, hint) : null);
 
   const bin = el('select', { id: 'st-tl-bin' },
     el('option', { value: 'auto' }, 'chosen from the span'),
@@ -32,21 +32,21 @@ export function mountSpaceTimeTimeline(C, body) {
     el('option', { value: 'week' }, 'week (Monday to Sunday)'),
     el('option', { value: 'month' }, 'month'));
   const speed = el('select', { id: 'st-tl-speed' }, ...SPEEDS.map(([name, ms]) => el('option', { value: String(ms), selected: name === 'normal' }, name)));
-  const box = el('fieldset', { class: 'clu-box', id: 'st-tl-box', disabled: true },
+  const box = el('fieldset', { class: 'st-tl', id: 'st-tl-box', disabled: true },
     el('legend', null, 'Time on the map'),
     el('p', { class: 'hint' },
       'How many events fell in each day, week or month. An event known only to lie between a "from" and a "to" date is shared out over the bars its window covers, in proportion to the overlap (aoristic shares, Ratcliffe 2000): the lighter part of a bar. ',
       'Choose a range of dates to show only those events on the map, or press Play to step through time.'),
-    el('div', { class: 'clu-grid' },
+    el('div', { class: 'st-tl-grid' },
       field('One bar per', bin),
       field('Map shows from', el('input', { type: 'date', id: 'st-tl-from' }), 'first day shown'),
       field('to', el('input', { type: 'date', id: 'st-tl-to' }), 'last day shown'),
       field('Play speed', speed, 'one bar per step')),
-    el('div', { class: 'clu-actions' },
+    el('div', { class: 'st-tl-actions' },
       el('button', { type: 'button', id: 'st-tl-play' }, 'Play'),
       el('button', { type: 'button', id: 'st-tl-all', class: 'quiet' }, 'Whole period'),
       el('span', { id: 'st-tl-shown', class: 'hint', 'aria-live': 'polite' })),
-    el('div', { class: 'clu-chart-wrap' }, el('canvas', { id: 'st-tl-chart', width: 760, height: 360, role: 'img', tabindex: '0', 'aria-label': 'Time line chart' })),
+    el('div', { class: 'st-tl-chart-wrap' }, el('canvas', { id: 'st-tl-chart', width: 760, height: 360, role: 'img', tabindex: '0', 'aria-label': 'Time line chart' })),
     el('p', { id: 'st-tl-statement', class: 'hint' }),
     el('p', { id: 'st-tl-bintext', class: 'hint' }),
     el('p', { class: 'hint' },
