@@ -128,3 +128,78 @@ test('the time line refuses what it cannot do, in plain words', () => {
   e = throws(() => new Session().timeline({}));
   assert.ok(typeof e.message === 'string' && e.message.length > 0);
 });
+
+// ---------- date shifting in the point exports ----------
+
+const dayOf = (text) => Math.round(Date.parse(`${text}T00:00:00Z`) / 86400000);
+
+test('exported dates are shifted per event within ±N, both ends together, reproducibly', () => {
+  const [s] = windows();
+  const t = s.eventTimes();
+  const opts = { format: 'csv', coordinates: 'metres', confirm_unmasked: true, created: '2030-01-01', date_shift_days: 7, date_seed: 11 };
+  const f = s.exportFile('unmasked_points', opts);
+  const lines = f.text.split('\n');
+  assert.match(lines[0], /^x_m,y_m,date,date_to,about_this_file$/);
+  let moved = 0;
+  const shifts = new Set();
+  for (let i = 0; i < 160; i++) {
+    const c = lines[i + 1].split(',');
+    const shift = dayOf(c[2]) - t.start[i];
+    assert.ok(Number.isInteger(shift) && Math.abs(shift) <= 7, `row ${i}: shift ${shift}`);
+    shifts.add(shift);
+    if (shift !== 0) moved++;
+    if (Number.isFinite(t.end[i]) && t.end[i] > t.start[i]) {
+      assert.equal(dayOf(c[3]) - t.end[i], shift, `row ${i}: both ends by the same days`);
+    } else {
+      assert.equal(c[3], '');
+    }
+  }
+  assert.ok(moved > 120, `most dates moved: ${moved}`);
+  assert.ok(shifts.size >= 10, `many different shifts: ${[...shifts]}`);
+  assert.match(f.text, /dates shifted: each event's date was moved by a random whole number of days from -7 to \+7/);
+  assert.match(f.text, /Dates are shifted by up to 7 days each way/);
+  assert.equal(s.exportFile('unmasked_points', opts).text, f.text, 'same seed, same file');
+  assert.notEqual(s.exportFile('unmasked_points', { ...opts, date_seed: 12 }).text, f.text);
+  // Without the option: no dates, as before.
+  const plain = s.exportFile('unmasked_points', { format: 'csv', coordinates: 'metres', confirm_unmasked: true, created: '2030-01-01' });
+  assert.match(plain.text.split('\n')[0], /^x_m,y_m,about_this_file$/);
+  assert.doesNotMatch(plain.text, /2025-/);
+});
+
+test('masked points carry shifted dates; tables, the report and half-given options are refused', () => {
+  const [s] = windows();
+  s.maskDonut({ r_min_m: 50, r_max_m: 200, seed: 3 });
+  const opts = { format: 'geo_json', created: '2030-01-01', date_shift_days: 3, date_seed: 5 };
+  const gj = JSON.parse(s.exportFile('masked_points', opts).text);
+  assert.match(gj.metadata.dates, /from -3 to \+3/);
+  const days = gj.features.map((f) => dayOf(f.properties.date));
+  assert.ok(days.every(Number.isFinite));
+  // Each window keeps its length (1 to 4 days, demo-data/README.md).
+  const lengths = gj.features.filter((f) => f.properties.date_to !== null).map((f) => dayOf(f.properties.date_to) - dayOf(f.properties.date));
+  assert.equal(lengths.length, 54);
+  assert.ok(lengths.every((d) => d >= 1 && d <= 4), lengths.join(','));
+  const p = s.exportPreview('masked_points', { format: 'csv', date_shift_days: 3, date_seed: 5 });
+  assert.deepEqual(p.fields.slice(0, 4), ['x_m', 'y_m', 'date', 'date_to']);
+  assert.ok(p.metadata_keys.includes('dates'));
+
+  let e = throws(() => s.exportFile('masked_points', { date_shift_days: 3 }));
+  assert.equal(e.code, 'bad_options');
+  assert.match(e.message, /date_seed/);
+  e = throws(() => s.exportFile('masked_points', { date_seed: 3 }));
+  assert.equal(e.code, 'bad_options');
+  e = throws(() => s.exportFile('masked_points', { date_shift_days: 0, date_seed: 1 }));
+  assert.equal(e.code, 'bad_parameter');
+  e = throws(() => s.exportFile('masked_points', { date_shift_days: 400, date_seed: 1 }));
+  assert.equal(e.code, 'bad_parameter');
+  assert.match(e.message, /date_shift_days/);
+  s.aggregate({ layout: 'square', cell_size_m: 2000 });
+  e = throws(() => s.exportFile('aggregates', { date_shift_days: 3, date_seed: 1 }));
+  assert.match(e.message, /only beside points/);
+  e = throws(() => s.exportFile('report', { date_shift_days: 3, date_seed: 1, report_holds: 'counts' }));
+  assert.match(e.message, /report holds no event dates/);
+  // Events without dates cannot have them shifted.
+  const p2 = new Session();
+  p2.loadEvents(text('x,y\n0,0\n100,100\n50,20\n'), {});
+  e = throws(() => p2.exportFile('unmasked_points', { coordinates: 'metres', confirm_unmasked: true, date_shift_days: 3, date_seed: 1 }));
+  assert.equal(e.code, 'nothing_loaded');
+});
