@@ -285,6 +285,7 @@ const WALK = {
   exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},
   kDistance: { call: (s, o) => s.kDistance(o.min_samples) },
   nearestCasesStart: {},
+  timeline: {},
 };
 
 test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {
