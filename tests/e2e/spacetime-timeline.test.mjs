@@ -102,3 +102,47 @@ test('Play steps the range through time, Pause holds it, and it stops at the end
   assert.equal(await page.textContent('#st-tl-play'), 'Play');
   assert.deepEqual(log.pageErrors, []);
 });
+
+test('sharing: masked points saved with dates shifted by up to 5 days, said in the preview and the file', async () => {
+  const { page, log } = await openPage(browser, { width: 1366, height: 900 });
+  await load(page);
+  await page.fill('#share-rmin', '50');
+  await page.fill('#share-rmax', '200');
+  await act(page, () => page.click('#share-mask'));
+  assert.match(await page.textContent('#share-mask-summary'), /160 of 160 points masked/);
+  // Without a shift: no dates in the file (as before).
+  await act(page, () => page.click('[data-export="masked_points:csv"]'));
+  assert.doesNotMatch(await page.textContent('#share-preview-list'), /\bdate\b/);
+  await page.click('#share-cancel');
+
+  await page.fill('#share-date-shift', '5');
+  await page.fill('#share-date-seed', '7');
+  await act(page, () => page.click('[data-export="masked_points:csv"]'));
+  const list = await page.textContent('#share-preview-list');
+  assert.match(list, /x_m, y_m, date, date_to/);
+  assert.match(list, /each moved by a random whole number of days from \u22125 to \+5/);
+  assert.match(await page.textContent('#share-preview'), /Dates are shifted by up to 5 days each way/);
+  const [dl] = await Promise.all([page.waitForEvent('download'), act(page, () => page.click('#share-save'))]);
+  const text = readFileSync(await dl.path(), 'utf8');
+  const lines = text.split('\n').filter((l) => l.length > 0);
+  assert.match(lines[0], /^x_m,y_m,date,date_to,about_this_file$/);
+  assert.match(text, /dates shifted: each event's date was moved by a random whole number of days from -5 to \+5/);
+  const day = (t) => Math.round(Date.parse(`${t}T00:00:00Z`) / 86400000);
+  const rows = lines.slice(1, 161).map((l) => l.split(','));
+  assert.equal(rows.length, 160);
+  // The incidents run from 2025-01-07 to 2025-03-16: shifted dates stay within 5 days of that.
+  const lo = day('2025-01-07') - 5;
+  const hi = day('2025-03-16') + 5;
+  let windows = 0;
+  for (const r of rows) {
+    const a = day(r[2]);
+    assert.ok(a >= lo && a <= hi, r.join(','));
+    if (r[3] !== '') {
+      windows++;
+      const len = day(r[3]) - a;
+      assert.ok(len >= 1 && len <= 4, `a window keeps its length: ${r.join(',')}`);
+    }
+  }
+  assert.equal(windows, 54);
+  assert.deepEqual(log.pageErrors, []);
+});
