@@ -43,3 +43,5 @@ echo "== scan against population counts: Node.js (demo blocks, 2,000 and 20,000 
 node bench/scan-population-node.mjs
 echo "== scan: headless Chromium page, spread over helper workers and on one"
 node bench/scan-browser.mjs 999
+echo "== time line: Node.js, invented events with from/to dates (read, timeline by day/week/month, eventTimes)"
+node --max-old-space-size=4096 bench/timeline-node.mjs 10000 100000 1000000

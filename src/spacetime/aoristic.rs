@@ -72,7 +72,9 @@ pub fn spread(s: f64, e: f64, edges: &[f64]) -> Spread {
     let len = e - s;
     let mut shares = Vec::new();
     let mut inside = 0.0;
-    for (k, w) in edges.windows(2).enumerate() {
+    // The first bin that can overlap: the last edge at or before s.
+    let k0 = edges.partition_point(|&a| a <= s).saturating_sub(1);
+    for (k, w) in edges.windows(2).enumerate().skip(k0) {
         let (a, b) = (w[0], w[1]);
         if b <= s {
             continue;
