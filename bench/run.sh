@@ -55,3 +55,5 @@ echo "== near-repeat table: the same counts and permutations with scipy + numpy"
 python3 bench/near_repeat_numpy.py
 echo "== near-repeat table and Knox test: headless Chromium page, spread over helper workers and on one"
 node bench/near-repeat-browser.mjs 999
+echo "== time line: Node.js, invented events with from/to dates (read, timeline by day/week/month, eventTimes)"
+node --max-old-space-size=4096 bench/timeline-node.mjs 10000 100000 1000000

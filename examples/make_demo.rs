@@ -1241,6 +1241,7 @@ memory; the distances to them were computed with pyproj in
 | `cases-projected.csv` | the same {n_cases} events | invented local grid, metres | projected intake: `;` delimiter, decimal comma, UTF-8 BOM, CRLF line ends, day/month/year dates |
 | `cases-with-problems.csv` | 40 rows, {n_bad} spoiled on purpose | WGS84 lon/lat | row-by-row rejection messages |
 | `planted-truth.json` | the planted truth below, with case ids | — | checking analyses against the truth |
+| `incidents-windows.csv` | 160 invented incidents with a `date_from` and a `date_to` (54 known only within a window of 1 to 4 days) | invented planar grid, metres (a 10 km square) | from–to time windows at intake, the time line with aoristic shares, the map's time filter; see the section below |
 
 Row numbers below count as a spreadsheet does: the header is row 1, the first record row 2.
 
@@ -1553,5 +1554,23 @@ it needs an explicit finiteness check.
 ",
         n_area = problems.len() - n_read,
     );
+    s.push_str(INCIDENTS_WINDOWS_README);
     s
 }
+
+/// The section on `incidents-windows.csv`, which
+/// `demo-data/make_incidents_windows.py` writes (not this program).
+const INCIDENTS_WINDOWS_README: &str = "
+## `incidents-windows.csv`
+
+Invented incidents on an invented 10 km square (planar metres, no real
+place), written by `python3 demo-data/make_incidents_windows.py` (standard
+library only, seeded). 160 rows, their dates drawn from days 0 to 69 after
+Monday 2025-01-06 (the \"from\" dates run from 2025-01-07 to 2025-03-15, the
+latest \"to\" is 2025-03-16): 120 spread evenly over the square and the whole
+period, and a burst of 40 near (7600 m, 7200 m) (normal, σ = 350 m) between
+days 28 and 41 (3 to 16 February 2025). About a third of the rows (54) are
+known only within a window: `date_to` is 1 to 4 days after `date_from`; the
+others have an empty `date_to` (known to the day). The headers `date_from`
+and `date_to` are found as a from/to pair without any choice by hand.
+";

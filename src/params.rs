@@ -395,6 +395,7 @@ pub fn all() -> Vec<Spec> {
         spec_of::<privacy::export::ExportRequest>(),
         spec_of::<crate::spacetime::pairs::NearRepeatOptions>(),
         spec_of::<crate::spacetime::pairs::KnoxOptions>(),
+        spec_of::<crate::spacetime::timeline::TimelineOptions>(),
     ]
 }
 

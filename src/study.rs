@@ -80,7 +80,7 @@ impl Pattern {
             x,
             y,
             time: pick_f(&layer.time),
-            time_end: None,
+            time_end: pick_f(&layer.time_end),
             category: layer.category.as_ref().map(|v| {
                 keep.iter()
                     .map(|&i| v.get(i).copied().unwrap_or(0))
@@ -114,6 +114,28 @@ impl Pattern {
     /// when the events have no "to" column. NaN where a row has no end.
     pub fn time_end(&self) -> Option<&[f64]> {
         self.time_end.as_deref()
+    }
+    /// Events known only within a from–to window (a finite start and a
+    /// later finite end), and the median window length in days (`None`
+    /// when there is none).
+    pub fn time_windows(&self) -> (usize, Option<f64>) {
+        let (Some(s), Some(e)) = (self.time(), self.time_end()) else {
+            return (0, None);
+        };
+        let mut len: Vec<f64> = s
+            .iter()
+            .zip(e)
+            .map(|(a, b)| b - a)
+            .filter(|d| d.is_finite() && *d > 0.0)
+            .collect();
+        len.sort_by(f64::total_cmp);
+        let m = len.len();
+        let median = match m {
+            0 => None,
+            _ if m % 2 == 1 => Some(len[m / 2]),
+            _ => Some(0.5 * (len[m / 2 - 1] + len[m / 2])),
+        };
+        (m, median)
     }
     /// Points without a usable time (0 without a time column).
     pub fn missing_time(&self) -> usize {
@@ -765,6 +787,10 @@ pub struct StudyReport {
     /// Events kept without a usable time / weight (see [`Pattern`]).
     pub events_without_time: usize,
     pub events_without_weight: usize,
+    /// Events known only within a from–to window, and the median window
+    /// length in days (`None` without windows).
+    pub events_with_window: usize,
+    pub median_window_days: Option<f64>,
 }
 
 impl Study {
@@ -789,6 +815,8 @@ impl Study {
             controls_rejected: self.control_rejections.len(),
             events_without_time: self.events.missing_time(),
             events_without_weight: self.events.missing_weight(),
+            events_with_window: self.events.time_windows().0,
+            median_window_days: self.events.time_windows().1,
         }
     }
 }
@@ -814,6 +842,7 @@ mod tests {
             x: pts.iter().map(|p| p.0).collect(),
             y: pts.iter().map(|p| p.1).collect(),
             time: Some((0..pts.len()).map(|i| i as f64).collect()),
+            time_end: None,
             category: None,
             category_names: vec![],
             weight: None,

@@ -87,6 +87,11 @@ pub struct TimeSpan {
     pub span_days: f64,
     /// Events with a usable time (non-finite values are skipped).
     pub n_with_time: usize,
+    /// Events known only within a from–to window, and the median window
+    /// length in days (`None` without windows). The span above runs from
+    /// the earliest start to the latest start.
+    pub n_windows: usize,
+    pub median_window_days: Option<f64>,
 }
 
 /// Events in one category.
@@ -280,6 +285,8 @@ pub fn summarise(study: &Study) -> Summary {
             last: iso(last, clock),
             span_days: last - first,
             n_with_time: ok.len(),
+            n_windows: ev.time_windows().0,
+            median_window_days: ev.time_windows().1,
         })
     });
 
@@ -488,6 +495,8 @@ mod tests {
             x: vec![0.0, 10.0, 0.0, 10.0, 5.0],
             y: vec![0.0, 0.0, 10.0, 10.0, 5.0],
             time: Some(vec![19782.0, 19700.0, f64::NAN, 19790.0, 19783.0]),
+            // Two windows (3 and 0.5 days); an end equal to its start is an instant.
+            time_end: Some(vec![19785.0, f64::NAN, f64::NAN, 19790.0, 19783.5]),
             category: Some(vec![1, 0, 1, 1, 7]),
             category_names: vec!["a".into(), "b".into()],
             weight: None,
@@ -508,6 +517,7 @@ mod tests {
             ("2023-12-09", "2024-03-08")
         );
         assert_eq!((t.span_days, t.n_with_time), (90.0, 4));
+        assert_eq!((t.n_windows, t.median_window_days), (2, Some(1.75)));
         let c: Vec<(&str, usize)> = s
             .categories
             .iter()

@@ -650,6 +650,7 @@ fn exports_contain_no_original_coordinate() {
                 created: "2030-01-02".into(),
                 confirm_unmasked: false,
                 csv_notes: CsvNotes::LastColumn,
+                dates: None,
             };
             for content in [
                 ExportContent::MaskedPoints {

@@ -67,6 +67,9 @@ export interface StudyReport {
   /** Events kept without a usable time / weight (left out of the analyses that need it). */
   events_without_time: number;
   events_without_weight: number;
+  /** Events known only within a from–to window, and the median window length in days (null without windows). */
+  events_with_window: number;
+  median_window_days: number | null;
 }
 
 /** The format a file was read as. */
@@ -87,6 +90,8 @@ export interface ResolvedMapping {
   x: string | null;
   y: string | null;
   time: string | null;
+  /** The end of each event's time window (a "to" column). */
+  time_until: string | null;
   category: string | null;
   weight: string | null;
 }
@@ -99,6 +104,7 @@ export type RejectReason =
   | 'longitude_out_of_range'
   | 'outside_study_area'
   | 'bad_time'
+  | 'reversed_window'
   | 'bad_weight'
   | 'too_few_fields'
   | 'too_many_fields'
@@ -225,6 +231,9 @@ export interface TimeSpan {
   last: string;
   span_days: number;
   n_with_time: number;
+  /** Events known only within a from–to window, and the median window length in days. */
+  n_windows: number;
+  median_window_days: number | null;
 }
 
 export interface CategoryCount {
@@ -976,6 +985,31 @@ export interface MaskingCost {
   standard_distance_change_m: number | null;
   surface: SurfaceShift | null;
   l_curves: CurvePair | null;
+  /** Events with dates: the near-repeat table and Knox count before and after masking (same dates); null without dates. */
+  pairs: PairShift | null;
+}
+
+/** Pairs within the Knox distance and time and their exact expectation. */
+export interface KnoxCount {
+  pairs: number;
+  expected: number;
+  ratio: number | null;
+}
+
+/** What masking does to the pairs close in space and time. */
+export interface PairShift {
+  events_used: number;
+  knox_distance_m: number;
+  knox_days: number;
+  knox_original: KnoxCount;
+  knox_masked: KnoxCount;
+  space_labels: string[];
+  time_labels: string[];
+  /** Cells row by row (distance band, then time band). */
+  observed_original: number[];
+  observed_masked: number[];
+  ratio_original: (number | null)[];
+  ratio_masked: (number | null)[];
 }
 
 export type TableLayout = TableLayoutGrid | TableLayoutZones;
@@ -1384,4 +1418,48 @@ export interface KnoxResult {
   verdict: string;
   time_use: TimeUseReport;
   caveats: string[];
+}
+/** Length of one bar of the time line. */
+export type TimelineBin = 'day' | 'week' | 'month';
+
+/** The time line (`timeline`): events per bin, window shares spread by aoristic weights. */
+export interface Timeline {
+  bin: TimelineBin;
+  bin_automatic: boolean;
+  bin_text: string;
+  /** Bin k is [edges[k], edges[k+1]) in days since 1970-01-01 (UTC). */
+  edges: number[];
+  /** First day of each bin, YYYY-MM-DD. */
+  labels: string[];
+  /** Events with one known time in each bin. */
+  whole: number[];
+  /** Shares of events known only within a from–to window, per bin. */
+  window_share: number[];
+  instants: number;
+  windows: number;
+  without_time: number;
+  first: number;
+  last: number;
+  first_text: string;
+  last_text: string;
+  max_bin: number;
+  statement: string;
+}
+
+/** Each event's time and window end in days (`eventTimes`), in the order of `mapLayers().events`; NaN = none. */
+export interface EventTimes {
+  start: Float64Array;
+  end: Float64Array | null;
+}
+
+/** What `drawTimelineChart` draws: `timeline`'s bins and counts plus the map's range. */
+export interface TimelineChartData {
+  edges: number[];
+  whole: number[];
+  window_share: number[];
+  /** The range shown on the map (days). */
+  from?: number | null;
+  to?: number | null;
+  /** Device pixels per CSS pixel. */
+  scale?: number | null;
 }

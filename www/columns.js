@@ -1,4 +1,4 @@
-/* The column editor: which column plays which role (x, y, time, category,
+/* The column editor: which column plays which role (x, y, time, time until, category,
  * weight), the kind of coordinates and the date order, for the events or the
  * controls file; and the header's names offered when the engine could not
  * find a file's coordinate columns. */
@@ -6,7 +6,7 @@
 import { $, el } from './dom.js';
 import { state } from './state.js';
 
-const ROLES = ['x', 'y', 'time', 'category', 'weight'];
+const ROLES = ['x', 'y', 'time', 'time_until', 'category', 'weight'];
 
 export function currentOptions() {
   const mapping = {};

@@ -34,6 +34,9 @@ export class PointMap {
     this.drag = null;
     this.onViewChange = null;
     this.lastDrawn = { events: 0, controls: 0 };
+    // Which events are drawn (a Uint8Array, 1 = drawn, in the order of
+    // layers.events), or null for all: the time filter sets it.
+    this.eventMask = null;
 
     canvas.addEventListener('pointerdown', (e) => this.pointerDown(e));
     canvas.addEventListener('pointermove', (e) => this.pointerMove(e));
@@ -82,6 +85,21 @@ export class PointMap {
     const out = [];
     for (const [name, o] of this.overlays || []) if (!only || name === only) out.push(...o.legend);
     return out;
+  }
+
+  /** Draws only the events whose entry in `mask` (one per event, in the
+   * order of layers.events) is non-zero; null draws every event. A mask
+   * of another length than the events is ignored (new data came in). */
+  setEventFilter(mask) {
+    this.eventMask = mask || null;
+    this.redraw();
+  }
+
+  /** The filter in force for the current events, or null. */
+  activeMask() {
+    const m = this.eventMask;
+    const ev = this.layers && this.layers.events;
+    return m && ev && m.length === ev.length >> 1 ? m : null;
   }
 
   setLayers(layers, keepView) {
@@ -280,11 +298,15 @@ export class PointMap {
 
     const colours = this.eventColours();
     const cat = L.event_category || null;
+    const mask = this.activeMask();
     if (total <= DENSE_ABOVE) {
-      this.lastDrawn = this.drawSquaresPath(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H);
+      this.lastDrawn = this.drawSquaresPath(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H, mask);
     } else {
-      this.lastDrawn = this.drawSquaresImage(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H);
+      this.lastDrawn = this.drawSquaresImage(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H, mask);
     }
+    // For people reading the page's state (and its tests): events drawn now.
+    this.canvas.dataset.eventsDrawn = String(this.lastDrawn.events);
+    this.canvas.dataset.timeFiltered = mask ? '1' : '0';
 
     if (hasArea) {
       ctx.lineWidth = Math.max(1, 1.5 * dpr);
@@ -356,7 +378,7 @@ export class PointMap {
     return names.map((_, i) => PointMap.categoryColour(i, names.length));
   }
 
-  drawSquaresPath(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H) {
+  drawSquaresPath(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H, mask) {
     const half = size / 2;
     let drawnControls = 0;
     let drawnEvents = 0;
@@ -374,7 +396,8 @@ export class PointMap {
     // A thin white edge keeps neighbouring squares apart.
     const edge = Math.max(1, Math.round(size / 5));
     ctx.fillStyle = '#ffffff';
-    for (let i = 0; i + 1 < ev.length; i += 2) {
+    for (let i = 0, j = 0; i + 1 < ev.length; i += 2, j++) {
+      if (mask && !mask[j]) continue;
       const x = ox + ev[i] * k;
       const y = oy - ev[i + 1] * k;
       if (x < -size || y < -size || x > W + size || y > H + size) continue;
@@ -384,6 +407,7 @@ export class PointMap {
       ctx.fillStyle = colours[c];
       for (let i = 0, j = 0; i + 1 < ev.length; i += 2, j++) {
         if (colours.length > 1 && cat && cat[j] !== c) continue;
+        if (mask && !mask[j]) continue;
         const x = ox + ev[i] * k;
         const y = oy - ev[i + 1] * k;
         if (x < -size || y < -size || x > W + size || y > H + size) continue;
@@ -401,7 +425,7 @@ export class PointMap {
    * (opacity 0.3 for one event up to 1 at the 99th percentile of the counts,
    * on a log scale), so dense places stand out instead of merging into one
    * solid area. Controls are drawn under them as plain squares. */
-  drawSquaresImage(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H) {
+  drawSquaresImage(ctx, ox, oy, k, ev, cat, colours, ctl, size, ctlSize, W, H, mask) {
     const img = ctx.getImageData(0, 0, W, H);
     const px = new Uint32Array(img.data.buffer);
     const ctlColour = packColour(CLOISTER_PALETTE.control);
@@ -418,6 +442,7 @@ export class PointMap {
     const counts = new Uint32Array(bw * bh);
     const byCat = nc > 1 ? new Uint32Array(bw * bh * nc) : null;
     for (let i = 0, j = 0; i + 1 < ev.length; i += 2, j++) {
+      if (mask && !mask[j]) continue;
       const x = ox + ev[i] * k;
       const y = oy - ev[i + 1] * k;
       if (!(x >= 0 && x < W && y >= 0 && y < H)) continue;

@@ -59,6 +59,13 @@ export const panelApi = {
     map.setOverlay(name, draw, legend);
     renderLegend(state.snap && state.snap.layers);
   },
+  /** Shows on the map only the events whose entry in `mask` (a Uint8Array,
+   * one per event in the order of the map's events) is non-zero; null shows
+   * them all (the time filter of the time line). Returns the events drawn. */
+  setEventFilter(mask) {
+    map.setEventFilter(mask);
+    return map.lastDrawn.events;
+  },
   /** The engine running on the page's own thread (for drawing charts). */
   engine() { return wasm_bindgen; },
   /** Sizes a chart canvas to its container (420–960 CSS px wide, height

@@ -128,6 +128,9 @@ function renderSummary(snap) {
     const clock = state.reports.events && state.reports.events.time_has_clock;
     const show = (v) => (typeof v === 'string' ? v.replace('T', ' ').replace(/:00Z$|Z$/, '') : fmtTime(v, clock));
     add('Time span', `${show(t.first)} to ${show(t.last)} (${fmtDays(t.span_days)})`, 'time');
+    if (num(t.n_windows) > 0) {
+      add('Known only within a window', `${fmt(t.n_windows)} events (from–to dates; median window ${fmtDays(t.median_window_days)})`, 'time_windows');
+    }
   }
   const co = s.coincident || (study && study.coincident);
   if (co) {
@@ -181,6 +184,10 @@ function renderQuality(snap) {
   };
   layerLine('Events', 'events', state.reports.events,
     study ? { read: study.events_rows_read, used: study.events, rejected: study.events_rejected } : null);
+  if (study && num(study.events_with_window) > 0) {
+    box.append(el('p', { class: 'counts', 'data-windows': 'events' },
+      `Events known only within a from–to window: ${fmt(study.events_with_window)} (median window ${fmtDays(study.median_window_days)}). The time column is the start of each window.`));
+  }
   layerLine('Controls', 'controls', state.reports.controls,
     study && state.controls && study.controls !== null && study.controls !== undefined
       ? { read: study.controls_rows_read, used: study.controls, rejected: study.controls_rejected } : null);

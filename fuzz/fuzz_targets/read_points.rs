@@ -1,6 +1,7 @@
 //! Any bytes as an events file (CSV, TSV, GeoJSON: the reader sniffs which),
 //! with the default options and with each date order: it must answer with a
-//! layer or an error, never panic, and never accept more rows than it read.
+//! layer or an error, never panic, never accept more rows than it read, and
+//! never keep the end of a from–to window before its start.
 #![no_main]
 use cloister::input::{read_points, DateOrder, ReadOptions};
 use libfuzzer_sys::fuzz_target;
@@ -19,6 +20,11 @@ fuzz_target!(|data: &[u8]| {
             assert_eq!(layer.x.len(), layer.y.len());
             assert_eq!(layer.x.len(), layer.row.len());
             assert!(layer.x.len() as u64 <= layer.rows_read);
+            // A kept window end is never before its start.
+            if let (Some(t), Some(e)) = (&layer.time, &layer.time_end) {
+                assert_eq!(e.len(), layer.x.len());
+                assert!(t.iter().zip(e).all(|(a, b)| !(b < a)));
+            }
         }
     }
 });

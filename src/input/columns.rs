@@ -197,6 +197,107 @@ pub const TIME_NAMES: &[&str] = &[
     "tid",
 ];
 
+/// Names of the start of a time window (after [`normalize`]): used as the
+/// time column only when no time name matched and a column of
+/// [`TIME_UNTIL_NAMES`] is there too (so a bare "from" or "start" alone is
+/// never read as a date).
+pub const TIME_FROM_NAMES: &[&str] = &[
+    "datefrom",
+    "fromdate",
+    "timefrom",
+    "fromtime",
+    "startdate",
+    "datestart",
+    "starttime",
+    "from",
+    "start",
+    // de: Datum von, von, Beginn, Tatzeit von
+    "datumvon",
+    "vondatum",
+    "tatzeitvon",
+    "von",
+    "beginn",
+    "startdatum",
+    // fr: date de début, du
+    "datedebut",
+    "datededebut",
+    "debut",
+    // es / pt: fecha desde, fecha inicio, desde, data início
+    "fechadesde",
+    "fechainicio",
+    "fechadeinicio",
+    "desde",
+    "datainicio",
+    "datadeinicio",
+    // it: data inizio, dal
+    "datainizio",
+    "inizio",
+    // nl: datum van, begindatum, vanaf
+    "datumvan",
+    "begindatum",
+    "vanaf",
+    // pl: data od, od
+    "dataod",
+    "od",
+    // sv / da / no: datum från, från, startdato, fra
+    "datumfran",
+    "fran",
+    "startdato",
+    "datofra",
+    "fra",
+];
+
+/// Names of the end of a time window (after [`normalize`]), the "time
+/// until" role: detected only when a time column is found too, and only
+/// from these specific words (an ordinary "end" or "close" column is not
+/// among them).
+pub const TIME_UNTIL_NAMES: &[&str] = &[
+    "dateto",
+    "todate",
+    "timeto",
+    "totime",
+    "dateuntil",
+    "untildate",
+    "enddate",
+    "dateend",
+    "endtime",
+    "to",
+    "until",
+    // de: Datum bis, bis, Enddatum, Tatzeit bis
+    "datumbis",
+    "bisdatum",
+    "tatzeitbis",
+    "bis",
+    "enddatum",
+    // fr: date de fin, date fin, jusqu'au
+    "datefin",
+    "datedefin",
+    "jusquau",
+    // es / pt: fecha hasta, fecha fin, hasta, data fim, até
+    "fechahasta",
+    "fechafin",
+    "fechadefin",
+    "hasta",
+    "datafim",
+    "datadefim",
+    // it: data fine, fino al
+    "datafine",
+    "finoal",
+    // nl: datum tot, einddatum, tot
+    "datumtot",
+    "einddatum",
+    "tot",
+    // pl: data do
+    "datado",
+    // sv / da / no: datum till, till, slutdatum, slutdato, sluttdato, dato til
+    "datumtill",
+    "till",
+    "slutdatum",
+    "slutdato",
+    "sluttdato",
+    "datotil",
+];
+
 /// Category names (after [`normalize`]).
 pub const CATEGORY_NAMES: &[&str] = &[
     "category",
@@ -500,10 +601,12 @@ pub struct AttrRole {
     pub detected: bool,
 }
 
-/// Time, category and weight columns.
+/// Time, time-until, category and weight columns.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct AttrRoles {
     pub time: Option<AttrRole>,
+    /// The end of each event's time window ("to" column); only with `time`.
+    pub time_until: Option<AttrRole>,
     pub category: Option<AttrRole>,
     pub weight: Option<AttrRole>,
 }
@@ -518,8 +621,8 @@ pub fn resolve_attributes(
     let norm: Vec<String> = headers.iter().map(|h| normalize(h)).collect();
     let mut taken = taken.to_vec();
     let mut out = AttrRoles::default();
-    let roles: [(&Option<String>, &[&str], &str); 3] = [
-        (&mapping.time, TIME_NAMES, "time"),
+    resolve_time_window(headers, &norm, mapping, &mut taken, &mut out)?;
+    let roles: [(&Option<String>, &[&str], &str); 2] = [
         (&mapping.category, CATEGORY_NAMES, "category"),
         (&mapping.weight, WEIGHT_NAMES, "weight"),
     ];
@@ -539,12 +642,101 @@ pub fn resolve_attributes(
             taken.push(r.index);
         }
         match i {
-            0 => out.time = r,
-            1 => out.category = r,
+            0 => out.category = r,
             _ => out.weight = r,
         }
     }
     Ok(out)
+}
+
+/// The time column and the optional "time until" column (end of a window).
+///
+/// The time column: the user's choice, else the first [`TIME_NAMES`] match,
+/// else, only as a pair, a [`TIME_FROM_NAMES`] column with a
+/// [`TIME_UNTIL_NAMES`] column beside it. The until column: the user's
+/// choice, else (only when there is a time column) the first
+/// [`TIME_UNTIL_NAMES`] match. A until column without a time column is
+/// refused with a message.
+fn resolve_time_window(
+    headers: &[String],
+    norm: &[String],
+    mapping: &ColumnMapping,
+    taken: &mut Vec<usize>,
+    out: &mut AttrRoles,
+) -> Result<(), InputError> {
+    let detected = |index| AttrRole {
+        index,
+        detected: true,
+    };
+    let given = |o: &Option<String>| -> Result<Option<Option<AttrRole>>, InputError> {
+        Ok(match o {
+            None => None,
+            Some(n) if n.trim().is_empty() => Some(None),
+            Some(n) => Some(Some(AttrRole {
+                index: named(headers, norm, "time", n)?,
+                detected: false,
+            })),
+        })
+    };
+    let mut time = given(&mapping.time)?;
+    let until_given = match &mapping.time_until {
+        Some(n) if !n.trim().is_empty() => Some(Some(AttrRole {
+            index: named(headers, norm, "time until", n)?,
+            detected: false,
+        })),
+        Some(_) => Some(None),
+        None => None,
+    };
+    if time.is_none() {
+        // Detection: a time name, else a from/until pair.
+        let t = find(norm, TIME_NAMES, taken).map(detected).or_else(|| {
+            let from = find(norm, TIME_FROM_NAMES, taken)?;
+            let mut t2 = taken.clone();
+            t2.push(from);
+            let until_ok = match until_given {
+                Some(Some(u)) => u.index != from,
+                Some(None) => false,
+                None => find(norm, TIME_UNTIL_NAMES, &t2).is_some(),
+            };
+            until_ok.then(|| detected(from))
+        });
+        time = Some(t);
+    }
+    let time = time.flatten();
+    if let Some(t) = time {
+        taken.push(t.index);
+    }
+    let until = match until_given {
+        Some(u) => u,
+        None => time.and_then(|_| find(norm, TIME_UNTIL_NAMES, taken).map(detected)),
+    };
+    if let Some(u) = until {
+        match time {
+            None => {
+                return Err(missing(
+                    headers,
+                    format!(
+                        "the column \"{}\" is chosen as the end of a time window, but no time \
+                         (from) column is chosen",
+                        headers[u.index]
+                    ),
+                ))
+            }
+            Some(t) if t.index == u.index => {
+                return Err(missing(
+                    headers,
+                    format!(
+                        "the time and the time-until column cannot both be \"{}\"",
+                        headers[u.index]
+                    ),
+                ))
+            }
+            Some(_) => taken.push(u.index),
+        }
+    }
+    out.time = time;
+    out.time_until = until;
+    Ok(())
 }
 
 #[cfg(test)]
@@ -670,6 +862,8 @@ mod tests {
             LON_NAMES,
             LAT_NAMES,
             TIME_NAMES,
+            TIME_FROM_NAMES,
+            TIME_UNTIL_NAMES,
             CATEGORY_NAMES,
             WEIGHT_NAMES,
         ] {

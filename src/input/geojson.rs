@@ -378,12 +378,22 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
     let time_role = keep_if_readable(attrs.time, times.iter().map(String::as_str), |s| {
         readable_any_order(s, given_order)
     });
+    let untils = sample_texts(attrs.time_until);
+    let until_role = time_role.and(keep_if_readable(
+        attrs.time_until,
+        untils.iter().map(String::as_str),
+        |s| readable_any_order(s, given_order),
+    ));
     // Date order from every feature's time text, unless given.
     let date_order = time_role.map(|r| {
         let mut det = OrderDetector::default();
         if given_order.is_none() {
             for (i, f) in feats.iter().enumerate() {
                 if let Some(Json::String(s)) = f.properties.and_then(|p| p.get(&columns[r.index])) {
+                    det.add(i as u64 + 1, s);
+                }
+                let until = until_role.and_then(|u| f.properties?.get(&columns[u.index]));
+                if let Some(Json::String(s)) = until {
                     det.add(i as u64 + 1, s);
                 }
             }
@@ -402,6 +412,7 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
         x: None,
         y: None,
         time: name(time_role),
+        time_until: name(until_role),
         category: name(attrs.category),
         weight: name(weight_role),
     };
@@ -428,6 +439,9 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
         attrs.category.is_some(),
         weight_role.is_some(),
     );
+    if until_role.is_some() {
+        b.time_end = Some(Vec::new());
+    }
     b.reserve(feats.len());
     let mut buf = String::new();
     for (i, f) in feats.iter().enumerate() {
@@ -442,6 +456,19 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
                 }
                 Some(Json::String(s)) => match parse_time(s, order) {
                     Some(p) => Ok(p),
+                    None => Err((col, RejectReason::BadTime, s.clone())),
+                },
+                Some(other) => Err((col, RejectReason::BadTime, other.to_string())),
+            }
+        });
+        // The end of a window: Ok(None) for an empty one (an instant).
+        let until = until_role.map(|r| {
+            let col = columns[r.index].as_str();
+            match f.properties.and_then(|p| p.get(col)) {
+                None | Some(Json::Null) => Ok(None),
+                Some(Json::String(s)) if s.trim().is_empty() => Ok(None),
+                Some(Json::String(s)) => match parse_time(s, order) {
+                    Some(p) => Ok(Some((p, s.clone()))),
                     None => Err((col, RejectReason::BadTime, s.clone())),
                 },
                 Some(other) => Err((col, RejectReason::BadTime, other.to_string())),
@@ -492,6 +519,22 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
                 Some(Err((col, reason, v))) if first_point => b.note(row, col, reason.clone(), v),
                 _ => {}
             }
+            let mut end = f64::NAN;
+            match (&until, until_role) {
+                (Some(Ok(Some((p, text)))), Some(r)) => {
+                    t.1 |= p.has_clock;
+                    let col = columns[r.index].as_str();
+                    if first_point {
+                        end = super::layer::window_end(&mut b, row, col, text, t.0, p.days);
+                    } else if !(t.0.is_finite() && p.days < t.0) {
+                        end = p.days;
+                    }
+                }
+                (Some(Err((col, reason, v))), _) if first_point => {
+                    b.note(row, col, reason.clone(), v)
+                }
+                _ => {}
+            }
             let mut w = f64::NAN;
             match &weight {
                 Some(Ok(v)) => w = *v,
@@ -503,6 +546,7 @@ pub fn read_points(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputErro
                 None => 0,
             };
             b.accept(row, x, y, t, cat, w);
+            b.accept_until(end);
         }
     }
     b.date_order = date_order;

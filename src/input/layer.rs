@@ -56,6 +56,9 @@ pub(crate) struct Builder {
     pub x: Vec<f64>,
     pub y: Vec<f64>,
     pub time: Option<Vec<f64>>,
+    /// End of each point's time window (pushed by [`Builder::accept_until`]
+    /// after [`Builder::accept`]); `None` without a time-until column.
+    pub time_end: Option<Vec<f64>>,
     pub category: Option<Vec<u32>>,
     pub category_names: Vec<String>,
     category_ids: HashMap<String, u32>,
@@ -74,6 +77,7 @@ impl Builder {
             x: Vec::new(),
             y: Vec::new(),
             time: time.then(Vec::new),
+            time_end: None,
             category: category.then(Vec::new),
             category_names: Vec::new(),
             category_ids: HashMap::new(),
@@ -158,6 +162,14 @@ impl Builder {
         }
     }
 
+    /// The end of the window of the point just accepted (NaN = none).
+    /// Does nothing unless `time_end` was set up (`Some`).
+    pub fn accept_until(&mut self, e: f64) {
+        if let Some(v) = &mut self.time_end {
+            v.push(e);
+        }
+    }
+
     pub fn finish(
         self,
         format: SourceFormat,
@@ -177,6 +189,7 @@ impl Builder {
             x: self.x,
             y: self.y,
             time: self.time,
+            time_end: self.time_end,
             category: self.category,
             category_names: self.category_names,
             weight: self.weight,
@@ -369,6 +382,7 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
     };
     let given_order = opts.date_order;
     let mut buf = String::new();
+    let until_role = attrs.time_until;
     let attrs = AttrRoles {
         time: keep_if_readable(attrs.time, cells_of(&sample, attrs.time), |s| {
             readable_any_order(s, given_order)
@@ -377,6 +391,16 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         weight: keep_if_readable(attrs.weight, cells_of(&sample, attrs.weight), |s| {
             weight_value(s, decimal_comma, &mut String::new()).is_some()
         }),
+        time_until: None,
+    };
+    // A detected until column needs a time column and one readable value.
+    let attrs = AttrRoles {
+        time_until: attrs.time.and(keep_if_readable(
+            until_role,
+            cells_of(&sample, until_role),
+            |s| readable_any_order(s, given_order),
+        )),
+        ..attrs
     };
     drop(sample);
 
@@ -388,6 +412,14 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
             let mut f = Vec::new();
             while let Some(Ok(info)) = rd.read_into(&mut f) {
                 if let Some(cell) = f.get(r.index).filter(|_| !info.blank) {
+                    det.add(info.row, cell);
+                }
+                // The "to" dates are written the same way: they tell too.
+                if let Some(cell) = attrs
+                    .time_until
+                    .and_then(|u| f.get(u.index))
+                    .filter(|_| !info.blank)
+                {
                     det.add(info.row, cell);
                 }
             }
@@ -404,6 +436,7 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         x: Some(headers[xy.x].clone()),
         y: Some(headers[xy.y].clone()),
         time: name(attrs.time),
+        time_until: name(attrs.time_until),
         category: name(attrs.category),
         weight: name(attrs.weight),
     };
@@ -412,6 +445,9 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         attrs.category.is_some(),
         attrs.weight.is_some(),
     );
+    if attrs.time_until.is_some() {
+        b.time_end = Some(Vec::new());
+    }
     // Rough capacity guess: ~25 bytes per record.
     b.reserve((text.len() / 25).min(10_000_000));
     let width = headers.len();
@@ -474,6 +510,22 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
                 }
             }
         }
+        let mut until = f64::NAN;
+        if let Some(r) = attrs.time_until {
+            let cell = fields[r.index].as_ref();
+            let col = headers[r.index].as_str();
+            // An empty "to" is no window: the event is an instant.
+            if !cell.trim().is_empty() {
+                match parse_time(cell, order) {
+                    Some(p) => {
+                        until = p.days;
+                        t.1 |= p.has_clock;
+                    }
+                    None => b.note(row, col, RejectReason::BadTime, cell),
+                }
+            }
+            until = window_end(&mut b, row, col, cell, t.0, until);
+        }
         let mut w = f64::NAN;
         if let Some(r) = attrs.weight {
             let cell = fields[r.index].as_ref();
@@ -492,6 +544,7 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
             None => 0,
         };
         b.accept(row, x, y, t, cat, w);
+        b.accept_until(until);
     }
     b.date_order = date_order;
     let format = SourceFormat::Csv {
@@ -499,6 +552,25 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         decimal_comma,
     };
     Ok(b.finish(format, headers, mapping, xy.coords))
+}
+
+/// The end of a window as kept: a "to" before its "from" is not used (the
+/// event stays, an instant at its "from"), and the row is noted as
+/// [`RejectReason::ReversedWindow`] with the "to" column and text. We do not
+/// swap the two: which of them is wrong cannot be told from the row.
+pub(crate) fn window_end(
+    b: &mut Builder,
+    row: u64,
+    col: &str,
+    cell: &str,
+    from: f64,
+    until: f64,
+) -> f64 {
+    if from.is_finite() && until.is_finite() && until < from {
+        b.note(row, col, RejectReason::ReversedWindow, cell);
+        return f64::NAN;
+    }
+    until
 }
 
 fn cells_of(sample: &[Vec<String>], role: Option<AttrRole>) -> impl Iterator<Item = &str> {
@@ -537,6 +609,11 @@ impl fmt::Display for Rejection {
                 f,
                 "could not read \"{v}\" as a date (e.g. 2025-03-04, 04/03/2025 or \
                  2025-03-04 14:30), or the date does not exist"
+            ),
+            RejectReason::ReversedWindow => write!(
+                f,
+                "the \"to\" date \"{v}\" is before the \"from\" date, so it is not used \
+                 (the event is kept at its \"from\" date)"
             ),
             RejectReason::BadWeight => write!(f, "weight \"{v}\" must be a number ≥ 0"),
             RejectReason::TooFewFields => {

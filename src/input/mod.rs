@@ -85,6 +85,9 @@ pub struct ColumnMapping {
     pub x: Option<String>,
     pub y: Option<String>,
     pub time: Option<String>,
+    /// The end of each event's time window (a "to" date; the time column is
+    /// then its "from"). Detected only beside a time column.
+    pub time_until: Option<String>,
     pub category: Option<String>,
     pub weight: Option<String>,
 }
@@ -129,7 +132,7 @@ impl crate::params::Params for ReadOptions {
         vec![
             Field::object(
                 "mapping",
-                "column roles {x, y, time, category, weight}, each a column name; unset roles are detected",
+                "column roles {x, y, time, time_until, category, weight}, each a column name; unset roles are detected (time_until = the end of a from–to time window, detected only beside a time column)",
             ),
             Field::object("coords", COORDS_DOC).optional(),
             Field::choice(
@@ -170,6 +173,8 @@ pub enum RejectReason {
     OutsideStudyArea,
     /// The time cell could not be read with the chosen date order.
     BadTime,
+    /// The end of a time window is before its start: the end is not used.
+    ReversedWindow,
     /// A negative or non-finite weight.
     BadWeight,
     /// The record has fewer fields than the header.
@@ -200,6 +205,7 @@ impl RejectReason {
             RejectReason::LongitudeOutOfRange => "longitude outside [-180, 180]",
             RejectReason::OutsideStudyArea => "outside the study area",
             RejectReason::BadTime => "unreadable date/time",
+            RejectReason::ReversedWindow => "\"to\" date before the \"from\" date",
             RejectReason::BadWeight => "weight must be a number ≥ 0",
             RejectReason::TooFewFields => "fewer fields than the header",
             RejectReason::TooManyFields => "more fields than the header",
@@ -264,6 +270,7 @@ pub struct ResolvedMapping {
     pub x: Option<String>,
     pub y: Option<String>,
     pub time: Option<String>,
+    pub time_until: Option<String>,
     pub category: Option<String>,
     pub weight: Option<String>,
 }
@@ -285,6 +292,10 @@ pub struct RawLayer {
     /// cell): the point is kept for the spatial analyses and listed in
     /// `incomplete`.
     pub time: Option<Vec<f64>>,
+    /// End of each point's time window ("time until" column), days as
+    /// `time`; NaN where a row has no usable end (the event is then an
+    /// instant at `time`). `None` without such a column.
+    pub time_end: Option<Vec<f64>>,
     /// Index into `category_names`, if a category column is used.
     pub category: Option<Vec<u32>>,
     pub category_names: Vec<String>,
@@ -329,6 +340,7 @@ impl RawLayer {
         out.x = pick(&self.x);
         out.y = pick(&self.y);
         out.time = self.time.as_ref().map(pick);
+        out.time_end = self.time_end.as_ref().map(pick);
         out.weight = self.weight.as_ref().map(pick);
         out.category = self
             .category

@@ -5,6 +5,7 @@
 //! * [`envelope`]: Monte Carlo envelope chart of a distance function.
 //! * [`kdistance`]: sorted k-distance curve for choosing DBSCAN's eps.
 //! * [`stgrid`]: shaded grid of the space–time K function's residuals.
+//! * [`timeline`]: events per day, week or month, window shares lighter.
 //!
 //! Every chart takes a [`PixelScale`]: on a canvas with more device pixels
 //! than CSS pixels, text, lines and margins grow by that factor, so the chart
@@ -13,12 +14,14 @@
 pub mod envelope;
 pub mod kdistance;
 pub mod stgrid;
+pub mod timeline;
 
 pub use envelope::{
     draw_envelope_chart, Band, Drawn, EnvelopeChartData, EnvelopeChartOptions, Units, View,
 };
 pub use kdistance::{draw_k_distance_chart, KDistanceChartData};
 pub use stgrid::{draw_space_time_grid, SpaceTimeGridData};
+pub use timeline::{draw_timeline_chart, TimelineChartData};
 
 use std::fmt;
 

@@ -90,6 +90,10 @@ pub struct ExportOptions {
     pub confirm_unmasked: bool,
     /// Where a CSV file's metadata goes.
     pub csv_notes: CsvNotes,
+    /// Shifted dates of the events (indexed as the original events), to
+    /// write beside points; `None` writes no dates (see [`super::dates`]).
+    #[serde(skip)]
+    pub dates: Option<super::dates::ShiftedDates>,
 }
 
 impl Default for ExportOptions {
@@ -101,6 +105,7 @@ impl Default for ExportOptions {
             created: String::new(),
             confirm_unmasked: false,
             csv_notes: CsvNotes::LastColumn,
+            dates: None,
         }
     }
 }
@@ -148,6 +153,13 @@ pub struct ExportRequest {
     /// Report only: add a summary of the relative-risk surface drawn last
     /// (settings, global test, shares of the area; no locations).
     pub report_risk: bool,
+    /// Points only: write each event's date, shifted by a random whole
+    /// number of days within ± this many days (the same shift for both
+    /// ends of a window). Empty: no dates are written.
+    pub date_shift_days: Option<u32>,
+    /// The seed of the date shifts (needed with `date_shift_days`; never
+    /// written into the file).
+    pub date_seed: Option<u64>,
 }
 
 impl crate::params::Params for ExportRequest {
@@ -197,6 +209,18 @@ impl crate::params::Params for ExportRequest {
                 "report_risk",
                 "report only: add the summary of the relative-risk surface drawn last",
             ),
+            Field::integer(
+                "date_shift_days",
+                "points only: write each event's date moved by a random whole number of days within plus or minus this many (both ends of a from-to window together); empty = no dates written",
+            )
+            .range(1.0, super::dates::MAX_SHIFT_DAYS as f64)
+            .optional(),
+            Field::integer(
+                "date_seed",
+                "the seed of the date shifts, needed with date_shift_days; never written into the file",
+            )
+            .range(0.0, crate::params::MAX_SEED as f64)
+            .optional(),
         ]
     }
 }
@@ -508,12 +532,28 @@ pub fn what_leaves(
             )
         }
     };
+    if let Some(d) = &opts.dates {
+        if matches!(content, ExportContent::Table(_)) {
+            return Err(bad(
+                "date_shift_days",
+                "dates are written only beside points; counts per area carry none",
+            ));
+        }
+        debug_assert!(d.max_days > 0);
+        metadata_keys.push("dates".into());
+    }
     metadata_keys.push("cautions".into());
     let mut fields = match (opts.format, content) {
         (ExportFormat::GeoJson, ExportContent::Table(_)) => fields,
         (ExportFormat::GeoJson, _) => vec!["geometry (Point)".to_string()],
         _ => fields,
     };
+    if let Some(d) = &opts.dates {
+        fields.push("date".into());
+        if d.end.is_some() {
+            fields.push("date_to".into());
+        }
+    }
     let notes_at = match (opts.format, opts.csv_notes) {
         (ExportFormat::Csv, CsvNotes::LastColumn) => {
             fields.push(NOTES_COLUMN.to_string());
@@ -525,6 +565,9 @@ pub fn what_leaves(
         (ExportFormat::GeoJson, _) => "the file's metadata member".to_string(),
     };
     let mut cautions = cautions(content);
+    if let Some(d) = &opts.dates {
+        cautions.push(super::dates::shift_caution(d.max_days));
+    }
     if at_original > 0 {
         cautions.insert(0, at_original_caution(at_original, rows, opts));
     }
@@ -612,8 +655,25 @@ fn metadata(
             m.insert("label".into(), json!(UNMASKED_LABEL));
         }
     }
+    if let Some(d) = &opts.dates {
+        m.insert("dates".into(), json!(super::dates::shift_note(d.max_days)));
+    }
     m.insert("cautions".into(), json!(preview.cautions));
     m
+}
+
+/// The shifted date (and window end) of original event `src`, as written:
+/// `YYYY-MM-DD`, or `None` where the event has none.
+fn date_texts(opts: &ExportOptions, src: usize) -> Option<(Option<String>, Option<String>)> {
+    let d = opts.dates.as_ref()?;
+    let text = |v: Option<f64>| {
+        v.filter(|t| t.is_finite())
+            .map(|t| crate::input::time::format_days(t, false))
+    };
+    Some((
+        text(d.start.get(src).copied()),
+        d.end.as_ref().and_then(|e| text(e.get(src).copied())),
+    ))
 }
 
 fn round(v: f64, d: usize) -> f64 {
@@ -661,9 +721,15 @@ pub fn export(
     let unmasked = preview.contains_original_coordinates;
     let meta = metadata(content, opts, &preview);
     let [cx, cy] = coord_names(opts);
-    let points: Option<Vec<(f64, f64)>> = match content {
+    // Each point with the index of its original event (for its date).
+    let points: Option<Vec<(f64, f64, usize)>> = match content {
         ExportContent::MaskedPoints { masked: m, .. } => {
-            let mut v: Vec<(f64, f64)> = m.x.iter().copied().zip(m.y.iter().copied()).collect();
+            let mut v: Vec<(f64, f64, usize)> =
+                m.x.iter()
+                    .zip(&m.y)
+                    .zip(&m.source)
+                    .map(|((&x, &y), &s)| (x, y, s))
+                    .collect();
             v.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
             Some(v)
         }
@@ -671,9 +737,20 @@ pub fn export(
             if x.len() != y.len() {
                 return Err(bad("points", "x and y have different lengths"));
             }
-            Some(x.iter().copied().zip(y.iter().copied()).collect())
+            Some(
+                x.iter()
+                    .zip(y.iter())
+                    .enumerate()
+                    .map(|(i, (&x, &y))| (x, y, i))
+                    .collect(),
+            )
         }
         ExportContent::Table(_) => None,
+    };
+    let date_header = match &opts.dates {
+        Some(d) if d.end.is_some() => ",date,date_to",
+        Some(_) => ",date",
+        None => "",
     };
     let stem = match content {
         ExportContent::MaskedPoints { .. } if unmasked => "masked-points-UNMASKED-internal-only",
@@ -702,10 +779,19 @@ pub fn export(
             let mut table = String::new();
             match (pts, content) {
                 (Some(pts), _) => {
-                    table.push_str(&format!("{cx},{cy}\n"));
-                    for (x, y) in pts {
+                    table.push_str(&format!("{cx},{cy}{date_header}\n"));
+                    for (x, y, src) in pts {
                         let (a, b) = project(x, y)?;
-                        table.push_str(&format!("{},{}\n", fmt(a, d), fmt(b, d)));
+                        table.push_str(&format!("{},{}", fmt(a, d), fmt(b, d)));
+                        if let Some((from, to)) = date_texts(opts, src) {
+                            table.push(',');
+                            table.push_str(from.as_deref().unwrap_or(""));
+                            if opts.dates.as_ref().is_some_and(|d| d.end.is_some()) {
+                                table.push(',');
+                                table.push_str(to.as_deref().unwrap_or(""));
+                            }
+                        }
+                        table.push('\n');
                     }
                 }
                 (None, ExportContent::Table(t)) => {
@@ -725,12 +811,19 @@ pub fn export(
             let mut feats = Vec::new();
             match (pts, content) {
                 (Some(pts), _) => {
-                    for (x, y) in pts {
+                    for (x, y, src) in pts {
                         let (a, b) = project(x, y)?;
+                        let mut props = Map::new();
+                        if let Some((from, to)) = date_texts(opts, src) {
+                            props.insert("date".into(), json!(from));
+                            if opts.dates.as_ref().is_some_and(|d| d.end.is_some()) {
+                                props.insert("date_to".into(), json!(to));
+                            }
+                        }
                         feats.push(json!({
                             "type": "Feature",
                             "geometry": {"type": "Point", "coordinates": [round(a, d), round(b, d)]},
-                            "properties": {}
+                            "properties": Value::Object(props)
                         }));
                     }
                 }

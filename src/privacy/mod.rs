@@ -21,6 +21,8 @@
 //! * [`cost`]: the same summaries on the original and the masked points, side by
 //!   side (nearest-neighbour distances, Clark–Evans R, centre, spread, how far
 //!   the intensity surface moves).
+//! * [`dates`]: date shifting for sharing (a random whole number of days
+//!   per event within ±N, the same for both ends of a window).
 //! * [`disclosure`]: whether a kernel surface's bandwidth exposes isolated events.
 //! * [`shared`]: what the sharing tools keep (one masked copy, one table) and
 //!   their summaries; counting a study's events per cell or zone.
@@ -51,6 +53,7 @@
 
 pub mod aggregate;
 pub mod cost;
+pub mod dates;
 pub mod disclosure;
 pub mod donut;
 pub mod export;

@@ -7,11 +7,13 @@
 //! shuffled among the locations, so both the map and the time curve stay
 //! exactly as observed; only their pairing changes).
 
+pub mod aoristic;
 pub mod events;
 pub mod mantel;
 pub mod pairs;
 pub mod permute;
 pub mod stk;
+pub mod timeline;
 
 pub use events::{time_fields, TimedEvents, UncertainTimes};
 pub use permute::{permutation, permuted_times_batch};

@@ -284,6 +284,36 @@ impl Session {
                 None,
             ));
         }
+        let dates = match (args.date_shift_days, args.date_seed) {
+            (None, None) => None,
+            (None, Some(_)) => {
+                return Err(js_error(
+                    "bad_options",
+                    "date_seed is given but date_shift_days is not: give both to write shifted dates",
+                    None,
+                ))
+            }
+            (Some(_), None) => {
+                return Err(js_error(
+                    "bad_options",
+                    "date_shift_days needs date_seed (the seed of the shifts; it is never written into the file)",
+                    None,
+                ))
+            }
+            (Some(n), Some(seed)) => {
+                let t = s.events.time().ok_or_else(|| {
+                    js_error(
+                        "nothing_loaded",
+                        "date_shift_days: the events have no time column, so there are no dates to write",
+                        None,
+                    )
+                })?;
+                Some(
+                    crate::privacy::dates::shift_dates(t, s.events.time_end(), n, seed)
+                        .map_err(|e| analysis_error(&e))?,
+                )
+            }
+        };
         Ok(ExportOptions {
             format: args.format.unwrap_or_default(),
             coordinates,
@@ -291,10 +321,18 @@ impl Session {
             created: created_or_now(args.created.clone()),
             confirm_unmasked: args.confirm_unmasked,
             csv_notes: args.csv_notes.unwrap_or_default(),
+            dates,
         })
     }
 
     fn report_preview(&self, args: &ExportArgs, created: &str) -> Result<ReportFile, JsValue> {
+        if args.date_shift_days.is_some() || args.date_seed.is_some() {
+            return Err(js_error(
+                "bad_options",
+                "date_shift_days: the report holds no event dates; shifted dates are written into the point files (masked_points, unmasked_points)",
+                None,
+            ));
+        }
         let study = self.study_ref()?;
         let empty = SharingState::default();
         let risk = if args.report_risk {

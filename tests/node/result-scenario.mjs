@@ -37,6 +37,8 @@ export function runScenario() {
   record('summary', 'lon/lat, controls', s.summary());
   record('mapLayers', 'lon/lat, controls', s.mapLayers());
   record('rejections', 'events, none', s.rejections('events', 0, 10));
+  record('timeline', 'auto bin', s.timeline({}));
+  record('eventTimes', 'no windows', s.eventTimes());
   record('hotspotsInfo', 'lon/lat', s.hotspotsInfo());
   record('quadratTest', 'small', s.quadratTest({ nx: 4, ny: 4, n_sim: 19, seed: 1 }));
   record('quadratTest', 'no simulations', s.quadratTest({ nx: 3, ny: 3, n_sim: 0 }));
@@ -229,6 +231,14 @@ export function runScenario() {
   pc.scanStep(pcs.total);
   record('scanFinish', 'population counts', pc.scanFinish());
   pc.free();
+
+  // 6. Events with from/to windows (incidents-windows.csv).
+  const w = new cloister.Session();
+  record('loadEvents', 'from/to windows', w.loadEvents(file('demo-data/incidents-windows.csv'), {}));
+  record('summary', 'from/to windows', w.summary());
+  record('timeline', 'weekly, windows', w.timeline({ bin: 'week' }));
+  record('eventTimes', 'windows', w.eventTimes());
+  w.free();
 
   record('parameterSpec', 'all', cloister.parameterSpec());
   record('parameterSpec', 'one', cloister.parameterSpec('maskDonut'));

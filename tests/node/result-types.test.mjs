@@ -210,7 +210,7 @@ const decls = parseDeclarations(dts);
 const sigs = parseSignatures(dts);
 const fullSigs = parseFullSignatures(dts);
 // Need a canvas (the page's main thread): declared, not callable in Node.
-const NOT_IN_NODE = new Set(['drawEnvelopeChart', 'drawKDistanceChart', 'drawSpaceTimeKGrid']);
+const NOT_IN_NODE = new Set(['drawEnvelopeChart', 'drawKDistanceChart', 'drawSpaceTimeKGrid', 'drawTimelineChart']);
 const LIFECYCLE = new Set(['free', 'constructor']);
 let scenario;
 /** The scenario's calls, run once for the tests below. */

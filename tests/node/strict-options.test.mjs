@@ -80,6 +80,7 @@ const CASES = {
   exportFile: { call: (s, o) => s.exportFile('masked_points', o), bad: { confirm_unmaskd: true }, key: 'confirm_unmaskd', valid: ['confirm_unmasked', 'format'], needsMask: true },
   nearRepeatStart: { call: (s, o) => s.nearRepeatStart(o), bad: { band_metres: 100 }, key: 'band_metres', valid: ['band_m', 'max_distance_m', 'band_days', 'n_perm'] },
   knoxStart: { call: (s, o) => s.knoxStart(o), bad: { distance: 100 }, key: 'distance', valid: ['distance_m', 'days', 'n_perm'] },
+  timeline: { call: (s, o) => s.timeline(o), bad: { bins: 'week' }, key: 'bins', valid: ['bin'] },
 };
 
 // Session methods that take no options object (positional arguments only,
@@ -98,6 +99,7 @@ const NO_OPTIONS = new Set([
   'spaceTimeKStep', 'spaceTimeKFinish', 'spaceTimeKShare', 'spaceTimeKHelperStart', 'spaceTimeKSimulate', 'spaceTimeKAdd', 'spaceTimeKCsv',
   'nearRepeatStep', 'nearRepeatFinish', 'nearRepeatCsv', 'nearRepeatShare', 'nearRepeatHelperStart', 'nearRepeatSimulate', 'nearRepeatAdd',
   'knoxStep', 'knoxFinish', 'knoxShare', 'knoxHelperStart', 'knoxSimulate', 'knoxAdd',
+  'eventTimes',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -294,6 +296,7 @@ const WALK = {
   mantelStart: {}, spaceTimeKStart: {},
   nearRepeatStart: {},
   knoxStart: {},
+  timeline: {},
 };
 
 test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {

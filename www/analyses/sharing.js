@@ -109,6 +109,8 @@ export function mountSharing(C) {
       field('Notes in CSV files', el('select', { id: 'share-notes', title: 'Where a CSV file says what it holds (tool, date, masking settings, cautions)' },
         el('option', { value: 'last_column' }, 'in a last column (for spreadsheets)'),
         el('option', { value: 'top_lines' }, 'as # lines above the header (for scripts)'))),
+      field('Dates in point files: shift by up to \u00b1 days', el('input', { type: 'number', id: 'share-date-shift', 'data-param': 'exportFile.date_shift_days', placeholder: 'no dates', min: '1', step: '1', title: 'Empty: point files hold no dates. A number N: each event\u2019s date is written moved by a random whole number of days from \u2212N to +N (both ends of a from\u2013to window by the same days). Near-repeat and other space\u2013time results at time gaps up to about 2N days are unreliable in such a file.' })),
+      field('Seed of the date shifts', el('input', { type: 'text', id: 'share-date-seed', inputmode: 'numeric', autocomplete: 'off', spellcheck: 'false', placeholder: 'new one each file', title: 'Empty: a new random seed; it is never written into the file' })),
       el('label', { class: 'check', title: 'Settings, the global test and the shares of the area inside the pointwise lines; never a place. Draw the surface first under "Compared with the population".' },
         el('input', { type: 'checkbox', id: 'share-risk' }), ' Report: add the relative-risk summary'),
       el('label', { id: 'share-holds-field', hidden: true }, 'Map picture and report show ',
@@ -543,8 +545,20 @@ export function mountSharing(C) {
     setStatus(`Counted ${fmt(result.events_counted)} events in ${fmt(result.table.cells.length)} areas; ${fmt(result.table.cells.filter((c) => c.suppressed).length)} counts hidden.`);
   }
 
-  function exportOptions(format) {
+  /** The date shift asked for (whole days), or null for no dates in point files. */
+  function dateShift(what) {
+    if (!(what === 'masked_points' || what === 'unmasked_points')) return null;
+    const text = $('share-date-shift').value.trim();
+    if (text === '') return null;
+    const v = Number(text);
+    const lim = C.param('exportFile', 'date_shift_days');
+    if (!(Number.isInteger(v) && v >= lim.min && v <= lim.max)) throw { message: `the date shift must be a whole number of days from ${fmt(lim.min)} to ${fmt(lim.max)}.` };
+    return v;
+  }
+
+  function exportOptions(format, dates) {
     const o = { created: new Date().toISOString(), coordinates: $('share-coords').value };
+    if (dates) { o.date_shift_days = dates.days; o.date_seed = dates.seed; }
     if (format === 'csv' || format === 'geo_json') o.format = format;
     if (format === 'csv') o.csv_notes = $('share-notes').value;
     if (state.mask && state.table) o.report_holds = $('share-holds').value;
@@ -556,6 +570,7 @@ export function mountSharing(C) {
     clearError();
     const box = $('share-preview');
     let p;
+    let dates = null;
     if (what === 'map_png') {
       if (!state.onlyShared) { showError('Map picture not saved', { message: 'tick "Show only what would be shared" first: the map still shows the original points' }); return; }
       p = {
@@ -566,13 +581,15 @@ export function mountSharing(C) {
       };
     } else {
       try {
-        p = await call('exportPreview', what, exportOptions(format));
+        const days = dateShift(what);
+        dates = days === null ? null : { days, seed: C.readSeed($('share-date-seed')) };
+        p = await call('exportPreview', what, exportOptions(format, dates));
       } catch (err) {
         showError('Could not prepare the file', err);
         return;
       }
     }
-    state.pending = { what, format, preview: p };
+    state.pending = { what, format, preview: p, dates };
     const unmasked = !!p.contains_original_coordinates;
     const items = [
       ['Contents', p.content],
@@ -587,6 +604,7 @@ export function mountSharing(C) {
       : unmasked ? 'YES: the original locations, labelled "unmasked, internal use only"' : 'none (each written coordinate compared with its original)']);
     if (what === 'masked_points' || what === 'report') items.push(['Points left out (could not be masked)', fmt(p.points_left_out)]);
     if (what !== 'unmasked_points') items.push(['Masking seed', 'not written (with it the shifts could be undone)']);
+    if (dates) items.push(['Dates', `each moved by a random whole number of days from \u2212${fmt(dates.days)} to +${fmt(dates.days)} (the seed is not written)`]);
     box.replaceChildren(...[
       el('h3', { id: 'share-preview-title' }, 'What leaves the page'),
       el('dl', { class: 'figures', id: 'share-preview-list' }, ...items.flatMap(([k, v]) => [el('dt', null, k), el('dd', null, v)])),
@@ -613,7 +631,7 @@ export function mountSharing(C) {
       if (what === 'map_png') {
         await saveMapPng();
       } else {
-        const o = exportOptions(format);
+        const o = exportOptions(format, pend.dates);
         if (what === 'unmasked_points' || pend.preview.contains_original_coordinates) {
           if (!$('share-confirm-unmasked') || !$('share-confirm-unmasked').checked) return;
           o.confirm_unmasked = true;

@@ -3,6 +3,7 @@
  * owns the section and its availability line; each analysis of the section
  * lives in its own module (spacetime-*.js) and is mounted below with one
  * line. Every number comes from the engine (src/spacetime/). */
+import { mountSpaceTimeTimeline } from './spacetime-timeline.js';
 
 import { mountSpaceTimePairs } from './spacetime-pairs.js';
 import { mountSpaceTimeMantelK } from './spacetime-mantelk.js';
@@ -17,6 +18,8 @@ export function mountSpaceTime(C) {
   body.append(needs);
   mountSpaceTimePairs(C, body);
   mountSpaceTimeMantelK(C, body);
+
+  mountSpaceTimeTimeline(C, body);
 
   C.onSnapshot((snap) => {
     const span = snap && snap.summary && snap.summary.time_span;
