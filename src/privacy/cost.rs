@@ -101,6 +101,21 @@ impl crate::params::Params for CostParams {
         ]
     }
     fn check(&self) -> Result<(), AnalysisError> {
+        let d = crate::spacetime::pairs::NearRepeatOptions::default();
+        let band = self.pair_band_m.unwrap_or(d.band_m);
+        if self.pair_max_distance_m.unwrap_or(d.max_distance_m) < band {
+            return Err(bad(
+                "pair_max_distance_m",
+                &format!("must be at least pair_band_m ({band} m): one band at least"),
+            ));
+        }
+        let days = self.pair_band_days.unwrap_or(d.band_days);
+        if self.pair_max_days.unwrap_or(d.max_days) < days {
+            return Err(bad(
+                "pair_max_days",
+                &format!("must be at least pair_band_days ({days} days): one band at least"),
+            ));
+        }
         self.pair_bands().check()
     }
 }

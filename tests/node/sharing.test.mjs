@@ -410,6 +410,37 @@ test('cost of masking includes L(r) − r of both patterns, and a wide shift wea
   assert.ok(Math.abs(maxDiff - lc.max_abs_difference_m) < 1e-6 * Math.max(1, maxDiff));
 });
 
+test('cost of masking with dates: the near-repeat table and the Knox count before and after', () => {
+  // demo-data/README.md (written by the demo generator, not by this code):
+  // 323 pairs of events within 100 m and 7 days of each other.
+  const s = demo();
+  s.maskDonut({ r_min_m: 400, r_max_m: 800, seed: 7 });
+  const c = s.maskingCost({ pair_band_m: 100, pair_max_distance_m: 300, pair_band_days: 7, pair_max_days: 21 });
+  const pr = c.pairs;
+  assert.ok(pr, 'events with dates get the pair comparison');
+  assert.equal(pr.knox_distance_m, 100);
+  assert.equal(pr.knox_days, 7);
+  assert.equal(pr.knox_original.pairs, 323);
+  // Shifting every point by 400–800 m breaks most pairs within 100 m.
+  assert.ok(pr.knox_masked.pairs < pr.knox_original.pairs / 2, `${pr.knox_masked.pairs} vs ${pr.knox_original.pairs}`);
+  // The original table is the near-repeat table of the same bands.
+  s.nearRepeatStart({ band_m: 100, max_distance_m: 300, band_days: 7, max_days: 21, n_perm: 1, seed: 1 });
+  s.nearRepeatStep(1);
+  const nr = s.nearRepeatFinish();
+  assert.deepEqual(pr.observed_original, nr.cells.map((x) => x.observed));
+  assert.deepEqual(pr.space_labels, nr.space_bands.map((b) => b.label));
+  // "Same location" (first row) is empty once every point has moved.
+  const nt = pr.time_labels.length;
+  assert.equal(pr.space_labels[0], 'same location');
+  assert.deepEqual(pr.observed_masked.slice(0, nt), new Array(nt).fill(0));
+  pr.ratio_original.forEach((v, i) => {
+    if (v !== null) assert.ok(Math.abs(v - nr.cells[i].observed / nr.cells[i].expected) < 1e-9);
+  });
+  // The bands are checked options.
+  assert.equal(throws(() => s.maskingCost({ pair_band_days: 0 })).code, 'bad_parameter');
+  assert.equal(throws(() => s.maskingCost({ pair_band_m: 500, pair_max_distance_m: 100 })).code, 'bad_parameter');
+});
+
 test('a 1 cm donut is refused: the largest shift has a floor of 50 m', () => {
   const s = demo();
   const e = throws(() => s.maskDonut({ r_min_m: 0, r_max_m: 0.01, seed: SEED }));

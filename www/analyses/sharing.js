@@ -418,12 +418,40 @@ export function mountSharing(C) {
         `${fmtMetres(lc.masked[pm])} at ${fmtMetres(lc.r_m[pm])}`,
         `largest change ${fmtMetres(lc.max_abs_difference_m)} at r = ${fmtMetres(lc.r_m[at])}`]);
     }
+    const pr = c.pairs;
+    if (pr) {
+      const kx = (v) => `${fmt(v.pairs)} pairs, ${v.ratio == null ? 'none expected' : `${fmt(v.ratio, 3)} × expected`}`;
+      rows.push([`Knox: pairs within ${fmtMetres(pr.knox_distance_m)} and ${fmt(pr.knox_days)} days`, kx(pr.knox_original), kx(pr.knox_masked),
+        `${fmt(pr.knox_masked.pairs - pr.knox_original.pairs)} pairs`]);
+    }
     const t = table(['', 'original', 'masked', 'change'], rows);
     t.id = 'share-cost-table';
-    return el('div', null, t,
+    return el('div', null, t, pr ? pairShiftTable(pr) : null,
       el('p', { class: 'hint' }, 'Clark–Evans R = mean nearest-neighbour distance / (0.5/√density) (Clark & Evans 1954), without edge correction, the same for both. ' +
         'L(r) − r uses Ripley\'s isotropic edge correction in the study area (0 = as random; above 0 = clustered at that distance). ' +
         'Masking weakens clustering at distances up to about twice the largest shift.'));
+  }
+
+  /** The near-repeat table's observed ÷ expected per cell, original → masked
+   * (the same dates): masking empties "same location" and moves pairs
+   * across the short distance bands. */
+  function pairShiftTable(pr) {
+    const nt = pr.time_labels.length;
+    const r = (v) => (v == null ? '–' : fmt(v, 2));
+    const body = pr.space_labels.map((label, a) => el('tr', null, el('th', { scope: 'row' }, label),
+      ...pr.time_labels.map((_, b) => {
+        const i = a * nt + b;
+        const changed = pr.observed_original[i] !== pr.observed_masked[i];
+        return el('td', { class: changed ? 'n changed' : 'n', title: `pairs: ${fmt(pr.observed_original[i])} → ${fmt(pr.observed_masked[i])}` },
+          `${r(pr.ratio_original[i])} → ${r(pr.ratio_masked[i])}`);
+      })));
+    return el('div', null,
+      el('p', { class: 'hint' }, `Near-repeat table, observed ÷ expected pairs per cell: original → masked (${fmt(pr.events_used)} events with dates, the dates unchanged). ` +
+        'Cells in bold changed their count of pairs; hover a cell for the counts. The near-repeat panel\u2019s results are about the original points only.'),
+      el('div', { class: 'table-scroll share-scroll' },
+        el('table', { class: 'small', id: 'share-cost-pairs' },
+          el('thead', null, el('tr', null, el('th', { scope: 'col' }, 'distance \\ days apart'), ...pr.time_labels.map((l) => el('th', { scope: 'col', class: 'n' }, l)))),
+          el('tbody', null, ...body))));
   }
 
   function renderTable() {
