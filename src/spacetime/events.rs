@@ -26,6 +26,12 @@ pub enum UncertainTimes {
     LeaveOut,
 }
 
+/// The longest from–to window every space–time analysis uses by default
+/// (days): a weekend and a few days either side. Common practice, no
+/// single source; one default for every analysis so that their results
+/// rest on the same events.
+pub const DEFAULT_MAX_WINDOW_DAYS: f64 = 7.0;
+
 /// The two options every space–time analysis takes for uncertain times
 /// (declared in its `Params::fields()`): `uncertain_times` and
 /// `max_window_days`.

@@ -760,7 +760,7 @@ impl Default for NearRepeatOptions {
             seed: 0,
             alpha: 0.05,
             uncertain_times: UncertainTimes::Midpoint,
-            max_window_days: 7.0,
+            max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }
 }
@@ -1190,7 +1190,7 @@ impl Default for KnoxOptions {
             seed: 0,
             alpha: 0.05,
             uncertain_times: UncertainTimes::Midpoint,
-            max_window_days: 7.0,
+            max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }
 }

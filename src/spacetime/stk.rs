@@ -91,7 +91,7 @@ impl Default for SpaceTimeKOptions {
             seed: 0,
             alpha: 0.05,
             uncertain_times: UncertainTimes::Midpoint,
-            max_window_days: 14.0,
+            max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }
 }

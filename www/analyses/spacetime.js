@@ -16,10 +16,10 @@ export function mountSpaceTime(C) {
     'These tests keep every location and every date as observed and only shuffle which date goes with which place.');
   const needs = el('p', { class: 'hint', id: 'st-needs' }, 'Load events with a date column (step 1) to use this section.');
   body.append(needs);
+  // The time line first: it is also the map's time filter.
+  mountSpaceTimeTimeline(C, body);
   mountSpaceTimePairs(C, body);
   mountSpaceTimeMantelK(C, body);
-
-  mountSpaceTimeTimeline(C, body);
 
   C.onSnapshot((snap) => {
     const span = snap && snap.summary && snap.summary.time_span;
