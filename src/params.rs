@@ -371,7 +371,7 @@ pub fn spec_of<P: Params>() -> Spec {
 
 /// Every analysis's parameters, by the JS method that takes them.
 pub fn all() -> Vec<Spec> {
-    use crate::{clusters, distance, input, intensity, privacy, risk, scan};
+    use crate::{clusters, distance, input, intensity, privacy, risk, scan, spacetime};
     vec![
         spec_of::<input::ReadOptions>(),
         spec_of::<input::AreaOptions>(),
@@ -391,6 +391,8 @@ pub fn all() -> Vec<Spec> {
         spec_of::<privacy::cost::CostParams>(),
         spec_of::<privacy::aggregate::AggregateOptions>(),
         spec_of::<privacy::export::ExportRequest>(),
+        spec_of::<spacetime::scan::StScanOptions>(),
+        spec_of::<spacetime::scan_export::StScanExportOptions>(),
     ]
 }
 
@@ -413,7 +415,7 @@ pub fn check_options(
     v: Value,
     extent_m: Option<f64>,
 ) -> Option<Result<(), DecodeError>> {
-    use crate::{clusters, distance, input, intensity, privacy, risk, scan};
+    use crate::{clusters, distance, input, intensity, privacy, risk, scan, spacetime};
     fn run<P: Params>(v: Value, e: Option<f64>) -> Result<(), DecodeError> {
         decode::<P>(v, e).map(|_| ())
     }
@@ -437,6 +439,8 @@ pub fn check_options(
         "maskingCost" => run::<privacy::cost::CostParams>(v, extent_m),
         "aggregate" => run::<privacy::aggregate::AggregateOptions>(v, extent_m),
         "exportFile" => run::<privacy::export::ExportRequest>(v, extent_m),
+        "spaceTimeScanStart" => run::<spacetime::scan::StScanOptions>(v, extent_m),
+        "spaceTimeScanExport" => run::<spacetime::scan_export::StScanExportOptions>(v, extent_m),
         _ => return None,
     })
 }

@@ -10,6 +10,7 @@
 pub mod events;
 pub mod permute;
 pub mod scan;
+pub mod scan_export;
 
 pub use events::{time_fields, TimedEvents, UncertainTimes};
 pub use permute::{permutation, permuted_times_batch};

@@ -367,21 +367,30 @@ impl StScanSimulator {
     fn walk(&self, day: &[u32], mut visit: impl FnMut(usize, usize, usize, u32)) {
         let s = &self.s;
         let (dd, m) = (s.n_days, self.m);
-        // Days of each location's events (only the last m days in prospective mode).
+        // Days of each location's events: only those in the last m days
+        // in prospective mode (no other can enter a period).
         let nloc = self.loc_total.len();
+        let prospective = s.options.mode == StScanMode::Prospective;
+        let first_used = if prospective { (dd - m) as u32 } else { 0 };
         let mut at = vec![0usize; nloc + 1];
+        for (&z, &d) in s.loc.iter().zip(day) {
+            if d >= first_used {
+                at[z as usize + 1] += 1;
+            }
+        }
         for z in 0..nloc {
-            at[z + 1] = at[z] + self.loc_total[z] as usize;
+            at[z + 1] += at[z];
         }
         let mut fill = at.clone();
-        let mut days = vec![u32::MAX; s.loc.len()];
+        let mut days = vec![0u32; at[nloc]];
         for (&z, &d) in s.loc.iter().zip(day) {
-            let f = &mut fill[z as usize];
-            days[*f] = d;
-            *f += 1;
+            if d >= first_used {
+                let f = &mut fill[z as usize];
+                days[*f] = d;
+                *f += 1;
+            }
         }
         let mut count = vec![0u32; self.t_int.len()];
-        let prospective = s.options.mode == StScanMode::Prospective;
         for centre in 0..nloc {
             count.fill(0);
             for k in s.start[centre]..s.start[centre + 1] {
@@ -416,11 +425,15 @@ impl StScanSimulator {
         table.fill(u32::MAX);
         let gn = &self.s.group_n;
         let off = &self.off;
-        self.walk(day, |_, k, i, c| {
-            let slot = &mut table[off[i] + c as usize];
-            *slot = (*slot).min(gn[k]);
-        });
         let cc = self.s.loc.len() as u64;
+        let t_int = &self.t_int;
+        self.walk(day, |_, k, i, c| {
+            // Only an excess (c > μ) can score; the others stay unwritten.
+            if c as u64 * cc > gn[k] as u64 * t_int[i] as u64 {
+                let slot = &mut table[off[i] + c as usize];
+                *slot = (*slot).min(gn[k]);
+            }
+        });
         let mut top = 0.0f64;
         for (i, &t) in self.t_int.iter().enumerate() {
             let o = off[i];

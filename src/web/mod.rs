@@ -22,6 +22,7 @@ mod risk_nearest;
 mod risk_surface;
 mod scan_parallel;
 mod sharing;
+mod spacetime_scan;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};
 use crate::input::report::RejectionRow;

@@ -76,6 +76,8 @@ const CASES = {
   aggregate: { call: (s, o) => s.aggregate(o), bad: { cell_size: 250 }, key: 'cell_size', valid: ['cell_size_m', 'layout', 'min_count'] },
   exportPreview: { call: (s, o) => s.exportPreview('masked_points', o), bad: { formt: 'csv' }, key: 'formt', valid: ['format', 'coordinates', 'decimals'], needsMask: true },
   exportFile: { call: (s, o) => s.exportFile('masked_points', o), bad: { confirm_unmaskd: true }, key: 'confirm_unmaskd', valid: ['confirm_unmasked', 'format'], needsMask: true },
+  spaceTimeScanStart: { call: (s, o) => s.spaceTimeScanStart(o), bad: { max_day: 30 }, key: 'max_day', valid: ['max_days', 'max_share', 'mode'] },
+  spaceTimeScanExport: { call: (s, o) => s.spaceTimeScanExport(o), bad: { internl: true }, key: 'internl', valid: ['internal', 'round_m', 'format'] },
 };
 
 // Session methods that take no options object (positional arguments only,
@@ -90,6 +92,7 @@ const NO_OPTIONS = new Set([
   'nearestCasesStep', 'nearestCasesFinish', 'nearestCasesShare', 'nearestCasesHelperStart', 'nearestCasesSimulate', 'nearestCasesAdd',
   'riskSurfaceStep', 'riskSurfaceFinish', 'riskContoursGeoJson', 'riskSurfaceShare', 'riskSurfaceHelperStart', 'riskSurfaceSimulate', 'riskSurfaceAdd',
   'inhomKStep', 'inhomKFinish', 'inhomKShare', 'inhomKHelperStart', 'inhomKSimulate', 'inhomKAdd',
+  'spaceTimeScanStep', 'spaceTimeScanFinish', 'spaceTimeScanShare', 'spaceTimeScanHelperStart', 'spaceTimeScanSimulate', 'spaceTimeScanAdd',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -283,6 +286,8 @@ const WALK = {
   exportFile: { needsMask: true }, loadEvents: {}, loadArea: {},
   kDistance: { call: (s, o) => s.kDistance(o.min_samples) },
   nearestCasesStart: {},
+  spaceTimeScanStart: { base: { n_sim: 1, mode: 'prospective' } },
+  spaceTimeScanExport: {},
 };
 
 test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {

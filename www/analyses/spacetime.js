@@ -4,6 +4,8 @@
  * lives in its own module (spacetime-*.js) and is mounted below with one
  * line. Every number comes from the engine (src/spacetime/). */
 
+import { mountSpaceTimeScan } from './spacetime-scan.js';
+
 export function mountSpaceTime(C) {
   const { el } = C;
   const body = C.addSection('spacetime', 'Close in space and time',
@@ -19,5 +21,6 @@ export function mountSpaceTime(C) {
     needs.hidden = ok;
     body.dataset.ready = ok ? '1' : '';
   });
+  mountSpaceTimeScan(C, body);
   return body;
 }
