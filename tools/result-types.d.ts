@@ -1242,7 +1242,7 @@ export interface SpaceTimeScanResult {
   p_value: number;
   recurrence_days: number | null;
   clusters: SpaceTimeCluster[];
-  null_maxima: Float64Array;
+  null_maxima: number[];
   verdict: string;
   outcome: string;
   caveats: string[];

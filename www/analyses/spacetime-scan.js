@@ -209,7 +209,7 @@ export function mountSpaceTimeScan(C, body) {
 
   $('st-scan-run').addEventListener('click', run);
   $('st-scan-cancel').addEventListener('click', () => { if (state.job) state.job.cancel(); });
-  $('st-scan-save').addEventListener('click', save);
+  $('st-scan-save').addEventListener('click', C.act(save));
 
   C.onSnapshot((snap) => {
     state.token++;
