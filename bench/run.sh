@@ -43,3 +43,9 @@ echo "== scan against population counts: Node.js (demo blocks, 2,000 and 20,000 
 node bench/scan-population-node.mjs
 echo "== scan: headless Chromium page, spread over helper workers and on one"
 node bench/scan-browser.mjs 999
+echo "== space-time permutation scan: native (release), 10,000 events at 1,000 places over a year, prospective 999 and retrospective 3 permutations"
+cargo run --quiet --release --example bench_st_scan -- 10000 1000 999 3
+echo "== space-time permutation scan: level over 1,000 seeded data sets without space-time interaction (99 permutations each)"
+cargo run --quiet --release --example bench_st_scan -- calibration 1000
+echo "== space-time permutation scan: headless Chromium page, spread over helper workers and on one"
+node bench/st-scan-browser.mjs 10000 1000 999 3
