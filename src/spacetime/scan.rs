@@ -427,13 +427,26 @@ impl StScanSimulator {
         let off = &self.off;
         let cc = self.s.loc.len() as u64;
         let t_int = &self.t_int;
-        self.walk(day, |_, k, i, c| {
-            // Only an excess (c > μ) can score; the others stay unwritten.
-            if c as u64 * cc > gn[k] as u64 * t_int[i] as u64 {
+        // Only an excess (c > μ) can score; the others leave the slot as it
+        // was. The test is a coin toss under the null: a small table (the
+        // prospective periods) is written branch free, a large one only
+        // where needed (fewer writes to memory outside the cache).
+        if self.table_len <= 1 << 18 {
+            self.walk(day, |_, k, i, c| {
+                let n = gn[k];
+                let excess = c as u64 * cc > n as u64 * t_int[i] as u64;
                 let slot = &mut table[off[i] + c as usize];
-                *slot = (*slot).min(gn[k]);
-            }
-        });
+                *slot = (*slot).min(if excess { n } else { u32::MAX });
+            });
+        } else {
+            self.walk(day, |_, k, i, c| {
+                let n = gn[k];
+                if c as u64 * cc > n as u64 * t_int[i] as u64 {
+                    let slot = &mut table[off[i] + c as usize];
+                    *slot = (*slot).min(n);
+                }
+            });
+        }
         let mut top = 0.0f64;
         for (i, &t) in self.t_int.iter().enumerate() {
             let o = off[i];
