@@ -57,3 +57,9 @@ echo "== near-repeat table and Knox test: headless Chromium page, spread over he
 node bench/near-repeat-browser.mjs 999
 echo "== time line: Node.js, invented events with from/to dates (read, timeline by day/week/month, eventTimes)"
 node --max-old-space-size=4096 bench/timeline-node.mjs 10000 100000 1000000
+echo "== space-time permutation scan: native (release), 10,000 events at 1,000 places over a year, prospective 999 and retrospective 3 permutations"
+cargo run --quiet --release --example bench_st_scan -- 10000 1000 999 3
+echo "== space-time permutation scan: level over 1,000 seeded data sets without space-time interaction (99 permutations each)"
+cargo run --quiet --release --example bench_st_scan -- calibration 1000
+echo "== space-time permutation scan: headless Chromium page, spread over helper workers and on one"
+node bench/st-scan-browser.mjs 10000 1000 999 3

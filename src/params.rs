@@ -371,7 +371,7 @@ pub fn spec_of<P: Params>() -> Spec {
 
 /// Every analysis's parameters, by the JS method that takes them.
 pub fn all() -> Vec<Spec> {
-    use crate::{clusters, distance, input, intensity, privacy, risk, scan};
+    use crate::{clusters, distance, input, intensity, privacy, risk, scan, spacetime};
     vec![
         spec_of::<input::ReadOptions>(),
         spec_of::<input::AreaOptions>(),
@@ -396,6 +396,8 @@ pub fn all() -> Vec<Spec> {
         spec_of::<crate::spacetime::pairs::NearRepeatOptions>(),
         spec_of::<crate::spacetime::pairs::KnoxOptions>(),
         spec_of::<crate::spacetime::timeline::TimelineOptions>(),
+        spec_of::<spacetime::scan::StScanOptions>(),
+        spec_of::<spacetime::scan_export::StScanExportOptions>(),
     ]
 }
 
@@ -418,7 +420,7 @@ pub fn check_options(
     v: Value,
     extent_m: Option<f64>,
 ) -> Option<Result<(), DecodeError>> {
-    use crate::{clusters, distance, input, intensity, privacy, risk, scan};
+    use crate::{clusters, distance, input, intensity, privacy, risk, scan, spacetime};
     fn run<P: Params>(v: Value, e: Option<f64>) -> Result<(), DecodeError> {
         decode::<P>(v, e).map(|_| ())
     }
@@ -444,6 +446,8 @@ pub fn check_options(
         "exportFile" => run::<privacy::export::ExportRequest>(v, extent_m),
         "nearRepeatStart" => run::<crate::spacetime::pairs::NearRepeatOptions>(v, extent_m),
         "knoxStart" => run::<crate::spacetime::pairs::KnoxOptions>(v, extent_m),
+        "spaceTimeScanStart" => run::<spacetime::scan::StScanOptions>(v, extent_m),
+        "spaceTimeScanExport" => run::<spacetime::scan_export::StScanExportOptions>(v, extent_m),
         _ => return None,
     })
 }

@@ -1208,6 +1208,18 @@ export interface KDistanceChartData {
 
 // ---------- Close in space and time ----------
 
+/** `spaceTimeScanStart`: the circles are built and the data's cylinders scored. */
+export interface SpaceTimeScanStarted {
+  total: number;
+  seed: number;
+  n_events: number;
+  n_locations: number;
+  n_days: number;
+  n_circles: number;
+  /** What was used and left out of the times, in one sentence. */
+  times: string;
+}
+
 /** What a space–time result says about the times it used. */
 export interface TimeUseReport {
   events_used: number;
@@ -1462,4 +1474,58 @@ export interface TimelineChartData {
   to?: number | null;
   /** Device pixels per CSS pixel. */
   scale?: number | null;
+}
+
+/** One cluster of the space–time permutation scan (a circle × a run of days). */
+export interface SpaceTimeCluster {
+  rank: number;
+  /** Centre (an event location) and radius, planar metres. */
+  centre_x: number;
+  centre_y: number;
+  radius_m: number;
+  n_locations: number;
+  /** First and last day, days since 1970-01-01, and as YYYY-MM-DD (UTC). */
+  start_day: number;
+  end_day: number;
+  start_date: string;
+  end_date: string;
+  days: number;
+  observed: number;
+  /** (events in the circle) × (events on the days) / (all events). */
+  expected: number;
+  ratio: number;
+  llr: number;
+  p_value: number;
+  /** Prospective: repeat_days / p, days; null retrospective. */
+  recurrence_days: number | null;
+  /** Indices (0-based, among the loaded events) of the events in the cluster. */
+  events: number[];
+}
+
+/** The space–time permutation scan of Kulldorff et al. (2005). */
+export interface SpaceTimeScanResult {
+  mode: 'retrospective' | 'prospective';
+  n_sim: number;
+  seed: number;
+  max_share: number;
+  max_radius_m: number | null;
+  max_days: number;
+  max_days_used: number;
+  repeat_days: number;
+  n_events: number;
+  n_locations: number;
+  first_date: string;
+  last_date: string;
+  n_days: number;
+  n_circles: number;
+  n_intervals: number;
+  statistic: number;
+  p_value: number;
+  recurrence_days: number | null;
+  clusters: SpaceTimeCluster[];
+  null_maxima: number[];
+  verdict: string;
+  outcome: string;
+  caveats: string[];
+  times: TimeUseReport;
 }

@@ -685,7 +685,7 @@ fn fmt(v: f64, d: usize) -> String {
     format!("{v:.d$}")
 }
 
-fn csv_field(s: &str) -> String {
+pub(crate) fn csv_field(s: &str) -> String {
     if s.contains([',', '"', '\n', '\r']) {
         format!("\"{}\"", s.replace('"', "\"\""))
     } else {

@@ -358,6 +358,79 @@ fn replicate_rng(seed: u64, j: usize) -> Rng {
 /// Limit on stored window list entries (memory in the page).
 const MAX_LIST_ENTRIES: usize = 60_000_000;
 
+/// Circles centred on every location, each growing through the locations
+/// sorted by distance from its centre (ties by index); locations at tied
+/// distances enter together. Growth stops before the circle's weight
+/// exceeds `limit` or, with `max_radius`, before its radius exceeds it.
+/// Shared by the spatial scan and the space–time scan
+/// (`crate::spacetime::scan`).
+#[derive(Debug, Clone, PartialEq, Default)]
+pub(crate) struct Circles {
+    /// `list[start[i]..start[i+1]]`: the locations of centre i's largest circle, nearest first.
+    pub start: Vec<usize>,
+    pub list: Vec<u32>,
+    /// The circle's weight at a tie group's last entry, +∞ inside a group.
+    pub pop_at: Vec<f64>,
+    /// Distance from the centre at each list position.
+    pub dist_at: Vec<f64>,
+}
+
+pub(crate) fn growing_circles(
+    x: &[f64],
+    y: &[f64],
+    weight: &[f64],
+    limit: f64,
+    max_radius: Option<f64>,
+) -> Result<Circles, AnalysisError> {
+    let n = x.len();
+    let mut start = vec![0usize];
+    let mut list: Vec<u32> = Vec::new();
+    let mut pop_at: Vec<f64> = Vec::new();
+    let mut dist_at: Vec<f64> = Vec::new();
+    let mut order: Vec<(f64, u32)> = Vec::with_capacity(n);
+    let r2 = max_radius.map(|r| r * r * (1.0 + 1e-12));
+    for i in 0..n {
+        order.clear();
+        order.extend((0..n).map(|j| ((x[j] - x[i]).powi(2) + (y[j] - y[i]).powi(2), j as u32)));
+        order.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+        let mut pop = 0.0;
+        let mut k = 0;
+        while k < n {
+            // A tie group [k, g).
+            let mut g = k;
+            let mut gp = 0.0;
+            while g < n && order[g].0 == order[k].0 {
+                gp += weight[order[g].1 as usize];
+                g += 1;
+            }
+            if pop + gp > limit * (1.0 + 1e-12) || r2.is_some_and(|r2| order[k].0 > r2) {
+                break;
+            }
+            pop += gp;
+            for (q, &(d2, j)) in order.iter().enumerate().take(g).skip(k) {
+                list.push(j);
+                dist_at.push(d2.sqrt());
+                pop_at.push(if q == g - 1 { pop } else { f64::INFINITY });
+            }
+            k = g;
+        }
+        start.push(list.len());
+        if list.len() > MAX_LIST_ENTRIES {
+            return Err(bad(
+                "max_share",
+                "too many windows for this many locations: lower the largest window share \
+                 or use grid regions",
+            ));
+        }
+    }
+    Ok(Circles {
+        start,
+        list,
+        pop_at,
+        dist_at,
+    })
+}
+
 impl ScanJob {
     /// Scan of a study's events (cases), with controls if given, over the
     /// window. Chooses the model and regions as the options say.
@@ -565,51 +638,12 @@ impl ScanJob {
             return Err(bad("controls", "there are no controls"));
         }
         // Neighbour lists.
-        let limit = o.max_share * total_pop;
-        let mut start = vec![0usize];
-        let mut list: Vec<u32> = Vec::new();
-        let mut pop_at: Vec<f64> = Vec::new();
-        let mut dist_at: Vec<f64> = Vec::new();
-        let mut order: Vec<(f64, u32)> = Vec::with_capacity(n);
-        for i in 0..n {
-            order.clear();
-            order.extend((0..n).map(|j| {
-                (
-                    (r.x[j] - r.x[i]).powi(2) + (r.y[j] - r.y[i]).powi(2),
-                    j as u32,
-                )
-            }));
-            order.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-            let mut pop = 0.0;
-            let mut k = 0;
-            while k < n {
-                // A tie group [k, g).
-                let mut g = k;
-                let mut gp = 0.0;
-                while g < n && order[g].0 == order[k].0 {
-                    gp += r.population[order[g].1 as usize];
-                    g += 1;
-                }
-                if pop + gp > limit * (1.0 + 1e-12) {
-                    break;
-                }
-                pop += gp;
-                for (q, &(d2, j)) in order.iter().enumerate().take(g).skip(k) {
-                    list.push(j);
-                    dist_at.push(d2.sqrt());
-                    pop_at.push(if q == g - 1 { pop } else { f64::INFINITY });
-                }
-                k = g;
-            }
-            start.push(list.len());
-            if list.len() > MAX_LIST_ENTRIES {
-                return Err(bad(
-                    "max_share",
-                    "too many windows for this many locations: lower the largest window share \
-                     or use grid regions",
-                ));
-            }
-        }
+        let Circles {
+            start,
+            list,
+            pop_at,
+            dist_at,
+        } = growing_circles(&r.x, &r.y, &r.population, o.max_share * total_pop, None)?;
         let individuals = if model == ScanModel::Bernoulli {
             let mut v = Vec::with_capacity(total_pop as usize);
             for (i, &p) in r.population.iter().enumerate() {
@@ -1128,6 +1162,16 @@ fn sum_into_cells(
 /// One region per distinct location; cases counted, population = cases +
 /// controls there.
 fn distinct_locations(x: &[f64], y: &[f64], kx: &[f64], ky: &[f64]) -> ScanRegions {
+    locate_distinct(x, y, kx, ky).0
+}
+
+/// [`distinct_locations`], also giving the region of each case.
+pub(crate) fn locate_distinct(
+    x: &[f64],
+    y: &[f64],
+    kx: &[f64],
+    ky: &[f64],
+) -> (ScanRegions, Vec<u32>) {
     use std::collections::HashMap;
     let mut at: HashMap<(u64, u64), usize> = HashMap::new();
     let mut r = ScanRegions::default();
@@ -1144,14 +1188,16 @@ fn distinct_locations(x: &[f64], y: &[f64], kx: &[f64], ky: &[f64]) -> ScanRegio
         if case {
             r.cases[i] += 1;
         }
+        i as u32
     };
+    let mut of_case = Vec::with_capacity(x.len());
     for i in 0..x.len() {
-        add(x[i], y[i], true);
+        of_case.push(add(x[i], y[i], true));
     }
     for i in 0..kx.len() {
         add(kx[i], ky[i], false);
     }
-    r
+    (r, of_case)
 }
 
 /// Square cells over the area's bounding box as regions. Poisson (no

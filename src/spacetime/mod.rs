@@ -12,6 +12,8 @@ pub mod events;
 pub mod mantel;
 pub mod pairs;
 pub mod permute;
+pub mod scan;
+pub mod scan_export;
 pub mod stk;
 pub mod timeline;
 

@@ -24,6 +24,7 @@ mod scan_parallel;
 mod sharing;
 mod spacetime_mantelk;
 mod spacetime_pairs;
+mod spacetime_scan;
 mod spacetime_timeline;
 
 use crate::error::{AnalysisError, InputError, InputErrorKind};

@@ -107,6 +107,17 @@ export function runScenario() {
     record(`${m}Finish`, 'demo', s[`${m}Finish`]());
   }
   record('nearRepeatCsv', 'demo', s.nearRepeatCsv());
+  const st = record('spaceTimeScanStart', 'demo, prospective, 9', s.spaceTimeScanStart({ mode: 'prospective', n_sim: 9, seed: 4 }));
+  const stShare = record('spaceTimeScanShare', '', s.spaceTimeScanShare());
+  const stPiece = record('spaceTimeScanSimulate', '0..3', s.spaceTimeScanSimulate(0, 3));
+  const sth = new cloister.Session();
+  record('spaceTimeScanHelperStart', '', sth.spaceTimeScanHelperStart(stShare));
+  sth.free();
+  record('spaceTimeScanAdd', '0..3', s.spaceTimeScanAdd(0, stPiece));
+  record('spaceTimeScanStep', '2', s.spaceTimeScanStep(2));
+  s.spaceTimeScanStep(st.total);
+  record('spaceTimeScanFinish', 'demo, prospective', s.spaceTimeScanFinish());
+  record('spaceTimeScanExport', 'csv', s.spaceTimeScanExport({ created: CREATED }));
   const rs = record('riskSurfaceStart', 'demo, 9', s.riskSurfaceStart({ n_sim: 9, seed: 4, cells: 64 }));
   const rsShare = record('riskSurfaceShare', '', s.riskSurfaceShare());
   const rsPiece = record('riskSurfaceSimulate', '0..2', s.riskSurfaceSimulate(0, 2));

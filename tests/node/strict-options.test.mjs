@@ -81,6 +81,8 @@ const CASES = {
   nearRepeatStart: { call: (s, o) => s.nearRepeatStart(o), bad: { band_metres: 100 }, key: 'band_metres', valid: ['band_m', 'max_distance_m', 'band_days', 'n_perm'] },
   knoxStart: { call: (s, o) => s.knoxStart(o), bad: { distance: 100 }, key: 'distance', valid: ['distance_m', 'days', 'n_perm'] },
   timeline: { call: (s, o) => s.timeline(o), bad: { bins: 'week' }, key: 'bins', valid: ['bin'] },
+  spaceTimeScanStart: { call: (s, o) => s.spaceTimeScanStart(o), bad: { max_day: 30 }, key: 'max_day', valid: ['max_days', 'max_share', 'mode'] },
+  spaceTimeScanExport: { call: (s, o) => s.spaceTimeScanExport(o), bad: { internl: true }, key: 'internl', valid: ['internal', 'round_m', 'format'] },
 };
 
 // Session methods that take no options object (positional arguments only,
@@ -100,6 +102,7 @@ const NO_OPTIONS = new Set([
   'nearRepeatStep', 'nearRepeatFinish', 'nearRepeatCsv', 'nearRepeatShare', 'nearRepeatHelperStart', 'nearRepeatSimulate', 'nearRepeatAdd',
   'knoxStep', 'knoxFinish', 'knoxShare', 'knoxHelperStart', 'knoxSimulate', 'knoxAdd',
   'eventTimes',
+  'spaceTimeScanStep', 'spaceTimeScanFinish', 'spaceTimeScanShare', 'spaceTimeScanHelperStart', 'spaceTimeScanSimulate', 'spaceTimeScanAdd',
 ]);
 
 test('every Session method is either listed as taking options here or as taking none', () => {
@@ -297,6 +300,8 @@ const WALK = {
   nearRepeatStart: {},
   knoxStart: {},
   timeline: {},
+  spaceTimeScanStart: { base: { n_sim: 1, mode: 'prospective' } },
+  spaceTimeScanExport: {},
 };
 
 test('every numeric option has a range, and values outside it, NaN, ±Infinity, 1e308 and 1e-300 are refused', () => {

@@ -3,10 +3,11 @@
  * owns the section and its availability line; each analysis of the section
  * lives in its own module (spacetime-*.js) and is mounted below with one
  * line. Every number comes from the engine (src/spacetime/). */
-import { mountSpaceTimeTimeline } from './spacetime-timeline.js';
 
+import { mountSpaceTimeTimeline } from './spacetime-timeline.js';
 import { mountSpaceTimePairs } from './spacetime-pairs.js';
 import { mountSpaceTimeMantelK } from './spacetime-mantelk.js';
+import { mountSpaceTimeScan } from './spacetime-scan.js';
 
 export function mountSpaceTime(C) {
   const { el } = C;
@@ -20,6 +21,7 @@ export function mountSpaceTime(C) {
   mountSpaceTimeTimeline(C, body);
   mountSpaceTimePairs(C, body);
   mountSpaceTimeMantelK(C, body);
+  mountSpaceTimeScan(C, body);
 
   C.onSnapshot((snap) => {
     const span = snap && snap.summary && snap.summary.time_span;
