@@ -210,7 +210,11 @@ fn windows_reach_the_study_and_the_space_time_events() {
         (2, Some(16.5))
     );
     // Midpoints for windows up to 10 days; the 30-day one is left out.
-    let te = TimedEvents::from_study(&s, UncertainTimes::Midpoint, 10.0, 1).unwrap();
+    let te = TimedEvents::from_study(&s, UncertainTimes::LeaveOut, 10.0, 1).unwrap();
     assert_eq!(te.t, vec![MARCH_4 + 1.5, MARCH_4, MARCH_7]);
     assert_eq!((te.at_midpoint, te.window_too_long), (1, 1));
+    // "midpoint": every window at its middle, however long (the limit unused).
+    let all = TimedEvents::from_study(&s, UncertainTimes::Midpoint, 10.0, 1).unwrap();
+    assert_eq!(all.t, vec![MARCH_4 + 1.5, MARCH_4, MARCH_4 + 15.0, MARCH_7]);
+    assert_eq!((all.at_midpoint, all.window_too_long), (2, 0));
 }

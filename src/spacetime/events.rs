@@ -17,13 +17,13 @@ use serde::{Deserialize, Serialize};
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum UncertainTimes {
-    /// Place it at the window's midpoint, unless the window is longer than
-    /// the limit (then leave it out).
+    /// Leave out every event whose window is longer than the limit
+    /// (`max_window_days`); shorter windows are placed at their midpoint.
     #[default]
-    Midpoint,
-    /// Leave out every event whose window is longer than the limit; shorter
-    /// windows are placed at their midpoint.
     LeaveOut,
+    /// Place every window at its midpoint, however long (the limit is not
+    /// used).
+    Midpoint,
 }
 
 /// The longest from–to window every space–time analysis uses by default
@@ -39,13 +39,13 @@ pub fn time_fields() -> Vec<Field> {
     vec![
         Field::choice(
             "uncertain_times",
-            &["midpoint", "leave_out"],
-            "events known only between a from and a to date: midpoint = placed at the middle of the window (left out when it is longer than max_window_days); leave_out = left out when longer than max_window_days",
+            &["leave_out", "midpoint"],
+            "events known only between a from and a to date: leave_out = left out when the window is longer than max_window_days, placed at its middle otherwise; midpoint = every window placed at its middle, however long",
         ),
         Field::number(
             "max_window_days",
             Some("days"),
-            "longest from–to window still used (placed at its midpoint); longer windows are left out",
+            "with uncertain_times = leave_out: the longest from–to window still used (placed at its middle); longer windows are left out",
         )
         .range(0.0, 3660.0),
     ]
@@ -128,7 +128,7 @@ impl TimedEvents {
                 }
             } else {
                 let (a, b) = if s <= e { (s, e) } else { (e, s) };
-                if b - a > max_window_days {
+                if rule == UncertainTimes::LeaveOut && b - a > max_window_days {
                     out.window_too_long += 1;
                     continue;
                 }

@@ -121,7 +121,7 @@ impl Default for MantelOptions {
             n_sim: 999,
             seed: 0,
             alpha: 0.05,
-            uncertain_times: UncertainTimes::Midpoint,
+            uncertain_times: UncertainTimes::LeaveOut,
             max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }

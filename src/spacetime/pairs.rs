@@ -759,7 +759,7 @@ impl Default for NearRepeatOptions {
             n_perm: 999,
             seed: 0,
             alpha: 0.05,
-            uncertain_times: UncertainTimes::Midpoint,
+            uncertain_times: UncertainTimes::LeaveOut,
             max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }
@@ -1189,7 +1189,7 @@ impl Default for KnoxOptions {
             n_perm: 999,
             seed: 0,
             alpha: 0.05,
-            uncertain_times: UncertainTimes::Midpoint,
+            uncertain_times: UncertainTimes::LeaveOut,
             max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }

@@ -109,7 +109,7 @@ impl Default for StScanOptions {
             seed: 20_250_601,
             max_secondary: 10,
             repeat_days: 7.0,
-            uncertain_times: UncertainTimes::Midpoint,
+            uncertain_times: UncertainTimes::LeaveOut,
             max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }

@@ -90,7 +90,7 @@ impl Default for SpaceTimeKOptions {
             n_sim: 199,
             seed: 0,
             alpha: 0.05,
-            uncertain_times: UncertainTimes::Midpoint,
+            uncertain_times: UncertainTimes::LeaveOut,
             max_window_days: super::events::DEFAULT_MAX_WINDOW_DAYS,
         }
     }
