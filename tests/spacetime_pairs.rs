@@ -144,28 +144,8 @@ fn k7() -> (Vec<f64>, Vec<f64>, Vec<f64>) {
     )
 }
 
-/// All permutations of 0..n (Heap's algorithm).
 fn all_permutations(n: usize) -> Vec<Vec<usize>> {
-    let mut a: Vec<usize> = (0..n).collect();
-    let mut c = vec![0usize; n];
-    let mut out = vec![a.clone()];
-    let mut i = 0;
-    while i < n {
-        if c[i] < i {
-            if i % 2 == 0 {
-                a.swap(0, i);
-            } else {
-                a.swap(c[i], i);
-            }
-            out.push(a.clone());
-            c[i] += 1;
-            i = 0;
-        } else {
-            c[i] = 0;
-            i += 1;
-        }
-    }
-    out
+    cloister::spacetime::permute::all_permutations(n).unwrap()
 }
 
 #[test]

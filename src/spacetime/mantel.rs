@@ -666,34 +666,14 @@ mod tests {
         z
     }
 
-    /// Every permutation of 0..n (Heap's algorithm).
-    fn all_perms(n: usize) -> Vec<Vec<usize>> {
-        let mut a: Vec<usize> = (0..n).collect();
-        let mut c = vec![0; n];
-        let mut out = vec![a.clone()];
-        let mut i = 0;
-        while i < n {
-            if c[i] < i {
-                if i % 2 == 0 {
-                    a.swap(0, i);
-                } else {
-                    a.swap(c[i], i);
-                }
-                out.push(a.clone());
-                c[i] += 1;
-                i = 0;
-            } else {
-                c[i] = 0;
-                i += 1;
-            }
-        }
-        out
+    fn all_perms_of(n: usize) -> Vec<Vec<usize>> {
+        crate::spacetime::permute::all_permutations(n).unwrap()
     }
 
     /// (mean, variance, #≥, #≤) of Z over every permutation of the times.
     fn enumerate(ev: &TimedEvents, o: &MantelOptions) -> (f64, f64, usize, usize, usize) {
         let z0 = z_plain(ev, &ev.t, o);
-        let perms = all_perms(ev.len());
+        let perms = all_perms_of(ev.len());
         let zs: Vec<f64> = perms
             .iter()
             .map(|p| {

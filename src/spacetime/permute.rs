@@ -37,8 +37,46 @@ pub fn permuted_times_batch(t: &[f64], seed: u64, j0: u64, b: usize) -> Vec<f64>
     out
 }
 
+/// Every permutation of `0..n` (Heap's algorithm), for exact
+/// enumeration of a permutation distribution on a small example (the
+/// tests check p-values and moments this way). `None` for n > 10.
+pub fn all_permutations(n: usize) -> Option<Vec<Vec<usize>>> {
+    if n > 10 {
+        return None;
+    }
+    let mut a: Vec<usize> = (0..n).collect();
+    let mut c = vec![0usize; n];
+    let mut out = vec![a.clone()];
+    let mut i = 0;
+    while i < n {
+        if c[i] < i {
+            if i % 2 == 0 {
+                a.swap(0, i);
+            } else {
+                a.swap(c[i], i);
+            }
+            out.push(a.clone());
+            c[i] += 1;
+            i = 0;
+        } else {
+            c[i] = 0;
+            i += 1;
+        }
+    }
+    Some(out)
+}
+
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn all_permutations_are_distinct_and_complete() {
+        let p = super::all_permutations(5).unwrap();
+        assert_eq!(p.len(), 120);
+        let set: std::collections::HashSet<_> = p.iter().cloned().collect();
+        assert_eq!(set.len(), 120);
+        assert!(super::all_permutations(11).is_none());
+    }
+
     use super::*;
 
     #[test]

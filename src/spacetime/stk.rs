@@ -920,18 +920,7 @@ mod tests {
         let job = SpaceTimeKJob::new(&ev, &w, &o).unwrap();
         let sim = job.simulator();
         let sh = sim.share();
-        let mut perms = vec![vec![0usize, 1, 2, 3, 4, 5]];
-        // All permutations by repeated next-permutation.
-        loop {
-            let mut p = perms.last().unwrap().clone();
-            let Some(i) = (0..5).rev().find(|&i| p[i] < p[i + 1]) else {
-                break;
-            };
-            let j = (i + 1..6).rev().find(|&j| p[j] > p[i]).unwrap();
-            p.swap(i, j);
-            p[i + 1..].reverse();
-            perms.push(p);
-        }
+        let perms = crate::spacetime::permute::all_permutations(6).unwrap();
         assert_eq!(perms.len(), 720);
         let mut total = vec![0.0; 12];
         let mut scale = 0.0f64;
