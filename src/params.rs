@@ -448,6 +448,9 @@ pub fn check_options(
         "knoxStart" => run::<crate::spacetime::pairs::KnoxOptions>(v, extent_m),
         "spaceTimeScanStart" => run::<spacetime::scan::StScanOptions>(v, extent_m),
         "spaceTimeScanExport" => run::<spacetime::scan_export::StScanExportOptions>(v, extent_m),
+        "mantelStart" => run::<spacetime::mantel::MantelOptions>(v, extent_m),
+        "spaceTimeKStart" => run::<spacetime::stk::SpaceTimeKOptions>(v, extent_m),
+        "timeline" => run::<spacetime::timeline::TimelineOptions>(v, extent_m),
         _ => return None,
     })
 }
