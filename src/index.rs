@@ -92,11 +92,54 @@ pub fn bbox(x: &[f64], y: &[f64]) -> Option<[f64; 4]> {
 /// `cell` starting at `v0`: clamped to `0..n`, NaN to 0.
 #[inline]
 pub(crate) fn cell_coord(v: f64, v0: f64, cell: f64, n: usize) -> usize {
-    let c = ((v - v0) / cell).floor();
-    if c.is_nan() || c < 0.0 {
-        0
-    } else {
-        (c as usize).min(n - 1)
+    // `as` truncates toward zero and saturates (negative and NaN to 0), so
+    // this is floor-then-clamp without a call to `floor`, which a portable
+    // x86-64 build cannot inline (no SSE4.1 rounding instruction).
+    (((v - v0) / cell) as usize).min(n - 1)
+}
+
+#[cfg(test)]
+#[test]
+fn cell_coord_is_floor_then_clamp() {
+    // The definition it replaces: floor, then NaN and below 0 to 0, above to n − 1.
+    let reference = |v: f64, v0: f64, cell: f64, n: usize| {
+        let c = ((v - v0) / cell).floor();
+        if c.is_nan() || c < 0.0 {
+            0
+        } else {
+            (c as usize).min(n - 1)
+        }
+    };
+    let vs = [
+        -1e300,
+        -3.5,
+        -1.0,
+        -0.5,
+        -1e-300,
+        -0.0,
+        0.0,
+        1e-300,
+        0.5,
+        0.999_999_999,
+        1.0,
+        2.0,
+        2.5,
+        9.999,
+        10.0,
+        10.5,
+        1e300,
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+        f64::NAN,
+    ];
+    for &v in &vs {
+        for &(v0, cell, n) in &[(0.0, 1.0, 10), (-2.0, 0.25, 7), (5.0, 3.0, 1)] {
+            assert_eq!(
+                cell_coord(v, v0, cell, n),
+                reference(v, v0, cell, n),
+                "{v} {v0} {cell}"
+            );
+        }
     }
 }
 
@@ -583,30 +626,33 @@ impl GridIndex {
         loop {
             let (ylo, yhi) = ((cy - rho).max(0), (cy + rho).min(ny - 1));
             let (xlo, xhi) = ((cx - rho).max(0), (cx + rho).min(nx - 1));
-            let mut visit = |ix: isize, iy: isize| {
-                let ls = loc.cell(iy as usize * self.nx + ix as usize);
+            // Cells ix0..=ix1 of row iy: one run of locations (cells are
+            // row-major), offered in the same order as cell by cell.
+            let mut visit_run = |ix0: isize, ix1: isize, iy: isize| {
+                let c0 = iy as usize * self.nx;
+                let ls = loc.run(c0 + ix0 as usize, c0 + ix1 as usize);
                 visited += ls.len();
-                for l in ls {
+                let (xs, ys) = (&loc.x[ls.clone()], &loc.y[ls.clone()]);
+                for (k, (&x, &y)) in xs.iter().zip(ys).enumerate() {
+                    let l = ls.start + k;
                     if l == skip {
                         continue;
                     }
-                    let dx = loc.x[l] - qx;
-                    let dy = loc.y[l] - qy;
+                    let dx = x - qx;
+                    let dy = y - qy;
                     best.offer(dx * dx + dy * dy, l, loc);
                 }
             };
             // Only the cells on the ring at Chebyshev distance rho are new.
             for iy in ylo..=yhi {
                 if iy == cy - rho || iy == cy + rho {
-                    for ix in xlo..=xhi {
-                        visit(ix, iy);
-                    }
+                    visit_run(xlo, xhi, iy);
                 } else {
                     if cx - rho >= 0 {
-                        visit(cx - rho, iy);
+                        visit_run(cx - rho, cx - rho, iy);
                     }
                     if rho > 0 && cx + rho < nx {
-                        visit(cx + rho, iy);
+                        visit_run(cx + rho, cx + rho, iy);
                     }
                 }
             }
@@ -647,12 +693,29 @@ impl GridIndex {
     /// than `k` points. Computed once per distinct location: a location
     /// holding more than k events answers 0 without a search.
     pub fn kth_nn_distances(&self, k: usize) -> Option<Vec<f64>> {
+        let mut out = vec![0.0; self.len()];
+        self.each_kth_nn(k, |s, d| out[self.id[s as usize] as usize] = d)?;
+        Some(out)
+    }
+
+    /// The distances of [`GridIndex::nn_distances`] in no particular order
+    /// (grid order): for summaries of the distribution, which need no
+    /// point-by-point answer and so skip scattering them into input order.
+    pub fn nn_distances_unordered(&self) -> Option<Vec<f64>> {
+        let mut out = Vec::with_capacity(self.len());
+        self.each_kth_nn(1, |_, d| out.push(d))?;
+        Some(out)
+    }
+
+    /// Calls `put(slot, d)` with each slot's distance to its k-th nearest
+    /// other point, location by location; `None` (and no calls) when
+    /// `k == 0` or there are not more than `k` points.
+    fn each_kth_nn(&self, k: usize, mut put: impl FnMut(u32, f64)) -> Option<()> {
         let n = self.len();
         if k == 0 || n <= k {
             return None;
         }
         let loc = self.locations();
-        let mut out = vec![0.0; n];
         let mut b = Kth {
             k,
             total: 0,
@@ -676,10 +739,10 @@ impl GridIndex {
                 b.worst().sqrt()
             };
             for &s in loc.members(l) {
-                out[self.id[s as usize] as usize] = d;
+                put(s, d);
             }
         }
-        Some(out)
+        Some(())
     }
 
     /// Index of each point's nearest other point and the distance, in input
@@ -1228,6 +1291,12 @@ mod tests {
                 assert_eq!(gi, brute_sorted(x, y, i)[k - 1], "k={k} i={i}");
             }
         }
+        // The unordered form holds the same distances (brute force, sorted).
+        let mut un = g.nn_distances_unordered().unwrap();
+        un.sort_by(f64::total_cmp);
+        let mut all: Vec<f64> = (0..x.len()).map(|i| brute_sorted(x, y, i)[0]).collect();
+        all.sort_by(f64::total_cmp);
+        assert_eq!(un, all);
         let nn = g.nearest_neighbours().unwrap();
         for (i, &(j, d)) in nn.iter().enumerate() {
             assert_ne!(i, j);

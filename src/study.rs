@@ -351,13 +351,16 @@ pub fn far_points(layer: &RawLayer) -> Vec<Option<RejectReason>> {
     if n < FAR_MIN_EVENTS {
         return out;
     }
+    // Order statistics by selection (linear time) rather than sorting: the
+    // same values as indexing the sorted vector.
     let median = |mut v: Vec<f64>| {
-        v.sort_by(f64::total_cmp);
         let m = v.len() / 2;
-        if v.len() % 2 == 1 {
-            v[m]
+        let (lower, &mut mid, _) = v.select_nth_unstable_by(m, f64::total_cmp);
+        if n % 2 == 1 {
+            mid
         } else {
-            0.5 * (v[m - 1] + v[m])
+            let below = lower.iter().copied().max_by(f64::total_cmp).unwrap_or(mid);
+            0.5 * (below + mid)
         }
     };
     let mx = median(layer.x.clone());
@@ -377,21 +380,31 @@ pub fn far_points(layer: &RawLayer) -> Vec<Option<RejectReason>> {
         (dx * kx).hypot(y - my)
     };
     let d: Vec<f64> = (0..n).map(|i| dist(layer.x[i], layer.y[i])).collect();
-    let mut sorted = d.clone();
-    sorted.sort_by(f64::total_cmp);
-    let q = |p: f64| sorted[((p * (n - 1) as f64).round() as usize).min(n - 1)];
-    let (q1, q3) = (q(0.25), q(0.75));
+    // `work` is d reordered so that work[lo] is the sorted distances' entry
+    // lo and work[lo..] holds the sorted entries lo.. (in some order), and
+    // likewise for the quartiles' entries: the same values as sorting d.
+    let q_at = |p: f64| ((p * (n - 1) as f64).round() as usize).min(n - 1);
+    let (i1, i3, lo) = (q_at(0.25), q_at(0.75), (n / 2).max(1) - 1);
+    let mut work = d.clone();
+    work.select_nth_unstable_by(lo, f64::total_cmp);
+    let mut at = |i: usize| {
+        use std::cmp::Ordering::*;
+        match i.cmp(&lo) {
+            Equal => work[lo],
+            Less => *work[..lo].select_nth_unstable_by(i, f64::total_cmp).1,
+            Greater => {
+                *work[lo + 1..]
+                    .select_nth_unstable_by(i - lo - 1, f64::total_cmp)
+                    .1
+            }
+        }
+    };
+    let (q1, q3) = (at(i1), at(i3));
     let tukey = q3 + 3.0 * (q3 - q1);
     // The gap: the first step, past the median, where the sorted distances
     // jump by more than FAR_GAP times; everything after it is cut off from
     // the rest. Without such a gap nothing is far, however sparse.
-    let mut gap = f64::INFINITY;
-    for k in (n / 2).max(1)..n {
-        if sorted[k - 1] > 0.0 && sorted[k] > FAR_GAP * sorted[k - 1] {
-            gap = sorted[k - 1];
-            break;
-        }
-    }
+    let gap = first_gap(&mut work[lo..]);
     let fence = tukey.max(gap);
     if !(fence > 0.0 && fence.is_finite()) {
         return out;
@@ -414,6 +427,49 @@ pub fn far_points(layer: &RawLayer) -> Vec<Option<RejectReason>> {
         });
     }
     out
+}
+
+/// The lower value of the first step between neighbours in sorted order of
+/// `v` (non-negative distances) from a positive value to one more than
+/// [`FAR_GAP`] times larger; infinity when there is none. `v` may be
+/// reordered.
+///
+/// Without sorting: two values in the same binade (same floating-point
+/// exponent) differ by less than a factor 2, so no such step lies inside a
+/// binade, and the steps between binades are from the largest value of one
+/// occupied binade to the smallest of the next. Zeros are never the lower
+/// end of a step. Anything else (non-finite, subnormal) is sorted.
+fn first_gap(v: &mut [f64]) -> f64 {
+    let normal = v.iter().all(|x| *x == 0.0 || (x.is_normal() && *x > 0.0));
+    if !normal {
+        v.sort_by(f64::total_cmp);
+        for k in 1..v.len() {
+            if v[k - 1] > 0.0 && v[k] > FAR_GAP * v[k - 1] {
+                return v[k - 1];
+            }
+        }
+        return f64::INFINITY;
+    }
+    let mut lo = vec![f64::INFINITY; 2048];
+    let mut hi = vec![0.0_f64; 2048];
+    for &x in v.iter() {
+        if x > 0.0 {
+            let e = (x.to_bits() >> 52) as usize & 0x7ff;
+            lo[e] = lo[e].min(x);
+            hi[e] = hi[e].max(x);
+        }
+    }
+    let mut prev = 0.0_f64;
+    for e in 0..2048 {
+        if hi[e] == 0.0 {
+            continue;
+        }
+        if prev > 0.0 && lo[e] > FAR_GAP * prev {
+            return prev;
+        }
+        prev = hi[e];
+    }
+    f64::INFINITY
 }
 
 /// Events needed before [`far_points`] judges any of them.
@@ -1153,5 +1209,48 @@ mod tests {
                 .iter()
                 .all(Option::is_none)
         );
+    }
+
+    /// The binade form of the gap search against the plain scan of the
+    /// sorted values it replaces, on values with and without gaps, zeros,
+    /// ties and values that take the sorting path (subnormal, infinite).
+    #[test]
+    fn first_gap_matches_sorted_scan() {
+        use rand::RngExt;
+        let scan = |v: &[f64]| {
+            let mut s = v.to_vec();
+            s.sort_by(f64::total_cmp);
+            (1..s.len())
+                .find(|&k| s[k - 1] > 0.0 && s[k] > FAR_GAP * s[k - 1])
+                .map_or(f64::INFINITY, |k| s[k - 1])
+        };
+        let mut rng = crate::rng::rng_from_seed(11);
+        let mut cases: Vec<Vec<f64>> = vec![
+            vec![],
+            vec![0.0, 0.0],
+            vec![0.0, 5.0],
+            vec![1.0, 20.0, 20.0000001, 1e6],
+            vec![1.0, 1.9, 38.1, 38.0, 1e9],
+            vec![3.0, 60.0, 61.0, 1e4, f64::INFINITY],
+            vec![1e-310, 1e-300, 1.0],
+        ];
+        for _ in 0..300 {
+            let m = rng.random_range(1..200);
+            let spread = 10f64.powf(rng.random::<f64>() * 4.0);
+            cases.push(
+                (0..m)
+                    .map(|_| match rng.random_range(0..10) {
+                        0 => 0.0,
+                        1 => spread.powi(rng.random_range(1..4)),
+                        _ => rng.random::<f64>() * spread,
+                    })
+                    .collect(),
+            );
+        }
+        for v in cases {
+            let expected = scan(&v);
+            let got = first_gap(&mut v.clone());
+            assert_eq!(got.to_bits(), expected.to_bits(), "{v:?}");
+        }
     }
 }
