@@ -9,6 +9,8 @@ SIZES="${BENCH_SIZES:-1000 10000 100000 1000000}"
 
 echo "== intake: native (release)"
 cargo run --quiet --release --example bench_intake -- $SIZES
+echo "== intake: native against pandas.read_csv + pyproj transverse Mercator (same 1,000,000-row file, best of 3 each)"
+python3 bench/intake_vs_pandas.py 1000000
 echo "== intake: Node.js (dist/node)"
 node --max-old-space-size=4096 bench/intake-node.mjs $SIZES
 echo "== intake: headless Chromium page (worker)"

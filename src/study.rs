@@ -282,23 +282,31 @@ fn coincidence(x: &[f64], y: &[f64]) -> Coincidence {
 /// Projects a layer and keeps the points inside the window; the rest become
 /// "outside the study area" rejections, merged with the reader's rejections
 /// in row order. Also returns the kept indices into the layer.
+///
+/// `projected`: the layer's points already projected, and whether the
+/// window was drawn around exactly these points (convex hull or bounding
+/// box), in which case every finite point lies in it by construction and
+/// the point-in-polygon test is skipped.
 fn place_layer(
     layer: &RawLayer,
     projection: &Projection,
     window: &Window,
-    projected: Option<(Vec<f64>, Vec<f64>)>,
+    projected: Option<(Vec<f64>, Vec<f64>, bool)>,
 ) -> (Pattern, Vec<Rejection>, Vec<usize>) {
     let n = layer.len();
     let mut keep = Vec::with_capacity(n);
     let (mut xs, mut ys) = (Vec::with_capacity(n), Vec::with_capacity(n));
     let mut rejections = layer.rejections.clone();
-    let (px, py) = match projected {
+    let (px, py, drawn_around) = match projected {
         Some(p) if p.0.len() == n && p.1.len() == n => p,
-        _ => projection.forward_many(&layer.x, &layer.y),
+        _ => {
+            let (px, py) = projection.forward_many(&layer.x, &layer.y);
+            (px, py, false)
+        }
     };
     for i in 0..n {
         let (e, no) = (px[i], py[i]);
-        if e.is_finite() && no.is_finite() && window.contains(e, no) {
+        if e.is_finite() && no.is_finite() && (drawn_around || window.contains(e, no)) {
             keep.push(i);
             xs.push(e);
             ys.push(no);
@@ -641,7 +649,7 @@ impl Study {
                      rectangle can take in empty corners and make them look more clustered. \
                      Give the true study area if you have it."
                 ));
-                projected_events = Some((px, py));
+                projected_events = Some((px, py, true));
                 w
             }
         };
@@ -1050,6 +1058,28 @@ mod tests {
         let ev = layer(METRE, &[(0.0, 0.0), (1.0, 1.0)]);
         let e = Study::build(&ev, None, None, AreaFallback::ConvexHull).unwrap_err();
         assert!(matches!(e.kind, InputErrorKind::BadPolygon { .. }));
+    }
+
+    /// The study area drawn around the events holds every one of them, so
+    /// the point-in-polygon test is skipped for it: check that the test
+    /// would have kept them all (hull and box of 5,000 lon/lat events).
+    #[test]
+    fn test_area_drawn_around_events_holds_them_all() {
+        use rand::RngExt;
+        let mut rng = crate::rng::rng_from_seed(12);
+        let pts: Vec<(f64, f64)> = (0..5000)
+            .map(|_| {
+                let (r, t) = (rng.random::<f64>().sqrt() * 0.2, rng.random::<f64>() * 6.3);
+                (-12.3 + r * t.cos(), 38.7 + r * t.sin())
+            })
+            .collect();
+        let ev = layer(CoordKind::LonLat, &pts);
+        for fallback in [AreaFallback::ConvexHull, AreaFallback::BoundingBox] {
+            let s = Study::build(&ev, None, None, fallback).unwrap();
+            assert_eq!(s.events.len(), 5000);
+            let (x, y) = (s.events.x(), s.events.y());
+            assert!((0..5000).all(|i| s.window.contains(x[i], y[i])));
+        }
     }
 
     #[test]

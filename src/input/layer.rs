@@ -133,7 +133,13 @@ impl Builder {
         } else {
             label
         };
-        if let Some(&id) = self.category_ids.get(label) {
+        // A few categories (the usual case): comparing the short names is
+        // cheaper than hashing the label.
+        if self.category_names.len() <= 8 {
+            if let Some(id) = self.category_names.iter().position(|n| n == label) {
+                return id as u32;
+            }
+        } else if let Some(&id) = self.category_ids.get(label) {
             return id;
         }
         let id = self.category_names.len() as u32;
