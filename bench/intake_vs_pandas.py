@@ -1,7 +1,11 @@
 """Intake of one large lon/lat CSV: ours natively against pandas + pyproj, side by side.
 
 Run from the repository root:
-    python3 bench/intake_vs_pandas.py [ROWS]     (default 1,000,000)
+    python3 bench/intake_vs_pandas.py [ROWS] [OTHER_BENCH_INTAKE]   (default 1,000,000 rows)
+
+OTHER_BENCH_INTAKE: optionally, the bench_intake example built from another
+commit (with this commit's examples/bench_intake.rs), timed in the same run
+for a before/after comparison.
 
 It builds the release example, writes the benchmark's CSV once (the same
 seeded rows as `examples/bench_intake.rs`: id, longitude, latitude, date,
@@ -53,6 +57,16 @@ ours = json.loads(
 )
 
 
+# Our projected events, read before another build writes its own.
+xy = np.fromfile(path + ".xy", dtype="<f8")
+other = None
+if len(sys.argv) > 2:
+    other = json.loads(
+        subprocess.run([sys.argv[2], "file", path], check=True, capture_output=True,
+                       text=True).stdout
+    )
+
+
 def pandas_pyproj():
     t0 = time.perf_counter()
     df = pd.read_csv(path)
@@ -76,7 +90,6 @@ for _ in range(3):
 theirs_s, (lon0, lat0), px, py = best
 
 proj = ours["projection"]
-xy = np.fromfile(path + ".xy", dtype="<f8")
 n = ours["n"]
 ox, oy = xy[:n], xy[n:]
 print(f"centre: ours lon {proj['lon0']!r} lat {proj['lat0']!r}; pandas lon {lon0!r} lat {lat0!r}")
@@ -89,6 +102,11 @@ print(f"load average {load()}")
 print(f"ours (read file, parse, validate, project, area, summary): {ours['total_s']:.3f} s "
       f"(disk {ours['disk_s']:.3f}, parse {ours['read_s']:.3f}, "
       f"project + validate {ours['project_validate_s']:.3f}, summary {ours['summary_s']:.3f})")
+if other is not None:
+    print(f"other build ({sys.argv[2]}): {other['total_s']:.3f} s "
+          f"(disk {other['disk_s']:.3f}, parse {other['read_s']:.3f}, "
+          f"project + validate {other['project_validate_s']:.3f}, summary {other['summary_s']:.3f}); "
+          f"ratio other / pandas+pyproj: {other['total_s'] / theirs_s:.2f}")
 print(f"pandas.read_csv + pyproj transverse Mercator: {theirs_s:.3f} s")
 print(f"ratio ours / pandas+pyproj: {ours['total_s'] / theirs_s:.2f}")
 print(json.dumps({"where": "native vs pandas+pyproj", "n": n, "ours_s": ours["total_s"],

@@ -21,6 +21,8 @@ cargo run --quiet --release --example bench_clustering
 echo "== clustering envelopes: native, built for this machine's CPU (target-cpu=native)"
 RUSTFLAGS="-C target-cpu=native" CARGO_TARGET_DIR=target/native-cpu \
   cargo run --quiet --release --example bench_clustering
+echo "== clustering: nanoseconds per pair, our K against a plain count-and-histogram loop (portable build)"
+cargo run --quiet --release --example bench_k_pairs
 echo "== clustering: our K against scipy's cKDTree.count_neighbors (same points, same radii)"
 cargo run --quiet --release --example bench_clustering -- export
 python3 bench/clustering_vs_scipy.py
