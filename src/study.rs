@@ -256,25 +256,21 @@ fn mid_range(v: impl Iterator<Item = f64>) -> f64 {
     }
 }
 
-/// Counts events at exactly the same input coordinates.
+/// Counts events at exactly the same input coordinates (0.0 and −0.0 as
+/// the same place): the distinct locations of the neighbour index built on
+/// those coordinates, which groups equal points cell by cell without
+/// sorting them all.
 fn coincidence(x: &[f64], y: &[f64]) -> Coincidence {
-    let mut pts: Vec<(f64, f64)> = x.iter().copied().zip(y.iter().copied()).collect();
-    pts.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
+    let g = crate::index::GridIndex::new(x, y);
+    let loc = g.locations();
     let mut c = Coincidence::default();
-    let mut k = 0;
-    while k < pts.len() {
-        let mut m = k + 1;
-        // `==` so that 0.0 and -0.0 count as the same place.
-        while m < pts.len() && pts[m].0 == pts[k].0 && pts[m].1 == pts[k].1 {
-            m += 1;
-        }
-        let run = m - k;
+    for l in 0..loc.len() {
+        let run = loc.mult(l);
         if run >= 2 {
             c.locations += 1;
             c.events += run;
             c.largest = c.largest.max(run);
         }
-        k = m;
     }
     c
 }
@@ -1239,6 +1235,58 @@ mod tests {
                 .iter()
                 .all(Option::is_none)
         );
+    }
+
+    /// Coincident places by the neighbour index against sorting the
+    /// coordinate pairs and counting runs of equal ones (the method it
+    /// replaces), on points with many repeated places, −0.0 and 0.0 kept
+    /// apart from each other's neighbours.
+    #[test]
+    fn coincidence_matches_sorted_runs() {
+        use rand::RngExt;
+        let runs = |x: &[f64], y: &[f64]| {
+            let mut p: Vec<(f64, f64)> = x
+                .iter()
+                .map(|v| v + 0.0)
+                .zip(y.iter().map(|v| v + 0.0))
+                .collect();
+            p.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.total_cmp(&b.1)));
+            let mut c = Coincidence::default();
+            let mut k = 0;
+            while k < p.len() {
+                let m = (k..p.len()).find(|&m| p[m] != p[k]).unwrap_or(p.len());
+                if m - k >= 2 {
+                    c.locations += 1;
+                    c.events += m - k;
+                    c.largest = c.largest.max(m - k);
+                }
+                k = m;
+            }
+            c
+        };
+        let mut rng = crate::rng::rng_from_seed(13);
+        for n in [0usize, 1, 2, 50, 3000] {
+            let (mut x, mut y): (Vec<f64>, Vec<f64>) = (0..n)
+                .map(|_| {
+                    // A few hundred addresses, so places repeat.
+                    let a = rng.random_range(0..300) as f64;
+                    ((a * 7.0) % 40.0 - 20.0, (a * 13.0) % 30.0)
+                })
+                .unzip();
+            if n >= 50 {
+                x[0] = -0.0;
+                y[0] = 0.0;
+                x[1] = 0.0;
+                y[1] = -0.0;
+                x[2] = 1e-300;
+                y[2] = 0.0;
+            }
+            let c = coincidence(&x, &y);
+            assert_eq!(c, runs(&x, &y), "n = {n}");
+            if n == 3000 {
+                assert!(c.locations > 100 && c.largest > 5);
+            }
+        }
     }
 
     /// The binade form of the gap search against the plain scan of the
