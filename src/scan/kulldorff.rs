@@ -29,15 +29,17 @@
 //! Where the regions come from ([`ScanCentres`]):
 //! * `Events` (Bernoulli only): one region per distinct location of a case or
 //!   control; windows centred on every such location, growing event by event.
-//!   Exact, but each replicate costs O(N²·max_share).
+//!   Exact; each replicate costs O(N²·max_share), made fast by compact
+//!   circles and eight replicates per pass (`compact.rs`, same results).
 //! * `Grid`: events are counted in square cells (`cells_long_side` along the
 //!   longer side of the study area's bounding box); each cell is a region at
 //!   its centre. For the Poisson-against-area model a cell's population is its
 //!   area inside the study area, estimated from a 4 × 4 sub-grid of points, so
 //!   `|Z ∩ W|` is the area in `W` of the cells whose centres lie in the circle
 //!   (an approximation at cell resolution of the circle–window intersection).
-//!   `Auto` picks `Events` for Bernoulli data with at most 2 000 distinct
-//!   locations and `Grid` otherwise.
+//!   `Auto` picks `Events` for Bernoulli data with at most
+//!   [`AUTO_EVENTS_MAX`] (5 000) distinct locations and `Grid` otherwise
+//!   (against population counts: at most 2 000 points).
 //!
 //! # Statistic
 //! Log-likelihood ratios for raised risk only (docs/methods.md#scan, 0·ln 0 = 0):
@@ -360,6 +362,12 @@ fn replicate_rng(seed: u64, j: usize) -> Rng {
     rng_from_seed(mix(seed ^ mix(j as u64 + 1)))
 }
 
+/// `Auto` centres circles on every distinct location of case–control data
+/// up to this many locations, on grid cells above: 999 chance runs at
+/// 5,000 places take about 10–20 s in the page on 2 cores, at 10,000 about
+/// four times that (README, `node bench/scan-browser.mjs 999 1 large`).
+pub const AUTO_EVENTS_MAX: usize = 5_000;
+
 /// Limit on stored window list entries (memory in the page).
 const MAX_LIST_ENTRIES: usize = 60_000_000;
 
@@ -433,7 +441,7 @@ pub(crate) fn each_circle(
     weight: &[f64],
     limit: f64,
     max_radius: Option<f64>,
-    sink: &mut dyn CircleSink,
+    sink: &mut impl CircleSink,
 ) -> Result<(), AnalysisError> {
     let n = x.len();
     let mut keys: Vec<u128> = Vec::with_capacity(n);
@@ -648,7 +656,7 @@ impl ScanJob {
                 let use_events = match o.centres {
                     ScanCentres::Events => true,
                     ScanCentres::Grid => false,
-                    ScanCentres::Auto => distinct.x.len() <= 2000,
+                    ScanCentres::Auto => distinct.x.len() <= AUTO_EVENTS_MAX,
                 };
                 if use_events {
                     (distinct, ScanCentres::Events, None)

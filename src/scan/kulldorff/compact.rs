@@ -196,7 +196,8 @@ pub(super) struct Lanes {
     /// Case counts of the runs in a batch: region j's count in run l is
     /// `packed[j][l / 4] >> (16 · (l % 4))` (16 bits).
     pub packed: Vec<[u64; 2]>,
-    slots: Vec<u32>,
+    /// Run l's slot for count index v at `l·SLOTS + v`.
+    slots: Box<[u32; LANES * SLOTS]>,
     /// Smallest population per count, run l at `l·(C+1)..`.
     min_pop: Vec<u32>,
 }
@@ -205,7 +206,10 @@ impl Lanes {
     pub fn new(c: &CompactCircles) -> Lanes {
         Lanes {
             packed: vec![[0; 2]; c.people.len()],
-            slots: vec![NONE; LANES * SLOTS],
+            slots: vec![NONE; LANES * SLOTS]
+                .into_boxed_slice()
+                .try_into()
+                .unwrap_or_else(|_| unreachable!("LANES · SLOTS entries")),
             min_pop: vec![NONE; LANES * (usize::from(c.cases) + 1)],
         }
     }
@@ -242,10 +246,7 @@ impl Lanes {
         let off = usize::from(circles.cases);
         let init = (off as u64) * 0x0001_0001_0001_0001;
         let lane = |w: u64, l: u32| (w >> (16 * l)) as u16 as usize;
-        let (chunks, _) = self.slots.as_chunks_mut::<SLOTS>();
-        let [s0, s1, s2, s3, s4, s5, s6, s7] = chunks else {
-            return;
-        };
+        let slots = &mut *self.slots;
         let people = &circles.people[..];
         let packed = &self.packed[..];
         for (i, w) in circles.start.windows(2).enumerate() {
@@ -256,14 +257,14 @@ impl Lanes {
             for &e in ids[w[0]..w[1]].iter().rev() {
                 let j = e.region();
                 if !e.inside() {
-                    s0[lane(a, 0)] = q;
-                    s1[lane(a, 1)] = q;
-                    s2[lane(a, 2)] = q;
-                    s3[lane(a, 3)] = q;
-                    s4[lane(b, 0)] = q;
-                    s5[lane(b, 1)] = q;
-                    s6[lane(b, 2)] = q;
-                    s7[lane(b, 3)] = q;
+                    slots[lane(a, 0)] = q;
+                    slots[SLOTS + lane(a, 1)] = q;
+                    slots[2 * SLOTS + lane(a, 2)] = q;
+                    slots[3 * SLOTS + lane(a, 3)] = q;
+                    slots[4 * SLOTS + lane(b, 0)] = q;
+                    slots[5 * SLOTS + lane(b, 1)] = q;
+                    slots[6 * SLOTS + lane(b, 2)] = q;
+                    slots[7 * SLOTS + lane(b, 3)] = q;
                 }
                 q = q.wrapping_sub(people[j]);
                 let p = packed[j];
@@ -273,14 +274,12 @@ impl Lanes {
             // Slot `e + c` holds the nearest window with c cases; fold into
             // the minimum per count and clear the slots used.
             let w1 = off + 1;
-            for (l, s) in [
-                &mut *s0, &mut *s1, &mut *s2, &mut *s3, &mut *s4, &mut *s5, &mut *s6, &mut *s7,
-            ]
-            .into_iter()
-            .enumerate()
+            for (l, (s, mp)) in slots
+                .chunks_exact_mut(SLOTS)
+                .zip(self.min_pop.chunks_exact_mut(w1))
+                .enumerate()
             {
                 let e = lane(if l < 4 { a } else { b }, (l % 4) as u32);
-                let mp = &mut self.min_pop[l * w1..(l + 1) * w1];
                 for (m, &v) in mp[1..w1 - e].iter_mut().zip(&s[e + 1..w1]) {
                     *m = (*m).min(v);
                 }
