@@ -10,7 +10,7 @@
 // distinct places (5,000 cases from uniformCsv(5000, 11), 5,000 controls
 // from uniformCsv(5000, 12)), cases against controls with circles centred
 // on every place (`centres: 'events'`, exact) and, for comparison, on grid
-// cells; the time to set up (scanStart: circles, data scored, a few chance
+// cells (`large 5000`: 5,000 events, 2,500 of each); the time to set up (scanStart: circles, data scored, a few chance
 // runs timed) is printed apart.
 // Prints one JSON line per run. Never run from the tests.
 import { launch, openPage, act, uniformCsv } from '../tests/e2e/helpers.mjs';
@@ -18,6 +18,8 @@ import { launch, openPage, act, uniformCsv } from '../tests/e2e/helpers.mjs';
 const nSim = Number(process.argv[2]) || 999;
 const repeats = Number(process.argv[3]) || 2;
 const large = process.argv[4] === 'large';
+// `large N`: N events instead of 10,000 (half cases, half controls).
+const half = Math.round((Number(process.argv[5]) || 10000) / 2);
 const scenarios = large
   ? [['large', 'bernoulli', 'events'], ['large', 'bernoulli', 'grid']]
   : [['#demo-button', 'bernoulli'], ['#demo-counts-button', 'poisson_population'], [null, 'poisson']];
@@ -28,8 +30,8 @@ try {
   for (const [button, model, centres] of scenarios) {
     if (button === 'large') {
       if (loaded !== 'large') {
-        await act(page, () => page.setInputFiles('#events-file', { name: 'cases.csv', mimeType: 'text/csv', buffer: uniformCsv(5000, 11) }));
-        await act(page, () => page.setInputFiles('#controls-file', { name: 'controls.csv', mimeType: 'text/csv', buffer: uniformCsv(5000, 12) }));
+        await act(page, () => page.setInputFiles('#events-file', { name: 'cases.csv', mimeType: 'text/csv', buffer: uniformCsv(half, 11) }));
+        await act(page, () => page.setInputFiles('#controls-file', { name: 'controls.csv', mimeType: 'text/csv', buffer: uniformCsv(half, 12) }));
       }
     } else if (button) await act(page, () => page.click(button));
     else await act(page, () => page.setInputFiles('#events-file', { name: 'many.csv', mimeType: 'text/csv', buffer: uniformCsv(20000, 99) }));

@@ -364,8 +364,8 @@ fn replicate_rng(seed: u64, j: usize) -> Rng {
 
 /// `Auto` centres circles on every distinct location of case–control data
 /// up to this many locations, on grid cells above: 999 chance runs at
-/// 5,000 places take about 10–20 s in the page on 2 cores, at 10,000 about
-/// four times that (README, `node bench/scan-browser.mjs 999 1 large`).
+/// 5,000 places took about 20 s in the page on a loaded 2-core machine, at
+/// 10,000 about 90–120 s (README, `node bench/scan-browser.mjs 999 1 large`).
 pub const AUTO_EVENTS_MAX: usize = 5_000;
 
 /// Limit on stored window list entries (memory in the page).
