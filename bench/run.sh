@@ -47,6 +47,11 @@ echo "== scan against population counts: Node.js (demo blocks, 2,000 and 20,000 
 node bench/scan-population-node.mjs
 echo "== scan: headless Chromium page, spread over helper workers and on one"
 node bench/scan-browser.mjs 999
+echo "== scan centred on every event, cases against controls: native (release), 10,000 events, one thread and two"
+cargo run --quiet --release --example bench_scan -- 10000 999 2
+echo "== the same in the page: 10,000 and 5,000 events, every place and grid cells, spread over helper workers and on one"
+node bench/scan-browser.mjs 999 1 large 10000
+node bench/scan-browser.mjs 999 1 large 5000
 echo "== Mantel test and space-time K: native (release), 5,000 events, one thread and spread"
 cargo run --quiet --release --example bench_mantel_stk -- export
 echo "== Mantel test and space-time K: headless Chromium page, spread over helper workers and on one"

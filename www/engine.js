@@ -148,7 +148,9 @@ export async function call(method, ...args) {
 }
 
 /** Runs a long job in the worker ({start, step, finish, params}: Session
- * method names; optional confirm_above_ms). Returns {promise, cancel,
+ * method names; optional confirm_above_ms, and batchMultiple: batches
+ * rounded up to a multiple of it; startProgress: the start step reports
+ * {fraction} while it runs; see www/worker.js). Returns {promise, cancel,
  * resume}; onProgress({done, total, ...}) is called after every batch, the
  * first time with start_ms and estimate_ms, and with waiting: true when the
  * job waits for resume() because its estimate is above confirm_above_ms.

@@ -34,6 +34,15 @@ function isSessionMethod(name) {
 const BATCH_MS = 120;
 const jobs = new Map(); // id -> {cancelled}
 
+/** `spec.batchMultiple` (optional, a whole number): batches and pieces are
+ * rounded up to a multiple of it, for a job whose step serves that many
+ * simulations at the cost of about one (the case–control scan runs eight
+ * chance runs per pass over its circles). */
+function roundBatch(spec, k) {
+  const m = Math.max(1, Math.floor(Number(spec && spec.batchMultiple)) || 1);
+  return Math.ceil(Math.max(1, k) / m) * m;
+}
+
 function runJob(id, spec) {
   const { start, step, finish, params } = spec || {};
   for (const m of [start, step, finish]) {
@@ -41,7 +50,7 @@ function runJob(id, spec) {
   }
   const job = { cancelled: false, waiting: false, go: null };
   const { total } = startJob(id, spec, job, 1);
-  let k = 1;
+  let k = roundBatch(spec, 1);
   let done = 0;
   const tick = () => {
     try {
@@ -52,7 +61,7 @@ function runJob(id, spec) {
       const t0 = performance.now();
       done = Number(session[step](k));
       const dt = performance.now() - t0;
-      k = adapt(k, k, dt, BATCH_MS);
+      k = roundBatch(spec, adapt(k, k, dt, BATCH_MS));
       if (done >= total) {
         endFinished(id, finish);
         return;
@@ -73,7 +82,18 @@ function runJob(id, spec) {
  * it simulates. Returns {total}. */
 function startJob(id, spec, job, workers) {
   const t0 = performance.now();
-  const info = session[spec.start](spec.params ?? {});
+  // A start that is long in itself (the scan building its circles) reports
+  // the fraction done when the spec sets `startProgress`.
+  if (spec.startProgress) {
+    stepId = id;
+    wasm_bindgen.beginProgress();
+  }
+  let info;
+  try {
+    info = session[spec.start](spec.params ?? {});
+  } finally {
+    stepId = null;
+  }
   const startMs = performance.now() - t0;
   const total = Number(info && info.total);
   jobs.set(id, job);
@@ -159,7 +179,7 @@ function runParallelJob(id, spec) {
     if (returned.length) return returned.shift();
     if (next >= total) return null;
     const from = next;
-    next = Math.min(total, next + Math.max(size, minPiece));
+    next = Math.min(total, next + roundBatch(spec, Math.max(size, minPiece)));
     return [from, next];
   };
   const flush = () => {

@@ -29,15 +29,17 @@
 //! Where the regions come from ([`ScanCentres`]):
 //! * `Events` (Bernoulli only): one region per distinct location of a case or
 //!   control; windows centred on every such location, growing event by event.
-//!   Exact, but each replicate costs O(N²·max_share).
+//!   Exact; each replicate costs O(N²·max_share), made fast by compact
+//!   circles and eight replicates per pass (`compact.rs`, same results).
 //! * `Grid`: events are counted in square cells (`cells_long_side` along the
 //!   longer side of the study area's bounding box); each cell is a region at
 //!   its centre. For the Poisson-against-area model a cell's population is its
 //!   area inside the study area, estimated from a 4 × 4 sub-grid of points, so
 //!   `|Z ∩ W|` is the area in `W` of the cells whose centres lie in the circle
 //!   (an approximation at cell resolution of the circle–window intersection).
-//!   `Auto` picks `Events` for Bernoulli data with at most 2 000 distinct
-//!   locations and `Grid` otherwise.
+//!   `Auto` picks `Events` for Bernoulli data with at most
+//!   [`AUTO_EVENTS_MAX`] (5 000) distinct locations and `Grid` otherwise
+//!   (against population counts: at most 2 000 points).
 //!
 //! # Statistic
 //! Log-likelihood ratios for raised risk only (docs/methods.md#scan, 0·ln 0 = 0):
@@ -76,7 +78,9 @@ use crate::window::Window;
 use rand::RngExt;
 use serde::{Deserialize, Serialize};
 
+mod compact;
 mod parallel;
+use compact::{CompactCircles, Lanes, LANES};
 pub use parallel::{ScanShare, ScanSimulator};
 
 /// The probability model.
@@ -325,6 +329,9 @@ pub struct ScanJob {
     pop_at: Vec<f64>,
     /// Distance from the centre at each list position.
     dist_at: Vec<f64>,
+    /// Case–control data: the circles in compact form instead of the four
+    /// lists above (left empty), for the fast exact chance runs.
+    compact: Option<CompactCircles>,
     /// Observed: per centre, best (llr, list position).
     best_per_centre: Vec<(f64, usize)>,
     observed_max: f64,
@@ -355,6 +362,12 @@ fn replicate_rng(seed: u64, j: usize) -> Rng {
     rng_from_seed(mix(seed ^ mix(j as u64 + 1)))
 }
 
+/// `Auto` centres circles on every distinct location of case–control data
+/// up to this many locations, on grid cells above: 999 chance runs at
+/// 5,000 places took about 20 s in the page on a loaded 2-core machine, at
+/// 10,000 about 90–120 s (README, `node bench/scan-browser.mjs 999 1 large`).
+pub const AUTO_EVENTS_MAX: usize = 5_000;
+
 /// Limit on stored window list entries (memory in the page).
 const MAX_LIST_ENTRIES: usize = 60_000_000;
 
@@ -382,40 +395,134 @@ pub(crate) fn growing_circles(
     limit: f64,
     max_radius: Option<f64>,
 ) -> Result<Circles, AnalysisError> {
+    let mut c = Circles {
+        start: vec![0],
+        ..Default::default()
+    };
+    each_circle(x, y, weight, limit, max_radius, &mut c)?;
+    Ok(c)
+}
+
+/// Where [`each_circle`] puts the circles it grows: [`Circles`] (every
+/// entry with its weight and distance) or [`CompactCircles`] (ids and tie
+/// flags only, for the case–control chance runs).
+pub(crate) trait CircleSink {
+    /// The next location of the current centre's circle, nearest first:
+    /// its squared distance from the centre, and the circle's weight when
+    /// it ends a tie group (`None` inside a group).
+    fn entry(&mut self, j: u32, d2: f64, group_end: Option<f64>);
+    /// The current centre's circle is complete; returns the entries stored
+    /// so far over all centres.
+    fn end_centre(&mut self) -> usize;
+}
+
+impl CircleSink for Circles {
+    fn entry(&mut self, j: u32, d2: f64, group_end: Option<f64>) {
+        self.list.push(j);
+        self.dist_at.push(d2.sqrt());
+        self.pop_at.push(group_end.unwrap_or(f64::INFINITY));
+    }
+    fn end_centre(&mut self) -> usize {
+        self.start.push(self.list.len());
+        self.list.len()
+    }
+}
+
+/// The one circle builder (see [`Circles`]): for each centre the locations
+/// sorted by squared distance, ties by index (as `u128` keys `d² bits <<
+/// 32 | index`: squared distances are never negative, so their bits sort
+/// as the numbers do). Only the nearest part is sorted when it is sure to
+/// hold the circle (a selection first, sized from the mean weight), else
+/// everything; either way the order is the same total order. Reports
+/// progress over the centres.
+pub(crate) fn each_circle(
+    x: &[f64],
+    y: &[f64],
+    weight: &[f64],
+    limit: f64,
+    max_radius: Option<f64>,
+    sink: &mut impl CircleSink,
+) -> Result<(), AnalysisError> {
     let n = x.len();
-    let mut start = vec![0usize];
-    let mut list: Vec<u32> = Vec::new();
-    let mut pop_at: Vec<f64> = Vec::new();
-    let mut dist_at: Vec<f64> = Vec::new();
-    let mut order: Vec<(f64, u32)> = Vec::with_capacity(n);
+    let mut keys: Vec<u128> = Vec::with_capacity(n);
     let r2 = max_radius.map(|r| r * r * (1.0 + 1e-12));
+    let cap = limit * (1.0 + 1e-12);
+    let total_w: f64 = weight.iter().sum();
+    // Locations the circle is expected to hold (+ 25 % and a margin); a
+    // first selection of that many nearest decides most circles.
+    let guess = if total_w > 0.0 && n > 0 {
+        ((limit / (total_w / n as f64)) * 1.25) as usize + 64
+    } else {
+        n
+    };
+    let d2_of = |key: u128| f64::from_bits((key >> 32) as u64);
     for i in 0..n {
-        order.clear();
-        order.extend((0..n).map(|j| ((x[j] - x[i]).powi(2) + (y[j] - y[i]).powi(2), j as u32)));
-        order.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+        if i % 64 == 0 {
+            crate::progress::report(i, n);
+        }
+        keys.clear();
+        keys.extend((0..n).map(|j| {
+            let d2 = (x[j] - x[i]).powi(2) + (y[j] - y[i]).powi(2);
+            (u128::from(d2.to_bits()) << 32) | j as u128
+        }));
+        let mut m = guess.min(n);
+        // The circle's end in `keys`, once the sorted part decides it.
+        let end = loop {
+            if m < n {
+                keys.select_nth_unstable(m);
+                keys[..m].sort_unstable();
+            } else {
+                keys.sort_unstable();
+            }
+            let mut pop = 0.0;
+            let mut k = 0;
+            let decided = loop {
+                if k >= m {
+                    // Every sorted location fits: only decided if there are no more.
+                    break (m == n).then_some(k);
+                }
+                if r2.is_some_and(|r2| d2_of(keys[k]) > r2) {
+                    break Some(k);
+                }
+                // A tie group [k, g).
+                let mut g = k;
+                let mut gp = 0.0;
+                while g < m && d2_of(keys[g]) == d2_of(keys[k]) {
+                    gp += weight[(keys[g] & 0xFFFF_FFFF) as usize];
+                    g += 1;
+                }
+                if g == m && m < n {
+                    // The group may go on past the sorted part.
+                    break None;
+                }
+                if pop + gp > cap {
+                    break Some(k);
+                }
+                pop += gp;
+                k = g;
+            };
+            match decided {
+                Some(end) => break end,
+                None => m = n,
+            }
+        };
         let mut pop = 0.0;
         let mut k = 0;
-        while k < n {
-            // A tie group [k, g).
+        while k < end {
+            let d2 = d2_of(keys[k]);
             let mut g = k;
             let mut gp = 0.0;
-            while g < n && order[g].0 == order[k].0 {
-                gp += weight[order[g].1 as usize];
+            while g < end && d2_of(keys[g]) == d2 {
+                gp += weight[(keys[g] & 0xFFFF_FFFF) as usize];
                 g += 1;
             }
-            if pop + gp > limit * (1.0 + 1e-12) || r2.is_some_and(|r2| order[k].0 > r2) {
-                break;
-            }
             pop += gp;
-            for (q, &(d2, j)) in order.iter().enumerate().take(g).skip(k) {
-                list.push(j);
-                dist_at.push(d2.sqrt());
-                pop_at.push(if q == g - 1 { pop } else { f64::INFINITY });
+            for (q, &key) in keys.iter().enumerate().take(g).skip(k) {
+                sink.entry((key & 0xFFFF_FFFF) as u32, d2, (q == g - 1).then_some(pop));
             }
             k = g;
         }
-        start.push(list.len());
-        if list.len() > MAX_LIST_ENTRIES {
+        if sink.end_centre() > MAX_LIST_ENTRIES {
             return Err(bad(
                 "max_share",
                 "too many windows for this many locations: lower the largest window share \
@@ -423,12 +530,8 @@ pub(crate) fn growing_circles(
             ));
         }
     }
-    Ok(Circles {
-        start,
-        list,
-        pop_at,
-        dist_at,
-    })
+    crate::progress::report(n, n);
+    Ok(())
 }
 
 impl ScanJob {
@@ -553,7 +656,7 @@ impl ScanJob {
                 let use_events = match o.centres {
                     ScanCentres::Events => true,
                     ScanCentres::Grid => false,
-                    ScanCentres::Auto => distinct.x.len() <= 2000,
+                    ScanCentres::Auto => distinct.x.len() <= AUTO_EVENTS_MAX,
                 };
                 if use_events {
                     (distinct, ScanCentres::Events, None)
@@ -584,6 +687,18 @@ impl ScanJob {
         regions: &ScanRegions,
         model: ScanModel,
         o: &ScanOptions,
+    ) -> Result<ScanJob, AnalysisError> {
+        ScanJob::build(regions, model, o, true)
+    }
+
+    /// [`ScanJob::from_regions`]; `compact` lets case–control data use the
+    /// compact circles and fast chance runs (the same results; `false`
+    /// keeps the general lists, for tests that compare the two).
+    fn build(
+        regions: &ScanRegions,
+        model: ScanModel,
+        o: &ScanOptions,
+        compact: bool,
     ) -> Result<ScanJob, AnalysisError> {
         let r = regions;
         let n = r.x.len();
@@ -638,12 +753,25 @@ impl ScanJob {
             return Err(bad("controls", "there are no controls"));
         }
         // Neighbour lists.
+        let limit = o.max_share * total_pop;
+        let compact = (compact
+            && model == ScanModel::Bernoulli
+            && CompactCircles::fits(&r.population, total_cases))
+        .then(|| {
+            let mut c = CompactCircles::new(&r.population, total_cases);
+            each_circle(&r.x, &r.y, &r.population, limit, None, &mut c).map(|()| c)
+        })
+        .transpose()?;
         let Circles {
             start,
             list,
             pop_at,
             dist_at,
-        } = growing_circles(&r.x, &r.y, &r.population, o.max_share * total_pop, None)?;
+        } = if compact.is_some() {
+            Circles::default()
+        } else {
+            growing_circles(&r.x, &r.y, &r.population, limit, None)?
+        };
         let individuals = if model == ScanModel::Bernoulli {
             let mut v = Vec::with_capacity(total_pop as usize);
             for (i, &p) in r.population.iter().enumerate() {
@@ -674,6 +802,7 @@ impl ScanJob {
             list,
             pop_at,
             dist_at,
+            compact,
             best_per_centre: Vec::new(),
             observed_max: 0.0,
             individuals,
@@ -699,16 +828,15 @@ impl ScanJob {
         for i in 0..n {
             let mut c = 0u64;
             let mut b = (0.0, usize::MAX);
-            for k in self.start[i]..self.start[i + 1] {
-                c += self.regions.cases[self.list[k] as usize] as u64;
-                let p = self.pop_at[k];
+            self.walk(i, |k, j, p| {
+                c += self.regions.cases[j] as u64;
                 if p.is_finite() {
                     let l = self.llr(c as f64, p);
                     if l > b.0 {
                         b = (l, k);
                     }
                 }
-            }
+            });
             top = top.max(b.0);
             best.push(b);
         }
@@ -716,9 +844,47 @@ impl ScanJob {
         self.observed_max = top;
     }
 
+    /// Walks centre i's largest circle nearest first: `f(position,
+    /// region, population)` with the circle's population at the end of a
+    /// tie group and +∞ inside one.
+    fn walk(&self, i: usize, mut f: impl FnMut(usize, usize, f64)) {
+        match &self.compact {
+            Some(c) => c.walk(i, f),
+            None => {
+                for k in self.start[i]..self.start[i + 1] {
+                    f(k, self.list[k] as usize, self.pop_at[k]);
+                }
+            }
+        }
+    }
+
+    /// Centre i's first list position.
+    fn walk_start(&self, i: usize) -> usize {
+        match &self.compact {
+            Some(c) => c.start[i],
+            None => self.start[i],
+        }
+    }
+
     /// Number of windows (list positions that end a tie group).
     pub fn n_windows(&self) -> usize {
-        self.pop_at.iter().filter(|p| p.is_finite()).count()
+        let mut w = 0;
+        for i in 0..self.regions.x.len() {
+            self.walk(i, |_, _, p| w += usize::from(p.is_finite()));
+        }
+        w
+    }
+
+    /// Bytes held by the circles (the lists every chance run walks).
+    pub fn circles_bytes(&self) -> usize {
+        match &self.compact {
+            Some(c) => c.bytes(),
+            None => {
+                self.start.len() * std::mem::size_of::<usize>()
+                    + self.list.len() * 4
+                    + (self.pop_at.len() + self.dist_at.len()) * 8
+            }
+        }
     }
 
     /// The largest LLR in the data.
@@ -749,6 +915,9 @@ impl ScanJob {
     /// is not changed.
     pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
         let to = to.min(self.o.n_sim);
+        if let Some(c) = &self.compact {
+            return self.simulate_range_compact(c, from, to);
+        }
         let n = self.regions.x.len();
         let cmax = self.total_cases as usize;
         let mut cases = vec![0u32; n];
@@ -762,6 +931,33 @@ impl ScanJob {
             let mut rng = replicate_rng(self.o.seed, j);
             self.simulate(&mut rng, &mut cases, &mut individuals, &mut picks);
             out.push(self.null_maximum(&cases, &mut min_pop));
+        }
+        out
+    }
+
+    /// [`ScanJob::simulate_range`] on the compact circles, [`LANES`] runs
+    /// per pass over the lists (see `compact.rs`).
+    fn simulate_range_compact(&self, c: &CompactCircles, from: usize, to: usize) -> Vec<f64> {
+        let n = self.regions.x.len();
+        let mut cases = vec![0u32; n];
+        let mut individuals = self.individuals.clone();
+        let mut picks = Vec::with_capacity(self.total_cases as usize);
+        let mut lanes = Lanes::new(c);
+        let mut out = Vec::with_capacity(to.saturating_sub(from));
+        let mut j0 = from;
+        while j0 < to {
+            let k = (to - j0).min(LANES);
+            for l in 0..k {
+                let mut rng = replicate_rng(self.o.seed, j0 + l);
+                self.simulate(&mut rng, &mut cases, &mut individuals, &mut picks);
+                lanes.set(l, &cases);
+            }
+            let mut t = [0.0f64; LANES];
+            lanes.smallest(c, |l, cnt, p| {
+                t[l] = t[l].max(self.llr(cnt as f64, f64::from(p)));
+            });
+            out.extend_from_slice(&t[..k]);
+            j0 += k;
         }
         out
     }
@@ -799,23 +995,25 @@ impl ScanJob {
         let limit = share.min(self.o.max_share) * self.total_pop * (1.0 + 1e-12);
         let mut w = 0usize;
         for i in 0..self.regions.x.len() {
-            let (s, e) = (self.start[i], self.start[i + 1]);
-            let mut last = s;
-            for k in s..e {
-                let p = self.pop_at[k];
-                if p.is_finite() {
+            let (mut n, mut over) = (0usize, false);
+            self.walk(i, |q, _, p| {
+                if p.is_finite() && !over {
                     if p > limit {
-                        break;
+                        over = true;
+                    } else {
+                        n = q + 1;
                     }
-                    last = k + 1;
                 }
-            }
-            w += last - s;
+            });
+            let s = self.walk_start(i);
+            w += n.max(s) - s;
         }
         (w as u64 + self.total_cases) as f64
     }
 
-    /// Runs chance runs one at a time until `min_ms` passed on `clock()`
+    /// Runs chance runs one at a time (case–control data on compact
+    /// circles: a batch of up to eight, which one pass over the lists
+    /// serves) until `min_ms` passed on `clock()`
     /// (milliseconds) or `max` were run, and estimates from their time
     /// how long the rest take, and the faster settings: fewer chance runs
     /// (999, 199, 99) and a smaller largest circle (25 %, 10 % of the
@@ -831,8 +1029,10 @@ impl ScanJob {
         let before = self.null_max.len();
         let t0 = clock();
         let mut dt = 0.0;
+        let step = if self.compact.is_some() { LANES } else { 1 };
         while self.null_max.len() < self.o.n_sim && self.null_max.len() - before < max.max(1) {
-            self.run_batch(1);
+            let done = self.null_max.len() - before;
+            self.run_batch(step.min(max.max(1) - done));
             dt = clock() - t0;
             if dt >= min_ms {
                 break;
@@ -958,10 +1158,14 @@ impl ScanJob {
             if clusters.len() > self.o.max_secondary {
                 break;
             }
-            let members: Vec<usize> = self.list[self.start[i]..=k]
-                .iter()
-                .map(|&j| j as usize)
-                .collect();
+            let mut members: Vec<usize> = Vec::new();
+            let mut pop = 0.0;
+            self.walk(i, |q, j, p| {
+                if q <= k {
+                    members.push(j);
+                    pop = p;
+                }
+            });
             if members.iter().any(|&j| used[j]) {
                 continue;
             }
@@ -969,7 +1173,14 @@ impl ScanJob {
                 used[j] = true;
             }
             let c: u64 = members.iter().map(|&j| self.regions.cases[j] as u64).sum();
-            let pop = self.pop_at[k];
+            // Radius: the farthest member (the builder's own expression).
+            let (cx, cy) = (self.regions.x[i], self.regions.y[i]);
+            let radius_m = match self.compact {
+                Some(_) => members.last().map_or(0.0, |&j| {
+                    ((self.regions.x[j] - cx).powi(2) + (self.regions.y[j] - cy).powi(2)).sqrt()
+                }),
+                None => self.dist_at[k],
+            };
             let e = match self.model {
                 ScanModel::Bernoulli => cc * pop / self.total_pop,
                 _ => cc * pop / self.total_pop,
@@ -984,7 +1195,7 @@ impl ScanJob {
                 centre_region: i,
                 centre_x: self.regions.x[i],
                 centre_y: self.regions.y[i],
-                radius_m: self.dist_at[k],
+                radius_m,
                 regions: members,
                 observed: c,
                 expected: e,
@@ -1273,5 +1484,7 @@ fn grid_regions(
 
 #[cfg(test)]
 mod tests;
+#[cfg(test)]
+mod tests_compact;
 #[cfg(test)]
 mod tests_population;

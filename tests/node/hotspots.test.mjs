@@ -242,6 +242,25 @@ test('scan: the same seed gives the same answer; another seed changes the replic
   assert.equal(a.seed, 123456789);
 });
 
+test('scan: cases against controls are centred on every place up to 5,000 places (auto), on grid cells when asked', () => {
+  const s = demo({ controls: true });
+  const places = s.scanStart({ n_sim: 9, seed: 3 });
+  const auto = s.scanFinish();
+  // The demo has 1,500 cases and 3,000 controls (demo-data/README.md): at most 4,500 places.
+  assert.equal(auto.cell_m, null);
+  assert.equal(auto.n_regions, places.n_regions);
+  assert.ok(auto.n_regions > 2000 && auto.n_regions <= 4500, `${auto.n_regions} places`);
+  s.scanStart({ n_sim: 9, seed: 3, centres: 'events' });
+  assert.deepEqual(s.scanFinish(), auto);
+  s.scanStart({ n_sim: 9, seed: 3, centres: 'grid' });
+  const grid = s.scanFinish();
+  assert.ok(grid.cell_m > 0 && grid.n_regions < auto.n_regions);
+  // An unknown choice is an error naming the option, never a silent default.
+  const e = throws(() => s.scanStart({ centres: 'everywhere' }));
+  assert.ok(['bad_options', 'bad_parameter'].includes(e.code), e.code);
+  assert.match(e.message, /centres/);
+});
+
 test('scan: starting again drops a half-run job; finishing twice is refused', () => {
   const s = demo({ controls: true });
   const full = runScan(s, { n_sim: 39, seed: 5 });

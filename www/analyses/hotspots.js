@@ -390,6 +390,13 @@ export function mountHotspots(C) {
   const shareIn = input('hs-share', { type: 'number', step: 'any', 'data-param': 'scanStart.max_share', 'data-param-scale': '100' });
   const simIn = input('hs-sims', { type: 'number', 'data-param': 'scanStart.n_sim' });
   const seedIn = input('hs-seed', { type: 'number', min: '0', step: '1' });
+  // Where circles are centred: every place (exact, slower with many places)
+  // or the cells of a grid; automatic picks from the number of places.
+  const centresIn = select('hs-scan-centres', [
+    ['auto', 'automatic: every place when there are not too many, else a grid'],
+    ['events', 'at every place (exact)'],
+    ['grid', 'at the cells of a grid (faster)'],
+  ], 'auto');
   const seedBtn = el('button', { type: 'button', class: 'linklike', id: 'hs-new-seed' }, 'new seed');
   const scanBtn = el('button', { type: 'button', id: 'hs-scan-run', disabled: true }, 'Run the scan');
   const cancelBtn = el('button', { type: 'button', id: 'hs-scan-cancel', class: 'quiet', disabled: true }, 'Cancel');
@@ -423,6 +430,7 @@ export function mountHotspots(C) {
     el('div', { class: 'hs-form' },
       field('Biggest circle may hold', el('span', { class: 'hs-inline' }, shareIn, el('span', { class: 'hint' }, '% of the people at risk (of the area without a population file)'))),
       field('Chance runs', simIn, '999 is usual; each is a full search on a chance pattern'),
+      wide(field('Circles centred', centresIn, 'Every place is exact; a grid is quicker with many places. The time is estimated before the chance runs start.')),
       field('Seed', el('span', { class: 'hs-inline' }, seedIn, seedBtn), 'The same seed and settings give the same answer.')),
     el('div', { class: 'hs-buttons' }, scanBtn, cancelBtn, bar, barText),
     askBox,
@@ -435,6 +443,10 @@ export function mountHotspots(C) {
     // The engine picks the model from what is loaded (hotspotsInfo.scan_model).
     const model = info.scan_model || (info.has_controls ? 'bernoulli' : 'poisson');
     modelText.dataset.model = model;
+    // Against area every circle needs cells (each with its area).
+    const atPlaces = centresIn.querySelector('option[value="events"]');
+    atPlaces.disabled = model === 'poisson';
+    if (atPlaces.disabled && centresIn.value === 'events') centresIn.value = 'auto';
     modelText.replaceChildren(...(model === 'poisson_population'
       ? ['Model: cases against the population counts (', C.term('poisson_population', 'Poisson'), '). The population file gives a number of people at each point; a circle is expected to hold the cases\u2019 share of the people in it. Each case is counted at its nearest population point, and circles are centred at the population points.']
       : model === 'bernoulli'
@@ -471,7 +483,7 @@ export function mountHotspots(C) {
     if (!(share > 0 && share <= maxPct)) { C.showError('Cannot run the scan', { message: `the largest circle must hold more than 0 and at most ${maxPct} % of the population.` }); return; }
     if (!(nSim >= simLo && nSim <= simHi)) { C.showError('Cannot run the scan', { message: `chance runs must be from ${fmt(simLo)} to ${fmt(simHi)} (999 is usual).` }); return; }
     if (!(Number.isInteger(seed) && seed >= 0 && seed <= lim('seed').max)) { C.showError('Cannot run the scan', { message: 'the seed must be a whole number, 0 or more.' }); return; }
-    const params = { max_share: share / 100, n_sim: nSim, seed };
+    const params = { max_share: share / 100, n_sim: nSim, seed, centres: centresIn.value };
     scanBtn.disabled = true;
     cancelBtn.disabled = false;
     bar.hidden = false;
@@ -486,9 +498,17 @@ export function mountHotspots(C) {
     let perRun = NaN; // ms per chance run, measured when the scan started
     let workers = 1; // the chance runs are spread over this many workers
     // Chance run j is the same on any worker, so the result equals one worker's.
+    // Batches and pieces of whole eights: one pass over the circles of
+    // cases against controls serves eight chance runs.
     const parallel = { share: 'scanShare', helperStart: 'scanHelperStart', simulate: 'scanSimulate', add: 'scanAdd' };
-    const job = C.runJob({ start: 'scanStart', step: 'scanStep', finish: 'scanFinish', params, confirm_above_ms: C.longRunMs, parallel }, (p) => {
+    const job = C.runJob({ start: 'scanStart', step: 'scanStep', finish: 'scanFinish', params, confirm_above_ms: C.longRunMs, parallel, batchMultiple: 8, startProgress: true }, (p) => {
       if (state.job !== job) return;
+      if (typeof p.fraction === 'number' && p.total === undefined) {
+        // The circles being built (long with many places).
+        bar.value = Math.min(1, p.fraction);
+        barText.textContent = `Setting up the circles\u2026 ${Math.round(Math.min(1, p.fraction) * 100)} %`;
+        return;
+      }
       const done = num(p.done), total = num(p.total);
       if (p.started && p.started.cost) {
         perRun = num(p.started.cost.replicate_ms);

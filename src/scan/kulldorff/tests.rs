@@ -117,12 +117,12 @@ fn explicit_max(job: &ScanJob, cases: &[u32]) -> f64 {
     let mut t = 0.0f64;
     for i in 0..job.regions.x.len() {
         let mut c = 0u64;
-        for k in job.start[i]..job.start[i + 1] {
-            c += cases[job.list[k] as usize] as u64;
-            if job.pop_at[k].is_finite() {
-                t = t.max(job.llr(c as f64, job.pop_at[k]));
+        job.walk(i, |_, j, p| {
+            c += cases[j] as u64;
+            if p.is_finite() {
+                t = t.max(job.llr(c as f64, p));
             }
-        }
+        });
     }
     t
 }
