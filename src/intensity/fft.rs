@@ -151,8 +151,23 @@ pub(crate) fn autocorrelation(mask: &[bool], nx: usize, ny: usize) -> (Vec<f64>,
 
 /// [`autocorrelation`] of a real raster.
 pub(crate) fn autocorrelation_of(v: &[f64], nx: usize, ny: usize) -> (Vec<f64>, usize, usize) {
-    let px = (2 * nx).next_power_of_two();
-    let py = (2 * ny).next_power_of_two();
+    autocorrelation_within(v, nx, ny, nx, ny)
+}
+
+/// [`autocorrelation_of`] needed only at lags |a| ≤ `lx`, |b| ≤ `ly`: the
+/// FFT is padded to `px = (nx + lx).next_power_of_two()` (likewise py),
+/// the least size at which no lag in that range aliases with another lag
+/// of the raster (lags outside it may). `lx = nx`, `ly = ny` gives every
+/// lag.
+pub(crate) fn autocorrelation_within(
+    v: &[f64],
+    nx: usize,
+    ny: usize,
+    lx: usize,
+    ly: usize,
+) -> (Vec<f64>, usize, usize) {
+    let px = (nx + lx.min(nx)).max(1).next_power_of_two();
+    let py = (ny + ly.min(ny)).max(1).next_power_of_two();
     let mut re = vec![0.0; px * py];
     let mut im = vec![0.0; px * py];
     for j in 0..ny {
