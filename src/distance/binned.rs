@@ -72,6 +72,9 @@ pub const FFT_SIDE: usize = 1024;
 pub const STATED_RELATIVE_ERROR: f64 = 1e-3;
 /// See [`STATED_RELATIVE_ERROR`].
 pub const STATED_FROM_CELLS: f64 = 20.0;
+/// The same for g (at distances of at least [`STATED_FROM_CELLS`] cells and
+/// the kernel half-width): larger, because g's kernel is about a cell wide.
+pub const STATED_G_RELATIVE_ERROR: f64 = 1e-2;
 
 /// Subintervals of a lag's distance range for the kernel expectations of g.
 const G_SUB: usize = 24;
@@ -207,7 +210,10 @@ impl Binned {
     /// Grid and lag table for the context's window and distances. The
     /// context must use the translation correction (for K, and for g when
     /// asked).
-    pub(crate) fn new(ctx: &Context, needs: Needs) -> Result<Binned, AnalysisError> {
+    pub(crate) fn new(ctx: &Context, needs: Needs, side: usize) -> Result<Binned, AnalysisError> {
+        if !(side.is_power_of_two() && (64..=4096).contains(&side)) {
+            return Err(bad("the grid side must be a power of two from 64 to 4096"));
+        }
         if !(needs.k || needs.pcf) || needs.g || needs.f {
             return Err(bad("the grid estimator computes K, L and g only"));
         }
@@ -226,9 +232,9 @@ impl Binned {
         let [bx0, by0, bx1, by1] = ctx.region.bbox();
         let (w, hgt) = (bx1 - bx0, by1 - by0);
         let long = w.max(hgt);
-        let cell = (long + reach.min(long)) / (FFT_SIDE - 5) as f64;
-        let nx = ((w / cell).ceil() as usize).clamp(1, FFT_SIDE);
-        let ny = ((hgt / cell).ceil() as usize).clamp(1, FFT_SIDE);
+        let cell = (long + reach.min(long)) / (side - 5) as f64;
+        let nx = ((w / cell).ceil() as usize).clamp(1, side);
+        let ny = ((hgt / cell).ceil() as usize).clamp(1, side);
         let lmax = (reach / cell).ceil() as usize + 2;
         let (lx, ly) = (lmax.min(nx - 1), lmax.min(ny - 1));
         let r = ctx.r.clone();
@@ -462,7 +468,8 @@ pub struct BinnedFunctions {
 }
 
 /// K, L and g with the translation correction from binned counts (see the
-/// module docs).
+/// module docs), on a grid whose padded FFT is `fft_side` per axis
+/// ([`FFT_SIDE`] in the page; a power of two from 64 to 4096).
 ///
 /// # Errors
 /// `TooFewPoints` for fewer than 2 events; `BadParameter` for a bad
@@ -471,6 +478,7 @@ pub fn binned_functions(
     pattern: &Pattern,
     window: &Window,
     params: &FunctionParams,
+    fft_side: usize,
 ) -> Result<BinnedFunctions, AnalysisError> {
     if params.correction != Correction::Translation {
         return Err(bad(
@@ -484,7 +492,7 @@ pub fn binned_functions(
         ..Default::default()
     };
     let ctx = Context::new(region, pattern.len(), params, needs)?;
-    let b = Binned::new(&ctx, needs)?;
+    let b = Binned::new(&ctx, needs, fft_side)?;
     let c = b.compute(pattern.x(), pattern.y(), needs);
     Ok(BinnedFunctions {
         r: ctx.r.clone(),

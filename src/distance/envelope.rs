@@ -287,7 +287,7 @@ impl EnvelopeSimulator {
         functions.correction = choice.correction;
         let ctx = Context::new(region, share.n, &functions, needs)?;
         let binned = match choice.estimator {
-            Estimator::Binned => Some(Binned::new(&ctx, needs)?),
+            Estimator::Binned => Some(Binned::new(&ctx, needs, share.params.binned_fft_side)?),
             _ => None,
         };
         Ok(EnvelopeSimulator {
@@ -412,6 +412,7 @@ impl EnvelopeOptions {
             reference: self.reference,
             r_min: self.r_min_m,
             estimator: self.estimator,
+            binned_fft_side: d.binned_fft_side,
             functions: FunctionParams {
                 r_max: self.r_max_m,
                 n_steps: self.n_steps,
@@ -560,6 +561,11 @@ pub struct EnvelopeParams {
     pub r_min: Option<f64>,
     /// How the pairs of K, L and g are counted (default auto).
     pub estimator: Estimator,
+    /// Padded FFT side of the grid estimator (default
+    /// [`super::binned::FFT_SIDE`]; a power of two from 64 to 4096). Not
+    /// a JS option: the page always uses the default; tests and
+    /// benchmarks use smaller grids to stay quick.
+    pub binned_fft_side: usize,
     pub functions: FunctionParams,
 }
 
@@ -573,6 +579,7 @@ impl Default for EnvelopeParams {
             reference: Reference::Theoretical,
             r_min: None,
             estimator: Estimator::Auto,
+            binned_fft_side: super::binned::FFT_SIDE,
             functions: FunctionParams::default(),
         }
     }
@@ -690,7 +697,7 @@ impl EnvelopeJob {
         functions.correction = choice.correction;
         let ctx = Context::new(region, x.len(), &functions, needs)?;
         let binned = match choice.estimator {
-            Estimator::Binned => Some(Binned::new(&ctx, needs)?),
+            Estimator::Binned => Some(Binned::new(&ctx, needs, params.binned_fft_side)?),
             _ => None,
         };
         let c = curves_of(&ctx, binned.as_ref(), x, y, needs);
