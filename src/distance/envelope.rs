@@ -140,11 +140,11 @@ pub const AUTO_BINNED_PAIRS: f64 = 6.0e7;
 /// The estimator a run uses, after `auto` is settled, with the reason in
 /// words.
 #[derive(Debug, Clone)]
-struct Choice {
-    estimator: Estimator,
-    reason: String,
+pub(crate) struct Choice {
+    pub estimator: Estimator,
+    pub reason: String,
     /// The correction the run uses (translation with the grid).
-    correction: Correction,
+    pub correction: Correction,
 }
 
 fn binned_allowed(f: SummaryFunction) -> bool {
@@ -156,7 +156,7 @@ fn binned_allowed(f: SummaryFunction) -> bool {
 
 /// Settles `auto` (from the pairs of the observed events within r_max) and
 /// checks an explicit choice.
-fn choose(
+pub(crate) fn choose(
     params: &EnvelopeParams,
     region: &Window,
     x: &[f64],
