@@ -334,6 +334,22 @@ fn simulate_curves(
 ) -> Vec<f64> {
     let to = to.min(params.n_sim);
     let mut out = Vec::with_capacity(to.saturating_sub(from) * ctx.r.len());
+    let draw = |j: usize| {
+        ctx.region
+            .sample_uniform(ctx.n, &mut stream_rng(params.seed, j as u64))
+    };
+    let mut from = from;
+    if let Some(b) = binned {
+        // Two simulations per FFT; each still from its own stream, and the
+        // curves are exactly those of one at a time (Binned::lag_counts).
+        while from + 1 < to {
+            let ((x1, y1), (x2, y2)) = (draw(from), draw(from + 1));
+            let (c1, c2) = b.compute_pair((&x1, &y1), (&x2, &y2), needs);
+            out.extend(select(params.function, c1));
+            out.extend(select(params.function, c2));
+            from += 2;
+        }
+    }
     for j in from..to {
         let mut rng = stream_rng(params.seed, j as u64);
         let (x, y) = ctx.region.sample_uniform(ctx.n, &mut rng);
