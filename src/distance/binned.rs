@@ -261,7 +261,7 @@ impl Binned {
             r,
             area: ctx.region.area(),
         };
-        let mut fs = vec![0.0; G_SUB + 1];
+        let mut fs = [0.0; G_SUB + 1];
         for dy in 0..=ly as i32 {
             for dx in -(lx as i32)..=lx as i32 {
                 if dy == 0 && dx < 0 {

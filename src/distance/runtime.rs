@@ -25,6 +25,12 @@
 //!    complete spatial randomness). G, F and J visit no pairs: their time
 //!    is scaled by the number of events.
 //!
+//! With the grid estimator (`estimator` binned, or auto when it chooses the
+//! grid: [`super::envelope::AUTO_BINNED_PAIRS`]) the time does not depend on
+//! the pairs: the lag table once, and per curve a fixed part (one curve of
+//! the subsample's simulated events: the FFT) plus the time to draw n events
+//! (drawing the subsample's events timed alone, scaled by n/m).
+//!
 //! One run then takes one observed curve plus n_sim simulated ones shared
 //! by the workers. The faster settings offered are fewer simulations (99,
 //! 39), a largest distance chosen so that the run takes about
@@ -444,7 +450,7 @@ fn binned_cost(
     let ctx = Context::new(region.clone(), n, &fp, needs)?;
     let table = super::binned::Binned::new(&ctx, needs, p.binned_fft_side)?;
     let table_ms = (clock() - t0).max(0.0);
-    let m = n.min(PROBE_EVENTS).max(8);
+    let m = n.clamp(8, PROBE_EVENTS);
     let mut j = 1u64;
     // The fixed part: a whole curve of m simulated events (the FFT
     // dominates; the m events' own share is negligible beside it).
