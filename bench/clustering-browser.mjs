@@ -26,6 +26,87 @@ function makeCsv(n, seed) {
   return parts.join('');
 }
 
+// Large patterns: `node bench/clustering-browser.mjs large [n] [n_sim]`
+// (default 100000 199): CSR events in an invented polygon with a hole
+// (1000 m square with a corner cut, triangular hole), loaded as a boundary
+// file; L envelope, translation correction, r up to 250 m (a quarter of the
+// shorter side), pairs counted on the fine grid, helper workers as the page
+// uses them (target under 60 s). Then, at 10,000 events: the observed L of
+// every pair against the grid's (largest relative error from 20 cells on,
+// same settings), and 199-simulation runs both ways, timed side by side.
+const OUTER = [[0, 0], [1000, 0], [1000, 700], [600, 1000], [0, 1000]];
+const HOLE = [[400, 400], [550, 400], [500, 600]];
+function inRing(x, y, ring) {
+  let inside = false;
+  for (let i = 0, j = ring.length - 1; i < ring.length; j = i++) {
+    const [xi, yi] = ring[i];
+    const [xj, yj] = ring[j];
+    if ((yi > y) !== (yj > y) && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
+  }
+  return inside;
+}
+function makeHoleCsv(n, seed) {
+  let s = BigInt(seed);
+  const next = () => {
+    s = (s * 6364136223846793005n + 1442695040888963407n) & 0xffffffffffffffffn;
+    return Number(s >> 11n) / 2 ** 53;
+  };
+  const parts = ['id,x,y\n'];
+  for (let i = 0; i < n;) {
+    const x = 1000 * next();
+    const y = 1000 * next();
+    if (inRing(x, y, OUTER) && !inRing(x, y, HOLE)) parts.push(`${i++},${x.toFixed(3)},${y.toFixed(3)}\n`);
+  }
+  return parts.join('');
+}
+
+async function loadHole(browser, n) {
+  const { page } = await openPage(browser);
+  const ring = (r) => [...r, r[0]];
+  const area = { type: 'Polygon', coordinates: [ring(OUTER), ring(HOLE)] };
+  await page.setInputFiles('#area-file', { name: 'hole.geojson', mimeType: 'application/geo+json', buffer: Buffer.from(JSON.stringify(area)) });
+  await page.waitForFunction(() => document.body.dataset.busy === '0', null, { timeout: 120000 });
+  await page.setInputFiles('#events-file', { name: `hole-${n}.csv`, mimeType: 'text/csv', buffer: Buffer.from(makeHoleCsv(n, 42)) });
+  const want = `hole-${n}.csv: ${n.toLocaleString('en-US')} of`;
+  await page.waitForFunction((w) => document.getElementById('status').textContent.includes(w), want, { timeout: 300000 });
+  await page.waitForFunction(() => document.body.dataset.busy === '0', null, { timeout: 120000 });
+  return page;
+}
+
+/** One run without helpers, returning the result (for the observed curves). */
+async function observed(page, params) {
+  return page.evaluate(async (params) => {
+    const res = await window.Cloister.runJob({ start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish', params }, () => {}).promise;
+    return { r: res.r, observed: res.observed, cell_m: res.cell_m, estimator: res.estimator };
+  }, params);
+}
+
+if (process.argv[2] === 'large') {
+  const nLarge = Number(process.argv[3]) || 100000;
+  const sims = Number(process.argv[4]) || 199;
+  const browser = await launch();
+  try {
+    const base = { function: 'l', correction: 'translation', r_max_m: 250, n_steps: 50, seed: 7 };
+    const page = await loadHole(browser, nLarge);
+    const big = await timeJob(page, { ...base, n_sim: sims, estimator: 'binned' });
+    console.log(JSON.stringify({ where: 'chromium page (worker + helpers)', what: 'L envelope on a fine grid', window: 'polygon with a hole, 1000 m', estimator: 'binned', ...big, target_s: 60 }));
+    const small = await loadHole(browser, 10000);
+    const a = await observed(small, { ...base, n_sim: 1, estimator: 'exact' });
+    const b = await observed(small, { ...base, n_sim: 1, estimator: 'binned' });
+    let worst = 0;
+    for (let i = 1; i < a.r.length; i++) {
+      if (a.r[i] >= 20 * b.cell_m) worst = Math.max(worst, Math.abs(b.observed[i] - a.observed[i]) / a.observed[i]);
+    }
+    console.log(JSON.stringify({ where: 'chromium page', what: 'observed L, grid against every pair, 10,000 events', cell_m: b.cell_m, from_m: 20 * b.cell_m, max_relative_error: worst }));
+    const exact = await timeJob(small, { ...base, n_sim: sims, estimator: 'exact' });
+    const grid = await timeJob(small, { ...base, n_sim: sims, estimator: 'binned' });
+    console.log(JSON.stringify({ where: 'chromium page (worker + helpers)', what: `L envelope, 10,000 events, ${sims} simulations`, exact_s: exact.seconds, binned_s: grid.seconds, ratio_exact_over_binned: exact.seconds / grid.seconds }));
+  } finally {
+    await browser.close();
+  }
+  process.exit(0);
+}
+
 const args = process.argv.slice(2);
 const n = Number(args[0]) || 10000;
 const nSim = Number(args[1]) || 199;

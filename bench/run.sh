@@ -27,6 +27,11 @@ echo "== clustering: our K against scipy's cKDTree.count_neighbors (same points,
 cargo run --quiet --release --example bench_clustering -- export
 python3 bench/clustering_vs_scipy.py
 echo "== clustering envelopes: headless Chromium page (worker)"; node bench/clustering-browser.mjs 10000 199 k l demo
+echo "== clustering, large patterns: pairs on a fine grid, native (release): error against every pair, and time"
+cargo run --quiet --release --example bench_clustering -- binned-error
+cargo run --quiet --release --example bench_clustering -- binned 199
+echo "== clustering, large patterns: 100,000 events on a fine grid in the page, and every pair against the grid at 10,000"
+node bench/clustering-browser.mjs large 100000 199
 echo "== a 200,000-event file in the page, step by step (headless Chromium)"
 node bench/walk-200k.mjs 200000
 echo "== memory when the same 1,000,000-row file is chosen six times (headless Chromium)"

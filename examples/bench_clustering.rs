@@ -12,8 +12,8 @@
 //! `bench/clustering_vs_scipy.py`, and prints our single-pattern K timing.
 
 use cloister::distance::{
-    distance_functions, simulate_csr, Correction, EnvelopeJob, EnvelopeParams, FunctionParams,
-    SummaryFunction,
+    distance_functions, simulate_csr, Correction, EnvelopeJob, EnvelopeParams, Estimator,
+    FunctionParams, SummaryFunction,
 };
 use cloister::window::{Window, WindowOrigin};
 use std::time::Instant;
@@ -156,6 +156,53 @@ fn main() {
         );
         return;
     }
+    if args.get(1).map(String::as_str) == Some("binned-error") {
+        binned_error();
+        return;
+    }
+    if args.get(1).map(String::as_str) == Some("binned") {
+        // L envelope, translation correction, polygon with a hole, r up to
+        // a quarter of the shorter side: every pair against the grid at
+        // 10,000 events, and the grid at 100,000 (`binned [n_sim]`).
+        let n_sim: usize = args.get(2).and_then(|a| a.parse().ok()).unwrap_or(19);
+        let hole = with_hole(1000.0);
+        let run = |n: usize, e: Estimator, threads: usize| {
+            let p = simulate_csr(&hole, n, 42).expect("points");
+            let params = EnvelopeParams {
+                function: SummaryFunction::L,
+                n_sim,
+                seed: 7,
+                estimator: e,
+                functions: FunctionParams {
+                    n_steps: 50,
+                    r_max: Some(250.0),
+                    correction: Correction::Translation,
+                    ..Default::default()
+                },
+                ..Default::default()
+            };
+            let t = Instant::now();
+            let mut job = EnvelopeJob::new(&p, &hole, &params).expect("job");
+            let t_start = t.elapsed().as_secs_f64();
+            while job.run_batch_parallel(10 * threads, threads) < job.total() {}
+            let res = job.finish();
+            let secs = t.elapsed().as_secs_f64();
+            println!(
+                "{}",
+                serde_json::json!({
+                    "n": n, "n_sim": n_sim, "threads": threads, "estimator": res.estimator,
+                    "cell_m": res.cell_m, "seconds_start": t_start, "seconds_total": secs,
+                    "ms_per_simulated_pattern": 1000.0 * (secs - t_start) / n_sim as f64,
+                    "mad_p": res.mad.p_value, "dclf_p": res.dclf.p_value
+                })
+            );
+        };
+        run(10_000, Estimator::Exact, 1);
+        run(10_000, Estimator::Binned, 1);
+        run(100_000, Estimator::Binned, 1);
+        run(100_000, Estimator::Binned, 2);
+        return;
+    }
     let sq = square(1000.0);
     if args.get(1).map(String::as_str) == Some("square") {
         // One path at a time, for profiling: `square iso` or `square none`
@@ -232,4 +279,66 @@ fn main() {
         199,
         cores,
     );
+}
+
+/// The grid (binned) estimator against the exact translation estimator on
+/// 10,000 events in the polygon with a hole (CSR and Thomas, seeded): the
+/// largest relative error of K, L and g at distances of at least c cells,
+/// and the time of one pattern each way.
+fn binned_error() {
+    use cloister::distance::binned::binned_functions;
+    use cloister::distance::{simulate_thomas, ThomasParams};
+    let w = with_hole(1000.0);
+    let params = FunctionParams {
+        n_steps: 50,
+        correction: Correction::Translation,
+        ..Default::default()
+    };
+    let area = w.area();
+    let csr = simulate_csr(&w, 10_000, 7).expect("csr");
+    // Thomas: 100 parents, σ = 15 m, about 10,000 events.
+    let thomas = simulate_thomas(
+        &w,
+        ThomasParams {
+            kappa: 100.0 / area,
+            mu: 100.0,
+            sigma: 15.0,
+        },
+        8,
+    )
+    .expect("thomas");
+    for (name, p) in [("csr", &csr), ("thomas", &thomas)] {
+        let t = Instant::now();
+        let exact = distance_functions(p, &w, &params).expect("exact");
+        let t_exact = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let b =
+            binned_functions(p, &w, &params, cloister::distance::binned::FFT_SIDE).expect("binned");
+        let t_binned = t.elapsed().as_secs_f64();
+        let rel = |a: f64, e: f64| ((a - e) / e).abs();
+        let mut rows = Vec::new();
+        for c in [1.0, 2.0, 3.0, 5.0, 10.0, 20.0, 50.0] {
+            let (mut k, mut l, mut g) = (0.0f64, 0.0f64, 0.0f64);
+            for i in 1..b.r.len() {
+                if b.r[i] / b.cell_m < c {
+                    continue;
+                }
+                k = k.max(rel(b.k[i], exact.k[i]));
+                l = l.max(rel(b.l[i], exact.l[i]));
+                if b.r[i] >= exact.bandwidth_m {
+                    g = g.max(rel(b.pcf[i], exact.pcf[i]));
+                }
+            }
+            rows.push(serde_json::json!({"from_cells": c, "k": k, "l": l, "g": g}));
+        }
+        println!(
+            "{}",
+            serde_json::json!({
+                "pattern": name, "n": p.len(), "cell_m": b.cell_m, "r_max": exact.r_max,
+                "bandwidth_m": exact.bandwidth_m,
+                "seconds_exact_all_functions": t_exact, "seconds_binned_k_g": t_binned,
+                "max_relative_error_from": rows
+            })
+        );
+    }
 }

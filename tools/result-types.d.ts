@@ -367,6 +367,8 @@ export interface EnvelopeCost {
   probe_events: number;
   probe_ms: number;
   faster: FasterSetting[];
+  /** The estimator the run will use (`auto` settled as the run settles it). */
+  estimator: 'exact' | 'binned';
 }
 
 export interface EnvelopeStarted {
@@ -426,6 +428,16 @@ export interface EnvelopeResult {
   r_max_rule: string;
   bandwidth_m: number;
   capped_weights: number;
+  /** How the pairs were counted: every pair, or on a fine grid. */
+  estimator: 'exact' | 'binned';
+  /** Why, in words (the automatic rule when `auto` chose). */
+  estimator_reason: string;
+  /** Grid cell side, m (binned only). */
+  cell_m: number | null;
+  /** Relative error of the binned K, L and g against counting every pair that the tests check (binned only)... */
+  binned_relative_error: number | null;
+  /** ...at distances of at least this many m (binned only). */
+  binned_error_from_m: number | null;
   warnings: string[];
   verdict: Verdict;
 }

@@ -33,6 +33,7 @@
 //! ([`super::csr::stream_seed`]), so the result depends only on the seed,
 //! not on batch sizes. Memory: one curve per simulation (m × n_r values).
 
+use super::binned::{Binned, STATED_FROM_CELLS, STATED_RELATIVE_ERROR};
 use super::csr::stream_rng;
 use super::edge::{Correction, NnCorrection};
 use super::functions::{checked_region, gf_theo, j_from, l_from_k, Context, FunctionParams, Needs};
@@ -113,6 +114,130 @@ pub enum Reference {
     SimulationMean,
 }
 
+/// How the pairs of K, L and g are counted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Estimator {
+    /// Exact when the pair work is affordable, else the grid
+    /// ([`AUTO_BINNED_PAIRS`]); default.
+    #[default]
+    Auto,
+    /// Every pair within the largest distance.
+    Exact,
+    /// Counts on a fine grid, translation correction only
+    /// ([`super::binned`]).
+    Binned,
+}
+
+/// `auto` uses the grid estimator for K, L and g when the observed pattern
+/// has more than this many pairs (unordered) within the largest distance
+/// (estimated from cell counts, [`crate::index::GridIndex::estimate_pairs_within`]).
+/// Chosen from measurement (README, clustering performance): at about
+/// 15 ns per pair the exact curve then takes more than about 1 s per
+/// pattern, several times the grid's cost.
+pub const AUTO_BINNED_PAIRS: f64 = 6.0e7;
+
+/// The estimator a run uses, after `auto` is settled, with the reason in
+/// words.
+#[derive(Debug, Clone)]
+pub(crate) struct Choice {
+    pub estimator: Estimator,
+    pub reason: String,
+    /// The correction the run uses (translation with the grid).
+    pub correction: Correction,
+}
+
+fn binned_allowed(f: SummaryFunction) -> bool {
+    matches!(
+        f,
+        SummaryFunction::K | SummaryFunction::L | SummaryFunction::PairCorrelation
+    )
+}
+
+/// Settles `auto` (from the pairs of the observed events within r_max) and
+/// checks an explicit choice.
+pub(crate) fn choose(
+    params: &EnvelopeParams,
+    region: &Window,
+    x: &[f64],
+    y: &[f64],
+) -> Result<Choice, AnalysisError> {
+    let f = params.function;
+    let c = params.functions.correction;
+    let bad = |d: String| AnalysisError::BadParameter {
+        name: "estimator".into(),
+        detail: d,
+    };
+    match params.estimator {
+        Estimator::Exact => Ok(Choice {
+            estimator: Estimator::Exact,
+            reason: "every pair (chosen)".into(),
+            correction: c,
+        }),
+        Estimator::Binned => {
+            if !binned_allowed(f) {
+                return Err(bad(format!(
+                    "the grid estimator computes K, L and g only (function is {})",
+                    f.label()
+                )));
+            }
+            if c != Correction::Translation {
+                return Err(bad(format!(
+                    "the grid estimator uses the translation correction only: set correction to translation (it is {})",
+                    serde_json::to_value(c).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default()
+                )));
+            }
+            Ok(Choice {
+                estimator: Estimator::Binned,
+                reason: "counts on a fine grid (chosen)".into(),
+                correction: c,
+            })
+        }
+        Estimator::Auto => {
+            let exact = |why: &str| Choice {
+                estimator: Estimator::Exact,
+                reason: format!("every pair (automatic: {why})"),
+                correction: c,
+            };
+            if !binned_allowed(f) {
+                return Ok(exact("G, F and J always count exactly"));
+            }
+            if !matches!(c, Correction::Isotropic | Correction::Translation) {
+                return Ok(exact(
+                    "the grid estimator has only the translation correction",
+                ));
+            }
+            let r_max = params
+                .functions
+                .r_max
+                .unwrap_or_else(|| super::functions::default_r_max(region).0);
+            let grid = crate::index::GridIndex::with_cell(x, y, r_max / 4.0);
+            let pairs = grid.estimate_pairs_within(r_max);
+            if pairs <= AUTO_BINNED_PAIRS {
+                return Ok(exact(&format!(
+                    "about {} pairs within the largest distance, at most {}",
+                    crate::params::num(pairs.round()),
+                    crate::params::num(AUTO_BINNED_PAIRS)
+                )));
+            }
+            let switched = if c == Correction::Isotropic {
+                "; the translation correction replaces the isotropic one"
+            } else {
+                ""
+            };
+            Ok(Choice {
+                estimator: Estimator::Binned,
+                reason: format!(
+                    "counts on a fine grid (automatic: about {} pairs within the largest distance, more than {}{switched})",
+                    crate::params::num(pairs.round()),
+                    crate::params::num(AUTO_BINNED_PAIRS)
+                ),
+                correction: Correction::Translation,
+            })
+        }
+    }
+}
+
 /// What a helper needs to simulate for a run: the study area, the number
 /// of events and the parameters (never the event locations). See
 /// [`EnvelopeJob::share`] and [`EnvelopeSimulator`].
@@ -131,6 +256,7 @@ pub struct EnvelopeSimulator {
     ctx: Context,
     needs: Needs,
     params: EnvelopeParams,
+    binned: Option<Binned>,
 }
 
 impl EnvelopeSimulator {
@@ -145,23 +271,62 @@ impl EnvelopeSimulator {
             detail: e.to_string(),
         })?;
         check_params(&share.params)?;
+        // A job's share has `auto` settled; a share from elsewhere that
+        // still says `auto` is simulated exactly (it carries no events).
+        let choice = if share.params.estimator == Estimator::Auto {
+            Choice {
+                estimator: Estimator::Exact,
+                reason: String::new(),
+                correction: share.params.functions.correction,
+            }
+        } else {
+            choose(&share.params, &region, &[], &[])?
+        };
         let needs = share.params.function.needs();
-        let ctx = Context::new(region, share.n, &share.params.functions, needs)?;
+        let mut functions = share.params.functions.clone();
+        functions.correction = choice.correction;
+        let ctx = Context::new(region, share.n, &functions, needs)?;
+        let binned = match choice.estimator {
+            Estimator::Binned => Some(Binned::new(&ctx, needs, share.params.binned_fft_side)?),
+            _ => None,
+        };
         Ok(EnvelopeSimulator {
             ctx,
             needs,
             params: share.params.clone(),
+            binned,
         })
     }
 
     /// Curves of simulations `from..to`, row after row.
     pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
-        simulate_curves(&self.ctx, self.needs, &self.params, from, to)
+        simulate_curves(
+            &self.ctx,
+            self.binned.as_ref(),
+            self.needs,
+            &self.params,
+            from,
+            to,
+        )
+    }
+}
+
+fn curves_of(
+    ctx: &Context,
+    binned: Option<&Binned>,
+    x: &[f64],
+    y: &[f64],
+    needs: Needs,
+) -> super::functions::Curves {
+    match binned {
+        Some(b) => b.compute(x, y, needs),
+        None => ctx.compute(x, y, needs),
     }
 }
 
 fn simulate_curves(
     ctx: &Context,
+    binned: Option<&Binned>,
     needs: Needs,
     params: &EnvelopeParams,
     from: usize,
@@ -169,10 +334,29 @@ fn simulate_curves(
 ) -> Vec<f64> {
     let to = to.min(params.n_sim);
     let mut out = Vec::with_capacity(to.saturating_sub(from) * ctx.r.len());
+    let draw = |j: usize| {
+        ctx.region
+            .sample_uniform(ctx.n, &mut stream_rng(params.seed, j as u64))
+    };
+    let mut from = from;
+    if let Some(b) = binned {
+        // Two simulations per FFT; each still from its own stream, and the
+        // curves are exactly those of one at a time (Binned::lag_counts).
+        while from + 1 < to {
+            let ((x1, y1), (x2, y2)) = (draw(from), draw(from + 1));
+            let (c1, c2) = b.compute_pair((&x1, &y1), (&x2, &y2), needs);
+            out.extend(select(params.function, c1));
+            out.extend(select(params.function, c2));
+            from += 2;
+        }
+    }
     for j in from..to {
         let mut rng = stream_rng(params.seed, j as u64);
         let (x, y) = ctx.region.sample_uniform(ctx.n, &mut rng);
-        out.extend(select(params.function, ctx.compute(&x, &y, needs)));
+        out.extend(select(
+            params.function,
+            curves_of(ctx, binned, &x, &y, needs),
+        ));
     }
     out
 }
@@ -203,6 +387,8 @@ pub struct EnvelopeOptions {
     pub nn_correction: NnCorrection,
     /// Kernel half-width for g, m (`None`: 0.15/√λ̂).
     pub bandwidth_m: Option<f64>,
+    /// How the pairs of K, L and g are counted.
+    pub estimator: Estimator,
 }
 
 impl Default for EnvelopeOptions {
@@ -225,6 +411,7 @@ impl From<&EnvelopeParams> for EnvelopeOptions {
             correction: p.functions.correction,
             nn_correction: p.functions.nn_correction,
             bandwidth_m: p.functions.bandwidth,
+            estimator: p.estimator,
         }
     }
 }
@@ -240,6 +427,8 @@ impl EnvelopeOptions {
             alpha: self.alpha,
             reference: self.reference,
             r_min: self.r_min_m,
+            estimator: self.estimator,
+            binned_fft_side: d.binned_fft_side,
             functions: FunctionParams {
                 r_max: self.r_max_m,
                 n_steps: self.n_steps,
@@ -300,11 +489,34 @@ impl crate::params::Params for EnvelopeOptions {
             )
             .scale_length(EXTENT_FACTOR)
             .optional(),
+            Field::choice(
+                "estimator",
+                &["auto", "exact", "binned"],
+                "how the pairs of K, L and g are counted: auto (every pair when affordable, else on a fine grid), exact (every pair), binned (on a fine grid; translation correction only)",
+            ),
         ]);
         v
     }
     fn check(&self) -> Result<(), AnalysisError> {
-        check_distance_range(self.r_min_m, self.r_max_m)
+        check_distance_range(self.r_min_m, self.r_max_m)?;
+        if self.estimator == Estimator::Binned {
+            if !binned_allowed(self.function) {
+                return Err(crate::params::bad(
+                    "estimator",
+                    format!(
+                        "binned computes K, L and g only (function is {})",
+                        self.function.label()
+                    ),
+                ));
+            }
+            if self.correction != Correction::Translation {
+                return Err(crate::params::bad(
+                    "estimator",
+                    "binned uses the translation correction only: set correction to translation",
+                ));
+            }
+        }
+        Ok(())
     }
 }
 
@@ -363,6 +575,13 @@ pub struct EnvelopeParams {
     pub reference: Reference,
     /// Start of the test interval in m (default 0; h for g).
     pub r_min: Option<f64>,
+    /// How the pairs of K, L and g are counted (default auto).
+    pub estimator: Estimator,
+    /// Padded FFT side of the grid estimator (default
+    /// [`super::binned::FFT_SIDE`]; a power of two from 64 to 4096). Not
+    /// a JS option: the page always uses the default; tests and
+    /// benchmarks use smaller grids to stay quick.
+    pub binned_fft_side: usize,
     pub functions: FunctionParams,
 }
 
@@ -375,6 +594,8 @@ impl Default for EnvelopeParams {
             alpha: 0.05,
             reference: Reference::Theoretical,
             r_min: None,
+            estimator: Estimator::Auto,
+            binned_fft_side: super::binned::FFT_SIDE,
             functions: FunctionParams::default(),
         }
     }
@@ -424,6 +645,17 @@ pub struct EnvelopeResult {
     pub r_max_rule: String,
     pub bandwidth_m: f64,
     pub capped_weights: u64,
+    /// `exact` or `binned` (never `auto`: the choice made).
+    pub estimator: Estimator,
+    /// Why, in words (the automatic rule when `auto` chose).
+    pub estimator_reason: String,
+    /// Grid cell side in m (binned only).
+    pub cell_m: Option<f64>,
+    /// The relative error of the binned K, L and g against the exact
+    /// translation estimator that the tests check (binned only)...
+    pub binned_relative_error: Option<f64>,
+    /// ...at distances of at least this many m (binned only).
+    pub binned_error_from_m: Option<f64>,
     pub warnings: Vec<String>,
     pub verdict: Verdict,
 }
@@ -446,6 +678,8 @@ pub struct EnvelopeResult {
 /// ```
 pub struct EnvelopeJob {
     ctx: Context,
+    binned: Option<Binned>,
+    choice: Choice,
     needs: Needs,
     params: EnvelopeParams,
     observed: Vec<f64>,
@@ -473,18 +707,33 @@ impl EnvelopeJob {
         params: &EnvelopeParams,
     ) -> Result<EnvelopeJob, AnalysisError> {
         check_params(params)?;
+        let choice = choose(params, &region, x, y)?;
         let needs = params.function.needs();
-        let ctx = Context::new(region, x.len(), &params.functions, needs)?;
-        let c = ctx.compute(x, y, needs);
+        let mut functions = params.functions.clone();
+        functions.correction = choice.correction;
+        let ctx = Context::new(region, x.len(), &functions, needs)?;
+        let binned = match choice.estimator {
+            Estimator::Binned => Some(Binned::new(&ctx, needs, params.binned_fft_side)?),
+            _ => None,
+        };
+        let c = curves_of(&ctx, binned.as_ref(), x, y, needs);
         let capped = c.capped;
         let observed = select(params.function, c);
         let nr = ctx.r.len();
+        // The run's parameters with `auto` settled, so shares simulate
+        // with the same estimator and correction.
+        let mut params = params.clone();
+        params.estimator = choice.estimator;
+        params.functions.correction = choice.correction;
+        let sims = Vec::with_capacity(params.n_sim * nr);
         Ok(EnvelopeJob {
             ctx,
+            binned,
+            choice,
             needs,
-            params: params.clone(),
+            params,
             observed,
-            sims: Vec::with_capacity(params.n_sim * nr),
+            sims,
             done: 0,
             capped,
         })
@@ -493,7 +742,14 @@ impl EnvelopeJob {
     /// Runs up to `k` more simulations; returns how many are done so far.
     pub fn run_batch(&mut self, k: usize) -> usize {
         let end = (self.done + k).min(self.params.n_sim);
-        let curves = simulate_curves(&self.ctx, self.needs, &self.params, self.done, end);
+        let curves = simulate_curves(
+            &self.ctx,
+            self.binned.as_ref(),
+            self.needs,
+            &self.params,
+            self.done,
+            end,
+        );
         self.sims.extend(curves);
         self.done = end;
         self.done
@@ -545,7 +801,14 @@ impl EnvelopeJob {
     /// identical to a single-worker run because simulation j always uses
     /// stream j of the seed.
     pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
-        simulate_curves(&self.ctx, self.needs, &self.params, from, to)
+        simulate_curves(
+            &self.ctx,
+            self.binned.as_ref(),
+            self.needs,
+            &self.params,
+            from,
+            to,
+        )
     }
 
     /// What a helper needs to simulate parts of this run (see
@@ -627,6 +890,7 @@ impl EnvelopeJob {
         );
         let mut warnings = self.ctx.warnings.clone();
         warnings.extend(bands.warnings.iter().cloned());
+        let cell_m = self.binned.as_ref().map(Binned::cell_m);
         if self.capped > 0 {
             warnings.push(format!(
                 "{} pair weights of the observed pattern reached the cap of {}",
@@ -672,6 +936,11 @@ impl EnvelopeJob {
             r_max_rule: self.ctx.r_max_rule.clone(),
             bandwidth_m: self.ctx.bandwidth,
             capped_weights: self.capped,
+            estimator: self.choice.estimator,
+            estimator_reason: self.choice.reason.clone(),
+            cell_m,
+            binned_relative_error: cell_m.map(|_| STATED_RELATIVE_ERROR),
+            binned_error_from_m: cell_m.map(|c| STATED_FROM_CELLS * c),
             warnings,
             verdict,
             r,

@@ -320,6 +320,11 @@ impl Context {
         })
     }
 
+    /// The translation weights, when the correction (of K or g) uses them.
+    pub(crate) fn translation(&self) -> Option<&Translation> {
+        self.translation.as_ref()
+    }
+
     pub fn f_locations(&self) -> usize {
         self.f_x.len()
     }

@@ -13,6 +13,8 @@
 //!   border, none).
 //! * [`functions`]: G, F, J, K, L and the pair correlation g over a grid of
 //!   distances.
+//! * [`binned`]: K, L and g with the translation correction from counts on a
+//!   fine grid (FFT), for large patterns.
 //! * [`envelope`]: Monte Carlo envelopes (pointwise band, global band) and
 //!   the MAD and DCLF global tests, run in batches.
 //! * [`verdict`]: the plain-language answer with its caveats.
@@ -24,6 +26,7 @@
 //! seed is echoed in results.
 
 pub(crate) mod acos;
+pub mod binned;
 pub mod clark_evans;
 pub mod csr;
 pub mod edge;
@@ -40,7 +43,8 @@ pub use csr::{simulate_csr, simulate_matern2, simulate_thomas, stream_seed, Thom
 pub use edge::{Correction, NnCorrection};
 pub use envelope::{
     envelope, monte_carlo_p, EnvelopeJob, EnvelopeOptions, EnvelopeParams, EnvelopeResult,
-    EnvelopeSimulator, GlobalTest, Reference, SimulationShare, SummaryFunction,
+    EnvelopeSimulator, Estimator, GlobalTest, Reference, SimulationShare, SummaryFunction,
+    AUTO_BINNED_PAIRS,
 };
 pub use functions::{distance_functions, DistanceFunctions, FunctionParams};
 pub use quadrat::{quadrat_from_counts, quadrat_test, QuadratParams, QuadratResult, QuadratStats};

@@ -25,6 +25,12 @@
 //!    complete spatial randomness). G, F and J visit no pairs: their time
 //!    is scaled by the number of events.
 //!
+//! With the grid estimator (`estimator` binned, or auto when it chooses the
+//! grid: [`super::envelope::AUTO_BINNED_PAIRS`]) the time does not depend on
+//! the pairs: the lag table once, and per curve a fixed part (one curve of
+//! the subsample's simulated events: the FFT) plus the time to draw n events
+//! (drawing the subsample's events timed alone, scaled by n/m).
+//!
 //! One run then takes one observed curve plus n_sim simulated ones shared
 //! by the workers. The faster settings offered are fewer simulations (99,
 //! 39), a largest distance chosen so that the run takes about
@@ -101,6 +107,9 @@ pub struct EnvelopeCost {
     /// Time the measurement itself took, ms.
     pub probe_ms: f64,
     pub faster: Vec<FasterSetting>,
+    /// The estimator the run will use (`exact` or `binned`, `auto`
+    /// settled as the run settles it).
+    pub estimator: super::envelope::Estimator,
 }
 
 /// Time of a curve as `per_event`·events + `per_pair`·pairs, ms.
@@ -237,6 +246,19 @@ pub fn estimate_envelope_cost(
     let sx: Vec<f64> = idx[..m].iter().map(|&i| pattern.x()[i]).collect();
     let sy: Vec<f64> = idx[..m].iter().map(|&i| pattern.y()[i]).collect();
     let (cx, cy) = region.sample_uniform(m, &mut stream_rng(p.seed, 0));
+    let choice = super::envelope::choose(&p, &region, pattern.x(), pattern.y())?;
+    if choice.estimator == super::envelope::Estimator::Binned {
+        return binned_cost(
+            pattern,
+            region,
+            &p,
+            choice.correction,
+            workers,
+            clock,
+            t_start,
+            (r_max, r_max_rule),
+        );
+    }
 
     let pairs_at = |x: &[f64], y: &[f64], r: f64| -> f64 {
         if pairs_based {
@@ -401,6 +423,89 @@ pub fn estimate_envelope_cost(
         probe_events: m,
         probe_ms: (clock() - t_start).max(0.0),
         faster,
+        estimator: choice.estimator,
+    })
+}
+
+/// The run's time with the grid estimator: the lag table once (timed), and
+/// per curve a fixed part (a curve of m = min(n, [`PROBE_EVENTS`]) simulated
+/// events: the FFT, whose size does not depend on n) plus a part per event
+/// (drawing m events, timed alone, scaled to n).
+#[allow(clippy::too_many_arguments)]
+fn binned_cost(
+    pattern: &Pattern,
+    region: Window,
+    p: &super::envelope::EnvelopeParams,
+    correction: Correction,
+    workers: usize,
+    clock: &mut dyn FnMut() -> f64,
+    t_start: f64,
+    (r_max, r_max_rule): (f64, String),
+) -> Result<EnvelopeCost, AnalysisError> {
+    let needs = p.function.needs();
+    let n = pattern.len();
+    let mut fp = p.functions.clone();
+    fp.correction = correction;
+    let t0 = clock();
+    let ctx = Context::new(region.clone(), n, &fp, needs)?;
+    let table = super::binned::Binned::new(&ctx, needs, p.binned_fft_side)?;
+    let table_ms = (clock() - t0).max(0.0);
+    let m = n.clamp(8, PROBE_EVENTS);
+    let mut j = 1u64;
+    // The fixed part: a whole curve of m simulated events (the FFT
+    // dominates; the m events' own share is negligible beside it).
+    let fixed = timed(clock, || {
+        let (x, y) = region.sample_uniform(m, &mut stream_rng(p.seed, j));
+        j += 1;
+        std::hint::black_box(table.compute(&x, &y, needs));
+    });
+    // The part per event: drawing the events (binning them costs far
+    // less), timed alone so that the noise of the FFT's time does not
+    // enter it.
+    let t_draw = timed(clock, || {
+        std::hint::black_box(region.sample_uniform(m, &mut stream_rng(p.seed, j)));
+        j += 1;
+    });
+    let per_event = t_draw / m as f64;
+    let simulation_ms = fixed + per_event * n as f64;
+    let curve_ms = table_ms + simulation_ms;
+    let run_ms = curve_ms + p.n_sim as f64 * simulation_ms / workers as f64;
+    let mut faster = Vec::new();
+    for (k, what) in [(99usize, "usual for a first look"), (39, "a rough answer")] {
+        if p.n_sim > k {
+            faster.push(FasterSetting {
+                option: "n_sim".into(),
+                number: Some(k as f64),
+                choice: None,
+                label: format!("{k} simulations ({what})"),
+                curve_ms,
+                run_ms: curve_ms + k as f64 * simulation_ms / workers as f64,
+            });
+        }
+    }
+    // For information (the grid's time does not depend on them): the
+    // observed pairs estimated from cell counts, and the CSR expectation
+    // ½·n(n − 1)·πr²/|W| (edges ignored) for a simulated pattern.
+    let pairs =
+        GridIndex::with_cell(pattern.x(), pattern.y(), r_max / 4.0).estimate_pairs_within(r_max);
+    let nf = n as f64;
+    let simulated_pairs =
+        0.5 * nf * (nf - 1.0) * std::f64::consts::PI * r_max * r_max / region.area();
+    Ok(EnvelopeCost {
+        events: n,
+        n_sim: p.n_sim,
+        workers,
+        r_max_m: r_max,
+        r_max_rule,
+        pairs,
+        simulated_pairs,
+        curve_ms,
+        simulation_ms,
+        run_ms,
+        probe_events: m,
+        probe_ms: (clock() - t_start).max(0.0),
+        faster,
+        estimator: super::envelope::Estimator::Binned,
     })
 }
 
@@ -439,6 +544,34 @@ mod tests {
 
     fn rect() -> Window {
         Window::rectangle(0.0, 0.0, 2000.0, 1000.0).unwrap()
+    }
+
+    #[test]
+    fn binned_run_is_table_plus_curves_without_pairs() {
+        // The grid estimator: with a clock that advances 1 ms per reading,
+        // the table takes 1 ms, a curve 1 ms and drawing 500 events 1 ms
+        // (2 µs each), so a simulated curve 1 + 500·0.002 = 2 ms and the run
+        // is table + curve + n_sim curves / workers.
+        let w = rect();
+        let pat = simulate_csr(&w, 500, 5).unwrap();
+        let o = EnvelopeOptions {
+            n_sim: 99,
+            estimator: crate::distance::Estimator::Binned,
+            correction: Correction::Translation,
+            ..Default::default()
+        };
+        let c = estimate_envelope_cost(&pat, &w, &o, 2, &mut fake_clock()).unwrap();
+        assert_eq!(c.estimator, crate::distance::Estimator::Binned);
+        assert!((c.simulation_ms - 2.0).abs() < 1e-12, "{c:?}");
+        assert!((c.curve_ms - 3.0).abs() < 1e-12, "{c:?}");
+        assert!((c.run_ms - (3.0 + 99.0 * 2.0 / 2.0)).abs() < 1e-9, "{c:?}");
+        // The same options with every pair: the exact path, which says so.
+        let o = EnvelopeOptions {
+            estimator: crate::distance::Estimator::Exact,
+            ..o
+        };
+        let c = estimate_envelope_cost(&pat, &w, &o, 2, &mut fake_clock()).unwrap();
+        assert_eq!(c.estimator, crate::distance::Estimator::Exact);
     }
 
     #[test]

@@ -151,8 +151,23 @@ pub(crate) fn autocorrelation(mask: &[bool], nx: usize, ny: usize) -> (Vec<f64>,
 
 /// [`autocorrelation`] of a real raster.
 pub(crate) fn autocorrelation_of(v: &[f64], nx: usize, ny: usize) -> (Vec<f64>, usize, usize) {
-    let px = (2 * nx).next_power_of_two();
-    let py = (2 * ny).next_power_of_two();
+    autocorrelation_within(v, nx, ny, nx, ny)
+}
+
+/// [`autocorrelation_of`] needed only at lags |a| ≤ `lx`, |b| ≤ `ly`: the
+/// FFT is padded to `px = (nx + lx).next_power_of_two()` (likewise py),
+/// the least size at which no lag in that range aliases with another lag
+/// of the raster (lags outside it may). `lx = nx`, `ly = ny` gives every
+/// lag.
+pub(crate) fn autocorrelation_within(
+    v: &[f64],
+    nx: usize,
+    ny: usize,
+    lx: usize,
+    ly: usize,
+) -> (Vec<f64>, usize, usize) {
+    let px = (nx + lx.min(nx)).max(1).next_power_of_two();
+    let py = (ny + ly.min(ny)).max(1).next_power_of_two();
     let mut re = vec![0.0; px * py];
     let mut im = vec![0.0; px * py];
     for j in 0..ny {
@@ -169,6 +184,50 @@ pub(crate) fn autocorrelation_of(v: &[f64], nx: usize, ny: usize) -> (Vec<f64>, 
         *v = (*v * scale).max(0.0);
     }
     (re, px, py)
+}
+
+/// [`autocorrelation_within`] of two real rasters of the same size at the
+/// cost of one: `a` goes in the real part and `b` in the imaginary part of
+/// one forward FFT Z; their transforms are A(k) = (Z(k) + conj Z(−k))/2 and
+/// B(k) = (Z(k) − conj Z(−k))/(2i), and one inverse FFT of |A|² + i·|B|²
+/// gives both autocorrelations (real and imaginary parts), since both are
+/// real.
+pub(crate) fn autocorrelation_pair_within(
+    a: &[f64],
+    b: &[f64],
+    nx: usize,
+    ny: usize,
+    lx: usize,
+    ly: usize,
+) -> (Vec<f64>, Vec<f64>, usize, usize) {
+    let px = (nx + lx.min(nx)).max(1).next_power_of_two();
+    let py = (ny + ly.min(ny)).max(1).next_power_of_two();
+    let mut re = vec![0.0; px * py];
+    let mut im = vec![0.0; px * py];
+    for j in 0..ny {
+        re[j * px..j * px + nx].copy_from_slice(&a[j * nx..(j + 1) * nx]);
+        im[j * px..j * px + nx].copy_from_slice(&b[j * nx..(j + 1) * nx]);
+    }
+    fft2(&mut re, &mut im, px, py, false);
+    let mut pa = vec![0.0; px * py];
+    let mut pb = vec![0.0; px * py];
+    for ky in 0..py {
+        let my = (py - ky) % py;
+        for kx in 0..px {
+            let mx = (px - kx) % px;
+            let (zr, zi) = (re[ky * px + kx], im[ky * px + kx]);
+            let (wr, wi) = (re[my * px + mx], im[my * px + mx]);
+            pa[ky * px + kx] = 0.25 * ((zr + wr) * (zr + wr) + (zi - wi) * (zi - wi));
+            pb[ky * px + kx] = 0.25 * ((zr - wr) * (zr - wr) + (zi + wi) * (zi + wi));
+        }
+    }
+    drop((re, im));
+    fft2(&mut pa, &mut pb, px, py, true);
+    let scale = 1.0 / (px * py) as f64;
+    for v in pa.iter_mut().chain(pb.iter_mut()) {
+        *v = (*v * scale).max(0.0);
+    }
+    (pa, pb, px, py)
 }
 
 /// In-place 2-D FFT (unscaled; `inverse` flips the sign of the exponent):
@@ -288,6 +347,24 @@ mod tests {
             }
         }
         out
+    }
+
+    /// Two autocorrelations from one FFT pair equal the one-at-a-time ones.
+    #[test]
+    fn paired_autocorrelations_match_single_ones() {
+        let (nx, ny) = (13, 7);
+        let a: Vec<f64> = (0..nx * ny).map(|k| ((k * 37) % 11) as f64).collect();
+        let b: Vec<f64> = (0..nx * ny).map(|k| ((k * 53) % 7) as f64).collect();
+        for (lx, ly) in [(nx, ny), (4, 3)] {
+            let (ra, rb, px, py) = autocorrelation_pair_within(&a, &b, nx, ny, lx, ly);
+            let (sa, qx, qy) = autocorrelation_within(&a, nx, ny, lx, ly);
+            let (sb, _, _) = autocorrelation_within(&b, nx, ny, lx, ly);
+            assert_eq!((px, py), (qx, qy));
+            for k in 0..px * py {
+                assert!((ra[k] - sa[k]).abs() < 1e-9, "a at {k}");
+                assert!((rb[k] - sb[k]).abs() < 1e-9, "b at {k}");
+            }
+        }
     }
 
     #[test]

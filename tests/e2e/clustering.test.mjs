@@ -178,6 +178,43 @@ test('a run spread over helper workers gives exactly the one-worker result', asy
   assert.deepEqual(log.requests.filter((u) => !u.startsWith('file:') && !u.startsWith('blob:') && !u.startsWith('data:')), []);
 });
 
+test('pair counting on a fine grid: chosen in the form, said in the result, split runs equal one-worker runs', async () => {
+  const { page, log } = await openPage(browser);
+  await loadDemo(page);
+  // Choosing the grid sets the translation correction (the only one it has).
+  await page.selectOption('#clu-estimator', 'binned');
+  assert.equal(await page.inputValue('#clu-correction'), 'translation');
+  assert.match(await page.textContent('#clu-estimator + small'), /translation correction only/);
+  await page.fill('#clu-seed', '4242');
+  await runEnvelope(page, 19);
+  assert.equal(await page.isVisible('#error-banner'), false, await page.textContent('#error-text'));
+  const said = await page.textContent('#clu-details dd[data-key="estimator"]');
+  assert.match(said, /^counts on a fine grid \(chosen\); cells of [\d.,]+\s(m|km); K and L within 0\.1 % of counting every pair from [\d.,]+\s(m|km) on/, said);
+  assert.match(await page.textContent('#clu-verdict'), /^Clustered/);
+  // Another correction goes back to automatic, which counts every pair on the demo.
+  await page.selectOption('#clu-correction', 'isotropic');
+  assert.equal(await page.inputValue('#clu-estimator'), 'auto');
+  await runEnvelope(page, 19);
+  assert.match(await page.textContent('#clu-details dd[data-key="estimator"]'), /^every pair \(automatic: about [\d,]+ pairs/);
+  // G has no grid: the choice is off.
+  await page.selectOption('#clu-function', 'nearest_neighbour');
+  assert.equal(await page.isDisabled('#clu-estimator'), true);
+  const got = await page.evaluate(async () => {
+    const spec = (parallel) => ({
+      start: 'envelopeStart', step: 'envelopeStep', finish: 'envelopeFinish',
+      params: { n_sim: 19, seed: 99, function: 'l', estimator: 'binned', correction: 'translation' },
+      ...(parallel ? { parallel: { share: 'envelopeShare', helperStart: 'envelopeHelperStart', simulate: 'envelopeSimulate', add: 'envelopeAdd' } } : {}),
+    });
+    const a = await window.Cloister.runJob(spec(true), () => {}).promise;
+    const b = await window.Cloister.runJob(spec(false), () => {}).promise;
+    return { est: [a.estimator, b.estimator], a: JSON.stringify([a.pointwise_lo, a.pointwise_hi, a.mad, a.dclf]), b: JSON.stringify([b.pointwise_lo, b.pointwise_hi, b.mad, b.dclf]) };
+  });
+  assert.deepEqual(got.est, ['binned', 'binned']);
+  assert.equal(got.a, got.b);
+  assert.deepEqual(log.pageErrors, []);
+  assert.deepEqual(log.requests.filter((u) => !/^(file|blob|data):/.test(u)), []);
+});
+
 test('quadrat and Clark–Evans boxes show finite numbers for the demo', async () => {
   const out = outDir();
   const { page, log } = await openPage(browser, { width: 1366, height: 900 });

@@ -53,6 +53,10 @@ export function runScenario() {
   record('envelopeAdd', '4..8', s.envelopeAdd(4, curves));
   s.envelopeStep(started.total);
   record('envelopeFinish', 'L', s.envelopeFinish());
+  const binned = s.envelopeStart({ n_sim: 4, seed: 1, n_steps: 10, estimator: 'binned', correction: 'translation' });
+  s.envelopeStep(binned.total);
+  record('envelopeFinish', 'L on a fine grid', s.envelopeFinish());
+  record('envelopeEstimate', 'L on a fine grid, 2 workers', s.envelopeEstimate({ n_sim: 19, seed: 1, estimator: 'binned', correction: 'translation' }, 2));
   const lab = record('labellingStart', 'demo, 19', s.labellingStart({ n_sim: 19, seed: 4, n_steps: 10 }));
   const labShare = record('labellingShare', '', s.labellingShare());
   const labCurves = record('labellingSimulate', '0..5', s.labellingSimulate(0, 5));

@@ -61,7 +61,7 @@ const CASES = {
   loadArea: { call: (s, o) => s.loadArea(file('demo-data/town-boundary.geojson'), o), bad: { coord: { kind: 'lon_lat' } }, key: 'coord', valid: ['coords'] },
   quadratTest: { call: (s, o) => s.quadratTest(o), bad: { n_x: 4 }, key: 'n_x', valid: ['nx', 'ny', 'n_sim', 'seed'] },
   clarkEvans: { call: (s, o) => s.clarkEvans(o), bad: { nsim: 0 }, key: 'nsim', valid: ['n_sim', 'seed'] },
-  envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps'] },
+  envelopeStart: { call: (s, o) => s.envelopeStart(o), bad: { r_max: 500 }, key: 'r_max', valid: ['r_max_m', 'r_min_m', 'bandwidth_m', 'n_steps', 'estimator'] },
   labellingStart: { call: (s, o) => s.labellingStart(o), bad: { n_sims: 99 }, key: 'n_sims', valid: ['n_sim', 'r_max_m', 'correction'] },
   nearestCasesStart: { call: (s, o) => s.nearestCasesStart(o), bad: { k: 5 }, key: 'k', valid: ['k_max', 'n_sim', 'seed'] },
   mantelStart: { call: (s, o) => s.mantelStart(o), bad: { space: 'raw' }, key: 'space', valid: ['space_transform', 'time_transform', 'space_constant_m'] },
@@ -142,6 +142,8 @@ test('options that are not an object, or hold values of the wrong type, are refu
     [() => s.clarkEvans({ n_sim: 'many' }), 'n_sim'],
     [() => s.clarkEvans({ n_sim: 2.5 }), 'n_sim'],
     [() => s.envelopeStart({ function: 'ripley' }), 'function'],
+    [() => s.envelopeStart({ estimator: 'fast' }), 'estimator'],
+    [() => s.envelopeStart({ estimater: 'binned' }), 'estimater'],
     [() => s.maskDonut({ law: 'gaussian', seed: 1 }), 'law'],
     [() => s.loadEvents(file('demo-data/cases.csv'), { coords: { kind: 'nonsense' } }), 'coords'],
     [() => s.loadEvents(file('demo-data/cases.csv'), { mapping: { lon: 'x' } }), 'lon'],
@@ -154,6 +156,24 @@ test('options that are not an object, or hold values of the wrong type, are refu
     assertPlain(e);
   }
   assert.equal(s.maskResult(), null);
+});
+
+test('estimator binned with another correction or for G, F, J is refused, saying what to change', () => {
+  const s = demo();
+  const corr = throws(() => s.envelopeStart({ estimator: 'binned', correction: 'isotropic' }));
+  assert.equal(corr.code, 'bad_parameter', corr.message);
+  assert.match(corr.message, /estimator: .*translation correction only: set correction to translation/);
+  assertPlain(corr);
+  const j = throws(() => s.envelopeStart({ estimator: 'binned', correction: 'translation', function: 'j' }));
+  assert.equal(j.code, 'bad_parameter', j.message);
+  assert.match(j.message, /estimator: binned computes K, L and g only/);
+  assertPlain(j);
+  const ok = s.envelopeStart({ estimator: 'binned', correction: 'translation', n_sim: 2, seed: 1, n_steps: 10 });
+  s.envelopeStep(ok.total);
+  const res = s.envelopeFinish();
+  assert.equal(res.estimator, 'binned');
+  assert.equal(res.correction, 'translation');
+  assert.ok(res.cell_m > 0 && res.binned_relative_error > 0 && res.binned_error_from_m > 0);
 });
 
 test('values out of range are refused with the option, its value and the range', () => {
