@@ -242,6 +242,26 @@ pub fn num(v: f64) -> String {
     }
 }
 
+/// A count for sentences shown to a user: rounded to a whole number, with
+/// thousands separated by commas as the page writes them (`589,263,863`).
+pub fn count(v: f64) -> String {
+    if !v.is_finite() || v.abs() >= 1e15 {
+        return num(v);
+    }
+    let digits = format!("{:.0}", v.abs().round());
+    let mut out = String::with_capacity(digits.len() + digits.len() / 3 + 1);
+    if v.round() < 0.0 {
+        out.push('-');
+    }
+    for (i, ch) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    out
+}
+
 /// A parameter of an analysis: the struct that holds them, its field list
 /// and its checks.
 pub trait Params: Serialize + DeserializeOwned + Default {
@@ -669,6 +689,17 @@ pub fn decode<P: Params>(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn counts_are_grouped_by_thousands() {
+        assert_eq!(count(0.0), "0");
+        assert_eq!(count(999.4), "999");
+        assert_eq!(count(1000.0), "1,000");
+        assert_eq!(count(589_263_862.6), "589,263,863");
+        assert_eq!(count(-1_234_567.0), "-1,234,567");
+        assert_eq!(count(6e7), "60,000,000");
+        assert_eq!(count(f64::INFINITY), "inf");
+    }
 
     #[test]
     fn plain_words_hides_type_names() {

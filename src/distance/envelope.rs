@@ -216,8 +216,8 @@ pub(crate) fn choose(
             if pairs <= AUTO_BINNED_PAIRS {
                 return Ok(exact(&format!(
                     "about {} pairs within the largest distance, at most {}",
-                    crate::params::num(pairs.round()),
-                    crate::params::num(AUTO_BINNED_PAIRS)
+                    crate::params::count(pairs),
+                    crate::params::count(AUTO_BINNED_PAIRS)
                 )));
             }
             let switched = if c == Correction::Isotropic {
@@ -229,8 +229,8 @@ pub(crate) fn choose(
                 estimator: Estimator::Binned,
                 reason: format!(
                     "counts on a fine grid (automatic: about {} pairs within the largest distance, more than {}{switched})",
-                    crate::params::num(pairs.round()),
-                    crate::params::num(AUTO_BINNED_PAIRS)
+                    crate::params::count(pairs),
+                    crate::params::count(AUTO_BINNED_PAIRS)
                 ),
                 correction: Correction::Translation,
             })
