@@ -476,6 +476,25 @@ fn named(headers: &[String], norm: &[String], role: &str, name: &str) -> Result<
     })
 }
 
+/// `name` without a trailing metre unit set off by a space, `_`, `-` or `.`
+/// (`x_m`, `Y m`, `easting-metres` → `x`, `Y`, `easting`); a unit in
+/// brackets is dropped by [`normalize`] itself.
+fn strip_metre_unit(name: &str) -> &str {
+    let t = name.trim_end();
+    let cut = t.rfind([' ', '_', '-', '.']);
+    match cut {
+        Some(i) if i > 0 => {
+            let unit = t[i + 1..].to_ascii_lowercase();
+            if matches!(unit.as_str(), "m" | "metre" | "metres" | "meter" | "meters") {
+                t[..i].trim_end()
+            } else {
+                t
+            }
+        }
+        _ => t,
+    }
+}
+
 /// The x and y columns and what their coordinates are.
 #[derive(Debug, Clone, PartialEq)]
 pub struct XyRoles {
@@ -494,6 +513,11 @@ pub fn resolve_xy(
     coords: Option<CoordKind>,
 ) -> Result<XyRoles, InputError> {
     let norm: Vec<String> = headers.iter().map(|h| normalize(h)).collect();
+    // For detection only: a trailing metre unit is dropped (`x_m`, `Y m`).
+    let bare: Vec<String> = headers
+        .iter()
+        .map(|h| normalize(strip_metre_unit(h)))
+        .collect();
     fn given(o: &Option<String>) -> Option<&str> {
         o.as_deref().filter(|s| !s.trim().is_empty())
     }
@@ -513,14 +537,14 @@ pub fn resolve_xy(
     let (x, y) = match (gx, gy) {
         (Some(x), Some(y)) => (x, y),
         (Some(x), None) => {
-            let y = pairs.iter().find_map(|(_, yn)| find(&norm, yn, &[x]));
+            let y = pairs.iter().find_map(|(_, yn)| find(&bare, yn, &[x]));
             (
                 x,
                 y.ok_or_else(|| missing(headers, "no y / latitude column found".into()))?,
             )
         }
         (None, Some(y)) => {
-            let x = pairs.iter().find_map(|(xn, _)| find(&norm, xn, &[y]));
+            let x = pairs.iter().find_map(|(xn, _)| find(&bare, xn, &[y]));
             (
                 x.ok_or_else(|| missing(headers, "no x / longitude column found".into()))?,
                 y,
@@ -529,8 +553,8 @@ pub fn resolve_xy(
         (None, None) => {
             let mut found = None;
             for (xn, yn) in pairs {
-                if let Some(x) = find(&norm, xn, &[]) {
-                    if let Some(y) = find(&norm, yn, &[x]) {
+                if let Some(x) = find(&bare, xn, &[]) {
+                    if let Some(y) = find(&bare, yn, &[x]) {
                         found = Some((x, y));
                         break;
                     }
@@ -745,6 +769,38 @@ mod tests {
 
     fn h(names: &[&str]) -> Vec<String> {
         names.iter().map(|s| s.to_string()).collect()
+    }
+
+    /// Coordinate headers with a metre unit after a separator are found as
+    /// planar metres; a name the user gives is still matched as written;
+    /// other trailing words are not dropped.
+    #[test]
+    fn metre_unit_after_the_name_is_detected() {
+        for (x, y) in [
+            ("x_m", "y_m"),
+            ("X m", "Y m"),
+            ("easting-metres", "northing.meters"),
+        ] {
+            let hs = h(&["id", x, y]);
+            let r = resolve_xy(&hs, &Default::default(), None).unwrap();
+            assert_eq!((r.x, r.y), (1, 2), "{x} {y}");
+            assert_eq!(
+                r.coords,
+                CoordKind::Planar {
+                    unit: LengthUnit::Metre
+                }
+            );
+        }
+        let hs = h(&["x_m", "y_m"]);
+        let m = ColumnMapping {
+            x: Some("x_m".into()),
+            y: Some("y_m".into()),
+            ..Default::default()
+        };
+        assert_eq!(resolve_xy(&hs, &m, None).unwrap().x, 0);
+        assert!(resolve_xy(&h(&["x_max", "y_max"]), &Default::default(), None).is_err());
+        assert_eq!(strip_metre_unit("m"), "m");
+        assert_eq!(strip_metre_unit("x_km"), "x_km");
     }
 
     #[test]
