@@ -43,7 +43,8 @@ export function mountHotspots(C) {
 
   // ---------- small helpers ----------
 
-  const num = (v) => (typeof v === 'bigint' ? Number(v) : Number(v));
+  // A missing value (null: e.g. no longitude for planar data) is not a number, not 0.
+  const num = (v) => (v === null || v === undefined ? NaN : Number(v));
   function field(label, control, hint) {
     // The label names the field's own input even when it sits in a wrapper.
     const inner = control.matches('input, select') ? control : control.querySelector('input, select');
