@@ -21,16 +21,12 @@ use cloister::distance::{
 };
 use cloister::study::Pattern;
 use cloister::window::{Window, WindowOrigin};
+use common::{mean_se, wh};
 use serde_json::Value;
 use std::f64::consts::PI;
 
 fn unit_square() -> Window {
     Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap()
-}
-
-/// Fixture WH (docs/methods.md#fixtures): [0,10]² minus [4,6]².
-fn wh() -> Window {
-    Window::rectangle_with_hole([0.0, 0.0, 10.0, 10.0], [4.0, 4.0, 6.0, 6.0]).unwrap()
 }
 
 /// Fixture F12 (docs/methods.md#fixtures).
@@ -273,13 +269,6 @@ mod shapely_reference {
 mod simulation {
     use super::*;
 
-    fn mean_sd(v: &[f64]) -> (f64, f64) {
-        let m = v.len() as f64;
-        let mean = v.iter().sum::<f64>() / m;
-        let var = v.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / (m - 1.0);
-        (mean, (var / m).sqrt())
-    }
-
     /// Binomial CSR, n = 30, unit square: mean K̂_iso and K̂_trans ≈ πr²
     /// within 4 MC SE (docs/methods.md#csr [derived], checked there by simulation).
     /// Also on WH (a window with a hole), isotropic.
@@ -310,7 +299,7 @@ mod simulation {
                     }
                 }
                 for (i, r) in rs.iter().enumerate() {
-                    let (mean, se) = mean_sd(&at[i]);
+                    let (mean, se) = mean_se(&at[i]);
                     assert!(
                         (mean - PI * r * r).abs() < 4.0 * se,
                         "{c:?} r={r}: {mean} ± {se}"
@@ -351,8 +340,8 @@ mod simulation {
         for k in 1..6 {
             let r = 0.02 * k as f64;
             let a = PI * r * r;
-            let (g, gse) = mean_sd(&gs[k]);
-            let (fm, fse) = mean_sd(&fs[k]);
+            let (g, gse) = mean_se(&gs[k]);
+            let (fm, fse) = mean_se(&fs[k]);
             let g_exact = 1.0 - (1.0 - a).powi(n as i32 - 1);
             let f_exact = 1.0 - (1.0 - a).powi(n as i32);
             assert!(
@@ -411,7 +400,7 @@ mod simulation {
         }
         for k in [1, 2, 5, 10] {
             let r = 0.01 * k as f64;
-            let (mean, se) = mean_sd(&at[k]);
+            let (mean, se) = mean_se(&at[k]);
             let want = thomas_k(r, kappa, sigma);
             assert!(
                 (mean - want).abs() < 4.0 * se,

@@ -10,6 +10,9 @@
 //! with α(m + 1) an integer (Besag & Diggle 1977) and the binomial 99 %
 //! interval computed here from the binomial distribution.
 
+mod common;
+use common::{mean_se, wh};
+
 use cloister::distance::binned::{
     binned_functions, STATED_FROM_CELLS, STATED_G_RELATIVE_ERROR, STATED_RELATIVE_ERROR,
 };
@@ -34,11 +37,6 @@ fn with_hole(s: f64) -> Window {
         WindowOrigin::File,
     )
     .unwrap()
-}
-
-/// Fixture WH (docs/methods.md#fixtures): [0,10]² minus [4,6]².
-fn wh() -> Window {
-    Window::rectangle_with_hole([0.0, 0.0, 10.0, 10.0], [4.0, 4.0, 6.0, 6.0]).unwrap()
 }
 
 fn translation(r_max: f64, n_steps: usize) -> FunctionParams {
@@ -101,13 +99,6 @@ fn binned_matches_exact_translation_estimator() {
         assert!(l < STATED_RELATIVE_ERROR, "{name}: L {l}");
         assert!(g < STATED_G_RELATIVE_ERROR, "{name}: g {g}");
     }
-}
-
-fn mean_se(v: &[f64]) -> (f64, f64) {
-    let m = v.len() as f64;
-    let mean = v.iter().sum::<f64>() / m;
-    let var = v.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / (m - 1.0);
-    (mean, (var / m).sqrt())
 }
 
 /// Binomial CSR, n = 50 in WH: the mean of the binned K̂ over 600 seeded

@@ -677,11 +677,10 @@ pub struct EnvelopeResult {
 /// assert!(res.mad.p_value > 0.0 && res.mad.p_value <= 1.0);
 /// ```
 pub struct EnvelopeJob {
-    ctx: Context,
-    binned: Option<Binned>,
+    /// The study area, distances, estimator and settled parameters: the
+    /// same state a helper's simulator holds, so both simulate alike.
+    sim: EnvelopeSimulator,
     choice: Choice,
-    needs: Needs,
-    params: EnvelopeParams,
     observed: Vec<f64>,
     sims: Vec<f64>,
     done: usize,
@@ -727,11 +726,13 @@ impl EnvelopeJob {
         params.functions.correction = choice.correction;
         let sims = Vec::with_capacity(params.n_sim * nr);
         Ok(EnvelopeJob {
-            ctx,
-            binned,
+            sim: EnvelopeSimulator {
+                ctx,
+                needs,
+                params,
+                binned,
+            },
             choice,
-            needs,
-            params,
             observed,
             sims,
             done: 0,
@@ -741,16 +742,8 @@ impl EnvelopeJob {
 
     /// Runs up to `k` more simulations; returns how many are done so far.
     pub fn run_batch(&mut self, k: usize) -> usize {
-        let end = (self.done + k).min(self.params.n_sim);
-        let curves = simulate_curves(
-            &self.ctx,
-            self.binned.as_ref(),
-            self.needs,
-            &self.params,
-            self.done,
-            end,
-        );
-        self.sims.extend(curves);
+        let end = (self.done + k).min(self.sim.params.n_sim);
+        self.sims.extend(self.sim.simulate_range(self.done, end));
         self.done = end;
         self.done
     }
@@ -761,7 +754,7 @@ impl EnvelopeJob {
     /// only; the page uses several Web Workers for the same purpose.
     #[cfg(not(target_arch = "wasm32"))]
     pub fn run_batch_parallel(&mut self, k: usize, threads: usize) -> usize {
-        let end = (self.done + k).min(self.params.n_sim);
+        let end = (self.done + k).min(self.sim.params.n_sim);
         let count = end - self.done;
         let threads = threads.clamp(1, count.max(1));
         if threads <= 1 {
@@ -801,23 +794,16 @@ impl EnvelopeJob {
     /// identical to a single-worker run because simulation j always uses
     /// stream j of the seed.
     pub fn simulate_range(&self, from: usize, to: usize) -> Vec<f64> {
-        simulate_curves(
-            &self.ctx,
-            self.binned.as_ref(),
-            self.needs,
-            &self.params,
-            from,
-            to,
-        )
+        self.sim.simulate_range(from, to)
     }
 
     /// What a helper needs to simulate parts of this run (see
     /// [`EnvelopeSimulator`]): the study area, n and the parameters.
     pub fn share(&self) -> SimulationShare {
         SimulationShare {
-            polygons: self.ctx.region.polygons().to_vec(),
-            n: self.ctx.n,
-            params: self.params.clone(),
+            polygons: self.sim.ctx.region.polygons().to_vec(),
+            n: self.sim.ctx.n,
+            params: self.sim.params.clone(),
         }
     }
 
@@ -825,10 +811,10 @@ impl EnvelopeJob {
     /// simulation `from`, which must equal [`EnvelopeJob::done`]. Returns
     /// the number done so far.
     pub fn add_simulated(&mut self, from: usize, curves: &[f64]) -> Result<usize, AnalysisError> {
-        let nr = self.ctx.r.len();
+        let nr = self.sim.ctx.r.len();
         if from != self.done
             || !curves.len().is_multiple_of(nr)
-            || self.done + curves.len() / nr > self.params.n_sim
+            || self.done + curves.len() / nr > self.sim.params.n_sim
         {
             return Err(AnalysisError::BadParameter {
                 name: "simulated curves".into(),
@@ -848,25 +834,25 @@ impl EnvelopeJob {
     }
 
     pub fn total(&self) -> usize {
-        self.params.n_sim
+        self.sim.params.n_sim
     }
 
     /// The distance grid.
     pub fn r(&self) -> &[f64] {
-        &self.ctx.r
+        &self.sim.ctx.r
     }
 
     /// Runs any remaining simulations and computes bands, tests and the
     /// verdict.
     pub fn finish(mut self) -> EnvelopeResult {
-        let rest = self.params.n_sim - self.done;
+        let rest = self.sim.params.n_sim - self.done;
         self.run_batch(rest);
-        let f = self.params.function;
-        let r = self.ctx.r.clone();
+        let f = self.sim.params.function;
+        let r = self.sim.ctx.r.clone();
         let nr = r.len();
-        let m = self.params.n_sim;
-        let n = self.ctx.n;
-        let lambda = n as f64 / self.ctx.region.area();
+        let m = self.sim.params.n_sim;
+        let n = self.sim.ctx.n;
+        let lambda = n as f64 / self.sim.ctx.region.area();
         let theoretical: Vec<f64> = match f {
             SummaryFunction::K => r.iter().map(|r| PI * r * r).collect(),
             SummaryFunction::L => r.clone(),
@@ -878,23 +864,24 @@ impl EnvelopeJob {
             &self.observed,
             &self.sims,
             &theoretical,
-            self.params.reference,
-            self.params
+            self.sim.params.reference,
+            self.sim
+                .params
                 .r_min
                 .unwrap_or(if f == SummaryFunction::PairCorrelation {
-                    self.ctx.bandwidth
+                    self.sim.ctx.bandwidth
                 } else {
                     0.0
                 }),
-            self.params.alpha,
+            self.sim.params.alpha,
         );
-        let mut warnings = self.ctx.warnings.clone();
+        let mut warnings = self.sim.ctx.warnings.clone();
         warnings.extend(bands.warnings.iter().cloned());
-        let cell_m = self.binned.as_ref().map(Binned::cell_m);
+        let cell_m = self.sim.binned.as_ref().map(Binned::cell_m);
         if self.capped > 0 {
             warnings.push(format!(
                 "{} pair weights of the observed pattern reached the cap of {}",
-                self.capped, self.ctx.cap
+                self.capped, self.sim.ctx.cap
             ));
         }
         let verdict = verdict_for(
@@ -906,7 +893,7 @@ impl EnvelopeJob {
             &bands.in_test,
             &bands.mad,
             &bands.dclf,
-            self.params.alpha,
+            self.sim.params.alpha,
             m,
         );
         EnvelopeResult {
@@ -914,7 +901,7 @@ impl EnvelopeJob {
             label: f.label().to_string(),
             observed: self.observed.clone(),
             theoretical,
-            reference: self.params.reference,
+            reference: self.sim.params.reference,
             reference_curve: bands.reference_curve,
             sim_mean: bands.sim_mean,
             pointwise_lo: bands.pointwise_lo,
@@ -926,15 +913,15 @@ impl EnvelopeJob {
             test_r_max: bands.test_r_max,
             mad: bands.mad,
             dclf: bands.dclf,
-            alpha: self.params.alpha,
+            alpha: self.sim.params.alpha,
             k_rank: bands.k_rank,
             n_sim: m,
-            seed: self.params.seed,
+            seed: self.sim.params.seed,
             n,
-            correction: self.ctx.correction,
-            nn_correction: self.ctx.nn_correction,
-            r_max_rule: self.ctx.r_max_rule.clone(),
-            bandwidth_m: self.ctx.bandwidth,
+            correction: self.sim.ctx.correction,
+            nn_correction: self.sim.ctx.nn_correction,
+            r_max_rule: self.sim.ctx.r_max_rule.clone(),
+            bandwidth_m: self.sim.ctx.bandwidth,
             capped_weights: self.capped,
             estimator: self.choice.estimator,
             estimator_reason: self.choice.reason.clone(),

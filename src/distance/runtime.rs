@@ -248,16 +248,22 @@ pub fn estimate_envelope_cost(
     let (cx, cy) = region.sample_uniform(m, &mut stream_rng(p.seed, 0));
     let choice = super::envelope::choose(&p, &region, pattern.x(), pattern.y())?;
     if choice.estimator == super::envelope::Estimator::Binned {
-        return binned_cost(
+        let timing = binned_cost(
             pattern,
             region,
             &p,
             choice.correction,
             workers,
             clock,
-            t_start,
+            r_max,
+        )?;
+        return Ok(timing.cost(
+            (n, workers),
+            &p,
             (r_max, r_max_rule),
-        );
+            choice.estimator,
+            clock() - t_start,
+        ));
     }
 
     let pairs_at = |x: &[f64], y: &[f64], r: f64| -> f64 {
@@ -354,20 +360,7 @@ pub fn estimate_envelope_cost(
     let (curve_ms, run_ms) = times(&unit, pairs, simulated_pairs, p.n_sim);
     let simulation_ms = unit.simulated.of(nf, simulated_pairs);
 
-    let mut faster = Vec::new();
-    for (k, what) in [(99usize, "usual for a first look"), (39, "a rough answer")] {
-        if p.n_sim > k {
-            let (c, r) = times(&unit, pairs, simulated_pairs, k);
-            faster.push(FasterSetting {
-                option: "n_sim".into(),
-                number: Some(k as f64),
-                choice: None,
-                label: format!("{k} simulations ({what})"),
-                curve_ms: c,
-                run_ms: r,
-            });
-        }
-    }
+    let mut faster = fewer_simulations(p.n_sim, |k| times(&unit, pairs, simulated_pairs, k));
     if pairs_based && run_ms > FAST_RUN_MS {
         // Pairs grow about as r², so this r gives about FAST_RUN_MS.
         let s = (FAST_RUN_MS / run_ms).sqrt().clamp(0.02, 0.5);
@@ -409,29 +402,91 @@ pub fn estimate_envelope_cost(
         }
     }
     faster.retain(|f| f.run_ms < run_ms);
-    Ok(EnvelopeCost {
-        events: n,
-        n_sim: p.n_sim,
-        workers,
-        r_max_m: r_max,
-        r_max_rule,
+    let timing = Timing {
         pairs,
         simulated_pairs,
         curve_ms,
         simulation_ms,
         run_ms,
         probe_events: m,
-        probe_ms: (clock() - t_start).max(0.0),
         faster,
-        estimator: choice.estimator,
-    })
+    };
+    Ok(timing.cost(
+        (n, workers),
+        &p,
+        (r_max, r_max_rule),
+        choice.estimator,
+        clock() - t_start,
+    ))
+}
+
+/// What the two estimators' timings give (see [`EnvelopeCost`]).
+struct Timing {
+    pairs: f64,
+    simulated_pairs: f64,
+    curve_ms: f64,
+    simulation_ms: f64,
+    run_ms: f64,
+    probe_events: usize,
+    faster: Vec<FasterSetting>,
+}
+
+impl Timing {
+    /// The estimate for `events` events and `workers` workers with the
+    /// largest distance and its rule, the estimator and the time the
+    /// measurement took.
+    fn cost(
+        self,
+        (events, workers): (usize, usize),
+        p: &super::envelope::EnvelopeParams,
+        (r_max_m, r_max_rule): (f64, String),
+        estimator: super::envelope::Estimator,
+        probe_ms: f64,
+    ) -> EnvelopeCost {
+        EnvelopeCost {
+            events,
+            n_sim: p.n_sim,
+            workers,
+            r_max_m,
+            r_max_rule,
+            pairs: self.pairs,
+            simulated_pairs: self.simulated_pairs,
+            curve_ms: self.curve_ms,
+            simulation_ms: self.simulation_ms,
+            run_ms: self.run_ms,
+            probe_events: self.probe_events,
+            probe_ms: probe_ms.max(0.0),
+            faster: self.faster,
+            estimator,
+        }
+    }
+}
+
+/// The settings with fewer simulations (99, usual for a first look, and
+/// 39, a rough answer) fewer than the run's, with `times(k)` the curve's
+/// and the whole run's time with k simulations.
+fn fewer_simulations(n_sim: usize, times: impl Fn(usize) -> (f64, f64)) -> Vec<FasterSetting> {
+    [(99usize, "usual for a first look"), (39, "a rough answer")]
+        .into_iter()
+        .filter(|&(k, _)| n_sim > k)
+        .map(|(k, what)| {
+            let (curve_ms, run_ms) = times(k);
+            FasterSetting {
+                option: "n_sim".into(),
+                number: Some(k as f64),
+                choice: None,
+                label: format!("{k} simulations ({what})"),
+                curve_ms,
+                run_ms,
+            }
+        })
+        .collect()
 }
 
 /// The run's time with the grid estimator: the lag table once (timed), and
 /// per curve a fixed part (a curve of m = min(n, [`PROBE_EVENTS`]) simulated
 /// events: the FFT, whose size does not depend on n) plus a part per event
 /// (drawing m events, timed alone, scaled to n).
-#[allow(clippy::too_many_arguments)]
 fn binned_cost(
     pattern: &Pattern,
     region: Window,
@@ -439,9 +494,8 @@ fn binned_cost(
     correction: Correction,
     workers: usize,
     clock: &mut dyn FnMut() -> f64,
-    t_start: f64,
-    (r_max, r_max_rule): (f64, String),
-) -> Result<EnvelopeCost, AnalysisError> {
+    r_max: f64,
+) -> Result<Timing, AnalysisError> {
     let needs = p.function.needs();
     let n = pattern.len();
     let mut fp = p.functions.clone();
@@ -470,19 +524,12 @@ fn binned_cost(
     let simulation_ms = fixed + per_event * n as f64;
     let curve_ms = table_ms + simulation_ms;
     let run_ms = curve_ms + p.n_sim as f64 * simulation_ms / workers as f64;
-    let mut faster = Vec::new();
-    for (k, what) in [(99usize, "usual for a first look"), (39, "a rough answer")] {
-        if p.n_sim > k {
-            faster.push(FasterSetting {
-                option: "n_sim".into(),
-                number: Some(k as f64),
-                choice: None,
-                label: format!("{k} simulations ({what})"),
-                curve_ms,
-                run_ms: curve_ms + k as f64 * simulation_ms / workers as f64,
-            });
-        }
-    }
+    let faster = fewer_simulations(p.n_sim, |k| {
+        (
+            curve_ms,
+            curve_ms + k as f64 * simulation_ms / workers as f64,
+        )
+    });
     // For information (the grid's time does not depend on them): the
     // observed pairs estimated from cell counts, and the CSR expectation
     // ½·n(n − 1)·πr²/|W| (edges ignored) for a simulated pattern.
@@ -491,21 +538,14 @@ fn binned_cost(
     let nf = n as f64;
     let simulated_pairs =
         0.5 * nf * (nf - 1.0) * std::f64::consts::PI * r_max * r_max / region.area();
-    Ok(EnvelopeCost {
-        events: n,
-        n_sim: p.n_sim,
-        workers,
-        r_max_m: r_max,
-        r_max_rule,
+    Ok(Timing {
         pairs,
         simulated_pairs,
         curve_ms,
         simulation_ms,
         run_ms,
         probe_events: m,
-        probe_ms: (clock() - t_start).max(0.0),
         faster,
-        estimator: super::envelope::Estimator::Binned,
     })
 }
 

@@ -1,8 +1,24 @@
-//! Helpers shared by the integration tests that read reference JSON
-//! (`tests/reference/*.json`). Each test file uses what it needs.
+//! Helpers shared by the integration tests: reading the reference JSON
+//! (`tests/reference/*.json`), the fixture windows and Monte Carlo means.
+//! Each test file uses what it needs.
 #![allow(dead_code)]
 
+use cloister::window::Window;
 use serde_json::Value;
+
+/// Fixture WH (docs/methods.md#fixtures): [0,10]² minus [4,6]².
+pub fn wh() -> Window {
+    Window::rectangle_with_hole([0.0, 0.0, 10.0, 10.0], [4.0, 4.0, 6.0, 6.0]).unwrap()
+}
+
+/// The mean of Monte Carlo values and its standard error (sample standard
+/// deviation over √m).
+pub fn mean_se(v: &[f64]) -> (f64, f64) {
+    let m = v.len() as f64;
+    let mean = v.iter().sum::<f64>() / m;
+    let var = v.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / (m - 1.0);
+    (mean, (var / m).sqrt())
+}
 
 /// A number of the reference JSON.
 pub fn f(v: &Value) -> f64 {
