@@ -301,6 +301,30 @@ pub fn bad(name: &str, detail: impl Into<String>) -> AnalysisError {
     }
 }
 
+/// Checks a piece of simulations computed elsewhere (a helper worker or
+/// thread) before a job adds it: `len` values, `width` per simulation,
+/// starting at simulation `from`, which must be the `done` so far, and
+/// not going past `total`. Returns the number of simulations in it.
+/// `what` names the piece for the message, `unit` one simulation.
+pub fn piece_rows(
+    what: &str,
+    unit: &str,
+    (from, done, total): (usize, usize, usize),
+    len: usize,
+    width: usize,
+) -> Result<usize, AnalysisError> {
+    let rows = len / width.max(1);
+    if from != done || width == 0 || !len.is_multiple_of(width) || done + rows > total {
+        return Err(bad(
+            what,
+            format!(
+                "a piece of {len} values ({width} per {unit}) from {unit} {from} does not continue the {done} done of {total}"
+            ),
+        ));
+    }
+    Ok(rows)
+}
+
 fn check_field(f: &Field, v: &Value, extent_m: Option<f64>) -> Result<(), AnalysisError> {
     match (f.kind, v) {
         (_, Value::Null) if f.optional => Ok(()),
@@ -689,6 +713,41 @@ pub fn decode<P: Params>(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// A piece from a helper is taken only where it continues the run: at
+    /// the number done, in whole simulations, not past the total.
+    #[test]
+    fn a_piece_must_continue_the_run() {
+        assert_eq!(
+            piece_rows("curves", "simulation", (4, 4, 10), 12, 3).unwrap(),
+            4
+        );
+        assert_eq!(
+            piece_rows("curves", "simulation", (4, 4, 10), 18, 3).unwrap(),
+            6
+        );
+        assert_eq!(
+            piece_rows("curves", "simulation", (0, 0, 5), 0, 3).unwrap(),
+            0
+        );
+        for (at, len, width) in [
+            ((3, 4, 10), 3, 3),
+            ((4, 4, 10), 10, 3),
+            ((4, 4, 10), 21, 3),
+            ((0, 0, 5), 5, 0),
+        ] {
+            let e = piece_rows("curves", "simulation", at, len, width).unwrap_err();
+            let AnalysisError::BadParameter { name, detail } = e else {
+                panic!("a bad piece is a bad parameter");
+            };
+            assert_eq!(name, "curves");
+            assert!(
+                detail.contains("does not continue the 4 done of 10")
+                    || detail.contains("the 0 done of 5"),
+                "{detail}"
+            );
+        }
+    }
 
     #[test]
     fn counts_are_grouped_by_thousands() {

@@ -811,21 +811,15 @@ impl EnvelopeJob {
     /// simulation `from`, which must equal [`EnvelopeJob::done`]. Returns
     /// the number done so far.
     pub fn add_simulated(&mut self, from: usize, curves: &[f64]) -> Result<usize, AnalysisError> {
-        let nr = self.sim.ctx.r.len();
-        if from != self.done
-            || !curves.len().is_multiple_of(nr)
-            || self.done + curves.len() / nr > self.sim.params.n_sim
-        {
-            return Err(AnalysisError::BadParameter {
-                name: "simulated curves".into(),
-                detail: format!(
-                    "expected curves starting at simulation {}, of {nr} values each",
-                    self.done
-                ),
-            });
-        }
+        let rows = crate::params::piece_rows(
+            "simulated curves",
+            "simulation",
+            (from, self.done, self.sim.params.n_sim),
+            curves.len(),
+            self.sim.ctx.r.len(),
+        )?;
         self.sims.extend_from_slice(curves);
-        self.done += curves.len() / nr;
+        self.done += rows;
         Ok(self.done)
     }
 

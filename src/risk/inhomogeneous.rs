@@ -746,19 +746,13 @@ impl InhomKJob {
     /// number done so far; returns the number done.
     pub fn add_simulated(&mut self, from: usize, rows: &[f64]) -> Result<usize, AnalysisError> {
         let width = self.sim.ctx.r.len() + 1;
-        if from != self.done
-            || !rows.len().is_multiple_of(width)
-            || self.done + rows.len() / width > self.sim.opts.n_sim
-        {
-            return Err(crate::params::bad(
-                "simulations",
-                format!(
-                    "simulated rows do not fit the run (from {from}, {} values, {} done)",
-                    rows.len(),
-                    self.done
-                ),
-            ));
-        }
+        crate::params::piece_rows(
+            "simulations",
+            "simulation",
+            (from, self.done, self.sim.opts.n_sim),
+            rows.len(),
+            width,
+        )?;
         for row in rows.chunks(width) {
             let (curve, floored) = row.split_at(width - 1);
             self.sims.extend_from_slice(curve);

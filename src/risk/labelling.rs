@@ -439,21 +439,15 @@ impl LabellingJob {
     /// `from`, which must equal [`LabellingJob::done`]. Returns the number
     /// done so far.
     pub fn add_simulated(&mut self, from: usize, curves: &[f64]) -> Result<usize, AnalysisError> {
-        let nr = self.sim.ctx.r.len();
-        if from != self.done
-            || !curves.len().is_multiple_of(nr)
-            || self.done + curves.len() / nr > self.sim.opts.n_sim
-        {
-            return Err(AnalysisError::BadParameter {
-                name: "relabelled curves".into(),
-                detail: format!(
-                    "expected curves starting at relabelling {}, of {nr} values each",
-                    self.done
-                ),
-            });
-        }
+        let rows = crate::params::piece_rows(
+            "relabelled curves",
+            "relabelling",
+            (from, self.done, self.sim.opts.n_sim),
+            curves.len(),
+            self.sim.ctx.r.len(),
+        )?;
         self.sims.extend_from_slice(curves);
-        self.done += curves.len() / nr;
+        self.done += rows;
         Ok(self.done)
     }
 

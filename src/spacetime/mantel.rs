@@ -488,17 +488,13 @@ impl MantelJob {
     /// Z of permutations `from..to` computed elsewhere (a helper), added
     /// in order: `from` must equal [`MantelJob::done`].
     pub fn add_simulated(&mut self, from: usize, z: &[f64]) -> Result<usize, AnalysisError> {
-        if from != self.sims.len() || from + z.len() > self.total() {
-            return Err(crate::params::bad(
-                "piece",
-                format!(
-                    "permutations from {from} ({} of them) do not continue the {} done of {}",
-                    z.len(),
-                    self.sims.len(),
-                    self.total()
-                ),
-            ));
-        }
+        crate::params::piece_rows(
+            "piece",
+            "permutation",
+            (from, self.sims.len(), self.total()),
+            z.len(),
+            1,
+        )?;
         if z.iter().any(|v| !v.is_finite()) {
             return Err(crate::params::bad(
                 "piece",

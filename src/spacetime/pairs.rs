@@ -629,17 +629,13 @@ impl PairRun {
     /// Adds tables computed elsewhere for permutations `from..`; `from`
     /// must equal [`PairRun::done`]. Returns the number done.
     pub fn add_simulated(&mut self, from: usize, tables: &[u32]) -> Result<usize, AnalysisError> {
-        let cells = self.engine.cells();
-        let k = tables.len() / cells;
-        if from != self.done || !tables.len().is_multiple_of(cells) || self.done + k > self.n_perm {
-            return Err(bad(
-                "permuted tables",
-                format!(
-                    "expected whole tables of {cells} counts for permutations starting at {}",
-                    self.done
-                ),
-            ));
-        }
+        let k = crate::params::piece_rows(
+            "permuted tables",
+            "permutation",
+            (from, self.done, self.n_perm),
+            tables.len(),
+            self.engine.cells(),
+        )?;
         self.sims.extend_from_slice(tables);
         self.done += k;
         Ok(self.done)

@@ -604,17 +604,13 @@ impl StScanJob {
     /// Appends maxima computed elsewhere starting at permutation `from`
     /// (which must equal the number done); returns the number done.
     pub fn add_simulated(&mut self, from: usize, maxima: &[f64]) -> Result<usize, AnalysisError> {
-        let done = self.null_max.len();
-        if from != done || done + maxima.len() > self.sim.n_sim() {
-            return Err(bad(
-                "permutations",
-                format!(
-                    "expected at most {} permutations starting at {done} (got {} from {from})",
-                    self.sim.n_sim() - done,
-                    maxima.len()
-                ),
-            ));
-        }
+        crate::params::piece_rows(
+            "permutations",
+            "permutation",
+            (from, self.null_max.len(), self.sim.n_sim()),
+            maxima.len(),
+            1,
+        )?;
         if maxima.iter().any(|v| !(v.is_finite() && *v >= 0.0)) {
             return Err(bad(
                 "permutations",

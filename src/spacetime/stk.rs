@@ -566,21 +566,13 @@ impl SpaceTimeKJob {
 
     /// Grids of permutations `from..` computed elsewhere, added in order.
     pub fn add_simulated(&mut self, from: usize, d: &[f64]) -> Result<usize, AnalysisError> {
-        let cells = self.sim.cells();
-        if from != self.done
-            || !d.len().is_multiple_of(cells)
-            || from + d.len() / cells > self.total()
-        {
-            return Err(crate::params::bad(
-                "piece",
-                format!(
-                    "a piece of {} values from permutation {from} does not continue the {} done of {}",
-                    d.len(),
-                    self.done,
-                    self.total()
-                ),
-            ));
-        }
+        let rows = crate::params::piece_rows(
+            "piece",
+            "permutation",
+            (from, self.done, self.total()),
+            d.len(),
+            self.sim.cells(),
+        )?;
         if d.iter().any(|v| !v.is_finite()) {
             return Err(crate::params::bad(
                 "piece",
@@ -588,7 +580,7 @@ impl SpaceTimeKJob {
             ));
         }
         self.sims.extend_from_slice(d);
-        self.done += d.len() / cells;
+        self.done += rows;
         Ok(self.done)
     }
 
