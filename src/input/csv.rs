@@ -15,6 +15,7 @@
 //! The reader borrows field text from the input and allocates only for quoted
 //! fields that contain doubled quotes.
 
+use super::text::trim;
 use std::borrow::Cow;
 use std::ops::Range;
 
@@ -151,7 +152,7 @@ impl<'a> Reader<'a> {
             break;
         }
         self.pos = pos;
-        let blank = fields.iter().all(|f| f.trim().is_empty());
+        let blank = fields.iter().all(|f| trim(f).is_empty());
         Some(Ok(RecordInfo {
             row,
             span: start..end,
@@ -268,7 +269,7 @@ pub fn decimal_mark(cell: &str) -> DecimalMark {
 /// number (text, NaN, infinities, overflow such as `1e999`). With
 /// `decimal_comma`, commas are read as decimal points, using `buf` as scratch.
 pub fn parse_number(cell: &str, decimal_comma: bool, buf: &mut String) -> Option<f64> {
-    let s = cell.trim();
+    let s = trim(cell);
     let v: f64 = if decimal_comma && s.contains(',') {
         buf.clear();
         buf.extend(s.chars().map(|c| if c == ',' { '.' } else { c }));
