@@ -26,7 +26,6 @@
 //!
 //! Weighted versions (using the weight column) are not computed yet.
 
-use crate::index::GridIndex;
 use crate::study::{Coincidence, Study};
 use crate::window::WindowOrigin;
 use serde::Serialize;
@@ -256,7 +255,8 @@ pub fn summarise(study: &Study) -> Summary {
 
     // Only the distribution is needed: the distances in grid order, the
     // median by selection (linear time), the same values as sorting.
-    let nearest_neighbour_m = GridIndex::new(x, y).nn_distances_unordered().map(|mut d| {
+    // The index kept with the events (built at intake for the coincidences).
+    let nearest_neighbour_m = ev.index().nn_distances_unordered().map(|mut d| {
         let m = d.len();
         let mean = d.iter().sum::<f64>() / m as f64;
         let (min, max) = d
