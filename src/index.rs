@@ -200,14 +200,17 @@ impl Locations {
     fn build(g: &GridIndex) -> Locations {
         let n = g.len();
         let ncell = g.nx * g.ny;
+        // At most n locations: room for all, so no table grows by copying.
+        let mut off = Vec::with_capacity(n + 1);
+        off.push(0);
         let mut loc = Locations {
-            x: Vec::new(),
-            y: Vec::new(),
+            x: Vec::with_capacity(n),
+            y: Vec::with_capacity(n),
             start: Vec::with_capacity(ncell + 1),
-            off: vec![0],
+            off,
             slots: Vec::with_capacity(n),
             of_slot: vec![0; n],
-            first_id: Vec::new(),
+            first_id: Vec::with_capacity(n),
         };
         // Exactly equal coordinates (0.0 and −0.0 alike) share a location;
         // a non-finite point is a location of its own.

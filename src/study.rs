@@ -94,8 +94,14 @@ impl Pattern {
         x: Vec<f64>,
         y: Vec<f64>,
     ) -> Pattern {
+        // `keep` is ascending within the layer's points: as many as the
+        // layer has, it is 0, 1, 2, ... and a full column is taken whole.
+        let all = |len: usize| len == layer.len() && keep.len() == len;
         let pick_f = |v: &Option<Vec<f64>>| {
             v.as_ref().map(|v| {
+                if all(v.len()) {
+                    return v.clone();
+                }
                 keep.iter()
                     .map(|&i| v.get(i).copied().unwrap_or(f64::NAN))
                     .collect()
@@ -107,16 +113,22 @@ impl Pattern {
             time: pick_f(&layer.time),
             time_end: pick_f(&layer.time_end),
             category: layer.category.as_ref().map(|v| {
+                if all(v.len()) {
+                    return v.clone();
+                }
                 keep.iter()
                     .map(|&i| v.get(i).copied().unwrap_or(0))
                     .collect()
             }),
             category_names: layer.category_names.clone(),
             weight: pick_f(&layer.weight),
-            row: keep
-                .iter()
-                .map(|&i| layer.row.get(i).copied().unwrap_or(0))
-                .collect(),
+            row: if all(layer.row.len()) {
+                layer.row.clone()
+            } else {
+                keep.iter()
+                    .map(|&i| layer.row.get(i).copied().unwrap_or(0))
+                    .collect()
+            },
             index: IndexCache::default(),
         }
     }
@@ -350,7 +362,6 @@ fn place_layer(
 ) -> (Pattern, Vec<Rejection>, Vec<usize>) {
     let n = layer.len();
     let mut keep = Vec::with_capacity(n);
-    let (mut xs, mut ys) = (Vec::with_capacity(n), Vec::with_capacity(n));
     let mut rejections = layer.rejections.clone();
     let (px, py, drawn_around) = match projected {
         Some(p) if p.0.len() == n && p.1.len() == n => p,
@@ -363,8 +374,6 @@ fn place_layer(
         let (e, no) = (px[i], py[i]);
         if e.is_finite() && no.is_finite() && (drawn_around || window.contains(e, no)) {
             keep.push(i);
-            xs.push(e);
-            ys.push(no);
         } else {
             // Say which number is which (a swapped pair is a common cause).
             let mut value = match layer.coords {
@@ -383,6 +392,15 @@ fn place_layer(
         }
     }
     rejections.sort_by_key(|r| r.row);
+    // Every point kept (the usual case): the projected vectors as they are.
+    let (xs, ys) = if keep.len() == n {
+        (px, py)
+    } else {
+        (
+            keep.iter().map(|&i| px[i]).collect(),
+            keep.iter().map(|&i| py[i]).collect(),
+        )
+    };
     (
         Pattern::from_layer_subset(layer, &keep, xs, ys),
         rejections,
