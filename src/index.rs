@@ -200,14 +200,17 @@ impl Locations {
     fn build(g: &GridIndex) -> Locations {
         let n = g.len();
         let ncell = g.nx * g.ny;
+        // At most n locations: room for all, so no table grows by copying.
+        let mut off = Vec::with_capacity(n + 1);
+        off.push(0);
         let mut loc = Locations {
-            x: Vec::new(),
-            y: Vec::new(),
+            x: Vec::with_capacity(n),
+            y: Vec::with_capacity(n),
             start: Vec::with_capacity(ncell + 1),
-            off: vec![0],
+            off,
             slots: Vec::with_capacity(n),
             of_slot: vec![0; n],
-            first_id: Vec::new(),
+            first_id: Vec::with_capacity(n),
         };
         // Exactly equal coordinates (0.0 and −0.0 alike) share a location;
         // a non-finite point is a location of its own.
@@ -729,9 +732,7 @@ impl GridIndex {
             let d = if m > k {
                 0.0
             } else if k == 1 {
-                let mut b = BestD(f64::INFINITY);
-                self.search(loc.x[l], loc.y[l], l, &mut b);
-                b.0.sqrt()
+                self.nearest_d2_of_location(l).sqrt()
             } else {
                 // The other m − 1 events here are at distance 0.
                 b.reset(k - (m - 1));
@@ -743,6 +744,61 @@ impl GridIndex {
             }
         }
         Some(())
+    }
+
+    /// Squared distance from location l to the nearest other location (∞
+    /// when there is none). First the block of 3 × 3 cells around l's cell
+    /// (three runs of locations, one per row); if the nearest found there is
+    /// no farther than the nearest cell outside the block (the stopping
+    /// rule of the ring search after its first ring), it is the nearest of
+    /// all; otherwise the ring search decides. The minimum of the same
+    /// distances², so the ring search's value bit for bit, with less work
+    /// per location for points spread over an area.
+    fn nearest_d2_of_location(&self, l: usize) -> f64 {
+        let loc = self.locations();
+        let (qx, qy) = (loc.x[l], loc.y[l]);
+        let (cx, cy) = (self.col(qx), self.row(qy));
+        let (xlo, xhi) = (cx.saturating_sub(1), (cx + 1).min(self.nx - 1));
+        let (ylo, yhi) = (cy.saturating_sub(1), (cy + 1).min(self.ny - 1));
+        let mut best = f64::INFINITY;
+        for iy in ylo..=yhi {
+            let c0 = iy * self.nx;
+            let ls = loc.run(c0 + xlo, c0 + xhi);
+            let (xs, ys) = (&loc.x[ls.clone()], &loc.y[ls.clone()]);
+            for (k, (&x, &y)) in xs.iter().zip(ys).enumerate() {
+                let dx = x - qx;
+                let dy = y - qy;
+                let d2 = dx * dx + dy * dy;
+                if d2 < best && ls.start + k != l {
+                    best = d2;
+                }
+            }
+        }
+        // Distance to the nearest cell outside the block (as the ring
+        // search bounds it after its ring of radius 1).
+        let mut bound = f64::INFINITY;
+        if cx > 1 {
+            bound = bound.min(qx - (self.x0 + (cx - 1) as f64 * self.cell));
+        }
+        if cx + 2 < self.nx {
+            bound = bound.min(self.x0 + (cx + 2) as f64 * self.cell - qx);
+        }
+        if cy > 1 {
+            bound = bound.min(qy - (self.y0 + (cy - 1) as f64 * self.cell));
+        }
+        if cy + 2 < self.ny {
+            bound = bound.min(self.y0 + (cy + 2) as f64 * self.cell - qy);
+        }
+        if bound == f64::INFINITY {
+            return best; // the block is the whole grid
+        }
+        let bound = bound.max(0.0);
+        if best <= bound * bound {
+            return best;
+        }
+        let mut b = BestD(f64::INFINITY);
+        self.search(qx, qy, l, &mut b);
+        b.0
     }
 
     /// Index of each point's nearest other point and the distance, in input
@@ -1254,6 +1310,51 @@ mod tests {
         (0..n)
             .map(|_| (rng.random::<f64>() * 1000.0, rng.random::<f64>() * 500.0))
             .unzip()
+    }
+
+    /// The 3 × 3 block shortcut of the nearest-neighbour distance against
+    /// the ring search alone and against brute force, location by location,
+    /// on spread points, a tight cloud with far outliers (the shortcut
+    /// falls back to the ring search there), a line, stacked points and
+    /// grids of one or two cells.
+    #[test]
+    fn block_shortcut_equals_ring_search_and_brute_force() {
+        let mut rng = rng_from_seed(SEED_2);
+        let mut cases: Vec<(Vec<f64>, Vec<f64>)> = vec![random_points(2000, SEED_1)];
+        let (mut x, mut y): (Vec<f64>, Vec<f64>) = (0..1500)
+            .map(|_| (rng.random::<f64>(), rng.random::<f64>()))
+            .unzip();
+        x.extend([500.0, -800.0, 3.0]);
+        y.extend([-300.0, 20.0, 900.0]);
+        cases.push((x, y));
+        cases.push(((0..300).map(|i| i as f64 * 1.5).collect(), vec![7.0; 300]));
+        cases.push((vec![2.0; 5], vec![3.0; 5]));
+        cases.push((vec![0.0, 1.0], vec![0.0, 1.0]));
+        cases.push((vec![0.0, 1.0, 1.0, 5.0], vec![0.0, 0.0, 0.0, 0.0]));
+        let mut fell_back = 0;
+        for (x, y) in &cases {
+            let g = GridIndex::new(x, y);
+            let loc = g.locations();
+            for l in 0..loc.len() {
+                let mut b = BestD(f64::INFINITY);
+                g.search(loc.x[l], loc.y[l], l, &mut b);
+                let got = g.nearest_d2_of_location(l);
+                assert_eq!(got.to_bits(), b.0.to_bits(), "location {l}");
+                let i = g.id[loc.members(l)[0] as usize] as usize;
+                let want = (0..x.len())
+                    .filter(|&j| x[j] != x[i] || y[j] != y[i])
+                    .map(|j| (x[j] - x[i]) * (x[j] - x[i]) + (y[j] - y[i]) * (y[j] - y[i]))
+                    .fold(f64::INFINITY, f64::min);
+                assert_eq!(got, want, "location {l}");
+                if g.nx * g.ny > 9 && b.0 > 0.0 {
+                    let c = g.cell();
+                    // Beyond two cells is beyond every cell of the block.
+                    fell_back += usize::from(got > 4.0 * c * c);
+                }
+            }
+        }
+        // The outliers took the fallback (nearest beyond the block's reach).
+        assert!(fell_back > 0);
     }
 
     /// Sorted distances from point i to every other point (brute force).

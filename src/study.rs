@@ -7,6 +7,7 @@
 //! has to re-check coordinates.
 
 use crate::error::{InputError, InputErrorKind};
+use crate::index::GridIndex;
 use crate::input::{CoordKind, LengthUnit, RawArea, RawLayer, RejectReason, Rejection};
 use crate::projection::Projection;
 use crate::window::{Window, WindowOrigin};
@@ -43,9 +44,33 @@ pub struct Pattern {
     category_names: Vec<String>,
     weight: Option<Vec<f64>>,
     row: Vec<u64>,
+    /// The neighbour index of x, y ([`Pattern::index`]).
+    index: IndexCache,
+}
+
+/// The neighbour index of a pattern's points, built on first use and then
+/// kept (shared by clones: the points never change after construction).
+/// It is derived from the points, so it plays no part in comparing patterns.
+#[derive(Debug, Clone, Default)]
+struct IndexCache(std::sync::OnceLock<std::sync::Arc<GridIndex>>);
+
+impl PartialEq for IndexCache {
+    fn eq(&self, _: &IndexCache) -> bool {
+        true
+    }
 }
 
 impl Pattern {
+    /// The neighbour index of the points ([`GridIndex::new`] on x, y, in
+    /// the pattern's order), built on first use and kept with the pattern:
+    /// the study counts coincident events with it and the summary finds
+    /// nearest neighbours with it, so intake builds one index, not two.
+    pub fn index(&self) -> &GridIndex {
+        self.index
+            .0
+            .get_or_init(|| std::sync::Arc::new(GridIndex::new(&self.x, &self.y)))
+    }
+
     /// A bare pattern from coordinates in metres (rows numbered 1..=n).
     /// Returns `None` if lengths differ or a coordinate is not finite.
     pub fn from_xy(x: Vec<f64>, y: Vec<f64>) -> Option<Pattern> {
@@ -69,8 +94,14 @@ impl Pattern {
         x: Vec<f64>,
         y: Vec<f64>,
     ) -> Pattern {
+        // `keep` is ascending within the layer's points: as many as the
+        // layer has, it is 0, 1, 2, ... and a full column is taken whole.
+        let all = |len: usize| len == layer.len() && keep.len() == len;
         let pick_f = |v: &Option<Vec<f64>>| {
             v.as_ref().map(|v| {
+                if all(v.len()) {
+                    return v.clone();
+                }
                 keep.iter()
                     .map(|&i| v.get(i).copied().unwrap_or(f64::NAN))
                     .collect()
@@ -82,16 +113,23 @@ impl Pattern {
             time: pick_f(&layer.time),
             time_end: pick_f(&layer.time_end),
             category: layer.category.as_ref().map(|v| {
+                if all(v.len()) {
+                    return v.clone();
+                }
                 keep.iter()
                     .map(|&i| v.get(i).copied().unwrap_or(0))
                     .collect()
             }),
             category_names: layer.category_names.clone(),
             weight: pick_f(&layer.weight),
-            row: keep
-                .iter()
-                .map(|&i| layer.row.get(i).copied().unwrap_or(0))
-                .collect(),
+            row: if all(layer.row.len()) {
+                layer.row.clone()
+            } else {
+                keep.iter()
+                    .map(|&i| layer.row.get(i).copied().unwrap_or(0))
+                    .collect()
+            },
+            index: IndexCache::default(),
         }
     }
     pub fn len(&self) -> usize {
@@ -257,22 +295,55 @@ fn mid_range(v: impl Iterator<Item = f64>) -> f64 {
 }
 
 /// Counts events at exactly the same input coordinates (0.0 and −0.0 as
-/// the same place): the distinct locations of the neighbour index built on
-/// those coordinates, which groups equal points cell by cell without
-/// sorting them all.
-fn coincidence(x: &[f64], y: &[f64]) -> Coincidence {
-    let g = crate::index::GridIndex::new(x, y);
+/// the same place) on a neighbour index over the same points (in any
+/// coordinates that give equal points equal places, such as their
+/// projection): `input(i)` gives point i's input coordinates. The index
+/// groups equal places cell by cell without sorting them all; a place
+/// holding two or more points is split by the points' input coordinates,
+/// so two inputs that a projection happened to round to one place are not
+/// counted together.
+fn coincidence_on(g: &GridIndex, input: impl Fn(usize) -> (f64, f64)) -> Coincidence {
     let loc = g.locations();
     let mut c = Coincidence::default();
-    for l in 0..loc.len() {
-        let run = loc.mult(l);
+    let mut add = |run: usize| {
         if run >= 2 {
             c.locations += 1;
             c.events += run;
             c.largest = c.largest.max(run);
         }
+    };
+    let key = |s: u32| {
+        let (x, y) = input(g.id[s as usize] as usize);
+        ((x + 0.0).to_bits(), (y + 0.0).to_bits())
+    };
+    let mut keys = Vec::new();
+    for l in 0..loc.len() {
+        let members = loc.members(l);
+        let Some(&first) = members.first() else {
+            continue;
+        };
+        if members.len() < 2 {
+            continue;
+        }
+        let k0 = key(first);
+        if members.iter().all(|&s| key(s) == k0) {
+            add(members.len());
+            continue;
+        }
+        keys.clear();
+        keys.extend(members.iter().map(|&s| key(s)));
+        keys.sort_unstable();
+        for run in keys.chunk_by(|a, b| a == b) {
+            add(run.len());
+        }
     }
     c
+}
+
+/// [`coincidence_on`] with an index built on the input coordinates.
+#[cfg(test)]
+fn coincidence(x: &[f64], y: &[f64]) -> Coincidence {
+    coincidence_on(&GridIndex::new(x, y), |i| (x[i], y[i]))
 }
 
 /// Projects a layer and keeps the points inside the window; the rest become
@@ -291,7 +362,6 @@ fn place_layer(
 ) -> (Pattern, Vec<Rejection>, Vec<usize>) {
     let n = layer.len();
     let mut keep = Vec::with_capacity(n);
-    let (mut xs, mut ys) = (Vec::with_capacity(n), Vec::with_capacity(n));
     let mut rejections = layer.rejections.clone();
     let (px, py, drawn_around) = match projected {
         Some(p) if p.0.len() == n && p.1.len() == n => p,
@@ -304,8 +374,6 @@ fn place_layer(
         let (e, no) = (px[i], py[i]);
         if e.is_finite() && no.is_finite() && (drawn_around || window.contains(e, no)) {
             keep.push(i);
-            xs.push(e);
-            ys.push(no);
         } else {
             // Say which number is which (a swapped pair is a common cause).
             let mut value = match layer.coords {
@@ -324,6 +392,15 @@ fn place_layer(
         }
     }
     rejections.sort_by_key(|r| r.row);
+    // Every point kept (the usual case): the projected vectors as they are.
+    let (xs, ys) = if keep.len() == n {
+        (px, py)
+    } else {
+        (
+            keep.iter().map(|&i| px[i]).collect(),
+            keep.iter().map(|&i| py[i]).collect(),
+        )
+    };
     (
         Pattern::from_layer_subset(layer, &keep, xs, ys),
         rejections,
@@ -734,10 +811,10 @@ impl Study {
             None => (None, Vec::new(), 0),
         };
 
-        // 5. Coincident events, by input coordinates.
-        let ix: Vec<f64> = kept.iter().map(|&i| events.x[i]).collect();
-        let iy: Vec<f64> = kept.iter().map(|&i| events.y[i]).collect();
-        let coincident = coincidence(&ix, &iy);
+        // 5. Coincident events, by input coordinates, on the index of the
+        // projected events (equal inputs project to equal places), which
+        // the summary's nearest-neighbour distances then use too.
+        let coincident = coincidence_on(ev.index(), |i| (events.x[kept[i]], events.y[kept[i]]));
         if coincident.locations > 0 {
             warnings.push(format!(
                 "{} events share a location with another event ({} locations, up to {} at one \
@@ -1286,6 +1363,67 @@ mod tests {
             if n == 3000 {
                 assert!(c.locations > 100 && c.largest > 5);
             }
+        }
+    }
+
+    /// Coincident events counted on the projected events' index (as
+    /// `Study::build` does) against sorting the input coordinate pairs and
+    /// counting runs of equal ones, for longitude/latitude centred on
+    /// longitude 0 (so 0.0 and −0.0 reach the projection unchanged), feet
+    /// and metres, with repeated places, signed zeros and a coordinate of
+    /// 1e-300 beside 0.
+    #[test]
+    fn coincidence_on_projected_index_matches_input_runs() {
+        use rand::RngExt;
+        let runs = |pts: &[(f64, f64)]| {
+            let mut p: Vec<(u64, u64)> = pts
+                .iter()
+                .map(|&(x, y)| ((x + 0.0).to_bits(), (y + 0.0).to_bits()))
+                .collect();
+            p.sort_unstable();
+            let mut c = Coincidence::default();
+            for run in p.chunk_by(|a, b| a == b) {
+                if run.len() >= 2 {
+                    c.locations += 1;
+                    c.events += run.len();
+                    c.largest = c.largest.max(run.len());
+                }
+            }
+            c
+        };
+        let mut rng = crate::rng::rng_from_seed(29);
+        let kinds = [
+            (CoordKind::LonLat, 0.01),
+            (
+                CoordKind::Planar {
+                    unit: LengthUnit::Foot,
+                },
+                500.0,
+            ),
+            (METRE, 500.0),
+        ];
+        for (kind, half) in kinds {
+            let mut pts: Vec<(f64, f64)> = (0..4000)
+                .map(|_| {
+                    let a = rng.random_range(0..40) as f64;
+                    let b = rng.random_range(0..40) as f64;
+                    (half * (a / 20.0 - 1.0), half * (b / 20.0 - 1.0))
+                })
+                .collect();
+            pts.extend([
+                (0.0, 0.0),
+                (-0.0, 0.0),
+                (0.0, -0.0),
+                (1e-300, 0.0),
+                (0.0, 1e-300),
+            ]);
+            let ev = layer(kind, &pts);
+            let area = square_area(kind, -2.0 * half, -2.0 * half, 4.0 * half, false);
+            let s = Study::build(&ev, Some(&area), None, AreaFallback::ConvexHull).unwrap();
+            assert_eq!(s.events.len(), pts.len());
+            let want = runs(&pts);
+            assert_eq!(s.coincident, want, "{kind:?}");
+            assert!(want.locations > 500 && want.largest >= 5, "{want:?}");
         }
     }
 

@@ -26,7 +26,6 @@
 //!
 //! Weighted versions (using the weight column) are not computed yet.
 
-use crate::index::GridIndex;
 use crate::study::{Coincidence, Study};
 use crate::window::WindowOrigin;
 use serde::Serialize;
@@ -256,7 +255,8 @@ pub fn summarise(study: &Study) -> Summary {
 
     // Only the distribution is needed: the distances in grid order, the
     // median by selection (linear time), the same values as sorting.
-    let nearest_neighbour_m = GridIndex::new(x, y).nn_distances_unordered().map(|mut d| {
+    // The index kept with the events (built at intake for the coincidences).
+    let nearest_neighbour_m = ev.index().nn_distances_unordered().map(|mut d| {
         let m = d.len();
         let mean = d.iter().sum::<f64>() / m as f64;
         let (min, max) = d
@@ -280,20 +280,24 @@ pub fn summarise(study: &Study) -> Summary {
     });
 
     let time_span = ev.time().and_then(|t| {
-        let ok: Vec<f64> = t.iter().copied().filter(|v| v.is_finite()).collect();
-        let first = ok.iter().copied().fold(f64::INFINITY, f64::min);
-        let last = ok.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        if ok.is_empty() {
+        // One pass over the finite times: how many, first, last, and
+        // whether any is not on a whole day.
+        let (mut n_ok, mut first, mut last, mut clock) =
+            (0usize, f64::INFINITY, f64::NEG_INFINITY, false);
+        for &v in t.iter().filter(|v| v.is_finite()) {
+            n_ok += 1;
+            first = first.min(v);
+            last = last.max(v);
+            clock = clock || ((v * 86_400.0).round() as i64).rem_euclid(86_400) != 0;
+        }
+        if n_ok == 0 {
             return None;
         }
-        let clock = ok
-            .iter()
-            .any(|v| ((v * 86_400.0).round() as i64).rem_euclid(86_400) != 0);
         Some(TimeSpan {
             first: iso(first, clock),
             last: iso(last, clock),
             span_days: last - first,
-            n_with_time: ok.len(),
+            n_with_time: n_ok,
             n_windows: ev.time_windows().0,
             median_window_days: ev.time_windows().1,
         })

@@ -34,7 +34,7 @@
 
 use super::columns::{self, AttrRole, AttrRoles};
 use super::csv::{self, DecimalMark, Reader};
-use super::text::cut_value;
+use super::text::{cut_value, trim};
 use super::time::{parse_time, readable_any_order, DateOrderReport, OrderDetector};
 use super::{
     CoordKind, RawLayer, ReadOptions, RejectReason, Rejection, ResolvedMapping, SourceFormat,
@@ -127,7 +127,7 @@ impl Builder {
 
     /// Index of a category label, adding it in first-seen order.
     pub fn category_id(&mut self, label: &str) -> u32 {
-        let label = label.trim();
+        let label = trim(label);
         let label = if label.is_empty() {
             BLANK_CATEGORY
         } else {
@@ -387,7 +387,6 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         comma > 0 && comma >= point
     };
     let given_order = opts.date_order;
-    let mut buf = String::new();
     let until_role = attrs.time_until;
     let attrs = AttrRoles {
         time: keep_if_readable(attrs.time, cells_of(&sample, attrs.time), |s| {
@@ -410,33 +409,11 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
     };
     drop(sample);
 
-    // 4b. Date order: from every value of the time column unless given.
-    let date_order = attrs.time.map(|r| {
-        let mut det = OrderDetector::default();
-        if given_order.is_none() {
-            let mut rd = reader.clone();
-            let mut f = Vec::new();
-            while let Some(Ok(info)) = rd.read_into(&mut f) {
-                if let Some(cell) = f.get(r.index).filter(|_| !info.blank) {
-                    det.add(info.row, cell);
-                }
-                // The "to" dates are written the same way: they tell too.
-                if let Some(cell) = attrs
-                    .time_until
-                    .and_then(|u| f.get(u.index))
-                    .filter(|_| !info.blank)
-                {
-                    det.add(info.row, cell);
-                }
-            }
-        }
-        det.finish(given_order)
-    });
-    let order = date_order
-        .as_ref()
-        .map_or(super::DateOrder::DayMonthYear, |d| d.used);
-
-    // 5. Read every record.
+    // 5. Read every record. The date order comes from every value of the
+    // time column (unless given): the one pass reads the times day/month/
+    // year while it looks at the values, and only a file that turns out to
+    // be written otherwise is read a second time with its own order (the
+    // same rows and values as reading it once with that order).
     let name = |r: Option<AttrRole>| r.map(|r| headers[r.index].clone());
     let mapping = ResolvedMapping {
         x: Some(headers[xy.x].clone()),
@@ -446,111 +423,140 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         category: name(attrs.category),
         weight: name(attrs.weight),
     };
-    let mut b = Builder::new(
-        attrs.time.is_some(),
-        attrs.category.is_some(),
-        attrs.weight.is_some(),
-    );
-    if attrs.time_until.is_some() {
-        b.time_end = Some(Vec::new());
-    }
-    // Rough capacity guess: ~25 bytes per record.
-    b.reserve((text.len() / 25).min(10_000_000));
     let width = headers.len();
     let (xi, yi) = (xy.x, xy.y);
     let (xname, yname) = (headers[xi].as_str(), headers[yi].as_str());
-    loop {
-        let info = match reader.read_into(&mut fields) {
-            None => break,
-            Some(Err(u)) => return Err(unclosed(u, Some(&headers))),
-            Some(Ok(info)) => info,
-        };
-        if info.blank {
-            continue;
+    let read_rows = |order: super::DateOrder,
+                     mut det: Option<&mut OrderDetector>|
+     -> Result<Builder, InputError> {
+        let mut reader = reader.clone();
+        let mut fields: Vec<Cow<str>> = Vec::new();
+        let mut buf = String::new();
+        let mut b = Builder::new(
+            attrs.time.is_some(),
+            attrs.category.is_some(),
+            attrs.weight.is_some(),
+        );
+        if attrs.time_until.is_some() {
+            b.time_end = Some(Vec::new());
         }
-        b.rows_read += 1;
-        let row = info.row;
-        if fields.len() < width {
-            let raw = &text[info.span.clone()];
-            b.reject(row, None, RejectReason::TooFewFields, raw);
-            continue;
-        }
-        if fields[width..].iter().any(|f| !f.trim().is_empty()) {
-            let raw = &text[info.span.clone()];
-            b.reject(row, None, RejectReason::TooManyFields, raw);
-            continue;
-        }
-        let mut coord = |i: usize, is_x: bool, b: &mut Builder| -> Option<f64> {
-            let cell = fields[i].as_ref();
-            let col = if is_x { xname } else { yname };
-            if cell.trim().is_empty() {
-                b.reject(row, Some(col), RejectReason::Empty, cell);
-                return None;
-            }
-            let Some(v) = csv::parse_number(cell, decimal_comma, &mut buf) else {
-                b.reject(row, Some(col), RejectReason::NotANumber, cell);
-                return None;
+        // Rough capacity guess: ~25 bytes per record.
+        b.reserve((text.len() / 25).min(10_000_000));
+        loop {
+            let info = match reader.read_into(&mut fields) {
+                None => break,
+                Some(Err(u)) => return Err(unclosed(u, Some(&headers))),
+                Some(Ok(info)) => info,
             };
-            if let Some(reason) = range_problem(xy.coords, is_x, v) {
-                b.reject(row, Some(col), reason, cell);
-                return None;
+            if info.blank {
+                continue;
             }
-            Some(v)
-        };
-        let Some(x) = coord(xi, true, &mut b) else {
-            continue;
-        };
-        let Some(y) = coord(yi, false, &mut b) else {
-            continue;
-        };
-        let mut t = (f64::NAN, false);
-        if let Some(r) = attrs.time {
-            let cell = fields[r.index].as_ref();
-            let col = headers[r.index].as_str();
-            if cell.trim().is_empty() {
-                b.note(row, col, RejectReason::Empty, cell);
-            } else {
-                match parse_time(cell, order) {
-                    Some(p) => t = (p.days, p.has_clock),
-                    None => b.note(row, col, RejectReason::BadTime, cell),
-                }
-            }
-        }
-        let mut until = f64::NAN;
-        if let Some(r) = attrs.time_until {
-            let cell = fields[r.index].as_ref();
-            let col = headers[r.index].as_str();
-            // An empty "to" is no window: the event is an instant.
-            if !cell.trim().is_empty() {
-                match parse_time(cell, order) {
-                    Some(p) => {
-                        until = p.days;
-                        t.1 |= p.has_clock;
+            if let Some(det) = det.as_deref_mut() {
+                if let Some(r) = attrs.time {
+                    if let Some(cell) = fields.get(r.index) {
+                        det.add(info.row, cell);
                     }
-                    None => b.note(row, col, RejectReason::BadTime, cell),
+                    // The "to" dates are written the same way: they tell too.
+                    if let Some(cell) = attrs.time_until.and_then(|u| fields.get(u.index)) {
+                        det.add(info.row, cell);
+                    }
                 }
             }
-            until = window_end(&mut b, row, col, cell, t.0, until);
-        }
-        let mut w = f64::NAN;
-        if let Some(r) = attrs.weight {
-            let cell = fields[r.index].as_ref();
-            let col = headers[r.index].as_str();
-            if cell.trim().is_empty() {
-                b.note(row, col, RejectReason::Empty, cell);
-            } else {
-                match weight_value(cell, decimal_comma, &mut buf) {
-                    Some(v) => w = v,
-                    None => b.note(row, col, RejectReason::BadWeight, cell),
+            b.rows_read += 1;
+            let row = info.row;
+            if fields.len() < width {
+                let raw = &text[info.span.clone()];
+                b.reject(row, None, RejectReason::TooFewFields, raw);
+                continue;
+            }
+            if fields[width..].iter().any(|f| !trim(f).is_empty()) {
+                let raw = &text[info.span.clone()];
+                b.reject(row, None, RejectReason::TooManyFields, raw);
+                continue;
+            }
+            let mut coord = |i: usize, is_x: bool, b: &mut Builder| -> Option<f64> {
+                let cell = fields[i].as_ref();
+                let col = if is_x { xname } else { yname };
+                if trim(cell).is_empty() {
+                    b.reject(row, Some(col), RejectReason::Empty, cell);
+                    return None;
+                }
+                let Some(v) = csv::parse_number(cell, decimal_comma, &mut buf) else {
+                    b.reject(row, Some(col), RejectReason::NotANumber, cell);
+                    return None;
+                };
+                if let Some(reason) = range_problem(xy.coords, is_x, v) {
+                    b.reject(row, Some(col), reason, cell);
+                    return None;
+                }
+                Some(v)
+            };
+            let Some(x) = coord(xi, true, &mut b) else {
+                continue;
+            };
+            let Some(y) = coord(yi, false, &mut b) else {
+                continue;
+            };
+            let mut t = (f64::NAN, false);
+            if let Some(r) = attrs.time {
+                let cell = fields[r.index].as_ref();
+                let col = headers[r.index].as_str();
+                if trim(cell).is_empty() {
+                    b.note(row, col, RejectReason::Empty, cell);
+                } else {
+                    match parse_time(cell, order) {
+                        Some(p) => t = (p.days, p.has_clock),
+                        None => b.note(row, col, RejectReason::BadTime, cell),
+                    }
                 }
             }
+            let mut until = f64::NAN;
+            if let Some(r) = attrs.time_until {
+                let cell = fields[r.index].as_ref();
+                let col = headers[r.index].as_str();
+                // An empty "to" is no window: the event is an instant.
+                if !trim(cell).is_empty() {
+                    match parse_time(cell, order) {
+                        Some(p) => {
+                            until = p.days;
+                            t.1 |= p.has_clock;
+                        }
+                        None => b.note(row, col, RejectReason::BadTime, cell),
+                    }
+                }
+                until = window_end(&mut b, row, col, cell, t.0, until);
+            }
+            let mut w = f64::NAN;
+            if let Some(r) = attrs.weight {
+                let cell = fields[r.index].as_ref();
+                let col = headers[r.index].as_str();
+                if trim(cell).is_empty() {
+                    b.note(row, col, RejectReason::Empty, cell);
+                } else {
+                    match weight_value(cell, decimal_comma, &mut buf) {
+                        Some(v) => w = v,
+                        None => b.note(row, col, RejectReason::BadWeight, cell),
+                    }
+                }
+            }
+            let cat = match attrs.category {
+                Some(r) => b.category_id(fields[r.index].as_ref()),
+                None => 0,
+            };
+            b.accept(row, x, y, t, cat, w);
+            b.accept_until(until);
         }
-        let cat = match attrs.category {
-            Some(r) => b.category_id(fields[r.index].as_ref()),
-            None => 0,
-        };
-        b.accept(row, x, y, t, cat, w);
-        b.accept_until(until);
+        Ok(b)
+    };
+    let provisional = given_order.unwrap_or(super::DateOrder::DayMonthYear);
+    let mut det = OrderDetector::default();
+    let detect = attrs.time.is_some() && given_order.is_none();
+    let mut b = read_rows(provisional, detect.then_some(&mut det))?;
+    let date_order = attrs.time.map(|_| det.finish(given_order));
+    if let Some(d) = &date_order {
+        if d.used != provisional {
+            b = read_rows(d.used, None)?;
+        }
     }
     b.date_order = date_order;
     let format = SourceFormat::Csv {

@@ -165,7 +165,7 @@ impl Cur<'_> {
 /// ```
 pub fn parse_time(text: &str, order: DateOrder) -> Option<ParsedTime> {
     let mut c = Cur {
-        b: text.trim().as_bytes(),
+        b: super::text::trim(text).as_bytes(),
         i: 0,
     };
     let (a, na) = c.digits(5);
@@ -324,6 +324,17 @@ pub enum OrderHint {
 
 /// Which of day/month/year and month/day/year a cell allows.
 pub fn order_hint(text: &str) -> OrderHint {
+    // Only a first field of one or two digits can be read two ways: a
+    // four-digit first field is the year under either order, and any other
+    // length is read by neither. The usual ISO 8601 date skips both readings.
+    let lead = super::text::trim(text)
+        .bytes()
+        .take(3)
+        .take_while(u8::is_ascii_digit)
+        .count();
+    if !(1..=2).contains(&lead) {
+        return OrderHint::Neutral;
+    }
     let d = parse_time(text, DateOrder::DayMonthYear);
     let m = parse_time(text, DateOrder::MonthDayYear);
     match (d, m) {
@@ -738,5 +749,59 @@ mod tests {
                 None => assert_eq!(got, None, "{text:?}: Python refused it"),
             }
         }
+    }
+
+    /// The shortcut of [`order_hint`] (no readings unless the first field
+    /// has one or two digits) against its definition, both readings
+    /// compared, on dates in every form with first fields of 0 to 5 digits,
+    /// padded with spaces, with clock times and with text.
+    #[test]
+    fn order_hint_shortcut_equals_both_readings() {
+        let both = |text: &str| {
+            let d = parse_time(text, DateOrder::DayMonthYear);
+            let m = parse_time(text, DateOrder::MonthDayYear);
+            match (d, m) {
+                (Some(a), Some(b)) if a.days != b.days => OrderHint::Either,
+                (Some(_), None) => OrderHint::DayFirstOnly,
+                (None, Some(_)) => OrderHint::MonthFirstOnly,
+                _ => OrderHint::Neutral,
+            }
+        };
+        let firsts = ["", "3", "03", "13", "23", "003", "2025", "02025", "31"];
+        let seconds = ["4", "04", "12", "13", "30", "2025"];
+        let thirds = ["2025", "25", "4", "04", "31", "02025"];
+        let mut n = 0;
+        for a in firsts {
+            for b in seconds {
+                for c in thirds {
+                    for sep in ['-', '/', '.'] {
+                        for tail in ["", " 14:30", "T08:00Z"] {
+                            for pad in ["", " ", "\t"] {
+                                let t = format!("{pad}{a}{sep}{b}{sep}{c}{tail}{pad}");
+                                assert_eq!(order_hint(&t), both(&t), "{t:?}");
+                                n += 1;
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        for t in [
+            "",
+            " ",
+            "abc",
+            "1",
+            "12",
+            "12/",
+            "x12/01/2025",
+            "\u{A0}03/04/2025",
+        ] {
+            assert_eq!(order_hint(t), both(t), "{t:?}");
+        }
+        assert!(n > 8000);
+        // Cases of each kind are among them (the comparison is not all-neutral).
+        assert_eq!(order_hint("23/04/2025"), OrderHint::DayFirstOnly);
+        assert_eq!(order_hint(" 04/23/2025 "), OrderHint::MonthFirstOnly);
+        assert_eq!(order_hint("3.4.2025"), OrderHint::Either);
     }
 }
