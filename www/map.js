@@ -451,13 +451,18 @@ export class PointMap {
       if (byCat) byCat[b * nc + Math.min(cat ? cat[j] : 0, nc - 1)]++;
       drawnEvents++;
     }
-    const filled = [];
-    for (let b = 0; b < counts.length; b++) if (counts[b] > 0) filled.push(counts[b]);
-    if (filled.length === 0) {
+    // The counts of the squares holding events, sorted as numbers: a typed
+    // array sorts without calling a comparison function, which at a
+    // million events is ten times faster than Array.prototype.sort.
+    let nFilled = 0;
+    for (let b = 0; b < counts.length; b++) if (counts[b] > 0) nFilled++;
+    if (nFilled === 0) {
       ctx.putImageData(img, 0, 0);
       return { events: 0, controls: drawnControls };
     }
-    filled.sort((a, b) => a - b);
+    const filled = new Uint32Array(nFilled);
+    for (let b = 0, m = 0; b < counts.length; b++) if (counts[b] > 0) filled[m++] = counts[b];
+    filled.sort();
     const top = Math.max(2, filled[Math.min(filled.length - 1, Math.floor(filled.length * 0.99))]);
     const rgb = colours.map((h) => [parseInt(h.slice(1, 3), 16), parseInt(h.slice(3, 5), 16), parseInt(h.slice(5, 7), 16)]);
     const bytes = img.data;
