@@ -298,7 +298,7 @@ pub fn llr_poisson(c: f64, e: f64, total: f64) -> f64 {
 /// Bernoulli LLR for raised risk (docs/methods.md#scan): `c` cases among `n` in the
 /// window, `cases` among `total` in all. 0 unless `c/n > (C−c)/(N−n)`.
 pub fn llr_bernoulli(c: f64, n: f64, cases: f64, total: f64) -> f64 {
-    if n <= 0.0 || n >= total || c / n <= (cases - c) / (total - n) {
+    if !bernoulli_raised(c, n, cases, total) {
         return 0.0;
     }
     let l1 = xlogx(c, n)
@@ -307,6 +307,14 @@ pub fn llr_bernoulli(c: f64, n: f64, cases: f64, total: f64) -> f64 {
         + xlogx(total - n - cases + c, total - n);
     let l0 = xlogx(cases, total) + xlogx(total - cases, total);
     (l1 - l0).max(0.0)
+}
+
+/// Whether [`llr_bernoulli`] sees raised risk (where it may be above 0):
+/// `c/n > (C−c)/(N−n)` with `0 < n < N`. With whole numbers this is
+/// monotone as computed too (rounded quotients keep their order): it only
+/// turns true with more cases and only false with more people.
+pub(crate) fn bernoulli_raised(c: f64, n: f64, cases: f64, total: f64) -> bool {
+    !(n <= 0.0 || n >= total || c / n <= (cases - c) / (total - n))
 }
 
 /// A prepared scan whose replicates run in batches.
@@ -758,7 +766,7 @@ impl ScanJob {
             && model == ScanModel::Bernoulli
             && CompactCircles::fits(&r.population, total_cases))
         .then(|| {
-            let mut c = CompactCircles::new(&r.population, total_cases);
+            let mut c = CompactCircles::new(&r.population, total_cases, limit);
             each_circle(&r.x, &r.y, &r.population, limit, None, &mut c).map(|()| c)
         })
         .transpose()?;
@@ -952,10 +960,13 @@ impl ScanJob {
                 self.simulate(&mut rng, &mut cases, &mut individuals, &mut picks);
                 lanes.set(l, &cases);
             }
-            let mut t = [0.0f64; LANES];
-            lanes.smallest(c, |l, cnt, p| {
-                t[l] = t[l].max(self.llr(cnt as f64, f64::from(p)));
-            });
+            let (cc, total) = (self.total_cases as f64, self.total_pop);
+            let t = lanes.maxima(
+                c,
+                |cnt, p| self.llr(f64::from(cnt), f64::from(p)),
+                |cnt, p| bernoulli_raised(f64::from(cnt), f64::from(p), cc, total),
+                1e-9 + 1e-12 * total,
+            );
             out.extend_from_slice(&t[..k]);
             j0 += k;
         }
