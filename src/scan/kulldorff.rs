@@ -965,7 +965,8 @@ impl ScanJob {
                 c,
                 |cnt, p| self.llr(f64::from(cnt), f64::from(p)),
                 |cnt, p| bernoulli_raised(f64::from(cnt), f64::from(p), cc, total),
-                1e-9 + 1e-12 * total,
+                // Rounding of the LLR: terms of about N ln N (N people) summed.
+                1e-9 + 1e-11 * total,
             );
             out.extend_from_slice(&t[..k]);
             j0 += k;

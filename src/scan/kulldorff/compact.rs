@@ -300,6 +300,8 @@ pub(super) struct Lanes {
     thr0: Vec<[u64; 2]>,
     /// The maximum each lane's table was made for.
     m_tab: [f64; LANES],
+    /// `k ln k` for k people from 0 to all (bounded circles only).
+    xlnx: Vec<f64>,
     /// Work done so far: blocks walked, blocks redone, windows scored,
     /// tables made (for tests and tuning).
     pub tally: [u64; 4],
@@ -317,6 +319,14 @@ impl Lanes {
             thr: Vec::new(),
             thr0: Vec::new(),
             m_tab: [0.0; LANES],
+            xlnx: if c.bounded {
+                let total: u64 = c.people.iter().map(|&p| u64::from(p)).sum();
+                (0..=total)
+                    .map(|k| k as f64 * (k as f64).ln().max(0.0))
+                    .collect()
+            } else {
+                Vec::new()
+            },
             tally: [0; 4],
         }
     }
@@ -383,15 +393,29 @@ impl Lanes {
         let people = &circles.people[..];
         let packed = &self.packed[..];
         let n = circles.full.len();
+        self.tally[0] += circles.blocks.len() as u64;
+        // The tables are made with the LLR from a table of `k ln k` (the
+        // same numbers within rounding, and far quicker).
+        let xlnx = &self.xlnx;
+        let (cc, total) = (u32::from(circles.cases), xlnx.len() as u32 - 1);
+        let at = |k: u32| xlnx[k as usize];
+        let l0 = at(cc) + at(total - cc) - at(total);
+        // A window holds at most all the controls: for counts too small for
+        // that no window exists, and "not above" is safe to say.
+        let g = |c: u32, n: u32| {
+            if n - c > total - cc {
+                return f64::NEG_INFINITY;
+            }
+            at(c) + at(n - c) - at(n) + at(cc - c) + at(total - n - cc + c) - at(total - n) - l0
+        };
         // The tables are remade only now and then (a stale one is only less
-        // selective): at 64 points of the pass, for lanes whose maximum
-        // rose by more than 5 %.
-        let every = (n / 64).max(1);
+        // selective): after a centre, for lanes whose maximum rose by more
+        // than 5 %.
         for i in 0..n {
             let (mut a, mut b) = (0u64, 0u64);
             let mut k = circles.start[i];
             let blocks = &circles.blocks[circles.bstart[i]..circles.bstart[i + 1]];
-            self.tally[0] += blocks.len() as u64;
+
             for blk in blocks {
                 let end = k + blk.len();
                 let (a0, b0) = (a, b);
@@ -417,14 +441,12 @@ impl Lanes {
                 }
                 k = end;
             }
-            if (i + 1) % every == 0 {
-                for l in 0..LANES {
-                    if m[l] > self.m_tab[l] * 1.05 + 0.05 {
-                        self.m_tab[l] = m[l];
-                        let t = m[l] - (rounding + 1e-9 * m[l]);
-                        threshold(&mut self.thr, l, t, circles.cases.into(), llr, raised);
-                        self.tally[3] += 1;
-                    }
+            for l in 0..LANES {
+                if m[l] > self.m_tab[l] * 1.1 + 0.1 {
+                    self.m_tab[l] = m[l];
+                    let t = m[l] - (rounding + 1e-9 * m[l]);
+                    threshold(&mut self.thr, l, t, circles.cases.into(), &g, raised);
+                    self.tally[3] += 1;
                 }
             }
         }
@@ -557,7 +579,10 @@ fn windows<E: Entry>(
             continue;
         }
         let t = thr[q as usize];
-        for (word, x, off) in [(((a | HIGH) - t[0]) & HIGH, a, 0), (((b | HIGH) - t[1]) & HIGH, b, 4)] {
+        for (word, x, off) in [
+            (((a | HIGH) - t[0]) & HIGH, a, 0),
+            (((b | HIGH) - t[1]) & HIGH, b, 4),
+        ] {
             let mut bits = word;
             while bits != 0 {
                 let lane = (bits.trailing_zeros() >> 4) as usize;
