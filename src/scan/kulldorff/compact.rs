@@ -441,10 +441,10 @@ impl Lanes {
                 }
                 k = end;
             }
-            for l in 0..LANES {
-                if m[l] > self.m_tab[l] * 1.1 + 0.1 {
-                    self.m_tab[l] = m[l];
-                    let t = m[l] - (rounding + 1e-9 * m[l]);
+            for (l, (&ml, tab)) in m.iter().zip(self.m_tab.iter_mut()).enumerate() {
+                if ml > *tab * 1.1 + 0.1 {
+                    *tab = ml;
+                    let t = ml - (rounding + 1e-9 * ml);
                     threshold(&mut self.thr, l, t, circles.cases.into(), &g, raised);
                     self.tally[3] += 1;
                 }
