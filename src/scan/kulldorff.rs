@@ -833,13 +833,40 @@ impl ScanJob {
         let n = self.regions.x.len();
         let mut best = Vec::with_capacity(n);
         let mut top = 0.0f64;
+        // Case–control data with up to 2²² people: a window is scored only
+        // if it is of raised risk and its LLR from a table of `k ln k`
+        // (the same number within rounding, far quicker) comes within a
+        // margin of the centre's best so far; one that does not could not
+        // have replaced it, so the result is the same bit for bit.
+        let (cc, total) = (self.total_cases as f64, self.total_pop);
+        let screen = self.compact.is_some() && total <= f64::from(1u32 << 22);
+        let xlnx: Vec<f64> = if screen {
+            (0..=total as u64)
+                .map(|k| k as f64 * (k as f64).ln().max(0.0))
+                .collect()
+        } else {
+            Vec::new()
+        };
+        let at = |k: f64| xlnx.get(k as usize).copied().unwrap_or(0.0);
+        let l0 = at(cc) + at(total - cc) - at(total);
+        let margin = 1e-9 + 1e-11 * total;
         for i in 0..n {
             let mut c = 0u64;
             let mut b = (0.0, usize::MAX);
             self.walk(i, |k, j, p| {
                 c += self.regions.cases[j] as u64;
                 if p.is_finite() {
-                    let l = self.llr(c as f64, p);
+                    let cf = c as f64;
+                    if screen
+                        && (!bernoulli_raised(cf, p, cc, total)
+                            || at(cf) + at(p - cf) - at(p) + at(cc - cf) + at(total - p - cc + cf)
+                                - at(total - p)
+                                - l0
+                                <= b.0 - margin)
+                    {
+                        return;
+                    }
+                    let l = self.llr(cf, p);
                     if l > b.0 {
                         b = (l, k);
                     }
