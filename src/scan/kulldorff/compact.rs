@@ -20,6 +20,13 @@
 //! over all centres. The largest LLR of a run is, as in the general path,
 //! the largest over counts `c` of `LLR(c, smallest population with c)`:
 //! the same windows, the same whole numbers, the same maxima bit for bit.
+//!
+//! Up to 2²⁰ people in the largest circle and fewer than 32,768 cases the
+//! slots and fold are replaced by an exact bound ([`Lanes::maxima`]): the
+//! lists are walked nearest first in blocks cut at set-up, and a block is
+//! passed over when the counts at its end cannot give any of its windows
+//! an LLR above the run's maximum so far (a threshold table per lane,
+//! indexed by people); other blocks are scored window by window.
 
 use super::{CircleSink, MAX_LIST_ENTRIES};
 
