@@ -12,6 +12,8 @@
 // on every place (`centres: 'events'`, exact) and, for comparison, on grid
 // cells (`large 5000`: 5,000 events, 2,500 of each); the time to set up (scanStart: circles, data scored, a few chance
 // runs timed) is printed apart.
+// A sixth argument `two` (e.g. `999 1 large 10000 two`) times only the run
+// spread over helper workers with circles at every place.
 // Prints one JSON line per run. Never run from the tests.
 import { launch, openPage, act, uniformCsv } from '../tests/e2e/helpers.mjs';
 
@@ -20,8 +22,9 @@ const repeats = Number(process.argv[3]) || 2;
 const large = process.argv[4] === 'large';
 // `large N`: N events instead of 10,000 (half cases, half controls).
 const half = Math.round((Number(process.argv[5]) || 10000) / 2);
+const twoOnly = process.argv[6] === 'two';
 const scenarios = large
-  ? [['large', 'bernoulli', 'events'], ['large', 'bernoulli', 'grid']]
+  ? [['large', 'bernoulli', 'events'], ['large', 'bernoulli', 'grid']].slice(0, twoOnly ? 1 : 2)
   : [['#demo-button', 'bernoulli'], ['#demo-counts-button', 'poisson_population'], [null, 'poisson']];
 const browser = await launch();
 try {
@@ -39,7 +42,7 @@ try {
     await page.waitForFunction((m) => document.getElementById('hs-scan-model').dataset.model === m, model, { timeout: 30000 });
     let base = null;
     for (let r = 0; r < repeats; r++) {
-      for (const parallel of [false, true]) {
+      for (const parallel of twoOnly ? [true] : [false, true]) {
         const got = await page.evaluate(async ({ nSim, parallel, centres }) => {
           const params = { n_sim: nSim, seed: 7 };
           if (centres) params.centres = centres;

@@ -298,7 +298,7 @@ pub fn llr_poisson(c: f64, e: f64, total: f64) -> f64 {
 /// Bernoulli LLR for raised risk (docs/methods.md#scan): `c` cases among `n` in the
 /// window, `cases` among `total` in all. 0 unless `c/n > (C−c)/(N−n)`.
 pub fn llr_bernoulli(c: f64, n: f64, cases: f64, total: f64) -> f64 {
-    if n <= 0.0 || n >= total || c / n <= (cases - c) / (total - n) {
+    if !bernoulli_raised(c, n, cases, total) {
         return 0.0;
     }
     let l1 = xlogx(c, n)
@@ -307,6 +307,14 @@ pub fn llr_bernoulli(c: f64, n: f64, cases: f64, total: f64) -> f64 {
         + xlogx(total - n - cases + c, total - n);
     let l0 = xlogx(cases, total) + xlogx(total - cases, total);
     (l1 - l0).max(0.0)
+}
+
+/// Whether [`llr_bernoulli`] sees raised risk (where it may be above 0):
+/// `c/n > (C−c)/(N−n)` with `0 < n < N`. With whole numbers this is
+/// monotone as computed too (rounded quotients keep their order): it only
+/// turns true with more cases and only false with more people.
+pub(crate) fn bernoulli_raised(c: f64, n: f64, cases: f64, total: f64) -> bool {
+    !(n <= 0.0 || n >= total || c / n <= (cases - c) / (total - n))
 }
 
 /// A prepared scan whose replicates run in batches.
@@ -758,7 +766,7 @@ impl ScanJob {
             && model == ScanModel::Bernoulli
             && CompactCircles::fits(&r.population, total_cases))
         .then(|| {
-            let mut c = CompactCircles::new(&r.population, total_cases);
+            let mut c = CompactCircles::new(&r.population, total_cases, limit);
             each_circle(&r.x, &r.y, &r.population, limit, None, &mut c).map(|()| c)
         })
         .transpose()?;
@@ -825,13 +833,40 @@ impl ScanJob {
         let n = self.regions.x.len();
         let mut best = Vec::with_capacity(n);
         let mut top = 0.0f64;
+        // Case–control data with up to 2²² people: a window is scored only
+        // if it is of raised risk and its LLR from a table of `k ln k`
+        // (the same number within rounding, far quicker) comes within a
+        // margin of the centre's best so far; one that does not could not
+        // have replaced it, so the result is the same bit for bit.
+        let (cc, total) = (self.total_cases as f64, self.total_pop);
+        let screen = self.compact.is_some() && total <= f64::from(1u32 << 22);
+        let xlnx: Vec<f64> = if screen {
+            (0..=total as u64)
+                .map(|k| k as f64 * (k as f64).ln().max(0.0))
+                .collect()
+        } else {
+            Vec::new()
+        };
+        let at = |k: f64| xlnx.get(k as usize).copied().unwrap_or(0.0);
+        let l0 = at(cc) + at(total - cc) - at(total);
+        let margin = 1e-9 + 1e-11 * total;
         for i in 0..n {
             let mut c = 0u64;
             let mut b = (0.0, usize::MAX);
             self.walk(i, |k, j, p| {
                 c += self.regions.cases[j] as u64;
                 if p.is_finite() {
-                    let l = self.llr(c as f64, p);
+                    let cf = c as f64;
+                    if screen
+                        && (!bernoulli_raised(cf, p, cc, total)
+                            || at(cf) + at(p - cf) - at(p) + at(cc - cf) + at(total - p - cc + cf)
+                                - at(total - p)
+                                - l0
+                                <= b.0 - margin)
+                    {
+                        return;
+                    }
+                    let l = self.llr(cf, p);
                     if l > b.0 {
                         b = (l, k);
                     }
@@ -952,10 +987,14 @@ impl ScanJob {
                 self.simulate(&mut rng, &mut cases, &mut individuals, &mut picks);
                 lanes.set(l, &cases);
             }
-            let mut t = [0.0f64; LANES];
-            lanes.smallest(c, |l, cnt, p| {
-                t[l] = t[l].max(self.llr(cnt as f64, f64::from(p)));
-            });
+            let (cc, total) = (self.total_cases as f64, self.total_pop);
+            let t = lanes.maxima(
+                c,
+                |cnt, p| self.llr(f64::from(cnt), f64::from(p)),
+                |cnt, p| bernoulli_raised(f64::from(cnt), f64::from(p), cc, total),
+                // Rounding of the LLR: terms of about N ln N (N people) summed.
+                1e-9 + 1e-11 * total,
+            );
             out.extend_from_slice(&t[..k]);
             j0 += k;
         }
