@@ -143,6 +143,11 @@ fn cell_coord_is_floor_then_clamp() {
     }
 }
 
+/// Locations per native thread below which the nearest-neighbour distances
+/// stay on one thread (starting a thread costs about as much as a few
+/// thousand searches; common practice, no source).
+pub const LOCATIONS_PER_THREAD: usize = 100_000;
+
 /// A grid index over a fixed set of points.
 ///
 /// # Examples
@@ -704,10 +709,63 @@ impl GridIndex {
     /// The distances of [`GridIndex::nn_distances`] in no particular order
     /// (grid order): for summaries of the distribution, which need no
     /// point-by-point answer and so skip scattering them into input order.
+    /// In a native build with at least [`LOCATIONS_PER_THREAD`] locations
+    /// per thread, the locations are split over the machine's cores
+    /// (contiguous ranges joined in order: the same values in the same
+    /// order as on one thread).
     pub fn nn_distances_unordered(&self) -> Option<Vec<f64>> {
+        #[cfg(not(target_arch = "wasm32"))]
+        {
+            let cores = std::thread::available_parallelism().map_or(1, |c| c.get());
+            let threads = cores.min(self.locations().len() / LOCATIONS_PER_THREAD);
+            if threads > 1 && self.len() > 1 {
+                return Some(self.nn_distances_split(threads));
+            }
+        }
         let mut out = Vec::with_capacity(self.len());
         self.each_kth_nn(1, |_, d| out.push(d))?;
         Some(out)
+    }
+
+    /// [`GridIndex::nn_distances_unordered`] over `threads` native threads
+    /// (more than one point). Progress is not reported from them.
+    #[cfg(not(target_arch = "wasm32"))]
+    fn nn_distances_split(&self, threads: usize) -> Vec<f64> {
+        let loc = self.locations();
+        let nl = loc.len();
+        let threads = threads.clamp(1, nl.max(1));
+        let range = |a: usize, b: usize| {
+            let mut out = Vec::new();
+            for l in a..b {
+                let m = loc.mult(l);
+                let d = if m > 1 {
+                    0.0
+                } else {
+                    self.nearest_d2_of_location(l).sqrt()
+                };
+                out.extend(std::iter::repeat_n(d, m));
+            }
+            out
+        };
+        let parts: Vec<_> = std::thread::scope(|scope| {
+            let handles: Vec<_> = (0..threads)
+                .map(|t| {
+                    let (a, b) = (nl * t / threads, nl * (t + 1) / threads);
+                    scope.spawn(move || range(a, b))
+                })
+                .collect();
+            handles.into_iter().map(|h| h.join()).collect()
+        });
+        let mut out = Vec::with_capacity(self.len());
+        for (t, part) in parts.into_iter().enumerate() {
+            match part {
+                Ok(p) => out.extend_from_slice(&p),
+                // A thread failed (cannot happen short of a panic): its
+                // range on this thread.
+                Err(_) => out.extend(range(nl * t / threads, nl * (t + 1) / threads)),
+            }
+        }
+        out
     }
 
     /// Calls `put(slot, d)` with each slot's distance to its k-th nearest
@@ -1317,6 +1375,36 @@ mod tests {
     /// on spread points, a tight cloud with far outliers (the shortcut
     /// falls back to the ring search there), a line, stacked points and
     /// grids of one or two cells.
+    /// The nearest-neighbour distances split over threads are those of
+    /// one thread, value for value and in the same order, with coincident
+    /// points and more threads than locations.
+    #[test]
+    fn nn_distances_split_equal_one_thread() {
+        let (mut x, mut y): (Vec<f64>, Vec<f64>) = {
+            let p = random_points(3000, SEED_1);
+            (p.0, p.1)
+        };
+        x.extend([x[0], x[0], x[7]]);
+        y.extend([y[0], y[0], y[7]]);
+        for (x, y) in [(x, y), (vec![1.0, 1.0, 4.0], vec![2.0, 2.0, 6.0])] {
+            let g = GridIndex::new(&x, &y);
+            let mut one = Vec::new();
+            g.each_kth_nn(1, |_, d| one.push(d)).unwrap();
+            assert_eq!(one.len(), x.len());
+            for t in [1, 2, 3, 8, 5000] {
+                let split = g.nn_distances_split(t);
+                assert_eq!(split.len(), one.len(), "{t}");
+                assert!(
+                    split
+                        .iter()
+                        .zip(&one)
+                        .all(|(a, b)| a.to_bits() == b.to_bits()),
+                    "{t}"
+                );
+            }
+        }
+    }
+
     #[test]
     fn block_shortcut_equals_ring_search_and_brute_force() {
         let mut rng = rng_from_seed(SEED_2);
