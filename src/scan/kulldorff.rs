@@ -38,7 +38,7 @@
 //!   `|Z ∩ W|` is the area in `W` of the cells whose centres lie in the circle
 //!   (an approximation at cell resolution of the circle–window intersection).
 //!   `Auto` picks `Events` for Bernoulli data with at most
-//!   [`AUTO_EVENTS_MAX`] (5 000) distinct locations and `Grid` otherwise
+//!   [`AUTO_EVENTS_MAX`] (10 000) distinct locations and `Grid` otherwise
 //!   (against population counts: at most 2 000 points).
 //!
 //! # Statistic
@@ -372,9 +372,10 @@ fn replicate_rng(seed: u64, j: usize) -> Rng {
 
 /// `Auto` centres circles on every distinct location of case–control data
 /// up to this many locations, on grid cells above: 999 chance runs at
-/// 5,000 places took about 20 s in the page on a loaded 2-core machine, at
-/// 10,000 about 90–120 s (README, `node bench/scan-browser.mjs 999 1 large`).
-pub const AUTO_EVENTS_MAX: usize = 5_000;
+/// 10,000 places took about 16 s in the page on two workers of a 2-core
+/// machine, 6–7 s of it setting up the circles, and hold about 130 MB per
+/// worker (README, `node bench/scan-browser.mjs 999 1 large 10000 two`).
+pub const AUTO_EVENTS_MAX: usize = 10_000;
 
 /// Limit on stored window list entries (memory in the page).
 const MAX_LIST_ENTRIES: usize = 60_000_000;

@@ -242,7 +242,7 @@ test('scan: the same seed gives the same answer; another seed changes the replic
   assert.equal(a.seed, 123456789);
 });
 
-test('scan: cases against controls are centred on every place up to 5,000 places (auto), on grid cells when asked', () => {
+test('scan: cases against controls are centred on every place up to 10,000 places (auto), on grid cells when asked', () => {
   const s = demo({ controls: true });
   const places = s.scanStart({ n_sim: 9, seed: 3 });
   const auto = s.scanFinish();
