@@ -335,6 +335,12 @@ pub fn order_hint(text: &str) -> OrderHint {
     if !(1..=2).contains(&lead) {
         return OrderHint::Neutral;
     }
+    both_readings(text)
+}
+
+/// What the text says about the order by its definition: read day first
+/// and month first, and compare.
+fn both_readings(text: &str) -> OrderHint {
     let d = parse_time(text, DateOrder::DayMonthYear);
     let m = parse_time(text, DateOrder::MonthDayYear);
     match (d, m) {
@@ -757,16 +763,7 @@ mod tests {
     /// padded with spaces, with clock times and with text.
     #[test]
     fn order_hint_shortcut_equals_both_readings() {
-        let both = |text: &str| {
-            let d = parse_time(text, DateOrder::DayMonthYear);
-            let m = parse_time(text, DateOrder::MonthDayYear);
-            match (d, m) {
-                (Some(a), Some(b)) if a.days != b.days => OrderHint::Either,
-                (Some(_), None) => OrderHint::DayFirstOnly,
-                (None, Some(_)) => OrderHint::MonthFirstOnly,
-                _ => OrderHint::Neutral,
-            }
-        };
+        let both = both_readings;
         let firsts = ["", "3", "03", "13", "23", "003", "2025", "02025", "31"];
         let seconds = ["4", "04", "12", "13", "30", "2025"];
         let thirds = ["2025", "25", "4", "04", "31", "02025"];
