@@ -21,7 +21,7 @@ use cloister::distance::{
 };
 use cloister::study::Pattern;
 use cloister::window::{Window, WindowOrigin};
-use common::{mean_se, wh};
+use common::{mean_se, thomas_for_power, wh};
 use serde_json::Value;
 use std::f64::consts::PI;
 
@@ -482,16 +482,7 @@ mod calibration {
         let w = unit_square();
         (0..datasets)
             .filter(|j| {
-                let p = simulate_thomas(
-                    &w,
-                    ThomasParams {
-                        kappa: 10.0,
-                        mu: 8.0,
-                        sigma: 0.02,
-                    },
-                    3_000 + j,
-                )
-                .unwrap();
+                let p = thomas_for_power(3_000 + j);
                 let (rej, out) = reject(&p, &w, n_sim, 7 + j, SummaryFunction::L);
                 rej && out == Outcome::Clustered
             })

@@ -11,7 +11,7 @@
 //! interval computed here from the binomial distribution.
 
 mod common;
-use common::{mean_se, wh};
+use common::{mean_se, thomas_for_power, wh};
 
 use cloister::distance::binned::{
     binned_functions, STATED_FROM_CELLS, STATED_G_RELATIVE_ERROR, STATED_RELATIVE_ERROR,
@@ -192,16 +192,7 @@ fn binned_global_test_rejects_thomas() {
     let w = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
     let hits = (0..20u64)
         .filter(|j| {
-            let p = simulate_thomas(
-                &w,
-                ThomasParams {
-                    kappa: 10.0,
-                    mu: 8.0,
-                    sigma: 0.02,
-                },
-                3_000 + j,
-            )
-            .unwrap();
+            let p = thomas_for_power(3_000 + j);
             let res = EnvelopeJob::new(&p, &w, &binned_params(SummaryFunction::L, 39, 7 + j))
                 .unwrap()
                 .finish();

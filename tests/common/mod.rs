@@ -11,6 +11,20 @@ pub fn wh() -> Window {
     Window::rectangle_with_hole([0.0, 0.0, 10.0, 10.0], [4.0, 4.0, 6.0, 6.0]).unwrap()
 }
 
+/// The clustered pattern of the power checks: a Thomas process in the unit
+/// square with 10 parents, 8 offspring each on average, σ = 0.02, seed
+/// `seed`.
+pub fn thomas_for_power(seed: u64) -> cloister::study::Pattern {
+    use cloister::distance::{simulate_thomas, ThomasParams};
+    let w = Window::rectangle(0.0, 0.0, 1.0, 1.0).unwrap();
+    let params = ThomasParams {
+        kappa: 10.0,
+        mu: 8.0,
+        sigma: 0.02,
+    };
+    simulate_thomas(&w, params, seed).unwrap()
+}
+
 /// The mean of Monte Carlo values and its standard error (sample standard
 /// deviation over √m).
 pub fn mean_se(v: &[f64]) -> (f64, f64) {
