@@ -714,14 +714,12 @@ impl GridIndex {
     /// (contiguous ranges joined in order: the same values in the same
     /// order as on one thread).
     pub fn nn_distances_unordered(&self) -> Option<Vec<f64>> {
+        let threads = crate::cores::threads_for(self.locations().len(), LOCATIONS_PER_THREAD);
         #[cfg(not(target_arch = "wasm32"))]
-        {
-            let cores = std::thread::available_parallelism().map_or(1, |c| c.get());
-            let threads = cores.min(self.locations().len() / LOCATIONS_PER_THREAD);
-            if threads > 1 && self.len() > 1 {
-                return Some(self.nn_distances_split(threads));
-            }
+        if threads > 1 && self.len() > 1 {
+            return Some(self.nn_distances_split(threads));
         }
+        let _ = threads;
         let mut out = Vec::with_capacity(self.len());
         self.each_kth_nn(1, |_, d| out.push(d))?;
         Some(out)
@@ -732,11 +730,9 @@ impl GridIndex {
     #[cfg(not(target_arch = "wasm32"))]
     fn nn_distances_split(&self, threads: usize) -> Vec<f64> {
         let loc = self.locations();
-        let nl = loc.len();
-        let threads = threads.clamp(1, nl.max(1));
-        let range = |a: usize, b: usize| {
+        let range = |r: std::ops::Range<usize>| {
             let mut out = Vec::new();
-            for l in a..b {
+            for l in r {
                 let m = loc.mult(l);
                 let d = if m > 1 {
                     0.0
@@ -747,23 +743,13 @@ impl GridIndex {
             }
             out
         };
-        let parts: Vec<_> = std::thread::scope(|scope| {
-            let handles: Vec<_> = (0..threads)
-                .map(|t| {
-                    let (a, b) = (nl * t / threads, nl * (t + 1) / threads);
-                    scope.spawn(move || range(a, b))
-                })
-                .collect();
-            handles.into_iter().map(|h| h.join()).collect()
-        });
+        // A thread failed (cannot happen short of a panic): all of it on
+        // this thread.
+        let parts = crate::cores::each_on_a_thread(crate::cores::ranges(loc.len(), threads), range)
+            .unwrap_or_else(|| vec![range(0..loc.len())]);
         let mut out = Vec::with_capacity(self.len());
-        for (t, part) in parts.into_iter().enumerate() {
-            match part {
-                Ok(p) => out.extend_from_slice(&p),
-                // A thread failed (cannot happen short of a panic): its
-                // range on this thread.
-                Err(_) => out.extend(range(nl * t / threads, nl * (t + 1) / threads)),
-            }
+        for p in parts {
+            out.extend_from_slice(&p);
         }
         out
     }

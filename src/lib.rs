@@ -46,6 +46,7 @@
 #![forbid(unsafe_code)]
 
 pub mod clusters;
+pub mod cores;
 pub mod distance;
 pub mod error;
 pub mod index;

@@ -465,14 +465,12 @@ impl Projection {
     /// projected alone, so the result is the same bit for bit. (The page's
     /// engine runs on one thread; this is for the Rust library and tools.)
     pub fn forward_many(&self, x: &[f64], y: &[f64]) -> (Vec<f64>, Vec<f64>) {
+        let threads = crate::cores::threads_for(x.len().min(y.len()), POINTS_PER_THREAD);
         #[cfg(not(target_arch = "wasm32"))]
-        {
-            let cores = std::thread::available_parallelism().map_or(1, |c| c.get());
-            let threads = cores.min(x.len().min(y.len()) / POINTS_PER_THREAD);
-            if threads > 1 {
-                return self.forward_split(x, y, threads);
-            }
+        if threads > 1 {
+            return self.forward_split(x, y, threads);
         }
+        let _ = threads;
         self.forward_one_thread(x, y)
     }
 
@@ -481,28 +479,18 @@ impl Projection {
     #[cfg(not(target_arch = "wasm32"))]
     pub fn forward_split(&self, x: &[f64], y: &[f64], threads: usize) -> (Vec<f64>, Vec<f64>) {
         let n = x.len().min(y.len());
-        let threads = threads.clamp(1, n.max(1));
-        let parts: Vec<_> = std::thread::scope(|scope| {
-            let handles: Vec<_> = (0..threads)
-                .map(|t| {
-                    let (a, b) = (n * t / threads, n * (t + 1) / threads);
-                    let (xs, ys) = (&x[a..b], &y[a..b]);
-                    scope.spawn(move || self.forward_one_thread(xs, ys))
-                })
-                .collect();
-            handles.into_iter().map(|h| h.join()).collect()
+        let parts = crate::cores::each_on_a_thread(crate::cores::ranges(n, threads), |r| {
+            self.forward_one_thread(&x[r.clone()], &y[r])
         });
+        // A thread failed (cannot happen short of a panic): do it all on
+        // this one.
+        let Some(parts) = parts else {
+            return self.forward_one_thread(x, y);
+        };
         let (mut px, mut py) = (Vec::with_capacity(n), Vec::with_capacity(n));
-        for part in parts {
-            match part {
-                Ok((a, b)) => {
-                    px.extend_from_slice(&a);
-                    py.extend_from_slice(&b);
-                }
-                // A thread failed (cannot happen short of a panic): do it
-                // all on this one.
-                Err(_) => return self.forward_one_thread(x, y),
-            }
+        for (a, b) in parts {
+            px.extend_from_slice(&a);
+            py.extend_from_slice(&b);
         }
         (px, py)
     }

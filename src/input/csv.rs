@@ -69,6 +69,30 @@ impl<'a> Reader<'a> {
         }
     }
 
+    /// A reader of the records of `text[from..to]`, numbering them from
+    /// row `first_row` on. The piece must start where a record starts; its
+    /// end is one too when reading it gives no [`UnclosedQuote`] (a quoted
+    /// field reaching past `to` is cut there and reported as unclosed).
+    /// Spans are positions in `text`.
+    pub fn piece(text: &'a str, delim: u8, from: usize, to: usize, first_row: u64) -> Reader<'a> {
+        Reader {
+            text: &text[..to],
+            pos: from,
+            delim,
+            next_row: first_row,
+        }
+    }
+
+    /// Byte position of the next record in the text.
+    pub fn position(&self) -> usize {
+        self.pos
+    }
+
+    /// Row number the next record will get.
+    pub fn next_row(&self) -> u64 {
+        self.next_row
+    }
+
     /// Reads the next record into `fields` (cleared first). Returns `None` at
     /// the end of the text.
     pub fn read_into(

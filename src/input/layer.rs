@@ -176,6 +176,44 @@ impl Builder {
         }
     }
 
+    /// Adds what `later` read from the rows after this builder's, numbered
+    /// from 1 there: `rows_before` is added to its row numbers and its
+    /// categories are renumbered in this builder's first-seen order. The
+    /// same as one builder reading both in turn.
+    pub fn append(&mut self, later: Builder, rows_before: u64) {
+        let shift = |v: Vec<Rejection>| {
+            v.into_iter().map(move |r| Rejection {
+                row: r.row + rows_before,
+                ..r
+            })
+        };
+        self.rejections.extend(shift(later.rejections));
+        self.incomplete.extend(shift(later.incomplete));
+        self.row.extend(later.row.iter().map(|r| r + rows_before));
+        self.x.extend_from_slice(&later.x);
+        self.y.extend_from_slice(&later.y);
+        let join = |a: &mut Option<Vec<f64>>, b: Option<Vec<f64>>| {
+            if let (Some(a), Some(b)) = (a, b) {
+                a.extend_from_slice(&b);
+            }
+        };
+        join(&mut self.time, later.time);
+        join(&mut self.time_end, later.time_end);
+        join(&mut self.weight, later.weight);
+        if let (Some(_), Some(c)) = (&self.category, later.category) {
+            let ids: Vec<u32> = later
+                .category_names
+                .iter()
+                .map(|n| self.category_id(n))
+                .collect();
+            if let Some(mine) = &mut self.category {
+                mine.extend(c.iter().map(|&k| ids[k as usize]));
+            }
+        }
+        self.rows_read += later.rows_read;
+        self.time_has_clock |= later.time_has_clock;
+    }
+
     pub fn finish(
         self,
         format: SourceFormat,
@@ -263,6 +301,16 @@ fn not_a_table(detail: impl Into<String>) -> InputError {
 
 /// Reads a CSV / semicolon / tab table of points.
 pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> {
+    from_csv_in(text, opts, None)
+}
+
+/// [`from_csv`] with the records read in `pieces` pieces (native builds;
+/// `None`: as many as the file's size and the machine's cores call for).
+fn from_csv_in(
+    text: &str,
+    opts: &ReadOptions,
+    pieces: Option<usize>,
+) -> Result<RawLayer, InputError> {
     // 1. Delimiter.
     let delim = match opts.delimiter {
         Some(c) if c.is_ascii() && !matches!(c, '"' | '\n' | '\r') => {
@@ -426,10 +474,13 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
     let width = headers.len();
     let (xi, yi) = (xy.x, xy.y);
     let (xname, yname) = (headers[xi].as_str(), headers[yi].as_str());
+    // One piece of the records (all of them, or one thread's share): the
+    // builder, and the row number after the piece's last record.
     let read_rows = |order: super::DateOrder,
-                     mut det: Option<&mut OrderDetector>|
-     -> Result<Builder, InputError> {
-        let mut reader = reader.clone();
+                     mut det: Option<&mut OrderDetector>,
+                     mut reader: Reader<'_>,
+                     bytes: usize|
+     -> Result<(Builder, u64), InputError> {
         let mut fields: Vec<Cow<str>> = Vec::new();
         let mut buf = String::new();
         let mut b = Builder::new(
@@ -441,7 +492,7 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
             b.time_end = Some(Vec::new());
         }
         // Rough capacity guess: ~25 bytes per record.
-        b.reserve((text.len() / 25).min(10_000_000));
+        b.reserve((bytes / 25).min(10_000_000));
         loop {
             let info = match reader.read_into(&mut fields) {
                 None => break,
@@ -546,16 +597,45 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
             b.accept(row, x, y, t, cat, w);
             b.accept_until(until);
         }
-        Ok(b)
+        Ok((b, reader.next_row()))
     };
+    // Every record, with the date order looked for (`detect`) or not. In a
+    // native build a large file is read in pieces on the machine's cores
+    // (the same layer as reading it in one go; see `read_in_pieces`).
+    let read_all =
+        |order: super::DateOrder, detect: bool| -> Result<(Builder, OrderDetector), InputError> {
+            let start = reader.position();
+            let threads = pieces
+                .unwrap_or_else(|| crate::cores::threads_for(text.len() - start, BYTES_PER_THREAD));
+            #[cfg(not(target_arch = "wasm32"))]
+            if threads > 1 {
+                let piece = |(from, to, first_row)| {
+                    let mut det = OrderDetector::default();
+                    let r = Reader::piece(text, delim, from, to, first_row);
+                    read_rows(order, detect.then_some(&mut det), r, to - from)
+                        .map(|(b, next)| (b, next, det))
+                };
+                if let Some(done) = read_in_pieces(text, start, reader.next_row(), threads, piece) {
+                    return Ok(done);
+                }
+            }
+            let _ = threads;
+            let mut det = OrderDetector::default();
+            let (b, _) = read_rows(
+                order,
+                detect.then_some(&mut det),
+                reader.clone(),
+                text.len() - start,
+            )?;
+            Ok((b, det))
+        };
     let provisional = given_order.unwrap_or(super::DateOrder::DayMonthYear);
-    let mut det = OrderDetector::default();
     let detect = attrs.time.is_some() && given_order.is_none();
-    let mut b = read_rows(provisional, detect.then_some(&mut det))?;
+    let (mut b, det) = read_all(provisional, detect)?;
     let date_order = attrs.time.map(|_| det.finish(given_order));
     if let Some(d) = &date_order {
         if d.used != provisional {
-            b = read_rows(d.used, None)?;
+            b = read_all(d.used, false)?.0;
         }
     }
     b.date_order = date_order;
@@ -564,6 +644,67 @@ pub fn from_csv(text: &str, opts: &ReadOptions) -> Result<RawLayer, InputError> 
         decimal_comma,
     };
     Ok(b.finish(format, headers, mapping, xy.coords))
+}
+
+/// Bytes of records per thread before a native build reads a file in
+/// pieces (about 80,000 rows of a typical export).
+pub const BYTES_PER_THREAD: usize = 4 << 20;
+
+/// One piece's result: the builder, the row number after its last record
+/// (counted from the piece's first row) and what it saw of the date order.
+type Piece = (Builder, u64, OrderDetector);
+
+/// The records from byte `start` (row `first_row`) on, read in `threads`
+/// pieces cut just after line breaks, one native thread each, and joined
+/// in order. `read((from, to, first_row))` reads one piece; each piece
+/// after the first numbers its rows from 1 and is renumbered when joined.
+///
+/// The same layer as one reader going through all of them, or `None` (read
+/// it in one go instead): a cut can fall inside a quoted field that holds
+/// line breaks, and then the piece before it ends in an unclosed quote.
+/// When no piece but the last does, every cut is where a record ends: the
+/// first piece starts at a record, and a piece read from a record to a
+/// cut without an unclosed quote reads exactly what one reader reads there
+/// (it never looks past a line break it has not reached). An error in the
+/// last piece (or a thread's failure) also gives `None`, and the one-go
+/// reading reports it.
+#[cfg(not(target_arch = "wasm32"))]
+fn read_in_pieces(
+    text: &str,
+    start: usize,
+    first_row: u64,
+    threads: usize,
+    read: impl Fn((usize, usize, u64)) -> Result<Piece, InputError> + Sync,
+) -> Option<(Builder, OrderDetector)> {
+    let b = text.as_bytes();
+    let len = b.len();
+    let mut cuts = vec![start];
+    for k in 1..threads {
+        let at = (start + (len - start) * k / threads).max(*cuts.last()?);
+        match b[at..].iter().position(|&c| c == b'\n') {
+            Some(off) if at + off + 1 < len => cuts.push(at + off + 1),
+            _ => break,
+        }
+    }
+    cuts.dedup();
+    cuts.push(len);
+    if cuts.len() < 3 {
+        return None;
+    }
+    let jobs: Vec<_> = cuts
+        .windows(2)
+        .enumerate()
+        .map(|(k, w)| (w[0], w[1], if k == 0 { first_row } else { 1 }))
+        .collect();
+    let mut parts = crate::cores::each_on_a_thread(jobs, read)?.into_iter();
+    let (mut all, mut next, mut det) = parts.next()?.ok()?;
+    for part in parts {
+        let (b, n, d) = part.ok()?;
+        all.append(b, next - 1);
+        det.append(d, next - 1);
+        next += n - 1;
+    }
+    Some((all, det))
 }
 
 /// The end of a window as kept: a "to" before its "from" is not used (the
@@ -903,6 +1044,177 @@ mod tests {
         // Header on row 2, blank row 3, data rows 4 and 6 (row 5 is blank: one field).
         assert_eq!(l.row, vec![4, 6]);
         assert_eq!(l.rows_read, 2);
+    }
+
+    /// A random export with what makes pieces hard to join: rejected rows,
+    /// notes, blank lines, CRLF and lone CR line ends, quoted fields with
+    /// line breaks and doubled quotes, categories first seen late (more
+    /// than eight, so both ways of numbering them), a date order settled
+    /// or contradicted only late in the file, and sometimes a quote left
+    /// open at the end.
+    fn messy_export(rng: &mut crate::rng::Rng, rows: usize) -> (String, ReadOptions) {
+        use rand::RngExt;
+        let semicolon = rng.random_bool(0.3);
+        let d = if semicolon { ';' } else { ',' };
+        let num = |v: f64| {
+            let t = format!("{v:.5}");
+            if semicolon {
+                t.replace('.', ",")
+            } else {
+                t
+            }
+        };
+        let mut s = format!("id{d}lon{d}lat{d}reported{d}kind{d}weight\n");
+        let late_month_first = rng.random_bool(0.5);
+        let early_day_first = rng.random_bool(0.5);
+        for i in 0..rows {
+            let end = match rng.random_range(0..10) {
+                0 => "\r\n",
+                1 => "\r",
+                _ => "\n",
+            };
+            match rng.random_range(0..40) {
+                0 => {
+                    s.push_str(end);
+                    continue;
+                }
+                1 => {
+                    s.push_str(&format!("{d}{d}{d}{end}"));
+                    continue;
+                }
+                2 => {
+                    s.push_str(&format!("{i}{d}1{end}"));
+                    continue;
+                }
+                _ => {}
+            }
+            let lon = match rng.random_range(0..30) {
+                0 => "east".to_string(),
+                1 => num(181.5),
+                2 => String::new(),
+                _ => num(10.0 + rng.random::<f64>()),
+            };
+            let lat = num(-20.0 - rng.random::<f64>());
+            let (a, b) = (rng.random_range(1..=12), rng.random_range(1..=12));
+            let date = if i > rows * 3 / 4 && late_month_first && rng.random_bool(0.05) {
+                format!("{a:02}/2{}/2025", rng.random_range(0..9))
+            } else if i < rows / 4 && early_day_first && rng.random_bool(0.05) {
+                format!("2{}/{b:02}/2025", rng.random_range(0..9))
+            } else if rng.random_bool(0.02) {
+                "soon".to_string()
+            } else {
+                format!("{a:02}/{b:02}/2025")
+            };
+            let kind = match rng.random_range(0..12) {
+                0 => "\"line one\nline \"\"two\"\"\"".to_string(),
+                1 => format!("\"with{d}delimiter\r\nand break\""),
+                2 => String::new(),
+                3 if i > rows / 2 => format!("late {}", rng.random_range(0..12)),
+                _ => ["house", "street", "field"][rng.random_range(0..3)].to_string(),
+            };
+            let w = match rng.random_range(0..25) {
+                0 => "-1".to_string(),
+                1 => String::new(),
+                _ => num(rng.random::<f64>() * 3.0),
+            };
+            let extra = if rng.random_range(0..60) == 0 {
+                "x"
+            } else {
+                ""
+            };
+            s.push_str(&format!(
+                "{i}{d}{lon}{d}{lat}{d}{date}{d}{kind}{d}{w}{}{extra}{end}",
+                if extra.is_empty() { "" } else { "," }
+            ));
+        }
+        if rng.random_bool(0.1) {
+            s.push_str("99\"open,1,2\n\"never closed,3\n");
+        }
+        let mut opts = ReadOptions::default();
+        if rng.random_bool(0.2) {
+            opts.date_order = Some(DateOrder::MonthDayYear);
+        }
+        (s, opts)
+    }
+
+    /// Read in 2 to 7 pieces, a file gives the same layer (or the same
+    /// error) as read in one go: every value, row number, rejection, note,
+    /// category number and the date order with its reason.
+    #[test]
+    fn pieces_read_the_same_as_one_go() {
+        let mut rng = crate::rng::rng_from_seed(2026);
+        let mut contradicted = 0;
+        for case in 0..160 {
+            let rows = [3, 40, 400, 3000][case % 4];
+            let (text, opts) = messy_export(&mut rng, rows);
+            let one = format!("{:?}", from_csv_in(&text, &opts, Some(1)));
+            if one.contains("Contradictory") {
+                contradicted += 1;
+            }
+            for pieces in 2..=7 {
+                let split = format!("{:?}", from_csv_in(&text, &opts, Some(pieces)));
+                assert!(split == one, "case {case}, {pieces} pieces differ");
+            }
+        }
+        assert!(
+            contradicted > 5,
+            "late contradictions are exercised: {contradicted}"
+        );
+    }
+
+    /// The cuts fall just after line breaks, the pieces cover the records in
+    /// order, later pieces count rows from 1, and the joined layer numbers
+    /// them as one reader would.
+    #[test]
+    fn pieces_are_cut_after_line_breaks() {
+        let mut text = String::from("x,y\n");
+        for i in 0..1000 {
+            text.push_str(&format!("{i},{}\n", i % 7));
+        }
+        let start = 4;
+        let seen = std::sync::Mutex::new(Vec::new());
+        let read = |(from, to, first): (usize, usize, u64)| {
+            seen.lock().unwrap().push((from, to, first));
+            let mut b = Builder::new(false, false, false);
+            let mut r = Reader::piece(&text, b',', from, to, first);
+            let mut f = Vec::new();
+            while let Some(Ok(info)) = r.read_into(&mut f) {
+                b.rows_read += 1;
+                b.accept(info.row, 0.0, 0.0, (f64::NAN, false), 0, f64::NAN);
+            }
+            Ok((b, r.next_row(), OrderDetector::default()))
+        };
+        let (b, _) = read_in_pieces(&text, start, 2, 3, read).expect("three pieces");
+        let mut jobs = seen.into_inner().unwrap();
+        jobs.sort();
+        assert_eq!(jobs.len(), 3);
+        assert_eq!((jobs[0].0, jobs[0].2), (start, 2));
+        assert_eq!(jobs[2].1, text.len());
+        for w in jobs.windows(2) {
+            assert_eq!(w[0].1, w[1].0);
+            assert_eq!(text.as_bytes()[w[1].0 - 1], b'\n');
+            assert_eq!(w[1].2, 1);
+        }
+        assert_eq!(b.row, (2..1002).collect::<Vec<u64>>());
+        // A quoted field holding the line break where a cut falls: the
+        // piece before it ends unclosed, and the file is read in one go.
+        let quoted = format!("x,y\n\"{}\",1\n", "a\n".repeat(400));
+        let text = &quoted;
+        let read = |(from, to, first): (usize, usize, u64)| {
+            let mut r = Reader::piece(text, b',', from, to, first);
+            let mut f = Vec::new();
+            while let Some(res) = r.read_into(&mut f) {
+                if res.is_err() {
+                    return Err(not_a_table("unclosed"));
+                }
+            }
+            Ok((
+                Builder::new(false, false, false),
+                r.next_row(),
+                OrderDetector::default(),
+            ))
+        };
+        assert!(read_in_pieces(text, 4, 2, 3, read).is_none());
     }
 
     #[test]

@@ -449,6 +449,21 @@ impl OrderDetector {
         }
     }
 
+    /// Adds what `later` saw, from the rows after this one's, numbered
+    /// from 1 there: `rows_before` is added to its row numbers. The same
+    /// as one detector seeing both in turn.
+    pub fn append(&mut self, later: OrderDetector, rows_before: u64) {
+        self.day_first += later.day_first;
+        self.month_first += later.month_first;
+        let shift = |slot: Option<(u64, String)>| slot.map(|(r, v)| (r + rows_before, v));
+        self.first_day_first = self.first_day_first.take().or(shift(later.first_day_first));
+        self.first_month_first = self
+            .first_month_first
+            .take()
+            .or(shift(later.first_month_first));
+        self.first_either = self.first_either.take().or(shift(later.first_either));
+    }
+
     /// The order to use: `given` always wins; otherwise what the values say.
     pub fn finish(self, given: Option<DateOrder>) -> DateOrderReport {
         const DMY: DateOrder = DateOrder::DayMonthYear;
