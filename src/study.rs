@@ -454,11 +454,11 @@ pub fn far_points(layer: &RawLayer) -> Vec<Option<RejectReason>> {
     };
     let dist = |x: f64, y: f64| {
         let dx = if geographic {
-            (x - mx + 180.0).rem_euclid(360.0) - 180.0
+            lon_difference(x, mx)
         } else {
             x - mx
         };
-        (dx * kx).hypot(y - my)
+        root_sum_squares(dx * kx, y - my)
     };
     let d: Vec<f64> = (0..n).map(|i| dist(layer.x[i], layer.y[i])).collect();
     // `work` is d reordered so that work[lo] is the sorted distances' entry
@@ -508,6 +508,30 @@ pub fn far_points(layer: &RawLayer) -> Vec<Option<RejectReason>> {
         });
     }
     out
+}
+
+/// `x − m` in degrees of longitude, wrapped into [−180, 180): the same
+/// bits as `(x − m + 180).rem_euclid(360) − 180`, without its division
+/// when no wrapping is needed (rem_euclid is the identity on [0, 360)).
+fn lon_difference(x: f64, m: f64) -> f64 {
+    let t = x - m + 180.0;
+    if (0.0..360.0).contains(&t) {
+        t - 180.0
+    } else {
+        t.rem_euclid(360.0) - 180.0
+    }
+}
+
+/// √(a² + b²) as the plain root of the sum of squares (within an ulp or
+/// so of `hypot`, which costs ten times as much), or `hypot` where a
+/// square overflows or underflows.
+fn root_sum_squares(a: f64, b: f64) -> f64 {
+    let s = a * a + b * b;
+    if s.is_finite() && s >= f64::MIN_POSITIVE {
+        s.sqrt()
+    } else {
+        a.hypot(b)
+    }
 }
 
 /// The lower value of the first step between neighbours in sorted order of
@@ -667,7 +691,7 @@ impl Study {
                 .iter()
                 .flatten()
                 .flatten()
-                .map(|p| ((p[0] - cx + 180.0).rem_euclid(360.0) - 180.0).abs())
+                .map(|p| lon_difference(p[0], cx).abs())
                 .fold(0.0_f64, f64::max);
             if reach > MAX_LON_FROM_CENTRE {
                 return Err(InputError::new(InputErrorKind::BadPolygon {
@@ -1430,6 +1454,44 @@ mod tests {
     /// The binade form of the gap search against the plain scan of the
     /// sorted values it replaces, on values with and without gaps, zeros,
     /// ties and values that take the sorting path (subnormal, infinite).
+    #[test]
+    fn far_point_distances_match_their_definitions() {
+        use rand::RngExt;
+        let mut rng = crate::rng::rng_from_seed(5);
+        let mut worst = 0.0_f64;
+        for k in 0..200_000 {
+            let (x, m) = match k % 4 {
+                0 => (
+                    rng.random_range(-180.0..180.0),
+                    rng.random_range(-180.0..180.0),
+                ),
+                1 => (rng.random_range(-1e4..1e4), rng.random_range(-200.0..200.0)),
+                2 => (179.999_999 + rng.random::<f64>() * 1e-6, -180.0),
+                _ => (rng.random_range(-0.01..0.01), rng.random_range(-0.01..0.01)),
+            };
+            let want = (x - m + 180.0).rem_euclid(360.0) - 180.0;
+            assert_eq!(lon_difference(x, m).to_bits(), want.to_bits(), "{x} {m}");
+            let (a, b) = (
+                rng.random_range(-1e7..1e7) * 10f64.powi(rng.random_range(-3..4)),
+                rng.random_range(-1e7..1e7),
+            );
+            let (got, h) = (root_sum_squares(a, b), a.hypot(b));
+            worst = worst.max((got - h).abs() / h.max(f64::MIN_POSITIVE));
+        }
+        assert!(worst <= 2.0 * f64::EPSILON, "{worst:e}");
+        for (a, b) in [
+            (1e200, 3e200),
+            (1e-200, 2e-200),
+            (0.0, 0.0),
+            (-4e-320, 3e-320),
+        ] {
+            let want = f64::hypot(a, b);
+            assert_eq!(root_sum_squares(a, b), want, "{a} {b}");
+            assert!(want.is_finite());
+        }
+        assert!(root_sum_squares(f64::NAN, 1.0).is_nan());
+    }
+
     #[test]
     fn first_gap_matches_sorted_scan() {
         use rand::RngExt;
