@@ -180,6 +180,7 @@ impl Builder {
     /// from 1 there: `rows_before` is added to its row numbers and its
     /// categories are renumbered in this builder's first-seen order. The
     /// same as one builder reading both in turn.
+    #[cfg(not(target_arch = "wasm32"))]
     pub fn append(&mut self, later: Builder, rows_before: u64) {
         let shift = |v: Vec<Rejection>| {
             v.into_iter().map(move |r| Rejection {
@@ -652,6 +653,7 @@ pub const BYTES_PER_THREAD: usize = 4 << 20;
 
 /// One piece's result: the builder, the row number after its last record
 /// (counted from the piece's first row) and what it saw of the date order.
+#[cfg(not(target_arch = "wasm32"))]
 type Piece = (Builder, u64, OrderDetector);
 
 /// The records from byte `start` (row `first_row`) on, read in `threads`
