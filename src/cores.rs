@@ -45,6 +45,23 @@ pub fn each_on_a_thread<J: Send, T: Send>(
     })
 }
 
+/// `(a(), b())`, with `b` on a second native thread while `a` runs on
+/// this one when `split` is true (and the build is native); otherwise one
+/// after the other. Should the second thread fail, `b` is run again here.
+pub fn both<A, B: Send>(split: bool, a: impl FnOnce() -> A, b: impl Fn() -> B + Sync) -> (A, B) {
+    #[cfg(not(target_arch = "wasm32"))]
+    if split {
+        let b = &b;
+        let (ra, rb) = std::thread::scope(|scope| {
+            let h = scope.spawn(b);
+            (a(), h.join().ok())
+        });
+        return (ra, rb.unwrap_or_else(b));
+    }
+    let _ = split;
+    (a(), b())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -77,6 +94,19 @@ mod tests {
             j
         });
         assert!(failed.is_none());
+    }
+
+    #[test]
+    fn both_give_both_results() {
+        for split in [false, true] {
+            let data: Vec<u64> = (1..=1000).collect();
+            let (a, b) = both(
+                split,
+                || data.iter().sum::<u64>(),
+                || data.iter().map(|v| v * v).sum::<u64>(),
+            );
+            assert_eq!((a, b), (500_500, 333_833_500));
+        }
     }
 
     #[test]

@@ -71,6 +71,14 @@ impl Pattern {
             .get_or_init(|| std::sync::Arc::new(GridIndex::new(&self.x, &self.y)))
     }
 
+    /// The pattern with `g` kept as its neighbour index: `g` must be
+    /// [`GridIndex::new`] on exactly this pattern's x and y.
+    fn with_index(self, g: GridIndex) -> Pattern {
+        debug_assert_eq!(g.len(), self.x.len());
+        let _ = self.index.0.set(std::sync::Arc::new(g));
+        self
+    }
+
     /// A bare pattern from coordinates in metres (rows numbered 1..=n).
     /// Returns `None` if lengths differ or a coordinate is not finite.
     pub fn from_xy(x: Vec<f64>, y: Vec<f64>) -> Option<Pattern> {
@@ -577,6 +585,10 @@ fn first_gap(v: &mut [f64]) -> f64 {
     f64::INFINITY
 }
 
+/// Events per core before, in a native build, the events' neighbour index
+/// is built alongside the area drawn around them (at intake).
+pub const INDEX_ALONGSIDE: usize = 100_000;
+
 /// Events needed before [`far_points`] judges any of them.
 pub const FAR_MIN_EVENTS: usize = 20;
 /// How many times farther out than the next event a point must be to be cut
@@ -708,6 +720,7 @@ impl Study {
 
         // 3. Window.
         let mut projected_events = None;
+        let mut index_alongside = None;
         let window = match area {
             Some(a) => {
                 let polys = projection.forward_polygons(&a.polygons);
@@ -728,16 +741,34 @@ impl Study {
             }
             None => {
                 let (px, py) = projection.forward_many(&events.x, &events.y);
-                let (w, shape) = match fallback {
-                    AreaFallback::ConvexHull => (
-                        Window::convex_hull_of(&px, &py)?,
-                        "the convex hull of the events",
-                    ),
-                    AreaFallback::BoundingBox => (
-                        Window::bounding_box_of(&px, &py)?,
-                        "the bounding box of the events",
-                    ),
-                };
+                // Many events in a native build: the area is drawn around
+                // them on a second core while their neighbour index (with
+                // its distinct places) is built here. It is the index of
+                // the events kept when all are (every finite point lies in
+                // an area drawn around them).
+                let many = crate::cores::threads_for(px.len(), INDEX_ALONGSIDE) > 1;
+                let (index, drawn) = crate::cores::both(
+                    many,
+                    || {
+                        many.then(|| {
+                            let g = GridIndex::new(&px, &py);
+                            let _ = g.locations();
+                            g
+                        })
+                    },
+                    || match fallback {
+                        AreaFallback::ConvexHull => (
+                            Window::convex_hull_of(&px, &py),
+                            "the convex hull of the events",
+                        ),
+                        AreaFallback::BoundingBox => (
+                            Window::bounding_box_of(&px, &py),
+                            "the bounding box of the events",
+                        ),
+                    },
+                );
+                index_alongside = index;
+                let (w, shape) = (drawn.0?, drawn.1);
                 warnings.push(format!(
                     "No study-area file was given, so the study area is {shape}. An area drawn \
                      around the points is not the space where events could have happened, so \
@@ -775,8 +806,11 @@ impl Study {
         }
 
         // 4. Place events and controls.
-        let (ev, event_rejections, kept) =
+        let (mut ev, event_rejections, kept) =
             place_layer(events, &projection, &window, projected_events);
+        if let Some(g) = index_alongside.filter(|g| g.len() == ev.len()) {
+            ev = ev.with_index(g);
+        }
         let outside = event_rejections
             .iter()
             .filter(|r| r.reason == RejectReason::OutsideStudyArea)
@@ -1490,6 +1524,45 @@ mod tests {
             assert!(want.is_finite());
         }
         assert!(root_sum_squares(f64::NAN, 1.0).is_nan());
+    }
+
+    /// Many events (the index then built alongside the area on a native
+    /// build with two cores or more): the index kept with the events is the
+    /// one built from their coordinates, so the coincidences and nearest
+    /// neighbours are the same; with a far-off point left out, it is the
+    /// index of the events kept.
+    #[test]
+    fn index_built_alongside_is_the_events_index() {
+        use rand::RngExt;
+        let mut rng = crate::rng::rng_from_seed(8);
+        let n = 2 * INDEX_ALONGSIDE + 1000;
+        let mut pts: Vec<(f64, f64)> = (0..n)
+            .map(|_| {
+                (
+                    -32.0 + 0.1 * rng.random::<f64>(),
+                    -41.5 + 0.1 * rng.random::<f64>(),
+                )
+            })
+            .collect();
+        for k in 0..500 {
+            pts[n - 1 - k] = pts[k];
+        }
+        for far in [false, true] {
+            if far {
+                pts.push((0.0, 0.0));
+            }
+            let ev = layer(CoordKind::LonLat, &pts);
+            let s = Study::build(&ev, None, None, AreaFallback::ConvexHull).unwrap();
+            assert_eq!(s.events.len(), n);
+            let (x, y) = (s.events.x(), s.events.y());
+            let fresh = GridIndex::new(x, y);
+            let kept = s.events.index();
+            assert_eq!(kept.len(), n);
+            assert_eq!(kept.cell().to_bits(), fresh.cell().to_bits());
+            assert_eq!(kept.nn_distances(), fresh.nn_distances());
+            assert_eq!(s.coincident, coincidence(x, y));
+            assert_eq!(s.coincident.locations, 500);
+        }
     }
 
     #[test]
