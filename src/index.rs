@@ -1356,11 +1356,6 @@ mod tests {
             .unzip()
     }
 
-    /// The 3 × 3 block shortcut of the nearest-neighbour distance against
-    /// the ring search alone and against brute force, location by location,
-    /// on spread points, a tight cloud with far outliers (the shortcut
-    /// falls back to the ring search there), a line, stacked points and
-    /// grids of one or two cells.
     /// The nearest-neighbour distances split over threads are those of
     /// one thread, value for value and in the same order, with coincident
     /// points and more threads than locations.
@@ -1391,6 +1386,11 @@ mod tests {
         }
     }
 
+    /// The 3 × 3 block shortcut of the nearest-neighbour distance against
+    /// the ring search alone and against brute force, location by location,
+    /// on spread points, a tight cloud with far outliers (the shortcut
+    /// falls back to the ring search there), a line, stacked points and
+    /// grids of one or two cells.
     #[test]
     fn block_shortcut_equals_ring_search_and_brute_force() {
         let mut rng = rng_from_seed(SEED_2);
