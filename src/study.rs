@@ -782,6 +782,13 @@ impl Study {
             }
         };
 
+        // Metres that look like degrees: planar coordinates (none were
+        // recognised by name, or the user said so) that all lie within
+        // longitude and latitude ranges, many events in a few metres.
+        if let Some(w) = degrees_as_metres_warning(events, &window, &projection) {
+            warnings.push(w);
+        }
+
         // Stretch of distances far from the centre.
         if projection.is_geographic() {
             let kmax = window
@@ -895,6 +902,44 @@ impl Study {
             warnings,
         })
     }
+}
+
+/// Events from which [`degrees_as_metres_warning`] speaks.
+pub const DEGREES_AS_METRES_MIN_EVENTS: usize = 20;
+/// Longest side, in metres, of a planar study area that
+/// [`degrees_as_metres_warning`] finds too small for many events (a
+/// judgement call \[CP\]: a spread of longitudes and latitudes read as
+/// metres spans a few units; no study of events lives in a few metres).
+pub const DEGREES_AS_METRES_MAX_SIDE_M: f64 = 5.0;
+
+/// A warning when planar coordinates look like longitudes and latitudes
+/// read as metres: at least [`DEGREES_AS_METRES_MIN_EVENTS`] events, every
+/// x within ±180 and y within ±90, and a study area whose longer side is
+/// under [`DEGREES_AS_METRES_MAX_SIDE_M`] metres. It happens when the
+/// columns' names say nothing of the kind of coordinates (the reader then
+/// takes metres) and the columns are chosen by hand.
+fn degrees_as_metres_warning(
+    events: &RawLayer,
+    window: &Window,
+    projection: &Projection,
+) -> Option<String> {
+    if projection.is_geographic() || events.len() < DEGREES_AS_METRES_MIN_EVENTS {
+        return None;
+    }
+    let in_range =
+        events.x.iter().all(|v| v.abs() <= 180.0) && events.y.iter().all(|v| v.abs() <= 90.0);
+    let [x0, y0, x1, y1] = window.bbox();
+    let side = (x1 - x0).max(y1 - y0);
+    (in_range && side < DEGREES_AS_METRES_MAX_SIDE_M).then(|| {
+        format!(
+            "The coordinates were read as metres, but the {} events lie within {side:.3} m of \
+             each other and every value is a possible longitude (x) and latitude (y). If they \
+             are longitudes and latitudes, set Coordinates to \"longitude / latitude °\" where \
+             the columns are chosen (in a script, coords lon_lat); otherwise every distance, \
+             area and density is wrong.",
+            events.len()
+        )
+    })
 }
 
 /// Farthest a lon/lat study area may reach from its central meridian, in
@@ -1563,6 +1608,38 @@ mod tests {
             assert_eq!(s.coincident, coincidence(x, y));
             assert_eq!(s.coincident.locations, 500);
         }
+    }
+
+    /// Longitudes and latitudes read as metres are named; true metres,
+    /// true degrees and a handful of points are not.
+    #[test]
+    fn degrees_read_as_metres_are_named() {
+        use rand::RngExt;
+        let mut rng = crate::rng::rng_from_seed(14);
+        let mut pts = |n: usize, x0: f64, y0: f64, side: f64| -> Vec<(f64, f64)> {
+            (0..n)
+                .map(|_| {
+                    (
+                        x0 + side * rng.random::<f64>(),
+                        y0 + side * rng.random::<f64>(),
+                    )
+                })
+                .collect()
+        };
+        let metres = CoordKind::Planar {
+            unit: LengthUnit::Metre,
+        };
+        let warned = |kind: CoordKind, p: &[(f64, f64)]| {
+            let s = Study::build(&layer(kind, p), None, None, AreaFallback::ConvexHull).unwrap();
+            s.warnings.iter().any(|w| w.contains("were read as metres"))
+        };
+        let degrees = pts(120, 9.41, 50.02, 0.3);
+        assert!(warned(metres, &degrees));
+        assert!(!warned(CoordKind::LonLat, &degrees));
+        assert!(!warned(metres, &pts(120, 0.0, 0.0, 1000.0)));
+        assert!(!warned(metres, &degrees[..10]));
+        // Within the ranges but spread over more than a few metres: real metres.
+        assert!(!warned(metres, &pts(120, -170.0, -80.0, 150.0)));
     }
 
     #[test]
