@@ -7,12 +7,15 @@ import { $, el } from './dom.js';
 import { state } from './state.js';
 
 const ROLES = ['x', 'y', 'time', 'time_until', 'category', 'weight'];
+// A role left to the engine to find by the column's name (while the user
+// chooses the coordinate columns of a file whose names said nothing).
+const BY_NAME = '\u0000by-name';
 
 export function currentOptions() {
   const mapping = {};
   for (const role of ROLES) {
     const sel = $(`map-${role}`);
-    if (!sel.disabled) mapping[role] = sel.value === '' ? '' : sel.value;
+    if (!sel.disabled && sel.value !== BY_NAME) mapping[role] = sel.value;
   }
   const kind = $('map-coords').value;
   const coords = kind === 'lon_lat' ? { kind: 'lon_lat' } : { kind: 'planar', unit: kind };
@@ -69,9 +72,13 @@ export function renderMapping(report, pending = false) {
       continue;
     }
     sel.disabled = false;
-    sel.append(el('option', { value: '' }, role === 'x' || role === 'y' ? '(choose a column)' : '(not used)'));
+    const xy = role === 'x' || role === 'y';
+    sel.append(el('option', { value: '' }, xy ? '(choose a column)' : '(not used)'));
+    // Not read yet: the other roles are found by name unless chosen.
+    const byName = pending && !xy && chosen !== '';
+    if (byName) sel.append(el('option', { value: BY_NAME }, '(found by its name)'));
     for (const c of columns) sel.append(el('option', { value: c }, c));
-    sel.value = chosen && columns.includes(chosen) ? chosen : '';
+    sel.value = chosen && columns.includes(chosen) ? chosen : byName ? BY_NAME : '';
   }
   const coords = report.coords || {};
   $('map-coords').value = coords.kind === 'planar' ? coords.unit || 'metre' : 'lon_lat';

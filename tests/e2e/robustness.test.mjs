@@ -54,7 +54,7 @@ test('200,000 events load and are drawn', async () => {
 test('when the coordinate columns are not found, choosing them reads the file', async () => {
   const { page } = await openPage(browser);
   // Column names no detector could guess.
-  const csv = 'site,first_ft,second_ft,kind\na,1000,2000,p\nb,1500,2100,q\nc,1200,2600,p\nd,1900,2300,q\n';
+  const csv = 'site,first_ft,second_ft,kind,date\na,1000,2000,p,2025-03-01\nb,1500,2100,q,2025-03-04\nc,1200,2600,p,2025-03-09\nd,1900,2300,q,2025-03-11\n';
   await act(page, () => page.setInputFiles('#events-file', { name: 'odd-names.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) }));
   // Not a red error but a question: the editor offers the header's names,
   // and the status line says what is missing.
@@ -62,7 +62,9 @@ test('when the coordinate columns are not found, choosing them reads the file', 
   assert.match(await page.textContent('#status'), /Choose the coordinate columns of odd-names\.csv below/);
   assert.match(await page.textContent('#mapping-hint'), /choose the x and y columns/);
   const options = await page.$$eval('#map-x option', (os) => os.map((o) => o.value));
-  assert.deepEqual(options, ['', 'site', 'first_ft', 'second_ft', 'kind']);
+  assert.deepEqual(options, ['', 'site', 'first_ft', 'second_ft', 'kind', 'date']);
+  // The other roles wait to be found by their names, unless chosen.
+  assert.equal(await page.$eval('#map-time', (s) => s.selectedOptions[0].textContent), '(found by its name)');
   await act(page, () => page.selectOption('#map-coords', 'foot'));
   await act(page, () => page.selectOption('#map-x', 'first_ft'));
   await act(page, () => page.selectOption('#map-y', 'second_ft'));
@@ -71,6 +73,8 @@ test('when the coordinate columns are not found, choosing them reads the file', 
   assert.equal(await page.inputValue('#map-x'), 'first_ft');
   assert.equal(await page.inputValue('#map-y'), 'second_ft');
   assert.equal(await page.inputValue('#map-coords'), 'foot');
+  // Choosing the coordinates by hand did not turn off the date found by its name.
+  assert.equal(await page.inputValue('#map-time'), 'date');
 });
 
 test('after the engine dies, a new one is started and the kept files are read again', async () => {
