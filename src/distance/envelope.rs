@@ -761,25 +761,18 @@ impl EnvelopeJob {
             return self.run_batch(k);
         }
         let start = self.done;
-        let parts: Vec<Vec<f64>> = std::thread::scope(|scope| {
-            let job = &*self;
-            let handles: Vec<_> = (0..threads)
-                .map(|t| {
-                    let from = start + count * t / threads;
-                    let to = start + count * (t + 1) / threads;
-                    scope.spawn(move || job.simulate_range(from, to))
-                })
-                .collect();
-            handles
-                .into_iter()
-                .map(|h| h.join().unwrap_or_default())
-                .collect()
+        let job = &*self;
+        let parts = crate::cores::each_on_a_thread(crate::cores::ranges(count, threads), |r| {
+            job.simulate_range(start + r.start, start + r.end)
         });
+        // A thread failed (cannot happen short of a panic): all of it on
+        // this thread.
+        let Some(parts) = parts else {
+            return self.run_batch(k);
+        };
         for part in parts {
             let from = self.done;
             if self.add_simulated(from, &part).is_err() {
-                // A thread failed (cannot happen short of a panic): finish
-                // the rest on this thread.
                 return self.run_batch(end - self.done);
             }
         }

@@ -590,30 +590,30 @@ impl PairRun {
         self.done = to;
         self.done
     }
-    /// Runs the remaining permutations on `threads` threads (natively).
+    /// Runs the remaining permutations on `threads` threads (native
+    /// builds; contiguous ranges joined in order, the same tables as one
+    /// thread).
+    #[cfg(not(target_arch = "wasm32"))]
     pub fn run_parallel(&mut self, threads: usize) {
         let from = self.done;
         let left = self.n_perm - from;
-        let threads = threads.max(1).min(left.max(1));
-        let per = left.div_ceil(threads);
-        let pieces: Vec<Vec<u32>> = std::thread::scope(|s| {
-            let hs: Vec<_> = (0..threads)
-                .map(|w| {
-                    let a = from + w * per;
-                    let b = (a + per).min(self.n_perm);
-                    let e = &self.engine;
-                    let seed = self.seed;
-                    s.spawn(move || e.simulate(seed, a.min(b), b))
-                })
-                .collect();
-            hs.into_iter()
-                .map(|h| h.join().unwrap_or_default())
-                .collect()
+        let (e, seed) = (&self.engine, self.seed);
+        let pieces = crate::cores::each_on_a_thread(crate::cores::ranges(left, threads), |r| {
+            e.simulate(seed, from + r.start, from + r.end)
         });
-        for p in pieces {
-            self.sims.extend_from_slice(&p);
+        match pieces {
+            Some(pieces) => {
+                for p in pieces {
+                    self.sims.extend_from_slice(&p);
+                }
+                self.done = self.n_perm;
+            }
+            // A thread failed (cannot happen short of a panic): all of it
+            // on this thread.
+            None => {
+                self.run_batch(left);
+            }
         }
-        self.done = self.sims.len() / self.engine.cells();
     }
     pub fn share(&self) -> PairShare {
         PairShare {
